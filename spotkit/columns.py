@@ -1,0 +1,174 @@
+"""The glossary: every column name spotkit uses, with its unit and dtype.
+
+This module is the only place where column names are spelled out. Readers map a
+file's own headings onto these names at the boundary (:mod:`spotkit.ingest`);
+everything else imports the constants from here.
+
+Units are the house units: time in UTC, frequency in Hz, SNR in dB in a
+2500 Hz reference bandwidth, power in dBm, distance in km, angles in degrees
+(bearings clockwise from true north, 0-360).
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import pandas as pd
+
+# --- canonical spot table -------------------------------------------------------------
+TIME = "time_utc"
+SLOT = "slot_utc"
+TX_CALL = "tx_call"
+TX_LOCATOR = "tx_locator"
+RX_CALL = "rx_call"
+RX_LOCATOR = "rx_locator"
+FREQ = "freq_hz"
+BAND = "band"
+SNR = "snr_db"
+POWER = "power_dbm"
+DRIFT = "drift_hz"
+TX_LAT = "tx_lat"
+TX_LON = "tx_lon"
+RX_LAT = "rx_lat"
+RX_LON = "rx_lon"
+DISTANCE = "distance_km"
+BEARING = "bearing_deg"
+REVERSE_BEARING = "reverse_bearing_deg"
+SOURCE_FILE = "source_file"
+SOURCE_ROW = "source_row"
+
+# --- optional path columns (spotkit.geo / spotkit.sun helpers) -------------------------
+MID_LAT = "mid_lat"
+MID_LON = "mid_lon"
+HOPS = "hops"
+ELEVATION = "elevation_deg"
+TX_SUN = "tx_sun_elevation_deg"
+RX_SUN = "rx_sun_elevation_deg"
+MID_SUN = "mid_sun_elevation_deg"
+PATH_LIGHT = "path_light"  # "day" | "night" | "greyline"
+
+# --- derived analysis columns -----------------------------------------------------------
+SNR_PER_W = "snr_per_w_db"  # SNR normalised to 1 W (30 dBm) transmit power
+
+# --- rejects table -----------------------------------------------------------------------
+REJECT_FIELD = "field"
+REJECT_VALUE = "value"
+REJECT_REASON = "reason"
+REJECT_COLUMNS = [SOURCE_FILE, SOURCE_ROW, REJECT_FIELD, REJECT_VALUE, REJECT_REASON]
+
+#: Slot length of the weak-signal beacon modes, minutes (common practice).
+SLOT_MINUTES = 2
+
+UTC_DTYPE = pd.DatetimeTZDtype(unit="ns", tz="UTC")
+
+
+@dataclass(frozen=True)
+class Column:
+    """One glossary entry."""
+
+    name: str
+    dtype: object
+    unit: str
+    description: str
+
+
+_CAT = "category"
+
+GLOSSARY: dict[str, Column] = {
+    c.name: c
+    for c in [
+        Column(TIME, UTC_DTYPE, "UTC", "time of the report as given, tz-aware UTC"),
+        Column(SLOT, UTC_DTYPE, "UTC", "start of the transmit slot the report belongs to"),
+        Column(TX_CALL, _CAT, "", "transmitting station's callsign, upper case"),
+        Column(TX_LOCATOR, _CAT, "", "transmitter's Maidenhead locator, 2-8 characters"),
+        Column(RX_CALL, _CAT, "", "receiving (reporting) station's callsign, upper case"),
+        Column(RX_LOCATOR, _CAT, "", "receiver's Maidenhead locator, 2-8 characters"),
+        Column(FREQ, "float64", "Hz", "RF frequency of the received signal"),
+        Column(BAND, _CAT, "", "amateur band name from the IARU band plans, e.g. '20m'"),
+        Column(SNR, "float64", "dB", "signal-to-noise ratio in a 2500 Hz bandwidth, whole dB"),
+        Column(POWER, "float64", "dBm", "transmit power the spot reports"),
+        Column(DRIFT, "float64", "Hz/min", "frequency drift reported by the decoder (optional)"),
+        Column(TX_LAT, "float64", "deg", "latitude of the centre of the transmitter's locator cell"),
+        Column(TX_LON, "float64", "deg", "longitude of the centre of the transmitter's locator cell"),
+        Column(RX_LAT, "float64", "deg", "latitude of the centre of the receiver's locator cell"),
+        Column(RX_LON, "float64", "deg", "longitude of the centre of the receiver's locator cell"),
+        Column(DISTANCE, "float64", "km", "geodesic distance on WGS-84"),
+        Column(BEARING, "float64", "deg", "azimuth at the transmitter towards the receiver, 0-360"),
+        Column(REVERSE_BEARING, "float64", "deg",
+               "azimuth at the receiver towards the transmitter, 0-360"),
+        Column(SOURCE_FILE, _CAT, "", "file the row came from"),
+        Column(SOURCE_ROW, "int64", "", "1-based data-row number in that file (header excluded)"),
+    ]
+}
+
+#: Columns a reader must find (or be told) in an input file.
+INPUT_FIELDS = [TIME, TX_CALL, TX_LOCATOR, RX_CALL, RX_LOCATOR, FREQ, SNR, POWER, DRIFT]
+REQUIRED_INPUT = [TIME, TX_CALL, TX_LOCATOR, RX_CALL, RX_LOCATOR, FREQ, SNR, POWER]
+#: Columns added by enrichment.
+DERIVED = [TX_LAT, TX_LON, RX_LAT, RX_LON, DISTANCE, BEARING, REVERSE_BEARING]
+#: The canonical table, in order.
+CANONICAL = [TIME, SLOT, TX_CALL, TX_LOCATOR, RX_CALL, RX_LOCATOR, FREQ, BAND, SNR, POWER,
+             DRIFT, *DERIVED, SOURCE_FILE, SOURCE_ROW]
+#: The columns that identify one report; two rows equal on all of them are duplicates.
+REPORT_KEY = [SLOT, TX_CALL, TX_LOCATOR, RX_CALL, RX_LOCATOR, FREQ, SNR, POWER]
+
+#: Short field names used by the CLI's --map / --unit options.
+CLI_FIELDS = {
+    "time": TIME,
+    "tx_call": TX_CALL,
+    "tx_locator": TX_LOCATOR,
+    "rx_call": RX_CALL,
+    "rx_locator": RX_LOCATOR,
+    "frequency": FREQ,
+    "snr": SNR,
+    "power": POWER,
+    "drift": DRIFT,
+}
+
+
+def apply_dtypes(df: pd.DataFrame) -> pd.DataFrame:
+    """Return ``df`` with every glossary column it has cast to the glossary dtype.
+
+    Columns not in the glossary are left as they are.
+    """
+    out = df.copy()
+    for name in out.columns:
+        col = GLOSSARY.get(name)
+        if col is None:
+            continue
+        if str(out[name].dtype) == str(col.dtype):
+            continue
+        out[name] = out[name].astype(col.dtype)
+    return out
+
+
+def empty_spots() -> pd.DataFrame:
+    """An empty canonical spot table with the glossary dtypes."""
+    return pd.DataFrame(
+        {name: pd.Series(dtype=GLOSSARY[name].dtype) for name in CANONICAL}
+    )
+
+
+def empty_rejects() -> pd.DataFrame:
+    """An empty rejects table."""
+    return pd.DataFrame(
+        {
+            SOURCE_FILE: pd.Series(dtype="object"),
+            SOURCE_ROW: pd.Series(dtype="int64"),
+            REJECT_FIELD: pd.Series(dtype="object"),
+            REJECT_VALUE: pd.Series(dtype="object"),
+            REJECT_REASON: pd.Series(dtype="object"),
+        }
+    )
+
+
+def describe() -> pd.DataFrame:
+    """The glossary as a table (name, dtype, unit, description)."""
+    return pd.DataFrame(
+        [(c.name, str(c.dtype), c.unit, c.description) for c in GLOSSARY.values()],
+        columns=["name", "dtype", "unit", "description"],
+    )
+
+
+__all__ = [n for n in dir() if n.isupper()] + [
+    "Column", "apply_dtypes", "empty_spots", "empty_rejects", "describe",
+]
