@@ -49,6 +49,42 @@ PATH_LIGHT = "path_light"  # "day" | "night" | "greyline"
 # --- derived analysis columns -----------------------------------------------------------
 SNR_PER_W = "snr_per_w_db"  # SNR normalised to 1 W (30 dBm) transmit power
 
+# --- A/B pairs (spotkit.pairing) -----------------------------------------------------------
+ANTENNA = "antenna"  # "A" | "B": which antenna a spot belongs to
+CLUSTER = "cluster"  # bootstrap unit: receiver (transmit designs) or transmitter (receive design)
+SNR_A = "snr_a_db"  # A's SNR normalised to 1 W [dB]; NaN when A was not heard
+SNR_B = "snr_b_db"  # B's SNR normalised to 1 W [dB]; NaN when B was not heard
+LIMIT_A = "limit_a_db"  # A's censoring limit on the same scale: threshold - (power - 30) [dB]
+LIMIT_B = "limit_b_db"
+HEARD_A = "heard_a"
+HEARD_B = "heard_b"
+#: compressed pair table ("pair histogram"): one row per group x cluster x kind x value
+KIND = "kind"  # "both" | "only_a" | "only_b"
+VALUE = "value_db"  # both: B-A; only_a: upper bound of B-A; only_b: lower bound of B-A [dB]
+COUNT = "count"
+KINDS = ("both", "only_a", "only_b")
+
+# --- comparison results (spotkit.compare) -----------------------------------------------------
+B_MINUS_A = "b_minus_a_db"
+CI_LOW = "ci_low_db"
+CI_HIGH = "ci_high_db"
+PAIRS = "pairs"
+BOTH = "both"
+ONLY_A = "only_a"
+ONLY_B = "only_b"
+P_VALUE = "p_value"
+P_ADJUSTED = "p_adjusted"
+METHOD = "method"
+DISTANCE_MIN = "distance_min_km"
+DISTANCE_MAX = "distance_max_km"
+BEARING_MIN = "bearing_min_deg"
+BEARING_MAX = "bearing_max_deg"
+ELEVATION_MIN = "elevation_min_deg"
+ELEVATION_MAX = "elevation_max_deg"
+HOUR = "hour"  # hour of day, 0-23 (UTC or path-midpoint local solar time)
+FIELD = "field_locator"  # 2-character locator field of the far station
+SQUARE = "square_locator"  # 4-character locator square of the far station
+
 # --- rejects table -----------------------------------------------------------------------
 REJECT_FIELD = "field"
 REJECT_VALUE = "value"
