@@ -63,6 +63,17 @@ KIND = "kind"  # "both" | "only_a" | "only_b"
 VALUE = "value_db"  # both: B-A; only_a: upper bound of B-A; only_b: lower bound of B-A [dB]
 COUNT = "count"
 KINDS = ("both", "only_a", "only_b")
+#: before/after design: KIND of a target-minus-control SNR observed before / after the change
+PERIOD_KINDS = ("before", "after")
+FAR_CALL = "far_call"  # the station at the other end of a pair: receiver (transmit designs)
+FAR_LOCATOR = "far_locator"  # or transmitter (receive design)
+FAR_LAT = "far_lat"
+FAR_LON = "far_lon"
+SLOT_B = "slot_b_utc"  # alternating design: slot of B's transmission paired with A's (SLOT)
+#: switching schedule (alternating design): one row per interval [start, end) with ANTENNA
+#: "A" | "B" and optionally BAND
+SCHEDULE_START = "start"
+SCHEDULE_END = "end"
 
 # --- comparison results (spotkit.compare) -----------------------------------------------------
 B_MINUS_A = "b_minus_a_db"
