@@ -1,0 +1,210 @@
+"""Tests for spotkit.store: Parquet files and partitioned archives.
+
+The oracle throughout is pandas itself: what comes back from Parquet (with filters pushed
+down) must equal the in-memory table selected with plain boolean masks.
+"""
+from __future__ import annotations
+
+import os
+
+import numpy as np
+import pandas as pd
+import pyarrow.compute as pc
+import pytest
+
+from spotkit import columns as C
+from spotkit import store
+from spotkit.errors import InputError, UsageError
+
+CALLS_TX = ["Q1ABC", "Q7XYZ", "Q3KLM"]
+CALLS_RX = ["Q2AA", "Q4BB", "Q5CC", "Q6DD"]
+LOCS = ["JN58td", "IO91lk", "FN31pr", "GF15vc", "RE78ir"]  # Tyson (QST 1989) examples
+
+
+def make_spots(n=400, seed=1, start="2026-11-30 20:00"):
+    """Random canonical spot table (invented calls, real grid squares)."""
+    rng = np.random.default_rng(seed)
+    slot = pd.Timestamp(start, tz="UTC") + pd.to_timedelta(
+        2 * rng.integers(0, 6 * 30, n), unit="min")  # 12 h of 2-min slots, crossing midnight
+    bands = rng.choice(["40m", "20m", "10m"], n)
+    freq = np.select([bands == "40m", bands == "20m"], [7.0401e6, 14.0971e6], 28.1261e6)
+    df = pd.DataFrame({
+        C.TIME: slot + pd.to_timedelta(rng.integers(0, 2, n), unit="s"),
+        C.SLOT: slot,
+        C.TX_CALL: rng.choice(CALLS_TX, n), C.TX_LOCATOR: rng.choice(LOCS, n),
+        C.RX_CALL: rng.choice(CALLS_RX, n), C.RX_LOCATOR: rng.choice(LOCS, n),
+        C.FREQ: freq + rng.integers(0, 200, n), C.BAND: bands,
+        C.SNR: rng.integers(-30, 10, n).astype(float),
+        C.POWER: rng.choice([23.0, 30.0, 37.0], n), C.DRIFT: rng.integers(-2, 3, n).astype(float),
+        C.TX_LAT: rng.uniform(-60, 60, n), C.TX_LON: rng.uniform(-180, 180, n),
+        C.RX_LAT: rng.uniform(-60, 60, n), C.RX_LON: rng.uniform(-180, 180, n),
+        C.DISTANCE: rng.uniform(0, 20000, n), C.BEARING: rng.uniform(0, 360, n),
+        C.REVERSE_BEARING: rng.uniform(0, 360, n),
+        C.SOURCE_FILE: "spots.csv", C.SOURCE_ROW: np.arange(1, n + 1),
+    })
+    return C.apply_dtypes(df)[C.CANONICAL]
+
+
+def canonical_sorted(df):
+    """Sort rows and give categoricals sorted/band-ordered categories, as store returns."""
+    out = store.table_to_spots(store._to_arrow(df.reset_index(drop=True)))
+    key = [c for c in (C.SOURCE_FILE, C.SOURCE_ROW, C.TIME, C.FREQ, C.SNR) if c in out.columns]
+    return out.sort_values(key, kind="stable").reset_index(drop=True)
+
+
+def assert_same_spots(got, want):
+    pd.testing.assert_frame_equal(canonical_sorted(got), canonical_sorted(want))
+
+
+# --- single files ----------------------------------------------------------------------
+def test_write_read_roundtrip_keeps_glossary_dtypes(tmp_path):
+    df = make_spots()
+    path = store.write_spots(df, tmp_path / "sub" / "spots.parquet")
+    got = store.read_spots_parquet(path)
+    assert list(got.columns) == C.CANONICAL
+    for name in C.CANONICAL:
+        assert str(got[name].dtype) == str(C.GLOSSARY[name].dtype), name
+    assert_same_spots(got, df)
+
+
+def test_read_filters_and_columns_pushdown(tmp_path):
+    df = make_spots()
+    path = store.write_spots(df, tmp_path / "spots.parquet")
+    got = store.read_spots_parquet(path, filters=[(C.BAND, "==", "20m"), (C.SNR, ">", -10)],
+                                   columns=[C.SLOT, C.BAND, C.SNR])
+    want = df.loc[(df[C.BAND] == "20m") & (df[C.SNR] > -10), [C.SLOT, C.BAND, C.SNR]]
+    assert list(got.columns) == [C.SLOT, C.BAND, C.SNR]
+    assert len(got) == len(want) > 0
+    np.testing.assert_array_equal(np.sort(got[C.SNR].to_numpy()), np.sort(want[C.SNR].to_numpy()))
+    expr = pc.field(C.TX_CALL) == "Q7XYZ"
+    got = store.read_spots_parquet(path, filters=expr)
+    assert len(got) == int((df[C.TX_CALL] == "Q7XYZ").sum())
+
+
+def test_read_bad_inputs(tmp_path):
+    bad = tmp_path / "bad.parquet"
+    bad.write_text("time,call\n1,2\n")
+    with pytest.raises(InputError, match="bad.parquet"):
+        store.read_spots_parquet(bad)
+    with pytest.raises(FileNotFoundError):
+        store.read_spots_parquet(tmp_path / "missing.parquet")
+    path = store.write_spots(make_spots(20), tmp_path / "s.parquet")
+    with pytest.raises(InputError, match="no_such_column"):
+        store.read_spots_parquet(path, columns=["no_such_column"])
+
+
+# --- partitioned archives ----------------------------------------------------------------
+def test_append_read_back_and_layout(tmp_path):
+    df = make_spots()
+    root = tmp_path / "arch"
+    entry = store.append_to_dataset(df, root, source_hash="0" * 64, source="a.csv")
+    assert entry["rows"] == len(df)
+    got = store.read_dataset(root)
+    assert list(got.columns) == C.CANONICAL
+    assert_same_spots(got, df)
+    # one directory per band x slot day; midnight UTC splits the slots (20:00 -> 08:00)
+    days = df[C.SLOT].dt.strftime("%Y-%m-%d")
+    want_dirs = {f"{C.BAND}={b}/{store.DAY}={d}" for b, d in zip(df[C.BAND].astype(str), days)}
+    got_dirs = {str(p.parent.relative_to(root)) for p in root.rglob("*.parquet")}
+    assert got_dirs == want_dirs and len(want_dirs) == 6
+    man = store.dataset_manifest(root)
+    assert man["partition_by"] == [C.BAND, store.DAY]
+    assert [b["sha256"] for b in man["batches"]] == ["0" * 64]
+    assert sorted(man["batches"][0]["files"]) == sorted(
+        p.relative_to(root).as_posix() for p in root.rglob("*.parquet"))
+
+
+def test_append_never_rewrites_and_refuses_same_hash(tmp_path):
+    root = tmp_path / "arch"
+    a, b = make_spots(300, seed=1), make_spots(200, seed=2, start="2026-12-01 06:00")
+    store.append_to_dataset(a, root, source_hash="a" * 64, source="a.csv")
+    before = {p: (p.stat().st_mtime_ns, p.stat().st_ino) for p in root.rglob("*.parquet")}
+    store.append_to_dataset(b, root, source_hash="b" * 64, source="b.csv")
+    after = {p: (p.stat().st_mtime_ns, p.stat().st_ino) for p in root.rglob("*.parquet")}
+    assert all(after[p] == v for p, v in before.items())  # old files untouched
+    assert len(after) > len(before)
+    assert_same_spots(store.read_dataset(root), pd.concat([a, b], ignore_index=True))
+    with pytest.raises(InputError, match="already in the archive"):
+        store.append_to_dataset(b, root, source_hash="b" * 64, source="b-again.csv")
+    assert len(store.dataset_manifest(root)["batches"]) == 2
+    assert not [p for p in root.iterdir() if p.name.startswith("_staging")]
+
+
+def test_append_partition_mismatch_and_foreign_dir(tmp_path):
+    root = tmp_path / "arch"
+    store.append_to_dataset(make_spots(50), root, partition_by=(C.BAND,))
+    with pytest.raises(UsageError, match="partitioned by"):
+        store.append_to_dataset(make_spots(50), root)
+    with pytest.raises(ValueError, match="valid: band, day"):
+        store.append_to_dataset(make_spots(50), tmp_path / "x", partition_by=("hour",))
+    other = tmp_path / "other"
+    other.mkdir()
+    (other / "notes.txt").write_text("x")
+    with pytest.raises(UsageError, match="not a spotkit archive"):
+        store.append_to_dataset(make_spots(50), other)
+    got = store.read_dataset(root, bands="40m")
+    assert set(got[C.BAND].astype(str)) == {"40m"}
+
+
+@pytest.mark.parametrize("query", [
+    dict(bands="20m"),
+    dict(bands=["40m", "10m"]),
+    dict(start="2026-12-01 01:00", end="2026-12-01T03:30Z"),
+    dict(start=pd.Timestamp("2026-11-30 23:00", tz="UTC")),
+    dict(end="2026-11-30 21:00"),
+    dict(tx_calls="Q1ABC", rx_calls=["Q2AA", "Q5CC"]),
+    dict(locator_prefix="io9"),
+    dict(bands="10m", start="2026-12-01", locator_prefix="RE"),
+])
+def test_read_dataset_filters_match_pandas(tmp_path, query):
+    df = make_spots(600, seed=3)
+    root = tmp_path / "arch"
+    store.append_to_dataset(df, root)
+    keep = np.ones(len(df), bool)
+    if "bands" in query:
+        b = query["bands"]
+        keep &= df[C.BAND].astype(str).isin([b] if isinstance(b, str) else b).to_numpy()
+    if "start" in query:
+        t0 = pd.Timestamp(query["start"])
+        t0 = t0.tz_localize("UTC") if t0.tzinfo is None else t0
+        keep &= (df[C.SLOT] >= t0).to_numpy()
+    if "end" in query:
+        t1 = pd.Timestamp(query["end"])
+        t1 = t1.tz_localize("UTC") if t1.tzinfo is None else t1
+        keep &= (df[C.SLOT] < t1).to_numpy()
+    if "tx_calls" in query:
+        keep &= (df[C.TX_CALL] == query["tx_calls"]).to_numpy()
+    if "rx_calls" in query:
+        keep &= df[C.RX_CALL].astype(str).isin(query["rx_calls"]).to_numpy()
+    if "locator_prefix" in query:
+        p = query["locator_prefix"].upper()
+        keep &= (df[C.TX_LOCATOR].astype(str).str.upper().str.startswith(p)
+                 | df[C.RX_LOCATOR].astype(str).str.upper().str.startswith(p)).to_numpy()
+    got = store.read_dataset(root, **query)
+    assert 0 < len(got) < len(df)
+    assert_same_spots(got, df.loc[keep])
+
+
+def test_read_dataset_columns_dedupe_and_errors(tmp_path):
+    df = make_spots(200)
+    root = tmp_path / "arch"
+    store.append_to_dataset(df, root, source_hash="1" * 64)
+    store.append_to_dataset(df.iloc[:50], root, source_hash="2" * 64)  # overlapping export
+    assert len(store.read_dataset(root)) == 250
+    got = store.read_dataset(root, dedupe=True, columns=[C.SLOT, C.SNR])
+    assert list(got.columns) == [C.SLOT, C.SNR] and len(got) == 200
+    both = store.read_spots_parquet(root, filters=[(C.BAND, "==", "20m")])
+    assert set(both[C.BAND].astype(str)) == {"20m"}
+    with pytest.raises(UsageError, match="not after"):
+        store.read_dataset(root, start="2026-12-02", end="2026-12-01")
+    with pytest.raises(UsageError, match="start"):
+        store.read_dataset(root, start="yesterday-ish")
+    with pytest.raises(FileNotFoundError):
+        store.read_dataset(tmp_path / "nowhere")
+
+
+def test_empty_archive_reads_empty_table(tmp_path):
+    root = tmp_path / "arch"
+    store.append_to_dataset(make_spots(10).iloc[:0], root)
+    got = store.read_dataset(root)
+    assert len(got) == 0 and list(got.columns) == C.CANONICAL
