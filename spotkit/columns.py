@@ -95,6 +95,15 @@ ELEVATION_MAX = "elevation_max_deg"
 HOUR = "hour"  # hour of day, 0-23 (UTC or path-midpoint local solar time)
 FIELD = "field_locator"  # 2-character locator field of the far station
 SQUARE = "square_locator"  # 4-character locator square of the far station
+BOTH_HEARD = "both_heard_b_minus_a_db"  # mean B-A of the pairs where both were heard [dB]
+HODGES_LEHMANN = "hodges_lehmann_db"  # HL shift of the both-heard differences [dB]
+P_WILCOXON = "p_wilcoxon"  # Wilcoxon signed-rank p of the both-heard differences
+P_SIGN = "p_sign"  # sign-test p of the both-heard differences
+P_MCNEMAR = "p_mcnemar"  # McNemar exact p on only_a vs only_b
+SIGMA = "sigma_db"  # fitted spread of B-A per pair [dB]
+CLUSTERS = "clusters"  # number of bootstrap clusters (receivers / transmitters) in the group
+NOTE = "note"  # plain-language remark (too few pairs, no interval...)
+GROUP = "group"  # readable group label
 
 # --- rejects table -----------------------------------------------------------------------
 REJECT_FIELD = "field"

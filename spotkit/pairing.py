@@ -1,0 +1,782 @@
+"""A/B experiment designs -> paired reports with censoring limits.
+
+A comparison of two antennas A and B rests on *pairs*: two reports that share everything
+but the antenna. Every design below builds one row per pair in which at least one antenna
+was heard; SNRs are normalised to 1 W (``units.snr_per_watt`` with the power each report
+states), so A and B may run at different powers.
+
+``"simultaneous"``
+    Two transmitter calls (A and B) on the air in the same slot and band. A pair is one
+    receiver in one slot and band; the cluster (bootstrap unit) is the receiver.
+``"alternating"``
+    One transmitter call switched between antennas by a schedule (``"even-odd"``: A in the
+    slots whose index since 00:00 UTC is even; ``"odd-even"``; ``"every-N"``: blocks of N
+    slots since 00:00 UTC, A in the even blocks; or a table / CSV of ``start, end, antenna``
+    [, ``band``] intervals). On each band the on-air A slots are matched one to one with
+    on-air B slots no more than ``window_slots`` slots away (first come, first matched); a
+    pair is one receiver's reports in a matched (A slot, B slot). Cluster: the receiver.
+``"receive"``
+    Two co-located receivers (rx calls A and B) hearing the same transmitters. A pair is one
+    transmitter in one slot and band; the cluster is the transmitter.
+``"before-after"``
+    One transmitter call whose antenna changed at ``change_at``. Each report of the target
+    is referred to a control - the mean per-W SNR of the *other* stations the same receiver
+    heard on the same band in the same slot - and the relative SNR before (kind
+    ``"before"``) is compared with after (``"after"``). This design is weaker than the
+    others: propagation, the control stations and the receivers all change between the
+    periods, and censoring is not modelled.
+
+Censoring. A missing report is "not heard" only when that antenna was on the air in that
+slot and band (some receiver heard it there; alternating: the schedule says so too).
+Otherwise the pair is set aside with a reason (counts in ``pairs.attrs["set_aside"]``).
+A receiver's decode threshold is the lowest raw SNR it reported in the whole table (any
+station): its reports never go below its threshold, so the minimum is an upper estimate of
+the true threshold and the bound ``LIMIT = threshold - (power - 30)`` [dB per W] stays
+valid, only looser. For receivers with fewer than ``min_receiver_reports`` reports the
+minimum is a poor estimate; their threshold is the smaller of their own minimum and the
+median threshold of the well-observed receivers (documented approximation).
+
+Known error: the model assumes the two antennas see the same propagation within a pair;
+in the alternating design the path changes between neighbouring slots (2-4 minutes), which
+adds spread but no bias when the schedule is balanced.
+"""
+from __future__ import annotations
+
+from collections import deque
+from pathlib import Path
+from typing import Literal
+
+import numpy as np
+import pandas as pd
+
+from . import columns as C
+from .errors import InputError, NoPairsError, SpotkitWarning, UsageError
+from .units import REFERENCE_POWER_DBM, snr_per_watt
+
+Design = Literal["simultaneous", "alternating", "receive", "before-after"]
+DESIGNS = ("simultaneous", "alternating", "receive", "before-after")
+
+#: Group keys accepted by :func:`add_group_keys` / :func:`summarise_pairs`.
+GROUP_KEYS = ("band", "distance", "bearing", "hour", "elevation", "light", "field", "square",
+              "receiver")
+HourBasis = Literal["utc", "local"]
+
+DEFAULT_DISTANCE_EDGES = (0.0, 1000.0, 3000.0, 6000.0, 20100.0)
+DEFAULT_ELEVATION_EDGES = (0.0, 5.0, 10.0, 20.0, 40.0, 90.0)
+
+_SLOT_NS = C.SLOT_MINUTES * 60 * 1_000_000_000
+_DAY_NS = 86400 * 1_000_000_000
+_NEEDED = [C.SLOT, C.TX_CALL, C.TX_LOCATOR, C.RX_CALL, C.RX_LOCATOR, C.BAND, C.SNR, C.POWER,
+           C.TX_LAT, C.TX_LON, C.RX_LAT, C.RX_LON, C.DISTANCE, C.BEARING, C.REVERSE_BEARING]
+
+#: columns of the pairs table, in order (SLOT_B only in the alternating design, KIND only
+#: in the before/after design)
+PAIR_COLUMNS = [C.CLUSTER, C.BAND, C.SLOT, C.FAR_CALL, C.FAR_LOCATOR, C.FAR_LAT, C.FAR_LON,
+                C.TX_LOCATOR, C.RX_LOCATOR, C.TX_LAT, C.TX_LON, C.RX_LAT, C.RX_LON,
+                C.DISTANCE, C.BEARING, C.SNR_A, C.SNR_B, C.LIMIT_A, C.LIMIT_B, C.HEARD_A,
+                C.HEARD_B]
+
+
+# --- helpers -------------------------------------------------------------------------------
+def _check_design(design: str) -> str:
+    if design not in DESIGNS:
+        raise ValueError(f"unknown design {design!r}; valid: {', '.join(DESIGNS)}")
+    return design
+
+
+def _ns(series: pd.Series) -> np.ndarray:
+    """UTC times as int64 nanoseconds since the epoch."""
+    s = pd.to_datetime(series, utc=True)
+    return s.dt.tz_localize(None).to_numpy().astype("datetime64[ns]").view(np.int64)
+
+
+def _to_utc(ns: np.ndarray) -> pd.Series:
+    return pd.Series(pd.to_datetime(np.asarray(ns, dtype=np.int64), unit="ns", utc=True))
+
+
+def _as_category(s: pd.Series) -> pd.Series:
+    return s if isinstance(s.dtype, pd.CategoricalDtype) else s.astype("category")
+
+
+def _validate(spots: pd.DataFrame) -> pd.DataFrame:
+    if not isinstance(spots, pd.DataFrame):
+        raise UsageError("spots must be a pandas DataFrame (the canonical spot table)")
+    missing = [c for c in _NEEDED if c not in spots.columns]
+    if missing:
+        raise InputError(
+            "the spot table lacks column(s) " + ", ".join(missing)
+            + " - read it with spotkit.ingest (it adds positions, distance and bearings)")
+    if len(spots) == 0:
+        raise NoPairsError("the spot table is empty: nothing to compare")
+    return spots
+
+
+def _calls_present(series: pd.Series, limit: int = 15) -> str:
+    counts = series.value_counts()
+    counts = counts[counts > 0]
+    shown = ", ".join(f"{k} ({v})" for k, v in counts.head(limit).items())
+    more = f" and {len(counts) - limit} more" if len(counts) > limit else ""
+    return shown + more
+
+
+def _check_call(spots: pd.DataFrame, col: str, call: str, role: str) -> str:
+    call = str(call).strip().upper()
+    values = spots[col]
+    if not (values == call).any():
+        what = "receiver" if col == C.RX_CALL else "transmitter"
+        raise InputError(
+            f"{role} call {call!r} is not a {what} call in the data; {what} calls present "
+            f"(reports): {_calls_present(values)}")
+    return call
+
+
+def receiver_thresholds(spots: pd.DataFrame, min_reports: int = 20) -> pd.Series:
+    """Each receiver's decode threshold, from the lowest SNR it reported.
+
+    Parameters
+    ----------
+    spots : pandas.DataFrame
+        Canonical spot table (``C.RX_CALL``, ``C.SNR``).
+    min_reports : int
+        Receivers with fewer reports get the smaller of their own minimum and the median
+        threshold of the receivers with at least this many reports.
+
+    Returns
+    -------
+    pandas.Series
+        Threshold [dB, raw SNR in 2500 Hz] indexed by receiver call.
+    """
+    g = spots.groupby(C.RX_CALL, observed=True)[C.SNR].agg(["min", "count"])
+    thr = g["min"].astype(float)
+    well = g["count"] >= min_reports
+    if well.any() and (~well).any():
+        typical = float(thr[well].median())
+        thr[~well] = np.minimum(thr[~well], typical)
+    thr.name = "threshold_db"
+    return thr
+
+
+def _side(df: pd.DataFrame, keys: list[str]) -> pd.DataFrame:
+    """One row per key (mean per-W SNR of duplicate reports; first of everything else)."""
+    df = df.assign(_snrw=snr_per_watt(df[C.SNR], df[C.POWER]))
+    if not df.duplicated(keys).any():
+        return df
+    agg = {c: "first" for c in df.columns if c not in keys}
+    agg["_snrw"] = "mean"
+    return df.groupby(keys, observed=True, sort=False).agg(agg).reset_index()
+
+
+def _finish(merged: pd.DataFrame, set_aside: dict, design: str) -> pd.DataFrame:
+    """Common tail: limits, heard flags, on-air filter, output columns."""
+    heard_a = merged["_snrw_a"].notna().to_numpy()
+    heard_b = merged["_snrw_b"].notna().to_numpy()
+    on_a = merged["_pow_a"].notna().to_numpy()
+    on_b = merged["_pow_b"].notna().to_numpy()
+    keep = (heard_a & heard_b) | (heard_a & on_b) | (heard_b & on_a)
+    n_off_b = int((heard_a & ~heard_b & ~on_b).sum())
+    n_off_a = int((heard_b & ~heard_a & ~on_a).sum())
+    if n_off_b:
+        set_aside["only A heard and B not on the air in that slot"] = n_off_b
+    if n_off_a:
+        set_aside["only B heard and A not on the air in that slot"] = n_off_a
+    m = merged.loc[keep].reset_index(drop=True)
+    out = pd.DataFrame({
+        C.CLUSTER: m["_cluster"].astype(str).astype("category"),
+        C.BAND: m["_band"].astype(str).astype("category"),
+        C.SLOT: _to_utc(m["_slot"].to_numpy()),
+    })
+    if "_slot_b" in m:
+        out[C.SLOT_B] = _to_utc(m["_slot_b"].to_numpy())
+    for col in [C.FAR_CALL, C.FAR_LOCATOR]:
+        out[col] = m[col].astype(str).astype("category")
+    for col in [C.FAR_LAT, C.FAR_LON]:
+        out[col] = m[col].to_numpy(dtype=float)
+    for col in [C.TX_LOCATOR, C.RX_LOCATOR]:
+        out[col] = m[col].astype(str).astype("category")
+    for col in [C.TX_LAT, C.TX_LON, C.RX_LAT, C.RX_LON, C.DISTANCE, C.BEARING]:
+        out[col] = m[col].to_numpy(dtype=float)
+    out[C.SNR_A] = m["_snrw_a"].to_numpy(dtype=float)
+    out[C.SNR_B] = m["_snrw_b"].to_numpy(dtype=float)
+    out[C.LIMIT_A] = m["_thr_a"].to_numpy(dtype=float) - (
+        m["_pow_a"].to_numpy(dtype=float) - REFERENCE_POWER_DBM)
+    out[C.LIMIT_B] = m["_thr_b"].to_numpy(dtype=float) - (
+        m["_pow_b"].to_numpy(dtype=float) - REFERENCE_POWER_DBM)
+    out[C.HEARD_A] = out[C.SNR_A].notna()
+    out[C.HEARD_B] = out[C.SNR_B].notna()
+    out.attrs["set_aside"] = set_aside
+    out.attrs["design"] = design
+    if len(out) == 0:
+        why = "; ".join(f"{k}: {v}" for k, v in set_aside.items()) or "no reports"
+        raise NoPairsError(f"no pairs found for the {design} design ({why})")
+    return out
+
+
+def _far_from(df: pd.DataFrame, side: Literal["rx", "tx"]) -> pd.DataFrame:
+    if side == "rx":
+        src = [C.RX_CALL, C.RX_LOCATOR, C.RX_LAT, C.RX_LON, C.BEARING]
+    else:
+        src = [C.TX_CALL, C.TX_LOCATOR, C.TX_LAT, C.TX_LON, C.REVERSE_BEARING]
+    dst = [C.FAR_CALL, C.FAR_LOCATOR, C.FAR_LAT, C.FAR_LON, "_bearing"]
+    return df.assign(**{d: df[s] for s, d in zip(src, dst)})
+
+
+_CARRY = [C.FAR_CALL, C.FAR_LOCATOR, C.FAR_LAT, C.FAR_LON, C.TX_LOCATOR, C.RX_LOCATOR,
+          C.TX_LAT, C.TX_LON, C.RX_LAT, C.RX_LON, C.DISTANCE, "_bearing"]
+
+
+def _outer(side_a: pd.DataFrame, side_b: pd.DataFrame, keys: list[str]) -> pd.DataFrame:
+    """Outer join of the two sides on ``keys``; far-station columns from A, else from B."""
+    cols = keys + ["_snrw"] + _CARRY
+    a = side_a[cols].rename(columns={"_snrw": "_snrw_a"})
+    b = side_b[cols].rename(columns={"_snrw": "_snrw_b"})
+    m = a.merge(b, on=keys, how="outer", suffixes=("", "_fromb"), sort=False)
+    for c in _CARRY:
+        alt = m.pop(c + "_fromb")
+        if isinstance(m[c].dtype, pd.CategoricalDtype) or m[c].dtype == object:
+            m[c] = m[c].astype(object).where(m[c].notna(), alt.astype(object))
+        else:
+            m[c] = m[c].where(m[c].notna(), alt)
+    return m
+
+
+# --- designs -------------------------------------------------------------------------------
+def _pair_simultaneous(spots, a, b, thr):
+    a = _check_call(spots, C.TX_CALL, a, "A")
+    b = _check_call(spots, C.TX_CALL, b, "B")
+    if a == b:
+        raise UsageError("the simultaneous design needs two different transmitter calls for "
+                         "A and B")
+    df = spots.assign(_slot=_ns(spots[C.SLOT]), _band=spots[C.BAND].astype(str),
+                      _cluster=spots[C.RX_CALL].astype(str))
+    df = _far_from(df, "rx")
+    keys = ["_cluster", "_band", "_slot"]
+    sa = _side(df[df[C.TX_CALL] == a], keys)
+    sb = _side(df[df[C.TX_CALL] == b], keys)
+    m = _outer(sa, sb, keys)
+    for x, s in (("a", sa), ("b", sb)):
+        pw = s.groupby(["_band", "_slot"], sort=False)[C.POWER].median().rename(f"_pow_{x}")
+        m = m.merge(pw, left_on=["_band", "_slot"], right_index=True, how="left")
+    thr_rx = m["_cluster"].map(thr).to_numpy(dtype=float)
+    m["_thr_a"] = thr_rx
+    m["_thr_b"] = thr_rx
+    return m
+
+
+def _pair_receive(spots, a, b, thr):
+    a = _check_call(spots, C.RX_CALL, a, "A")
+    b = _check_call(spots, C.RX_CALL, b, "B")
+    if a == b:
+        raise UsageError("the receive design needs two different receiver calls for A and B")
+    df = spots.assign(_slot=_ns(spots[C.SLOT]), _band=spots[C.BAND].astype(str),
+                      _cluster=spots[C.TX_CALL].astype(str))
+    df = _far_from(df, "tx")
+    keys = ["_cluster", "_band", "_slot"]
+    sa = _side(df[df[C.RX_CALL] == a], keys)
+    sb = _side(df[df[C.RX_CALL] == b], keys)
+    m = _outer(sa, sb, keys)
+    # transmitter power of the pair: from whichever report is present (same transmitter)
+    pa = sa.set_index(keys)[C.POWER]
+    pb = sb.set_index(keys)[C.POWER]
+    idx = pd.MultiIndex.from_frame(m[keys])
+    power = pa.reindex(idx).to_numpy(dtype=float)
+    power = np.where(np.isnan(power), pb.reindex(idx).to_numpy(dtype=float), power)
+    for x, s in (("a", sa), ("b", sb)):
+        on = s[["_band", "_slot"]].drop_duplicates().assign(**{f"_on_{x}": True})
+        m = m.merge(on, on=["_band", "_slot"], how="left")
+        m[f"_pow_{x}"] = np.where(m.pop(f"_on_{x}").eq(True).to_numpy(), power, np.nan)
+    m["_thr_a"] = float(thr.get(a, np.nan))
+    m["_thr_b"] = float(thr.get(b, np.nan))
+    return m
+
+
+def _single_call(a, b, design) -> str:
+    if b is not None and str(b).strip() and str(b).strip().upper() != str(a).strip().upper():
+        raise UsageError(f"the {design} design uses one transmitter call: pass the same call "
+                         f"for A and B (got {a!r} and {b!r})")
+    return a
+
+
+def read_schedule(source) -> pd.DataFrame:
+    """Read a switching schedule (alternating design).
+
+    Parameters
+    ----------
+    source : str, pathlib.Path or pandas.DataFrame
+        CSV file or table with columns ``start``, ``end`` (UTC times; naive times are taken
+        as UTC), ``antenna`` (``A`` or ``B``) and optionally ``band`` (e.g. ``20m``). Each
+        row covers the slots starting in [start, end).
+
+    Returns
+    -------
+    pandas.DataFrame
+        Columns ``C.SCHEDULE_START``, ``C.SCHEDULE_END`` (UTC), ``C.ANTENNA`` and, when
+        given, ``C.BAND``; sorted by start.
+    """
+    name = "schedule"
+    if isinstance(source, pd.DataFrame):
+        df = source.copy()
+    else:
+        name = str(source)
+        try:
+            df = pd.read_csv(source, dtype=str, skipinitialspace=True)
+        except FileNotFoundError:
+            raise
+        except Exception as exc:  # noqa: BLE001 - any parse failure is bad input
+            raise InputError(f"{name}: cannot read the schedule CSV ({exc})") from None
+    df.columns = [str(c).strip().lower() for c in df.columns]
+    need = [C.SCHEDULE_START, C.SCHEDULE_END, C.ANTENNA]
+    missing = [c for c in need if c not in df.columns]
+    if missing:
+        raise InputError(f"{name}: schedule lacks column(s) {', '.join(missing)} (needs "
+                         f"start, end, antenna and optionally band)")
+    out = pd.DataFrame()
+    for col in (C.SCHEDULE_START, C.SCHEDULE_END):
+        t = pd.to_datetime(df[col], errors="coerce", utc=True)
+        bad = np.flatnonzero(t.isna().to_numpy())
+        if bad.size:
+            raise InputError(f"{name}: row {bad[0] + 1}, field {col}: not a time "
+                             f"({df[col].iloc[bad[0]]!r})")
+        out[col] = t
+    ant = df[C.ANTENNA].astype(str).str.strip().str.upper()
+    bad = np.flatnonzero(~ant.isin(["A", "B"]).to_numpy())
+    if bad.size:
+        raise InputError(f"{name}: row {bad[0] + 1}, field antenna: expected A or B, got "
+                         f"{df[C.ANTENNA].iloc[bad[0]]!r}")
+    out[C.ANTENNA] = ant.to_numpy()
+    if C.BAND in df.columns:
+        out[C.BAND] = df[C.BAND].astype(str).str.strip().str.lower().to_numpy()
+    bad = np.flatnonzero((out[C.SCHEDULE_END] <= out[C.SCHEDULE_START]).to_numpy())
+    if bad.size:
+        raise InputError(f"{name}: row {bad[0] + 1}: end is not after start")
+    out = out.sort_values(C.SCHEDULE_START, kind="stable").reset_index(drop=True)
+    for _, g in out.groupby(C.BAND, sort=False) if C.BAND in out else [(None, out)]:
+        st = _ns(g[C.SCHEDULE_START])
+        en = _ns(g[C.SCHEDULE_END])
+        if np.any(st[1:] < en[:-1]):
+            raise InputError(f"{name}: schedule intervals overlap")
+    return out
+
+
+def schedule_antennas(slots, bands, schedule) -> np.ndarray:
+    """Antenna the schedule assigns to each slot.
+
+    Parameters
+    ----------
+    slots : array-like of datetime
+        Slot starts (UTC).
+    bands : array-like of str
+        Band of each slot (used when the schedule table has a band column).
+    schedule : str or pandas.DataFrame
+        ``"even-odd"`` (A in the slots whose index since 00:00 UTC is even), ``"odd-even"``,
+        ``"every-N"`` (blocks of N slots counted from 00:00 UTC, A in even blocks), a CSV
+        path or a table for :func:`read_schedule`.
+
+    Returns
+    -------
+    numpy.ndarray of int8
+        0 for A, 1 for B, -1 where the schedule does not cover the slot.
+    """
+    ns = _ns(pd.Series(slots))
+    if isinstance(schedule, str) and not Path(schedule).suffix:
+        key = schedule.strip().lower()
+        n = None
+        if key in ("even-odd", "odd-even"):
+            n = 1
+        elif key.startswith("every-"):
+            try:
+                n = int(key.split("-", 1)[1])
+            except ValueError:
+                n = None
+        if not n or n < 1:
+            raise UsageError(f"unknown schedule {schedule!r}; valid: even-odd, odd-even, "
+                             "every-N (N slots per block) or a CSV file of start, end, "
+                             "antenna [, band]")
+        idx = (ns % _DAY_NS) // _SLOT_NS // n
+        ant = (idx % 2).astype(np.int8)
+        return 1 - ant if key == "odd-even" else ant
+    table = read_schedule(schedule)
+    out = np.full(ns.size, -1, dtype=np.int8)
+    band_arr = np.asarray(pd.Series(bands).astype(str).str.lower())
+    groups = table.groupby(C.BAND, sort=False) if C.BAND in table else [(None, table)]
+    for band, g in groups:
+        st = _ns(g[C.SCHEDULE_START])
+        en = _ns(g[C.SCHEDULE_END])
+        code = (g[C.ANTENNA].to_numpy() == "B").astype(np.int8)
+        sel = np.ones(ns.size, bool) if band is None else band_arr == band
+        t = ns[sel]
+        i = np.searchsorted(st, t, side="right") - 1
+        ok = (i >= 0) & (t < en[np.clip(i, 0, None)])
+        res = np.full(t.size, -1, dtype=np.int8)
+        res[ok] = code[i[ok]]
+        out[sel] = np.where(res >= 0, res, out[sel])
+    return out
+
+
+def _match_slots(a_slots: np.ndarray, b_slots: np.ndarray, window: int):
+    """Match sorted A slots to B slots one to one, at most ``window`` slots apart (FIFO)."""
+    limit = window * _SLOT_NS
+    ev = np.concatenate([a_slots, b_slots])
+    kind = np.concatenate([np.zeros(a_slots.size, np.int8), np.ones(b_slots.size, np.int8)])
+    order = np.lexsort((kind, ev))
+    queues = (deque(), deque())
+    pa, pb = [], []
+    for t, k in zip(ev[order].tolist(), kind[order].tolist()):  # loop over slots, not spots
+        other = queues[1 - k]
+        while other and t - other[0] > limit:
+            other.popleft()
+        if other:
+            o = other.popleft()
+            pa.append(t if k == 0 else o)
+            pb.append(o if k == 0 else t)
+        else:
+            queues[k].append(t)
+    return np.asarray(pa, dtype=np.int64), np.asarray(pb, dtype=np.int64)
+
+
+def _pair_alternating(spots, a, b, thr, schedule, window_slots, set_aside):
+    call = _check_call(spots, C.TX_CALL, _single_call(a, b, "alternating"), "A/B")
+    if schedule is None:
+        raise UsageError("the alternating design needs a schedule (even-odd, odd-even, "
+                         "every-N or a CSV of start, end, antenna)")
+    if int(window_slots) < 1:
+        raise UsageError("window_slots must be at least 1")
+    df = spots[spots[C.TX_CALL] == call]
+    df = df.assign(_slot=_ns(df[C.SLOT]), _band=df[C.BAND].astype(str),
+                   _cluster=df[C.RX_CALL].astype(str))
+    ant = schedule_antennas(df[C.SLOT], df["_band"], schedule)
+    uncovered = int((ant < 0).sum())
+    if uncovered == len(df):
+        t0, t1 = df[C.SLOT].min(), df[C.SLOT].max()
+        raise InputError(f"the schedule does not cover the data: none of the {len(df)} "
+                         f"reports of {call} ({t0} to {t1}) falls in a scheduled interval "
+                         "(for its band)")
+    if uncovered:
+        set_aside["slot not covered by the schedule"] = uncovered
+        import warnings
+        warnings.warn(f"{uncovered} of {len(df)} reports of {call} fall outside the schedule "
+                      "and are set aside", SpotkitWarning, stacklevel=3)
+    df = _far_from(df.assign(_ant=ant), "rx")
+    df = df[df["_ant"] >= 0]
+    pieces = []
+    for band, g in df.groupby("_band", sort=False):
+        sa = np.unique(g.loc[g["_ant"] == 0, "_slot"].to_numpy())
+        sb = np.unique(g.loc[g["_ant"] == 1, "_slot"].to_numpy())
+        ma, mb = _match_slots(sa, sb, int(window_slots))
+        pieces.append(pd.DataFrame({"_band": band, "_slot": ma, "_slot_b": mb}))
+    match = pd.concat(pieces, ignore_index=True)
+    match["_pair"] = np.arange(len(match))
+    keys = ["_cluster", "_pair"]
+    side_a = df[df["_ant"] == 0].merge(match[["_band", "_slot", "_pair"]],
+                                       on=["_band", "_slot"], how="left")
+    side_b = df[df["_ant"] == 1].merge(
+        match[["_band", "_slot_b", "_pair"]].rename(columns={"_slot_b": "_slot"}),
+        on=["_band", "_slot"], how="left")
+    unmatched = int(side_a["_pair"].isna().sum() + side_b["_pair"].isna().sum())
+    if unmatched:
+        set_aside[f"no slot of the other antenna within {int(window_slots)} slot(s)"] = \
+            unmatched
+    side_a = _side(side_a.dropna(subset=["_pair"]), keys)
+    side_b = _side(side_b.dropna(subset=["_pair"]), keys)
+    m = _outer(side_a, side_b, keys)
+    m = m.merge(match, on="_pair", how="left")
+    for x, s in (("a", side_a), ("b", side_b)):
+        pw = s.groupby("_pair")[C.POWER].median().rename(f"_pow_{x}")
+        m = m.merge(pw, left_on="_pair", right_index=True, how="left")
+    # an antenna is on the air in a matched slot by construction (someone heard it there)
+    thr_rx = m["_cluster"].map(thr).to_numpy(dtype=float)
+    m["_thr_a"] = thr_rx
+    m["_thr_b"] = thr_rx
+    return m
+
+
+def _pair_before_after(spots, a, b, change_at, set_aside):
+    call = _check_call(spots, C.TX_CALL, _single_call(a, b, "before-after"), "A/B")
+    if change_at is None:
+        raise UsageError("the before-after design needs change_at (the moment the antenna "
+                         "changed, UTC)")
+    try:
+        t_change = pd.Timestamp(change_at)
+    except (ValueError, TypeError):
+        raise UsageError(f"change_at {change_at!r} is not a time") from None
+    t_change = t_change.tz_localize("UTC") if t_change.tz is None else t_change.tz_convert(
+        "UTC")
+    df = spots.assign(_slot=_ns(spots[C.SLOT]), _band=spots[C.BAND].astype(str),
+                      _cluster=spots[C.RX_CALL].astype(str),
+                      _snrw=snr_per_watt(spots[C.SNR], spots[C.POWER]))
+    keys = ["_cluster", "_band", "_slot"]
+    is_t = (df[C.TX_CALL] == call).to_numpy()
+    target = _side(_far_from(df[is_t], "rx").drop(columns="_snrw"), keys)
+    control = df[~is_t].groupby(keys, sort=False)["_snrw"].mean().rename("_ctrl")
+    m = target.merge(control, left_on=keys, right_index=True, how="left")
+    no_ctrl = int(m["_ctrl"].isna().sum())
+    if no_ctrl:
+        set_aside["no control station heard by that receiver in that slot and band"] = no_ctrl
+    m = m[m["_ctrl"].notna()].reset_index(drop=True)
+    rel = (m["_snrw"] - m["_ctrl"]).to_numpy(dtype=float)
+    after = m["_slot"].to_numpy() >= t_change.value
+    n_before, n_after = int((~after).sum()), int(after.sum())
+    if n_before == 0 or n_after == 0:
+        raise NoPairsError(
+            f"before-after: {n_before} usable reports before and {n_after} after "
+            f"{t_change.isoformat()}; both periods need reports of {call} with control "
+            "stations heard by the same receivers")
+    m["_snrw_a"] = np.where(after, np.nan, rel)
+    m["_snrw_b"] = np.where(after, rel, np.nan)
+    m["_pow_a"] = np.nan
+    m["_pow_b"] = np.nan
+    m["_thr_a"] = np.nan
+    m["_thr_b"] = np.nan
+    return m, after
+
+
+# --- public entry ---------------------------------------------------------------------------
+def pair_spots(spots: pd.DataFrame, design: Design, a: str, b: str | None = None, *,
+               schedule=None, change_at=None, window_slots: int = 1,
+               min_receiver_reports: int = 20) -> pd.DataFrame:
+    """Pair the reports of antennas A and B according to an experiment design.
+
+    Parameters
+    ----------
+    spots : pandas.DataFrame
+        Canonical, enriched spot table (:data:`spotkit.columns.CANONICAL`).
+    design : {"simultaneous", "alternating", "receive", "before-after"}
+        See the module docstring.
+    a, b : str
+        Calls of A and B: transmitter calls (simultaneous), receiver calls (receive), or the
+        one transmitter call (alternating, before-after: ``b`` may be omitted or equal ``a``).
+    schedule : str, path or pandas.DataFrame, optional
+        Alternating design: see :func:`schedule_antennas`.
+    change_at : str or pandas.Timestamp, optional
+        Before-after design: the moment the antenna changed (UTC; reports from this slot on
+        are "after" = B).
+    window_slots : int
+        Alternating design: the largest distance between paired A and B slots [slots].
+    min_receiver_reports : int
+        See :func:`receiver_thresholds`.
+
+    Returns
+    -------
+    pandas.DataFrame
+        One row per pair with :data:`PAIR_COLUMNS`: ``C.CLUSTER`` (bootstrap unit),
+        ``C.BAND``, ``C.SLOT`` (A's slot; the observation slot in before-after),
+        ``C.SLOT_B`` (alternating), the far station ``C.FAR_CALL``, ``C.FAR_LOCATOR``,
+        ``C.FAR_LAT``, ``C.FAR_LON`` [deg], path ``C.DISTANCE`` [km] and ``C.BEARING`` [deg]
+        (at the station under test towards the far station), ``C.SNR_A``, ``C.SNR_B``
+        [dB per W; NaN if not heard], ``C.LIMIT_A``, ``C.LIMIT_B`` [dB per W, censoring
+        limits], ``C.HEARD_A``, ``C.HEARD_B``; before-after adds ``C.KIND`` ("before" /
+        "after") and its SNR columns hold the target-minus-control SNR [dB]. ``attrs``
+        holds ``set_aside`` ({reason: reports or pairs}) and ``design``.
+
+    Raises
+    ------
+    InputError
+        Unknown call (the message lists the calls present), a schedule that covers none of
+        the data, missing columns; :class:`~spotkit.errors.NoPairsError` if nothing pairs.
+    """
+    _check_design(design)
+    spots = _validate(spots)
+    set_aside: dict[str, int] = {}
+    thr = receiver_thresholds(spots, min_receiver_reports)
+    after = None
+    if design == "simultaneous":
+        m = _pair_simultaneous(spots, a, b, thr)
+    elif design == "receive":
+        m = _pair_receive(spots, a, b, thr)
+    elif design == "alternating":
+        m = _pair_alternating(spots, a, b, thr, schedule, window_slots, set_aside)
+    else:
+        m, after = _pair_before_after(spots, a, b, change_at, set_aside)
+        m["_pow_a"] = 0.0  # no on-air filter: every row has one observation
+        m["_pow_b"] = 0.0
+    m = m.rename(columns={"_bearing": C.BEARING})
+    out = _finish(m, set_aside, design)
+    if after is not None:
+        out[C.LIMIT_A] = np.nan
+        out[C.LIMIT_B] = np.nan
+        out[C.KIND] = pd.Categorical(np.where(after, "after", "before"),
+                                     categories=list(C.PERIOD_KINDS))
+    return out
+
+
+
+# --- groups and the compressed pair table ---------------------------------------------------
+def _edges(edges, what) -> np.ndarray:
+    e = np.asarray(edges, dtype=float)
+    if e.ndim != 1 or e.size < 2 or np.any(np.diff(e) <= 0) or not np.all(np.isfinite(e)):
+        raise UsageError(f"{what} edges must be at least two increasing finite numbers, got "
+                         f"{list(np.atleast_1d(e))}")
+    return e
+
+
+def _bin(x: np.ndarray, edges: np.ndarray):
+    i = np.searchsorted(edges, x, side="right") - 1
+    ok = (i >= 0) & (i < edges.size - 1) & np.isfinite(x)
+    i = np.clip(i, 0, edges.size - 2)
+    return np.where(ok, edges[i], np.nan), np.where(ok, edges[i + 1], np.nan)
+
+
+def parse_by(by) -> tuple[str, ...]:
+    """Normalise a ``by`` argument (``"band,distance"`` or a sequence) to a tuple of keys."""
+    if by is None:
+        return ()
+    if isinstance(by, str):
+        by = [b for b in by.replace(" ", "").split(",") if b]
+    keys = tuple(str(b).strip().lower() for b in by)
+    bad = [k for k in keys if k not in GROUP_KEYS]
+    if bad:
+        raise ValueError(f"unknown group key(s) {', '.join(map(repr, bad))}; valid: "
+                         f"{', '.join(GROUP_KEYS)}")
+    if len(set(keys)) != len(keys):
+        raise UsageError(f"group keys repeat: {', '.join(keys)}")
+    return keys
+
+
+def group_columns(by) -> list[str]:
+    """Columns that :func:`add_group_keys` adds for the keys in ``by``, in order."""
+    cols = {"band": [C.BAND], "distance": [C.DISTANCE_MIN, C.DISTANCE_MAX],
+            "bearing": [C.BEARING_MIN, C.BEARING_MAX], "hour": [C.HOUR],
+            "elevation": [C.ELEVATION_MIN, C.ELEVATION_MAX], "light": [C.PATH_LIGHT],
+            "field": [C.FIELD], "square": [C.SQUARE], "receiver": [C.FAR_CALL]}
+    return [c for k in parse_by(by) for c in cols[k]]
+
+
+def add_group_keys(pairs: pd.DataFrame, by=(), *,
+                   distance_edges=DEFAULT_DISTANCE_EDGES, bearing_width_deg: float = 45.0,
+                   hour: HourBasis = "utc", elevation_edges=DEFAULT_ELEVATION_EDGES,
+                   layer_height_km: float = 300.0) -> pd.DataFrame:
+    """Add the grouping columns for ``by`` to a pairs table.
+
+    Parameters
+    ----------
+    pairs : pandas.DataFrame
+        From :func:`pair_spots`.
+    by : str or sequence of str
+        Any of :data:`GROUP_KEYS`: ``band``; ``distance`` (bins of ``distance_edges`` [km]:
+        ``C.DISTANCE_MIN``, ``C.DISTANCE_MAX``); ``bearing`` (sectors of
+        ``bearing_width_deg`` [deg] from 0 deg, at the station under test); ``hour`` (hour of
+        the slot, UTC or local mean solar time at the path midpoint, ``lon/15`` h); ``elevation``
+        (bins of ``elevation_edges`` [deg] of the mirror-model take-off angle with a layer at
+        ``layer_height_km``); ``light`` (day / night / greyline / mixed at the path ends, from
+        :mod:`spotkit.sun`); ``field`` / ``square`` (2- / 4-character locator of the far
+        station); ``receiver`` (the far station's call).
+
+    Returns
+    -------
+    pandas.DataFrame
+        A copy with the columns of :func:`group_columns`; rows outside every bin have NaN
+        there.
+    """
+    keys = parse_by(by)
+    if hour not in ("utc", "local"):
+        raise ValueError(f"unknown hour basis {hour!r}; valid: utc, local")
+    out = pairs.copy()
+    if "distance" in keys:
+        lo, hi = _bin(out[C.DISTANCE].to_numpy(dtype=float), _edges(distance_edges,
+                                                                    "distance"))
+        out[C.DISTANCE_MIN], out[C.DISTANCE_MAX] = lo, hi
+    if "bearing" in keys:
+        w = float(bearing_width_deg)
+        if not (0 < w <= 360) or abs(360.0 / w - round(360.0 / w)) > 1e-9:
+            raise UsageError(f"bearing width must divide 360 deg, got {bearing_width_deg}")
+        brg = np.mod(out[C.BEARING].to_numpy(dtype=float), 360.0)
+        lo = np.floor(brg / w + 1e-9) * w
+        lo = np.where(lo >= 360.0 - 1e-9, 0.0, lo)
+        out[C.BEARING_MIN], out[C.BEARING_MAX] = lo, lo + w
+    if ("elevation" in keys or ("hour" in keys and hour == "local")) and (
+            C.ELEVATION not in out or C.MID_LON not in out):
+        from .geo import add_path_geometry
+        out = add_path_geometry(out, layer_height_km=layer_height_km)
+    if "elevation" in keys:
+        lo, hi = _bin(out[C.ELEVATION].to_numpy(dtype=float), _edges(elevation_edges,
+                                                                     "elevation"))
+        out[C.ELEVATION_MIN], out[C.ELEVATION_MAX] = lo, hi
+    if "hour" in keys:
+        ns = _ns(out[C.SLOT]) + _SLOT_NS // 2  # middle of the slot
+        h = (ns % _DAY_NS) / 3.6e12
+        if hour == "local":
+            h = h + out[C.MID_LON].to_numpy(dtype=float) / 15.0
+        out[C.HOUR] = np.floor(np.mod(h, 24.0)).astype(np.int64)
+    if "light" in keys and C.PATH_LIGHT not in out:
+        from .sun import add_sun_columns
+        out = add_sun_columns(out)
+    if "field" in keys:
+        out[C.FIELD] = out[C.FAR_LOCATOR].astype(str).str[:2].str.upper()
+    if "square" in keys:
+        out[C.SQUARE] = out[C.FAR_LOCATOR].astype(str).str[:4].str.upper()
+    return out
+
+
+def summarise_pairs(pairs: pd.DataFrame, by=(), **group_options) -> pd.DataFrame:
+    """Compress a pairs table into counts of (group, cluster, kind, value).
+
+    ``both``: value = SNR_B - SNR_A (the difference); ``only_a``: LIMIT_B - SNR_A (an upper
+    bound of B - A); ``only_b``: SNR_B - LIMIT_A (a lower bound). Before/after pairs give
+    kinds ``before`` / ``after`` with the relative SNR as value. Values are rounded to
+    1e-6 dB before counting. The table is mergeable: tables of disjoint parts of the data
+    (e.g. Dask partitions) combine by concatenating and summing ``C.COUNT`` over the other
+    columns (:func:`merge_summaries`).
+
+    Parameters
+    ----------
+    pairs : pandas.DataFrame
+        From :func:`pair_spots`.
+    by : str or sequence of str
+        Group keys (:func:`add_group_keys`, whose keyword options ``group_options`` are).
+
+    Returns
+    -------
+    pandas.DataFrame
+        Columns :func:`group_columns` ``(by)`` + ``C.CLUSTER``, ``C.KIND``, ``C.VALUE`` [dB],
+        ``C.COUNT``. ``attrs["set_aside"]`` counts pairs outside every group bin.
+    """
+    keys = parse_by(by)
+    df = add_group_keys(pairs, keys, **group_options) if keys else pairs
+    gcols = group_columns(keys)
+    sa = df[C.SNR_A].to_numpy(dtype=float)
+    sb = df[C.SNR_B].to_numpy(dtype=float)
+    if C.KIND in df.columns:  # before/after
+        kind = df[C.KIND].astype(str).to_numpy()
+        value = np.where(kind == "after", sb, sa)
+        cats = list(C.PERIOD_KINDS)
+    else:
+        ha, hb = ~np.isnan(sa), ~np.isnan(sb)
+        la = df[C.LIMIT_A].to_numpy(dtype=float)
+        lb = df[C.LIMIT_B].to_numpy(dtype=float)
+        kind = np.where(ha & hb, "both", np.where(ha, "only_a", "only_b"))
+        value = np.where(ha & hb, sb - sa, np.where(ha, lb - sa, sb - la))
+        cats = list(C.KINDS)
+    value = np.round(value, 6)
+    ok = np.isfinite(value)
+    set_aside = {}
+    if (~ok).any():
+        set_aside["censoring limit unknown"] = int((~ok).sum())
+    for col in gcols:
+        bad = df[col].isna().to_numpy() & ok
+        if bad.any():
+            set_aside[f"outside the {col} bins"] = int(bad.sum())
+        ok &= ~df[col].isna().to_numpy()
+    frame = pd.DataFrame({col: df[col].to_numpy()[ok] for col in gcols})
+    frame[C.CLUSTER] = df[C.CLUSTER].astype(str).to_numpy()[ok]
+    frame[C.KIND] = pd.Categorical(kind[ok], categories=cats)
+    frame[C.VALUE] = value[ok]
+    counts = (frame.groupby(gcols + [C.CLUSTER, C.KIND, C.VALUE], observed=True, sort=True)
+              .size().rename(C.COUNT).reset_index())
+    counts[C.COUNT] = counts[C.COUNT].astype(np.int64)
+    counts.attrs["set_aside"] = set_aside
+    return counts
+
+
+def merge_summaries(tables) -> pd.DataFrame:
+    """Combine compressed pair tables of disjoint data by summing ``C.COUNT``."""
+    tables = [t for t in tables if len(t)]
+    if not tables:
+        raise NoPairsError("no pairs in any part of the data")
+    df = pd.concat(tables, ignore_index=True)
+    keys = [c for c in df.columns if c != C.COUNT]
+    return df.groupby(keys, observed=True, sort=True, dropna=False)[C.COUNT].sum().reset_index()
+
+
+__all__ = ["DESIGNS", "GROUP_KEYS", "PAIR_COLUMNS", "DEFAULT_DISTANCE_EDGES",
+           "DEFAULT_ELEVATION_EDGES", "pair_spots", "receiver_thresholds", "read_schedule",
+           "schedule_antennas", "parse_by", "group_columns", "add_group_keys",
+           "summarise_pairs", "merge_summaries"]
