@@ -1,0 +1,1369 @@
+"""Reading spot-report CSV files into the canonical table, losing nothing.
+
+Model
+-----
+A spot file is a delimited text table (comma, semicolon, tab or runs of blanks), with or
+without a heading line, UTF-8 (with or without byte-order mark) or Latin-1, plain or gzip.
+Each data row is one report. The reader
+
+1. sniffs the layout from the first lines (encoding, delimiter, heading line, decimal comma);
+2. maps the file's columns onto the glossary (:mod:`spotkit.columns`): an explicit
+   ``mapping`` always wins; otherwise headings are matched by generic words (see
+   :func:`match_headings`), and a file without headings is classified column by column from
+   its content (see :func:`infer_columns`);
+3. infers units not given (time ISO 8601 text or epoch seconds; frequency Hz, kHz or MHz from
+   which unit puts the values into amateur bands; power dBm, W or mW, see
+   :func:`infer_power_unit`) from the first :data:`SAMPLE_ROWS` rows, and refuses when that is
+   ambiguous;
+4. validates every row; a row with any unusable field goes to the rejects table
+   (:data:`spotkit.columns.REJECT_COLUMNS`) with the first failing field and a plain reason;
+5. snaps each time to the start of its slot (``slot_minutes``, default 2: slots start at even
+   UTC minutes, common practice), removes exact duplicates (equal on
+   :data:`spotkit.columns.REPORT_KEY`, across chunks and files; the first is kept) and adds
+   band, locator positions, distance and bearings (:func:`spotkit.geo.add_path_columns`).
+
+``rows read = accepted + rejected + duplicates`` holds for every call. A *row* is one line
+after the heading line, blank lines included (they are rejected as blank), and
+``source_row`` is its 1-based number counted from the first line after the heading (the
+heading line is not counted; quoted fields spanning lines are not supported).
+
+Known limits: duplicates are found by a 64-bit hash of the report key, so two different
+reports are wrongly taken as duplicates with probability about ``n**2 / 2**65`` (3e-6 for
+10 million rows). Units are inferred once per file from its first rows. A file that mixes
+UTF-8 and Latin-1 is read as Latin-1. Times without a zone are taken as UTC.
+"""
+from __future__ import annotations
+
+import codecs
+import csv
+import gzip
+import io
+import re
+import unicodedata
+import warnings
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Iterator, Literal, Sequence
+
+import numpy as np
+import pandas as pd
+
+from . import columns as C
+from .bands import BAND_ORDER, REGIONS, freq_to_band
+from .errors import InputError, MappingError, NotASpotTableError, UsageError
+from .locator import normalize_locator
+from .units import FREQUENCY_UNITS, POWER_LADDER_DBM, POWER_UNITS, frequency_to_hz, power_to_dbm
+
+#: Rows read from the start of each file to infer layout, columns and units.
+SAMPLE_ROWS = 10_000
+#: Units accepted per CLI field.
+TIME_UNITS = ("iso", "epoch")
+UNIT_CHOICES = {"time": TIME_UNITS, "frequency": FREQUENCY_UNITS, "power": POWER_UNITS}
+#: Delimiter keywords.
+DELIMITERS = ("auto", ",", ";", "tab", "space")
+#: Valid ranges (inclusive): SNR [dB] and power [dBm] (common practice).
+SNR_RANGE_DB = (-60.0, 60.0)
+POWER_RANGE_DBM = (0.0, 60.0)
+#: Accepted report times [UTC]; earlier or later times are rejected as out of range.
+TIME_RANGE = (pd.Timestamp("1990-01-01", tz="UTC"), pd.Timestamp("2100-01-01", tz="UTC"))
+#: Largest power taken as watts when inferring the unit [W] (common practice: the highest
+#: amateur licence limits are about 1.5 kW).
+MAX_WATTS = 1500.0
+
+Delimiter = Literal["auto", ",", ";", "tab", "space"]
+Header = Literal["auto"] | bool
+
+_CALL_RE = re.compile(r"^(?=.*[A-Z])(?=.*[0-9])[A-Z0-9/]{3,16}$")
+_DATE_RE = r"^\d{4}-\d{2}-\d{2}$"
+_CLOCK_RE = r"^\d{1,2}:\d{2}(:\d{2}(\.\d+)?)?$"
+_ISO_RE = r"^\d{4}-\d{2}-\d{2}[T ]\d{1,2}:\d{2}"
+_NUMBER_RE = re.compile(r"^[+-]?(\d+([.,]\d*)?|[.,]\d+)([eE][+-]?\d+)?$")
+
+# --- heading vocabulary (generic English words) --------------------------------------------
+_KIND_WORDS = {
+    C.TIME: {"time", "date", "datetime", "timestamp", "utc", "when", "epoch", "unix"},
+    "call": {"call", "callsign", "calls", "station", "sign"},
+    "locator": {"locator", "loc", "grid", "gridsquare", "square", "maidenhead", "qth"},
+    C.FREQ: {"frequency", "freq", "qrg"},
+    C.SNR: {"snr", "sn", "s2n", "signal", "noise"},
+    C.POWER: {"power", "pwr"},
+    C.DRIFT: {"drift"},
+}
+# unit words name a kind only when no other kind word is present
+_UNIT_KIND = {"hz": C.FREQ, "khz": C.FREQ, "mhz": C.FREQ, "dbm": C.POWER, "w": C.POWER,
+              "watt": C.POWER, "watts": C.POWER, "mw": C.POWER, "db": C.SNR}
+_UNIT_HINT = {"hz": ("frequency", "Hz"), "khz": ("frequency", "kHz"),
+              "mhz": ("frequency", "MHz"), "dbm": ("power", "dBm"), "w": ("power", "W"),
+              "watt": ("power", "W"), "watts": ("power", "W"), "mw": ("power", "mW"),
+              "epoch": ("time", "epoch"), "unix": ("time", "epoch")}
+_TX_WORDS = {"tx", "transmitter", "transmit", "transmitting", "sender", "sending", "sent",
+             "from", "source", "src", "beacon"}
+_RX_WORDS = {"rx", "receiver", "receive", "receiving", "received", "reporter", "reporting",
+             "spotter", "listener", "heard", "by", "to"}
+_ALL_WORDS = (set().union(*_KIND_WORDS.values()) | set(_UNIT_KIND) | set(_UNIT_HINT))
+_ROLE_FIELDS = {("call", "tx"): C.TX_CALL, ("call", "rx"): C.RX_CALL,
+                ("locator", "tx"): C.TX_LOCATOR, ("locator", "rx"): C.RX_LOCATOR}
+_FIELD_ORDER = list(C.INPUT_FIELDS)
+_CLI_NAME = {v: k for k, v in C.CLI_FIELDS.items()}
+
+
+# --- results -------------------------------------------------------------------------------
+@dataclass
+class IngestSummary:
+    """Counts of one ingest: ``rows_read = accepted + rejected + duplicates``.
+
+    Attributes
+    ----------
+    rows_read, accepted, rejected, duplicates : int
+        Data rows read (blank lines included), rows in the table, rows set aside, exact
+        duplicates removed.
+    rejected_by_reason : dict of str to int
+        Rejected rows per reason.
+    spots_per_band : dict of str to int
+        Accepted rows per band, in band-plan order.
+    files : list of str
+        The files read, in order.
+    columns : dict of str to dict
+        Per file: glossary field -> the column(s) it was read from.
+    units : dict of str to dict
+        Per file: CLI field -> unit used, marked "(inferred)" when not given.
+    """
+
+    rows_read: int = 0
+    accepted: int = 0
+    rejected: int = 0
+    duplicates: int = 0
+    rejected_by_reason: dict = field(default_factory=dict)
+    spots_per_band: dict = field(default_factory=dict)
+    files: list = field(default_factory=list)
+    columns: dict = field(default_factory=dict)
+    units: dict = field(default_factory=dict)
+
+    @property
+    def balanced(self) -> bool:
+        """Whether accepted + rejected + duplicates equals rows read."""
+        return self.accepted + self.rejected + self.duplicates == self.rows_read
+
+    def _add_counts(self, counts: dict, target: dict) -> None:
+        for k, n in counts.items():
+            target[k] = target.get(k, 0) + int(n)
+
+    def text(self) -> str:
+        """A short plain-text summary."""
+        ok = "yes" if self.balanced else "NO"
+        lines = [
+            f"files read:         {len(self.files)}",
+            f"rows read:          {self.rows_read:,}",
+            f"accepted:           {self.accepted:,}",
+            f"rejected:           {self.rejected:,}",
+        ]
+        for reason, n in sorted(self.rejected_by_reason.items(), key=lambda kv: -kv[1]):
+            lines.append(f"  {reason}: {n:,}")
+        lines.append(f"duplicates removed: {self.duplicates:,}")
+        lines.append(f"accepted + rejected + duplicates = rows read: {ok} "
+                     f"({self.accepted:,} + {self.rejected:,} + {self.duplicates:,} = "
+                     f"{self.accepted + self.rejected + self.duplicates:,})")
+        if self.spots_per_band:
+            lines.append("spots per band:")
+            for band, n in self.spots_per_band.items():
+                lines.append(f"  {band}: {n:,}")
+        for f in self.files:
+            cols = ", ".join(f"{_CLI_NAME.get(k, k)}<-{v}" for k, v in self.columns.get(f, {}).items())
+            units = ", ".join(f"{k} {v}" for k, v in self.units.get(f, {}).items())
+            lines.append(f"{f}: columns {cols}; units {units}")
+        return "\n".join(lines)
+
+    def __str__(self) -> str:
+        return self.text()
+
+
+@dataclass
+class IngestResult:
+    """What :func:`read_spots` returns: the canonical table, the rejects and the summary."""
+
+    spots: pd.DataFrame
+    rejects: pd.DataFrame
+    summary: IngestSummary
+
+    def summary_text(self) -> str:
+        """The summary as plain text."""
+        return self.summary.text()
+
+
+# --- argument checks -----------------------------------------------------------------------
+def _field_name(key: str) -> str:
+    """Glossary name for a CLI field name or glossary name."""
+    k = str(key).strip()
+    if k in C.CLI_FIELDS:
+        return C.CLI_FIELDS[k]
+    if k in C.INPUT_FIELDS:
+        return k
+    raise UsageError(f"unknown field {key!r}; valid: {', '.join(C.CLI_FIELDS)}")
+
+
+def _check_units(units) -> dict[str, str]:
+    out = {}
+    for key, unit in (units or {}).items():
+        name = _CLI_NAME[_field_name(key)]
+        if name not in UNIT_CHOICES:
+            raise UsageError(f"field {name!r} takes no unit; units apply to "
+                             f"{', '.join(UNIT_CHOICES)}")
+        choices = UNIT_CHOICES[name]
+        match = [c for c in choices if c.lower() == str(unit).strip().lower()]
+        if not match:
+            raise UsageError(f"unknown unit {unit!r} for {name}; valid: {', '.join(choices)}")
+        out[name] = match[0]
+    return out
+
+
+def _check_mapping(mapping) -> dict[str, list]:
+    out = {}
+    for key, col in (mapping or {}).items():
+        name = _field_name(key)
+        if isinstance(col, (list, tuple)):
+            cols = list(col)
+        elif isinstance(col, str) and "+" in col and name == C.TIME:
+            cols = [c.strip() for c in col.split("+")]
+        else:
+            cols = [col]
+        if len(cols) > (2 if name == C.TIME else 1) or not cols:
+            raise UsageError(f"field {_CLI_NAME[name]!r}: one column expected"
+                             + (" (or DATE+TIME)" if name == C.TIME else "") + f", got {col!r}")
+        out[name] = cols
+    return out
+
+
+def _delimiter_arg(delimiter) -> str:
+    d = {"\t": "tab", " ": "space", "whitespace": "space", r"\t": "tab"}.get(delimiter, delimiter)
+    if d not in DELIMITERS:
+        raise UsageError(f"unknown delimiter {delimiter!r}; valid: auto, ',', ';', tab, space")
+    return d
+
+
+# --- sniffing the file -----------------------------------------------------------------------
+@dataclass
+class _Layout:
+    path: Path
+    name: str
+    compression: str | None
+    encoding: str
+    sep: str
+    decimal: str
+    header_lines: int
+    headings: list
+    fields: dict = field(default_factory=dict)  # glossary name -> list of positions
+    units: dict = field(default_factory=dict)  # CLI field -> unit
+    inferred: set = field(default_factory=set)
+
+    @property
+    def ncols(self) -> int:
+        return len(self.headings)
+
+    def describe_columns(self) -> dict:
+        return {f: "+".join(self.label(i) for i in pos) for f, pos in self.fields.items()}
+
+    def label(self, i: int) -> str:
+        h = self.headings[i]
+        return f"{h!r}" if self.header_lines else f"column {i + 1}"
+
+
+def _open_binary(path: Path, compression):
+    return gzip.open(path, "rb") if compression == "gzip" else open(path, "rb")
+
+
+def _detect_encoding(path: Path, compression, head: bytes) -> str:
+    """UTF-8 (BOM or not) unless some byte sequence is not UTF-8; then Latin-1."""
+    dec = codecs.getincrementaldecoder("utf-8")()
+    try:
+        with _open_binary(path, compression) as fh:
+            while True:
+                block = fh.read(1 << 23)
+                if not block:
+                    dec.decode(b"", final=True)
+                    break
+                if not block.isascii():
+                    dec.decode(block)
+    except UnicodeDecodeError:
+        return "latin-1"
+    return "utf-8-sig" if head.startswith(codecs.BOM_UTF8) else "utf-8"
+
+
+def _read_head(path: Path) -> tuple[bytes, str | None]:
+    if not path.exists():
+        raise FileNotFoundError(f"{path}: no such file")
+    if path.is_dir():
+        raise IsADirectoryError(f"{path}: is a directory, not a spot file")
+    with open(path, "rb") as fh:
+        magic = fh.read(2)
+    compression = "gzip" if magic == b"\x1f\x8b" else None
+    try:
+        with _open_binary(path, compression) as fh:
+            head = fh.read(1 << 16)
+    except (OSError, EOFError) as exc:
+        raise NotASpotTableError(f"{path}: not a spot table (corrupt gzip file: {exc})") from None
+    return head, compression
+
+
+def _check_text(path: Path, head: bytes) -> None:
+    if not head.strip():
+        raise NotASpotTableError(f"{path}: not a spot table (the file is empty)")
+    body = head.removeprefix(codecs.BOM_UTF8)
+    control = sum(body.count(bytes([b])) for b in range(32) if b not in (9, 10, 13))
+    if b"\x00" in body or control > 0.01 * len(body):
+        raise NotASpotTableError(f"{path}: not a spot table (binary content, not text)")
+    start = body.lstrip()[:512].lower()
+    if start.startswith((b"<!doctype", b"<html", b"<?xml", b"<head", b"<body", b"<table")) or (
+            start.startswith(b"<") and b">" in start):
+        raise NotASpotTableError(f"{path}: not a spot table (it looks like HTML or XML)")
+
+
+def _split(line: str, sep: str) -> list[str]:
+    if sep == r"\s+":
+        return line.split()
+    return [t.strip() for t in next(csv.reader([line], delimiter=sep))]
+
+
+def _sniff_sep(lines: list[str], delimiter: str) -> str:
+    if delimiter != "auto":
+        return {"tab": "\t", "space": r"\s+"}.get(delimiter, delimiter)
+    for sep in ("\t", ";", ","):
+        counts = [len(_split(ln, sep)) for ln in lines]
+        # consistent when the first line and most lines split into the same >= 3 fields
+        if counts and counts[0] >= 3 and np.mean(np.array(counts) == counts[0]) >= 0.9:
+            return sep
+    return r"\s+"
+
+
+def _is_number(tok: str) -> bool:
+    return bool(_NUMBER_RE.match(tok.strip()))
+
+
+def _sniff_layout(path: Path, delimiter: str, header) -> _Layout:
+    head, compression = _read_head(path)
+    _check_text(path, head)
+    encoding = _detect_encoding(path, compression, head)
+    text = head.decode(encoding if encoding != "utf-8" else "utf-8", errors="replace")
+    if len(head) == 1 << 16:
+        text = text.rsplit("\n", 1)[0]  # drop the cut-off last line
+    lines = [ln for ln in text.splitlines() if ln.strip()][:200]
+    if not lines:
+        raise NotASpotTableError(f"{path}: not a spot table (no text lines)")
+    sep = _sniff_sep(lines, delimiter)
+    first = _split(lines[0], sep)
+    if header == "auto":
+        has_header = not any(_is_number(t) for t in first) and (
+            len(lines) == 1 or sum(_is_number(t) for t in _split(lines[1], sep)) >= 2)
+    elif isinstance(header, bool):
+        has_header = header
+    else:
+        raise UsageError(f"header must be 'auto', True or False, not {header!r}")
+    data = lines[1:] if has_header else lines
+    counts = [len(_split(ln, sep)) for ln in data] or [len(first)]
+    nfields = int(pd.Series(counts).mode().max())
+    if nfields < 4:
+        raise NotASpotTableError(
+            f"{path}: not a spot table (found {nfields} column(s) with delimiter "
+            f"{_sep_label(sep)}; a spot table has at least time, calls, locators, "
+            "frequency, SNR and power)")
+    decimal = "."
+    if sep != ",":
+        toks = [t for ln in data[:50] for t in _split(ln, sep)]
+        if any(re.fullmatch(r"-?\d+,\d+", t) for t in toks):
+            decimal = ","
+    if has_header:
+        headings = [h.strip() for h in first]
+        if nfields == len(headings) + 1 and sep == r"\s+":
+            headings = _split_date_time_heading(path, headings, _split(data[0], sep))
+        elif nfields > len(headings):
+            raise InputError(f"{path}: the heading line has {len(headings)} headings but data "
+                             f"rows have {nfields} fields (delimiter {_sep_label(sep)})")
+    else:
+        headings = [f"column {i + 1}" for i in range(nfields)]
+    return _Layout(path=path, name=str(path), compression=compression, encoding=encoding,
+                   sep=sep, decimal=decimal, header_lines=int(has_header), headings=headings)
+
+
+def _split_date_time_heading(path, headings, row):
+    """Blank-delimited rows may split 'DATE TIME' into two fields under one heading."""
+    for k, h in enumerate(headings):
+        if _heading_kind(h)[0] == C.TIME and k + 1 < len(row) and re.match(
+                _DATE_RE, row[k]) and re.match(_CLOCK_RE, row[k + 1]):
+            return headings[:k] + [f"{h} (date)", f"{h} (clock)"] + headings[k + 1:]
+    raise InputError(f"{path}: the heading line has {len(headings)} headings but data rows "
+                     f"have {len(headings) + 1} fields")
+
+
+def _sep_label(sep: str) -> str:
+    return {"\t": "tab", r"\s+": "blanks"}.get(sep, repr(sep))
+
+
+# --- mapping headings onto the glossary --------------------------------------------------------
+def _heading_words(heading: str) -> list[str]:
+    h = unicodedata.normalize("NFKD", str(heading))
+    h = "".join(ch for ch in h if not unicodedata.combining(ch))
+    h = re.sub(r"([a-z])([A-Z])", r"\1 \2", h).lower().replace("s/n", "snr")
+    words = []
+    for w in re.split(r"[^a-z0-9]+", h):
+        if not w:
+            continue
+        m = re.match(r"^(tx|rx)([a-z]+)$", w)
+        if m and m.group(2) in _ALL_WORDS:
+            words += [m.group(1), m.group(2)]
+        else:
+            words.append(w)
+    return words
+
+
+def _heading_kind(heading: str) -> tuple[str | None, str | None, dict]:
+    """(kind, role, unit hints) of one heading; kind None when no word matches,
+    "?" when words of several kinds match."""
+    words = _heading_words(heading)
+    kinds = {k for k, ws in _KIND_WORDS.items() if ws & set(words)}
+    if not kinds:
+        kinds = {_UNIT_KIND[w] for w in words if w in _UNIT_KIND}
+    roles = {"tx" for w in words if w in _TX_WORDS} | {"rx" for w in words if w in _RX_WORDS}
+    hints = dict(_UNIT_HINT[w] for w in words if w in _UNIT_HINT)
+    role = roles.pop() if len(roles) == 1 else ("?" if roles else None)
+    if not kinds and role in ("tx", "rx"):
+        kinds = {"call"}  # a role word alone ("sender", "receiver") names that station
+    if len(kinds) > 1:
+        return "?", role, hints
+    return (kinds.pop() if kinds else None), role, hints
+
+
+def match_headings(headings: Sequence[str]) -> tuple[dict, dict]:
+    """Match column headings onto glossary fields by generic words.
+
+    Rules: each heading is split into lower-case words (at blanks, punctuation and camelCase;
+    ``txcall`` -> ``tx call``). Kind words: time/date/timestamp/utc/epoch -> time;
+    call/callsign/station -> call; locator/grid/loc/square/qth -> locator;
+    frequency/freq/qrg -> frequency; snr/s/n/signal/noise -> SNR; power/pwr -> power;
+    drift -> drift; unit words (Hz, kHz, MHz, dBm, W, mW, dB) name a kind only when no kind
+    word is present. Role words: tx/transmitter/sender/from/source/beacon -> transmitter;
+    rx/receiver/reporter/spotter/listener/heard/by/to -> receiver; a role word alone names
+    that station's call. A call or locator heading without a role takes the role left
+    over when the other role is named by another heading. Separate date and time headings
+    are joined.
+
+    Returns
+    -------
+    fields : dict
+        Glossary name -> list of column positions (0-based).
+    problems : dict
+        Glossary name -> text describing why it is missing or ambiguous.
+    """
+    cand: dict[str, list[int]] = {f: [] for f in _FIELD_ORDER}
+    roleless: dict[str, list[int]] = {"call": [], "locator": []}
+    problems: dict[str, str] = {}
+    for i, h in enumerate(headings):
+        kind, role, _ = _heading_kind(h)
+        if kind in ("call", "locator"):
+            if role in ("tx", "rx"):
+                cand[_ROLE_FIELDS[(kind, role)]].append(i)
+            else:
+                roleless[kind].append(i)
+        elif kind in cand:
+            cand[kind].append(i)
+    for kind, idx in roleless.items():
+        tx, rx = _ROLE_FIELDS[(kind, "tx")], _ROLE_FIELDS[(kind, "rx")]
+        if len(idx) == 1 and bool(cand[tx]) != bool(cand[rx]):
+            cand[rx if cand[tx] else tx].append(idx[0])
+        elif idx:
+            for f in (tx, rx):
+                if not cand[f]:
+                    problems[f] = ("no heading says transmitter or receiver: "
+                                   + ", ".join(repr(headings[i]) for i in idx))
+    t = cand[C.TIME]
+    if len(t) == 2:
+        w = [set(_heading_words(headings[i])) for i in t]
+        dated = [("date" in x) for x in w]
+        if sum(dated) == 1:
+            cand[C.TIME] = [t[dated.index(True)], t[dated.index(False)]]
+    fields = {}
+    for f in _FIELD_ORDER:
+        idx = cand[f]
+        if f == C.TIME and len(idx) == 2 and any("date" in _heading_words(headings[i])
+                                                 for i in idx[:1]):
+            fields[f] = idx
+        elif len(idx) == 1:
+            fields[f] = idx
+        elif len(idx) > 1:
+            problems[f] = "ambiguous: " + ", ".join(repr(headings[i]) for i in idx)
+        elif f in C.REQUIRED_INPUT and f not in problems:
+            problems[f] = "no heading found"
+    return fields, problems
+
+
+def _apply_mapping(layout: _Layout, mapping: dict) -> dict:
+    """Resolve explicit mapping values (heading text or 1-based position) to positions."""
+    lookup = {h.strip().lower(): i for i, h in enumerate(layout.headings)} \
+        if layout.header_lines else {}
+    out = {}
+    for f, cols in mapping.items():
+        pos = []
+        for col in cols:
+            key = str(col).strip()
+            if key.lower() in lookup:
+                pos.append(lookup[key.lower()])
+            elif re.fullmatch(r"\d+", key) and 1 <= int(key) <= layout.ncols:
+                pos.append(int(key) - 1)
+            else:
+                raise MappingError(
+                    f"{layout.name}: --map {_CLI_NAME[f]}={col}: no such column; "
+                    + _columns_help(layout))
+        out[f] = pos
+    return out
+
+
+def _columns_help(layout: _Layout, sample: pd.DataFrame | None = None) -> str:
+    parts = []
+    for i, h in enumerate(layout.headings):
+        ex = ""
+        if sample is not None and i < sample.shape[1]:
+            vals = sample.iloc[:3, i].dropna().astype(str).tolist()
+            ex = f" e.g. {', '.join(vals)}" if vals else ""
+        parts.append(f"{i + 1}: {h!r}{ex}" if layout.header_lines else f"column {i + 1}{ex}")
+    return ("columns found: " + "; ".join(parts) + ". Map them with --map FIELD=COLUMN "
+            "(heading or 1-based position; in Python mapping={'tx_call': ...}); FIELD is one "
+            "of " + ", ".join(C.CLI_FIELDS))
+
+
+# --- content-based column inference (files without headings) -----------------------------------
+def _frac(mask, base) -> float:
+    n = int(np.sum(base))
+    return float(np.sum(mask & base)) / n if n else 0.0
+
+
+def _column_profile(s: pd.Series) -> dict:
+    s = s.astype("str").str.strip()
+    present = s.notna() & (s != "")
+    num = pd.to_numeric(s.str.replace(",", ".", regex=False), errors="coerce")
+    isnum = num.notna().to_numpy()
+    p = present.to_numpy()
+    up = s.str.upper()
+    prof = {
+        "date": _frac(s.str.match(_DATE_RE).fillna(False).to_numpy(), p),
+        "clock": _frac(s.str.match(_CLOCK_RE).fillna(False).to_numpy(), p),
+        "iso": _frac(s.str.match(_ISO_RE).fillna(False).to_numpy(), p),
+        "locator": _frac((normalize_locator(up.fillna("").to_numpy()) != None)  # noqa: E711
+                         & (s.str.len() >= 4).fillna(False).to_numpy(), p),
+        "call": _frac(up.str.match(_CALL_RE.pattern).fillna(False).to_numpy(), p),
+        "number": _frac(isnum, p),
+        "values": num[isnum].to_numpy(dtype=float),
+    }
+    v = prof["values"]
+    prof["epoch"] = _frac((num >= 6.3e8).to_numpy() & (num <= 4.1e9).to_numpy(), p)
+    prof["integer"] = float(np.mean(v == np.round(v))) if v.size else 0.0
+    return prof
+
+
+def infer_columns(sample: pd.DataFrame, known: dict | None = None) -> tuple[dict, dict]:
+    """Classify the columns of a file without headings by their content.
+
+    Time: ISO 8601 text (or a date column followed by a clock column) or epoch seconds;
+    locators: valid Maidenhead locators of 4 or more characters; calls: letters and digits
+    with at least one of each; frequency: the one numeric column that lands in amateur bands
+    in Hz, kHz or MHz; power: whole numbers 0..60 on the dBm ladder; SNR: whole numbers in
+    -60..60 with negative values; drift: small whole numbers. Each kind must be matched in at
+    least 90 % of the non-empty cells. Transmitter and receiver cannot be told apart by
+    content: one call column must be mapped (``tx_call`` or ``rx_call``); a locator column
+    right after a call column belongs to that station.
+
+    Parameters
+    ----------
+    sample : pandas.DataFrame
+        The first rows of the file as text, one column per field position.
+    known : dict, optional
+        Glossary name -> list of positions already mapped.
+
+    Returns
+    -------
+    fields, problems : dict
+        As :func:`match_headings`.
+    """
+    known = dict(known or {})
+    used = {i for pos in known.values() for i in pos}
+    prof = {i: _column_profile(sample.iloc[:, i]) for i in range(sample.shape[1]) if i not in used}
+    fields, problems = dict(known), {}
+    hit = 0.9
+
+    def pick(f, idx):
+        if f in fields:
+            return
+        if len(idx) == 1:
+            fields[f] = [idx[0]]
+            for i in idx:
+                prof.pop(i, None)
+        elif len(idx) > 1:
+            problems[f] = "ambiguous: " + ", ".join(f"column {i + 1}" for i in idx)
+
+    if C.TIME not in fields:
+        iso = [i for i, p in prof.items() if p["iso"] >= hit]
+        dates = [i for i, p in prof.items() if p["date"] >= hit and p["iso"] < hit]
+        if not iso and len(dates) == 1 and dates[0] + 1 in prof and prof[dates[0] + 1]["clock"] >= hit:
+            fields[C.TIME] = [dates[0], dates[0] + 1]
+            prof.pop(dates[0]), prof.pop(dates[0] + 1)
+        else:
+            pick(C.TIME, iso or [i for i, p in prof.items()
+                                 if p["epoch"] >= hit and p["integer"] >= hit])
+    locs = [i for i, p in prof.items() if p["locator"] >= hit]
+    calls = [i for i, p in prof.items() if p["call"] >= hit and i not in locs]
+    _assign_roles(fields, problems, calls, locs)
+    for i in set(calls) | set(locs):
+        prof.pop(i, None)
+    numeric = {i: p for i, p in prof.items() if p["number"] >= hit and p["values"].size}
+    if C.FREQ not in fields:
+        pick(C.FREQ, [i for i, p in numeric.items()
+                      if max(_band_hits(p["values"]).values()) >= hit])
+    numeric = {i: p for i, p in numeric.items() if i in prof}
+    if C.POWER not in fields:
+        pick(C.POWER, [i for i, p in numeric.items() if p["integer"] >= hit and np.mean(
+            np.isin(p["values"], POWER_LADDER_DBM)) >= hit and p["values"].min() >= 0])
+    numeric = {i: p for i, p in numeric.items() if i in prof}
+    if C.SNR not in fields:
+        pick(C.SNR, [i for i, p in numeric.items() if p["integer"] >= hit
+                     and p["values"].min() < 0 and np.abs(p["values"]).max() <= 60
+                     and np.abs(p["values"]).max() > 5])
+    numeric = {i: p for i, p in numeric.items() if i in prof}
+    if C.DRIFT not in fields:
+        small = [i for i, p in numeric.items()
+                 if p["integer"] >= hit and np.abs(p["values"]).max() <= 5]
+        if len(small) == 1:
+            fields[C.DRIFT] = small
+    for f in C.REQUIRED_INPUT:
+        if f not in fields and f not in problems:
+            problems[f] = "no column looks like it"
+    return fields, problems
+
+
+def _assign_roles(fields, problems, calls, locs):
+    want = [C.TX_CALL, C.RX_CALL]
+    have = [f for f in want if f in fields]
+    free_calls = [i for i in calls if all(i not in p for p in fields.values())]
+    if len(have) == 1 and len(free_calls) == 1:
+        other = C.RX_CALL if have[0] == C.TX_CALL else C.TX_CALL
+        fields[other] = free_calls
+    elif len(have) == 0 and free_calls:
+        for f in want:
+            problems[f] = ("calls found in " + ", ".join(f"column {i + 1}" for i in free_calls)
+                           + " but a file without headings does not say which is the "
+                           "transmitter: map one, e.g. --map tx_call=N")
+        return
+    for call_f, loc_f in ((C.TX_CALL, C.TX_LOCATOR), (C.RX_CALL, C.RX_LOCATOR)):
+        if loc_f in fields or call_f not in fields:
+            continue
+        nxt = fields[call_f][0] + 1
+        if nxt in locs:
+            fields[loc_f] = [nxt]
+        else:
+            problems[loc_f] = (f"no locator column right after the {_CLI_NAME[call_f]} column; "
+                               f"map it with --map {_CLI_NAME[loc_f]}=N")
+
+
+# --- units -------------------------------------------------------------------------------------
+def _band_hits(values_num: np.ndarray) -> dict[str, float]:
+    v = values_num[np.isfinite(values_num)]
+    if not v.size:
+        return {u: 0.0 for u in FREQUENCY_UNITS}
+    return {u: float(np.mean(pd.notna(freq_to_band(frequency_to_hz(v, u)))))
+            for u in FREQUENCY_UNITS}
+
+
+def infer_frequency_unit(values) -> str:
+    """Unit (Hz, kHz or MHz) that puts the frequencies into amateur bands.
+
+    The unit must put at least half of the values into a band (IARU plans, all regions)
+    while every other unit puts fewer than 5 % there; otherwise the unit is ambiguous.
+
+    Raises
+    ------
+    InputError
+        When no unit or more than one unit fits.
+    """
+    hits = _band_hits(np.asarray(values, dtype=float))
+    best = max(hits, key=hits.get)
+    others = [u for u in hits if u != best and hits[u] >= 0.05]
+    if hits[best] < 0.5 or others:
+        shares = ", ".join(f"{u}: {100 * h:.0f} % in a band" for u, h in hits.items())
+        raise InputError(f"cannot tell the frequency unit ({shares}); give it, e.g. "
+                         "--unit frequency=MHz")
+    return best
+
+
+def infer_power_unit(values) -> str:
+    """Unit (dBm, W or mW) of reported transmit powers.
+
+    Rules, in order: dBm when at least 90 % of the values are whole numbers on the beacon
+    ladder (0..60 ending in 0, 3 or 7; common practice); W when some values have fractions
+    and none exceeds :data:`MAX_WATTS`; mW when all are whole numbers and some exceed
+    :data:`MAX_WATTS`. Anything else (e.g. whole numbers 61..1500, which could be W or mW)
+    is ambiguous.
+
+    Raises
+    ------
+    InputError
+        When the unit is ambiguous.
+    """
+    v = np.asarray(values, dtype=float)
+    v = v[np.isfinite(v)]
+    if not v.size:
+        raise InputError("cannot tell the power unit: no numeric powers; give --unit power=...")
+    whole = v == np.round(v)
+    if np.mean(whole & np.isin(v, POWER_LADDER_DBM)) >= 0.9:
+        return "dBm"
+    if (~whole).any() and v.max() <= MAX_WATTS and v.min() >= 0:
+        return "W"
+    if whole.all() and v.max() > MAX_WATTS:
+        return "mW"
+    raise InputError(f"cannot tell the power unit (values {np.unique(v)[:6].tolist()}...): "
+                     "give it, e.g. --unit power=W")
+
+
+def _to_number(raw: pd.Series, decimal: str) -> pd.Series:
+    if pd.api.types.is_numeric_dtype(raw.dtype):
+        return raw.astype("float64")
+    s = raw.astype("str")
+    if decimal == ",":
+        s = s.str.replace(",", ".", regex=False)
+    return pd.to_numeric(s.str.strip(), errors="coerce").astype("float64")
+
+
+def _infer_units(layout: _Layout, sample: pd.DataFrame, units: dict) -> None:
+    hints = {}
+    if layout.header_lines:
+        for f, pos in layout.fields.items():
+            for i in pos:
+                for k, u in _heading_kind(layout.headings[i])[2].items():
+                    if k == _CLI_NAME[f]:
+                        hints[k] = u
+    out = {}
+    for name in UNIT_CHOICES:
+        if name in units:
+            out[name] = units[name]
+            continue
+        if name in hints:
+            out[name] = hints[name]
+            layout.inferred.add(name)
+            continue
+        f = C.CLI_FIELDS[name]
+        pos = layout.fields[f]
+        col = sample.iloc[:, pos[0]]
+        try:
+            if name == "time":
+                nums = _to_number(col, ".")
+                present = col.notna() & (col.astype("str").str.strip() != "")
+                epoch = len(pos) == 1 and present.any() and nums[present].notna().mean() >= 0.9
+                out[name] = "epoch" if epoch else "iso"
+            elif name == "frequency":
+                out[name] = infer_frequency_unit(_to_number(col, layout.decimal))
+            else:
+                out[name] = infer_power_unit(_to_number(col, layout.decimal))
+        except InputError as exc:
+            raise InputError(f"{layout.name}: column {layout.label(pos[0])}: {exc}") from None
+        layout.inferred.add(name)
+    layout.units = out
+
+
+# --- reading -------------------------------------------------------------------------------------
+_CAT_FIELDS = (C.TIME, C.TX_CALL, C.TX_LOCATOR, C.RX_CALL, C.RX_LOCATOR)
+
+
+def _csv_kwargs(layout: _Layout, text: bool = False) -> dict:
+    names = [f"c{i}" for i in range(layout.ncols)]
+    if text:
+        dtype = "str"
+    else:
+        dtype = {}
+        for f, pos in layout.fields.items():
+            for i in pos:
+                dtype[names[i]] = "category" if f in _CAT_FIELDS else None
+        used = {i for pos in layout.fields.values() for i in pos}
+        for i in range(layout.ncols):
+            if i not in used:
+                dtype[names[i]] = "str"
+        dtype = {k: v for k, v in dtype.items() if v is not None}
+    kw = dict(sep=layout.sep, header=None, names=names, skiprows=layout.header_lines,
+              encoding=layout.encoding, compression=layout.compression, dtype=dtype,
+              keep_default_na=False, na_values=[""], skip_blank_lines=False,
+              on_bad_lines="warn", index_col=False, decimal=layout.decimal)
+    if layout.sep != r"\s+":
+        kw["skipinitialspace"] = True
+    return kw
+
+
+def _read_sample(layout: _Layout) -> pd.DataFrame:
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        return pd.read_csv(layout.path, nrows=SAMPLE_ROWS, **_csv_kwargs(layout, text=True))
+
+
+def _prepare_layout(path: Path, mapping, units, delimiter, header) -> _Layout:
+    layout = _sniff_layout(path, delimiter, header)
+    sample = _read_sample(layout)
+    known = _apply_mapping(layout, mapping)
+    if layout.header_lines:
+        guessed, problems = match_headings(layout.headings)
+        taken = {i for pos in known.values() for i in pos}
+        fields = dict(known)
+        for f, pos in guessed.items():
+            if f not in fields and not taken & set(pos):
+                fields[f] = pos
+        problems = {f: p for f, p in problems.items() if f not in fields}
+    else:
+        fields, problems = infer_columns(sample, known)
+    missing = [f for f in C.REQUIRED_INPUT if f not in fields]
+    if missing or any(f in problems for f in missing):
+        lines = [f"  {_CLI_NAME[f]}: {problems.get(f, 'not found')}" for f in missing]
+        how = "headings" if layout.header_lines else "content (no heading line)"
+        raise MappingError(f"{path}: cannot map the columns from their {how}:\n"
+                           + "\n".join(lines) + "\n" + _columns_help(layout, sample))
+    layout.fields = {f: fields[f] for f in _FIELD_ORDER if f in fields}
+    _infer_units(layout, sample, units)
+    return layout
+
+
+def _raw_chunks(layout: _Layout, chunk_rows: int | None) -> Iterator[tuple[pd.DataFrame, list]]:
+    """Yield (raw chunk, skipped lines [(line number, message)])."""
+    kw = _csv_kwargs(layout)
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        if chunk_rows:
+            reader = pd.read_csv(layout.path, chunksize=chunk_rows, **kw)
+            with reader:
+                for chunk in reader:
+                    skipped = _skipped_lines(caught)
+                    caught.clear()
+                    yield chunk, skipped
+        else:
+            chunk = pd.read_csv(layout.path, **kw)
+            skipped = _skipped_lines(caught)
+            caught.clear()
+            yield chunk, skipped
+    for w in caught:
+        warnings.warn_explicit(w.message, w.category, w.filename, w.lineno)
+
+
+def _skipped_lines(caught) -> list:
+    out = []
+    rest = []
+    for w in caught:
+        for m in re.finditer(r"Skipping line (\d+): (.*)", str(w.message)):
+            out.append((int(m.group(1)), m.group(2).strip()))
+        if "Skipping line" not in str(w.message):
+            rest.append(w)
+    caught[:] = rest
+    return out
+
+
+# --- cleaning ------------------------------------------------------------------------------------
+def _recode(cat: pd.Series, fn) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Apply ``fn`` (array of distinct strings -> array of normalised strings or None) to the
+    categories; return (new categories, new codes, raw codes)."""
+    codes = cat.cat.codes.to_numpy()
+    cats = np.asarray(cat.cat.categories.astype("str"), dtype=object)
+    norm = np.asarray(fn(cats), dtype=object) if cats.size else np.array([], dtype=object)
+    ok = np.array([x is not None for x in norm], dtype=bool)
+    uniq, inv = np.unique(norm[ok].astype(str), return_inverse=True) if ok.any() else (
+        np.array([], dtype=str), np.array([], dtype=int))
+    mapping = np.full(cats.size + 1, -2, dtype=np.int64)  # -1: empty cell, -2: bad value
+    mapping[np.flatnonzero(ok)] = inv
+    mapping[-1] = -1
+    return uniq, mapping[codes], codes
+
+
+def _norm_calls(cats):
+    up = np.char.upper(np.char.strip(cats.astype(str)))
+    ok = np.array([bool(_CALL_RE.match(x)) for x in up], dtype=bool)
+    return np.where(ok, up, None)
+
+
+def _parse_time(cols: list[pd.Series], unit: str) -> tuple[np.ndarray, np.ndarray]:
+    """Parse time categories; returns (int64 ns since epoch, status) with status 0 ok,
+    1 empty, 2 unparseable, 3 out of range."""
+    codes = [c.cat.codes.to_numpy().astype(np.int64) for c in cols]
+    cats = [np.asarray(c.cat.categories.astype("str"), dtype=object) for c in cols]
+    empty = np.zeros(len(codes[0]), dtype=bool)
+    for cd in codes:
+        empty |= cd < 0
+    if len(cols) == 2:
+        combo = codes[0] * (len(cats[1]) + 1) + codes[1]
+        keys, inv = np.unique(np.where(empty, -1, combo), return_inverse=True)
+        texts = np.array([f"{cats[0][k // (len(cats[1]) + 1)]} {cats[1][k % (len(cats[1]) + 1)]}"
+                          if k >= 0 else "" for k in keys], dtype=object)
+    else:
+        inv = np.where(empty, len(cats[0]), codes[0])
+        texts = np.append(cats[0], "")
+    s = pd.Series(texts, dtype="str").str.strip()
+    if unit == "epoch":
+        secs = pd.to_numeric(s, errors="coerce")
+        ok = secs.notna() & (secs.abs() < 1e11)
+        parsed = pd.to_datetime(secs.where(ok), unit="s", utc=True)
+    else:
+        parsed = pd.to_datetime(s, format="ISO8601", utc=True, errors="coerce")
+    parsed = parsed.dt.as_unit("ns")
+    bad_range = parsed.notna() & ((parsed < TIME_RANGE[0]) | (parsed >= TIME_RANGE[1]))
+    ns = parsed.to_numpy().view("i8") if parsed.dt.tz is None else \
+        parsed.dt.tz_localize(None).to_numpy().view("i8")
+    status_k = np.where(parsed.isna().to_numpy(), 2, np.where(bad_range.to_numpy(), 3, 0))
+    status = np.where(empty, 1, status_k[inv])
+    return ns[inv], status
+
+
+class _Checker:
+    """Collects the first failure of each row."""
+
+    def __init__(self, n: int):
+        self.field = np.full(n, None, dtype=object)
+        self.reason = np.full(n, None, dtype=object)
+        self.raw = {}
+
+    def fail(self, name: str, mask: np.ndarray, reason, raw: pd.Series | None):
+        new = mask & (self.field == None)  # noqa: E711
+        if not new.any():
+            return
+        self.field[new] = name
+        self.reason[new] = reason[new] if isinstance(reason, np.ndarray) else reason
+        if raw is not None:
+            self.raw.setdefault(name, raw)
+
+    @property
+    def bad(self) -> np.ndarray:
+        return self.field != None  # noqa: E711
+
+
+def _clean_chunk(raw: pd.DataFrame, layout: _Layout, rows: np.ndarray, region: str,
+                 slot_minutes: int) -> tuple[pd.DataFrame, pd.DataFrame]:
+    n = len(raw)
+    chk = _Checker(n)
+    col = {f: [raw.iloc[:, i] for i in pos] for f, pos in layout.fields.items()}
+    chk.fail("row", raw.isna().all(axis=1).to_numpy(), "blank line", None)
+
+    ns, status = _parse_time(col[C.TIME], layout.units["time"])
+    time_raw = col[C.TIME][0].astype("str") if len(col[C.TIME]) == 1 else (
+        col[C.TIME][0].astype("str").fillna("") + " " + col[C.TIME][1].astype("str").fillna(""))
+    reasons = np.array([None, "empty time", "unparseable time",
+                        "time out of range (before 1990 or from 2100)"], dtype=object)
+    chk.fail(C.TIME, status > 0, reasons[status], time_raw)
+
+    out = {}
+    for f, fn, what in ((C.TX_CALL, _norm_calls, "call"),
+                        (C.TX_LOCATOR, normalize_locator, "locator"),
+                        (C.RX_CALL, _norm_calls, "call"),
+                        (C.RX_LOCATOR, normalize_locator, "locator")):
+        cats, codes, _ = _recode(col[f][0], fn)
+        reason = np.where(codes == -1, f"empty {what}", f"bad {what}")
+        chk.fail(f, codes < 0, reason, col[f][0])
+        out[f] = (cats, codes)
+
+    def number(f, label, lo, hi, unit_txt, convert=None):
+        rawc = col[f][0]
+        v = _to_number(rawc, layout.decimal).to_numpy()
+        empty = rawc.isna().to_numpy()
+        if convert is not None:
+            with np.errstate(divide="ignore", invalid="ignore"):
+                v = convert(v)
+        reason = np.where(empty, f"empty {label}", f"{label} not a number")
+        chk.fail(f, ~np.isfinite(v) & (empty | np.isnan(v)), reason, rawc)
+        if lo is not None:
+            chk.fail(f, np.isfinite(v) & ((v < lo) | (v > hi)) | np.isinf(v),
+                     f"{label} outside {lo:+g}..{hi:+g} {unit_txt}".replace("+0..", "0.."), rawc)
+        return v
+
+    freq = number(C.FREQ, "frequency", None, None, "",
+                  lambda v: frequency_to_hz(v, layout.units["frequency"]))
+    band = freq_to_band(freq, region)
+    chk.fail(C.FREQ, np.isfinite(freq) & pd.isna(band), "frequency not in an amateur band",
+             col[C.FREQ][0])
+    snr = number(C.SNR, "SNR", *SNR_RANGE_DB, "dB")
+    power = number(C.POWER, "power", *POWER_RANGE_DBM, "dBm",
+                   lambda v: power_to_dbm(v, layout.units["power"]))
+    if C.DRIFT in col:
+        rawd = col[C.DRIFT][0]
+        drift = _to_number(rawd, layout.decimal).to_numpy()
+        chk.fail(C.DRIFT, rawd.notna().to_numpy() & ~np.isfinite(drift), "drift not a number",
+                 rawd)
+    else:
+        drift = np.full(n, np.nan)
+
+    bad = chk.bad
+    keep = ~bad
+    time_ns = ns[keep]
+    slot_ns = np.int64(slot_minutes) * 60 * 10**9
+    time = pd.to_datetime(time_ns, utc=True)
+    spots = pd.DataFrame({
+        C.TIME: time,
+        C.SLOT: pd.to_datetime(time_ns - np.mod(time_ns, slot_ns), utc=True),
+    })
+    for f in (C.TX_CALL, C.TX_LOCATOR, C.RX_CALL, C.RX_LOCATOR):
+        cats, codes = out[f]
+        spots[f] = pd.Categorical.from_codes(codes[keep], categories=pd.Index(cats, dtype="str"))
+    spots[C.FREQ] = freq[keep]
+    spots[C.BAND] = pd.Categorical(band[keep], categories=BAND_ORDER)
+    spots[C.SNR] = snr[keep]
+    spots[C.POWER] = power[keep]
+    spots[C.DRIFT] = drift[keep]
+    spots[C.SOURCE_ROW] = rows[keep]
+
+    idx = np.flatnonzero(bad)
+    values = np.full(idx.size, "", dtype=object)
+    for name, rawc in chk.raw.items():
+        sel = chk.field[idx] == name
+        if sel.any():
+            values[sel] = rawc.iloc[idx[sel]].astype("str").fillna("").to_numpy(dtype=object)
+    rejects = pd.DataFrame({
+        C.SOURCE_FILE: layout.name,
+        C.SOURCE_ROW: rows[idx].astype("int64"),
+        C.REJECT_FIELD: [_CLI_NAME.get(f, f) for f in chk.field[idx]],
+        C.REJECT_VALUE: values,
+        C.REJECT_REASON: chk.reason[idx],
+    }, index=pd.RangeIndex(idx.size))
+    return spots, rejects
+
+
+# --- duplicates across chunks --------------------------------------------------------------------
+class _SeenKeys:
+    """Set of 64-bit report-key hashes kept as a few sorted arrays (log-structured)."""
+
+    def __init__(self):
+        self.runs: list[np.ndarray] = []
+
+    def contains(self, h: np.ndarray) -> np.ndarray:
+        found = np.zeros(h.size, dtype=bool)
+        for run in self.runs:
+            pos = np.searchsorted(run, h)
+            pos[pos == run.size] = 0
+            found |= run[pos] == h
+        return found
+
+    def add(self, h: np.ndarray) -> None:
+        self.runs.append(np.sort(h))
+        while len(self.runs) > 1 and self.runs[-1].size * 2 >= self.runs[-2].size:
+            b = self.runs.pop()
+            a = self.runs.pop()
+            self.runs.append(np.sort(np.concatenate([a, b])))
+
+
+def _duplicates(spots: pd.DataFrame, seen: _SeenKeys) -> np.ndarray:
+    if spots.empty:
+        return np.zeros(0, dtype=bool)
+    h = pd.util.hash_pandas_object(spots[C.REPORT_KEY], index=False).to_numpy()
+    dup = pd.Series(h).duplicated().to_numpy() | seen.contains(h)
+    seen.add(h[~dup])
+    return dup
+
+
+# --- drivers -------------------------------------------------------------------------------------
+def _as_paths(paths) -> list[Path]:
+    if isinstance(paths, (str, Path)):
+        paths = [paths]
+    out = [Path(p) for p in paths]
+    if not out:
+        raise UsageError("no input files given")
+    return out
+
+
+def _check_args(region, slot_minutes, chunk_rows):
+    if region not in REGIONS:
+        raise UsageError(f"unknown IARU region {region!r}; valid: {', '.join(REGIONS)}")
+    if not isinstance(slot_minutes, (int, np.integer)) or slot_minutes < 1:
+        raise UsageError(f"slot_minutes must be a whole number of minutes >= 1, "
+                         f"not {slot_minutes!r}")
+    if chunk_rows is not None and (not isinstance(chunk_rows, (int, np.integer))
+                                   or chunk_rows < 1):
+        raise UsageError(f"chunk_rows must be a positive whole number, not {chunk_rows!r}")
+
+
+def _enrich(spots: pd.DataFrame) -> pd.DataFrame:
+    from .geo import add_path_columns
+
+    out = add_path_columns(spots)
+    return out[C.CANONICAL]
+
+
+def iter_spot_chunks(paths, *, mapping=None, units=None, delimiter: Delimiter = "auto",
+                     header: Header = "auto", slot_minutes: int = C.SLOT_MINUTES,
+                     region="all", chunk_rows: int | None = 500_000, progress: bool = False,
+                     summary: IngestSummary | None = None
+                     ) -> Iterator[tuple[pd.DataFrame, pd.DataFrame]]:
+    """Read spot files chunk by chunk; yield (spots, rejects) per chunk.
+
+    Same parameters as :func:`read_spots`. ``summary`` (an :class:`IngestSummary`, updated in
+    place as chunks are yielded) receives the counts. Duplicates are removed across chunks
+    and files; memory grows only by 8 bytes per distinct report (the key hashes).
+    """
+    _check_args(region, slot_minutes, chunk_rows)
+    mapping = _check_mapping(mapping)
+    units = _check_units(units)
+    delimiter = _delimiter_arg(delimiter)
+    paths = _as_paths(paths)
+    summary = summary if summary is not None else IngestSummary()
+    layouts = [_prepare_layout(p, mapping, units, delimiter, header) for p in paths]
+    seen = _SeenKeys()
+    bar = None
+    if progress:
+        from tqdm.auto import tqdm
+
+        bar = tqdm(unit=" rows", desc="ingest")
+    try:
+        for layout in layouts:
+            summary.files.append(layout.name)
+            summary.columns[layout.name] = layout.describe_columns()
+            summary.units[layout.name] = {
+                k: v + (" (inferred)" if k in layout.inferred else "")
+                for k, v in layout.units.items()}
+            next_row = 1
+            skipped_all: dict[int, str] = {}
+            for raw, skipped in _raw_chunks(layout, chunk_rows):
+                for line, msg in skipped:
+                    skipped_all[line - layout.header_lines] = msg
+                rows, next_row = _row_numbers(len(raw), next_row, skipped_all)
+                spots, rejects = _clean_chunk(raw, layout, rows, region, slot_minutes)
+                done = [r for r in skipped_all if r < next_row]
+                if done:
+                    extra = pd.DataFrame({
+                        C.SOURCE_FILE: layout.name, C.SOURCE_ROW: np.array(done, dtype="int64"),
+                        C.REJECT_FIELD: "row",
+                        C.REJECT_VALUE: [skipped_all.pop(r) for r in done],
+                        C.REJECT_REASON: "wrong number of fields"})
+                    rejects = pd.concat([rejects, extra], ignore_index=True)
+                dup = _duplicates(spots, seen)
+                spots = spots[~dup].reset_index(drop=True)
+                spots[C.SOURCE_FILE] = pd.Categorical([layout.name] * len(spots))
+                spots = _enrich(spots)
+                _count(summary, len(raw) + len(done), spots, rejects, int(dup.sum()))
+                if bar is not None:
+                    bar.update(len(raw) + len(done))
+                yield spots, rejects.sort_values(C.SOURCE_ROW, ignore_index=True)
+            if skipped_all:  # bad lines after the last good row
+                rows_left = sorted(skipped_all)
+                rejects = pd.DataFrame({
+                    C.SOURCE_FILE: layout.name, C.SOURCE_ROW: np.array(rows_left, dtype="int64"),
+                    C.REJECT_FIELD: "row", C.REJECT_VALUE: [skipped_all[r] for r in rows_left],
+                    C.REJECT_REASON: "wrong number of fields"})
+                _count(summary, len(rows_left), C.empty_spots(), rejects, 0)
+                yield C.empty_spots(), rejects
+    finally:
+        if bar is not None:
+            bar.close()
+
+
+def _row_numbers(n: int, start: int, skipped: dict) -> tuple[np.ndarray, int]:
+    """Data-row numbers of ``n`` rows read from ``start`` on, leaving out skipped lines."""
+    pending = sum(1 for r in skipped if r >= start)
+    cand = np.arange(start, start + n + pending, dtype=np.int64)
+    if pending:
+        cand = cand[~np.isin(cand, np.fromiter(skipped, dtype=np.int64))]
+    rows = cand[:n]
+    return rows, (int(rows[-1]) + 1 if n else start)
+
+
+def _count(summary, n_read, spots, rejects, n_dup):
+    summary.rows_read += n_read
+    summary.accepted += len(spots)
+    summary.rejected += len(rejects)
+    summary.duplicates += n_dup
+    summary._add_counts(rejects[C.REJECT_REASON].value_counts().to_dict(),
+                        summary.rejected_by_reason)
+    if len(spots):
+        counts = spots[C.BAND].value_counts(sort=False)
+        summary._add_counts(counts[counts > 0].to_dict(), summary.spots_per_band)
+    summary.spots_per_band = {b: summary.spots_per_band[b]
+                              for b in BAND_ORDER if b in summary.spots_per_band}
+
+
+def _concat_spots(parts: list[pd.DataFrame]) -> pd.DataFrame:
+    parts = [p for p in parts if len(p)] or [C.empty_spots()]
+    cats = [n for n in C.CANONICAL if str(C.GLOSSARY[n].dtype) == "category"]
+    plain = pd.concat([p.drop(columns=cats) for p in parts], ignore_index=True)
+    for name in cats:
+        if name == C.BAND:
+            values = pd.Categorical(np.concatenate([p[name].astype(object).to_numpy()
+                                                    for p in parts]))
+            present = [b for b in BAND_ORDER if b in set(values.categories)]
+            plain[name] = pd.Categorical(values, categories=present)
+        else:
+            u = pd.api.types.union_categoricals([p[name].array for p in parts],
+                                                ignore_order=True)
+            plain[name] = u.reorder_categories(sorted(u.categories)) if len(u.categories) else u
+    return C.apply_dtypes(plain[C.CANONICAL])
+
+
+def read_spots(paths, *, mapping=None, units=None, delimiter: Delimiter = "auto",
+               header: Header = "auto", slot_minutes: int = C.SLOT_MINUTES, region="all",
+               chunk_rows: int | None = None, progress: bool = False) -> IngestResult:
+    """Read spot-report CSV files into the canonical table.
+
+    Parameters
+    ----------
+    paths : str, path-like or sequence of them
+        CSV files (any delimiter, optional heading line, UTF-8 or Latin-1, plain or gzip).
+    mapping : dict, optional
+        Field -> column. Keys are glossary names or CLI field names (``time``, ``tx_call``,
+        ``tx_locator``, ``rx_call``, ``rx_locator``, ``frequency``, ``snr``, ``power``,
+        ``drift``); values are a heading or a 1-based column position (``time`` may be
+        ``"DATE+TIME"``). An explicit mapping always wins over guessing.
+    units : dict, optional
+        Field -> unit: ``time`` iso|epoch, ``frequency`` Hz|kHz|MHz, ``power`` dBm|W|mW.
+        Units not given are inferred per file (see the module docstring).
+    delimiter : {"auto", ",", ";", "tab", "space"}
+        Column delimiter; ``"auto"`` sniffs it (``"space"`` means runs of blanks).
+    header : {"auto", True, False}
+        Whether the first line holds headings; ``"auto"`` says yes when it has no numbers.
+    slot_minutes : int
+        Slot length [min]; slots start at multiples of it since 1970-01-01 UTC (for 2 min:
+        even UTC minutes, common practice).
+    region : {"1", "2", "3", "all"}
+        IARU region whose band plan decides the band (``"all"``: the union).
+    chunk_rows : int, optional
+        Read this many rows at a time (bounded memory); the result is the same.
+    progress : bool
+        Show a progress bar on stderr.
+
+    Returns
+    -------
+    IngestResult
+        ``.spots``: canonical table (:data:`spotkit.columns.CANONICAL`, glossary dtypes;
+        frequency [Hz], SNR [dB], power [dBm], drift [Hz/min], distance [km], bearings
+        [deg]); ``.rejects``: :data:`spotkit.columns.REJECT_COLUMNS`, one row per rejected
+        input row with its first failing field; ``.summary``: :class:`IngestSummary`.
+
+    Raises
+    ------
+    NotASpotTableError
+        A file is empty, binary, HTML/XML or has too few columns.
+    MappingError
+        The columns cannot be matched onto the glossary unambiguously.
+    InputError
+        A unit cannot be inferred, or the heading and data rows disagree.
+    UsageError
+        Bad arguments.
+    """
+    summary = IngestSummary()
+    spots, rejects = [], []
+    for s, r in iter_spot_chunks(paths, mapping=mapping, units=units, delimiter=delimiter,
+                                 header=header, slot_minutes=slot_minutes, region=region,
+                                 chunk_rows=chunk_rows, progress=progress, summary=summary):
+        spots.append(s)
+        rejects.append(r)
+    rej = pd.concat([r for r in rejects if len(r)] or [C.empty_rejects()], ignore_index=True)
+    return IngestResult(_concat_spots(spots), rej[C.REJECT_COLUMNS], summary)
+
+
+def _arrow_schema():
+    import pyarrow as pa
+
+    types = {"category": pa.dictionary(pa.int32(), pa.string()), "float64": pa.float64(),
+             "int64": pa.int64()}
+    fields = []
+    for name in C.CANONICAL:
+        dt = C.GLOSSARY[name].dtype
+        t = pa.timestamp("ns", tz="UTC") if dt == C.UTC_DTYPE else types[str(dt)]
+        fields.append(pa.field(name, t))
+    return pa.schema(fields)
+
+
+def ingest_to_parquet(paths, out_path, *, chunk_rows: int = 500_000, rejects_path=None,
+                      **kw) -> IngestSummary:
+    """Stream spot files to one Parquet file chunk by chunk (bounded memory).
+
+    Parameters
+    ----------
+    paths : str, path-like or sequence of them
+        Input CSV files (as :func:`read_spots`).
+    out_path : str or path-like
+        Parquet file to write (the canonical table, glossary dtypes).
+    chunk_rows : int
+        Rows per chunk; peak memory grows with it (roughly 1 kB per row).
+    rejects_path : str or path-like, optional
+        CSV file for the rejects table.
+    **kw
+        Further keywords of :func:`read_spots` (mapping, units, delimiter, header,
+        slot_minutes, region, progress).
+
+    Returns
+    -------
+    IngestSummary
+    """
+    import pyarrow as pa
+    import pyarrow.parquet as pq
+
+    out_path = Path(out_path)
+    out_path.parent.mkdir(parents=True, exist_ok=True)
+    schema = _arrow_schema()
+    summary = IngestSummary()
+    tmp = out_path.with_name(out_path.name + ".partial")
+    rej_fh = None
+    try:
+        if rejects_path is not None:
+            Path(rejects_path).parent.mkdir(parents=True, exist_ok=True)
+            rej_fh = open(rejects_path, "w", encoding="utf-8", newline="")
+            C.empty_rejects().to_csv(rej_fh, index=False)
+        with pq.ParquetWriter(tmp, schema) as writer:
+            wrote = False
+            for spots, rejects in iter_spot_chunks(paths, chunk_rows=chunk_rows,
+                                                   summary=summary, **kw):
+                if len(spots) or not wrote:
+                    writer.write_table(pa.Table.from_pandas(spots, schema=schema,
+                                                            preserve_index=False))
+                    wrote = True
+                if rej_fh is not None and len(rejects):
+                    rejects[C.REJECT_COLUMNS].to_csv(rej_fh, index=False, header=False)
+        tmp.replace(out_path)
+    finally:
+        if rej_fh is not None:
+            rej_fh.close()
+        if tmp.exists():
+            tmp.unlink()
+    return summary
+
+
+def write_rejects(rejects: pd.DataFrame, path) -> Path:
+    """Write a rejects table as CSV (UTF-8)."""
+    path = Path(path)
+    path.parent.mkdir(parents=True, exist_ok=True)
+    rejects[C.REJECT_COLUMNS].to_csv(path, index=False)
+    return path
+
+
+def load_spots(source, **kw) -> pd.DataFrame:
+    """A spot table from a DataFrame (returned as is), a Parquet file or spot CSV files.
+
+    Parameters
+    ----------
+    source : pandas.DataFrame, str or path-like
+        ``.parquet`` files (or directories of them) are read with the glossary dtypes; other
+        files go through :func:`read_spots` (``**kw`` passed on).
+
+    Raises
+    ------
+    InputError
+        When a CSV gives no accepted row.
+    """
+    if isinstance(source, pd.DataFrame):
+        return source
+    path = Path(source)
+    if path.is_dir() or path.suffix.lower() in (".parquet", ".pq"):
+        return _read_parquet(path)
+    res = read_spots(path, **kw)
+    if res.spots.empty:
+        reasons = ", ".join(f"{k}: {v}" for k, v in res.summary.rejected_by_reason.items())
+        raise InputError(f"{path}: no usable spot rows ({res.summary.rows_read} read; "
+                         f"rejected {reasons or 'none'})")
+    return res.spots
+
+
+def _read_parquet(path: Path) -> pd.DataFrame:
+    from . import store
+
+    return store.read_spots_parquet(path)
+
+
+def _write_parquet(df: pd.DataFrame, path) -> Path:
+    from . import store
+
+    return store.write_spots(df, path)
+
+
+__all__ = ["IngestSummary", "IngestResult", "read_spots", "iter_spot_chunks",
+           "ingest_to_parquet", "load_spots", "write_rejects", "match_headings",
+           "infer_columns", "infer_frequency_unit", "infer_power_unit", "SAMPLE_ROWS"]
