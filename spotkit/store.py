@@ -456,6 +456,60 @@ def read_dataset(root, *, bands=None, start=None, end=None, tx_calls=None, rx_ca
     return out
 
 
+def archive_files(root, *, bands=None, start=None, end=None, tx_calls=None, rx_calls=None,
+                  locator_prefix=None) -> list[str]:
+    """Data files of an archive whose partition (band, day) can match a selection.
+
+    Only the directory levels are looked at (no file is opened); the row-level part of the
+    selection is applied by :func:`read_archive_file`. Used to make one Dask partition per
+    file (:mod:`spotkit.distributed`).
+
+    Returns
+    -------
+    list of str
+        Paths relative to ``root`` (POSIX separators), sorted.
+    """
+    root = Path(root)
+    if not root.is_dir():
+        raise FileNotFoundError(f"{root}: no such archive directory")
+    dataset = _open_dataset(root)
+    if dataset is None:
+        return []
+    partition_by = dataset_manifest(root).get("partition_by", list(PARTITION_KEYS))
+    expr = dataset_filter(bands=bands, start=start, end=end, partition_by=partition_by)
+    parts = dataset.get_fragments(filter=expr) if expr is not None else dataset.get_fragments()
+    return sorted(Path(f.path).relative_to(root).as_posix() for f in parts)
+
+
+def read_archive_file(root, file, *, columns: Sequence[str] | None = None, bands=None,
+                      start=None, end=None, tx_calls=None, rx_calls=None,
+                      locator_prefix=None) -> pd.DataFrame:
+    """Read one data file of an archive (with its partition values) and filter its rows.
+
+    Parameters
+    ----------
+    root : str or path-like
+        Archive directory.
+    file : str
+        Path relative to ``root``, as returned by :func:`archive_files`.
+    columns, bands, start, end, tx_calls, rx_calls, locator_prefix
+        As :func:`read_dataset`.
+
+    Returns
+    -------
+    pandas.DataFrame
+        With the glossary dtypes.
+    """
+    root = Path(root)
+    partition_by = dataset_manifest(root).get("partition_by", list(PARTITION_KEYS))
+    dataset = ds.dataset([str(root / file)], format="parquet",
+                         partitioning=_partitioning(partition_by), partition_base_dir=str(root))
+    expr = dataset_filter(bands=bands, start=start, end=end, tx_calls=tx_calls,
+                          rx_calls=rx_calls, locator_prefix=locator_prefix,
+                          partition_by=partition_by)
+    return _scan(dataset, columns=columns, expr=expr, source=root / file)
+
+
 def _as_expression(filters) -> pc.Expression | None:
     if filters is None or isinstance(filters, pc.Expression):
         return filters
@@ -516,5 +570,6 @@ def _normalise_categories(s: pd.Series, *, band: bool) -> pd.Series:
 __all__ = [
     "DAY", "PARTITION_KEYS", "MANIFEST_NAME", "REJECTS_DIR", "ROW_GROUP_ROWS",
     "write_spots", "read_spots_parquet", "append_to_dataset", "read_dataset",
-    "dataset_manifest", "dataset_filter", "file_sha256", "table_to_spots",
+    "dataset_manifest", "dataset_filter", "file_sha256", "table_to_spots", "archive_files",
+    "read_archive_file",
 ]
