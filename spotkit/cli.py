@@ -54,11 +54,29 @@ def _add_ingest(sub):
     p.add_argument("--region", default="all", choices=["1", "2", "3", "all"],
                    help="IARU region whose band plan applies (default: union of all)")
     p.add_argument("--slot-minutes", type=int, default=2, help="slot length (default 2)")
+    p.add_argument("--header", default="auto", choices=["auto", "yes", "no"],
+                   help="whether the first line holds headings (default: auto-detect)")
     p.set_defaults(func=_cmd_ingest)
 
 
 def _cmd_ingest(args) -> int:
-    raise UsageError("spotkit ingest is not available yet")
+    from .ingest import ingest_to_parquet
+
+    mapping, units = dict(args.map), dict(args.unit)
+    if len(mapping) != len(args.map) or len(units) != len(args.unit):
+        raise UsageError("each FIELD may be given only once in --map / --unit")
+    header = {"auto": "auto", "yes": True, "no": False}[getattr(args, "header", "auto")]
+    kw = {}
+    if getattr(args, "chunk_rows", None):
+        kw["chunk_rows"] = args.chunk_rows
+    summary = ingest_to_parquet(
+        args.files, args.output, rejects_path=args.rejects, mapping=mapping, units=units,
+        delimiter=args.delimiter, header=header, slot_minutes=args.slot_minutes,
+        region=args.region, **kw)
+    print(summary.text())
+    print(f"wrote {summary.accepted:,} spots to {args.output}"
+          + (f" and {summary.rejected:,} rejects to {args.rejects}" if args.rejects else ""))
+    return EXIT_OK
 
 
 # --- simulate ----------------------------------------------------------------------------
