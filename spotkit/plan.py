@@ -1,0 +1,839 @@
+"""Plan an antenna comparison before it runs, and check afterwards that it ran as planned.
+
+Three jobs, one module:
+
+Schedules (:func:`make_schedule`, :func:`write_schedule`)
+    A switching schedule for the alternating design: one transmitter, antenna A or B in each
+    slot. Slots are grouped into *blocks* of ``block_slots`` consecutive slots inside one
+    clock hour; each block holds as many A slots as B slots in a random order (a permuted-block
+    design, Friedman, Furberg & DeMets 2010, ch. 6). Blocks restart at every clock hour, so
+    every antenna gets exactly the same number of slots in every clock hour and band; the
+    last block of an hour is shorter when ``block_slots`` does not divide the slots per hour.
+    Without band hopping every listed band is on the air in every slot (one transmitter per
+    band, or a multi-band transmitter) and all bands follow the same antenna sequence, so one
+    antenna relay can serve all of them. With band hopping one transmitter visits the bands
+    block by block: each round of blocks visits every band once in a random order, and A and
+    B of a band stay in neighbouring slots of the same block, where the alternating design
+    pairs them.
+
+Run length (:func:`duration_closed_form`, :func:`duration_by_simulation`,
+:func:`duration_table`, :func:`pilot_parameters`, :func:`plot_duration_tradeoff`)
+    The closed form is the normal-approximation sample size of a paired mean difference,
+    ``n0 = ((z_(1-alpha/2) + z_(power)) sigma / delta)^2`` (Chow, Shao & Wang 2008, sec. 3.1),
+    turned into hours by the report rate and corrected for two things spot data do:
+
+    * clustering - pairs heard by one receiver share that receiver's true B-minus-A. With an
+      intraclass correlation ``rho`` and ``R`` receivers the variance of the mean of N pairs
+      is ``sigma^2 (1 - rho) / N + sigma^2 rho / R``, which is Kish's design effect
+      ``1 + (m - 1) rho`` with ``m = N / R`` pairs per receiver (Kish 1965). It never falls
+      below ``sigma^2 rho / R``: when that floor exceeds the variance the test needs, no run
+      length is enough and the answer is infinite hours (more receivers are needed instead).
+      The receivers are assumed to stay the same as the run grows, which is conservative.
+    * censoring - a pair in which only one antenna was heard bounds B-minus-A from one side.
+      Its Fisher information about the mean is that of a censored normal observation. For a
+      normal sample censored at one point with censored fraction ``p`` (``z = Phi^-1(p)``) the
+      information per observation relative to an uncensored one is
+      ``r(p) = 1 - p + z phi(z) + phi(z)^2 / p`` (derived from the Tobit likelihood, Tobin
+      1958); the within-receiver variance is divided by ``r``. Real pairs are censored at
+      scattered points and from both sides, so ``r`` is an approximation; the simulation
+      checks it.
+
+    The simulation runs :func:`spotkit.simulate.simulate_spots` and
+    :func:`spotkit.compare.compare_antennas` for a few run lengths and many seeds and counts how
+    often the confidence interval excludes zero (empirical power, with a Wilson interval) and
+    how wide it is. Its Monte-Carlo error is reported beside it.
+
+Audit (:func:`audit_schedule`)
+    Compares the reports of a finished run with its schedule: reports in slots or bands the
+    schedule did not have the station on ("off schedule"), scheduled slots with no report at
+    all ("gap"), slots whose reported power says the other antenna was connected ("wrong
+    antenna", when the two antennas were run at different powers), and clock hours in which
+    only one antenna was heard. What this costs is measured by effective pairs: in a clock
+    hour and band with ``nA`` usable A slots and ``nB`` usable B slots a difference of means
+    has the variance of ``2 nA nB / (nA + nB)`` balanced pairs; the audit sums that over hours
+    and bands and sets it beside the planned ``n / 2``.
+
+Known error: the closed form is a planning figure. Its inputs (spread, report rate,
+correlation, censored fraction) come from a pilot day or from defaults, and propagation on the
+day of the run will differ; treat the hours as good to a factor of about 1.5 and prefer the
+simulation or a pilot when the decision matters.
+
+References
+----------
+S.-C. Chow, J. Shao, H. Wang, *Sample Size Calculations in Clinical Research*, 2nd ed.,
+Chapman & Hall/CRC, 2008, sec. 3.1 (one-sample design; a paired design is a one-sample design
+on the differences) [section from memory].
+L. Kish, *Survey Sampling*, Wiley, 1965 (design effect of cluster sampling) [from memory].
+J. Tobin, "Estimation of relationships for limited dependent variables", Econometrica 26:24-36,
+1958.
+A. Donner, "A review of inference procedures for the intraclass correlation coefficient in the
+one-way random effects model", International Statistical Review 54:67-82, 1986 (ANOVA
+estimator of the ICC) [from memory].
+L. M. Friedman, C. D. Furberg, D. L. DeMets, *Fundamentals of Clinical Trials*, 4th ed.,
+Springer, 2010, ch. 6 (blocked randomisation) [from memory].
+E. B. Wilson, "Probable inference, the law of succession, and statistical inference",
+JASA 22:209-212, 1927.
+"""
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Literal, Sequence
+
+import numpy as np
+import pandas as pd
+from scipy import stats as _st
+
+from . import columns as C
+from .bands import BAND_ORDER, sort_bands
+from .errors import InputError, UsageError
+from .pairing import read_schedule
+
+#: Antenna labels used in schedules.
+ANTENNAS = ("A", "B")
+
+Marker = Literal["power", "none"]
+MARKERS = ("power", "none")
+
+#: Slot statuses the audit assigns.
+SLOT_OK, SLOT_GAP, SLOT_WRONG, SLOT_UNKNOWN = "ok", "gap", "wrong_antenna", "unknown_power"
+#: Reasons for reports outside the schedule.
+OFF_NOT_SCHEDULED, OFF_WRONG_BAND = "not scheduled", "band not scheduled in this slot"
+
+_HOUR = pd.Timedelta(hours=1)
+
+
+# ---------------------------------------------------------------------------------------------
+# schedules
+# ---------------------------------------------------------------------------------------------
+def _as_utc(value, name: str) -> pd.Timestamp:
+    try:
+        ts = pd.Timestamp(value)
+    except (ValueError, TypeError) as exc:
+        raise UsageError(f"{name}: cannot read {value!r} as a time ({exc})") from None
+    if ts is pd.NaT:
+        raise UsageError(f"{name}: no time given")
+    return ts.tz_localize("UTC") if ts.tzinfo is None else ts.tz_convert("UTC")
+
+
+def _check_bands(bands) -> list[str]:
+    if isinstance(bands, str):
+        bands = [b for b in bands.split(",") if b.strip()]
+    out = [str(b).strip().lower() for b in bands]
+    if not out:
+        raise UsageError("give at least one band")
+    unknown = [b for b in out if b not in BAND_ORDER]
+    if unknown:
+        raise UsageError(f"unknown band(s) {', '.join(unknown)}; valid: {', '.join(BAND_ORDER)}")
+    if len(set(out)) != len(out):
+        raise UsageError(f"a band is listed twice: {', '.join(out)}")
+    return out
+
+
+def slots_per_hour(slot_minutes: int) -> int:
+    """Number of slots in a clock hour; raises UsageError unless it is a whole even number.
+
+    An even number of slots per hour is what lets A and B share every hour exactly.
+    """
+    valid = [m for m in range(1, 61) if 60 % m == 0 and (60 // m) % 2 == 0]
+    if slot_minutes not in valid:
+        raise UsageError(
+            f"slot length {slot_minutes} min does not split an hour into an even number of "
+            f"slots; valid: {', '.join(map(str, valid))}")
+    return 60 // slot_minutes
+
+
+def _balanced_blocks(n_hours: int, per_hour: int, block_slots: int,
+                     rng: np.random.Generator) -> tuple[np.ndarray, np.ndarray]:
+    """Antenna (0 = A, 1 = B) and block number of every slot, blocks restarting each hour."""
+    j = np.tile(np.arange(per_hour), n_hours)
+    hour = np.repeat(np.arange(n_hours), per_hour)
+    blocks_per_hour = -(-per_hour // block_slots)
+    block = hour * blocks_per_hour + j // block_slots
+    length = np.minimum(block_slots, per_hour - (j // block_slots) * block_slots)
+    key = rng.random(j.size)
+    order = np.lexsort((key, block))  # by block, then random key
+    rank = np.empty(j.size, dtype=np.int64)
+    starts = np.r_[0, np.flatnonzero(np.diff(block[order])) + 1]
+    pos = np.arange(j.size) - np.repeat(starts, np.diff(np.r_[starts, j.size]))
+    rank[order] = pos
+    antenna = (rank >= length // 2).astype(np.int8)
+    return antenna, block
+
+
+def make_schedule(start, days: float, bands: Sequence[str] | str, *, slot_minutes: int = 2,
+                  block_slots: int = 2, band_hop: bool = False, seed: int = 0) -> pd.DataFrame:
+    """Write a balanced, randomised antenna-switching schedule for the alternating design.
+
+    Parameters
+    ----------
+    start : str or datetime-like
+        First slot [UTC]; must be a whole UTC hour. A time without a zone is taken as UTC.
+    days : float
+        Length of the run [days]; ``days * 24`` must be a whole number of hours.
+    bands : sequence of str or str
+        Bands such as ``["20m", "10m"]`` or ``"20m,10m"``.
+    slot_minutes : int
+        Slot length [min]; the hour must hold an even number of slots (2 is the custom).
+    block_slots : int
+        Slots per randomisation block [slots], even: each block holds half A, half B in a random
+        order. 2 keeps every A slot next to a B slot.
+    band_hop : bool
+        False: every band is on the air in every slot, all with the same antenna sequence.
+        True: one transmitter visits the bands block by block; each round of blocks visits
+        every band once in a random order.
+    seed : int
+        Seed of the random order; the same seed gives the same schedule.
+
+    Returns
+    -------
+    pandas.DataFrame
+        One row per slot and band: ``start``, ``end`` [UTC], ``band``, ``antenna`` ("A" or
+        "B"), sorted by time and band. Every antenna has the same number of slots in every
+        clock hour and band.
+
+    References
+    ----------
+    Friedman, Furberg & DeMets, *Fundamentals of Clinical Trials*, 4th ed., 2010, ch. 6
+    (permuted-block randomisation) [from memory].
+    """
+    t0 = _as_utc(start, "start")
+    if t0 != t0.floor("h"):
+        raise UsageError(f"start {t0.isoformat()} is not on a whole UTC hour; schedules are "
+                         "balanced hour by hour, so start on the hour")
+    hours_f = float(days) * 24.0
+    n_hours = int(round(hours_f))
+    if n_hours < 1 or abs(hours_f - n_hours) > 1e-9:
+        raise UsageError(f"days={days} is not a positive whole number of hours")
+    band_list = _check_bands(bands)
+    per_hour = slots_per_hour(int(slot_minutes))
+    if int(block_slots) != block_slots or block_slots < 2 or block_slots % 2:
+        raise UsageError(f"block_slots={block_slots} must be an even number of slots >= 2")
+    block_slots = int(block_slots)
+    rng = np.random.default_rng(seed)
+    antenna, block = _balanced_blocks(n_hours, per_hour, block_slots, rng)
+    n_slots = antenna.size
+    step = pd.Timedelta(minutes=int(slot_minutes))
+    starts = t0 + step * np.arange(n_slots)
+    if band_hop and len(band_list) > 1:
+        nb = len(band_list)
+        n_blocks = int(block[-1]) + 1
+        rounds = -(-n_blocks // nb)
+        perm = rng.permuted(np.tile(np.arange(nb), (rounds, 1)), axis=1).ravel()
+        band_idx = perm[block]
+        table = pd.DataFrame({
+            C.SCHEDULE_START: starts,
+            C.BAND: np.asarray(band_list, dtype=object)[band_idx],
+            C.ANTENNA: np.asarray(ANTENNAS, dtype=object)[antenna],
+        })
+    else:
+        nb = len(band_list)
+        table = pd.DataFrame({
+            C.SCHEDULE_START: np.repeat(starts, nb),
+            C.BAND: np.tile(np.asarray(band_list, dtype=object), n_slots),
+            C.ANTENNA: np.repeat(np.asarray(ANTENNAS, dtype=object)[antenna], nb),
+        })
+    table.insert(1, C.SCHEDULE_END, table[C.SCHEDULE_START] + step)
+    order = {b: i for i, b in enumerate(BAND_ORDER)}
+    table["_b"] = table[C.BAND].map(order)
+    table = table.sort_values([C.SCHEDULE_START, "_b"], kind="stable").drop(columns="_b")
+    table[C.SCHEDULE_START] = table[C.SCHEDULE_START].astype(C.UTC_DTYPE)
+    table[C.SCHEDULE_END] = table[C.SCHEDULE_END].astype(C.UTC_DTYPE)
+    return table.reset_index(drop=True)
+
+
+def write_schedule(schedule: pd.DataFrame, path) -> Path:
+    """Write a schedule as CSV: ``start,end,band,antenna`` with ISO 8601 UTC times ("...Z").
+
+    This is the file ``spotkit compare --schedule FILE`` and ``spotkit plan audit`` read.
+    """
+    path = Path(path)
+    out = pd.DataFrame({
+        C.SCHEDULE_START: _iso(schedule[C.SCHEDULE_START]),
+        C.SCHEDULE_END: _iso(schedule[C.SCHEDULE_END]),
+    })
+    if C.BAND in schedule.columns:
+        out[C.BAND] = schedule[C.BAND].astype(str).to_numpy()
+    out[C.ANTENNA] = schedule[C.ANTENNA].astype(str).to_numpy()
+    out.to_csv(path, index=False)
+    return path
+
+
+def _iso(times: pd.Series) -> np.ndarray:
+    t = pd.to_datetime(times, utc=True)
+    return t.dt.strftime("%Y-%m-%dT%H:%M:%SZ").to_numpy()
+
+
+def schedule_balance(schedule: pd.DataFrame) -> pd.DataFrame:
+    """Slots per clock hour, band and antenna of a schedule.
+
+    Returns
+    -------
+    pandas.DataFrame
+        Index (hour start [UTC], band), columns ``A`` and ``B`` [slots].
+    """
+    hour = pd.to_datetime(schedule[C.SCHEDULE_START], utc=True).dt.floor("h")
+    keys = [hour.rename(C.HOUR)]
+    if C.BAND in schedule.columns:
+        keys.append(schedule[C.BAND].astype(str).rename(C.BAND))
+    counts = schedule.groupby(keys + [schedule[C.ANTENNA].astype(str)]).size()
+    return counts.unstack(C.ANTENNA, fill_value=0).reindex(columns=list(ANTENNAS), fill_value=0)
+
+
+# ---------------------------------------------------------------------------------------------
+# run length: closed form
+# ---------------------------------------------------------------------------------------------
+def _check_prob(value: float, name: str) -> float:
+    value = float(value)
+    if not 0.0 < value < 1.0:
+        raise UsageError(f"{name}={value} must lie strictly between 0 and 1")
+    return value
+
+
+def pairs_needed(effect_db: float, *, sigma_db: float, alpha: float = 0.05,
+                 power: float = 0.8) -> float:
+    """Pairs needed to detect a paired mean difference, normal approximation.
+
+    ``n0 = ((z_(1-alpha/2) + z_(power)) * sigma_db / effect_db) ** 2`` for a two-sided test at
+    level ``alpha``; not rounded (round up for a count of pairs).
+
+    Parameters
+    ----------
+    effect_db : float
+        B-minus-A difference to detect [dB], non-zero.
+    sigma_db : float
+        Standard deviation of one pair's B-minus-A [dB].
+    alpha : float
+        Two-sided significance level.
+    power : float
+        Probability of detecting ``effect_db`` (1 - beta).
+
+    Returns
+    -------
+    float
+        Pairs [count].
+
+    References
+    ----------
+    Chow, Shao & Wang, *Sample Size Calculations in Clinical Research*, 2nd ed., 2008,
+    sec. 3.1 [from memory].
+    """
+    alpha = _check_prob(alpha, "alpha")
+    power = _check_prob(power, "power")
+    if not np.isfinite(effect_db) or effect_db == 0:
+        raise UsageError(f"effect_db={effect_db} must be a non-zero number of dB")
+    if not sigma_db > 0:
+        raise UsageError(f"sigma_db={sigma_db} must be positive")
+    z = _st.norm.ppf(1 - alpha / 2) + _st.norm.ppf(power)
+    return float((z * sigma_db / effect_db) ** 2)
+
+
+def censoring_information(censored_fraction) -> np.ndarray:
+    """Fisher information about the mean of one censored-normal observation, relative to one
+    uncensored observation, for a sample censored at one point with fraction ``p`` censored.
+
+    ``r(p) = 1 - p + z phi(z) + phi(z)^2 / p`` with ``z = Phi^-1(p)``; ``r(0) = 1``,
+    ``r(0.5) = 0.818``, ``r -> 0`` as ``p -> 1``. Derived from the Tobit log-likelihood
+    (Tobin 1958): censored terms ``log Phi(z)``, exact terms ``log phi``.
+
+    Parameters
+    ----------
+    censored_fraction : float or array-like
+        Fraction of pairs in which only one antenna was heard, in [0, 1).
+
+    Returns
+    -------
+    numpy.ndarray
+        Relative information in (0, 1].
+    """
+    p = np.asarray(censored_fraction, dtype=float)
+    if np.any(~np.isfinite(p)) or np.any(p < 0) or np.any(p >= 1):
+        raise UsageError(f"censored fraction {censored_fraction} must lie in [0, 1)")
+    pc = np.where(p > 0, p, 0.5)
+    z = _st.norm.ppf(pc)
+    phi = _st.norm.pdf(z)
+    r = 1.0 - pc + z * phi + phi ** 2 / pc
+    return np.where(p > 0, r, 1.0)
+
+
+def _variance_terms(sigma_db, icc, clusters, censored_fraction):
+    """(within, floor): Var(mean of N pairs) = within / N + floor [dB^2]."""
+    if not sigma_db > 0:
+        raise UsageError(f"sigma_db={sigma_db} must be positive")
+    icc = float(icc)
+    if not 0.0 <= icc < 1.0:
+        raise UsageError(f"icc={icc} must lie in [0, 1)")
+    if icc > 0 and (clusters is None or not clusters > 0):
+        raise UsageError("icc > 0 needs the number of receivers (clusters) as well")
+    r = float(censoring_information(censored_fraction))
+    within = sigma_db ** 2 * (1.0 - icc) / r
+    floor = sigma_db ** 2 * icc / clusters if icc > 0 else 0.0
+    return within, floor
+
+
+@dataclass(frozen=True)
+class DurationEstimate:
+    """Closed-form run length; see :func:`duration_closed_form`."""
+
+    effect_db: float
+    hours: float
+    pairs: float
+    pairs_simple: float
+    design_effect: float
+    censoring_factor: float
+    ci_width_db: float
+    pairs_per_hour: float
+    sigma_db: float
+    alpha: float
+    power: float
+    icc: float
+    clusters: float | None
+    censored_fraction: float
+
+    @property
+    def feasible(self) -> bool:
+        """False when clustering alone leaves too much variance for any run length."""
+        return bool(np.isfinite(self.hours))
+
+    def to_dict(self) -> dict:
+        d = dict(self.__dict__)
+        d["feasible"] = self.feasible
+        return d
+
+    def __str__(self) -> str:
+        if not self.feasible:
+            return (f"No run length is enough to detect {self.effect_db:g} dB with power "
+                    f"{self.power:g}: with icc {self.icc:g} and {self.clusters:g} receivers the "
+                    "between-receiver spread alone exceeds what the test allows; more "
+                    "receivers are needed, not more hours.")
+        return (f"{self.hours:.1f} h ({self.pairs:.0f} pairs at {self.pairs_per_hour:g} pairs/h) "
+                f"to detect {self.effect_db:g} dB with power {self.power:g} at alpha "
+                f"{self.alpha:g}; {self.pairs_simple:.1f} pairs without clustering or censoring, "
+                f"x{self.design_effect:.2f} for clustering, /{self.censoring_factor:.3f} for "
+                f"censoring; expected CI width {self.ci_width_db:.2f} dB.")
+
+
+def duration_closed_form(effect_db: float, *, sigma_db: float, pairs_per_hour: float,
+                         alpha: float = 0.05, power: float = 0.8, icc: float = 0.0,
+                         clusters: float | None = None,
+                         censored_fraction: float = 0.0) -> DurationEstimate:
+    """Hours of alternating or simultaneous beacons needed to detect a B-minus-A difference.
+
+    Solves ``Var(N) = sigma^2 (1 - icc) / (N r) + sigma^2 icc / clusters`` equal to
+    ``(effect / (z_(1-alpha/2) + z_(power)))^2`` for the number of pairs N, then divides by
+    the report rate. ``r`` is :func:`censoring_information` of the censored fraction. With
+    ``icc = 0`` and no censoring N equals :func:`pairs_needed`.
+
+    Parameters
+    ----------
+    effect_db : float
+        B-minus-A difference to detect [dB].
+    sigma_db : float
+        Standard deviation of one pair's B-minus-A (latent, uncensored) [dB].
+    pairs_per_hour : float
+        Pairs (slots x receivers where at least one antenna was heard) per hour [1/h].
+    alpha, power : float
+        Two-sided level and power (1 - beta).
+    icc : float
+        Intraclass correlation of B-minus-A within a receiver, in [0, 1).
+    clusters : float, optional
+        Number of receivers (or effective number, ``(sum m)^2 / sum m^2`` for unequal
+        shares); needed when ``icc > 0``.
+    censored_fraction : float
+        Fraction of pairs in which only one antenna was heard.
+
+    Returns
+    -------
+    DurationEstimate
+        ``hours`` [h] (``inf`` when no run length suffices), ``pairs``, ``pairs_simple``
+        (no clustering, no censoring), ``design_effect`` (``1 + (m - 1) icc`` at the answer),
+        ``censoring_factor`` r, ``ci_width_db`` (expected width of the ``1 - alpha``
+        confidence interval at that run length) [dB].
+
+    References
+    ----------
+    Chow, Shao & Wang (2008), sec. 3.1 [from memory]; Kish, *Survey Sampling* (1965)
+    [from memory]; Tobin, Econometrica 26:24-36 (1958).
+    """
+    n0 = pairs_needed(effect_db, sigma_db=sigma_db, alpha=alpha, power=power)
+    if not pairs_per_hour > 0:
+        raise UsageError(f"pairs_per_hour={pairs_per_hour} must be positive")
+    within, floor = _variance_terms(sigma_db, icc, clusters, censored_fraction)
+    z_a = _st.norm.ppf(1 - alpha / 2)
+    target = (effect_db / (z_a + _st.norm.ppf(power))) ** 2
+    if floor >= target:
+        n = math.inf
+    else:
+        n = within / (target - floor)
+    r = float(censoring_information(censored_fraction))
+    m = n / clusters if clusters else 1.0
+    deff = 1.0 + (m - 1.0) * icc if np.isfinite(n) else math.inf
+    width = 2 * z_a * math.sqrt(within / n + floor) if np.isfinite(n) else math.nan
+    return DurationEstimate(
+        effect_db=float(effect_db), hours=n / pairs_per_hour, pairs=n, pairs_simple=n0,
+        design_effect=deff, censoring_factor=r, ci_width_db=width,
+        pairs_per_hour=float(pairs_per_hour), sigma_db=float(sigma_db), alpha=float(alpha),
+        power=float(power), icc=float(icc),
+        clusters=None if clusters is None else float(clusters),
+        censored_fraction=float(censored_fraction))
+
+
+def power_closed_form(hours, effect_db: float, *, sigma_db: float, pairs_per_hour: float,
+                      alpha: float = 0.05, icc: float = 0.0, clusters: float | None = None,
+                      censored_fraction: float = 0.0) -> pd.DataFrame:
+    """Expected power and CI width after given run lengths (the inverse of
+    :func:`duration_closed_form`).
+
+    Parameters
+    ----------
+    hours : array-like
+        Run lengths [h].
+    effect_db, sigma_db, pairs_per_hour, alpha, icc, clusters, censored_fraction
+        As in :func:`duration_closed_form`.
+
+    Returns
+    -------
+    pandas.DataFrame
+        ``hours`` [h], ``pairs``, ``se_db`` (standard error of the estimate) [dB],
+        ``ci_width_db`` (expected width of the ``1 - alpha`` interval) [dB], ``power``
+        (two-sided, both tails).
+    """
+    _check_prob(alpha, "alpha")
+    h = np.atleast_1d(np.asarray(hours, dtype=float))
+    if np.any(~(h > 0)):
+        raise UsageError("run lengths must be positive hours")
+    if not pairs_per_hour > 0:
+        raise UsageError(f"pairs_per_hour={pairs_per_hour} must be positive")
+    within, floor = _variance_terms(sigma_db, icc, clusters, censored_fraction)
+    n = h * pairs_per_hour
+    se = np.sqrt(within / n + floor)
+    z_a = _st.norm.ppf(1 - alpha / 2)
+    pw = _st.norm.cdf(abs(effect_db) / se - z_a) + _st.norm.cdf(-abs(effect_db) / se - z_a)
+    return pd.DataFrame({"hours": h, C.PAIRS: n, "se_db": se, "ci_width_db": 2 * z_a * se,
+                         "power": pw})
+
+
+# ---------------------------------------------------------------------------------------------
+# audit of a finished run
+# ---------------------------------------------------------------------------------------------
+# Names of the audit's own output columns (not spot-table columns).
+STATUS = "status"
+ACTUAL_ANTENNA = "actual_antenna"
+HOUR_UTC = "hour_utc"
+SLOTS_A, SLOTS_B = "slots_a", "slots_b"
+USABLE_A, USABLE_B = "usable_a", "usable_b"
+EFF_PLANNED, EFF_ACTUAL = "effective_pairs_planned", "effective_pairs"
+ONE_ANTENNA = "one_antenna"
+DETAIL = "detail"
+#: Kinds of audit finding (the KIND column of :meth:`AuditResult.to_frame`).
+FINDINGS = ("gap", "wrong_antenna", "unknown_power", "off_schedule", "one_antenna_hour")
+
+
+def _effective_pairs(a, b) -> np.ndarray:
+    """Balanced pairs with the variance of a difference of means of a and b observations."""
+    a = np.asarray(a, dtype=float)
+    b = np.asarray(b, dtype=float)
+    tot = a + b
+    return np.divide(2 * a * b, tot, out=np.zeros_like(tot), where=tot > 0)
+
+
+def expand_schedule(schedule: pd.DataFrame, slot_minutes: int = C.SLOT_MINUTES) -> pd.DataFrame:
+    """One row per slot (and band) of a schedule whose rows may span several slots.
+
+    Parameters
+    ----------
+    schedule : pandas.DataFrame, str or pathlib.Path
+        ``start``, ``end`` [UTC], ``antenna`` ("A"/"B"), optional ``band``; intervals are
+        [start, end). A path is read with :func:`spotkit.pairing.read_schedule`.
+    slot_minutes : int
+        Slot length [min].
+
+    Returns
+    -------
+    pandas.DataFrame
+        ``slot_utc``, ``antenna`` and ``band`` when the schedule has one.
+    """
+    schedule = read_schedule(schedule)  # validates columns, times, antennas, overlaps
+    start = schedule[C.SCHEDULE_START]
+    end = schedule[C.SCHEDULE_END]
+    ant = schedule[C.ANTENNA]
+    step = pd.Timedelta(minutes=slot_minutes)
+    n = np.ceil((end - start) / step).astype("int64").to_numpy()
+    idx = np.repeat(np.arange(len(schedule)), n)
+    k = np.arange(idx.size) - np.repeat(np.cumsum(n) - n, n)
+    slot = pd.DatetimeIndex(start).take(idx) + pd.to_timedelta(k * slot_minutes, unit="min")
+    out = pd.DataFrame({C.SLOT: slot.astype(C.UTC_DTYPE)})
+    if C.BAND in schedule.columns:
+        out[C.BAND] = schedule[C.BAND].astype(str).str.strip().str.lower().to_numpy()[idx]
+    out[C.ANTENNA] = ant.to_numpy()[idx]
+    keys = [C.SLOT, C.BAND] if C.BAND in out.columns else [C.SLOT]
+    dup = out.duplicated(keys, keep=False)
+    if dup.any():
+        row = out[dup].iloc[0]
+        raise InputError(f"schedule gives slot {row[C.SLOT].isoformat()} twice")
+    return out
+
+
+@dataclass
+class AuditResult:
+    """What :func:`audit_schedule` found.
+
+    Attributes
+    ----------
+    summary : dict
+        Counts and effective pairs (see :func:`audit_schedule`).
+    slots : pandas.DataFrame
+        One row per scheduled slot and band: ``slot_utc``, ``band``, ``antenna`` (scheduled),
+        ``count`` (reports), ``power_dbm`` (most common reported power), ``status``
+        (ok / gap / wrong_antenna / unknown_power), ``actual_antenna``.
+    hours : pandas.DataFrame
+        One row per clock hour and band: ``hour_utc``, ``band``, ``slots_a``, ``slots_b``
+        (scheduled), ``usable_a``, ``usable_b`` (slots with reports agreeing with the schedule),
+        ``effective_pairs_planned``, ``effective_pairs``, ``one_antenna``.
+    off_schedule : pandas.DataFrame
+        The station's reports in slots or bands the schedule does not have, with ``reason``.
+    """
+
+    call: str
+    summary: dict
+    slots: pd.DataFrame
+    hours: pd.DataFrame
+    off_schedule: pd.DataFrame
+    markers: dict | None = None
+    notes: list = field(default_factory=list)
+
+    def to_frame(self) -> pd.DataFrame:
+        """Every finding, one row each: ``kind`` (see :data:`FINDINGS`), ``slot_utc`` (slot or
+        hour start), ``band``, ``antenna`` (scheduled), ``count`` (reports), ``detail``."""
+        s = self.slots[self.slots[STATUS] != SLOT_OK]
+        parts = [pd.DataFrame({
+            C.KIND: s[STATUS].to_numpy(), C.SLOT: s[C.SLOT].to_numpy(),
+            C.BAND: s[C.BAND].to_numpy(), C.ANTENNA: s[C.ANTENNA].to_numpy(),
+            C.COUNT: s[C.COUNT].to_numpy(),
+            DETAIL: np.where(s[STATUS] == SLOT_GAP, "no report at all",
+                             "reported power " + s[C.POWER].map("{:g} dBm".format)
+                             .astype(str).to_numpy()),
+        })]
+        off = self.off_schedule
+        if len(off):
+            g = off.groupby([C.SLOT, C.BAND, C.REJECT_REASON], observed=True).size()
+            g = g.rename(C.COUNT).reset_index()
+            parts.append(pd.DataFrame({
+                C.KIND: "off_schedule", C.SLOT: g[C.SLOT].to_numpy(),
+                C.BAND: g[C.BAND].astype(str).to_numpy(), C.ANTENNA: "",
+                C.COUNT: g[C.COUNT].to_numpy(), DETAIL: g[C.REJECT_REASON].to_numpy()}))
+        h = self.hours[self.hours[ONE_ANTENNA]]
+        if len(h):
+            only = np.where(h[USABLE_A] > 0, "A", "B")
+            parts.append(pd.DataFrame({
+                C.KIND: "one_antenna_hour", C.SLOT: h[HOUR_UTC].to_numpy(),
+                C.BAND: h[C.BAND].to_numpy(), C.ANTENNA: only,
+                C.COUNT: (h[USABLE_A] + h[USABLE_B]).to_numpy(),
+                DETAIL: "only antenna " + pd.Series(only) + " usable in this hour"}))
+        out = pd.concat([p for p in parts if len(p)], ignore_index=True) if any(
+            len(p) for p in parts) else parts[0]
+        out[C.SLOT] = pd.to_datetime(out[C.SLOT], utc=True)
+        return out.sort_values([C.SLOT, C.BAND, C.KIND], kind="stable").reset_index(drop=True)
+
+    @property
+    def text(self) -> str:
+        """A plain-language account of the audit."""
+        s = self.summary
+        lines = [
+            f"Schedule audit for {self.call}: {s['slots_scheduled']:,} scheduled slots "
+            f"(slot x band), {s['reports']:,} reports of the station.",
+            f"  slots as planned:            {s['slots_ok']:,}",
+            f"  gaps (no report at all):     {s['gaps']:,}",
+            f"  wrong antenna (power says):  {s['wrong_antenna']:,}",
+            f"  power matches neither:       {s['unknown_power']:,}",
+            f"  reports off the schedule:    {s['off_schedule_reports']:,} "
+            f"in {s['off_schedule_slots']:,} slots",
+            f"  hours with one antenna only: {s['hours_one_antenna']:,} of {s['hours']:,} "
+            f"(hour x band); silent: {s['hours_silent']:,}",
+            f"  effective pairs: {s['effective_pairs']:.1f} of {s['effective_pairs_planned']:.1f} "
+            f"planned ({100 * s['efficiency']:.1f} %); the comparison's standard error grows "
+            f"by about x{s['se_inflation']:.2f}.",
+        ]
+        lines += [f"  note: {n}" for n in self.notes]
+        return "\n".join(lines)
+
+    def __str__(self) -> str:
+        return self.text
+
+    def corrected_schedule(self) -> pd.DataFrame:
+        """The schedule as the power markers say it ran: one row per slot, ``start``, ``end``,
+        ``band``, ``antenna``; gaps kept as scheduled, slots whose power matched neither
+        antenna left out."""
+        s = self.slots[self.slots[STATUS] != SLOT_UNKNOWN]
+        step = pd.Timedelta(minutes=self.summary["slot_minutes"])
+        return pd.DataFrame({C.SCHEDULE_START: s[C.SLOT].to_numpy(),
+                             C.SCHEDULE_END: (s[C.SLOT] + step).to_numpy(),
+                             C.BAND: s[C.BAND].to_numpy(),
+                             C.ANTENNA: s[ACTUAL_ANTENNA].to_numpy()}).reset_index(drop=True)
+
+
+def _modal(values: pd.Series, keys: list[pd.Series]) -> pd.Series:
+    """Most common value per group (ties: the smallest)."""
+    df = pd.DataFrame({f"k{i}": k.to_numpy() for i, k in enumerate(keys)})
+    df["v"] = values.to_numpy()
+    names = [f"k{i}" for i in range(len(keys))]
+    cnt = df.groupby(names + ["v"], observed=True).size().rename("n").reset_index()
+    cnt = cnt.sort_values(names + ["n", "v"], ascending=[True] * len(names) + [False, True])
+    return cnt.drop_duplicates(names).set_index(names)["v"]
+
+
+def audit_schedule(spots: pd.DataFrame, schedule: pd.DataFrame, call: str, *,
+                   marker: Marker = "power", power_a_dbm: float | None = None,
+                   power_b_dbm: float | None = None,
+                   slot_minutes: int = C.SLOT_MINUTES) -> AuditResult:
+    """Check whether a finished alternating run followed its schedule, and what lapses cost.
+
+    Parameters
+    ----------
+    spots : pandas.DataFrame
+        Canonical spot table (needs ``slot_utc``, ``tx_call``, ``band``, ``power_dbm``).
+    schedule : pandas.DataFrame, str or pathlib.Path
+        ``start``, ``end``, ``antenna`` and optionally ``band`` (as from :func:`make_schedule`
+        or the CSV file :func:`write_schedule` writes). Without a band column the schedule applies to every band the
+        station was heard on.
+    call : str
+        The transmitting station's callsign (case-insensitive).
+    marker : {"power", "none"}
+        "power": the two antennas were run at different transmit powers, so a report's power
+        tells which antenna was connected. The powers are ``power_a_dbm`` / ``power_b_dbm``
+        or, when not given, the most common power in each antenna's scheduled slots (when
+        these are equal the check is skipped and a note says so). "none": no check.
+    power_a_dbm, power_b_dbm : float, optional
+        Transmit power used with each antenna [dBm].
+    slot_minutes : int
+        Slot length [min].
+
+    Returns
+    -------
+    AuditResult
+        ``summary`` keys: ``slots_scheduled``, ``slots_ok``, ``gaps``, ``wrong_antenna``,
+        ``unknown_power``, ``reports``, ``off_schedule_reports``, ``off_schedule_slots``,
+        ``hours``, ``hours_one_antenna``, ``hours_silent``, ``effective_pairs_planned``,
+        ``effective_pairs`` (sum over clock hour x band of ``2 nA nB / (nA + nB)`` with
+        scheduled resp. usable slot counts), ``efficiency`` (their ratio), ``se_inflation``
+        (``efficiency ** -0.5``), ``slot_minutes``.
+
+    Notes
+    -----
+    A gap is a scheduled slot with no report from anyone: the transmitter was off, on
+    another band, or the band was closed everywhere - the audit cannot tell which. A slot is
+    usable when it has reports and (with markers) their most common power is that of the
+    scheduled antenna. Effective pairs count slots, not reports.
+    """
+    if marker not in MARKERS:
+        raise ValueError(f"unknown marker {marker!r}; valid: {', '.join(MARKERS)}")
+    for col in (C.SLOT, C.TX_CALL, C.BAND, C.POWER):
+        if col not in spots.columns:
+            raise InputError(f"spot table lacks column {col!r}; run it through ingest first")
+    want = str(call).strip().upper()
+    calls = spots[C.TX_CALL].astype(str).str.strip().str.upper()
+    mine = spots[(calls == want).to_numpy()]
+    if mine.empty:
+        present = calls.value_counts().index[:12].tolist()
+        raise InputError(f"no reports of {want} in the spots; transmitters present: "
+                         f"{', '.join(present)}{' ...' if calls.nunique() > 12 else ''}")
+    sched = expand_schedule(schedule, slot_minutes)
+    has_band = C.BAND in sched.columns
+    rep = pd.DataFrame({
+        C.SLOT: pd.to_datetime(mine[C.SLOT], utc=True).to_numpy(),
+        C.BAND: mine[C.BAND].astype(str).str.lower().to_numpy(),
+        C.POWER: mine[C.POWER].astype(float).to_numpy(),
+    }, index=mine.index)
+    rep[C.SLOT] = pd.to_datetime(rep[C.SLOT], utc=True)
+    if not has_band:  # one schedule for every band the station used
+        bands = sort_bands(rep[C.BAND].unique().tolist())
+        sched = sched.merge(pd.DataFrame({C.BAND: bands}), how="cross")
+    sched = sched.sort_values([C.SLOT, C.BAND], kind="stable").reset_index(drop=True)
+
+    # reports -> scheduled slot (or off schedule)
+    key_s = pd.MultiIndex.from_frame(sched[[C.SLOT, C.BAND]])
+    key_r = pd.MultiIndex.from_frame(rep[[C.SLOT, C.BAND]])
+    pos = key_s.get_indexer(key_r)
+    on_air_slots = pd.Index(sched[C.SLOT].unique())
+    off = pos < 0
+    off_rows = mine[off].copy()
+    off_rows[C.REJECT_REASON] = np.where(rep[C.SLOT][off].isin(on_air_slots),
+                                         OFF_WRONG_BAND, OFF_NOT_SCHEDULED)
+    off_rows[C.SLOT] = rep[C.SLOT][off]
+    off_rows[C.BAND] = rep[C.BAND][off]
+
+    counts = np.bincount(pos[~off], minlength=len(sched))
+    sched[C.COUNT] = counts
+    on = rep[~off]
+    mode = _modal(on[C.POWER], [pd.Series(pos[~off])])
+    sched[C.POWER] = mode.reindex(np.arange(len(sched))).to_numpy(dtype=float)
+
+    notes: list[str] = []
+    markers = None
+    if marker == "power":
+        pa, pb = power_a_dbm, power_b_dbm
+        if pa is None or pb is None:
+            heard = sched[sched[C.COUNT] > 0]
+            m = heard.groupby(C.ANTENNA)[C.POWER].agg(
+                lambda v: v.value_counts().sort_index(kind="stable").idxmax()
+                if len(v) else np.nan)
+            pa = m.get("A", np.nan) if pa is None else pa
+            pb = m.get("B", np.nan) if pb is None else pb
+        if np.isfinite(pa) and np.isfinite(pb) and pa != pb:
+            markers = {"A": float(pa), "B": float(pb)}
+        else:
+            notes.append("both antennas ran at the same power (or one was never heard), so "
+                         "wrong-antenna slots cannot be told from the reports")
+    status = np.where(sched[C.COUNT] == 0, SLOT_GAP, SLOT_OK).astype(object)
+    actual = sched[C.ANTENNA].to_numpy().copy()
+    if markers is not None:
+        p = sched[C.POWER].to_numpy()
+        heard = sched[C.COUNT].to_numpy() > 0
+        is_a, is_b = p == markers["A"], p == markers["B"]
+        sched_a = sched[C.ANTENNA].to_numpy() == "A"
+        wrong = heard & ((sched_a & is_b) | (~sched_a & is_a))
+        unknown = heard & ~is_a & ~is_b
+        status[wrong] = SLOT_WRONG
+        status[unknown] = SLOT_UNKNOWN
+        actual[wrong] = np.where(sched_a[wrong], "B", "A")
+        actual[unknown] = ""
+    sched[STATUS] = status
+    sched[ACTUAL_ANTENNA] = actual
+
+    # clock hour x band balance and effective pairs
+    hour = sched[C.SLOT].dt.floor("h")
+    is_a = (sched[C.ANTENNA] == "A").to_numpy()
+    ok = (sched[STATUS] == SLOT_OK).to_numpy()
+    hb = pd.DataFrame({HOUR_UTC: hour, C.BAND: sched[C.BAND],
+                       SLOTS_A: is_a.astype(int), SLOTS_B: (~is_a).astype(int),
+                       USABLE_A: (ok & is_a).astype(int), USABLE_B: (ok & ~is_a).astype(int)})
+    hours = hb.groupby([HOUR_UTC, C.BAND], sort=True).sum().reset_index()
+    hours[EFF_PLANNED] = _effective_pairs(hours[SLOTS_A], hours[SLOTS_B])
+    hours[EFF_ACTUAL] = _effective_pairs(hours[USABLE_A], hours[USABLE_B])
+    hours[ONE_ANTENNA] = (hours[USABLE_A] > 0) != (hours[USABLE_B] > 0)
+    silent = (hours[USABLE_A] == 0) & (hours[USABLE_B] == 0)
+
+    planned = float(hours[EFF_PLANNED].sum())
+    actual_pairs = float(hours[EFF_ACTUAL].sum())
+    eff = actual_pairs / planned if planned > 0 else 0.0
+    summary = {
+        "slots_scheduled": int(len(sched)),
+        "slots_ok": int(ok.sum()),
+        "gaps": int((status == SLOT_GAP).sum()),
+        "wrong_antenna": int((status == SLOT_WRONG).sum()),
+        "unknown_power": int((status == SLOT_UNKNOWN).sum()),
+        "reports": int(len(mine)),
+        "off_schedule_reports": int(off.sum()),
+        "off_schedule_slots": int(off_rows[[C.SLOT, C.BAND]].drop_duplicates().shape[0]),
+        "hours": int(len(hours)),
+        "hours_one_antenna": int(hours[ONE_ANTENNA].sum()),
+        "hours_silent": int(silent.sum()),
+        "effective_pairs_planned": planned,
+        "effective_pairs": actual_pairs,
+        "efficiency": eff,
+        "se_inflation": eff ** -0.5 if eff > 0 else math.inf,
+        "slot_minutes": int(slot_minutes),
+    }
+    return AuditResult(call=want, summary=summary, slots=sched, hours=hours,
+                       off_schedule=off_rows, markers=markers, notes=notes)

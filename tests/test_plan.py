@@ -1,0 +1,334 @@
+"""Experiment planning: schedules, run length, audit of a finished run."""
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pandas as pd
+import pytest
+from scipy import integrate, stats
+
+from spotkit import columns as C
+from spotkit.errors import InputError, UsageError
+from spotkit.pairing import read_schedule, schedule_antennas
+from spotkit.plan import (
+    audit_schedule,
+    censoring_information,
+    duration_closed_form,
+    make_schedule,
+    pairs_needed,
+    power_closed_form,
+    schedule_balance,
+    write_schedule,
+)
+
+START = "2026-12-01T00:00Z"
+
+
+# --- schedules ---------------------------------------------------------------------------
+@pytest.mark.parametrize("band_hop", [False, True])
+@pytest.mark.parametrize("block_slots", [2, 4, 6])
+@pytest.mark.parametrize("bands", [["20m"], ["20m", "10m"], ["40m", "20m", "10m"]])
+def test_schedule_is_balanced_per_hour_band_antenna(bands, block_slots, band_hop):
+    s = make_schedule(START, 2, bands, block_slots=block_slots, band_hop=band_hop, seed=3)
+    bal = schedule_balance(s)
+    # exact: every antenna has the same number of slots in every clock hour and band
+    assert (bal["A"] == bal["B"]).all()
+    assert (bal["A"] > 0).all()
+    hours = pd.to_datetime(s[C.SCHEDULE_START]).dt.floor("h")
+    assert hours.nunique() == 48
+    assert set(s[C.BAND]) == set(bands)
+    # every band appears in every clock hour
+    assert len(bal) == 48 * len(bands)
+    if band_hop:  # one transmitter: one row per slot, slots back to back
+        assert len(s) == 48 * 30
+        assert not s[C.SCHEDULE_START].duplicated().any()
+    else:  # every band in every slot, same antenna on all bands
+        assert len(s) == 48 * 30 * len(bands)
+        assert (s.groupby(C.SCHEDULE_START)[C.ANTENNA].nunique() == 1).all()
+    step = (s[C.SCHEDULE_END] - s[C.SCHEDULE_START]).unique()
+    assert list(step) == [pd.Timedelta(minutes=2)]
+    # slots start on even UTC minutes (common practice for the 2-minute beacon modes)
+    assert (s[C.SCHEDULE_START].dt.minute % 2 == 0).all()
+
+
+def test_blocks_of_two_keep_a_and_b_next_to_each_other():
+    s = make_schedule(START, 1, ["20m", "10m"], block_slots=2, band_hop=True, seed=5)
+    # in band-hop mode each block is one band: slots 2k and 2k+1 share a band and differ
+    # in antenna
+    ant = s[C.ANTENNA].to_numpy().reshape(-1, 2)
+    band = s[C.BAND].to_numpy().reshape(-1, 2)
+    assert (band[:, 0] == band[:, 1]).all()
+    assert (ant[:, 0] != ant[:, 1]).all()
+    # and the order inside the blocks is random: both orders occur often
+    first_a = (ant[:, 0] == "A").mean()
+    assert 0.35 < first_a < 0.65
+
+
+def test_schedule_reproducible_from_seed_and_seed_matters():
+    a = make_schedule(START, 1, "20m,10m", band_hop=True, seed=11)
+    b = make_schedule(START, 1, "20m,10m", band_hop=True, seed=11)
+    c = make_schedule(START, 1, "20m,10m", band_hop=True, seed=12)
+    pd.testing.assert_frame_equal(a, b)
+    assert not a[C.ANTENNA].equals(c[C.ANTENNA])
+    assert not a[C.BAND].equals(c[C.BAND])
+    # a different seed changes the order, not the balance
+    assert (schedule_balance(c)["A"] == schedule_balance(c)["B"]).all()
+
+
+@pytest.mark.parametrize("kwargs", [
+    dict(start="2026-12-01T00:10Z"),        # not on the hour
+    dict(block_slots=3),                     # odd block
+    dict(block_slots=0),
+    dict(slot_minutes=4),                    # 15 slots per hour: cannot balance an hour
+    dict(days=0),
+    dict(days=0.01),                          # not whole hours
+    dict(bands="20m,11m"),                    # unknown band
+    dict(bands="20m,20m"),
+])
+def test_schedule_bad_arguments(kwargs):
+    args = dict(start=START, days=1, bands="20m")
+    args.update(kwargs)
+    with pytest.raises(UsageError):
+        make_schedule(args.pop("start"), args.pop("days"), args.pop("bands"), **args)
+
+
+def test_schedule_csv_is_read_back_by_compare(tmp_path):
+    s = make_schedule(START, 1, "20m,10m", band_hop=True, seed=2)
+    path = write_schedule(s, tmp_path / "schedule.csv")
+    back = read_schedule(path)  # the reader `spotkit compare --schedule FILE` uses
+    assert len(back) == len(s)
+    assert (back[C.SCHEDULE_START].to_numpy() == s[C.SCHEDULE_START].to_numpy()).all()
+    assert (back[C.SCHEDULE_END].to_numpy() == s[C.SCHEDULE_END].to_numpy()).all()
+    assert (back[C.ANTENNA].to_numpy() == s[C.ANTENNA].to_numpy()).all()
+    assert (back[C.BAND].to_numpy() == s[C.BAND].to_numpy()).all()
+    # and compare assigns every scheduled slot the planned antenna (mid-slot times too)
+    mid = s[C.SCHEDULE_START] + pd.Timedelta(seconds=30)
+    code = schedule_antennas(mid, s[C.BAND], str(path))
+    assert (code == (s[C.ANTENNA] == "B").to_numpy().astype(int)).all()
+    # a band the schedule does not have in that slot is not covered
+    other = np.where(s[C.BAND] == "20m", "10m", "20m")
+    assert (schedule_antennas(s[C.SCHEDULE_START], other, str(path)) == -1).all()
+
+
+# --- run length: closed form ---------------------------------------------------------------
+def test_pairs_needed_against_textbook_formula():
+    # Normal-approximation sample size of a paired (one-sample) mean difference,
+    # n = ((z_(1-alpha/2) + z_(1-beta)) sigma / delta)^2 - Chow, Shao & Wang, Sample Size
+    # Calculations in Clinical Research, 2nd ed. (2008), sec. 3.1 (from memory).
+    # Worked number: alpha 0.05, power 0.8, sigma 3 dB, delta 1 dB -> 70.6 -> 71 pairs;
+    # z values recomputed with scipy.stats.norm.ppf as the oracle. Tolerance 0.01 pairs.
+    z = stats.norm.ppf(0.975) + stats.norm.ppf(0.8)
+    n = pairs_needed(1.0, sigma_db=3.0, alpha=0.05, power=0.8)
+    assert n == pytest.approx((z * 3.0 / 1.0) ** 2, abs=1e-9)
+    assert n == pytest.approx(70.6, abs=0.05)
+    assert math.ceil(n) == 71
+    # statsmodels' one-sample normal power solver (NormalIndPower with ratio=0) as a
+    # second oracle; its root finder is good to about 1e-3 pairs
+    from statsmodels.stats.power import NormalIndPower
+    sm = NormalIndPower().solve_power(effect_size=1 / 3, alpha=0.05, power=0.8, ratio=0)
+    assert n == pytest.approx(sm, abs=0.01)
+    # sign of the effect does not matter; halving it quadruples n
+    assert pairs_needed(-1.0, sigma_db=3.0) == pytest.approx(n)
+    assert pairs_needed(0.5, sigma_db=3.0) == pytest.approx(4 * n)
+
+
+@pytest.mark.parametrize("hours", [1.0, 5.0, 20.0])
+def test_power_closed_form_against_statsmodels(hours):
+    # one-sample two-sided z-test power (statsmodels NormalIndPower, ratio=0) at
+    # n = hours x 10 pairs/h, effect size delta/sigma = 1/3; tolerance 1e-6 in power
+    from statsmodels.stats.power import NormalIndPower
+    got = power_closed_form(hours, 1.0, sigma_db=3.0, pairs_per_hour=10.0)
+    want = NormalIndPower().power(effect_size=1 / 3, nobs1=hours * 10, alpha=0.05, ratio=0)
+    assert got["power"].iloc[0] == pytest.approx(want, abs=1e-6)
+    # CI width: 2 z_(0.975) sigma / sqrt(n)
+    assert got["ci_width_db"].iloc[0] == pytest.approx(
+        2 * stats.norm.ppf(0.975) * 3.0 / math.sqrt(hours * 10), rel=1e-12)
+
+
+def test_duration_without_clustering_or_censoring_is_n0_over_rate():
+    d = duration_closed_form(1.0, sigma_db=3.0, pairs_per_hour=25.0)
+    assert d.pairs == pytest.approx(pairs_needed(1.0, sigma_db=3.0))
+    assert d.hours == pytest.approx(d.pairs / 25.0)
+    assert d.design_effect == pytest.approx(1.0)
+    assert d.censoring_factor == 1.0
+    # at that run length the closed-form power is the asked power (plus the far tail)
+    p = power_closed_form(d.hours, 1.0, sigma_db=3.0, pairs_per_hour=25.0)["power"].iloc[0]
+    assert p == pytest.approx(0.8, abs=1e-6)
+
+
+def test_duration_design_effect_is_kish():
+    # Kish (1965), design effect of cluster sampling 1 + (m - 1) rho (from memory): the
+    # answer N must satisfy sigma^2 / N * deff = (delta / (z_a + z_b))^2 with m = N / R.
+    rho, R, sigma, delta = 0.05, 40.0, 3.0, 1.0
+    d = duration_closed_form(delta, sigma_db=sigma, pairs_per_hour=10.0, icc=rho, clusters=R)
+    m = d.pairs / R
+    assert d.design_effect == pytest.approx(1 + (m - 1) * rho, rel=1e-12)
+    z = stats.norm.ppf(0.975) + stats.norm.ppf(0.8)
+    assert sigma ** 2 / d.pairs * d.design_effect == pytest.approx((delta / z) ** 2, rel=1e-9)
+    assert d.pairs > pairs_needed(delta, sigma_db=sigma)
+
+
+def test_duration_infeasible_when_receivers_are_too_few():
+    # between-receiver floor sigma^2 rho / R = 9 * 0.5 / 5 = 0.9 dB^2 exceeds the allowed
+    # variance (1 / 2.80)^2 = 0.127 dB^2: no run length is enough
+    d = duration_closed_form(1.0, sigma_db=3.0, pairs_per_hour=10.0, icc=0.5, clusters=5)
+    assert not d.feasible and math.isinf(d.hours)
+    assert "receivers" in str(d)
+    with pytest.raises(UsageError):
+        duration_closed_form(1.0, sigma_db=3.0, pairs_per_hour=10.0, icc=0.1)
+
+
+def test_censoring_information_against_score_variance():
+    # Fisher information about mu of a normal observation left-censored at c, computed as
+    # the variance of the score by numerical integration (independent of the closed form
+    # used in the module, which comes from the negative Hessian). sigma = 1; tolerance 1e-7.
+    for p in (0.05, 0.2, 0.5, 0.8, 0.95):
+        c = stats.norm.ppf(p)  # mu = 0, so P(censored) = p
+        exact, _ = integrate.quad(lambda y: y ** 2 * stats.norm.pdf(y), c, np.inf)
+        censored = p * (stats.norm.pdf(c) / p) ** 2
+        assert censoring_information(p) == pytest.approx(exact + censored, abs=1e-7)
+    # at p = 0.5: 1/2 + phi(0)^2 / (1/2) = 1/2 + 1/pi exactly
+    assert censoring_information(0.5) == pytest.approx(0.5 + 1 / math.pi, abs=1e-12)
+    assert censoring_information(0.0) == 1.0
+    r = censoring_information(np.linspace(0, 0.99, 50))
+    assert np.all(np.diff(r) < 0)
+    with pytest.raises(UsageError):
+        censoring_information(1.0)
+
+
+def test_censoring_raises_needed_pairs():
+    plain = duration_closed_form(1.0, sigma_db=3.0, pairs_per_hour=10.0)
+    cens = duration_closed_form(1.0, sigma_db=3.0, pairs_per_hour=10.0, censored_fraction=0.5)
+    assert cens.pairs == pytest.approx(plain.pairs / (0.5 + 1 / math.pi), rel=1e-9)
+
+
+@pytest.mark.parametrize("kwargs", [dict(alpha=0), dict(power=1.0), dict(sigma_db=0),
+                                    dict(pairs_per_hour=0), dict(effect_db=0)])
+def test_duration_bad_arguments(kwargs):
+    args = dict(effect_db=1.0, sigma_db=3.0, pairs_per_hour=10.0)
+    args.update(kwargs)
+    with pytest.raises(UsageError):
+        duration_closed_form(args.pop("effect_db"), **args)
+
+
+# --- audit -------------------------------------------------------------------------------
+P_A, P_B = 37.0, 30.0  # the two antennas run at different powers: the power is the marker
+
+
+def _spots_following(schedule, rng, call="Q1ABC", per_slot=(1, 6)):
+    """Reports of ``call`` in every scheduled slot, power telling the antenna."""
+    n = rng.integers(per_slot[0], per_slot[1] + 1, size=len(schedule))
+    rows = schedule.loc[schedule.index.repeat(n)].reset_index(drop=True)
+    rx = np.array([f"Q{d}R{c}" for d in range(2, 8) for c in "ABCDEFGH"])
+    return pd.DataFrame({
+        C.SLOT: rows[C.SCHEDULE_START].astype(C.UTC_DTYPE),
+        C.TX_CALL: pd.Categorical([call] * len(rows)),
+        C.RX_CALL: rng.choice(rx, size=len(rows)),
+        C.BAND: rows[C.BAND].to_numpy(),
+        C.SNR: rng.integers(-28, 5, size=len(rows)).astype(float),
+        C.POWER: np.where(rows[C.ANTENNA] == "A", P_A, P_B),
+    })
+
+
+def test_audit_of_a_clean_run_finds_nothing(rng):
+    s = make_schedule(START, 1, "20m,10m", band_hop=True, seed=4)
+    spots = _spots_following(s, rng)
+    r = audit_schedule(spots, s, "q1abc")
+    assert r.markers == {"A": P_A, "B": P_B}  # inferred from the data
+    assert r.summary["slots_ok"] == len(s)
+    assert r.summary["gaps"] == r.summary["wrong_antenna"] == 0
+    assert r.summary["off_schedule_reports"] == 0
+    assert r.summary["hours_one_antenna"] == 0
+    assert r.summary["efficiency"] == pytest.approx(1.0)
+    # planned effective pairs: half the slots
+    assert r.summary["effective_pairs_planned"] == pytest.approx(len(s) / 2)
+    assert r.to_frame().empty
+
+
+def test_audit_finds_every_deliberately_broken_slot(rng, tmp_path):
+    s = make_schedule(START, 1, "20m,10m", band_hop=True, seed=9)
+    spots = _spots_following(s, rng)
+    hour = s[C.SCHEDULE_START].dt.floor("h")
+    spare = np.flatnonzero((hour != hour.iloc[0] + pd.Timedelta(hours=5)).to_numpy())
+    pick = rng.choice(spare, size=24, replace=False)
+    gap_i, wrong_i, ghost_i = pick[:8], pick[8:16], pick[16:]
+    # 1. gaps: all reports of 8 slots removed
+    gap_slots = set(zip(s[C.SCHEDULE_START].iloc[gap_i], s[C.BAND].iloc[gap_i]))
+    key = list(zip(spots[C.SLOT], spots[C.BAND]))
+    spots = spots[[k not in gap_slots for k in key]].reset_index(drop=True)
+    # 2. wrong antenna: 8 slots run at the other antenna's power
+    wrong_slots = set(zip(s[C.SCHEDULE_START].iloc[wrong_i], s[C.BAND].iloc[wrong_i]))
+    key = list(zip(spots[C.SLOT], spots[C.BAND]))
+    hit = np.array([k in wrong_slots for k in key])
+    spots.loc[hit, C.POWER] = np.where(spots.loc[hit, C.POWER] == P_A, P_B, P_A)
+    # 3. off schedule: the station heard on the band it was not scheduled on (band hop)
+    ghost = spots[[k in set(zip(s[C.SCHEDULE_START].iloc[ghost_i], s[C.BAND].iloc[ghost_i]))
+                   for k in zip(spots[C.SLOT], spots[C.BAND])]].copy()
+    ghost[C.BAND] = np.where(ghost[C.BAND] == "20m", "10m", "20m")
+    #    and after the schedule ended
+    late = spots.iloc[:3].copy()
+    late[C.SLOT] = pd.Timestamp("2026-12-02T00:10Z")
+    # 4. one clock hour x band in which every B slot is silent
+    h5 = hour.iloc[0] + pd.Timedelta(hours=5)
+    b5 = s[(hour == h5) & (s[C.BAND] == "10m") & (s[C.ANTENNA] == "B")]
+    silent = set(zip(b5[C.SCHEDULE_START], b5[C.BAND]))
+    key = list(zip(spots[C.SLOT], spots[C.BAND]))
+    spots = spots[[k not in silent for k in key]]
+    spots = pd.concat([spots, ghost, late], ignore_index=True)
+    spots = spots.sample(frac=1.0, random_state=1).reset_index(drop=True)
+    spots[C.BAND] = spots[C.BAND].astype("category")
+
+    path = write_schedule(s, tmp_path / "plan.csv")
+    r = audit_schedule(spots, path, "Q1ABC")
+    sl = r.slots
+    found = lambda status: set(zip(sl.loc[sl["status"] == status, C.SLOT],  # noqa: E731
+                                   sl.loc[sl["status"] == status, C.BAND]))
+    assert found("gap") == gap_slots | silent
+    assert found("wrong_antenna") == wrong_slots
+    assert found("unknown_power") == set()
+    assert r.summary["off_schedule_reports"] == len(ghost) + 3
+    off = r.off_schedule
+    assert set(off.loc[off[C.REJECT_REASON] == "not scheduled", C.SLOT]) == {
+        pd.Timestamp("2026-12-02T00:10Z")}
+    assert set(zip(off.loc[off[C.REJECT_REASON] != "not scheduled", C.SLOT],
+                   off.loc[off[C.REJECT_REASON] != "not scheduled", C.BAND])) == set(
+        zip(ghost[C.SLOT], ghost[C.BAND].astype(str)))
+    one = r.hours[r.hours["one_antenna"]]
+    assert list(zip(one["hour_utc"], one[C.BAND])) == [(h5, "10m")]
+    # the findings table lists each problem once
+    f = r.to_frame()
+    assert (f[C.KIND] == "gap").sum() == len(gap_slots | silent)
+    assert (f[C.KIND] == "wrong_antenna").sum() == 8
+    assert (f[C.KIND] == "one_antenna_hour").sum() == 1
+    # cost: effective pairs recomputed by hand from usable slot counts per hour x band
+    usable = sl[sl["status"] == "ok"]
+    g = usable.groupby([usable[C.SLOT].dt.floor("h"), C.BAND, C.ANTENNA]).size()
+    g = g.unstack(C.ANTENNA, fill_value=0)
+    want = (2 * g["A"] * g["B"] / (g["A"] + g["B"])).sum()
+    assert r.summary["effective_pairs"] == pytest.approx(want)
+    assert r.summary["efficiency"] < 1
+    # the corrected schedule gives the wrong-antenna slots the antenna the power says
+    cs = r.corrected_schedule()
+    fixed = cs[[k in wrong_slots for k in zip(cs[C.SCHEDULE_START], cs[C.BAND])]]
+    orig = s.set_index([C.SCHEDULE_START, C.BAND]).loc[list(
+        zip(fixed[C.SCHEDULE_START], fixed[C.BAND])), C.ANTENNA].to_numpy()
+    assert (fixed[C.ANTENNA].to_numpy() != orig).all()
+    assert "wrong antenna" in r.text
+
+
+def test_audit_without_power_markers_says_so(rng):
+    s = make_schedule(START, 0.25, "20m", seed=1)
+    spots = _spots_following(s, rng).assign(**{C.POWER: 37.0})
+    r = audit_schedule(spots, s, "Q1ABC")
+    assert r.markers is None and r.summary["wrong_antenna"] == 0
+    assert "same power" in r.text
+    with pytest.raises(ValueError, match="power, none"):
+        audit_schedule(spots, s, "Q1ABC", marker="snr")
+
+
+def test_audit_unknown_call_lists_calls(rng):
+    s = make_schedule(START, 0.25, "20m", seed=1)
+    spots = _spots_following(s, rng)
+    with pytest.raises(InputError, match="Q1ABC"):
+        audit_schedule(spots, s, "Q9ZZZ")
