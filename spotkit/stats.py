@@ -106,6 +106,11 @@ class CensoredFit:
         Maximised log-likelihood (including the ``-log(2 pi)/2`` constants of exact values).
     n_iter : int
         Newton iterations used.
+    se_mu, se_sigma : float
+        Standard errors [dB] from the observed information (inverse Hessian, delta method).
+        They assume independent observations and an interior maximum: with ``sigma`` on its
+        floor ``se_sigma`` is not meaningful, and with clustered data use the cluster
+        bootstrap instead.
     """
 
     mu: float
@@ -116,6 +121,8 @@ class CensoredFit:
     n_lower: float
     loglik: float = float("nan")
     n_iter: int = 0
+    se_mu: float = float("nan")
+    se_sigma: float = float("nan")
 
     def to_dict(self) -> dict:
         """The fields as a plain dict."""
@@ -750,9 +757,20 @@ def censored_normal_mle(values, kinds, counts=None,
         if np.any(~np.isfinite(c)) or np.any(c < 0):
             raise UsageError("counts must be finite and non-negative")
     mu, sigma, conv, ll, it = _tobit_batch(v, k, c[None, :], sigma_floor)
+    se_mu = se_sigma = float("nan")
+    if np.isfinite(mu[0]):
+        gamma = 1.0 / sigma
+        _, _, _, hdd, hdg, hgg = _tobit_parts(mu * gamma, gamma, v, k.astype(float), k == 0,
+                                              c[None, :])
+        info = -np.array([[hdd[0], hdg[0]], [hdg[0], hgg[0]]])
+        if np.all(np.isfinite(info)) and np.linalg.det(info) > 0:
+            g = gamma[0]
+            jac = np.array([[g**-1, -mu[0] * g**-1], [0.0, -(g**-2)]])  # d(mu, s)/d(delta, gamma)
+            cov = jac @ np.linalg.inv(info) @ jac.T
+            se_mu, se_sigma = float(np.sqrt(cov[0, 0])), float(np.sqrt(cov[1, 1]))
     return CensoredFit(float(mu[0]), float(sigma[0]), bool(conv[0]), float(c[k == 0].sum()),
                        float(c[k == 1].sum()), float(c[k == -1].sum()), float(ll[0]),
-                       int(it[0]))
+                       int(it[0]), se_mu, se_sigma)
 
 
 def censored_normal_mle_batch(values, kinds, weights,
