@@ -1,0 +1,888 @@
+"""Coverage, A/B difference and reach maps, drawn offline with cartopy.
+
+Two projections:
+
+``"azimuthal"``
+    Azimuthal equidistant on the WGS-84 ellipsoid, centred on the home station (PROJ
+    ``aeqd``). PROJ computes its ellipsoidal form from geodesics, so a straight line from the
+    centre *is* the geodesic (great-circle) path, its direction is the azimuth at home, and the
+    distance from the centre is the geodesic distance: rings of equal distance are circles.
+    Far from home shapes and areas are strongly distorted; the antipode is smeared round the
+    edge.
+``"world"``
+    Equal Earth, an equal-area world map (Savric, Patterson & Jenny 2019); paths are
+    sampled geodesics.
+
+The backdrop is the shipped Natural Earth 1:110m land layer (:mod:`spotkit.basemap`), so no map
+needs a network connection; cartopy's own 1:50m and 1:10m features are used only when asked for
+(``resolution="50m"`` or ``"10m"``; cartopy downloads them once).
+
+Station positions are locator cell centres (see :mod:`spotkit.locator`): a 4-character locator
+puts a station up to about 111 km east-west from where it is. Every map function takes
+``fig=None`` and returns the :class:`matplotlib.figure.Figure` it drew on; matplotlib and cartopy
+are imported only inside the functions. Artists that tests look for carry a ``gid``
+(``"stations"``, ``"paths"``, ``"ring-<km>"``, ``"cells-solid"``, ``"cells-faint"``,
+``"only-a"``, ``"only-b"``, ``"heard-a"``, ``"heard-b"``).
+
+References
+----------
+J. P. Snyder, "Map Projections - A Working Manual", USGS Professional Paper 1395 (1987),
+ch. 25 (azimuthal equidistant).
+B. Savric, T. Patterson, B. Jenny, "The Equal Earth map projection", Int. J. Geographical
+Information Science 33(3):454-465 (2019), doi:10.1080/13658816.2018.1504949.
+"""
+from __future__ import annotations
+
+from typing import Literal
+
+import numpy as np
+import pandas as pd
+
+from . import columns as C
+from .bands import sort_bands
+from .errors import UsageError
+from .locator import locator_cell_size, locator_to_latlon
+from .units import snr_per_watt
+
+Projection = Literal["azimuthal", "world"]
+PROJECTIONS = ("azimuthal", "world")
+Resolution = Literal["110m", "50m", "10m"]
+RESOLUTIONS = ("110m", "50m", "10m")
+Side = Literal["auto", "transmit", "receive"]
+SIDES = ("auto", "transmit", "receive")
+Level = Literal["auto", "receiver", "square", "field"]
+LEVELS = ("auto", "receiver", "square", "field")
+ReachLayout = Literal["side", "overlay"]
+REACH_LAYOUTS = ("side", "overlay")
+
+#: Half the circumference of the Earth along the equator [km]: the edge of a full
+#: azimuthal-equidistant map.
+FULL_EXTENT_KM = 20037.5
+LAND_COLOR = "#e6e4dc"
+COAST_COLOR = "#8d8a80"
+SEA_COLOR = "#fbfbf8"
+RING_COLOR = "#7a7a7a"
+
+
+def _check(value, valid, what):
+    if value not in valid:
+        raise ValueError(f"unknown {what} {value!r}; valid: {', '.join(map(str, valid))}")
+
+
+# --- home and projections ----------------------------------------------------------------
+def home_latlon(home) -> tuple[float, float]:
+    """Latitude and longitude [deg] of the home station.
+
+    Parameters
+    ----------
+    home : str or (float, float)
+        A Maidenhead locator (its cell centre is used) or ``(lat, lon)`` [deg].
+    """
+    if home is None:
+        raise UsageError("no home station given: pass a locator such as 'JN58td' or (lat, lon)")
+    if isinstance(home, str):
+        lat, lon = locator_to_latlon(home)
+        return float(lat), float(lon)
+    lat, lon = home
+    return float(lat), float(lon)
+
+
+def make_projection(projection: Projection = "azimuthal", home=None):
+    """The cartopy CRS for ``projection``.
+
+    Parameters
+    ----------
+    projection : {"azimuthal", "world"}
+        Azimuthal equidistant centred on ``home`` (WGS-84), or the Equal Earth world map
+        centred on ``home``'s longitude (0 deg when no home is given).
+    home : str or (float, float), optional
+        Home station locator or (lat, lon) [deg]; required for ``"azimuthal"``.
+    """
+    import cartopy.crs as ccrs
+
+    _check(projection, PROJECTIONS, "projection")
+    if projection == "azimuthal":
+        lat, lon = home_latlon(home)
+        return ccrs.AzimuthalEquidistant(central_longitude=lon, central_latitude=lat)
+    lon = home_latlon(home)[1] if home is not None else 0.0
+    return ccrs.EqualEarth(central_longitude=lon)
+
+
+def project_points(crs, lat, lon) -> tuple[np.ndarray, np.ndarray]:
+    """Project lat/lon [deg] into ``crs`` map coordinates [m]; vectorised."""
+    import cartopy.crs as ccrs
+
+    lat = np.asarray(lat, dtype=float)
+    lon = np.asarray(lon, dtype=float)
+    xy = crs.transform_points(ccrs.PlateCarree(), lon, lat)
+    return xy[..., 0], xy[..., 1]
+
+
+def _geodesic_samples(lat1, lon1, lat2, lon2, n: int):
+    """n points along each geodesic from (lat1, lon1) to (lat2, lon2); arrays (k, n)."""
+    lat2 = np.asarray(lat2, dtype=float)
+    lon2 = np.asarray(lon2, dtype=float)
+    lat1 = np.broadcast_to(np.asarray(lat1, dtype=float), lat2.shape)
+    lon1 = np.broadcast_to(np.asarray(lon1, dtype=float), lat2.shape)
+    try:
+        from .geo import geodesic_direct, geodesic_inverse
+    except ImportError:  # pragma: no cover - geo is part of the package
+        geodesic_direct = geodesic_inverse = None
+    frac = np.linspace(0.0, 1.0, n)
+    if geodesic_inverse is not None:
+        dist, azi, _ = geodesic_inverse(lat1, lon1, lat2, lon2)
+        dist = np.asarray(dist, dtype=float)
+        azi = np.asarray(azi, dtype=float)
+        s = dist[:, None] * frac[None, :]
+        la, lo = geodesic_direct(np.repeat(lat1, n), np.repeat(lon1, n),
+                                 np.repeat(azi, n), s.ravel())
+        return np.asarray(la).reshape(-1, n), np.asarray(lo).reshape(-1, n)
+    from pyproj import Geod  # pragma: no cover
+
+    g = Geod(ellps="WGS84")  # pragma: no cover
+    azi, _, dist = g.inv(lon1, lat1, lon2, lat2)  # pragma: no cover
+    s = dist[:, None] * frac[None, :]  # pragma: no cover
+    lo, la, _ = g.fwd(np.repeat(lon1, n), np.repeat(lat1, n), np.repeat(azi, n), s.ravel())
+    return la.reshape(-1, n), lo.reshape(-1, n)  # pragma: no cover
+
+
+# --- base map ----------------------------------------------------------------------------
+def _ring_step(extent_km: float) -> float:
+    return 1000.0 if extent_km <= 6000 else 2500.0
+
+
+def auto_extent_km(distances_km, step_km: float | None = None) -> float:
+    """Radius [km] of an azimuthal map that shows all ``distances_km``: the next ring
+    beyond the farthest station (whole globe past 15 000 km)."""
+    d = np.asarray(distances_km, dtype=float)
+    d = d[np.isfinite(d)]
+    far = float(d.max()) if d.size else FULL_EXTENT_KM
+    if far > 15000:
+        return FULL_EXTENT_KM
+    step = step_km or _ring_step(far * 1.05)
+    return float(min(FULL_EXTENT_KM, step * np.ceil((far * 1.05 + 1e-9) / step)))
+
+
+def draw_land(ax, *, resolution: Resolution = "110m", land_color: str = LAND_COLOR,
+              coast_color: str = COAST_COLOR, linewidth: float = 0.4):
+    """Draw land and coastlines on a cartopy GeoAxes.
+
+    ``"110m"`` uses the shipped layer and never touches the network; ``"50m"`` and ``"10m"``
+    use cartopy's Natural Earth features, which cartopy downloads on first use.
+    """
+    import cartopy.crs as ccrs
+
+    _check(resolution, RESOLUTIONS, "resolution")
+    if resolution == "110m":
+        from .basemap import land_geometry
+
+        return ax.add_geometries(list(land_geometry().geoms), crs=ccrs.PlateCarree(),
+                                 facecolor=land_color, edgecolor=coast_color,
+                                 linewidth=linewidth, zorder=0.5)
+    import cartopy.feature as cfeature
+
+    feature = cfeature.NaturalEarthFeature("physical", "land", resolution,
+                                           facecolor=land_color, edgecolor=coast_color)
+    return ax.add_feature(feature, linewidth=linewidth, zorder=0.5)
+
+
+def draw_rings(ax, crs, extent_km: float, step_km: float | None = None, *,
+               bearings: bool = True, label_bearing_deg: float = 22.5):
+    """Distance rings, bearing spokes and bearing labels on an azimuthal map.
+
+    Rings are circles of the given geodesic radius in map coordinates (exact for the
+    ellipsoidal azimuthal-equidistant projection). Each ring is a Line2D with
+    ``gid="ring-<km>"``.
+    """
+    step = step_km or _ring_step(extent_km)
+    theta = np.linspace(0.0, 2 * np.pi, 361)
+    radii = np.arange(step, extent_km + 1e-6, step)
+    lines = []
+    for r_km in radii:
+        r = r_km * 1e3
+        (ln,) = ax.plot(r * np.sin(theta), r * np.cos(theta), transform=crs, color=RING_COLOR,
+                        lw=0.5, ls=(0, (4, 3)), zorder=1.5, gid=f"ring-{r_km:.0f}")
+        lines.append(ln)
+        if len(radii) > 5 and (int(round(r_km / step)) % 2):
+            continue  # label every other ring when there are many
+        a = np.radians(label_bearing_deg)
+        ax.text(r * np.sin(a), r * np.cos(a), f"{r_km:,.0f} km", transform=crs, fontsize=6,
+                color="#555555", ha="center", va="center", zorder=4,
+                bbox=dict(boxstyle="round,pad=0.1", fc="white", ec="none", alpha=0.6))
+    if bearings:
+        edge = extent_km * 1e3
+        names = {0: "N", 90: "E", 180: "S", 270: "W"}
+        for b in range(0, 360, 30):
+            a = np.radians(b)
+            ax.plot([0, edge * np.sin(a)], [0, edge * np.cos(a)], transform=crs,
+                    color=RING_COLOR, lw=0.3, alpha=0.6, zorder=1.4)
+            ax.text(1.07 * edge * np.sin(a), 1.07 * edge * np.cos(a), names.get(b, f"{b}°"),
+                    transform=crs, fontsize=7, ha="center", va="center", clip_on=False,
+                    color="#333333")
+    return lines
+
+
+def draw_geodesic_rings(ax, home, step_km: float = 5000.0, max_km: float = 20000.0):
+    """Rings of equal geodesic distance from home on any projection (sampled with
+    :func:`spotkit.geo.geodesic_direct`, drawn as geodesic lines)."""
+    import cartopy.crs as ccrs
+    from .geo import geodesic_direct
+
+    h_lat, h_lon = home_latlon(home)
+    az = np.linspace(0.0, 360.0, 181)
+    lines = []
+    for r_km in np.arange(step_km, max_km - 1e-6, step_km):
+        la, lo = geodesic_direct(np.full(az.size, h_lat), np.full(az.size, h_lon), az,
+                                 np.full(az.size, r_km * 1e3))
+        (ln,) = ax.plot(np.asarray(lo), np.asarray(la), transform=ccrs.Geodetic(),
+                        color=RING_COLOR, lw=0.5, ls=(0, (4, 3)), zorder=1.5,
+                        gid=f"ring-{r_km:.0f}")
+        lines.append(ln)
+    return lines
+
+
+def base_map(ax=None, *, projection: Projection = "azimuthal", home=None,
+             extent_km: float | None = None, ring_step_km: float | None = None,
+             resolution: Resolution = "110m", rings: bool = True, fig=None):
+    """A map with land, coastlines and (azimuthal) distance rings, ready for stations.
+
+    Parameters
+    ----------
+    ax : cartopy GeoAxes, optional
+        Draw here (it must already have the wanted projection); otherwise a new axes is made
+        in ``fig`` (or a new figure).
+    projection : {"azimuthal", "world"}
+    home : str or (float, float), optional
+        Home station locator or (lat, lon) [deg]; required for ``"azimuthal"``.
+    extent_km : float, optional
+        Radius of the azimuthal map [km]; default the whole globe.
+    ring_step_km : float, optional
+        Distance between rings [km]; default 1000 km up to 6000 km radius, else 2500 km.
+    resolution : {"110m", "50m", "10m"}
+        Land layer; only ``"110m"`` (the default, shipped) works offline.
+    rings : bool
+        Draw distance rings and bearings (azimuthal only).
+
+    Returns
+    -------
+    cartopy.mpl.geoaxes.GeoAxes
+    """
+    import matplotlib.pyplot as plt
+
+    _check(projection, PROJECTIONS, "projection")
+    _check(resolution, RESOLUTIONS, "resolution")
+    if ax is None:
+        crs = make_projection(projection, home)
+        fig = fig if fig is not None else plt.figure(figsize=(7, 7))
+        ax = fig.add_subplot(1, 1, 1, projection=crs)
+    crs = ax.projection
+    ax.set_facecolor(SEA_COLOR)
+    draw_land(ax, resolution=resolution)
+    if projection == "azimuthal":
+        extent = float(extent_km or FULL_EXTENT_KM)
+        if extent < FULL_EXTENT_KM:
+            import matplotlib.path as mpath
+
+            r = extent * 1e3
+            ax.set_extent([-r, r, -r, r], crs=crs)
+            t = np.linspace(0, 2 * np.pi, 361)
+            ax.set_boundary(mpath.Path(np.c_[r * np.sin(t), r * np.cos(t)]), transform=ax.transData)
+        else:
+            ax.set_global()
+        if rings:
+            draw_rings(ax, crs, min(extent, 20000.0), ring_step_km)
+        lat, lon = home_latlon(home)
+        ax.plot([0], [0], marker="*", ms=9, color="black", mec="white", mew=0.6,
+                transform=crs, zorder=6, gid="home")
+    else:
+        ax.set_global()
+        if home is not None:
+            import cartopy.crs as ccrs
+
+            if rings:
+                draw_geodesic_rings(ax, home, ring_step_km or 5000.0)
+            lat, lon = home_latlon(home)
+            ax.plot([lon], [lat], marker="*", ms=9, color="black", mec="white", mew=0.6,
+                    transform=ccrs.PlateCarree(), zorder=6, gid="home")
+    return ax
+
+
+def draw_paths(ax, home, lat, lon, *, color="#4a4a4a", alpha=None, linewidth=0.4,
+               n_points: int = 48):
+    """Great-circle (geodesic) paths from home to each station, as one LineCollection.
+
+    On an azimuthal map centred on home these are straight segments (exact); on other
+    projections each geodesic is sampled at ``n_points`` and split where it crosses the
+    map edge.
+    """
+    from matplotlib.collections import LineCollection
+
+    crs = ax.projection
+    lat = np.asarray(lat, dtype=float)
+    lon = np.asarray(lon, dtype=float)
+    h_lat, h_lon = home_latlon(home)
+    if crs.proj4_params.get("proj") == "aeqd":
+        x, y = project_points(crs, lat, lon)
+        segs = np.zeros((lat.size, 2, 2))
+        segs[:, 1, 0] = x
+        segs[:, 1, 1] = y
+    else:
+        la, lo = _geodesic_samples(h_lat, h_lon, lat, lon, n_points)
+        x, y = project_points(crs, la, lo)
+        width = crs.x_limits[1] - crs.x_limits[0]
+        jump = np.abs(np.diff(x, axis=1)) > width / 3
+        segs = np.stack([x, y], axis=-1)
+        if jump.any():  # split the few paths that cross the map edge
+            out = [s for s, j in zip(segs, jump) if not j.any()]
+            for s, j in zip(segs[jump.any(axis=1)], jump[jump.any(axis=1)]):
+                out.extend(np.split(s, np.flatnonzero(j) + 1))
+            segs = out
+    if alpha is None:  # fainter the more paths there are
+        alpha = float(np.clip(8.0 / np.sqrt(max(lat.size, 1)), 0.02, 0.6))
+    lc = LineCollection(segs, colors=color, alpha=alpha, linewidths=linewidth, zorder=2,
+                        gid="paths")
+    ax.add_collection(lc, autolim=False)
+    return lc
+
+
+# --- coverage ----------------------------------------------------------------------------
+def _mode(series: pd.Series):
+    s = series.dropna().astype(str)
+    if s.empty:
+        return None
+    return s.value_counts().index[0]
+
+
+def resolve_side(spots: pd.DataFrame, side: Side = "auto") -> str:
+    """Which end of the spots is the home station: ``"transmit"`` (home transmits; far
+    stations are receivers) or ``"receive"``. ``"auto"`` picks the end with fewer distinct
+    locators."""
+    _check(side, SIDES, "side")
+    if side != "auto":
+        return side
+    n_tx = spots[C.TX_LOCATOR].nunique()
+    n_rx = spots[C.RX_LOCATOR].nunique()
+    return "transmit" if n_tx <= n_rx else "receive"
+
+
+def home_from_spots(spots: pd.DataFrame, side: Side = "auto") -> str:
+    """The home station's locator: the most common locator at the home end of the spots."""
+    side = resolve_side(spots, side)
+    loc = _mode(spots[C.TX_LOCATOR if side == "transmit" else C.RX_LOCATOR])
+    if loc is None:
+        raise UsageError("cannot tell the home station from an empty spot table; give --home")
+    return loc
+
+
+def far_station_summary(spots: pd.DataFrame, side: Side = "auto") -> pd.DataFrame:
+    """One row per band and far station: where it is and how well it heard (or was heard).
+
+    Parameters
+    ----------
+    spots : pandas.DataFrame
+        Canonical spot table (needs band, calls, locators, lat/lon, distance, SNR, power).
+    side : {"auto", "transmit", "receive"}
+        ``"transmit"``: the home station transmits, far stations are the receivers;
+        ``"receive"``: far stations are the transmitters; ``"auto"``: see :func:`resolve_side`.
+
+    Returns
+    -------
+    pandas.DataFrame
+        Columns band, far_call, far_locator, far_lat, far_lon [deg], distance_km [km],
+        bearing_deg [deg, from home], snr_per_w_db (median SNR normalised to 1 W [dB]),
+        count (spots).
+    """
+    side = resolve_side(spots, side)
+    if side == "transmit":
+        call, loc, lat, lon, brg = C.RX_CALL, C.RX_LOCATOR, C.RX_LAT, C.RX_LON, C.BEARING
+    else:
+        call, loc, lat, lon, brg = C.TX_CALL, C.TX_LOCATOR, C.TX_LAT, C.TX_LON, C.REVERSE_BEARING
+    df = pd.DataFrame({
+        C.BAND: spots[C.BAND].astype(str).to_numpy(),
+        C.FAR_CALL: spots[call].astype(str).to_numpy(),
+        C.FAR_LOCATOR: spots[loc].astype(str).to_numpy(),
+        C.FAR_LAT: spots[lat].to_numpy(dtype=float),
+        C.FAR_LON: spots[lon].to_numpy(dtype=float),
+        C.DISTANCE: spots[C.DISTANCE].to_numpy(dtype=float),
+        C.BEARING: spots[brg].to_numpy(dtype=float),
+        C.SNR_PER_W: snr_per_watt(spots[C.SNR].to_numpy(), spots[C.POWER].to_numpy()),
+    })
+    g = df.groupby([C.BAND, C.FAR_CALL], sort=False, observed=True)
+    out = g.agg(**{
+        C.FAR_LOCATOR: (C.FAR_LOCATOR, "first"),
+        C.FAR_LAT: (C.FAR_LAT, "median"),
+        C.FAR_LON: (C.FAR_LON, "median"),
+        C.DISTANCE: (C.DISTANCE, "median"),
+        C.BEARING: (C.BEARING, "median"),
+        C.SNR_PER_W: (C.SNR_PER_W, "median"),
+        C.COUNT: (C.SNR_PER_W, "size"),
+    }).reset_index()
+    return out
+
+
+def _panel_grid(n: int, ncols: int | None):
+    ncols = ncols or (1 if n == 1 else 2 if n <= 4 else 3)
+    nrows = int(np.ceil(n / ncols))
+    return nrows, ncols
+
+
+def _select_bands(df: pd.DataFrame, bands) -> list[str]:
+    present = sort_bands(df[C.BAND].astype(str).unique()) if C.BAND in df else []
+    if bands is None:
+        return present
+    wanted = [bands] if isinstance(bands, str) else list(bands)
+    missing = [b for b in wanted if b not in present]
+    if missing:
+        raise UsageError(f"band(s) {', '.join(missing)} not in the data; present: "
+                         f"{', '.join(present) or 'none'}")
+    return sort_bands(wanted)
+
+
+def coverage_map(spots: pd.DataFrame, *, bands=None, home=None, side: Side = "auto",
+                 projection: Projection = "azimuthal", paths: bool = False,
+                 extent_km: float | None = None, ring_step_km: float | None = None,
+                 resolution: Resolution = "110m", cmap: str = "viridis",
+                 ncols: int | None = None, fig=None):
+    """Coverage by band: one panel per band, far stations coloured by SNR per watt.
+
+    Each far station (receiver, or transmitter on the receive side) is one marker per band at
+    its locator cell centre, coloured by its median SNR normalised to 1 W; all panels share
+    one colour scale. Optional geodesic paths from home.
+
+    Parameters
+    ----------
+    spots : pandas.DataFrame
+        Canonical spot table of one home station (see :func:`far_station_summary`).
+    bands : str or list of str, optional
+        Bands to draw (default every band present), in band-plan order.
+    home : str or (float, float), optional
+        Map centre; default the most common locator at the home end.
+    side : {"auto", "transmit", "receive"}
+    projection : {"azimuthal", "world"}
+    paths : bool
+        Draw the geodesic path from home to every far station.
+    extent_km, ring_step_km : float, optional
+        Azimuthal map radius and ring step [km]; default: just beyond the farthest station.
+    resolution : {"110m", "50m", "10m"}
+    cmap : str
+        A perceptually uniform matplotlib colour map.
+    ncols : int, optional
+    fig : matplotlib.figure.Figure, optional
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+    """
+    import matplotlib.pyplot as plt
+    from matplotlib.colors import Normalize
+
+    _check(projection, PROJECTIONS, "projection")
+    if home is None:
+        home = home_from_spots(spots, side)
+    far = far_station_summary(spots, side)
+    chosen = _select_bands(far, bands)
+    if not chosen:
+        raise UsageError("no spots to map")
+    far = far[far[C.BAND].isin(chosen)]
+    v = far[C.SNR_PER_W].to_numpy()
+    lo, hi = np.nanpercentile(v, [2, 98]) if v.size else (0.0, 1.0)
+    norm = Normalize(vmin=np.floor(lo), vmax=max(np.ceil(hi), np.floor(lo) + 1))
+    if extent_km is None and projection == "azimuthal":
+        extent_km = auto_extent_km(far[C.DISTANCE], ring_step_km)
+    nrows, ncols = _panel_grid(len(chosen), ncols)
+    if fig is None:
+        w, h = (4.6, 4.9) if projection == "azimuthal" else (7.0, 3.9)
+        fig = plt.figure(figsize=(w * ncols, h * nrows + 0.6))
+    crs = make_projection(projection, home)
+    side_name = resolve_side(spots, side)
+    who = "receivers" if side_name == "transmit" else "transmitters"
+    sc = None
+    for i, band in enumerate(chosen):
+        ax = fig.add_subplot(nrows, ncols, i + 1, projection=crs)
+        base_map(ax, projection=projection, home=home, extent_km=extent_km,
+                 ring_step_km=ring_step_km, resolution=resolution)
+        sub = far[far[C.BAND] == band].sort_values(C.SNR_PER_W, na_position="first")
+        if paths:
+            draw_paths(ax, home, sub[C.FAR_LAT], sub[C.FAR_LON])
+        x, y = project_points(crs, sub[C.FAR_LAT], sub[C.FAR_LON])
+        sc = ax.scatter(x, y, c=sub[C.SNR_PER_W], cmap=cmap, norm=norm, s=14,
+                        edgecolors="#202020", linewidths=0.25, transform=crs, zorder=5,
+                        gid="stations")
+        ax.set_title(f"{band}: {len(sub):,} {who}", fontsize=10, pad=16)
+    if sc is not None:
+        cb = fig.colorbar(sc, ax=fig.axes, orientation="horizontal", fraction=0.035,
+                          pad=0.04, shrink=0.7, extend="both")
+        cb.set_label("median SNR per watt [dB in 2500 Hz]")
+    fig.suptitle(f"Coverage from {home if isinstance(home, str) else 'home'}", fontsize=12)
+    return fig
+
+
+# --- A/B difference ----------------------------------------------------------------------
+_LEVEL_KEY = {"receiver": C.FAR_CALL, "square": C.SQUARE, "field": C.FIELD}
+
+
+def home_from_pairs(pairs: pd.DataFrame) -> str:
+    """The locator of the station under test in a pairs table (the end that is not the far
+    station)."""
+    if not len(pairs):
+        raise UsageError("cannot tell the home station from an empty pairs table; give home")
+    far_is_rx = (pairs[C.RX_LOCATOR].astype(str) == pairs[C.FAR_LOCATOR].astype(str)).mean()
+    return _mode(pairs[C.TX_LOCATOR if far_is_rx >= 0.5 else C.RX_LOCATOR])
+
+
+def _groups_and_pairs(result, pairs):
+    groups = getattr(result, "groups", result)
+    if pairs is None:
+        pairs = getattr(result, "pairs", None)
+    if not isinstance(groups, pd.DataFrame):
+        raise UsageError("expected a ComparisonResult or its groups DataFrame")
+    return groups, pairs
+
+
+def difference_cells(result, *, level: Level = "auto", pairs: pd.DataFrame | None = None
+                     ) -> pd.DataFrame:
+    """Where each group of a comparison sits on the map and how it should be drawn.
+
+    Parameters
+    ----------
+    result : ComparisonResult or pandas.DataFrame
+        From ``compare_antennas(..., by=(..., "receiver" | "square" | "field"))`` or its
+        ``groups`` table (columns b_minus_a_db, ci_low_db, ci_high_db, both, only_a,
+        only_b and the level's key).
+    level : {"auto", "receiver", "square", "field"}
+        ``"auto"`` takes the finest key present.
+    pairs : pandas.DataFrame, optional
+        Pairs table for receiver positions (default ``result.pairs``).
+
+    Returns
+    -------
+    pandas.DataFrame
+        The groups with far_lat, far_lon [deg] (cell centre or receiver), cell_dlat,
+        cell_dlon [deg] (0 for receivers), ``significant`` (the CI excludes 0),
+        ``one_sided`` ("only_a" / "only_b" when just one antenna was heard there, else "").
+        Groups without an estimate (too few pairs) keep NaN and are drawn as grey rings.
+    """
+    _check(level, LEVELS, "level")
+    groups, pairs = _groups_and_pairs(result, pairs)
+    if level == "auto":
+        level = next((lv for lv in ("receiver", "square", "field")
+                      if _LEVEL_KEY[lv] in groups.columns), None)
+        if level is None:
+            raise UsageError("the comparison has no receiver, square or field groups; run it "
+                             "with by including 'receiver', 'square' or 'field'")
+    key = _LEVEL_KEY[level]
+    if key not in groups.columns:
+        raise UsageError(f"the comparison has no {level!r} groups (no column {key!r})")
+    g = groups.copy()
+    if level == "receiver":
+        if C.FAR_LAT in g.columns and C.FAR_LON in g.columns:
+            pass
+        elif pairs is not None and C.FAR_LAT in pairs.columns:
+            pos = (pairs.groupby(pairs[C.FAR_CALL].astype(str), observed=True)
+                   [[C.FAR_LAT, C.FAR_LON]].median())
+            k = g[key].astype(str)
+            g[C.FAR_LAT] = k.map(pos[C.FAR_LAT]).to_numpy(dtype=float)
+            g[C.FAR_LON] = k.map(pos[C.FAR_LON]).to_numpy(dtype=float)
+        else:
+            raise UsageError("receiver positions unknown: pass the pairs table")
+        g["cell_dlat"] = 0.0
+        g["cell_dlon"] = 0.0
+    else:
+        lat, lon = locator_to_latlon(g[key].astype(str).to_numpy(), errors="coerce")
+        dlon, dlat = locator_cell_size(g[key].astype(str).to_numpy())
+        g[C.FAR_LAT], g[C.FAR_LON] = lat, lon
+        g["cell_dlat"], g["cell_dlon"] = dlat, dlon
+    lo = g[C.CI_LOW].to_numpy(dtype=float)
+    hi = g[C.CI_HIGH].to_numpy(dtype=float)
+    g["significant"] = (lo > 0) | (hi < 0)
+    both = g[C.BOTH].to_numpy(dtype=float) if C.BOTH in g else np.ones(len(g))
+    oa = g[C.ONLY_A].to_numpy(dtype=float)
+    ob = g[C.ONLY_B].to_numpy(dtype=float)
+    g["one_sided"] = np.where((both == 0) & (oa > 0) & (ob == 0), "only_a",
+                              np.where((both == 0) & (ob > 0) & (oa == 0), "only_b", ""))
+    g.attrs["level"] = level
+    return g
+
+
+def symmetric_limit(values, *, percentile: float = 95.0, step: float = 0.5) -> float:
+    """Half-range [dB] of a colour scale centred on 0 that covers ``percentile`` % of
+    ``|values|``, rounded up to ``step`` (at least ``step``)."""
+    v = np.abs(np.asarray(values, dtype=float))
+    v = v[np.isfinite(v)]
+    if not v.size:
+        return step
+    return float(max(step, step * np.ceil(np.percentile(v, percentile) / step)))
+
+
+def _cell_polygons(crs, lat, lon, dlat, dlon, n_edge: int = 6):
+    """Projected outlines (k, 4 n_edge, 2) of lat/lon rectangles, edges densified."""
+    t = np.linspace(-0.5, 0.5, n_edge, endpoint=False)
+    fx = np.concatenate([t, np.full(n_edge, 0.5), -t, np.full(n_edge, -0.5)])
+    fy = np.concatenate([np.full(n_edge, -0.5), t, np.full(n_edge, 0.5), -t])
+    la = lat[:, None] + dlat[:, None] * fy[None, :]
+    lo = lon[:, None] + dlon[:, None] * fx[None, :]
+    x, y = project_points(crs, np.clip(la, -89.999, 89.999), lo)
+    return np.stack([x, y], axis=-1)
+
+
+def difference_map(result, *, level: Level = "auto", band=None, pairs=None, home=None,
+                   projection: Projection = "azimuthal", extent_km: float | None = None,
+                   ring_step_km: float | None = None, vmax: float | None = None,
+                   cmap: str = "RdBu", resolution: Resolution = "110m",
+                   ncols: int | None = None, fig=None):
+    """Map of the B-minus-A estimate per receiver or per locator square / field.
+
+    Colours run on a diverging scale centred on 0 dB with symmetric limits (blue: B better,
+    red: A better with the default ``"RdBu"``). Receivers are dots and locator squares are
+    square markers at the cell centre (a 2 x 1 deg cell is too small to see on a world-wide
+    map); locator fields are drawn as their 20 x 10 deg cells. Groups whose confidence interval excludes
+    0 dB are drawn solid; the rest faint and hatched. Far stations heard by only one antenna
+    (no difference, only a bound) are marked apart: a downward triangle for "only A heard",
+    an upward triangle for "only B heard". One panel per band when the result is split by
+    band (unless ``band`` picks one).
+
+    Parameters
+    ----------
+    result : ComparisonResult or pandas.DataFrame
+        See :func:`difference_cells`.
+    level : {"auto", "receiver", "square", "field"}
+    band : str, optional
+        Draw only this band.
+    pairs : pandas.DataFrame, optional
+        Pairs table (receiver positions, home); default ``result.pairs``.
+    home : str or (float, float), optional
+        Map centre; default the station under test in ``pairs``.
+    projection : {"azimuthal", "world"}
+    extent_km, ring_step_km : float, optional
+    vmax : float, optional
+        Colour half-range [dB]; default :func:`symmetric_limit` of the estimates.
+    cmap : str
+        A diverging matplotlib colour map ("RdBu", "PuOr", ...).
+    resolution : {"110m", "50m", "10m"}
+    ncols : int, optional
+    fig : matplotlib.figure.Figure, optional
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+    """
+    import matplotlib.pyplot as plt
+    from matplotlib.collections import PolyCollection
+    from matplotlib.colors import Normalize
+    from matplotlib.lines import Line2D
+
+    _check(projection, PROJECTIONS, "projection")
+    cells = difference_cells(result, level=level, pairs=pairs)
+    level = cells.attrs["level"]
+    _, pairs = _groups_and_pairs(result, pairs)
+    if home is None:
+        if pairs is None:
+            raise UsageError("no home station given and no pairs table to find it in")
+        home = home_from_pairs(pairs)
+    if C.BAND in cells.columns:
+        chosen = _select_bands(cells, band)
+    else:
+        chosen = [None]
+    est = cells[C.B_MINUS_A].to_numpy(dtype=float)
+    lim = float(vmax) if vmax else symmetric_limit(est)
+    norm = Normalize(vmin=-lim, vmax=lim)
+    cmap_obj = plt.get_cmap(cmap)
+    crs = make_projection(projection, home)
+    if extent_km is None and projection == "azimuthal":
+        from .geo import geodesic_inverse
+
+        h_lat, h_lon = home_latlon(home)
+        ok = np.isfinite(cells[C.FAR_LAT].to_numpy())
+        d = geodesic_inverse(np.full(ok.sum(), h_lat), np.full(ok.sum(), h_lon),
+                             cells[C.FAR_LAT].to_numpy()[ok], cells[C.FAR_LON].to_numpy()[ok])[0]
+        extent_km = auto_extent_km(np.asarray(d) / 1e3, ring_step_km)
+    nrows, ncols = _panel_grid(len(chosen), ncols)
+    if fig is None:
+        w, h = (5.2, 5.4) if projection == "azimuthal" else (7.5, 4.2)
+        fig = plt.figure(figsize=(w * ncols, h * nrows + 0.8))
+    for i, bnd in enumerate(chosen):
+        ax = fig.add_subplot(nrows, ncols, i + 1, projection=crs)
+        base_map(ax, projection=projection, home=home, extent_km=extent_km,
+                 ring_step_km=ring_step_km, resolution=resolution)
+        sub = cells if bnd is None else cells[cells[C.BAND].astype(str) == bnd]
+        sub = sub[np.isfinite(sub[C.FAR_LAT].to_numpy(dtype=float))]
+        one = sub["one_sided"].to_numpy()
+        val = sub[C.B_MINUS_A].to_numpy(dtype=float)
+        drawable = (one == "") & np.isfinite(val)
+        sig = sub["significant"].to_numpy(dtype=bool)
+        for name, mask, alpha, hatch in (("faint", drawable & ~sig, 0.35, "////"),
+                                         ("solid", drawable & sig, 1.0, None)):
+            part = sub[mask]
+            v = part[C.B_MINUS_A].to_numpy(dtype=float)
+            if level in ("receiver", "square"):  # a square cell is too small to see
+                x, y = project_points(crs, part[C.FAR_LAT], part[C.FAR_LON])
+                ax.scatter(x, y, c=v, cmap=cmap_obj, norm=norm, s=26 if hatch is None else 18,
+                           marker="o" if level == "receiver" else "s",
+                           alpha=alpha, edgecolors="#303030" if hatch is None else "#909090",
+                           linewidths=0.4, hatch=hatch, transform=crs, zorder=5,
+                           gid=f"cells-{name}")
+            else:
+                polys = _cell_polygons(crs, part[C.FAR_LAT].to_numpy(dtype=float),
+                                       part[C.FAR_LON].to_numpy(dtype=float),
+                                       part["cell_dlat"].to_numpy(dtype=float),
+                                       part["cell_dlon"].to_numpy(dtype=float))
+                pc = PolyCollection(polys, array=v, cmap=cmap_obj, norm=norm, alpha=alpha,
+                                    edgecolors="#303030" if hatch is None else "#a0a0a0",
+                                    linewidths=0.3, hatch=hatch, zorder=4,
+                                    gid=f"cells-{name}")
+                ax.add_collection(pc, autolim=False)
+        none = sub[(one == "") & ~np.isfinite(val)]  # too few pairs: outline only
+        x, y = project_points(crs, none[C.FAR_LAT], none[C.FAR_LON])
+        ax.scatter(x, y, marker="o", s=10, facecolors="none", edgecolors="#8a8a8a",
+                   linewidths=0.5, transform=crs, zorder=4.5, gid="no-estimate")
+        for kind, marker in (("only_a", "v"), ("only_b", "^")):
+            part = sub[one == kind]
+            x, y = project_points(crs, part[C.FAR_LAT], part[C.FAR_LON])
+            ax.scatter(x, y, marker=marker, s=22, facecolors="white", edgecolors="black",
+                       linewidths=0.7, transform=crs, zorder=6, gid=kind.replace("_", "-"))
+        n_sig = int((drawable & sig).sum())
+        what = {"receiver": "receivers", "square": "squares", "field": "fields"}[level]
+        title = f"{bnd}: " if bnd is not None else ""
+        ax.set_title(f"{title}B - A by {level}: {int(drawable.sum())} {what}, {n_sig} with CI "
+                     "excluding 0", fontsize=9, pad=16)
+    mappable = plt.cm.ScalarMappable(norm=norm, cmap=cmap_obj)
+    cb = fig.colorbar(mappable, ax=fig.axes, orientation="horizontal", fraction=0.035, pad=0.05,
+                      shrink=0.7, extend="both")
+    cb.set_label("B minus A [dB]  (positive: B better)")
+    handles = [
+        Line2D([], [], marker="s", ls="", color=cmap_obj(0.85), mec="#303030",
+               label="CI excludes 0 dB"),
+        Line2D([], [], marker="s", ls="", color=cmap_obj(0.85), alpha=0.35, mec="#a0a0a0",
+               label="CI includes 0 dB (faint)"),
+        Line2D([], [], marker="v", ls="", mfc="white", mec="black", label="heard by A only"),
+        Line2D([], [], marker="^", ls="", mfc="white", mec="black", label="heard by B only"),
+        Line2D([], [], marker="o", ls="", mfc="none", mec="#8a8a8a", label="too few pairs"),
+    ]
+    fig.legend(handles=handles, loc="lower center", ncol=5, fontsize=8, frameon=False)
+    fig.suptitle(f"B minus A around {home if isinstance(home, str) else 'home'}", fontsize=12)
+    return fig
+
+
+# --- reach -------------------------------------------------------------------------------
+def reach_stations(pairs: pd.DataFrame, band=None) -> pd.DataFrame:
+    """One row per far station (and band): whether A and B reached it.
+
+    Parameters
+    ----------
+    pairs : pandas.DataFrame
+        From :func:`spotkit.pairing.pair_spots`.
+    band : str or list of str, optional
+
+    Returns
+    -------
+    pandas.DataFrame
+        Columns band, far_call, far_lat, far_lon [deg], distance_km [km], heard_a, heard_b
+        (bool: at least one pair where that antenna was heard).
+    """
+    df = pairs
+    if band is not None:
+        wanted = [band] if isinstance(band, str) else list(band)
+        df = df[df[C.BAND].astype(str).isin(wanted)]
+    ha = df[C.HEARD_A] if C.HEARD_A in df else df[C.SNR_A].notna()
+    hb = df[C.HEARD_B] if C.HEARD_B in df else df[C.SNR_B].notna()
+    frame = pd.DataFrame({
+        C.BAND: df[C.BAND].astype(str).to_numpy(),
+        C.FAR_CALL: df[C.FAR_CALL].astype(str).to_numpy(),
+        C.FAR_LAT: df[C.FAR_LAT].to_numpy(dtype=float),
+        C.FAR_LON: df[C.FAR_LON].to_numpy(dtype=float),
+        C.DISTANCE: df[C.DISTANCE].to_numpy(dtype=float),
+        C.HEARD_A: np.asarray(ha, dtype=bool),
+        C.HEARD_B: np.asarray(hb, dtype=bool),
+    })
+    return (frame.groupby([C.BAND, C.FAR_CALL], sort=False)
+            .agg(**{C.FAR_LAT: (C.FAR_LAT, "median"), C.FAR_LON: (C.FAR_LON, "median"),
+                    C.DISTANCE: (C.DISTANCE, "median"), C.HEARD_A: (C.HEARD_A, "any"),
+                    C.HEARD_B: (C.HEARD_B, "any")})
+            .reset_index())
+
+
+#: reach classes: label, colour position in viridis, marker
+_REACH_STYLE = {"both": ("heard by both", None, "o"),
+                "only_a": ("A only", 0.08, "v"),
+                "only_b": ("B only", 0.62, "^")}
+
+
+def reach_map(pairs: pd.DataFrame, *, band=None, layout: ReachLayout = "side", home=None,
+              projection: Projection = "azimuthal", extent_km: float | None = None,
+              ring_step_km: float | None = None, resolution: Resolution = "110m", fig=None):
+    """What A and what B reached: far stations heard by each antenna, with distance rings.
+
+    ``layout="side"``: two panels, A's far stations on the left and B's on the right, each
+    marking the stations only that antenna reached; ``"overlay"``: one panel with three
+    classes (both, A only, B only). Counts and the farthest distance are in the titles /
+    legend.
+
+    Parameters
+    ----------
+    pairs : pandas.DataFrame
+        From :func:`spotkit.pairing.pair_spots` (or ``ComparisonResult.pairs``).
+    band : str or list of str, optional
+        Restrict to these bands (a station counts once per band).
+    layout : {"side", "overlay"}
+    home, projection, extent_km, ring_step_km, resolution, fig
+        As in :func:`coverage_map`.
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+    """
+    import matplotlib.pyplot as plt
+
+    _check(layout, REACH_LAYOUTS, "layout")
+    _check(projection, PROJECTIONS, "projection")
+    pairs = getattr(pairs, "pairs", pairs)
+    st = reach_stations(pairs, band)
+    if not len(st):
+        raise UsageError("no far stations to map")
+    if home is None:
+        home = home_from_pairs(pairs)
+    if extent_km is None and projection == "azimuthal":
+        extent_km = auto_extent_km(st[C.DISTANCE], ring_step_km)
+    crs = make_projection(projection, home)
+    cls = np.where(st[C.HEARD_A] & st[C.HEARD_B], "both",
+                   np.where(st[C.HEARD_A], "only_a", "only_b"))
+    cmap = plt.get_cmap("viridis")
+    panels = [("A", ("both", "only_a")), ("B", ("both", "only_b"))] if layout == "side" \
+        else [(None, ("both", "only_a", "only_b"))]
+    if fig is None:
+        w, h = (5.2, 5.8) if projection == "azimuthal" else (7.5, 4.6)
+        fig = plt.figure(figsize=(w * len(panels), h))
+    bands_txt = "" if band is None else f" ({band if isinstance(band, str) else ', '.join(band)})"
+    for i, (who, classes) in enumerate(panels):
+        ax = fig.add_subplot(1, len(panels), i + 1, projection=crs)
+        base_map(ax, projection=projection, home=home, extent_km=extent_km,
+                 ring_step_km=ring_step_km, resolution=resolution)
+        for c in classes:
+            label, pos, marker = _REACH_STYLE[c]
+            part = st[cls == c]
+            x, y = project_points(crs, part[C.FAR_LAT], part[C.FAR_LON])
+            color = "#9a9a9a" if pos is None else cmap(pos)
+            ax.scatter(x, y, s=16 if c == "both" else 24, marker=marker, color=color,
+                       edgecolors="#202020", linewidths=0.3, transform=crs,
+                       zorder=5 if c == "both" else 6,
+                       gid={"both": "heard-both", "only_a": "only-a", "only_b": "only-b"}[c]
+                       + ("" if who is None else f"-{who.lower()}"),
+                       label=f"{label}: {len(part):,}")
+        if who is None:
+            ax.set_title(f"Reach of A and B{bands_txt}", fontsize=10, pad=16)
+            ax.legend(loc="lower left", fontsize=7, framealpha=0.8)
+        else:
+            heard = st[C.HEARD_A] if who == "A" else st[C.HEARD_B]
+            far = st.loc[heard, C.DISTANCE].max() if heard.any() else float("nan")
+            ax.set_title(f"{who}{bands_txt}: {int(heard.sum()):,} far stations, farthest "
+                         f"{far:,.0f} km", fontsize=10, pad=16)
+            ax.legend(loc="lower left", fontsize=7, framealpha=0.8)
+    fig.suptitle(f"Reach around {home if isinstance(home, str) else 'home'}", fontsize=12)
+    return fig
+
+
+__all__ = ["PROJECTIONS", "RESOLUTIONS", "SIDES", "LEVELS", "REACH_LAYOUTS", "home_latlon",
+           "make_projection", "project_points", "auto_extent_km", "draw_land", "draw_rings",
+           "draw_geodesic_rings", "base_map", "draw_paths", "resolve_side", "home_from_spots", "far_station_summary",
+           "coverage_map", "home_from_pairs", "difference_cells", "symmetric_limit",
+           "difference_map", "reach_stations", "reach_map"]
