@@ -53,6 +53,9 @@ SIGMA_FLOOR_DB = 0.3
 #: Largest sample for which ``method="auto"`` uses the exact signed-rank distribution.
 EXACT_MAX_N = 50
 
+#: Largest sample that ``method="exact"`` accepts (its cost grows as n**3).
+EXACT_LIMIT_N = 1000
+
 
 @dataclass(frozen=True)
 class TestResult:
@@ -175,12 +178,17 @@ def _signed_rank_parts(values, counts):
 
 
 def _signed_rank_null_counts(n: int) -> np.ndarray:
-    """Number of subsets of {1..n} with each sum 0..n(n+1)/2 (exact null of T+, no ties)."""
+    """Exact null probabilities of T+ = 0..n(n+1)/2 without ties.
+
+    The number of subsets of {1..n} with each sum, divided by 2**n as it is built up
+    (so that large n cannot overflow).
+    """
     top = n * (n + 1) // 2
     f = np.zeros(top + 1)
     f[0] = 1.0
     for k in range(1, n + 1):
         f[k:] = f[k:] + f[:-k].copy()
+        f *= 0.5
     return f
 
 
@@ -266,9 +274,9 @@ def wilcoxon_signed_rank(values, counts=None, alternative: Alternative = "two-si
     if method == "auto":
         method = "exact" if (n <= EXACT_MAX_N and not has_ties) else "normal"
     if method == "exact":
-        if n > 2000:
-            raise UsageError(f"exact signed-rank distribution for n = {n} > 2000 is too "
-                             "costly; use method='normal'")
+        if n > EXACT_LIMIT_N:
+            raise UsageError(f"exact signed-rank distribution for n = {n} > {EXACT_LIMIT_N}"
+                             " is too costly; use method='normal'")
         if has_ties:
             f = _signed_rank_null_ties(np.round(2 * midrank), t)
             p = _p_from_null(f, int(round(2 * t_plus)), alternative)

@@ -87,6 +87,21 @@ def test_wilcoxon_exact_with_ties_matches_scipy_enumeration(rng, alternative):
     assert ours.p_value == pytest.approx(ref.pvalue, rel=1e-10)
 
 
+def test_wilcoxon_exact_large_n(rng):
+    # no ties, n = 300: oracle scipy.stats.wilcoxon(method="exact"), tolerance 1e-9 relative
+    d = rng.normal(0.2, 1.0, 300)
+    ours = S.wilcoxon_signed_rank(d, method="exact")
+    assert ours.p_value == pytest.approx(sps.wilcoxon(d, method="exact").pvalue, rel=1e-9)
+    # whole-dB ties, n about 300: the exact conditional null and the normal approximation
+    # with tie and continuity corrections agree to 0.005 in p (the approximation's error)
+    t = tied_sample(rng, 300, loc=0.3)
+    ex = S.wilcoxon_signed_rank(t, method="exact")
+    no = S.wilcoxon_signed_rank(t, method="normal")
+    assert ex.p_value == pytest.approx(no.p_value, abs=5e-3)
+    with pytest.raises(UsageError):
+        S.wilcoxon_signed_rank(np.arange(1.0, 1500.0), method="exact")
+
+
 def test_wilcoxon_compressed_equals_expanded(rng):
     d = tied_sample(rng, 3000)
     u, c = compress(d)
