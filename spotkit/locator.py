@@ -42,6 +42,25 @@ def _as_str_array(locators) -> np.ndarray:
     return arr
 
 
+def _distinct(locators):
+    """Row codes into the distinct values, and those values stripped and upper case.
+
+    Each distinct spelling is parsed once; missing values map to an empty string.
+    """
+    if isinstance(getattr(locators, "dtype", None), pd.CategoricalDtype):
+        cat = pd.Categorical(locators)
+        codes = np.asarray(cat.codes, dtype=np.int64)
+        uniq = np.asarray(cat.categories, dtype=object)
+    else:
+        codes, uniq = pd.factorize(np.atleast_1d(np.asarray(locators, dtype=object)),
+                                   use_na_sentinel=True)
+        codes = np.asarray(codes, dtype=np.int64)
+        uniq = np.asarray(uniq, dtype=object)
+    upper = np.append(_as_str_array(uniq) if uniq.size else np.zeros(0, dtype="U8"), "")
+    codes = np.where(codes < 0, upper.size - 1, codes)
+    return codes, upper
+
+
 def _decode_upper(arr: np.ndarray):
     """Decode an array of upper-case strings; returns (lat, lon, valid)."""
     n = arr.size
@@ -81,7 +100,8 @@ def is_valid_locator(locators) -> np.ndarray:
     -------
     numpy.ndarray of bool
     """
-    return _decode_upper(_as_str_array(locators))[2]
+    codes, upper = _distinct(locators)
+    return _decode_upper(upper)[2][codes]
 
 
 def locator_to_latlon(locators, errors: Literal["raise", "coerce"] = "raise"):
@@ -107,10 +127,11 @@ def locator_to_latlon(locators, errors: Literal["raise", "coerce"] = "raise"):
     if errors not in ("raise", "coerce"):
         raise ValueError(f"errors must be 'raise' or 'coerce', not {errors!r}")
     scalar = np.ndim(locators) == 0
-    arr = _as_str_array(locators)
-    lat, lon, valid = _decode_upper(arr)
+    codes, upper = _distinct(locators)
+    lat, lon, valid = _decode_upper(upper)
+    lat, lon, valid = lat[codes], lon[codes], valid[codes]
     if errors == "raise" and not valid.all():
-        bad = arr[~valid][0]
+        bad = str(upper[codes[~valid][0]])
         raise LocatorError(
             f"not a Maidenhead locator: {bad!r} (expected 2, 4, 6 or 8 characters like "
             "'JN58', 'JN58td' or 'JN58td25')"
@@ -176,13 +197,13 @@ def normalize_locator(locators):
 
     Invalid values become ``None``.
     """
-    arr = _as_str_array(locators)
-    valid = _decode_upper(arr)[2]
+    codes, upper = _distinct(locators)
+    valid = _decode_upper(upper)[2]
     res = np.array(
-        [s[:4] + s[4:6].lower() + s[6:] if ok else None for s, ok in zip(arr, valid)],
+        [s[:4] + s[4:6].lower() + s[6:] if ok else None for s, ok in zip(upper, valid)],
         dtype=object,
     )
-    return res
+    return res[codes]
 
 
 def locator_cell_size(locators):
