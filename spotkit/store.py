@@ -219,12 +219,28 @@ def _with_day(table: pa.Table) -> pa.Table:
     return table.append_column(DAY, day)
 
 
+def _arrow_type(name: str, series: pd.Series) -> pa.DataType:
+    col = C.GLOSSARY.get(name)
+    if col is None:
+        return pa.Schema.from_pandas(series.to_frame(), preserve_index=False).field(0).type
+    if col.dtype == C.UTC_DTYPE:
+        return pa.timestamp("ns", tz="UTC")
+    return {"category": pa.dictionary(pa.int32(), pa.string()), "float64": pa.float64(),
+            "int64": pa.int64()}[str(col.dtype)]
+
+
 def _to_arrow(df: pd.DataFrame) -> pa.Table:
-    return pa.Table.from_pandas(df, preserve_index=False)
+    """Arrow table with a fixed type per glossary column (dictionary<int32, string> for
+    categoricals, ns UTC timestamps), so tables of different chunks share one schema."""
+    schema = pa.schema([pa.field(str(n), _arrow_type(n, df[n])) for n in df.columns])
+    return pa.Table.from_pandas(df, schema=schema, preserve_index=False)
 
 
 class _Appender:
-    """Writes batches of one source into a staging folder, then moves them into place."""
+    """Writes spot tables into ``<root>/_staging-<token>/`` split by partition - one open
+    Parquet file per partition, one row group per written piece - and moves the files into
+    the archive on :meth:`commit`. Memory: the table being written plus one file footer per
+    open partition."""
 
     def __init__(self, root: Path, partition_by: Sequence[str], token: str):
         self.root = root
@@ -232,40 +248,78 @@ class _Appender:
         self.token = token
         self.staging = root / f"{_STAGING_PREFIX}{token}"
         self.rows = 0
-        self.n_writes = 0
+        self.writers: dict[tuple, pq.ParquetWriter] = {}
+        self.files: dict[tuple, str] = {}
 
-    def write(self, tables: Iterable[pa.Table] | pa.Table, schema: pa.Schema | None = None):
-        if isinstance(tables, pa.Table):
-            tables = [tables]
-        for table in tables:
-            if table.num_rows == 0:
-                continue
-            if DAY in self.partition_by:
-                table = _with_day(table)
-            ds.write_dataset(
-                table, self.staging, format="parquet",
-                partitioning=_partitioning(self.partition_by),
-                basename_template=f"part-{self.token}-{self.n_writes:05d}-{{i}}.parquet",
-                existing_data_behavior="overwrite_or_ignore",
-                max_rows_per_group=ROW_GROUP_ROWS, min_rows_per_group=min(ROW_GROUP_ROWS, 1),
-            )
-            self.rows += table.num_rows
-            self.n_writes += 1
+    def _partition_values(self, table: pa.Table) -> pd.DataFrame:
+        cols = {}
+        for key in self.partition_by:
+            if key == C.BAND:
+                band = table.column(C.BAND)
+                if band.null_count:
+                    raise InputError(f"{band.null_count} spot(s) have no {C.BAND}; "
+                                     "cannot partition by band")
+                cols[key] = pd.Categorical(pc.cast(band, pa.string()).to_numpy(
+                    zero_copy_only=False))
+            else:
+                day = _day_of(table)
+                if day.null_count:
+                    raise InputError(f"{day.null_count} spot(s) have no slot time; "
+                                     "cannot partition by day")
+                cols[key] = day.cast(pa.int32()).to_numpy(zero_copy_only=False)
+        return pd.DataFrame(cols)
+
+    def write(self, table: pa.Table) -> None:
+        if table.num_rows == 0:
+            return
+        parts = self._partition_values(table)
+        data = table.drop_columns([k for k in self.partition_by if k in table.column_names])
+        groups = parts.groupby(self.partition_by, observed=True, sort=False).indices
+        for key, idx in groups.items():
+            key = key if isinstance(key, tuple) else (key,)
+            writer = self.writers.get(key)
+            if writer is None:
+                rel = "/".join(f"{k}={_format_key(k, v)}" for k, v in zip(self.partition_by, key))
+                rel = f"{rel}/part-{self.token}.parquet"
+                path = self.staging / rel
+                path.parent.mkdir(parents=True, exist_ok=True)
+                writer = pq.ParquetWriter(path, data.schema)
+                self.writers[key], self.files[key] = writer, rel
+            writer.write_table(data.take(pa.array(np.sort(idx))), row_group_size=ROW_GROUP_ROWS)
+        self.rows += table.num_rows
+
+    def close(self) -> None:
+        for w in self.writers.values():
+            w.close()
+        self.writers = {}
 
     def commit(self) -> list[str]:
+        self.close()
         moved = []
-        if self.staging.exists():
-            for src in sorted(self.staging.rglob("*.parquet")):
-                rel = src.relative_to(self.staging)
-                dst = self.root / rel
-                dst.parent.mkdir(parents=True, exist_ok=True)
-                os.replace(src, dst)
-                moved.append(rel.as_posix())
-            shutil.rmtree(self.staging, ignore_errors=True)
+        for rel in sorted(self.files.values()):
+            dst = self.root / rel
+            dst.parent.mkdir(parents=True, exist_ok=True)
+            os.replace(self.staging / rel, dst)
+            moved.append(rel)
+        shutil.rmtree(self.staging, ignore_errors=True)
         return moved
 
     def abort(self) -> None:
-        shutil.rmtree(self.staging, ignore_errors=True)
+        try:
+            self.close()
+        finally:
+            shutil.rmtree(self.staging, ignore_errors=True)
+
+
+def _day_of(table: pa.Table) -> pa.ChunkedArray:
+    return _with_day(table.select([c for c in (C.SLOT, C.TIME) if c in table.column_names]
+                                  )).column(DAY)
+
+
+def _format_key(key: str, value) -> str:
+    if key == DAY:
+        return (_dt.date(1970, 1, 1) + _dt.timedelta(days=int(value))).isoformat()
+    return str(value)
 
 
 def append_to_dataset(df: pd.DataFrame, root, *, partition_by: Sequence[str] = PARTITION_KEYS,
@@ -310,6 +364,167 @@ def append_to_dataset(df: pd.DataFrame, root, *, partition_by: Sequence[str] = P
     manifest["batches"].append(entry)
     _write_manifest(root, manifest)
     return entry
+
+
+#: Rough resident size of a Python process with spotkit, pandas and pyarrow loaded [MiB]
+#: (measured by benchmarks/bench_archive.py).
+BASE_MEMORY_MB = 200
+#: Peak memory per row of a chunk while it is parsed, validated, enriched and written
+#: [bytes] (measured by benchmarks/bench_archive.py; the ingest module says about 1 kB).
+CHUNK_BYTES_PER_ROW = 1500
+#: Memory per distinct report kept to find duplicates across chunks [bytes] (8-byte hashes,
+#: doubled while two sorted runs merge).
+SEEN_BYTES_PER_ROW = 16
+#: Bytes per CSV row assumed when estimating a file's row count for the duplicate keys.
+CSV_BYTES_PER_ROW = 60
+MIN_CHUNK_ROWS = 1000
+
+
+def chunk_rows_for_memory(memory_mb: float, *, total_input_bytes: int = 0) -> int:
+    """Chunk size [rows] that keeps an archive ingest under ``memory_mb`` [MiB].
+
+    Budget: ``memory_mb = BASE_MEMORY_MB + rows_estimate * SEEN_BYTES_PER_ROW / 2**20
+    + chunk_rows * CHUNK_BYTES_PER_ROW / 2**20``, with ``rows_estimate`` the input size over
+    :data:`CSV_BYTES_PER_ROW` (gzip files count 5x their size). The constants are
+    measurements on one machine, not guarantees; the benchmark checks them.
+
+    Raises
+    ------
+    UsageError
+        When the cap leaves room for fewer than :data:`MIN_CHUNK_ROWS` rows per chunk.
+    """
+    if not np.isfinite(memory_mb) or memory_mb <= 0:
+        raise UsageError(f"memory_mb must be a positive number of MiB, not {memory_mb!r}")
+    seen_mb = total_input_bytes / CSV_BYTES_PER_ROW * SEEN_BYTES_PER_ROW / 2**20
+    room = (memory_mb - BASE_MEMORY_MB - seen_mb) * 2**20
+    rows = int(room // CHUNK_BYTES_PER_ROW)
+    if rows < MIN_CHUNK_ROWS:
+        need = BASE_MEMORY_MB + seen_mb + MIN_CHUNK_ROWS * CHUNK_BYTES_PER_ROW / 2**20
+        raise UsageError(f"a memory cap of {memory_mb:g} MiB is too small for this input; "
+                         f"it needs at least {need:.0f} MiB")
+    return rows
+
+
+def _input_bytes(paths: Sequence[Path]) -> int:
+    total = 0
+    for p in paths:
+        size = p.stat().st_size
+        total += size * 5 if p.suffix.lower() in (".gz", ".gzip") else size
+    return total
+
+
+def ingest_to_dataset(paths, root, *, chunk_rows: int | None = None,
+                      memory_mb: float | None = None,
+                      partition_by: Sequence[str] = PARTITION_KEYS, progress: bool = False,
+                      **read_kw):
+    """Read spot CSV files chunk by chunk and append them to a partitioned archive.
+
+    Every input file's SHA-256 is checked against the archive's manifest first: a file
+    already appended (or given twice) is refused with :class:`~spotkit.errors.InputError`
+    and nothing is written. The files are read by :func:`spotkit.ingest.iter_spot_chunks`
+    (duplicates removed across chunks and files of this call), each chunk is split by
+    partition and written as it comes, so peak memory is bounded by the chunk size. Rejected
+    rows are kept as ``<root>/_rejects/<token>.csv``. Files land in the archive only when all
+    inputs were read; on an error nothing is added.
+
+    Parameters
+    ----------
+    paths : str, path-like or sequence of them
+        Spot CSV files.
+    root : str or path-like
+        Archive directory (created if missing).
+    chunk_rows : int, optional
+        Rows per chunk.
+    memory_mb : float, optional
+        Memory cap [MiB]; sets ``chunk_rows`` by :func:`chunk_rows_for_memory` (the smaller
+        of the two when both are given). Default without either: 500,000 rows.
+    partition_by : sequence of {"band", "day"}
+        Partition keys (must match an existing archive).
+    progress : bool
+        Progress bar on stderr.
+    **read_kw
+        Keywords of :func:`spotkit.ingest.read_spots` (mapping, units, delimiter, header,
+        slot_minutes, region).
+
+    Returns
+    -------
+    spotkit.ingest.IngestSummary
+        Counts over all files; the manifest has one batch per file.
+    """
+    # The one call upwards (store is below ingest): imported here, so the archive writer
+    # itself does not depend on the reader.
+    from .ingest import IngestSummary, iter_spot_chunks
+
+    if isinstance(paths, (str, os.PathLike)):
+        paths = [paths]
+    paths = [Path(p) for p in paths]
+    if not paths:
+        raise UsageError("no input files given")
+    for p in paths:
+        if not p.is_file():
+            raise FileNotFoundError(f"{p}: no such file")
+    if memory_mb is not None:
+        by_mem = chunk_rows_for_memory(memory_mb, total_input_bytes=_input_bytes(paths))
+        chunk_rows = by_mem if chunk_rows is None else min(chunk_rows, by_mem)
+    elif chunk_rows is None:
+        chunk_rows = 500_000
+    root = Path(root)
+    manifest = _prepare_root(root, partition_by)
+    hashes = {}
+    for p in paths:
+        h = file_sha256(p)
+        _check_new_hash(root, manifest, h, str(p))
+        if h in hashes.values():
+            first = next(q for q, v in hashes.items() if v == h)
+            raise InputError(f"{p}: same content as {first} (SHA-256 {h[:12]}...); "
+                             "give each export once")
+        hashes[p] = h
+    summary = IngestSummary()
+    apps: dict[int, _Appender] = {}  # by position of the input file
+    rej_fhs: dict[int, Any] = {}
+    rej_counts: dict[int, int] = {}
+    try:
+        for spots, rejects in iter_spot_chunks(paths, chunk_rows=chunk_rows, summary=summary,
+                                               progress=progress, **read_kw):
+            i = len(summary.files) - 1
+            app = apps.get(i)
+            if app is None:
+                app = apps[i] = _Appender(root, partition_by, uuid.uuid4().hex[:12])
+            if len(spots):
+                app.write(_to_arrow(spots))
+            if len(rejects):
+                fh = rej_fhs.get(i)
+                if fh is None:
+                    (app.staging / REJECTS_DIR).mkdir(parents=True, exist_ok=True)
+                    fh = rej_fhs[i] = open(app.staging / REJECTS_DIR / f"{app.token}.csv", "w",
+                                           encoding="utf-8", newline="")
+                    rejects[C.REJECT_COLUMNS].iloc[:0].to_csv(fh, index=False)
+                rejects[C.REJECT_COLUMNS].to_csv(fh, index=False, header=False)
+                rej_counts[i] = rej_counts.get(i, 0) + len(rejects)
+        for fh in rej_fhs.values():
+            fh.close()
+        for app in apps.values():
+            app.close()
+    except BaseException:
+        for fh in rej_fhs.values():
+            fh.close()
+        for app in apps.values():
+            app.abort()
+        raise
+    for i, p in enumerate(paths):
+        app = apps.get(i) or _Appender(root, partition_by, uuid.uuid4().hex[:12])
+        rej_rel = None
+        if i in rej_fhs:
+            (root / REJECTS_DIR).mkdir(exist_ok=True)
+            rej_rel = f"{REJECTS_DIR}/{app.token}.csv"
+            os.replace(app.staging / rej_rel, root / rej_rel)
+        files = app.commit()
+        manifest["batches"].append({
+            "token": app.token, "sha256": hashes[p], "source": str(p), "rows": app.rows,
+            "rejected": rej_counts.get(i, 0), "rejects": rej_rel, "written_utc": _now(),
+            "files": files})
+    _write_manifest(root, manifest)
+    return summary
 
 
 def _now() -> str:
@@ -571,5 +786,5 @@ __all__ = [
     "DAY", "PARTITION_KEYS", "MANIFEST_NAME", "REJECTS_DIR", "ROW_GROUP_ROWS",
     "write_spots", "read_spots_parquet", "append_to_dataset", "read_dataset",
     "dataset_manifest", "dataset_filter", "file_sha256", "table_to_spots", "archive_files",
-    "read_archive_file",
+    "read_archive_file", "ingest_to_dataset", "chunk_rows_for_memory",
 ]

@@ -208,3 +208,73 @@ def test_empty_archive_reads_empty_table(tmp_path):
     store.append_to_dataset(make_spots(10).iloc[:0], root)
     got = store.read_dataset(root)
     assert len(got) == 0 and list(got.columns) == C.CANONICAL
+
+
+# --- archive ingest (bounded memory) ----------------------------------------------------------
+def spots_csv(df, path, extra_lines=()):
+    """Write a spot table as a plain CSV with generic headings; append raw extra lines."""
+    out = pd.DataFrame({
+        "time": df[C.TIME].dt.strftime("%Y-%m-%d %H:%M:%S"), "tx call": df[C.TX_CALL],
+        "tx locator": df[C.TX_LOCATOR], "rx call": df[C.RX_CALL],
+        "rx locator": df[C.RX_LOCATOR], "frequency hz": df[C.FREQ], "snr": df[C.SNR],
+        "power dbm": df[C.POWER], "drift": df[C.DRIFT]})
+    out.to_csv(path, index=False)
+    with open(path, "a") as fh:
+        for line in extra_lines:
+            fh.write(line + "\n")
+    return path
+
+
+def test_ingest_to_dataset_tiny_chunks_equals_in_memory(tmp_path):
+    from spotkit.ingest import read_spots
+
+    df = make_spots(700, seed=5)
+    dup = df.iloc[[3, 400]]  # duplicates far from their originals: across chunk borders
+    bad = ["2026-12-01 01:00:00,Q1ABC,ZZ99zz,Q2AA,JN58td,14097100,-10,37,0",
+           "2026-12-01 01:02:00,Q1ABC,JN58td,Q2AA,JN58td,14097100,-10,37,0"]
+    path = spots_csv(pd.concat([df, dup]), tmp_path / "a.csv", extra_lines=bad)
+    want = read_spots(path)  # in one go, in memory
+    assert want.summary.rejected >= 1 and want.summary.duplicates == 2
+    root = tmp_path / "arch"
+    summary = store.ingest_to_dataset(path, root, chunk_rows=37)
+    got = store.read_dataset(root)
+    assert_same_spots(got, want.spots)
+    assert (summary.rows_read, summary.accepted, summary.rejected, summary.duplicates) == (
+        want.summary.rows_read, want.summary.accepted, want.summary.rejected,
+        want.summary.duplicates)
+    batch = store.dataset_manifest(root)["batches"][0]
+    assert batch["sha256"] == store.file_sha256(path) and batch["rows"] == len(want.spots)
+    rejects = pd.read_csv(root / batch["rejects"])
+    assert batch["rejected"] == len(rejects) == want.summary.rejected
+    assert list(rejects[C.SOURCE_ROW]) == list(want.rejects[C.SOURCE_ROW])
+
+
+def test_ingest_to_dataset_refuses_same_file_and_appends_new(tmp_path):
+    a = spots_csv(make_spots(300, seed=6), tmp_path / "a.csv")
+    b = spots_csv(make_spots(200, seed=7, start="2026-12-02 00:00"), tmp_path / "b.csv")
+    root = tmp_path / "arch"
+    store.ingest_to_dataset(a, root, memory_mb=400)
+    files_before = sorted(p.name for p in root.rglob("*.parquet"))
+    copy = tmp_path / "renamed-copy.csv"
+    copy.write_bytes(a.read_bytes())
+    with pytest.raises(InputError, match="already in the archive"):
+        store.ingest_to_dataset([b, copy], root)  # refused before anything is written
+    assert sorted(p.name for p in root.rglob("*.parquet")) == files_before
+    with pytest.raises(InputError, match="same content"):
+        store.ingest_to_dataset([b, b], root)
+    store.ingest_to_dataset(b, root, chunk_rows=50)
+    man = store.dataset_manifest(root)
+    assert [m["source"] for m in man["batches"]] == [str(a), str(b)]
+    assert len(store.read_dataset(root)) == 500
+    assert len(store.read_dataset(root, start="2026-12-02")) == 200
+
+
+def test_chunk_rows_for_memory():
+    # budget formula (see the docstring): base + seen keys + chunk
+    rows = store.chunk_rows_for_memory(1000)
+    assert rows == int((1000 - store.BASE_MEMORY_MB) * 2**20 // store.CHUNK_BYTES_PER_ROW)
+    assert store.chunk_rows_for_memory(1000, total_input_bytes=6 * 10**8) < rows
+    with pytest.raises(UsageError, match="too small"):
+        store.chunk_rows_for_memory(store.BASE_MEMORY_MB)
+    with pytest.raises(UsageError, match="positive"):
+        store.chunk_rows_for_memory(-5)
