@@ -288,7 +288,7 @@ def test_wilson_matches_statsmodels():
 
 # ----------------------------------------------------------------------------- censored MLE
 def censor(x, lower_limit, upper_limit):
-    """Values below ``lower_limit`` become upper bounds there, above ``upper_limit`` lower bounds."""
+    """Below ``lower_limit``: upper bounds there; above ``upper_limit``: lower bounds there."""
     kinds = np.where(x < lower_limit, 1, np.where(x > upper_limit, -1, 0))
     vals = np.where(kinds == 1, lower_limit, np.where(kinds == -1, upper_limit, x))
     return vals, kinds
@@ -345,7 +345,7 @@ def test_censored_mle_whole_db_is_not_stuck_on_grid(rng):
     # the headline estimator on whole-dB data: true shift 0.3 dB, sigma 3 dB, exact values
     # reported in whole dB, bounds at -2.5 / +2.5 dB. The MLE is continuous: it returns
     # about 0.3 dB (tolerance 0.1 dB = 4 SE; the rounding of exact values biases it by
-    # about 0.02 dB here), clearly neither 0 nor 0.5 as the HL estimate must be.
+    # under 0.01 dB here), clearly neither 0 nor 0.5 as the HL estimate must be.
     z = rng.normal(0.3, 3.0, 20000)
     vals, kinds = censor(z, -2.5, 2.5)
     vals = np.where(kinds == 0, np.round(vals), vals)
