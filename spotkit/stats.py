@@ -859,6 +859,16 @@ def cluster_bootstrap_weights(n_clusters: int, n_boot: int, rng=None) -> np.ndar
                            size=int(n_boot)).astype(np.int64)
 
 
+def _nan_sd(r):
+    """SD (ddof=1) along axis 0 of the finite entries; NaN with fewer than two."""
+    ok = np.isfinite(r)
+    n = ok.sum(axis=0)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        m = np.where(ok, r, 0.0).sum(axis=0) / n
+        ss = np.where(ok, (r - m) ** 2, 0.0).sum(axis=0)
+        return np.where(n >= 2, np.sqrt(ss / (n - 1)), np.nan)
+
+
 def bootstrap_interval(replicates, estimate, confidence: float = 0.95,
                        method: IntervalMethod = "percentile"):
     """Confidence interval from bootstrap replicates.
@@ -893,13 +903,17 @@ def bootstrap_interval(replicates, estimate, confidence: float = 0.95,
         raise UsageError(f"confidence must be in (0, 1), got {confidence}")
     r = np.asarray(replicates, dtype=float)
     est = np.asarray(estimate, dtype=float)
+    if r.ndim not in (1, 2) or r.shape[0] == 0:
+        raise UsageError(f"replicates must have shape (n_boot,) or (n_boot, G), n_boot >= 1;"
+                         f" got {r.shape}")
     a = (1 - confidence) / 2
     with np.errstate(invalid="ignore"):
-        all_nan = np.all(np.isnan(r), axis=0)
+        n_fin = np.sum(np.isfinite(r), axis=0)
+        all_nan = n_fin < (2 if method == "normal" else 1)
         rr = np.where(all_nan, 0.0, r)  # avoid the all-NaN warning; result masked below
         if method == "normal":
             z = stats.norm.ppf(1 - a)
-            se = np.nanstd(rr, axis=0, ddof=1)
+            se = _nan_sd(rr)
             low, high = est - z * se, est + z * se
         else:
             q_lo, q_hi = np.nanquantile(rr, [a, 1 - a], axis=0)
@@ -939,8 +953,7 @@ def bootstrap_p_value(replicates, estimate):
     est = np.asarray(estimate, dtype=float)
     with np.errstate(invalid="ignore", divide="ignore"):
         finite = np.sum(np.isfinite(r), axis=0)
-        rr = np.where(finite >= 2, r, 0.0)
-        se = np.nanstd(rr, axis=0, ddof=1)
+        se = _nan_sd(r)
         p = 2 * stats.norm.sf(np.abs(est) / se)
     p = np.where((finite >= 2) & (se > 0) & np.isfinite(se) & np.isfinite(est), p, np.nan)
     return float(p) if np.ndim(p) == 0 else p

@@ -541,3 +541,19 @@ def test_bad_counts_raise_usage_error():
         S.sign_test([1.0, np.nan])
     with pytest.raises(UsageError):
         S.hodges_lehmann([1.0, 2.0], [1, 1, 1])
+
+
+def test_empty_and_degenerate_inputs_give_nan_not_warnings():
+    # pytest turns warnings into errors: these must be quiet NaNs
+    assert np.isnan(S.hodges_lehmann([]))
+    assert np.isnan(S.wilcoxon_signed_rank([]).p_value)
+    assert np.isnan(S.sign_test([]).p_value)
+    assert np.isnan(S.censored_normal_mle([], []).mu)
+    mu, sigma = S.censored_normal_mle_batch([], [], np.zeros((3, 0)))
+    assert np.all(np.isnan(mu)) and np.all(np.isnan(sigma))
+    assert S.hodges_lehmann_ci([1.0, 2.0]) == (-np.inf, np.inf)  # 95 % unreachable at n = 2
+    lo, hi = S.bootstrap_interval([[1.0, np.nan], [2.0, 3.0]], [1.5, 3.0], method="normal")
+    assert np.isfinite(lo[0]) and np.isnan(lo[1]) and np.isnan(hi[1])
+    assert np.isnan(S.bootstrap_p_value([1.0, np.nan], 1.0))
+    with pytest.raises(UsageError):
+        S.bootstrap_interval([], 1.0)
