@@ -3,6 +3,8 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 from scipy import stats as sps
 from statsmodels.stats.contingency_tables import mcnemar as sm_mcnemar
 from statsmodels.stats.multitest import multipletests
@@ -160,6 +162,21 @@ def test_hodges_lehmann_compressed_equals_expanded(rng):
         u, c = compress(d)
         assert S.hodges_lehmann(u, c) == brute_hl(d)
         assert S.hodges_lehmann_ci(u, c) == S.hodges_lehmann_ci(d)
+
+
+@settings(max_examples=60, deadline=None)
+@given(st.lists(st.integers(-8, 8), min_size=1, max_size=60))
+def test_rank_statistics_compressed_equal_expanded_property(xs):
+    # any whole-dB sample: the counts form gives the definitions' answers exactly
+    d = np.asarray(xs, dtype=float)
+    u, c = compress(d)
+    assert S.hodges_lehmann(u, c) == brute_hl(d)
+    a, b = S.wilcoxon_signed_rank(d), S.wilcoxon_signed_rank(u, c)
+    assert a.statistic == b.statistic and a.n == b.n
+    assert (np.isnan(a.p_value) and np.isnan(b.p_value)) or a.p_value == pytest.approx(b.p_value)
+    nz = d[d != 0]
+    if nz.size:
+        assert b.statistic == np.sum(sps.rankdata(np.abs(nz))[nz > 0])
 
 
 def test_hodges_lehmann_on_whole_db_is_half_db_grid(rng):
