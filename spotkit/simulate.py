@@ -1,0 +1,854 @@
+"""Spot simulator with known truth: invented stations, propagation and two antennas A and B.
+
+Model (each part a parameter; defaults in :class:`Propagation`):
+
+* Stations. Far stations are placed at random in a small built-in table of weighted lat/lon
+  boxes where amateur stations plausibly are (:data:`STATION_REGIONS`); each gets an
+  invented Q-prefix call, a 6-character locator (some 4-character), a noise-floor offset
+  (normal, ``noise_sd_db``), a decode threshold near -28 dB (some -30), the bands it listens
+  to and an uptime (each hour on the air with that probability).
+* Links. For every (transmitter site, receiver site) link on a band, per 2-minute slot:
+  the path is *open* when ``logit(band, distance, midpoint local hour) + daily condition +
+  latent`` is above zero, the latent being a slowly varying AR(1) process (so openings
+  last tens of minutes); the mean SNR at 1 W with isotropic antennas falls with distance
+  (``level_1000km - slope log10(d / 1000 km) - hop_loss * (hops - 1)``); a daily condition
+  factor per band shifts level and openness; *slow fading* (AR(1) per link, plus a
+  per-receiver component) is shared by everything on that link in the slot, *fast fading*
+  is independent per antenna and report.
+* Antennas. Gain tables over elevation and bearing (:mod:`spotkit.antenna`); the elevation
+  of a path comes from the mirror hop geometry (:func:`spotkit.geo.elevation_angle`).
+  ``SNR = P - 30 + G_tx + G_rx + level - noise + fading``; the report is the SNR rounded to
+  whole dB, kept only if at or above the receiver's threshold.
+* Designs: ``"simultaneous"`` (two calls, same slot), ``"alternating"`` (one call, antenna
+  by schedule), ``"receive"`` (two co-located receivers hearing a population of
+  transmitters), ``"before-after"`` (one call whose antenna changes at ``change_at``, with
+  control stations near home on the air).
+
+Truth. The true B-minus-A difference of a pair is the gain difference of the two antennas
+towards that far station (transmit designs: transmit gain; receive design: receive gain),
+in dB - i.e. the difference of the SNRs normalised to 1 W with the fading averaged out.
+:class:`Truth` keeps one row per pair in which at least one antenna was heard.
+
+Known error: this is a plausibility model for testing estimators, not a propagation
+prediction. The day/night term uses local mean solar time at the path midpoint (no season),
+there is one reflection height, no multipath beyond the fading terms, and the far
+stations' antennas are isotropic with a random gain folded into the noise offset.
+"""
+from __future__ import annotations
+
+import gzip
+import json
+import math
+from dataclasses import asdict, dataclass, field
+from pathlib import Path
+from typing import Literal
+
+import numpy as np
+import pandas as pd
+from scipy.signal import lfilter
+
+from . import columns as C
+from .antenna import Antenna, constant_difference, isotropic_antenna, make_antenna
+from .bands import BEACON_DIAL_KHZ, sort_bands
+from .errors import UsageError
+from .geo import add_path_columns, elevation_angle, geodesic_inverse, hop_count, path_midpoint
+from .locator import latlon_to_locator, locator_to_latlon
+from .units import POWER_LADDER_DBM
+
+Design = Literal["simultaneous", "alternating", "receive", "before-after"]
+DESIGNS = ("simultaneous", "alternating", "receive", "before-after")
+#: Default distance cells of :meth:`Truth.cells` [km].
+DEFAULT_DISTANCE_EDGES = (0.0, 1000.0, 3000.0, 6000.0, 20000.0)
+
+#: Where the far stations are placed: (region, lat_min, lat_max, lon_min, lon_max, weight)
+#: [deg]. Invented weights loosely following where amateur stations are numerous.
+STATION_REGIONS = pd.DataFrame(
+    [
+        ("western and central Europe", 43.0, 56.0, -5.0, 20.0, 0.30),
+        ("British Isles", 50.5, 57.5, -6.0, 1.0, 0.06),
+        ("Scandinavia", 56.0, 64.0, 8.0, 26.0, 0.05),
+        ("eastern Europe", 45.0, 58.0, 20.0, 40.0, 0.07),
+        ("Iberia", 37.0, 43.0, -8.5, -0.5, 0.03),
+        ("eastern North America", 33.0, 45.0, -90.0, -72.0, 0.17),
+        ("central North America", 30.0, 47.0, -105.0, -90.0, 0.05),
+        ("western North America", 34.0, 48.0, -123.0, -116.0, 0.06),
+        ("Japan", 33.0, 40.0, 131.0, 141.0, 0.05),
+        ("south-east Australia", -38.0, -28.0, 142.0, 153.0, 0.04),
+        ("New Zealand", -46.0, -36.0, 169.0, 176.0, 0.01),
+        ("south-east Brazil", -28.0, -20.0, -52.0, -43.0, 0.02),
+        ("Argentina", -38.0, -31.0, -64.0, -58.0, 0.01),
+        ("South Africa", -34.0, -26.0, 18.5, 31.0, 0.01),
+        ("India", 12.0, 28.0, 73.0, 86.0, 0.01),
+        ("eastern Asia", 22.0, 40.0, 105.0, 122.0, 0.02),
+        ("Caribbean", 17.5, 18.5, -67.0, -64.5, 0.01),
+        ("Middle East", 29.0, 36.0, 34.0, 50.0, 0.01),
+        ("Siberia", 52.0, 57.0, 60.0, 90.0, 0.02),
+    ],
+    columns=["region", "lat_min", "lat_max", "lon_min", "lon_max", "weight"],
+)
+
+# band -> (SNR at 1 W, 1000 km, isotropic [dB]; open logit at night; open logit by day;
+#          skip distance [km]) - invented, loosely after common practice on each band
+_BAND_MODEL = {
+    "2200m": (-28.0, -0.5, -3.0, 0.0), "630m": (-22.0, 0.0, -3.0, 0.0),
+    "160m": (-10.0, 0.5, -3.0, 0.0), "80m": (-8.0, 1.0, -1.5, 0.0),
+    "60m": (-8.0, 1.0, -0.5, 0.0), "40m": (-7.0, 1.5, 0.5, 200.0),
+    "30m": (-7.0, 1.0, 0.8, 400.0), "20m": (-8.0, -0.3, 1.8, 700.0),
+    "17m": (-9.0, -1.5, 1.5, 900.0), "15m": (-10.0, -2.5, 1.2, 1000.0),
+    "12m": (-11.0, -3.0, 1.0, 1100.0), "10m": (-12.0, -3.5, 0.9, 1200.0),
+    "6m": (-15.0, -5.0, -1.5, 1500.0),
+}
+
+
+@dataclass(frozen=True)
+class Propagation:
+    """Parameters of the propagation and reporting model.
+
+    Attributes
+    ----------
+    layer_height_km : float
+        Virtual reflection height of the hop geometry [km].
+    hop_loss_db : float
+        Extra loss per hop beyond the first [dB].
+    distance_slope_db : float
+        Fall of the mean SNR per decade of distance [dB/decade].
+    sigma_slow_db : float
+        Slow fading per link, shared by both antennas in a slot [dB].
+    slow_corr_minutes : float
+        Correlation time of the slow fading (AR(1)) [min].
+    sigma_receiver_db : float
+        Per receiver and slot fluctuation shared by all its paths (noise floor) [dB].
+    sigma_fast_db : float
+        Fast fading, independent per antenna and report [dB].
+    sigma_day_db : float
+        Daily condition factor per band [dB]; also shifts the openness logit by 0.3/dB.
+    open_sd : float
+        Spread of the latent openness process [logit units].
+    open_corr_minutes : float
+        Correlation time of openness [min].
+    skip_penalty : float
+        Openness penalty inside the skip distance [logit units] (at zero distance).
+    skip_loss_db : float
+        Signal loss inside the skip distance [dB] (at zero distance).
+    noise_sd_db : float
+        Spread of the receivers' noise-floor offsets [dB].
+    listen_fraction : float
+        Probability that a far receiver listens on a given band.
+    uptime_range : tuple of float
+        Range of the far receivers' uptime (probability of being on in an hour).
+    locator4_fraction : float
+        Fraction of far stations giving a 4-character locator.
+    """
+
+    layer_height_km: float = 300.0
+    hop_loss_db: float = 2.0
+    distance_slope_db: float = 12.0
+    sigma_slow_db: float = 4.0
+    slow_corr_minutes: float = 20.0
+    sigma_receiver_db: float = 1.5
+    sigma_fast_db: float = 1.5
+    sigma_day_db: float = 2.0
+    open_sd: float = 1.8
+    open_corr_minutes: float = 40.0
+    skip_penalty: float = 2.5
+    skip_loss_db: float = 10.0
+    noise_sd_db: float = 4.0
+    listen_fraction: float = 0.6
+    uptime_range: tuple = (0.5, 1.0)
+    locator4_fraction: float = 0.15
+
+
+# --- truth ------------------------------------------------------------------------------
+TRUTH_COLUMNS = [C.BAND, C.SLOT, C.TX_CALL, C.RX_CALL, C.DISTANCE, C.BEARING, C.ELEVATION,
+                 C.B_MINUS_A, C.HEARD_A, C.HEARD_B]
+
+
+@dataclass
+class Truth:
+    """The true B-minus-A difference of every simulated pair.
+
+    Attributes
+    ----------
+    pairs : pandas.DataFrame
+        One row per pair in which at least one antenna was heard: ``C.BAND``, ``C.SLOT``
+        (A's slot), ``C.TX_CALL``, ``C.RX_CALL``, ``C.DISTANCE`` [km], ``C.BEARING`` (from
+        the home station towards the far station) [deg], ``C.ELEVATION`` (hop geometry)
+        [deg], ``C.B_MINUS_A`` (true gain difference) [dB], ``C.HEARD_A``, ``C.HEARD_B``.
+    design, a, b : str
+        What was simulated.
+    """
+
+    pairs: pd.DataFrame
+    design: str = ""
+    a: str = ""
+    b: str = ""
+
+    @property
+    def overall(self) -> dict:
+        """Mean true B-minus-A [dB] over all pairs, with pair counts."""
+        p = self.pairs
+        ha, hb = p[C.HEARD_A].to_numpy(bool), p[C.HEARD_B].to_numpy(bool)
+        return {C.B_MINUS_A: float(p[C.B_MINUS_A].mean()) if len(p) else math.nan,
+                C.PAIRS: int(len(p)), C.BOTH: int((ha & hb).sum()),
+                C.ONLY_A: int((ha & ~hb).sum()), C.ONLY_B: int((~ha & hb).sum())}
+
+    def cells(self, distance_edges=DEFAULT_DISTANCE_EDGES, bearing_width_deg: float | None = None,
+              by_band: bool = True) -> pd.DataFrame:
+        """Mean true B-minus-A by band x distance [x bearing sector].
+
+        Parameters
+        ----------
+        distance_edges : sequence of float
+            Distance cell edges [km]; cells are [lo, hi).
+        bearing_width_deg : float, optional
+            Width of bearing sectors [deg] starting at 0 (sectors [lo, hi)); None: no split.
+        by_band : bool
+            Split by band.
+
+        Returns
+        -------
+        pandas.DataFrame
+            ``C.BAND`` (if by_band), ``C.DISTANCE_MIN``, ``C.DISTANCE_MAX`` [km],
+            [``C.BEARING_MIN``, ``C.BEARING_MAX`` [deg]], ``C.B_MINUS_A`` [dB] (mean true
+            difference over pairs where at least one antenna was heard) and ``C.PAIRS``;
+            empty cells are left out.
+        """
+        p = self.pairs
+        edges = np.asarray(distance_edges, dtype=float)
+        di = np.searchsorted(edges, p[C.DISTANCE].to_numpy(float), side="right") - 1
+        keep = (di >= 0) & (di < len(edges) - 1)
+        df = pd.DataFrame({C.DISTANCE_MIN: edges[np.clip(di, 0, len(edges) - 2)],
+                           C.DISTANCE_MAX: edges[np.clip(di + 1, 1, len(edges) - 1)],
+                           C.B_MINUS_A: p[C.B_MINUS_A].to_numpy(float)})
+        keys = [C.DISTANCE_MIN, C.DISTANCE_MAX]
+        if bearing_width_deg is not None:
+            w = float(bearing_width_deg)
+            lo = np.floor(np.mod(p[C.BEARING].to_numpy(float), 360.0) / w) * w
+            df[C.BEARING_MIN], df[C.BEARING_MAX] = lo, np.minimum(lo + w, 360.0)
+            keys += [C.BEARING_MIN, C.BEARING_MAX]
+        if by_band:
+            df.insert(0, C.BAND, p[C.BAND].astype(str).to_numpy())
+            keys = [C.BAND] + keys
+        df = df[keep]
+        out = df.groupby(keys, sort=True)[C.B_MINUS_A].agg(["mean", "size"]).reset_index()
+        out = out.rename(columns={"mean": C.B_MINUS_A, "size": C.PAIRS})
+        out[C.PAIRS] = out[C.PAIRS].astype("int64")
+        if by_band:
+            order = {b: i for i, b in enumerate(sort_bands(out[C.BAND]))}
+            out = out.sort_values([C.BAND] + keys[1:], key=lambda s: s.map(order)
+                                  if s.name == C.BAND else s, kind="stable")
+        return out.reset_index(drop=True)
+
+    def to_frame(self) -> pd.DataFrame:
+        """The pairs table."""
+        return self.pairs.copy()
+
+    def __str__(self) -> str:
+        o = self.overall
+        return (f"Truth({self.design}, A={self.a}, B={self.b}: true B-A "
+                f"{o[C.B_MINUS_A]:+.2f} dB over {o[C.PAIRS]:,} pairs)")
+
+    def to_json(self, path=None, include_pairs: bool = True) -> str:
+        """Serialise to JSON (``path`` ending in .gz is gzip-compressed); returns the text.
+
+        The document has ``design``, ``a``, ``b``, ``overall``, ``cells`` (by band and the
+        default distance cells) and, with ``include_pairs``, ``pairs`` as columns of
+        values (slots as ISO 8601 UTC text).
+        """
+        doc = {"design": self.design, "a": self.a, "b": self.b, "overall": self.overall,
+               "distance_edges_km": list(DEFAULT_DISTANCE_EDGES),
+               "cells": json.loads(self.cells().to_json(orient="records"))}
+        if include_pairs:
+            p = self.pairs
+            doc["pairs"] = {
+                C.BAND: p[C.BAND].astype(str).tolist(),
+                C.SLOT: pd.Series(p[C.SLOT]).dt.strftime("%Y-%m-%dT%H:%M:%SZ").tolist(),
+                C.TX_CALL: p[C.TX_CALL].astype(str).tolist(),
+                C.RX_CALL: p[C.RX_CALL].astype(str).tolist(),
+                C.DISTANCE: np.round(p[C.DISTANCE].to_numpy(float), 3).tolist(),
+                C.BEARING: np.round(p[C.BEARING].to_numpy(float), 3).tolist(),
+                C.ELEVATION: np.round(p[C.ELEVATION].to_numpy(float), 3).tolist(),
+                C.B_MINUS_A: np.round(p[C.B_MINUS_A].to_numpy(float), 4).tolist(),
+                C.HEARD_A: p[C.HEARD_A].astype(bool).astype(int).tolist(),
+                C.HEARD_B: p[C.HEARD_B].astype(bool).astype(int).tolist(),
+            }
+        text = json.dumps(doc, separators=(",", ":"))
+        if path is not None:
+            path = Path(path)
+            if path.suffix == ".gz":
+                with gzip.open(path, "wt", encoding="utf-8") as fh:
+                    fh.write(text)
+            else:
+                path.write_text(text, encoding="utf-8")
+        return text
+
+    @classmethod
+    def from_json(cls, source) -> "Truth":
+        """Read what :meth:`to_json` wrote: JSON text, or a path (.json or .json.gz)."""
+        if isinstance(source, (str, Path)) and not str(source).lstrip().startswith("{"):
+            path = Path(source)
+            opener = gzip.open if path.suffix == ".gz" else open
+            with opener(path, "rt", encoding="utf-8") as fh:
+                doc = json.load(fh)
+        else:
+            doc = json.loads(source)
+        pairs = doc.get("pairs")
+        if pairs is None:
+            raise ValueError("this truth JSON was written without its pairs")
+        df = pd.DataFrame(pairs)
+        if df.empty:
+            df = pd.DataFrame({c: [] for c in TRUTH_COLUMNS})
+        df[C.SLOT] = pd.to_datetime(df[C.SLOT], utc=True).astype(C.UTC_DTYPE)
+        for c in (C.HEARD_A, C.HEARD_B):
+            df[c] = df[c].astype(bool)
+        for c in (C.DISTANCE, C.BEARING, C.ELEVATION, C.B_MINUS_A):
+            df[c] = df[c].astype(float)
+        df[C.BAND] = df[C.BAND].astype("category")
+        return cls(df[TRUTH_COLUMNS], doc.get("design", ""), doc.get("a", ""),
+                   doc.get("b", ""))
+
+
+@dataclass
+class Simulation:
+    """One simulated experiment.
+
+    ``compare_antennas(sim.spots, sim.design, sim.a, sim.b, schedule=sim.schedule,
+    change_at=sim.change_at)`` compares it; ``sim.truth`` holds the right answer.
+
+    Attributes
+    ----------
+    spots : pandas.DataFrame
+        Canonical spot table (``C.CANONICAL``, glossary dtypes, enriched).
+    truth : Truth
+    design : str
+    a, b : str
+        Calls to pass to compare as A and B (the same call twice for the alternating and
+        before-after designs).
+    schedule : str or pandas.DataFrame or None
+        Alternating design: the switching schedule.
+    change_at : pandas.Timestamp or None
+        Before-after design: the moment of the change (UTC).
+    params : dict
+        The knobs used (JSON-friendly).
+    stations : pandas.DataFrame
+        Every simulated station: call, locator, lat, lon, role, threshold_db, noise_db.
+    """
+
+    spots: pd.DataFrame
+    truth: Truth
+    design: str
+    a: str
+    b: str
+    schedule: object = None
+    change_at: pd.Timestamp | None = None
+    params: dict = field(default_factory=dict)
+    stations: pd.DataFrame | None = None
+
+    def compare_kwargs(self) -> dict:
+        """Keyword arguments for ``compare_antennas`` besides the spots."""
+        return {"design": self.design, "a": self.a, "b": self.b, "schedule": self.schedule,
+                "change_at": self.change_at}
+
+    def __str__(self) -> str:
+        return (f"Simulation({self.design}: {len(self.spots):,} spots, A={self.a}, "
+                f"B={self.b}; {self.truth})")
+
+
+# --- stations -----------------------------------------------------------------------------
+def place_stations(n: int, rng: np.random.Generator, regions: pd.DataFrame | None = None):
+    """Random station positions from a weighted table of lat/lon boxes.
+
+    Parameters
+    ----------
+    n : int
+        Number of stations.
+    rng : numpy.random.Generator
+    regions : pandas.DataFrame, optional
+        Columns lat_min, lat_max, lon_min, lon_max [deg], weight; default
+        :data:`STATION_REGIONS`.
+
+    Returns
+    -------
+    lat, lon : numpy.ndarray
+        [deg].
+    """
+    reg = STATION_REGIONS if regions is None else regions
+    w = reg["weight"].to_numpy(float)
+    k = rng.choice(len(reg), size=n, p=w / w.sum())
+    lat = rng.uniform(reg["lat_min"].to_numpy()[k], reg["lat_max"].to_numpy()[k])
+    lon = rng.uniform(reg["lon_min"].to_numpy()[k], reg["lon_max"].to_numpy()[k])
+    return lat, lon
+
+
+def invent_calls(n: int, rng: np.random.Generator, exclude=()) -> np.ndarray:
+    """``n`` distinct invented callsigns with the Q prefix (never issued to amateurs)."""
+    letters = np.array(list("ABCDEFGHIJKLMNOPQRSTUVWXYZ"))
+    taken = {str(c).upper() for c in exclude}
+    out: list[str] = []
+    while len(out) < n:
+        m = 2 * (n - len(out)) + 10
+        digit = rng.integers(0, 10, m).astype(str)
+        k = rng.integers(2, 4, m)
+        suffix = ["".join(s[:j]) for s, j in zip(letters[rng.integers(0, 26, (m, 3))], k)]
+        for c in np.char.add(np.char.add("Q", digit), np.array(suffix)):
+            if c not in taken:
+                taken.add(c)
+                out.append(str(c))
+                if len(out) == n:
+                    break
+    return np.array(out, dtype=object)
+
+
+def _locators(lat, lon, rng, frac4):
+    loc = np.asarray(latlon_to_locator(lat, lon, precision=6), dtype=object)
+    short = rng.random(loc.size) < frac4
+    loc[short] = np.array([s[:4] for s in loc[short]], dtype=object)
+    return loc
+
+
+def _check_power(p, name):
+    p = float(p)
+    if not np.any(np.isclose(POWER_LADDER_DBM, p)):
+        raise UsageError(f"{name} {p:g} dBm is not on the customary power ladder "
+                         f"(0-60 dBm ending in 0, 3 or 7)")
+    return p
+
+
+def _resolve_antenna(spec, bands, name):
+    if isinstance(spec, Antenna):
+        return spec
+    if isinstance(spec, str):
+        try:
+            return make_antenna(spec, bands)
+        except ValueError as exc:
+            raise UsageError(f"{name}: {exc}") from None
+    raise UsageError(f"{name} must be an Antenna or one of isotropic, vertical, dipole")
+
+
+def _ar1(shape_cols, n, rho, rng, state):
+    """n steps of a unit-variance AR(1) per column, continuing from ``state``."""
+    e = rng.standard_normal((n, shape_cols))
+    y, zf = lfilter([math.sqrt(1.0 - rho * rho)], [1.0, -rho], e, axis=0,
+                    zi=(rho * state)[None, :])
+    return y, y[-1]
+
+
+def _day_weight(local_hour):
+    """Smooth day (1) / night (0) weight of local mean solar time [h]."""
+    return 0.5 * (1.0 + np.tanh(2.5 * np.cos(2.0 * np.pi * (local_hour - 12.5) / 24.0)))
+
+
+# --- the simulator --------------------------------------------------------------------------
+def simulate_spots(design: Design = "simultaneous", *, days: float = 3, seed: int = 0,
+                   start="2026-03-02", bands=("20m", "10m"), n_receivers: int = 300,
+                   n_transmitters: int = 200, n_controls: int = 6,
+                   home_locator: str = "JN58td", a: str | None = None, b: str | None = None,
+                   antenna_a="vertical", antenna_b="dipole", difference_db=None,
+                   difference_edges=None, power_a_dbm: float = 37.0,
+                   power_b_dbm: float = 37.0, tx_fraction: float | None = None,
+                   control_tx_fraction: float = 0.3, threshold_db: float | None = None,
+                   schedule="even-odd", change_at=None,
+                   propagation: Propagation | None = None) -> Simulation:
+    """Simulate the spot reports of an antenna experiment with a known answer.
+
+    Parameters
+    ----------
+    design : {"simultaneous", "alternating", "receive", "before-after"}
+        Experiment design (see the module docstring).
+    days : float
+        Length of the run [days]; rounded to whole slots.
+    seed : int
+        Seed of the random generator: the same seed gives the same result.
+    start : str or Timestamp
+        First day (UTC); the run starts at 00:00 UTC of that day.
+    bands : sequence of str
+        Bands, e.g. ("20m", "10m"); each band is an independent transmitter/receiver.
+    n_receivers : int
+        Far receivers (transmit designs).
+    n_transmitters : int
+        Far transmitters (receive design).
+    n_controls : int
+        Control stations near home (before-after design).
+    home_locator : str
+        Locator of the station under test (a real grid square).
+    a, b : str, optional
+        Calls of A and B. Defaults: Q1ABC and Q1ABD (simultaneous: two transmitters;
+        receive: two receivers); Q1ABC for both in the alternating and before-after designs.
+    antenna_a, antenna_b : Antenna or {"isotropic", "vertical", "dipole"}
+        The two antennas (vertical: ground-mounted quarter-wave with radials; dipole: half
+        wave at 10 m, wire north-south).
+    difference_db : float or mapping, optional
+        If given, B is A plus this exact difference [dB] (see
+        :func:`spotkit.antenna.constant_difference`); A is isotropic unless ``antenna_a``
+        is an :class:`~spotkit.antenna.Antenna`.
+    difference_edges : sequence of float, optional
+        Distance cell edges [km] for per-cell differences.
+    power_a_dbm, power_b_dbm : float
+        Transmit powers of A and B [dBm], from the customary ladder (transmit designs).
+    tx_fraction : float, optional
+        Fraction of slots a transmitter is on the air: default 0.25 (1.0 for the
+        alternating design, where it applies to each A/B slot pair).
+    control_tx_fraction : float
+        Same for the control stations of the before-after design.
+    threshold_db : float, optional
+        Decode threshold of every receiver [dB]; default: per far receiver -28 (60 %),
+        -29 (10 %), -30 (25 %) or -27 (5 %), and -28 for the home receivers.
+    schedule : str or pandas.DataFrame
+        Alternating design: "even-odd" (A in slots whose index since 00:00 UTC is even),
+        "odd-even", "every-N", or a table of start, end, antenna [, band].
+    change_at : str or Timestamp, optional
+        Before-after design: moment of the change (UTC); default the middle day's 00:00.
+    propagation : Propagation, optional
+        Model parameters.
+
+    Returns
+    -------
+    Simulation
+
+    Raises
+    ------
+    ValueError
+        Unknown design.
+    UsageError
+        Inconsistent arguments (power not on the ladder, unknown band, ...).
+    """
+    if design not in DESIGNS:
+        raise ValueError(f"unknown design {design!r}; valid: {', '.join(DESIGNS)}")
+    prop = propagation or Propagation()
+    rng = np.random.default_rng(seed)
+    bands = [str(x) for x in ([bands] if isinstance(bands, str) else bands)]
+    for band in bands:
+        if band not in _BAND_MODEL:
+            raise UsageError(f"unknown band {band!r}; valid: {', '.join(_BAND_MODEL)}")
+    if days <= 0:
+        raise UsageError("days must be positive")
+    t0 = pd.Timestamp(start)
+    t0 = (t0.tz_localize("UTC") if t0.tz is None else t0.tz_convert("UTC")).normalize()
+    slot_ns = C.SLOT_MINUTES * 60 * 10**9
+    n_slots = int(round(days * 24 * 60 / C.SLOT_MINUTES))
+    slots = pd.DatetimeIndex(t0 + pd.to_timedelta(np.arange(n_slots) * slot_ns, unit="ns"))
+    slot_ns_arr = slots.asi8 if slots.unit == "ns" else slots.as_unit("ns").asi8
+    transmit = design != "receive"
+    single = design in ("alternating", "before-after")
+    a = (a or "Q1ABC").strip().upper()
+    b = (b or (a if single else ("Q1ABD" if a != "Q1ABD" else "Q1ABE"))).strip().upper()
+    if single and b != a:
+        raise UsageError(f"the {design} design uses one call for A and B (got {a}, {b})")
+    if not single and b == a:
+        raise UsageError(f"the {design} design needs two different calls for A and B")
+    power_a = _check_power(power_a_dbm, "power_a_dbm")
+    power_b = _check_power(power_b_dbm, "power_b_dbm")
+    if tx_fraction is None:
+        tx_fraction = 1.0 if design == "alternating" else 0.25
+    if not 0 < tx_fraction <= 1:
+        raise UsageError("tx_fraction must be in (0, 1]")
+    ant_a = _resolve_antenna(antenna_a, bands, "antenna_a") if (
+        difference_db is None or isinstance(antenna_a, Antenna)) else isotropic_antenna()
+    ant_b = (constant_difference(ant_a, difference_db, difference_edges, name="A + difference")
+             if difference_db is not None else _resolve_antenna(antenna_b, bands, "antenna_b"))
+    if design == "before-after":
+        if change_at is None:
+            change_at = t0 + pd.Timedelta(days=max(1, int(days // 2))) if days >= 2 \
+                else t0 + pd.Timedelta(minutes=C.SLOT_MINUTES * (n_slots // 2))
+        change_at = pd.Timestamp(change_at)
+        change_at = change_at.tz_localize("UTC") if change_at.tz is None \
+            else change_at.tz_convert("UTC")
+    else:
+        change_at = None
+
+    # --- stations ------------------------------------------------------------------------
+    home_lat, home_lon = locator_to_latlon(home_locator)
+    home_loc = str(home_locator)
+    n_far = n_receivers if transmit else n_transmitters
+    far_calls = invent_calls(n_far + (n_controls if design == "before-after" else 0), rng,
+                             exclude=(a, b))
+    flat, flon = place_stations(n_far, rng)
+    far_loc = _locators(flat, flon, rng, prop.locator4_fraction)
+    if threshold_db is None:
+        far_thr = rng.choice([-28.0, -29.0, -30.0, -27.0], size=n_far,
+                             p=[0.60, 0.10, 0.25, 0.05])
+        home_thr = -28.0
+    else:
+        far_thr = np.full(n_far, float(threshold_db))
+        home_thr = float(threshold_db)
+    far_noise = rng.normal(0.0, prop.noise_sd_db, n_far)
+    far_listen = rng.random((n_far, len(bands))) < prop.listen_fraction
+    far_uptime = rng.uniform(*prop.uptime_range, n_far)
+    far_cal = rng.integers(-3, 4, n_far)
+    far_calls, ctrl_calls = far_calls[:n_far], far_calls[n_far:]
+
+    # sites (index 0 = home) and the emissions / listeners on them
+    stations = []
+    if transmit:
+        ctrl_lat = home_lat + rng.uniform(-3.0, 3.0, len(ctrl_calls))
+        ctrl_lon = home_lon + rng.uniform(-5.0, 5.0, len(ctrl_calls))
+        ctrl_loc = _locators(ctrl_lat, ctrl_lon, rng, prop.locator4_fraction)
+        tx_loc = np.array([home_loc, *ctrl_loc], dtype=object)
+        rx_loc = far_loc
+        offs = rng.integers(1400, 1601, 2 + len(ctrl_calls))
+        em = {"call": [a, b], "site": [0, 0], "antenna": [ant_a, ant_b],
+              "power": [power_a, power_b], "offset": [offs[0], offs[0] if single else offs[1]]}
+        for i, c in enumerate(ctrl_calls):
+            em["call"].append(c)
+            em["site"].append(1 + i)
+            em["antenna"].append(isotropic_antenna(float(rng.normal(0.0, 2.0))))
+            em["power"].append(float(rng.choice([30.0, 33.0, 37.0, 40.0])))
+            em["offset"].append(offs[2 + i])
+        li = {"call": far_calls, "site": np.arange(n_far), "threshold": far_thr,
+              "noise": far_noise, "cal": far_cal, "listen": far_listen, "uptime": far_uptime,
+              "antenna": [None] * n_far}
+        stations.append(pd.DataFrame({"call": [a] + ([] if single else [b]),
+                                      "locator": home_loc, "role": "home transmitter"}))
+        stations.append(pd.DataFrame({"call": ctrl_calls, "locator": ctrl_loc,
+                                      "role": "control transmitter"}))
+        stations.append(pd.DataFrame({"call": far_calls, "locator": far_loc,
+                                      "role": "receiver", "threshold_db": far_thr,
+                                      "noise_db": far_noise}))
+    else:
+        tx_loc = far_loc
+        rx_loc = np.array([home_loc], dtype=object)
+        far_power = rng.choice([23.0, 30.0, 33.0, 37.0, 40.0], size=n_far,
+                               p=[0.25, 0.2, 0.2, 0.25, 0.1])
+        em = {"call": list(far_calls), "site": list(range(n_far)),
+              "antenna": [isotropic_antenna(float(g)) for g in rng.normal(0.0, 2.0, n_far)],
+              "power": list(far_power), "offset": list(rng.integers(1400, 1601, n_far))}
+        li = {"call": np.array([a, b], dtype=object), "site": np.array([0, 0]),
+              "threshold": np.array([home_thr, home_thr]), "noise": np.zeros(2),
+              "cal": np.zeros(2, dtype=int), "listen": np.ones((2, len(bands)), bool),
+              "uptime": np.ones(2), "antenna": [ant_a, ant_b]}
+        stations.append(pd.DataFrame({"call": [a, b], "locator": home_loc,
+                                      "role": "home receiver", "threshold_db": home_thr,
+                                      "noise_db": 0.0}))
+        stations.append(pd.DataFrame({"call": far_calls, "locator": far_loc,
+                                      "role": "transmitter", "power_dbm": far_power}))
+    stations = pd.concat(stations, ignore_index=True)
+    slat, slon = locator_to_latlon(stations["locator"].to_numpy(dtype=object))
+    stations.insert(2, "lat", slat)
+    stations.insert(3, "lon", slon)
+
+    # --- link geometry (per distinct tx site x rx site) ---------------------------------------
+    tla, tlo = locator_to_latlon(tx_loc)
+    rla, rlo = locator_to_latlon(rx_loc)
+    la1, lo1, la2, lo2 = np.broadcast_arrays(tla[:, None], tlo[:, None], rla[None, :],
+                                             rlo[None, :])
+    s_m, az, rev = geodesic_inverse(la1, lo1, la2, lo2)
+    dist = np.asarray(s_m, float) / 1000.0
+    elev = np.asarray(elevation_angle(dist, prop.layer_height_km), float)
+    hops = np.asarray(hop_count(dist, prop.layer_height_km), float)
+    _, mid_lon = path_midpoint(la1.ravel(), lo1.ravel(), la2.ravel(), lo2.ravel())
+    mid_lon = np.asarray(mid_lon, float).reshape(dist.shape)
+    n_t, n_r = dist.shape
+
+    e_site = np.asarray(em["site"])
+    e_power = np.asarray(em["power"], float)
+    l_site = np.asarray(li["site"])
+    n_e, n_l = len(e_site), len(l_site)
+    d_el = dist[e_site[:, None], l_site[None, :]]
+    el_el = elev[e_site[:, None], l_site[None, :]]
+    az_el = az[e_site[:, None], l_site[None, :]]
+    rev_el = rev[e_site[:, None], l_site[None, :]]
+    gains = {}
+    for band in bands:
+        g_tx = np.stack([em["antenna"][e].gain_db(band, el_el[e], az_el[e], d_el[e])
+                         for e in range(n_e)])
+        g_rx = np.zeros((n_e, n_l))
+        for j, ant in enumerate(li["antenna"]):
+            if ant is not None:
+                g_rx[:, j] = ant.gain_db(band, el_el[:, j], rev_el[:, j], d_el[:, j])
+        gains[band] = (g_tx, g_rx)
+
+    # --- who is on the air ----------------------------------------------------------------------
+    on = {}
+    for band in bands:
+        if design == "simultaneous":
+            both = rng.random(n_slots) < tx_fraction
+            on_b = np.stack([both, both], axis=1)
+        elif design == "alternating":
+            from .pairing import schedule_antennas
+
+            ant = schedule_antennas(slots, np.full(n_slots, band, dtype=object), schedule)
+            pair_on = rng.random((n_slots + 1) // 2) < tx_fraction
+            live = np.repeat(pair_on, 2)[:n_slots]
+            on_b = np.stack([live & (ant == 0), live & (ant == 1)], axis=1)
+        elif design == "before-after":
+            live = rng.random(n_slots) < tx_fraction
+            after = slot_ns_arr >= change_at.value
+            ctrl = rng.random((n_slots, len(ctrl_calls))) < control_tx_fraction
+            on_b = np.column_stack([live & ~after, live & after, ctrl])
+        else:
+            on_b = rng.random((n_slots, n_e)) < tx_fraction
+        on[band] = on_b
+    cond = {band: rng.normal(0.0, prop.sigma_day_db, int(math.ceil(days)) + 1)
+            for band in bands}
+    n_hours = int(math.ceil(n_slots * C.SLOT_MINUTES / 60)) + 1
+    up_hour = rng.random((n_hours, n_l)) < np.asarray(li["uptime"])[None, :]
+
+    # --- slots, chunk by chunk (one day at a time) ---------------------------------------------
+    rho_slow = math.exp(-C.SLOT_MINUTES / prop.slow_corr_minutes)
+    rho_open = math.exp(-C.SLOT_MINUTES / prop.open_corr_minutes)
+    per_day = 24 * 60 // C.SLOT_MINUTES
+    records = []
+    for bi, band in enumerate(bands):
+        lvl0, night, day, skip = _BAND_MODEL[band]
+        level = (lvl0 - prop.distance_slope_db * np.log10(np.maximum(dist, 50.0) / 1000.0)
+                 - prop.hop_loss_db * (hops - 1.0))
+        skip_term = np.where(dist < skip, -prop.skip_penalty * (1.0 - dist / max(skip, 1.0)),
+                             0.0)
+        level = level + np.where(dist < skip, -prop.skip_loss_db * (1.0 - dist / max(skip, 1.0)),
+                                 0.0)
+        far_term = -np.maximum(dist - 12000.0, 0.0) / 3000.0
+        g_tx, g_rx = gains[band]
+        static = (e_power[:, None] - 30.0 + g_tx + g_rx
+                  - np.asarray(li["noise"], float)[None, :])
+        listen_band = np.asarray(li["listen"])[:, bi]
+        st_slow = rng.standard_normal(n_t * n_r)
+        st_open = rng.standard_normal(n_t * n_r)
+        st_rx = rng.standard_normal(n_r)
+        for c0 in range(0, n_slots, per_day):
+            c1 = min(c0 + per_day, n_slots)
+            ns = c1 - c0
+            slow, st_slow = _ar1(n_t * n_r, ns, rho_slow, rng, st_slow)
+            lat_open, st_open = _ar1(n_t * n_r, ns, rho_open, rng, st_open)
+            common, st_rx = _ar1(n_r, ns, rho_slow, rng, st_rx)
+            slow = slow.reshape(ns, n_t, n_r)
+            lat_open = lat_open.reshape(ns, n_t, n_r)
+            hour_utc = ((slot_ns_arr[c0:c1] // 10**9) % 86400) / 3600.0
+            w = _day_weight(np.mod(hour_utc[:, None, None] + mid_lon[None] / 15.0, 24.0))
+            cday = cond[band][c0 // per_day]
+            logit = night + (day - night) * w + skip_term + far_term + 0.3 * cday
+            is_open = logit + prop.open_sd * lat_open > 0.0
+            lvl = (level[None] + cday + prop.sigma_slow_db * slow
+                   + prop.sigma_receiver_db * common[:, None, :])
+            ix_t, ix_r = e_site[:, None], l_site[None, :]
+            snr = (lvl[:, ix_t, ix_r] + static[None]
+                   + prop.sigma_fast_db * rng.standard_normal((ns, n_e, n_l)))
+            snr = np.round(snr)
+            hour_idx = (np.arange(c0, c1) * C.SLOT_MINUTES) // 60
+            listening = up_hour[hour_idx] & listen_band[None, :]
+            heard = (is_open[:, ix_t, ix_r] & on[band][c0:c1][:, :, None]
+                     & listening[:, None, :] & (snr >= np.asarray(li["threshold"])[None, None]))
+            s_i, e_i, l_i = np.nonzero(heard)
+            records.append(pd.DataFrame({"slot": s_i + c0, "band": bi, "e": e_i, "l": l_i,
+                                         "snr": snr[s_i, e_i, l_i]}))
+    rec = pd.concat(records, ignore_index=True)
+
+    spots = _build_spots(rec, em, li, tx_loc, rx_loc, bands, slots, rng)
+    truth_pairs = _build_truth(design, rec, on, gains, bands, slots, em, li, dist, az, rev,
+                               elev, e_site, l_site)
+    params = {
+        "design": design, "days": days, "seed": seed, "start": t0.isoformat(),
+        "bands": bands, "n_receivers": n_receivers, "n_transmitters": n_transmitters,
+        "n_controls": n_controls if design == "before-after" else 0,
+        "home_locator": home_loc, "a": a, "b": b, "antenna_a": ant_a.name,
+        "antenna_b": ant_b.name, "difference_db": difference_db,
+        "difference_edges": None if difference_edges is None else list(difference_edges),
+        "power_a_dbm": power_a, "power_b_dbm": power_b, "tx_fraction": tx_fraction,
+        "threshold_db": threshold_db,
+        "schedule": schedule if isinstance(schedule, str) else "table",
+        "change_at": None if change_at is None else change_at.isoformat(),
+        "propagation": asdict(prop),
+    }
+    truth = Truth(truth_pairs, design, a, b)
+    return Simulation(spots=spots, truth=truth, design=design, a=a, b=b,
+                      schedule=schedule if design == "alternating" else None,
+                      change_at=change_at, params=params, stations=stations)
+
+
+def _build_spots(rec, em, li, tx_loc, rx_loc, bands, slots, rng) -> pd.DataFrame:
+    e = rec["e"].to_numpy()
+    lidx = rec["l"].to_numpy()
+    e_site = np.asarray(em["site"])
+    band_names = np.asarray(bands, dtype=object)[rec["band"].to_numpy()]
+    dial = np.array([BEACON_DIAL_KHZ[bb] * 1000.0 for bb in bands])[rec["band"].to_numpy()]
+    freq = dial + np.asarray(em["offset"], float)[e] + np.asarray(li["cal"], float)[lidx]
+    t = pd.Series(slots[rec["slot"].to_numpy()])
+    n = len(rec)
+    df = pd.DataFrame({
+        C.TIME: t, C.SLOT: t,
+        C.TX_CALL: np.asarray(em["call"], dtype=object)[e],
+        C.TX_LOCATOR: np.asarray(tx_loc, dtype=object)[e_site[e]],
+        C.RX_CALL: np.asarray(li["call"], dtype=object)[lidx],
+        C.RX_LOCATOR: np.asarray(rx_loc, dtype=object)[np.asarray(li["site"])[lidx]],
+        C.FREQ: freq, C.BAND: band_names, C.SNR: rec["snr"].to_numpy(float),
+        C.POWER: np.asarray(em["power"], float)[e],
+        C.DRIFT: rng.choice([0.0, 1.0, -1.0], size=n, p=[0.9, 0.05, 0.05]),
+    })
+    df = df.sort_values([C.SLOT, C.BAND, C.TX_CALL, C.RX_CALL], kind="stable")
+    df = add_path_columns(df.reset_index(drop=True))
+    df[C.SOURCE_FILE] = "simulated"
+    df[C.SOURCE_ROW] = np.arange(1, n + 1, dtype=np.int64)
+    return C.apply_dtypes(df[C.CANONICAL])
+
+
+def _build_truth(design, rec, on, gains, bands, slots, em, li, dist, az, rev, elev,
+                 e_site, l_site) -> pd.DataFrame:
+    """One row per pair where at least one antenna was heard, with the true B-A gain."""
+    if design == "receive":
+        # pair = (band, slot, transmitter e); A/B are listeners 0/1
+        ka = rec[rec["l"] == 0][["band", "slot", "e"]]
+        kb = rec[rec["l"] == 1][["band", "slot", "e"]]
+        m = ka.assign(_a=True).merge(kb.assign(_b=True), how="outer", on=["band", "slot", "e"])
+        far = m["e"].to_numpy()
+        diff = np.empty(len(m))
+        for bi, band in enumerate(bands):
+            sel = m["band"].to_numpy() == bi
+            g_rx = gains[band][1]
+            diff[sel] = (g_rx[:, 1] - g_rx[:, 0])[far[sel]]
+        t_site, r_site = e_site[far], np.zeros(len(m), dtype=int)
+        bearing = rev[t_site, r_site]  # from home (receiver) towards the transmitter
+        tx_call = np.asarray(em["call"], dtype=object)[far]
+        rx_call = np.full(len(m), li["call"][0], dtype=object)
+    else:
+        tgt = rec[rec["e"] <= 1][["band", "slot", "e", "l"]]
+        if design == "alternating":
+            # A in slot s pairs with B in slot s + 1 when B is on the air there
+            ka = tgt[tgt["e"] == 0].drop(columns="e")
+            kb = tgt[tgt["e"] == 1].drop(columns="e")
+            ok_a = np.zeros(len(ka), bool)
+            for bi, band in enumerate(bands):
+                on_b = np.append(on[band][:, 1], False)
+                sel = ka["band"].to_numpy() == bi
+                ok_a[sel] = on_b[ka["slot"].to_numpy()[sel] + 1]
+            ka = ka[ok_a]
+            prev_ok = np.zeros(len(kb), bool)
+            for bi, band in enumerate(bands):
+                on_a = np.concatenate([[False], on[band][:, 0]])
+                sel = kb["band"].to_numpy() == bi
+                prev_ok[sel] = on_a[kb["slot"].to_numpy()[sel]]
+            kb = kb[prev_ok].assign(slot=lambda d: d["slot"] - 1)
+            m = ka.assign(_a=True).merge(kb.assign(_b=True), how="outer",
+                                         on=["band", "slot", "l"])
+        elif design == "simultaneous":
+            ka = tgt[tgt["e"] == 0].drop(columns="e")
+            kb = tgt[tgt["e"] == 1].drop(columns="e")
+            m = ka.assign(_a=True).merge(kb.assign(_b=True), how="outer",
+                                         on=["band", "slot", "l"])
+        else:  # before-after: every heard report of the target, A before, B after
+            m = tgt.assign(_a=tgt["e"] == 0, _b=tgt["e"] == 1).drop(columns="e")
+        far = m["l"].to_numpy()
+        diff = np.empty(len(m))
+        for bi, band in enumerate(bands):
+            sel = m["band"].to_numpy() == bi
+            g_tx = gains[band][0]
+            diff[sel] = (g_tx[1] - g_tx[0])[far[sel]]
+        t_site, r_site = np.zeros(len(m), dtype=int), l_site[far]
+        bearing = az[t_site, r_site]
+        tx_call = np.full(len(m), em["call"][0], dtype=object)
+        rx_call = np.asarray(li["call"], dtype=object)[far]
+    out = pd.DataFrame({
+        C.BAND: pd.Categorical(np.asarray(bands, dtype=object)[m["band"].to_numpy()]),
+        C.SLOT: pd.Series(slots[m["slot"].to_numpy()]),
+        C.TX_CALL: tx_call, C.RX_CALL: rx_call,
+        C.DISTANCE: dist[t_site, r_site], C.BEARING: bearing,
+        C.ELEVATION: elev[t_site, r_site], C.B_MINUS_A: diff,
+        C.HEARD_A: m["_a"].fillna(False).astype(bool).to_numpy(),
+        C.HEARD_B: m["_b"].fillna(False).astype(bool).to_numpy(),
+    })
+    return out.sort_values([C.SLOT, C.BAND, C.RX_CALL, C.TX_CALL],
+                           kind="stable").reset_index(drop=True)
+
+
+__all__ = [
+    "DESIGNS", "DEFAULT_DISTANCE_EDGES", "STATION_REGIONS", "Propagation", "Truth",
+    "Simulation", "place_stations", "invent_calls", "simulate_spots",
+]
