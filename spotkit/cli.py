@@ -100,22 +100,163 @@ def _cmd_compare(args) -> int:
 
 
 # --- map / plot --------------------------------------------------------------------------
+def _add_figure_options(p, kinds, help_kind):
+    """Options shared by ``map`` and ``plot``: input, kind, output, bands and the A/B design
+    (the same meaning as in ``spotkit compare``)."""
+    p.add_argument("spots", metavar="SPOTS", help="spot table: Parquet from 'spotkit ingest' "
+                   "or a spot CSV")
+    p.add_argument("--kind", required=True, choices=kinds, help=help_kind)
+    p.add_argument("-o", "--output", required=True, metavar="OUT.png",
+                   help="picture to write; PNG or SVG by the suffix")
+    p.add_argument("--band", action="append", default=[], metavar="BAND",
+                   help="only this band, e.g. 10m (repeat or comma-separate for several)")
+    p.add_argument("--dpi", type=int, default=150, help="resolution of a PNG (default 150)")
+    g = p.add_argument_group("A/B comparison (kinds that compare two antennas)")
+    g.add_argument("--design", choices=["simultaneous", "alternating", "receive",
+                                        "before-after"], help="experiment design")
+    g.add_argument("--a", metavar="CALL", help="call of antenna A (see spotkit compare)")
+    g.add_argument("--b", metavar="CALL", help="call of antenna B")
+    g.add_argument("--schedule", metavar="even-odd|FILE", help="alternating design schedule")
+    g.add_argument("--change-at", metavar="TIME", help="before-after design: change time (UTC)")
+    g.add_argument("--distance-edges", metavar="KM,KM,...",
+                   help="distance bin edges [km] (default 0,1000,3000,6000,20100)")
+    g.add_argument("--bearing-width", type=float, default=45.0,
+                   help="bearing sector width [deg] (default 45)")
+    g.add_argument("--boot", type=int, default=1000, help="bootstrap resamples (default 1000)")
+    g.add_argument("--seed", type=int, default=0, help="bootstrap seed (default 0)")
+    g.add_argument("--min-pairs", type=int, default=30,
+                   help="fewest pairs for a group estimate (default 30)")
+
+
+def _figure_bands(args):
+    bands = [b.strip() for text in args.band for b in text.split(",") if b.strip()]
+    return bands or None
+
+
+def _figure_compare(args, spots, by):
+    """Run compare_antennas for a figure that needs it (the A/B options are checked here)."""
+    from .compare import compare_antennas
+
+    if not args.design or not args.a:
+        raise UsageError(f"--kind {args.kind} compares two antennas: give --design and --a "
+                         "(and --b, --schedule or --change-at as the design needs)")
+    kw = {}
+    if args.distance_edges:
+        try:
+            kw["distance_edges"] = [float(x) for x in args.distance_edges.split(",")]
+        except ValueError:
+            raise UsageError(f"--distance-edges must be numbers separated by commas, got "
+                             f"{args.distance_edges!r}") from None
+    if getattr(args, "hour_basis", None):
+        kw["hour"] = args.hour_basis
+    return compare_antennas(spots, args.design, args.a, args.b, schedule=args.schedule,
+                            change_at=args.change_at, by=by,
+                            bearing_width_deg=args.bearing_width, n_boot=args.boot,
+                            seed=args.seed, min_pairs=args.min_pairs, **kw)
+
+
+def _save_figure(fig, path, dpi) -> int:
+    from pathlib import Path
+
+    suffix = Path(path).suffix.lower()
+    if suffix not in (".png", ".svg"):
+        raise UsageError(f"output must end in .png or .svg, got {path!r}")
+    fig.savefig(path, dpi=dpi, format=suffix[1:])
+    import matplotlib.pyplot as plt
+
+    plt.close(fig)
+    print(f"wrote {path}")
+    return EXIT_OK
+
+
 def _add_map(sub):
-    p = sub.add_parser("map", help="draw coverage, difference or reach maps")
+    p = sub.add_parser(
+        "map", help="draw coverage, difference or reach maps",
+        description="Draw a map, offline: coverage (far stations by band coloured by SNR per "
+        "watt), difference (B minus A per receiver / locator square / field, solid where the "
+        "95 %% CI excludes 0) or reach (what A and B reached). Difference and reach need the "
+        "A/B options.")
+    _add_figure_options(p, ["coverage", "difference", "reach"], "which map")
+    p.add_argument("--home", metavar="LOCATOR", help="map centre (default: the station "
+                   "under test)")
+    p.add_argument("--projection", choices=["azimuthal", "world"], default="azimuthal",
+                   help="azimuthal equidistant on home (default) or an Equal Earth world map")
+    p.add_argument("--paths", action="store_true", help="coverage: draw great-circle paths")
+    p.add_argument("--level", choices=["receiver", "square", "field"], default="field",
+                   help="difference: one estimate per receiver, locator square or field "
+                   "(default field)")
+    p.add_argument("--layout", choices=["side", "overlay"], default="side",
+                   help="reach: A and B side by side (default) or overlaid")
+    p.add_argument("--resolution", choices=["110m", "50m", "10m"], default="110m",
+                   help="land layer: 110m is shipped; 50m/10m are downloaded by cartopy once")
     p.set_defaults(func=_cmd_map)
 
 
 def _cmd_map(args) -> int:
-    raise UsageError("spotkit map is not available yet")
+    from . import maps
+    from .ingest import load_spots
+
+    spots = load_spots(args.spots)
+    bands = _figure_bands(args)
+    common = dict(home=args.home, projection=args.projection, resolution=args.resolution)
+    if args.kind == "coverage":
+        fig = maps.coverage_map(spots, bands=bands, paths=args.paths, **common)
+    elif args.kind == "difference":
+        result = _figure_compare(args, spots, ("band", args.level))
+        if bands and len(bands) == 1:
+            bands = bands[0]
+        fig = maps.difference_map(result, band=bands, **common)
+    else:
+        from .pairing import pair_spots
+
+        if not args.design or not args.a:
+            raise UsageError("--kind reach compares two antennas: give --design and --a")
+        pairs = pair_spots(spots, args.design, args.a, args.b, schedule=args.schedule,
+                           change_at=args.change_at)
+        fig = maps.reach_map(pairs, band=bands, layout=args.layout, **common)
+    return _save_figure(fig, args.output, args.dpi)
 
 
 def _add_plot(sub):
-    p = sub.add_parser("plot", help="draw comparison and coverage plots")
+    p = sub.add_parser(
+        "plot", help="draw comparison and coverage plots",
+        description="Draw a plot: B minus A by bearing (polar), distance, elevation or hour "
+        "with 95 %% CIs (need the A/B options); P(heard) against distance for A and B (needs "
+        "the A/B options); SNR per watt against distance; spots per hour by band.")
+    _add_figure_options(p, ["bearing", "distance", "elevation", "hour", "heard",
+                            "snr-distance", "spots-per-hour"], "which plot")
+    p.add_argument("--hour-basis", choices=["utc", "local"], default="utc",
+                   help="hour: UTC or local solar time at the path midpoint (default utc)")
     p.set_defaults(func=_cmd_plot)
 
 
 def _cmd_plot(args) -> int:
-    raise UsageError("spotkit plot is not available yet")
+    from . import plots
+    from .ingest import load_spots
+
+    spots = load_spots(args.spots)
+    bands = _figure_bands(args)
+    if args.kind in ("bearing", "distance", "elevation", "hour"):
+        result = _figure_compare(args, spots, ("band", args.kind))
+        draw = {"bearing": plots.bearing_plot, "distance": plots.distance_plot,
+                "elevation": plots.elevation_plot, "hour": plots.hour_plot}[args.kind]
+        ax = draw(result, band=bands)
+    elif args.kind == "heard":
+        from .pairing import pair_spots
+
+        if not args.design or not args.a:
+            raise UsageError("--kind heard compares two antennas: give --design and --a")
+        pairs = pair_spots(spots, args.design, args.a, args.b, schedule=args.schedule,
+                           change_at=args.change_at)
+        if bands and len(bands) > 1:
+            raise UsageError("--kind heard draws one band at a time")
+        ax = plots.heard_plot(pairs, band=bands[0] if bands else None)
+    elif args.kind == "snr-distance":
+        ax = plots.snr_distance_plot(spots, band=bands)
+    else:
+        ax = plots.spots_per_hour_plot(spots, band=bands)
+    ax.figure.tight_layout()
+    return _save_figure(ax.figure, args.output, args.dpi)
 
 
 # --- plan --------------------------------------------------------------------------------

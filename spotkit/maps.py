@@ -205,6 +205,8 @@ def draw_rings(ax, crs, extent_km: float, step_km: float | None = None, *,
         lines.append(ln)
         if len(radii) > 5 and (int(round(r_km / step)) % 2):
             continue  # label every other ring when there are many
+        if r_km > 0.93 * extent_km:
+            continue  # the edge carries the bearing labels
         a = np.radians(label_bearing_deg)
         ax.text(r * np.sin(a), r * np.cos(a), f"{r_km:,.0f} km", transform=crs, fontsize=6,
                 color="#555555", ha="center", va="center", zorder=4,
@@ -758,7 +760,8 @@ def difference_map(result, *, level: Level = "auto", band=None, pairs=None, home
         Line2D([], [], marker="^", ls="", mfc="white", mec="black", label="heard by B only"),
         Line2D([], [], marker="o", ls="", mfc="none", mec="#8a8a8a", label="too few pairs"),
     ]
-    fig.legend(handles=handles, loc="lower center", ncol=5, fontsize=8, frameon=False)
+    fig.legend(handles=handles, loc="lower center", ncol=5 if ncols > 1 else 3, fontsize=8,
+               frameon=False)
     fig.suptitle(f"B minus A around {home if isinstance(home, str) else 'home'}", fontsize=12)
     return fig
 

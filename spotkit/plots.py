@@ -116,8 +116,8 @@ def _interval_plot(result, lo_col, hi_col, key, xlabel, *, band=None, ax=None,
         width = np.nanmin(hi - lo) if len(lo) else 1.0
         x = x + (i - (len(parts) - 1) / 2) * offset_frac * width
         est = sub[C.B_MINUS_A].to_numpy(dtype=float)
-        yerr = np.vstack([est - sub[C.CI_LOW].to_numpy(dtype=float),
-                          sub[C.CI_HIGH].to_numpy(dtype=float) - est])
+        yerr = np.clip(np.vstack([est - sub[C.CI_LOW].to_numpy(dtype=float),
+                                  sub[C.CI_HIGH].to_numpy(dtype=float) - est]), 0.0, None)
         ax.errorbar(x, est, yerr=yerr, fmt="o", ms=5, capsize=3, lw=1.2,
                     color=colors.get(b, "#333333") if b else "#333333",
                     label=b if b else "B - A", gid=f"estimate-{b or 'all'}")
@@ -303,7 +303,8 @@ def heard_plot(pairs, *, band=None, distance_edges=None, bin_km: float = 1000.0,
     w = float((t[C.DISTANCE_MAX] - t[C.DISTANCE_MIN]).min()) if len(t) else 1.0
     for who, col, dx, marker in (("a", COLOR_A, -0.08, "v"), ("b", COLOR_B, 0.08, "^")):
         p = t[f"p_{who}"].to_numpy()
-        yerr = np.vstack([p - t[f"p_{who}_low"].to_numpy(), t[f"p_{who}_high"].to_numpy() - p])
+        yerr = np.clip(np.vstack([p - t[f"p_{who}_low"].to_numpy(),
+                                  t[f"p_{who}_high"].to_numpy() - p]), 0.0, None)
         ax.errorbar(mid + dx * w, p, yerr=yerr, fmt=marker + "-", ms=5, capsize=3, color=col,
                     label=who.upper(), gid=f"heard-{who}")
     ax.set_ylim(-0.02, 1.02)
