@@ -6,15 +6,17 @@ f = 1/298.257223563). Two interchangeable engines compute the inverse problem:
 ``"numpy"``
     A vectorised form of Vincenty's (1975) iteration. Pairs for which it is unreliable -
     nearly antipodal ones (within about 0.5 deg of arc of the antipode, where the iteration
-    converges slowly or not at all), coincident points, points at a pole, and any pair that
-    has not converged after 40 iterations - are handed one by one to geographiclib's
+    converges slowly or not at all), lines shorter than about 60 m (where round-off spoils
+    the azimuth) including coincident points, points at a pole, and any pair that has not
+    converged after 40 iterations - are handed one by one to geographiclib's
     implementation of Karney's (2013) algorithm, which is exact to round-off. There are few
     of them in real data. Away from them, the truncation error of Vincenty's series is about
     0.1 mm in distance and 1e-8 deg in azimuth (Karney 2013, sec. 1), well inside the 1 mm
     and 1e-6 deg to which this module promises to agree with Karney's method.
 ``"pyproj"``
     ``pyproj.Geod.inv`` (PROJ's C implementation of Karney's algorithm), used by ``"auto"``
-    when pyproj is installed (it is an optional dependency).
+    when pyproj is installed (it is an optional dependency). Lines under 100 m also go to
+    geographiclib: PROJ's azimuth on sub-metre lines is off by up to ~1e-3 deg.
 
 The direct problem uses Vincenty's direct series (error about 0.1 mm up to half the globe).
 
@@ -54,7 +56,7 @@ GEODESIC_METHODS = ("auto", "numpy", "pyproj")
 
 _EXACT = Geodesic.WGS84
 _MAX_ITER = 40
-_TOL = 1e-12  # radians of lambda; about 6e-6 m on the ground
+_TOL = 1e-13  # relative change of lambda at convergence (absolute for lambda > 1 rad)
 # pairs within this many radians of arc from the antipode go to the exact algorithm
 _ANTIPODAL_MARGIN = np.deg2rad(0.5)
 
@@ -150,7 +152,8 @@ def _vincenty_inverse(lat1, lon1, lat2, lon2):
             sin_sigma[active], cos_sigma[active], sigma[active] = ss, cs, sg
             cos2_alpha[active], cos_2sm[active] = c2a, c2sm
             lam[active] = lam_new
-            done = np.abs(lam_new - lm) < _TOL
+            # relative test: on short lines lambda itself is tiny
+            done = np.abs(lam_new - lm) <= _TOL * np.minimum(1.0, np.abs(lam_new))
             converged[active[done]] = True
             active = active[~done & np.isfinite(lam_new)]
         u2 = cos2_alpha * (a * a - b * b) / (b * b)
@@ -169,7 +172,9 @@ def _vincenty_inverse(lat1, lon1, lat2, lon2):
     ok = (
         converged
         & (sigma < np.pi - _ANTIPODAL_MARGIN)
-        & (sin_sigma > 1e-9)  # coincident points: azimuth by Karney's convention
+        # lines under ~60 m (and coincident points): round-off in the positions makes
+        # Vincenty's azimuth err by ~1e-6 deg at 1 m; Karney's differencing does not
+        & (sigma > 1e-5)
         & (np.abs(lat1) < 90.0 - 1e-9) & (np.abs(lat2) < 90.0 - 1e-9)
         & np.isfinite(s)
     )
@@ -199,6 +204,12 @@ def _pyproj_inverse(lat1, lon1, lat2, lon2):
     s = np.asarray(s, dtype=float)
     if bad.any():
         s[bad] = az12[bad] = azi2[bad] = np.nan
+    # PROJ's azimuth on lines under a metre errs by up to ~1e-3 deg (round-off); such
+    # lines go to geographiclib, as in the numpy path
+    short = np.flatnonzero(s < 100.0)
+    if short.size:
+        s[short], az12[short], azi2[short] = _exact_inverse(
+            lat1[short], lon1[short], lat2[short], lon2[short])
     return s, az12, azi2
 
 

@@ -125,7 +125,7 @@ lats = st.floats(-90, 90, allow_nan=False)
 lons = st.floats(-180, 180, allow_nan=False, exclude_max=True)
 
 
-@settings(max_examples=300, deadline=None)
+@settings(max_examples=150, deadline=None)
 @given(lats, lons, st.sampled_from([2, 4, 6, 8]))
 def test_property_round_trip_and_centre_inside_cell(lat, lon, precision):
     loc = latlon_to_locator(lat, lon, precision=precision)
