@@ -588,7 +588,7 @@ def pair_spots(spots: pd.DataFrame, design: Design, a: str, b: str | None = None
         m, after = _pair_before_after(spots, a, b, change_at, set_aside)
         m["_pow_a"] = 0.0  # no on-air filter: every row has one observation
         m["_pow_b"] = 0.0
-    m = m.rename(columns={"_bearing": C.BEARING})
+    m = m.drop(columns=[C.BEARING], errors="ignore").rename(columns={"_bearing": C.BEARING})
     out = _finish(m, set_aside, design)
     if after is not None:
         out[C.LIMIT_A] = np.nan
