@@ -91,12 +91,88 @@ def _cmd_simulate(args) -> int:
 
 # --- compare -----------------------------------------------------------------------------
 def _add_compare(sub):
-    p = sub.add_parser("compare", help="compare two antennas (B minus A, dB, with CIs)")
+    p = sub.add_parser(
+        "compare", help="compare two antennas (B minus A, dB, with CIs)",
+        description="Pair the reports of antennas A and B by the experiment design and "
+        "estimate B minus A [dB per W] overall and by group, with cluster-bootstrap "
+        "confidence intervals, paired tests and plain-language verdicts.")
+    p.add_argument("spots", metavar="SPOTS",
+                   help="spot table: Parquet from 'spotkit ingest' or a spot CSV")
+    p.add_argument("--design", required=True,
+                   choices=["simultaneous", "alternating", "receive", "before-after"],
+                   help="how reports are assigned to A and B")
+    p.add_argument("--a", required=True, metavar="CALL",
+                   help="call of A (transmitter; receiver in the receive design)")
+    p.add_argument("--b", metavar="CALL", help="call of B (alternating and before-after: "
+                   "the same call as --a, may be left out)")
+    p.add_argument("--schedule", metavar="even-odd|odd-even|every-N|FILE",
+                   help="alternating design: antenna schedule (CSV: start,end,antenna[,band])")
+    p.add_argument("--change-at", metavar="TIME", help="before-after design: when the "
+                   "antenna changed (UTC, e.g. 2026-03-04T00:00Z)")
+    p.add_argument("--by", default="", metavar="KEY,KEY",
+                   help="group by any of band, distance, bearing, hour, elevation, light, "
+                   "field, square, receiver")
+    p.add_argument("--distance-edges", metavar="KM,KM,...",
+                   help="distance bin edges [km] (default 0,1000,3000,6000,20100)")
+    p.add_argument("--elevation-edges", metavar="DEG,DEG,...",
+                   help="elevation bin edges [deg] (default 0,5,10,20,40,90)")
+    p.add_argument("--bearing-width", type=float, default=45.0,
+                   help="bearing sector width [deg] (default 45)")
+    p.add_argument("--hour-basis", choices=["utc", "local"], default="utc",
+                   help="hour of day in UTC or local solar time at the path midpoint")
+    p.add_argument("--layer-height", type=float, default=300.0,
+                   help="reflection height for elevation angles [km] (default 300)")
+    p.add_argument("--window", type=int, default=1, metavar="SLOTS",
+                   help="alternating design: largest distance of paired slots (default 1)")
+    p.add_argument("--boot", type=int, default=1000, help="bootstrap resamples (default 1000)")
+    p.add_argument("--seed", type=int, default=0, help="bootstrap seed (default 0)")
+    p.add_argument("--min-pairs", type=int, default=30,
+                   help="fewest pairs for a group estimate (default 30)")
+    p.add_argument("--confidence", type=float, default=0.95,
+                   help="confidence level of the intervals (default 0.95)")
+    p.add_argument("--json", metavar="OUT.json", help="write the result as JSON")
+    p.add_argument("--csv", metavar="OUT.csv", help="write the result table as CSV")
+    p.add_argument("--progress", action="store_true", help="show a progress bar")
     p.set_defaults(func=_cmd_compare)
 
 
+def _float_list(text, option):
+    try:
+        return [float(x) for x in text.split(",") if x.strip()]
+    except ValueError:
+        raise UsageError(f"{option} must be numbers separated by commas, got {text!r}") from None
+
+
 def _cmd_compare(args) -> int:
-    raise UsageError("spotkit compare is not available yet")
+    from .compare import compare_antennas
+    from .ingest import load_spots
+
+    kw = {}
+    if args.distance_edges:
+        kw["distance_edges"] = _float_list(args.distance_edges, "--distance-edges")
+    if args.elevation_edges:
+        kw["elevation_edges"] = _float_list(args.elevation_edges, "--elevation-edges")
+    try:
+        by = [k for k in args.by.replace(" ", "").split(",") if k]
+        from .pairing import parse_by
+        parse_by(by)
+    except ValueError as exc:
+        raise UsageError(f"--by: {exc}") from None
+    spots = load_spots(args.spots)
+    result = compare_antennas(
+        spots, args.design, args.a, args.b, schedule=args.schedule, change_at=args.change_at,
+        by=by, bearing_width_deg=args.bearing_width, hour=args.hour_basis,
+        layer_height_km=args.layer_height, window_slots=args.window, n_boot=args.boot,
+        seed=args.seed, min_pairs=args.min_pairs, confidence=args.confidence,
+        progress=args.progress, **kw)
+    print(result)
+    if args.json:
+        result.to_json(args.json)
+        print(f"wrote {args.json}")
+    if args.csv:
+        result.to_frame().to_csv(args.csv, index=False)
+        print(f"wrote {args.csv}")
+    return 0
 
 
 # --- map / plot --------------------------------------------------------------------------
