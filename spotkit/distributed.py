@@ -408,8 +408,12 @@ class _ArchiveReader:
 
 
 def read_archive_dask(root, *, columns: Sequence[str] | None = None, bands=None, start=None,
-                      end=None, tx_calls=None, rx_calls=None, locator_prefix=None):
+                      end=None, tx_calls=None, rx_calls=None, locator_prefix=None,
+                      per_band: bool = False):
     """A partitioned archive as a :class:`dask.dataframe.DataFrame`, one partition per file.
+
+    With ``per_band=True`` (archives partitioned band first) all files of one band form one
+    partition: for analyses that need a band's whole period at once.
 
     Partitions whose band/day directory cannot match the selection are not opened; inside a
     file the selection is pushed down to Parquet (see :func:`spotkit.store.read_dataset`).
@@ -426,13 +430,18 @@ def read_archive_dask(root, *, columns: Sequence[str] | None = None, bands=None,
     files = store.archive_files(root, bands=bands, start=start, end=end)
     if not files:
         raise InputError(f"{root}: no spots in the archive match the selection")
+    if per_band:
+        groups: dict[str, list[str]] = {}
+        for f in files:
+            groups.setdefault(f.split("/", 1)[0], []).append(f)
+        files = list(groups.values())
     reader = _ArchiveReader(root, list(columns) if columns is not None else None, selection)
     meta = reader(files[0]).iloc[:0]
     return dd.from_map(reader, files, meta=meta, enforce_metadata=False,
                        label="read-spot-archive")
 
 
-def _partitions(source, columns, selection):
+def _partitions(source, columns, selection, per_band=False):
     """Delayed pandas partitions of an archive path or a Dask DataFrame."""
     import dask.dataframe as dd
 
@@ -442,7 +451,7 @@ def _partitions(source, columns, selection):
                              "filter the Dask DataFrame yourself")
         ddf = source if columns is None else source[list(columns)]
     elif isinstance(source, (str, Path)):
-        ddf = read_archive_dask(source, columns=columns, **selection)
+        ddf = read_archive_dask(source, columns=columns, per_band=per_band, **selection)
     else:
         raise UsageError(f"expected an archive directory or a Dask DataFrame, got "
                          f"{type(source).__name__}")
@@ -504,6 +513,287 @@ def coverage_dask(source, by: Sequence[CoverageKey] = ("band", "square"), *, sid
     return finish_coverage(merged)
 
 
+# --- A/B comparison -------------------------------------------------------------------------
+@dataclass
+class ComparePartials:
+    """Mergeable partial of an A/B comparison.
+
+    Attributes
+    ----------
+    overall, counts : pandas.DataFrame
+        Compressed pair tables (:func:`spotkit.pairing.summarise_pairs`) without and with
+        the group keys.
+    clusters : set of str
+        Clusters (bootstrap units) that have pairs.
+    set_aside : dict
+        Reports or pairs set aside, by reason (summed over partitions).
+    far : pandas.DataFrame or None
+        With the ``receiver`` key: far-station locator and position by call.
+    """
+
+    overall: pd.DataFrame
+    counts: pd.DataFrame
+    clusters: set
+    set_aside: dict
+    far: pd.DataFrame | None = None
+
+
+def receiver_partials(df: pd.DataFrame) -> pd.DataFrame:
+    """Per receiver call: lowest reported SNR [dB] and number of reports (mergeable)."""
+    g = df.groupby(C.RX_CALL, observed=True)[C.SNR].agg(["min", "count"])
+    g.index = g.index.astype(str)
+    return g
+
+
+def combine_receivers(parts: Iterable[pd.DataFrame]) -> pd.DataFrame:
+    """Merge :func:`receiver_partials`: minimum of minima, sum of counts."""
+    cat = pd.concat(list(parts))
+    return cat.groupby(level=0).agg({"min": "min", "count": "sum"})
+
+
+def thresholds_from_partials(partials: pd.DataFrame, min_reports: int = 20) -> pd.Series:
+    """Receiver thresholds exactly as :func:`spotkit.pairing.receiver_thresholds` on the whole
+    table, from merged :func:`receiver_partials`.
+
+    The pairing function needs only each receiver's minimum and whether it has at least
+    ``min_reports`` reports, so it is run on a stand-in table of ``min(count, min_reports)``
+    copies of each receiver's minimum.
+    """
+    from .pairing import receiver_thresholds
+
+    reps = np.minimum(partials["count"].to_numpy(dtype=np.int64), int(min_reports))
+    stand_in = pd.DataFrame({
+        C.RX_CALL: np.repeat(partials.index.to_numpy(dtype=object), reps),
+        C.SNR: np.repeat(partials["min"].to_numpy(dtype=float), reps)})
+    return receiver_thresholds(stand_in, min_reports)
+
+
+def _calls_needed(design: str, a: str, b: str | None) -> tuple[str, list[str]]:
+    a = str(a).strip().upper()
+    b = a if b is None or not str(b).strip() else str(b).strip().upper()
+    col = C.RX_CALL if design == "receive" else C.TX_CALL
+    need = [a, b] if design in ("simultaneous", "receive") else [a]
+    return col, need
+
+
+def compare_partials(df: pd.DataFrame, design: str, a: str, b: str | None = None, *,
+                     by=(), thresholds: pd.Series | None = None, schedule=None,
+                     change_at=None, window_slots: int = 1, min_receiver_reports: int = 20,
+                     group_options: dict | None = None) -> ComparePartials:
+    """Pair one partition and compress its pairs (the per-partition work of a comparison).
+
+    Runs :func:`spotkit.pairing.pair_spots` and :func:`spotkit.pairing.summarise_pairs`.
+    A partition without the calls the design needs gives empty tables; so does one where
+    nothing pairs. With ``thresholds`` (receiver thresholds over the whole data, see
+    :func:`thresholds_from_partials`) the censoring limits are moved from the partition's
+    own thresholds to the global ones - the pairing takes each receiver's threshold from
+    the table it is given, and the limit is ``threshold - (power - 30)`` - so the pairs equal
+    those of the whole table.
+    """
+    from .errors import NoPairsError
+    from .pairing import pair_spots, receiver_thresholds, summarise_pairs
+
+    group_options = group_options or {}
+    empty = _empty_compare(by, group_options)
+    col, need = _calls_needed(design, a, b)
+    present = set(df[col].astype(str).unique()) if len(df) else set()
+    if not all(c in present for c in need):
+        return empty
+    try:
+        pairs = pair_spots(df, design, a, b, schedule=schedule, change_at=change_at,
+                           window_slots=window_slots,
+                           min_receiver_reports=min_receiver_reports)
+    except NoPairsError:
+        return empty
+    if thresholds is not None and design != "before-after":
+        local = receiver_thresholds(df, min_receiver_reports)
+        shift = thresholds.reindex(local.index).to_numpy(dtype=float) - local.to_numpy()
+        shift = pd.Series(shift, index=local.index.astype(str))
+        if design == "receive":
+            pairs[C.LIMIT_A] += float(shift.get(need[0], 0.0))
+            pairs[C.LIMIT_B] += float(shift.get(need[1], 0.0))
+        else:  # receivers are the clusters
+            d = pairs[C.CLUSTER].astype(str).map(shift).to_numpy(dtype=float)
+            pairs[C.LIMIT_A] = pairs[C.LIMIT_A].to_numpy() + d
+            pairs[C.LIMIT_B] = pairs[C.LIMIT_B].to_numpy() + d
+    keys = _parse_by(by)
+    overall = summarise_pairs(pairs, ())
+    counts = summarise_pairs(pairs, keys, **group_options) if keys else overall
+    set_aside = dict(pairs.attrs.get("set_aside", {}))
+    for k, v in (counts.attrs.get("set_aside", {}) if keys else {}).items():
+        set_aside[f"groups: {k}"] = v
+    far = None
+    if "receiver" in keys:
+        far = pairs.groupby(C.FAR_CALL, observed=True)[[C.FAR_LOCATOR, C.FAR_LAT,
+                                                        C.FAR_LON]].first()
+        far.index = far.index.astype(str)
+        far[C.FAR_LOCATOR] = far[C.FAR_LOCATOR].astype(str)
+    return ComparePartials(overall, counts, set(pairs[C.CLUSTER].astype(str)), set_aside, far)
+
+
+def _parse_by(by) -> tuple:
+    from .pairing import parse_by
+
+    return parse_by(by)
+
+
+def _empty_compare(by, group_options) -> ComparePartials:
+    from .pairing import group_columns
+
+    cols = list(group_columns(_parse_by(by))) + [C.CLUSTER, C.KIND, C.VALUE, C.COUNT]
+    empty = pd.DataFrame({c: pd.Series(dtype=object) for c in cols})
+    return ComparePartials(empty[[C.CLUSTER, C.KIND, C.VALUE, C.COUNT]], empty, set(), {}, None)
+
+
+def combine_compare(partials: Iterable[ComparePartials]) -> ComparePartials:
+    """Merge comparison partials: sum counts (:func:`spotkit.pairing.merge_summaries`)."""
+    from .pairing import merge_summaries
+
+    parts = list(partials)
+    if not parts:
+        raise UsageError("no comparison partials to combine")
+
+    def merge(tables, template):
+        full = [t for t in tables if len(t)]
+        return merge_summaries(full) if full else template
+
+    set_aside: dict = {}
+    for p in parts:
+        for k, v in p.set_aside.items():
+            set_aside[k] = set_aside.get(k, 0) + int(v)
+    fars = [p.far for p in parts if p.far is not None and len(p.far)]
+    far = None
+    if fars:
+        far = pd.concat(fars)
+        far = far[~far.index.duplicated(keep="first")]
+    return ComparePartials(merge([p.overall for p in parts], parts[0].overall),
+                           merge([p.counts for p in parts], parts[0].counts),
+                           set().union(*(p.clusters for p in parts)), set_aside, far)
+
+
+def finish_compare(merged: ComparePartials, design: str, a: str, b: str | None = None, *,
+                   by=(), n_boot: int = 1000, seed: int = 0, min_pairs: int = 30,
+                   confidence: float = 0.95, options: dict | None = None):
+    """Estimate B minus A from merged partials, as :func:`spotkit.compare.compare_antennas`.
+
+    Returns
+    -------
+    spotkit.compare.ComparisonResult
+        ``pairs`` is an empty table: the distributed path keeps only the compressed counts.
+    """
+    from .compare import RESULT_COLUMNS, ComparisonResult, estimate_groups
+    from .errors import NoPairsError
+    from .pairing import PAIR_COLUMNS, group_columns
+
+    keys = _parse_by(by)
+    if len(merged.overall) == 0:
+        why = "; ".join(f"{k}: {v}" for k, v in merged.set_aside.items()) or "no reports"
+        raise NoPairsError(f"no pairs found for the {design} design in any partition ({why})")
+    label = "transmitters" if design == "receive" else "receivers"
+    est = dict(n_boot=n_boot, seed=seed, confidence=confidence, min_pairs=min_pairs,
+               clusters=sorted(merged.clusters), cluster_label=label)
+    overall = estimate_groups(merged.overall, **est).iloc[0].to_dict()
+    overall[C.P_ADJUSTED] = overall[C.P_VALUE]
+    if keys:
+        counts = merged.counts
+        groups = (estimate_groups(counts, **est) if len(counts) else
+                  pd.DataFrame(columns=group_columns(keys) + RESULT_COLUMNS))
+        if merged.far is not None:
+            groups = groups.merge(merged.far, left_on=C.FAR_CALL, right_index=True, how="left")
+    else:
+        counts = merged.overall
+        groups = pd.DataFrame(columns=RESULT_COLUMNS)
+    col, need = _calls_needed(design, a, b)
+    pairs = pd.DataFrame(columns=PAIR_COLUMNS)
+    return ComparisonResult(overall=overall, groups=groups.reset_index(drop=True),
+                            pairs=pairs, design=design, a=need[0], b=need[-1], by=keys,
+                            counts=counts, set_aside=merged.set_aside,
+                            options=dict(options or {}, n_boot=int(n_boot), seed=int(seed),
+                                         min_pairs=int(min_pairs),
+                                         confidence=float(confidence), engine="dask"))
+
+
+def compare_dask(source, design: str, a: str, b: str | None = None, *, by=(), schedule=None,
+                 change_at=None, window_slots: int = 1, min_receiver_reports: int = 20,
+                 distance_edges=None, bearing_width_deg: float = 45.0, hour: str = "utc",
+                 elevation_edges=None, layer_height_km: float = 300.0, n_boot: int = 1000,
+                 seed: int = 0, min_pairs: int = 30, confidence: float = 0.95,
+                 scheduler: Scheduler = None, split_every: int = 16, bands=None, start=None,
+                 end=None):
+    """Compare antennas A and B over a partitioned archive on Dask.
+
+    Two passes over the partitions: (1) each receiver's lowest SNR and report count
+    (:func:`receiver_partials`), merged into the receiver thresholds of the whole data;
+    (2) :func:`compare_partials` per partition (pairing + compressed pair table), merged by
+    summing counts (:func:`combine_compare`), then one
+    :func:`spotkit.compare.estimate_groups` (:func:`finish_compare`). Parameters are those
+    of :func:`spotkit.compare.compare_antennas` plus ``scheduler``, ``split_every`` and a
+    selection pushed down to Parquet (``bands``, ``start``, ``end`` [UTC]).
+
+    For the simultaneous and receive designs the result equals
+    :func:`~spotkit.compare.compare_antennas` on the whole table (same seed, same
+    bootstrap). For the alternating design, pairs whose two slots straddle 00:00 UTC are
+    lost (see the module docstring); ``set_aside`` counts only what the partitions that
+    hold the calls set aside. The before/after design compares two periods, so an archive
+    is read one partition per band (all days of a band in memory at once); a Dask
+    DataFrame given as ``source`` must hold both periods in each partition.
+
+    Returns
+    -------
+    spotkit.compare.ComparisonResult
+        With an empty ``pairs`` table.
+    """
+    import dask
+
+    from .pairing import DEFAULT_DISTANCE_EDGES, DEFAULT_ELEVATION_EDGES
+
+    keys = _parse_by(by)
+    group_options = dict(
+        distance_edges=DEFAULT_DISTANCE_EDGES if distance_edges is None else distance_edges,
+        bearing_width_deg=bearing_width_deg, hour=hour,
+        elevation_edges=DEFAULT_ELEVATION_EDGES if elevation_edges is None else elevation_edges,
+        layer_height_km=layer_height_km)
+    selection = dict(bands=bands, start=start, end=end, tx_calls=None, rx_calls=None,
+                     locator_prefix=None)
+    # before/after needs both periods in one partition: one partition per band
+    parts = _partitions(source, None, selection, per_band=design == "before-after")
+    col, need = _calls_needed(design, a, b)
+    rec_d = dask.delayed(receiver_partials, pure=True)
+    calls_d = dask.delayed(_distinct_calls, pure=True)
+    rec_total = _tree_reduce([rec_d(p) for p in parts], combine_receivers, split_every)
+    calls_total = _tree_reduce([calls_d(p, col) for p in parts], _union, split_every)
+    with dask_scheduler(scheduler) as kw:
+        rec, calls = dask.compute(rec_total, calls_total, **kw)
+        missing = [c for c in need if c not in calls]
+        if missing:
+            shown = ", ".join(sorted(calls)[:15]) + (" ..." if len(calls) > 15 else "")
+            raise InputError(f"call(s) {', '.join(missing)} not found among the "
+                             f"{'receivers' if col == C.RX_CALL else 'transmitters'} of the "
+                             f"archive; present: {shown}")
+        thr = thresholds_from_partials(rec, min_receiver_reports)
+        cmp_d = dask.delayed(compare_partials, pure=True)
+        partials = [cmp_d(p, design, a, b, by=keys, thresholds=thr, schedule=schedule,
+                          change_at=change_at, window_slots=window_slots,
+                          min_receiver_reports=min_receiver_reports,
+                          group_options=group_options) for p in parts]
+        (merged,) = dask.compute(_tree_reduce(partials, combine_compare, split_every), **kw)
+    options = dict(group_options, window_slots=int(window_slots),
+                   schedule=schedule if isinstance(schedule, (str, type(None))) else "table",
+                   change_at=None if change_at is None else str(change_at))
+    options["distance_edges"] = [float(x) for x in options["distance_edges"]]
+    options["elevation_edges"] = [float(x) for x in options["elevation_edges"]]
+    return finish_compare(merged, design, a, b, by=keys, n_boot=n_boot, seed=seed,
+                          min_pairs=min_pairs, confidence=confidence, options=options)
+
+
+def _distinct_calls(df: pd.DataFrame, col: str) -> set:
+    return set(df[col].astype(str).unique())
+
+
+def _union(sets) -> set:
+    return set().union(*sets)
+
+
 def enrich_dask(ddf):
     """Add the path columns (:func:`spotkit.geo.add_path_columns`) to every partition.
 
@@ -522,5 +812,7 @@ __all__ = [
     "STATIONS", "SNR_MEAN", "SNR_MEDIAN", "SNR_MAX", "COVERAGE_COLUMNS", "COVERAGE_KEYS",
     "CoveragePartials", "coverage_columns_needed", "coverage_partials", "combine_coverage",
     "finish_coverage", "coverage_table", "dask_scheduler", "read_archive_dask", "coverage_dask",
-    "enrich_dask",
+    "enrich_dask", "ComparePartials", "receiver_partials", "combine_receivers",
+    "thresholds_from_partials", "compare_partials", "combine_compare", "finish_compare",
+    "compare_dask",
 ]

@@ -705,8 +705,9 @@ def read_archive_file(root, file, *, columns: Sequence[str] | None = None, bands
     ----------
     root : str or path-like
         Archive directory.
-    file : str
-        Path relative to ``root``, as returned by :func:`archive_files`.
+    file : str or list of str
+        Path(s) relative to ``root``, as returned by :func:`archive_files`; several files
+        are read as one table.
     columns, bands, start, end, tx_calls, rx_calls, locator_prefix
         As :func:`read_dataset`.
 
@@ -716,13 +717,14 @@ def read_archive_file(root, file, *, columns: Sequence[str] | None = None, bands
         With the glossary dtypes.
     """
     root = Path(root)
+    files = [file] if isinstance(file, (str, os.PathLike)) else list(file)
     partition_by = dataset_manifest(root).get("partition_by", list(PARTITION_KEYS))
-    dataset = ds.dataset([str(root / file)], format="parquet",
+    dataset = ds.dataset([str(root / f) for f in files], format="parquet",
                          partitioning=_partitioning(partition_by), partition_base_dir=str(root))
     expr = dataset_filter(bands=bands, start=start, end=end, tx_calls=tx_calls,
                           rx_calls=rx_calls, locator_prefix=locator_prefix,
                           partition_by=partition_by)
-    return _scan(dataset, columns=columns, expr=expr, source=root / file)
+    return _scan(dataset, columns=columns, expr=expr, source=root / files[0])
 
 
 def _as_expression(filters) -> pc.Expression | None:

@@ -161,3 +161,115 @@ def test_enrichment_on_dask_equals_pandas(archive, spots, client):
     for col in C.DERIVED:
         np.testing.assert_allclose(got[col].to_numpy(), want[col].to_numpy(),
                                    rtol=0, atol=1e-9)  # deg / km: the same function
+
+
+# --- A/B comparison -----------------------------------------------------------------------------
+@pytest.fixture(scope="module")
+def sim_archive(tmp_path_factory):
+    """Simulated simultaneous-transmit run over 2 days (crossing midnight), as an archive."""
+    from spotkit.simulate import simulate_spots
+
+    sim = simulate_spots("simultaneous", days=2, seed=3, n_receivers=60, start="2026-03-02")
+    root = tmp_path_factory.mktemp("sim") / "arch"
+    store.append_to_dataset(sim.spots, root)
+    return sim, root
+
+
+def test_partition_thresholds_differ_from_global(sim_archive):
+    """The case the threshold correction is for: some receiver's lowest SNR differs
+    between a partition and the whole run."""
+    from spotkit.pairing import receiver_thresholds
+
+    sim, root = sim_archive
+    glob = receiver_thresholds(sim.spots)
+    rec = D.combine_receivers([D.receiver_partials(store.read_archive_file(root, f))
+                               for f in store.archive_files(root)])
+    pd.testing.assert_series_equal(D.thresholds_from_partials(rec).sort_index(),
+                                   glob.rename_axis(glob.index.name).set_axis(
+                                       glob.index.astype(str)).sort_index(),
+                                   check_names=False, check_index_type=False)
+    differs = 0
+    for f in store.archive_files(root):
+        loc = receiver_thresholds(store.read_archive_file(root, f))
+        loc.index = loc.index.astype(str)
+        g = glob.set_axis(glob.index.astype(str)).reindex(loc.index)
+        differs += int((loc != g).sum())
+    assert differs > 0
+
+
+@pytest.mark.parametrize("by", [(), ("band", "distance")])
+def test_compare_dask_equals_pandas_simultaneous(sim_archive, client, by):
+    from spotkit.compare import compare_antennas
+
+    sim, root = sim_archive
+    want = compare_antennas(sim.spots, "simultaneous", sim.a, sim.b, by=by, n_boot=200, seed=1)
+    got = D.compare_dask(root, "simultaneous", sim.a, sim.b, by=by, n_boot=200, seed=1,
+                         scheduler=client, split_every=2)
+    # same pairs -> the same compressed table (counts exact) -> the same bootstrap
+    pd.testing.assert_frame_equal(got.counts.reset_index(drop=True),
+                                  want.counts.reset_index(drop=True), check_dtype=False)
+    for k, v in want.overall.items():
+        if isinstance(v, float):
+            assert got.overall[k] == pytest.approx(v, rel=0, abs=1e-9, nan_ok=True), k
+        else:
+            assert got.overall[k] == v, k
+    num = want.groups.select_dtypes("number").columns
+    np.testing.assert_allclose(got.groups[num].to_numpy(float), want.groups[num].to_numpy(float),
+                               rtol=0, atol=1e-9)
+    assert got.set_aside == want.set_aside
+    assert got.verdicts() == want.verdicts()
+
+
+def test_compare_dask_bootstrap_seeds_agree_within_monte_carlo_error(sim_archive):
+    """Another seed moves the interval ends only by bootstrap noise. The Monte-Carlo SD of
+    a 2.5 % percentile from B resamples is sqrt(p(1-p)/B)/phi(z_p) x SE (asymptotic
+    variance of a sample quantile) = 0.19 SE for B = 200; two runs differ by sqrt(2) x that.
+    Allow 5 such SDs."""
+    from scipy.stats import norm
+
+    from spotkit.compare import compare_antennas
+
+    sim, root = sim_archive
+    want = compare_antennas(sim.spots, "simultaneous", sim.a, sim.b, n_boot=200, seed=1)
+    got = D.compare_dask(root, "simultaneous", sim.a, sim.b, n_boot=200, seed=2,
+                         scheduler="sync")
+    assert got.overall[C.B_MINUS_A] == pytest.approx(want.overall[C.B_MINUS_A], abs=1e-9)
+    se = (want.overall[C.CI_HIGH] - want.overall[C.CI_LOW]) / (2 * norm.ppf(0.975))
+    mc_sd = np.sqrt(0.025 * 0.975 / 200) / norm.pdf(norm.ppf(0.975)) * se * np.sqrt(2)
+    for col in (C.CI_LOW, C.CI_HIGH):
+        assert abs(got.overall[col] - want.overall[col]) < 5 * mc_sd  # dB
+    assert got.overall[C.CI_LOW] != want.overall[C.CI_LOW]  # really another resampling
+
+
+def test_compare_dask_unknown_call_lists_calls(sim_archive):
+    from spotkit.errors import InputError
+
+    sim, root = sim_archive
+    with pytest.raises(InputError, match=f"Q9NOPE.*present: .*{sim.a}"):
+        D.compare_dask(root, "simultaneous", sim.a, "Q9NOPE", n_boot=10, scheduler="sync")
+
+
+@pytest.mark.slow
+@pytest.mark.parametrize("design", ["alternating", "receive", "before-after"])
+def test_compare_dask_equals_pandas_other_designs(tmp_path, design):
+    """Receive pairs by (transmitter, slot) and before/after reads one partition per band:
+    exact. Alternating: exact here because no matched slot pair of this even/odd schedule
+    straddles midnight UTC (the documented loss would show as fewer pairs)."""
+    from spotkit.compare import compare_antennas
+    from spotkit.simulate import simulate_spots
+
+    sim = simulate_spots(design, days=2, seed=3, n_receivers=40, n_transmitters=40,
+                         start="2026-03-02")
+    kw = {"alternating": dict(schedule=sim.schedule),
+          "before-after": dict(change_at=sim.change_at)}.get(design, {})
+    store.append_to_dataset(sim.spots, tmp_path / "arch")
+    want = compare_antennas(sim.spots, design, sim.a, sim.b, by=("band",), n_boot=100, seed=4,
+                            **kw)
+    got = D.compare_dask(tmp_path / "arch", design, sim.a, sim.b, by=("band",), n_boot=100,
+                         seed=4, scheduler="sync", **kw)
+    pd.testing.assert_frame_equal(got.counts.reset_index(drop=True),
+                                  want.counts.reset_index(drop=True), check_dtype=False)
+    num = want.groups.select_dtypes("number").columns
+    np.testing.assert_allclose(got.groups[num].to_numpy(float), want.groups[num].to_numpy(float),
+                               rtol=0, atol=1e-9)
+    assert got.set_aside == want.set_aside
