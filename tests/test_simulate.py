@@ -404,3 +404,46 @@ def test_duplicates_and_corrupted_rows_are_accounted_for(sims, tmp_path, layout)
     assert s.rows_read == len(sp) + n_dup
     assert s.duplicates == n_dup
     assert s.rejected == 25 and s.accepted == len(sp) - 25
+
+
+# --- command line -----------------------------------------------------------------------------
+def test_cli_simulate_writes_spots_truth_and_prints_compare(tmp_path, capsys):
+    from spotkit.cli import main
+
+    out = tmp_path / "run.csv.gz"
+    code = main(["simulate", "--design", "receive", "--days", "0.5", "--transmitters", "40",
+                 "--seed", "3", "-o", str(out), "--difference-db", "10m=1.5,20m=0"])
+    assert code == 0
+    text = capsys.readouterr().out
+    assert "spotkit compare" in text and "--a Q1ABC --b Q1ABD" in text
+    truth = Truth.from_json(tmp_path / "run.truth.json")
+    cells = truth.cells(distance_edges=(0, 20000))
+    assert dict(zip(cells[C.BAND], cells[C.B_MINUS_A])) == pytest.approx({"10m": 1.5,
+                                                                          "20m": 0.0})
+    ingest = pytest.importorskip("spotkit.ingest")
+    assert ingest.read_spots(out).summary.accepted > 100
+
+
+def test_cli_simulate_headerless_layout_prints_a_working_ingest_command(tmp_path, capsys):
+    import shlex
+
+    from spotkit.cli import main
+
+    pytest.importorskip("spotkit.ingest")
+    out = tmp_path / "alt.csv"
+    assert main(["simulate", "--design", "alternating", "--days", "0.25", "--receivers", "40",
+                 "-o", str(out), "--layout", "space"]) == 0
+    lines = capsys.readouterr().out.splitlines()
+    ingest_cmd = lines[lines.index("read it with:") + 1].split()
+    assert ingest_cmd[:2] == ["spotkit", "ingest"]
+    assert main(shlex.split(" ".join(ingest_cmd[1:]))) == 0
+    assert (tmp_path / "alt.parquet").exists()
+    assert "--schedule even-odd" in lines[-1]
+
+
+def test_cli_simulate_bad_arguments(tmp_path):
+    from spotkit.cli import main
+
+    assert main(["simulate", "--power-a", "31", "-o", str(tmp_path / "x.csv")]) == 2
+    assert main(["simulate", "--difference-db", "lots", "-o", str(tmp_path / "x.csv")]) == 2
+    assert main(["simulate", "--bands", "11m", "-o", str(tmp_path / "x.csv")]) == 2
