@@ -1,0 +1,131 @@
+"""The HTML report: content, self-containedness, and rendering in a real headless browser."""
+from __future__ import annotations
+
+import re
+import shutil
+import subprocess
+import tempfile
+from html.parser import HTMLParser
+from pathlib import Path
+
+import pytest
+
+from spotkit import columns as C
+from spotkit.report import CAUTIONS, JOB, build_report, standard_comparisons, write_report
+from spotkit.simulate import simulate_spots
+
+
+@pytest.fixture(scope="module")
+def small_experiment():
+    sim = simulate_spots("simultaneous", days=1, n_receivers=80, seed=7)
+    results, map_result = standard_comparisons(
+        sim.spots, sim.design, sim.a, sim.b,
+        breakdowns=(("band",), ("band", "distance"), ("band", "bearing")),
+        n_boot=100, map_n_boot=50)
+    return sim, results, map_result
+
+
+@pytest.fixture(scope="module")
+def report_html(small_experiment, tmp_path_factory):
+    sim, results, map_result = small_experiment
+    path = write_report(tmp_path_factory.mktemp("report") / "r.html", sim.spots, results,
+                        map_result=map_result)
+    return path.read_text(encoding="utf-8")
+
+
+class _Images(HTMLParser):
+    def __init__(self):
+        super().__init__()
+        self.srcs = []
+
+    def handle_starttag(self, tag, attrs):
+        if tag == "img":
+            self.srcs.append(dict(attrs).get("src", ""))
+
+
+def test_report_has_every_section_and_no_external_resources(small_experiment, report_html):
+    sim, results, _ = small_experiment
+    text = report_html
+    assert JOB in text
+    for heading in ("Data", "Verdict", "Maps and plots", "Method and assumptions", "Cautions"):
+        assert f"<h2>{heading}</h2>" in text
+    for caution in CAUTIONS:
+        assert caution in text
+    # the headline verdict and the overall estimate with its interval
+    overall = results[0].overall
+    assert f"{overall[C.B_MINUS_A]:+.2f}" in text
+    assert f"{overall[C.CI_LOW]:+.2f} to {overall[C.CI_HIGH]:+.2f}" in text
+    # every figure is embedded; nothing is fetched from elsewhere
+    parser = _Images()
+    parser.feed(text)
+    assert len(parser.srcs) >= 6
+    assert all(s.startswith("data:image/png;base64,") for s in parser.srcs)
+    assert not re.search(r"""(src|href)=['"]https?://""", text)
+    assert "Not drawn" not in text
+    # data summary counts the spots and receivers of the table
+    assert f"{len(sim.spots):,}" in text
+    assert f"{sim.spots[C.RX_CALL].nunique():,}" in text
+
+
+def test_report_without_figures_and_ingest_summary(small_experiment):
+    sim, results, _ = small_experiment
+
+    class Summary:  # the fields of spotkit.ingest.IngestSummary the report shows
+        rows_read, accepted, rejected, duplicates = 105, 100, 3, 2
+        rejected_by_reason = {"bad locator": 3}
+
+    text = build_report(sim.spots, results[0], ingest_summary=Summary(), figures=False)
+    assert "rows set aside" in text and "bad locator: 3" in text
+    assert "<img" not in text
+
+
+def test_empty_results_are_refused(small_experiment):
+    sim, _, _ = small_experiment
+    with pytest.raises(ValueError, match="at least one"):
+        build_report(sim.spots, [])
+
+
+def _chromium() -> str | None:
+    for name in ("chromium", "chromium-browser", "google-chrome"):
+        path = shutil.which(name)
+        if path:
+            return path
+    return None
+
+
+@pytest.mark.browser
+@pytest.mark.slow
+def test_report_renders_with_its_images_in_headless_chromium(report_html, tmp_path):
+    browser = _chromium()
+    if browser is None:
+        pytest.skip("no Chromium on this machine (make test installs Debian's chromium as "
+                    "root; it could not be installed here)")
+    text = report_html
+    # a copy with a probe script that counts the images the browser actually decoded
+    probe = ("<script>window.addEventListener('load',()=>{const ok=[...document.images]"
+             ".filter(i=>i.complete&&i.naturalWidth>0).length;"
+             "document.body.setAttribute('data-images-ok',ok);"
+             "document.body.setAttribute('data-images-all',document.images.length);});"
+             "</script></body>")
+    page = tmp_path / "probe.html"
+    page.write_text(text.replace("</body>", probe), encoding="utf-8")
+    flags = ["--headless", "--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",
+             "--disable-background-networking", "--disable-component-update",
+             "--disable-sync", f"--user-data-dir={tempfile.mkdtemp()}",
+             "--virtual-time-budget=10000"]
+    dom = subprocess.run([browser, *flags, "--dump-dom", page.as_uri()],
+                         capture_output=True, text=True, timeout=120).stdout
+    ok = re.search(r'data-images-ok="(\d+)"', dom)
+    total = re.search(r'data-images-all="(\d+)"', dom)
+    assert ok and total, "the page's load event did not run"
+    assert int(total.group(1)) >= 6
+    assert int(ok.group(1)) == int(total.group(1))
+    # and a screenshot is not blank
+    shot = tmp_path / "shot.png"
+    subprocess.run([browser, *flags, "--window-size=1100,2000", f"--screenshot={shot}",
+                    page.as_uri()], capture_output=True, timeout=120)
+    from matplotlib.image import imread
+
+    img = imread(shot)
+    assert img.shape[0] >= 1000 and img[..., :3].std() > 0.05
+    Path(shot).unlink()
