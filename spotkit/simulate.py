@@ -252,25 +252,34 @@ class Truth:
         """Serialise to JSON (``path`` ending in .gz is gzip-compressed); returns the text.
 
         The document has ``design``, ``a``, ``b``, ``overall``, ``cells`` (by band and the
-        default distance cells) and, with ``include_pairs``, ``pairs`` as columns of
-        values (slots as ISO 8601 UTC text).
+        default distance cells) and, with ``include_pairs``, ``pairs`` in a compact form:
+        ``paths`` (columns band, tx_call, rx_call, distance_km, bearing_deg,
+        elevation_deg, b_minus_a_db - one entry per distinct far station and band, since
+        the true difference depends only on the path), and per pair ``path`` (index into
+        ``paths``), ``slot_min`` (minutes after ``start``, UTC) and ``heard`` (1: A only,
+        2: B only, 3: both).
         """
         doc = {"design": self.design, "a": self.a, "b": self.b, "overall": self.overall,
                "distance_edges_km": list(DEFAULT_DISTANCE_EDGES),
                "cells": json.loads(self.cells().to_json(orient="records"))}
         if include_pairs:
             p = self.pairs
+            keys = [C.BAND, C.TX_CALL, C.RX_CALL]
+            cols = keys + [C.DISTANCE, C.BEARING, C.ELEVATION, C.B_MINUS_A]
+            flat = p[cols].astype({k: str for k in keys})
+            codes, uniq = pd.factorize(pd.MultiIndex.from_frame(flat[keys]))
+            first = np.unique(codes, return_index=True)[1]
+            paths = flat.iloc[first].reset_index(drop=True)
+            ns = pd.DatetimeIndex(p[C.SLOT]).as_unit("ns").asi8
+            t0 = int(ns.min()) if len(ns) else 0
             doc["pairs"] = {
-                C.BAND: p[C.BAND].astype(str).tolist(),
-                C.SLOT: pd.Series(p[C.SLOT]).dt.strftime("%Y-%m-%dT%H:%M:%SZ").tolist(),
-                C.TX_CALL: p[C.TX_CALL].astype(str).tolist(),
-                C.RX_CALL: p[C.RX_CALL].astype(str).tolist(),
-                C.DISTANCE: np.round(p[C.DISTANCE].to_numpy(float), 3).tolist(),
-                C.BEARING: np.round(p[C.BEARING].to_numpy(float), 3).tolist(),
-                C.ELEVATION: np.round(p[C.ELEVATION].to_numpy(float), 3).tolist(),
-                C.B_MINUS_A: np.round(p[C.B_MINUS_A].to_numpy(float), 4).tolist(),
-                C.HEARD_A: p[C.HEARD_A].astype(bool).astype(int).tolist(),
-                C.HEARD_B: p[C.HEARD_B].astype(bool).astype(int).tolist(),
+                "start": pd.Timestamp(t0, tz="UTC").strftime("%Y-%m-%dT%H:%M:%SZ"),
+                "paths": {c: (paths[c].tolist() if c in keys else
+                              np.round(paths[c].to_numpy(float), 4).tolist()) for c in cols},
+                "path": codes.tolist(),
+                "slot_min": ((ns - t0) // (60 * 10**9)).tolist(),
+                "heard": (p[C.HEARD_A].to_numpy(bool).astype(int)
+                          + 2 * p[C.HEARD_B].to_numpy(bool).astype(int)).tolist(),
             }
         text = json.dumps(doc, separators=(",", ":"))
         if path is not None:
@@ -295,12 +304,17 @@ class Truth:
         pairs = doc.get("pairs")
         if pairs is None:
             raise ValueError("this truth JSON was written without its pairs")
-        df = pd.DataFrame(pairs)
-        if df.empty:
-            df = pd.DataFrame({c: [] for c in TRUTH_COLUMNS})
-        df[C.SLOT] = pd.to_datetime(df[C.SLOT], utc=True).astype(C.UTC_DTYPE)
-        for c in (C.HEARD_A, C.HEARD_B):
-            df[c] = df[c].astype(bool)
+        paths = pd.DataFrame(pairs["paths"])
+        idx = np.asarray(pairs["path"], dtype=np.int64)
+        df = paths.iloc[idx].reset_index(drop=True) if len(paths) else pd.DataFrame(
+            {c: pd.Series(dtype=float) for c in pairs["paths"]})
+        t0 = pd.Timestamp(pairs["start"])
+        df[C.SLOT] = (t0 + pd.to_timedelta(np.asarray(pairs["slot_min"], dtype=np.int64),
+                                           unit="min")).astype(C.UTC_DTYPE) if len(df) else \
+            pd.Series(dtype=C.UTC_DTYPE)
+        heard = np.asarray(pairs["heard"], dtype=np.int64)
+        df[C.HEARD_A] = (heard & 1).astype(bool)
+        df[C.HEARD_B] = (heard & 2).astype(bool)
         for c in (C.DISTANCE, C.BEARING, C.ELEVATION, C.B_MINUS_A):
             df[c] = df[c].astype(float)
         df[C.BAND] = df[C.BAND].astype("category")
@@ -947,8 +961,10 @@ def write_foreign_csv(spots: pd.DataFrame, path, layout: str = "comma", *,
         order = np.argsort(key, kind="stable")
         table = np.concatenate([table, table[src]])[order]
     out = pd.DataFrame(table, columns=lay["headings"] or list(range(9)))
+    gz = str(path).endswith(".gz")
     out.to_csv(path, sep=lay["sep"], index=False, header=lay["headings"] is not None,
-               compression="infer", lineterminator="\n")
+               compression={"method": "gzip", "mtime": 0} if gz else None,
+               lineterminator="\n")
     if lay["headings"] is None:
         mapping = {k: i + 1 for i, k in enumerate(_LAYOUT_FIELDS)}
     else:
@@ -972,8 +988,9 @@ def make_demo_data(out_dir, *, days: float = 3, n_receivers: int = 250,
     ground-mounted quarter-wave vertical with radials over average ground; B, a horizontal
     half-wave dipole 10 m high, wire running north-south. Files: ``simultaneous.csv.gz``
     (A transmits as Q1ABC, B as Q1ABD in the same slots) and ``receive.csv.gz`` (two
-    co-located receivers Q1ABC (A) and Q1ABD (B)), in the ``comma`` layout, each with its
-    truth beside it (``*.truth.json``).
+    co-located receivers Q1ABC (A) and Q1ABD (B)), in the ``comma`` layout with 0.2 %
+    duplicate uploads, each with its truth beside it (``*.truth.json``). Gzip output
+    carries no time stamp, so the files are byte-for-byte reproducible.
 
     Returns
     -------
@@ -992,7 +1009,8 @@ def make_demo_data(out_dir, *, days: float = 3, n_receivers: int = 250,
                              n_receivers=n_receivers, n_transmitters=n_transmitters,
                              home_locator=DEMO_LOCATOR, a=DEMO_CALL, b="Q1ABD",
                              power_a_dbm=37, power_b_dbm=37, **antennas)
-        write_foreign_csv(sim.spots, out / f"{design}.csv.gz", "comma", seed=seed)
+        write_foreign_csv(sim.spots, out / f"{design}.csv.gz", "comma", duplicates=0.002,
+                          seed=seed)
         sim.truth.to_json(out / f"{design}.truth.json")
         sims[design] = sim
     return sims

@@ -447,3 +447,32 @@ def test_cli_simulate_bad_arguments(tmp_path):
     assert main(["simulate", "--power-a", "31", "-o", str(tmp_path / "x.csv")]) == 2
     assert main(["simulate", "--difference-db", "lots", "-o", str(tmp_path / "x.csv")]) == 2
     assert main(["simulate", "--bands", "11m", "-o", str(tmp_path / "x.csv")]) == 2
+
+
+# --- demo data ---------------------------------------------------------------------------------
+def test_demo_files_and_truth(demo_dir):
+    ingest = pytest.importorskip("spotkit.ingest")
+    for design in ("simultaneous", "receive"):
+        truth = Truth.from_json(demo_dir / f"{design}.truth.json")
+        assert truth.design == design and (truth.a, truth.b) == ("Q1ABC", "Q1ABD")
+        per_band = truth.pairs.groupby(C.BAND, observed=True).size()
+        assert (per_band > 5000).all()  # thousands of pairs per band
+        res = ingest.read_spots(demo_dir / f"{design}.csv.gz")  # no mapping needed
+        sp = res.spots
+        assert res.summary.rejected == 0 and res.summary.duplicates > 0
+        assert set(sp[C.BAND].astype(str)) == {"20m", "10m"}
+        calls = sp[C.TX_CALL if design == "simultaneous" else C.RX_CALL].astype(str)
+        assert set(calls) == {"Q1ABC", "Q1ABD"}
+        everyone = pd.concat([sp[C.TX_CALL], sp[C.RX_CALL]]).astype(str)
+        assert everyone.str.match(r"^Q\d[A-Z]{2,3}$").all()
+        assert (demo_dir / f"{design}.csv.gz").stat().st_size < 2_000_000
+
+
+@pytest.mark.slow
+def test_demo_data_regenerates_byte_for_byte(demo_dir, tmp_path):
+    from spotkit.simulate import make_demo_data
+
+    make_demo_data(tmp_path)
+    for name in ("simultaneous.csv.gz", "simultaneous.truth.json", "receive.csv.gz",
+                 "receive.truth.json"):
+        assert (tmp_path / name).read_bytes() == (demo_dir / name).read_bytes(), name
