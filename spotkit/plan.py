@@ -55,8 +55,15 @@ Audit (:func:`audit_schedule`)
 
 Known error: the closed form is a planning figure. Its inputs (spread, report rate,
 correlation, censored fraction) come from a pilot day or from defaults, and propagation on the
-day of the run will differ; treat the hours as good to a factor of about 1.5 and prefer the
-simulation or a pilot when the decision matters.
+day of the run will differ (in the simulator the report rate alone varies by +-25 % from day to
+day); treat the hours as good to a factor of about 1.5. In the test suite's simulations (12 h,
+2,400 pairs, 120 receivers) the predicted standard error matched the spread of the estimates
+within a few per cent, but the comparison's bootstrap intervals came out about 10 % wider than
+``2 z SE``; for runs with only a few hundred pairs (a night on 10 m) the intervals were up to
+1.7 times the closed form's and the spread of the estimates 1.35 times: the normal
+approximation is optimistic when pairs are few, and a pilot that covers a whole day describes
+a run of a few night hours badly. Prefer a pilot over the same hours, and the simulation, when
+the decision matters.
 
 References
 ----------

@@ -14,9 +14,13 @@ from spotkit.pairing import read_schedule, schedule_antennas
 from spotkit.plan import (
     audit_schedule,
     censoring_information,
+    duration_by_simulation,
     duration_closed_form,
+    duration_table,
     make_schedule,
     pairs_needed,
+    pilot_parameters,
+    plot_duration_tradeoff,
     power_closed_form,
     schedule_balance,
     write_schedule,
@@ -281,6 +285,12 @@ def test_duration_bad_arguments(kwargs):
 P_A, P_B = 37.0, 30.0  # the two antennas run at different powers: the power is the marker
 
 
+def _in(df, cols, keys) -> np.ndarray:
+    """Rows of ``df`` whose (cols) tuple is in the set ``keys``."""
+    idx = pd.MultiIndex.from_arrays([df[c].astype(object).to_numpy() for c in cols])
+    return np.asarray(idx.isin(list(keys)), dtype=bool)
+
+
 def _spots_following(schedule, rng, call="Q1ABC", per_slot=(1, 6)):
     """Reports of ``call`` in every scheduled slot, power telling the antenna."""
     n = rng.integers(per_slot[0], per_slot[1] + 1, size=len(schedule))
@@ -319,17 +329,16 @@ def test_audit_finds_every_deliberately_broken_slot(rng, tmp_path):
     pick = rng.choice(spare, size=24, replace=False)
     gap_i, wrong_i, ghost_i = pick[:8], pick[8:16], pick[16:]
     # 1. gaps: all reports of 8 slots removed
+    SB = [C.SLOT, C.BAND]
     gap_slots = set(zip(s[C.SCHEDULE_START].iloc[gap_i], s[C.BAND].iloc[gap_i]))
-    key = list(zip(spots[C.SLOT], spots[C.BAND]))
-    spots = spots[[k not in gap_slots for k in key]].reset_index(drop=True)
+    spots = spots[~_in(spots, SB, gap_slots)].reset_index(drop=True)
     # 2. wrong antenna: 8 slots run at the other antenna's power
     wrong_slots = set(zip(s[C.SCHEDULE_START].iloc[wrong_i], s[C.BAND].iloc[wrong_i]))
-    key = list(zip(spots[C.SLOT], spots[C.BAND]))
-    hit = np.array([k in wrong_slots for k in key])
+    hit = _in(spots, SB, wrong_slots)
     spots.loc[hit, C.POWER] = np.where(spots.loc[hit, C.POWER] == P_A, P_B, P_A)
     # 3. off schedule: the station heard on the band it was not scheduled on (band hop)
-    ghost = spots[[k in set(zip(s[C.SCHEDULE_START].iloc[ghost_i], s[C.BAND].iloc[ghost_i]))
-                   for k in zip(spots[C.SLOT], spots[C.BAND])]].copy()
+    ghost_slots = set(zip(s[C.SCHEDULE_START].iloc[ghost_i], s[C.BAND].iloc[ghost_i]))
+    ghost = spots[_in(spots, SB, ghost_slots)].copy()
     ghost[C.BAND] = np.where(ghost[C.BAND] == "20m", "10m", "20m")
     #    and after the schedule ended
     late = spots.iloc[:3].copy()
@@ -338,8 +347,7 @@ def test_audit_finds_every_deliberately_broken_slot(rng, tmp_path):
     h5 = hour.iloc[0] + pd.Timedelta(hours=5)
     b5 = s[(hour == h5) & (s[C.BAND] == "10m") & (s[C.ANTENNA] == "B")]
     silent = set(zip(b5[C.SCHEDULE_START], b5[C.BAND]))
-    key = list(zip(spots[C.SLOT], spots[C.BAND]))
-    spots = spots[[k not in silent for k in key]]
+    spots = spots[~_in(spots, SB, silent)]
     spots = pd.concat([spots, ghost, late], ignore_index=True)
     spots = spots.sample(frac=1.0, random_state=1).reset_index(drop=True)
     spots[C.BAND] = spots[C.BAND].astype("category")
@@ -375,7 +383,7 @@ def test_audit_finds_every_deliberately_broken_slot(rng, tmp_path):
     assert r.summary["efficiency"] < 1
     # the corrected schedule gives the wrong-antenna slots the antenna the power says
     cs = r.corrected_schedule()
-    fixed = cs[[k in wrong_slots for k in zip(cs[C.SCHEDULE_START], cs[C.BAND])]]
+    fixed = cs[_in(cs, [C.SCHEDULE_START, C.BAND], wrong_slots)]
     orig = s.set_index([C.SCHEDULE_START, C.BAND]).loc[list(
         zip(fixed[C.SCHEDULE_START], fixed[C.BAND])), C.ANTENNA].to_numpy()
     assert (fixed[C.ANTENNA].to_numpy() != orig).all()
@@ -397,3 +405,127 @@ def test_audit_unknown_call_lists_calls(rng):
     spots = _spots_following(s, rng)
     with pytest.raises(InputError, match="Q1ABC"):
         audit_schedule(spots, s, "Q9ZZZ")
+
+
+# --- with the simulator and the comparison -------------------------------------------------
+def _simulate(schedule, days, seed, **kw):
+    from spotkit.simulate import simulate_spots
+
+    opts = dict(bands=("10m",), difference_db=1.0, n_receivers=120)
+    opts.update(kw)
+    return simulate_spots("alternating", days=days, seed=seed, start="2026-03-02",
+                          schedule=schedule, **opts)
+
+
+def test_audit_finds_mistakes_in_a_simulated_run(rng):
+    # the plan says S; the operator ran S' = S with 12 slots on the wrong antenna, marked by
+    # power (A 37 dBm, B 30 dBm); 6 more slots lost their reports; some reports sneak onto
+    # the band the schedule did not have in that slot (band hop)
+    planned = make_schedule("2026-03-02", 0.5, "20m,10m", band_hop=True, seed=21)
+    ran = planned.copy()
+    flip = rng.choice(len(ran), size=12, replace=False)
+    ran.loc[flip, C.ANTENNA] = np.where(ran.loc[flip, C.ANTENNA] == "A", "B", "A")
+    sim = _simulate(ran, 0.5, 5, bands=("20m", "10m"), power_a_dbm=37.0, power_b_dbm=30.0)
+    spots = sim.spots
+    SB = [C.SLOT, C.BAND]
+    heard = set(zip(spots[C.SLOT], spots[C.BAND].astype(str)))
+    flipped = set(zip(ran[C.SCHEDULE_START].iloc[flip], ran[C.BAND].iloc[flip]))
+    all_slots = set(zip(planned[C.SCHEDULE_START], planned[C.BAND]))
+    heard_ok = sorted((heard & all_slots) - flipped)
+    lose = {heard_ok[i] for i in rng.choice(len(heard_ok), size=6, replace=False)}
+    spots = spots[~_in(spots.assign(**{C.BAND: spots[C.BAND].astype(str)}), SB, lose)]
+    heard = set(zip(spots[C.SLOT], spots[C.BAND].astype(str)))
+    r = audit_schedule(spots, planned, sim.a)
+    sl = r.slots
+    found = {st: set(zip(sl.loc[sl["status"] == st, C.SLOT], sl.loc[sl["status"] == st, C.BAND]))
+             for st in ("gap", "wrong_antenna", "unknown_power")}
+    assert r.markers == {"A": 37.0, "B": 30.0}
+    assert found["wrong_antenna"] == flipped & heard  # every flipped slot that was heard
+    assert lose <= found["gap"]
+    assert found["gap"] == all_slots - heard  # and the slots nobody heard, nothing else
+    assert found["unknown_power"] == set()
+    assert r.summary["off_schedule_reports"] == 0
+    assert r.summary["efficiency"] < 1
+
+
+def test_pilot_parameters_from_a_simulated_pilot():
+    from spotkit.compare import compare_antennas
+
+    s = make_schedule("2026-03-02", 0.5, ["10m"], seed=8)
+    sim = _simulate(s, 0.5, 8)
+    pil = pilot_parameters(sim.spots, sim.design, sim.a, sim.b, schedule=sim.schedule,
+                           band="10m", n_boot=200, seed=1)
+    res = compare_antennas(sim.spots, sim.design, sim.a, sim.b, schedule=sim.schedule,
+                           n_boot=200, seed=1)
+    o = res.overall
+    assert pil.pairs == o[C.PAIRS]
+    assert pil.censored_fraction == pytest.approx((o[C.ONLY_A] + o[C.ONLY_B]) / o[C.PAIRS])
+    assert pil.hours == pytest.approx(12.0)  # 00:00 to 12:00 UTC, both ends' slots included
+    assert pil.pairs_per_hour == pytest.approx(pil.pairs / 12.0)
+    assert pil.mean_db == pytest.approx(o[C.B_MINUS_A], abs=1e-9)
+    assert pil.sigma_db == pytest.approx(o[C.SIGMA], abs=1e-6)
+    # the simulated truth is B = A + 1 dB; the pilot's own 95 % interval should cover it
+    assert abs(pil.mean_db - 1.0) < 3 * pil.se_db
+    assert 0 < pil.censoring_factor <= 1 and pil.design_effect > 0
+    assert pil.receivers <= 120 and 1 <= pil.clusters <= pil.receivers
+    # the measured censoring factor lies near the doubly censored normal model's value
+    model = float(censoring_information(pil.censored_fraction))
+    assert pil.censoring_factor == pytest.approx(model, abs=0.1)
+    d = duration_closed_form(1.0, **pil.closed_form_inputs())
+    assert d.feasible and d.hours > 0
+    with pytest.raises(InputError, match="10m"):
+        pilot_parameters(sim.spots, sim.design, sim.a, sim.b, schedule=sim.schedule,
+                         band="20m", n_boot=20)
+    with pytest.raises(UsageError):
+        pilot_parameters(sim.spots, "before-after", sim.a, sim.b, n_boot=20)
+
+
+def test_duration_table_and_plot():
+    import matplotlib.pyplot as plt
+
+    sim = pd.DataFrame({"hours": [6.0], "runs": 20, "power_sim": [0.5],
+                        "power_sim_low": [0.3], "power_sim_high": [0.7],
+                        "ci_width_sim_db": [1.0], "ci_width_sim_se_db": [0.05]})
+    t = duration_table(1.0, [3, 6, 12], sigma_db=3.0, pairs_per_hour=10.0, simulation=sim)
+    assert list(t["hours"]) == [3, 6, 12]
+    assert t["ci_width_db"].is_monotonic_decreasing and t["power"].is_monotonic_increasing
+    assert t.loc[t["hours"] == 6, "power_sim"].iloc[0] == 0.5
+    assert t["power_sim"].isna().sum() == 2
+    assert t.attrs["needed"]["hours"] == pytest.approx(pairs_needed(1.0, sigma_db=3.0) / 10)
+    ax = plot_duration_tradeoff(t)
+    assert ax.get_xscale() == "log" and ax.right_ax.get_ylim()[1] <= 1.05
+    assert len(ax.lines) >= 1 and len(ax.right_ax.lines) >= 1
+    fig, given = plt.subplots()
+    assert plot_duration_tradeoff(t, ax=given) is given
+    plt.close("all")
+
+
+@pytest.mark.slow
+def test_closed_form_agrees_with_simulation():
+    # The closed form, fed with a pilot's spread, censoring factor and design effect, must
+    # predict what repeated simulated experiments (simulator + compare) show: the empirical
+    # power within 3 binomial Monte-Carlo standard errors, and the mean 95 % CI width within
+    # 3 Monte-Carlo standard errors plus 5 % (the pilot's own estimation error of sigma and
+    # of the censoring factor, about 2-3 % each at this size). Both are evaluated at the
+    # simulations' own mean number of pairs so that day-to-day variation of the report rate
+    # (the simulator's daily condition factor) does not enter.
+    effect, hours, runs = 0.25, 12.0, 40
+    sim_table = duration_by_simulation(effect, [hours], n_runs=runs, n_boot=100, seed=3,
+                                       band="10m", n_receivers=120)
+    row = sim_table.iloc[0]
+    s = make_schedule("2026-03-02", 1, ["10m"], seed=99)
+    pil = pilot_parameters(_simulate(s, 1, 99, difference_db=effect).spots, "alternating",
+                           "Q1ABC", schedule=s, n_boot=400, seed=2)
+    inputs = pil.closed_form_inputs()
+    inputs["pairs_per_hour"] = row["pairs_sim"] / hours
+    pred = power_closed_form([hours], effect, **inputs).iloc[0]
+    mc = math.sqrt(pred["power"] * (1 - pred["power"]) / runs)
+    assert 0.2 < pred["power"] < 0.95  # an informative operating point
+    assert abs(row["power_sim"] - pred["power"]) <= 3 * mc
+    assert abs(row["ci_width_sim_db"] - pred["ci_width_db"]) <= (
+        3 * row["ci_width_sim_se_db"] + 0.05 * pred["ci_width_db"])
+    # the spread of the estimates over runs is the predicted standard error, within 3
+    # Monte-Carlo standard errors of an SD from 40 runs (1 / sqrt(2 x 39) = 11 % each) + 5 %
+    assert abs(row["estimate_sd_db"] / pred["se_db"] - 1) <= 3 / math.sqrt(2 * (runs - 1)) + 0.05
+    # the estimates are centred on the truth (within 3 standard errors of their mean)
+    assert abs(row["estimate_mean_db"] - effect) <= 3 * row["estimate_sd_db"] / math.sqrt(runs)
