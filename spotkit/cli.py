@@ -629,22 +629,80 @@ def _cmd_plan(args) -> int:
 
 # --- report / demo -----------------------------------------------------------------------
 def _add_report(sub):
-    p = sub.add_parser("report", help="write a self-contained HTML report")
+    p = sub.add_parser(
+        "report", help="write a self-contained HTML report of an A/B comparison",
+        description="Compare antennas A and B (overall, by band, band x distance, band x "
+        "bearing, band x elevation, band x hour, and any --by you add) and write one HTML "
+        "file with the verdict tables, maps, plots, the method in plain words and the "
+        "safety cautions. Figures are embedded; the file needs no network to open.")
+    p.add_argument("spots", metavar="SPOTS",
+                   help="spot table: Parquet from 'spotkit ingest' or a spot CSV")
+    p.add_argument("--design", required=True,
+                   choices=["simultaneous", "alternating", "receive", "before-after"],
+                   help="how reports are assigned to A and B")
+    p.add_argument("--a", required=True, metavar="CALL", help="call of A")
+    p.add_argument("--b", metavar="CALL", help="call of B")
+    p.add_argument("--schedule", metavar="even-odd|FILE", help="alternating design schedule")
+    p.add_argument("--change-at", metavar="TIME", help="before-after design: change time (UTC)")
+    p.add_argument("--by", default="", metavar="KEY,KEY",
+                   help="an extra breakdown shown last, e.g. band,distance,bearing")
+    p.add_argument("--boot", type=int, default=1000, help="bootstrap resamples (default 1000)")
+    p.add_argument("--seed", type=int, default=0, help="bootstrap seed (default 0)")
+    p.add_argument("--title", help="report title")
+    p.add_argument("-o", "--output", required=True, metavar="OUT.html")
+    p.add_argument("--no-progress", action="store_true", help="hide the progress bars")
     p.set_defaults(func=_cmd_report)
 
 
+def _by_keys(text: str) -> list[str]:
+    from .pairing import parse_by
+
+    by = [k for k in (text or "").replace(" ", "").split(",") if k]
+    try:
+        parse_by(by)
+    except ValueError as exc:
+        raise UsageError(f"--by: {exc}") from None
+    return by
+
+
 def _cmd_report(args) -> int:
-    raise UsageError("spotkit report is not available yet")
+    from .ingest import load_spots
+    from .report import standard_comparisons, write_report
+
+    by = _by_keys(args.by)
+    spots = load_spots(args.spots)
+    progress = not args.no_progress
+    results, map_result = standard_comparisons(
+        spots, args.design, args.a, args.b, by=by or None, schedule=args.schedule,
+        change_at=args.change_at, n_boot=args.boot, seed=args.seed, progress=progress)
+    write_report(args.output, spots, results, map_result=map_result, title=args.title,
+                 progress=progress)
+    print(results[0].verdicts()[0])
+    print(f"wrote {args.output}")
+    return EXIT_OK
 
 
 def _add_demo(sub):
-    p = sub.add_parser("demo", help="run the whole job on the bundled demo data")
-    p.add_argument("-o", "--output", default="out", metavar="DIR")
+    p = sub.add_parser(
+        "demo", help="run the whole job on the bundled demo data",
+        description="Read the bundled demo scenario (an invented station, Q1ABC, testing a "
+        "vertical against a dipole on 20 m and 10 m), compare the antennas, check the answer "
+        "against the scenario's known truth, and write the report, maps and tables.")
+    p.add_argument("-o", "--output", default="out", metavar="DIR",
+                   help="folder for the results (default out/)")
+    p.add_argument("--data", metavar="DIR", help="demo data folder (default: the bundled "
+                   "demo_data/)")
+    p.add_argument("--boot", type=int, default=1000, help="bootstrap resamples (default 1000)")
+    p.add_argument("--no-progress", action="store_true", help="hide the progress bars")
     p.set_defaults(func=_cmd_demo)
 
 
 def _cmd_demo(args) -> int:
-    raise UsageError("spotkit demo is not available yet")
+    from .demo import run_demo
+
+    run_demo(args.output, data_dir=args.data, n_boot=args.boot,
+             progress=not args.no_progress, echo=print)
+    return EXIT_OK
 
 
 # --- main --------------------------------------------------------------------------------
