@@ -529,3 +529,64 @@ def test_closed_form_agrees_with_simulation():
     assert abs(row["estimate_sd_db"] / pred["se_db"] - 1) <= 3 / math.sqrt(2 * (runs - 1)) + 0.05
     # the estimates are centred on the truth (within 3 standard errors of their mean)
     assert abs(row["estimate_mean_db"] - effect) <= 3 * row["estimate_sd_db"] / math.sqrt(runs)
+
+
+# --- command line ------------------------------------------------------------------------
+def test_cli_schedule_is_read_back_by_spotkit_compare(tmp_path, capsys):
+    import json
+
+    from spotkit.cli import main
+    from spotkit.store import write_spots
+
+    sched = tmp_path / "switch.csv"
+    assert main(["plan", "schedule", "--start", "2026-03-02T00:00Z", "--days", "0.5",
+                 "--bands", "10m", "--seed", "4", "-o", str(sched)]) == 0
+    assert "same number of slots" in capsys.readouterr().out
+    table = read_schedule(sched)
+    assert (schedule_balance(table)["A"] == 15).all() and (schedule_balance(table)["B"] == 15).all()
+    sim = _simulate(table, 0.5, 4)  # B = A + 1 dB, switched as the file says
+    spots = write_spots(sim.spots, tmp_path / "spots.parquet")
+    out = tmp_path / "result.json"
+    assert main(["compare", str(spots), "--design", "alternating", "--a", sim.a,
+                 "--schedule", str(sched), "--boot", "200", "--json", str(out)]) == 0
+    res = json.loads(out.read_text())["overall"]
+    assert res["ci_low_db"] < 1.0 < res["ci_high_db"] and res["pairs"] > 1000
+    # audit of the same run from the command line: followed as planned, apart from gaps
+    findings = tmp_path / "findings.csv"
+    assert main(["plan", "audit", str(spots), "--schedule", str(sched), "--call", sim.a,
+                 "--csv", str(findings)]) == 0
+    text = capsys.readouterr().out
+    assert "wrong antenna" in text and "same power" in text
+    f = pd.read_csv(findings)
+    assert set(f["kind"]) <= {"gap", "one_antenna_hour"}
+
+
+def test_cli_duration(tmp_path, capsys):
+    from spotkit.cli import main
+
+    csv, png = tmp_path / "d.csv", tmp_path / "d.png"
+    assert main(["plan", "duration", "--effect", "1", "--sigma", "3", "--pairs-per-hour",
+                 "10", "--hours", "3,6,12", "--csv", str(csv), "--plot", str(png)]) == 0
+    out = capsys.readouterr().out
+    assert "7.1 h (71 pairs" in out  # 70.6 pairs at 10 pairs/h, see the textbook test
+    t = pd.read_csv(csv)
+    assert list(t["hours"]) == [3, 6, 12] and png.stat().st_size > 1000
+    assert main(["plan", "duration", "--effect", "1", "--sigma", "3", "--pairs-per-hour",
+                 "10", "--hours", "x"]) == 2
+    assert main(["plan"]) == 2
+
+
+def test_cli_duration_from_pilot(tmp_path, capsys):
+    from spotkit.cli import main
+    from spotkit.store import write_spots
+
+    s = make_schedule("2026-03-02", 0.5, ["10m"], seed=6)
+    path = write_schedule(s, tmp_path / "s.csv")
+    sim = _simulate(s, 0.5, 6)
+    spots = write_spots(sim.spots, tmp_path / "pilot.parquet")
+    assert main(["plan", "duration", "--effect", "0.5", "--pilot", str(spots), "--design",
+                 "alternating", "--a", sim.a, "--schedule", str(path), "--band", "10m",
+                 "--hours", "6,24"]) == 0
+    out = capsys.readouterr().out
+    assert "inputs from pilot" in out and "pairs" in out
+    assert main(["plan", "duration", "--effect", "0.5", "--pilot", str(spots)]) == 2
