@@ -13,7 +13,8 @@ Model (all invented; test-only):
 * each slot uses one band (cycling through ``bands``); a far station hears the slot's path
   open with probability ``p_open``;
 * per pair a common level (per W) drawn from a right-skewed distribution that puts many
-  pairs near threshold: ``level = floor_db + Gamma(shape 1.6, scale 7 dB)``; the true
+  pairs near threshold: ``level = floor_db + Gamma(shape 1.6, scale 7 dB)`` (both
+  settable; or flat, ``level_dist="uniform"``) minus distance / 2000 km [dB]; the true
   difference is a constant per band x distance cell (``truth``), plus an optional per-far-
   station random effect; independent Gaussian fast fading per antenna; raw SNR = per-W
   SNR + (power - 30) rounded to whole dB; a report exists only at or above threshold.
@@ -52,7 +53,9 @@ def default_truth(bands=("20m", "10m")) -> pd.DataFrame:
 
 def generate(*, n_far: int = 600, n_slots: int = 240, bands=("20m", "10m"),
              power_a_dbm: float = 37.0, power_b_dbm: float = 30.0, p_open: float = 0.5,
-             floor_db: float = -40.0, fading_db: float = 1.5, station_sd_db: float = 0.0,
+             floor_db: float = -40.0, level_shape: float = 1.6, level_scale_db: float = 7.0,
+             level_dist: str = "gamma",
+             fading_db: float = 1.5, station_sd_db: float = 0.0,
              design: str = "simultaneous", truth: pd.DataFrame | None = None,
              seed: int = 0, start="2026-03-01T00:00Z"):
     """Generate a canonical spot table and its truth.
@@ -98,7 +101,11 @@ def generate(*, n_far: int = 600, n_slots: int = 240, bands=("20m", "10m"),
             r[C.B_MINUS_A]
     band_idx = np.arange(n_slots) % len(bands)
     delta = table[band_idx[si], cell] + station_eff[fi]
-    level = floor_db + rng.gamma(1.6, 7.0, fi.size) - dist[fi] / 2000.0
+    if level_dist == "gamma":
+        spread = rng.gamma(level_shape, level_scale_db, fi.size)
+    else:  # "uniform": flat between floor_db and floor_db + level_scale_db
+        spread = rng.uniform(0.0, level_scale_db, fi.size)
+    level = floor_db + spread - dist[fi] / 2000.0
     if design == "receive":  # the far transmitters run 1 W; A and B are receivers
         power_a_dbm = power_b_dbm = 30.0
     snr_a = level + rng.normal(0, fading_db, fi.size) + (power_a_dbm - 30)

@@ -1,0 +1,244 @@
+"""Tests of spotkit.compare: recovery of a known B-minus-A, coverage, contract, CLI.
+
+The estimator (censored-normal MLE, Tobin 1958) has no trusted published number, so it is
+checked by simulation: the project's simulator (:mod:`spotkit.simulate`) and an
+independent held-out generator (``tests/heldout.py``) with known truth.
+"""
+from __future__ import annotations
+
+import json
+import sys
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+import pytest
+
+from spotkit import columns as C
+from spotkit.cli import main
+from spotkit.compare import RESULT_COLUMNS, compare_antennas, estimate_groups
+from spotkit.errors import InputError, NoPairsError
+from spotkit.pairing import merge_summaries, pair_spots, summarise_pairs
+from spotkit.simulate import simulate_spots
+
+sys.path.insert(0, str(Path(__file__).resolve().parent))
+import heldout  # noqa: E402
+
+EDGES = (0.0, 3000.0, 6000.0, 20000.0)
+CELL_TRUTH = {"20m": (0.5, 1.5, -1.0), "10m": (-0.5, 1.0, 2.0)}  # invented, dB
+
+
+def _cells(sim, result):
+    truth = sim.truth.cells(distance_edges=EDGES)
+    return result.groups.merge(truth, on=[C.BAND, C.DISTANCE_MIN, C.DISTANCE_MAX],
+                               suffixes=("", "_true"))
+
+
+# --- recovery by simulation ---------------------------------------------------------------
+@pytest.mark.slow
+@pytest.mark.parametrize("design, kw", [
+    ("simultaneous", {"power_b_dbm": 30.0}),   # A at 5 W, B at 1 W
+    ("alternating", {}),
+    ("receive", {}),
+    ("receive", {"threshold_db": -18.0}),      # many reports near threshold
+])
+def test_recovers_known_difference_per_cell(design, kw):
+    sim = simulate_spots(design, days=2, seed=5, difference_db=CELL_TRUTH,
+                         difference_edges=EDGES, **kw)
+    res = compare_antennas(sim.spots, **sim.compare_kwargs(), by="band,distance",
+                           distance_edges=EDGES, n_boot=100)
+    g = _cells(sim, res)
+    big = g[g[C.PAIRS] >= 2000]
+    assert len(big) >= 3
+    # tolerance 0.3 dB in cells with thousands of pairs (the issue's target)
+    np.testing.assert_allclose(big[C.B_MINUS_A], big["b_minus_a_db_true"], atol=0.3)
+    # the same pairs as the simulator's (alternating: a few slots matched differently)
+    # (receive: slots where the other receiver reported nothing count as off the air)
+    np.testing.assert_allclose(g[C.PAIRS], g["pairs_true"], rtol=0.05)
+
+
+@pytest.mark.slow
+@pytest.mark.xfail(strict=True, reason="known limitation: with A 7 dB louder than B and "
+                   "many pairs near threshold the flat-level-prior Tobit is biased by up "
+                   "to about 0.4 dB (see the compare module docstring)")
+def test_recovery_near_threshold_with_unequal_powers():
+    sim = simulate_spots("simultaneous", days=2, seed=5, difference_db=CELL_TRUTH,
+                         difference_edges=EDGES, power_b_dbm=30.0, threshold_db=-18.0)
+    res = compare_antennas(sim.spots, **sim.compare_kwargs(), by="band,distance",
+                           distance_edges=EDGES, n_boot=50)
+    big = _cells(sim, res).query(f"{C.PAIRS} >= 2000")
+    np.testing.assert_allclose(big[C.B_MINUS_A], big["b_minus_a_db_true"], atol=0.3)
+
+
+@pytest.mark.slow
+def test_before_after_is_weaker_and_says_so():
+    sim = simulate_spots("before-after", days=2, seed=5, difference_db=1.5)
+    res = compare_antennas(sim.spots, **sim.compare_kwargs(), n_boot=200)
+    # weaker design: 0.5 dB tolerance on the overall difference (simulated truth 1.5 dB)
+    assert res.overall[C.B_MINUS_A] == pytest.approx(1.5, abs=0.5)
+    assert "weaker" in res.overall[C.METHOD] and "censoring not modelled" in \
+        res.overall[C.METHOD]
+    assert "weaker" in res.verdicts()[0]
+
+
+@pytest.mark.slow
+def test_interval_coverage_over_repeated_runs():
+    """200 independent small experiments (disjoint receiver sets of one simulation, about 9
+    receivers and 600 pairs each): the 95 % CI should cover the truth in about 95 % of them
+    (binomial SD 1.5 %: accept 0.90-0.99)."""
+    sim = simulate_spots("simultaneous", days=1, seed=11, bands=("20m",), n_receivers=3000,
+                         difference_db=1.0)
+    p = pair_spots(sim.spots, **sim.compare_kwargs())
+    rx = np.sort(p[C.CLUSTER].astype(str).unique())
+    run_of = dict(zip(rx, np.random.default_rng(0).permutation(rx.size) % 200))
+    counts = summarise_pairs(p, ())
+    counts.insert(0, "run", counts[C.CLUSTER].map(run_of))
+    res = estimate_groups(counts, n_boot=200, seed=1, min_pairs=10)
+    assert len(res) == 200 and res[C.CI_LOW].notna().all()
+    covered = ((res[C.CI_LOW] <= 1.0) & (res[C.CI_HIGH] >= 1.0)).mean()
+    assert 0.90 <= covered <= 0.99
+
+
+# --- held-out generator and the reason for the censored estimator -----------------------
+@pytest.mark.slow
+def test_heldout_generator_every_cell_within_035_db():
+    spots, truth = heldout.generate(n_far=800, n_slots=500, seed=2)
+    res = compare_antennas(spots, "simultaneous", heldout.CALL_A, heldout.CALL_B,
+                           by="band,distance", distance_edges=heldout.DISTANCE_EDGES,
+                           n_boot=50)
+    g = res.groups.merge(truth, on=[C.BAND, C.DISTANCE_MIN, C.DISTANCE_MAX],
+                         suffixes=("", "_true"))
+    big = g[g[C.PAIRS] >= 5000]
+    assert len(big) == len(truth) == 6
+    np.testing.assert_allclose(big[C.B_MINUS_A], big["b_minus_a_db_true"], atol=0.35)
+
+
+def test_both_heard_only_is_biased_near_threshold_censored_much_less():
+    """A 7 dB louder than B, many pairs near threshold (held-out generator): the pairs
+    where B fell below threshold drop out of the both-heard set, so its mean is biased
+    upwards; the censored MLE uses them as bounds and is much less biased (not unbiased:
+    its residual bias under a skewed level distribution is the known error stated in
+    spotkit.compare)."""
+    truth = heldout.default_truth(("20m",)).assign(**{C.B_MINUS_A: -1.0})
+    spots, _ = heldout.generate(n_far=300, n_slots=200, bands=("20m",), truth=truth,
+                                p_open=0.6, seed=4)
+    res = compare_antennas(spots, "simultaneous", heldout.CALL_A, heldout.CALL_B,
+                           n_boot=50)
+    o = res.overall
+    assert o[C.ONLY_A] > 0.3 * o[C.PAIRS]  # heavy censoring
+    both_err = o[C.BOTH_HEARD] - (-1.0)
+    tobit_err = o[C.B_MINUS_A] - (-1.0)
+    assert both_err > 0.2                    # both-heard-only: biased by more than 0.2 dB
+    assert abs(tobit_err) < 0.2              # censored MLE: within 0.2 dB
+    assert abs(tobit_err) < 0.7 * both_err   # and clearly less biased
+    # not stuck on whole / half dB although every report is whole dB
+    assert abs(o[C.B_MINUS_A] * 2 - round(o[C.B_MINUS_A] * 2)) > 1e-3
+
+
+# --- contract -------------------------------------------------------------------------------
+@pytest.fixture(scope="module")
+def small_sim():
+    return simulate_spots("simultaneous", days=0.5, seed=2, bands=("20m", "10m"),
+                          n_receivers=120, difference_db={"20m": 1.0, "10m": 0.0})
+
+
+@pytest.fixture(scope="module")
+def small_result(small_sim):
+    return compare_antennas(small_sim.spots, **small_sim.compare_kwargs(),
+                            by="band,distance", n_boot=100, min_pairs=200)
+
+
+def test_json_contract(small_result, tmp_path):
+    doc = json.loads(small_result.to_json(tmp_path / "r.json"))
+    assert json.loads((tmp_path / "r.json").read_text()) == doc
+    need = {"b_minus_a_db", "ci_low_db", "ci_high_db", "pairs", "only_a", "only_b",
+            "p_value", "method", "both_heard_b_minus_a_db", "hodges_lehmann_db",
+            "p_wilcoxon", "p_sign", "p_mcnemar", "p_adjusted"}
+    assert need <= set(doc["overall"])
+    assert doc["groups"] and all(need | {"band", "distance_min_km", "distance_max_km"}
+                                 <= set(g) for g in doc["groups"])
+    assert {g["band"] for g in doc["groups"]} == {"20m", "10m"}
+    assert len(doc["verdicts"]) == 1 + len(doc["groups"])
+
+
+def test_groups_table_verdicts_and_too_few(small_result):
+    g = small_result.groups
+    assert list(g.columns[:4]) == [C.BAND, C.DISTANCE_MIN, C.DISTANCE_MAX, C.B_MINUS_A]
+    assert set(RESULT_COLUMNS) <= set(g.columns)
+    few = g[g[C.PAIRS] < 200]
+    assert few[C.B_MINUS_A].isna().all()
+    assert few[C.NOTE].str.contains("too few pairs").all()
+    text = str(small_result)
+    assert "too few pairs" in text and "B-A dB" in text
+    v = small_result.verdicts()
+    assert all(isinstance(s, str) and s for s in v)
+    for s, (_, row) in zip(v[1:], g.iterrows()):
+        if pd.isna(row[C.B_MINUS_A]):
+            assert "too few pairs" in s
+        elif row[C.CI_LOW] <= 0 <= row[C.CI_HIGH]:
+            assert s.startswith("no difference shown")
+        else:
+            assert " dB better than " in s and f"{int(row[C.PAIRS]):,} pairs" in s
+    frame = small_result.to_frame()
+    assert frame[C.GROUP].iloc[0] == "overall" and len(frame) == len(g) + 1
+    # BH-adjusted p-values are never below the raw ones
+    ok = g[C.P_VALUE].notna()
+    assert (g.loc[ok, C.P_ADJUSTED] >= g.loc[ok, C.P_VALUE] - 1e-12).all()
+
+
+def test_verdict_wording():
+    from spotkit.compare import verdict
+    row = {C.BAND: "10m", C.DISTANCE_MIN: 3000.0, C.DISTANCE_MAX: 20000.0,
+           C.B_MINUS_A: 1.8, C.CI_LOW: 1.2, C.CI_HIGH: 2.4, C.PAIRS: 5412, C.NOTE: ""}
+    assert verdict(row) == ("B is 1.8 dB better than A on 10 m, beyond 3,000 km "
+                            "(95 % CI 1.2 to 2.4 dB, 5,412 pairs)")
+    row.update({C.B_MINUS_A: 0.2, C.CI_LOW: -0.3})
+    assert verdict(row).startswith("no difference shown on 10 m")
+
+
+def test_merged_partial_summaries_give_the_same_estimates(small_sim):
+    p = pair_spots(small_sim.spots, **small_sim.compare_kwargs())
+    whole = summarise_pairs(p, "band")
+    parts = [summarise_pairs(p.iloc[i::3], "band") for i in range(3)]
+    merged = merge_summaries(parts)
+    cl = sorted(p[C.CLUSTER].astype(str).unique())
+    a = estimate_groups(whole, n_boot=50, seed=3, clusters=cl)
+    b = estimate_groups(merged, n_boot=50, seed=3, clusters=cl)
+    pd.testing.assert_frame_equal(a, b, check_dtype=False)
+
+
+def test_bad_input_messages(small_sim):
+    with pytest.raises(InputError, match="not a transmitter call.*Q1ABC"):
+        compare_antennas(small_sim.spots, "simultaneous", "Q1NOPE", "Q1ABD")
+    with pytest.raises(ValueError, match="valid: band, distance"):
+        compare_antennas(small_sim.spots, "simultaneous", "Q1ABC", "Q1ABD", by="colour")
+    with pytest.raises(NoPairsError):
+        compare_antennas(small_sim.spots.iloc[:0], "simultaneous", "Q1ABC", "Q1ABD")
+
+
+# --- command line ---------------------------------------------------------------------------
+def test_cli_end_to_end(small_sim, tmp_path, capsys):
+    path = tmp_path / "spots.parquet"
+    small_sim.spots.to_parquet(path)
+    out_json, out_csv = tmp_path / "r.json", tmp_path / "r.csv"
+    code = main(["compare", str(path), "--design", "simultaneous", "--a", "Q1ABC", "--b",
+                 "Q1ABD", "--by", "band,bearing", "--bearing-width", "90", "--boot", "50",
+                 "--json", str(out_json), "--csv", str(out_csv)])
+    assert code == 0
+    doc = json.loads(out_json.read_text())
+    assert doc["by"] == ["band", "bearing"]
+    assert all("bearing_min_deg" in g for g in doc["groups"])
+    assert pd.read_csv(out_csv)[C.GROUP].iloc[0] == "overall"
+    assert "B-A dB" in capsys.readouterr().out
+
+
+def test_cli_bad_call_and_bad_option(small_sim, tmp_path, capsys):
+    path = tmp_path / "spots.parquet"
+    small_sim.spots.to_parquet(path)
+    code = main(["compare", str(path), "--design", "simultaneous", "--a", "Q1ZZZ", "--b",
+                 "Q1ABD"])
+    assert code == 1
+    err = capsys.readouterr().err
+    assert "Q1ZZZ" in err and "Q1ABC" in err
+    assert main(["compare", str(path), "--design", "simultaneous", "--a", "Q1ABC", "--b",
+                 "Q1ABD", "--by", "colour"]) == 2
