@@ -105,6 +105,17 @@ CLUSTERS = "clusters"  # number of bootstrap clusters (receivers / transmitters)
 NOTE = "note"  # plain-language remark (too few pairs, no interval...)
 GROUP = "group"  # readable group label
 
+# --- reach (spotkit.reach) ------------------------------------------------------------------
+STATIONS = "stations"  # distinct far stations reached
+STATIONS_ONLY = "stations_only"  # far stations reached by this antenna and never by the other
+HEARD = "heard"  # pairs in which this antenna was heard
+P_HEARD = "p_heard"  # heard / pairs
+P_HEARD_LOW = "p_heard_low"  # Wilson interval of P_HEARD
+P_HEARD_HIGH = "p_heard_high"
+DISTANCE_MEDIAN = "distance_median_km"  # over the distinct far stations reached [km]
+DISTANCE_P90 = "distance_p90_km"
+DISTANCE_FARTHEST = "distance_farthest_km"
+
 # --- rejects table -----------------------------------------------------------------------
 REJECT_FIELD = "field"
 REJECT_VALUE = "value"
