@@ -73,9 +73,8 @@ on the differences) [section from memory].
 L. Kish, *Survey Sampling*, Wiley, 1965 (design effect of cluster sampling) [from memory].
 J. Tobin, "Estimation of relationships for limited dependent variables", Econometrica 26:24-36,
 1958.
-A. Donner, "A review of inference procedures for the intraclass correlation coefficient in the
-one-way random effects model", International Statistical Review 54:67-82, 1986 (ANOVA
-estimator of the ICC) [from memory].
+A. C. Davison, D. V. Hinkley, *Bootstrap Methods and their Application*, Cambridge, 1997,
+sec. 3.8 (cluster bootstrap; a pilot's design effect).
 L. M. Friedman, C. D. Furberg, D. L. DeMets, *Fundamentals of Clinical Trials*, 4th ed.,
 Springer, 2010, ch. 6 (blocked randomisation) [from memory].
 E. B. Wilson, "Probable inference, the law of succession, and statistical inference",
@@ -109,6 +108,19 @@ SLOT_OK, SLOT_GAP, SLOT_WRONG, SLOT_UNKNOWN = "ok", "gap", "wrong_antenna", "unk
 OFF_NOT_SCHEDULED, OFF_WRONG_BAND = "not scheduled", "band not scheduled in this slot"
 
 _HOUR = pd.Timedelta(hours=1)
+
+# Names of this module's own output columns (plan and audit tables, not spot-table columns).
+HOUR_UTC = "hour_utc"  # start of a clock hour [UTC]
+STATUS = "status"
+ACTUAL_ANTENNA = "actual_antenna"
+SLOTS_A, SLOTS_B = "slots_a", "slots_b"
+USABLE_A, USABLE_B = "usable_a", "usable_b"
+EFF_PLANNED, EFF_ACTUAL = "effective_pairs_planned", "effective_pairs"
+IMBALANCE = "imbalance"
+ONE_ANTENNA = "one_antenna"
+DETAIL = "detail"
+#: Kinds of audit finding (the KIND column of :meth:`AuditResult.to_frame`).
+FINDINGS = ("gap", "wrong_antenna", "unknown_power", "off_schedule", "one_antenna_hour")
 
 
 # ---------------------------------------------------------------------------------------------
@@ -278,10 +290,11 @@ def schedule_balance(schedule: pd.DataFrame) -> pd.DataFrame:
     Returns
     -------
     pandas.DataFrame
-        Index (hour start [UTC], band), columns ``A`` and ``B`` [slots].
+        Index (``hour_utc``: start of the clock hour [UTC], ``band``), columns ``A`` and
+        ``B`` [slots].
     """
     hour = pd.to_datetime(schedule[C.SCHEDULE_START], utc=True).dt.floor("h")
-    keys = [hour.rename(C.HOUR)]
+    keys = [hour.rename(HOUR_UTC)]
     if C.BAND in schedule.columns:
         keys.append(schedule[C.BAND].astype(str).rename(C.BAND))
     counts = schedule.groupby(keys + [schedule[C.ANTENNA].astype(str)]).size()
@@ -579,17 +592,6 @@ censoring_factor
 # ---------------------------------------------------------------------------------------------
 # audit of a finished run
 # ---------------------------------------------------------------------------------------------
-# Names of the audit's own output columns (not spot-table columns).
-STATUS = "status"
-ACTUAL_ANTENNA = "actual_antenna"
-HOUR_UTC = "hour_utc"
-SLOTS_A, SLOTS_B = "slots_a", "slots_b"
-USABLE_A, USABLE_B = "usable_a", "usable_b"
-EFF_PLANNED, EFF_ACTUAL = "effective_pairs_planned", "effective_pairs"
-ONE_ANTENNA = "one_antenna"
-DETAIL = "detail"
-#: Kinds of audit finding (the KIND column of :meth:`AuditResult.to_frame`).
-FINDINGS = ("gap", "wrong_antenna", "unknown_power", "off_schedule", "one_antenna_hour")
 
 
 def _effective_pairs(a, b) -> np.ndarray:
@@ -652,7 +654,9 @@ class AuditResult:
     hours : pandas.DataFrame
         One row per clock hour and band: ``hour_utc``, ``band``, ``slots_a``, ``slots_b``
         (scheduled), ``usable_a``, ``usable_b`` (slots with reports agreeing with the schedule),
-        ``effective_pairs_planned``, ``effective_pairs``, ``one_antenna``.
+        ``effective_pairs_planned``, ``effective_pairs``, ``imbalance``
+        (``(usable_a - usable_b) / (usable_a + usable_b)``, NaN when both are 0),
+        ``one_antenna``.
     off_schedule : pandas.DataFrame
         The station's reports in slots or bands the schedule does not have, with ``reason``.
     """
@@ -873,6 +877,9 @@ def audit_schedule(spots: pd.DataFrame, schedule: pd.DataFrame, call: str, *,
     hours = hb.groupby([HOUR_UTC, C.BAND], sort=True).sum().reset_index()
     hours[EFF_PLANNED] = _effective_pairs(hours[SLOTS_A], hours[SLOTS_B])
     hours[EFF_ACTUAL] = _effective_pairs(hours[USABLE_A], hours[USABLE_B])
+    tot = (hours[USABLE_A] + hours[USABLE_B]).to_numpy(float)
+    hours[IMBALANCE] = np.divide((hours[USABLE_A] - hours[USABLE_B]).to_numpy(float), tot,
+                                 out=np.full(tot.size, np.nan), where=tot > 0)
     hours[ONE_ANTENNA] = (hours[USABLE_A] > 0) != (hours[USABLE_B] > 0)
     silent = (hours[USABLE_A] == 0) & (hours[USABLE_B] == 0)
 
@@ -1317,3 +1324,12 @@ def plot_duration_tradeoff(table: pd.DataFrame, ax=None):
     ax.legend(h1 + h2, l1 + l2, loc="upper right", fontsize="small")
     ax.right_ax = right
     return ax
+
+
+__all__ = [
+    "ANTENNAS", "MARKERS", "FINDINGS", "SIM_DESIGNS", "slots_per_hour", "make_schedule",
+    "write_schedule", "schedule_balance", "expand_schedule", "pairs_needed",
+    "censoring_information", "DurationEstimate", "duration_closed_form", "power_closed_form",
+    "PilotParameters", "pilot_parameters", "duration_by_simulation", "duration_table",
+    "plot_duration_tradeoff", "AuditResult", "audit_schedule",
+]
