@@ -1,6 +1,7 @@
 """Maps (spotkit.maps): drawn headless (Agg) with no network, checked on their content.
 
-Spots come from the demo data when it is there, else from a small seeded simulator run.
+Spots come from the demo data (demo_data/simultaneous.csv.gz), or from a small seeded
+simulator run where the demo data is missing.
 """
 from __future__ import annotations
 
@@ -38,11 +39,28 @@ def no_network(tmp_path, monkeypatch):
     plt.close("all")
 
 
+class _Experiment:
+    """Spots of one A/B experiment and what to pass to compare."""
+
+    def __init__(self, spots, design, a, b):
+        self.spots, self.design, self.a, self.b = spots, design, a, b
+
+
 @pytest.fixture(scope="module")
 def sim():
+    """The demo data's simultaneous-transmit experiment (demo_data/README.md); a small
+    seeded simulator run while the demo data is not there."""
+    from pathlib import Path
+
+    demo = Path(__file__).resolve().parents[1] / "demo_data" / "simultaneous.csv.gz"
+    if demo.exists():
+        from spotkit.ingest import load_spots
+
+        return _Experiment(load_spots(demo), "simultaneous", "Q1ABC", "Q1ABD")
     from spotkit.simulate import simulate_spots
 
-    return simulate_spots("simultaneous", days=1, seed=3, n_receivers=120)
+    s = simulate_spots("simultaneous", days=1, seed=3, n_receivers=120)
+    return _Experiment(s.spots, s.design, s.a, s.b)
 
 
 @pytest.fixture(scope="module")
@@ -117,6 +135,7 @@ def test_receiver_due_east_sits_on_the_90_degree_radial_at_its_ring():
     assert abs((north[1] - centre[1]) - 0.5 * (east[0] - centre[0])) < 1.0
 
 
+@pytest.mark.slow
 def test_difference_map_symmetric_scale_solid_only_where_ci_excludes_zero(result_by_field):
     fig = maps.difference_map(result_by_field)
     g = result_by_field.groups
@@ -159,6 +178,7 @@ def test_difference_cells_flags_one_sided_and_significance():
     assert maps.symmetric_limit([2.0, -0.4]) == pytest.approx(2.0)
 
 
+@pytest.mark.slow
 def test_reach_map_marks_what_each_antenna_reached(result_by_field):
     pairs = result_by_field.pairs
     fig = maps.reach_map(pairs, band="10m")
