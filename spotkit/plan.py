@@ -1181,21 +1181,19 @@ def duration_by_simulation(effect_db: float, hours: Sequence[float], *, n_runs: 
     w_lo, w_hi = wilson_interval(k, np.full(len(hours), int(n_runs)), 1 - alpha)
     width = hi - lo
     n_ok = np.isfinite(width).sum(axis=1)
-    with np.errstate(invalid="ignore", divide="ignore"):
-        return pd.DataFrame({
-            "hours": hours,
-            "runs": int(n_runs),
-            "power_sim": k / int(n_runs),
-            "power_sim_low": w_lo,
-            "power_sim_high": w_hi,
-            "estimate_mean_db": np.nanmean(np.where(np.isfinite(est), est, np.nan), axis=1)
-            if np.isfinite(est).any() else np.nan,
-            "estimate_sd_db": _nanstd(est),
-            "ci_width_sim_db": _nanmean(width),
-            "ci_width_sim_se_db": _nanstd(width) / np.sqrt(np.maximum(n_ok, 1)),
-            "pairs_sim": npairs.mean(axis=1),
-            "censored_fraction_sim": ncens.sum(axis=1) / np.maximum(npairs.sum(axis=1), 1),
-        })
+    return pd.DataFrame({
+        "hours": hours,
+        "runs": int(n_runs),
+        "power_sim": k / int(n_runs),
+        "power_sim_low": w_lo,
+        "power_sim_high": w_hi,
+        "estimate_mean_db": _nanmean(est),
+        "estimate_sd_db": _nanstd(est),
+        "ci_width_sim_db": _nanmean(width),
+        "ci_width_sim_se_db": _nanstd(width) / np.sqrt(np.maximum(n_ok, 1)),
+        "pairs_sim": npairs.mean(axis=1),
+        "censored_fraction_sim": ncens.sum(axis=1) / np.maximum(npairs.sum(axis=1), 1),
+    })
 
 
 def _nanmean(x: np.ndarray) -> np.ndarray:

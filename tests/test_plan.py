@@ -590,3 +590,18 @@ def test_cli_duration_from_pilot(tmp_path, capsys):
     out = capsys.readouterr().out
     assert "inputs from pilot" in out and "pairs" in out
     assert main(["plan", "duration", "--effect", "0.5", "--pilot", str(spots)]) == 2
+
+
+def test_duration_by_simulation_table_is_reproducible():
+    kw = dict(n_runs=3, n_boot=20, seed=5, band="10m", n_receivers=40)
+    a = duration_by_simulation(1.0, [2], **kw)
+    b = duration_by_simulation(1.0, [2], **kw)
+    pd.testing.assert_frame_equal(a, b)
+    row = a.iloc[0]
+    assert row["runs"] == 3 and 0 <= row["power_sim"] <= 1
+    assert row["power_sim_low"] <= row["power_sim"] <= row["power_sim_high"]
+    assert row["pairs_sim"] > 0 and row["ci_width_sim_db"] > 0
+    with pytest.raises(ValueError, match="alternating, simultaneous, receive"):
+        duration_by_simulation(1.0, [2], design="before-after", **kw)
+    with pytest.raises(UsageError):
+        duration_by_simulation(1.0, [1.5], **kw)  # the schedule needs whole hours
