@@ -317,7 +317,8 @@ class Truth:
         df[C.HEARD_B] = (heard & 2).astype(bool)
         for c in (C.DISTANCE, C.BEARING, C.ELEVATION, C.B_MINUS_A):
             df[c] = df[c].astype(float)
-        df[C.BAND] = df[C.BAND].astype("category")
+        for c in (C.BAND, C.TX_CALL, C.RX_CALL):
+            df[c] = df[c].astype(str).astype("category")
         return cls(df[TRUTH_COLUMNS], doc.get("design", ""), doc.get("a", ""),
                    doc.get("b", ""))
 
@@ -768,28 +769,39 @@ def simulate_spots(design: Design = "simultaneous", *, days: float = 3, seed: in
                       change_at=change_at, params=params, stations=stations)
 
 
+def _cat(labels, idx) -> pd.Categorical:
+    """Categorical of ``labels[idx]`` built from codes (no per-row strings)."""
+    codes, uniq = pd.factorize(np.asarray(labels, dtype=object), sort=True)
+    return pd.Categorical.from_codes(codes[np.asarray(idx)], categories=pd.Index(
+        np.asarray(uniq, dtype=object).astype(str)))
+
+
 def _build_spots(rec, em, li, tx_loc, rx_loc, bands, slots, rng) -> pd.DataFrame:
+    n = len(rec)
     e = rec["e"].to_numpy()
     lidx = rec["l"].to_numpy()
+    bidx = rec["band"].to_numpy()
     e_site = np.asarray(em["site"])
-    band_names = np.asarray(bands, dtype=object)[rec["band"].to_numpy()]
-    dial = np.array([BEACON_DIAL_KHZ[bb] * 1000.0 for bb in bands])[rec["band"].to_numpy()]
+    l_site = np.asarray(li["site"])
+    tx_call = _cat(em["call"], e)
+    rx_call = _cat(li["call"], lidx)
+    band = _cat(bands, bidx)
+    order = np.lexsort((rx_call.codes, tx_call.codes, band.codes, rec["slot"].to_numpy()))
+    e, lidx, bidx = e[order], lidx[order], bidx[order]
+    dial = np.array([BEACON_DIAL_KHZ[bb] * 1000.0 for bb in bands])[bidx]
     freq = dial + np.asarray(em["offset"], float)[e] + np.asarray(li["cal"], float)[lidx]
-    t = pd.Series(slots[rec["slot"].to_numpy()])
-    n = len(rec)
+    t = pd.Series(slots[rec["slot"].to_numpy()[order]])
     df = pd.DataFrame({
         C.TIME: t, C.SLOT: t,
-        C.TX_CALL: np.asarray(em["call"], dtype=object)[e],
-        C.TX_LOCATOR: np.asarray(tx_loc, dtype=object)[e_site[e]],
-        C.RX_CALL: np.asarray(li["call"], dtype=object)[lidx],
-        C.RX_LOCATOR: np.asarray(rx_loc, dtype=object)[np.asarray(li["site"])[lidx]],
-        C.FREQ: freq, C.BAND: band_names, C.SNR: rec["snr"].to_numpy(float),
+        C.TX_CALL: tx_call[order], C.TX_LOCATOR: _cat(tx_loc, e_site[e]),
+        C.RX_CALL: rx_call[order], C.RX_LOCATOR: _cat(rx_loc, l_site[lidx]),
+        C.FREQ: freq, C.BAND: band[order], C.SNR: rec["snr"].to_numpy(float)[order],
         C.POWER: np.asarray(em["power"], float)[e],
         C.DRIFT: rng.choice([0.0, 1.0, -1.0], size=n, p=[0.9, 0.05, 0.05]),
     })
-    df = df.sort_values([C.SLOT, C.BAND, C.TX_CALL, C.RX_CALL], kind="stable")
-    df = add_path_columns(df.reset_index(drop=True))
-    df[C.SOURCE_FILE] = "simulated"
+    df = add_path_columns(df)
+    df[C.SOURCE_FILE] = pd.Categorical.from_codes(np.zeros(n, dtype=np.int8),
+                                                  categories=["simulated"])
     df[C.SOURCE_ROW] = np.arange(1, n + 1, dtype=np.int64)
     return C.apply_dtypes(df[C.CANONICAL])
 
@@ -810,8 +822,8 @@ def _build_truth(design, rec, on, gains, bands, slots, em, li, dist, az, rev, el
             diff[sel] = (g_rx[:, 1] - g_rx[:, 0])[far[sel]]
         t_site, r_site = e_site[far], np.zeros(len(m), dtype=int)
         bearing = rev[t_site, r_site]  # from home (receiver) towards the transmitter
-        tx_call = np.asarray(em["call"], dtype=object)[far]
-        rx_call = np.full(len(m), li["call"][0], dtype=object)
+        tx_call = _cat(em["call"], far)
+        rx_call = _cat(li["call"], np.zeros(len(m), dtype=int))
     else:
         tgt = rec[rec["e"] <= 1][["band", "slot", "e", "l"]]
         if design == "alternating":
@@ -847,10 +859,10 @@ def _build_truth(design, rec, on, gains, bands, slots, em, li, dist, az, rev, el
             diff[sel] = (g_tx[1] - g_tx[0])[far[sel]]
         t_site, r_site = np.zeros(len(m), dtype=int), l_site[far]
         bearing = az[t_site, r_site]
-        tx_call = np.full(len(m), em["call"][0], dtype=object)
-        rx_call = np.asarray(li["call"], dtype=object)[far]
+        tx_call = _cat(em["call"], np.zeros(len(m), dtype=int))
+        rx_call = _cat(li["call"], far)
     out = pd.DataFrame({
-        C.BAND: pd.Categorical(np.asarray(bands, dtype=object)[m["band"].to_numpy()]),
+        C.BAND: _cat(bands, m["band"].to_numpy()),
         C.SLOT: pd.Series(slots[m["slot"].to_numpy()]),
         C.TX_CALL: tx_call, C.RX_CALL: rx_call,
         C.DISTANCE: dist[t_site, r_site], C.BEARING: bearing,
