@@ -453,7 +453,8 @@ def _add_plan(sub):
                    help="bands, comma-separated (default 20m)")
     s.add_argument("--slot-minutes", type=int, default=2, help="slot length [min] (default 2)")
     s.add_argument("--block-slots", type=int, default=2,
-                   help="slots per randomisation block, even (default 2: A and B neighbours)")
+                   help="slots per randomisation block, even (default 2: A and B neighbours;"
+                   " longer blocks need 'spotkit compare --window BLOCK-1')")
     s.add_argument("--band-hop", action="store_true",
                    help="one transmitter visiting the bands block by block (default: every "
                    "band on the air in every slot)")

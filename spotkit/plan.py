@@ -197,7 +197,9 @@ def make_schedule(start, days: float, bands: Sequence[str] | str, *, slot_minute
         Slot length [min]; the hour must hold an even number of slots (2 is the custom).
     block_slots : int
         Slots per randomisation block [slots], even: each block holds half A, half B in a random
-        order. 2 keeps every A slot next to a B slot.
+        order. 2 keeps every A slot next to a B slot; with longer blocks give the comparison
+        a pairing window of ``block_slots - 1`` slots (``spotkit compare --window``), or
+        some A and B slots of a block find no partner.
     band_hop : bool
         False: every band is on the air in every slot, all with the same antenna sequence.
         True: one transmitter visits the bands block by block; each round of blocks visits
@@ -761,8 +763,8 @@ def audit_schedule(spots: pd.DataFrame, schedule: pd.DataFrame, call: str, *,
         Canonical spot table (needs ``slot_utc``, ``tx_call``, ``band``, ``power_dbm``).
     schedule : pandas.DataFrame, str or pathlib.Path
         ``start``, ``end``, ``antenna`` and optionally ``band`` (as from :func:`make_schedule`
-        or the CSV file :func:`write_schedule` writes). Without a band column the schedule applies to every band the
-        station was heard on.
+        or the CSV file :func:`write_schedule` writes). Without a band column the schedule
+        applies to every band the station was heard on.
     call : str
         The transmitting station's callsign (case-insensitive).
     marker : {"power", "none"}
