@@ -605,3 +605,12 @@ def test_duration_by_simulation_table_is_reproducible():
         duration_by_simulation(1.0, [2], design="before-after", **kw)
     with pytest.raises(UsageError):
         duration_by_simulation(1.0, [1.5], **kw)  # the schedule needs whole hours
+
+
+def test_audit_schedule_without_band_column_covers_every_band(rng):
+    s = make_schedule(START, 0.25, "20m,10m", seed=2)  # same antenna on both bands
+    spots = _spots_following(s, rng)
+    one = s[s[C.BAND] == "20m"].drop(columns=C.BAND)  # start, end, antenna only
+    r = audit_schedule(spots, one, "Q1ABC")
+    assert r.summary["slots_scheduled"] == len(s)
+    assert r.summary["slots_ok"] == len(s) and r.summary["off_schedule_reports"] == 0
