@@ -757,8 +757,8 @@ def difference_map(result, *, level: Level = "auto", band=None, pairs=None, home
         Line2D([], [], marker="^", ls="", mfc="white", mec="black", label="heard by B only"),
         Line2D([], [], marker="o", ls="", mfc="none", mec="#8a8a8a", label="too few pairs"),
     ]
-    fig.legend(handles=handles, loc="lower center", ncol=5 if ncols > 1 else 3, fontsize=8,
-               frameon=False)
+    fig.legend(handles=handles, loc="upper center", bbox_to_anchor=(0.5, 0.95),
+               ncol=5 if ncols > 1 else 3, fontsize=8, frameon=False)
     fig.suptitle(f"B minus A around {home if isinstance(home, str) else 'home'}", fontsize=12)
     return fig
 
@@ -874,7 +874,8 @@ def reach_map(pairs: pd.DataFrame, *, band=None, layout: ReachLayout = "side", h
         else:
             heard = st[C.HEARD_A] if who == "A" else st[C.HEARD_B]
             far = st.loc[heard, C.DISTANCE].max() if heard.any() else float("nan")
-            ax.set_title(f"{who}{bands_txt}: {int(heard.sum()):,} far stations, farthest "
+            n_far = st.loc[heard.to_numpy(), C.FAR_CALL].nunique()
+            ax.set_title(f"{who}{bands_txt}: {n_far:,} far stations, farthest "
                          f"{far:,.0f} km", fontsize=10, pad=16)
             ax.legend(loc="lower left", fontsize=7, framealpha=0.8)
     fig.suptitle(f"Reach around {home if isinstance(home, str) else 'home'}", fontsize=12)

@@ -224,3 +224,44 @@ def test_bad_arguments():
 
     with pytest.raises(UsageError, match="home"):
         maps.make_projection("azimuthal", None)
+
+
+def test_receive_side_maps_the_transmitters():
+    """Receive design: the home end is the two co-located receivers; the far stations are
+    the transmitters (demo_data/receive.csv.gz, or a simulator run)."""
+    from pathlib import Path
+
+    demo = Path(__file__).resolve().parents[1] / "demo_data" / "receive.csv.gz"
+    if demo.exists():
+        from spotkit.ingest import load_spots
+
+        spots = load_spots(demo)
+    else:
+        from spotkit.simulate import simulate_spots
+
+        spots = simulate_spots("receive", days=1, seed=4, n_transmitters=60).spots
+    assert maps.resolve_side(spots) == "receive"
+    home = maps.home_from_spots(spots)
+    assert home == spots[C.RX_LOCATOR].astype(str).mode()[0]
+    band = spots[C.BAND].astype(str).mode()[0]
+    fig = maps.coverage_map(spots, bands=band)
+    (stations,) = _by_gid(fig.axes[0], "stations")
+    sub = spots[spots[C.BAND].astype(str) == band]
+    assert len(stations.get_offsets()) == sub[C.TX_CALL].nunique()
+    assert "transmitters" in fig.axes[0].get_title()
+
+
+def test_world_path_samples_lie_on_the_geodesic():
+    """Samples of a drawn path are equally spaced along the WGS-84 geodesic from home:
+    geographiclib (Karney 2013) as a test-only oracle, 1 mm in distance, 1e-6 deg in
+    azimuth."""
+    from geographiclib.geodesic import Geodesic
+
+    la, lo = maps._geodesic_samples(48.145833, 11.625, np.array([-33.9, 40.7]),
+                                    np.array([151.2, -74.0]), 9)
+    for k in range(2):
+        total = Geodesic.WGS84.Inverse(48.145833, 11.625, la[k, -1], lo[k, -1])
+        for i in range(1, 9):
+            g = Geodesic.WGS84.Inverse(48.145833, 11.625, la[k, i], lo[k, i])
+            assert g["s12"] == pytest.approx(total["s12"] * i / 8, abs=1e-3)
+            assert g["azi1"] == pytest.approx(total["azi1"], abs=1e-6)
