@@ -476,3 +476,39 @@ def test_demo_data_regenerates_byte_for_byte(demo_dir, tmp_path):
     for name in ("simultaneous.csv.gz", "simultaneous.truth.json", "receive.csv.gz",
                  "receive.truth.json"):
         assert (tmp_path / name).read_bytes() == (demo_dir / name).read_bytes(), name
+
+
+# --- the reports carry the truth ----------------------------------------------------------
+@pytest.mark.parametrize("design", ["simultaneous", "receive"])
+def test_reports_carry_the_true_difference(design):
+    # B = A + 2 dB exactly, A at 37 dBm and B at 30 dBm (transmit designs): at the same
+    # receiver and slot, per-W SNR(B) - SNR(A) averages 2 dB on paths whose median report
+    # is far above threshold (no censoring there; selecting single pairs by their own SNR
+    # would bias the mean); whole-dB rounding and fast fading average out
+    sim = simulate_spots(design, seed=21, difference_db=2.0, power_a_dbm=37, power_b_dbm=30,
+                         **SMALL)
+    sp = sim.spots
+    side, far = (C.TX_CALL, C.RX_CALL) if design == "simultaneous" else (C.RX_CALL, C.TX_CALL)
+    median = sp.groupby([far, C.BAND], observed=True)[C.SNR].transform("median")
+    sp = sp[median >= -5]  # 22+ dB above every threshold
+    snrw = sp[C.SNR] - (sp[C.POWER] - 30)
+    wide = sp.assign(snrw=snrw).pivot_table(index=[far, C.SLOT, C.BAND], columns=side,
+                                            values="snrw", observed=True).dropna()
+    d = (wide[sim.b] - wide[sim.a]).to_numpy()
+    assert d.size > 1000
+    # standard error of the mean about 2.2 dB / sqrt(n) < 0.07 dB; allow 0.2 dB
+    assert d.mean() == pytest.approx(2.0, abs=0.2)
+
+
+def test_ten_metres_opens_by_day_at_the_path_midpoint():
+    # 10 m is a daytime band (common practice): most 10 m reports have the path midpoint in
+    # local daytime (mean solar time 07-19 h)
+    from spotkit.geo import path_midpoint
+
+    sim = simulate_spots("simultaneous", seed=9, **SMALL)
+    sp = sim.spots[sim.spots[C.BAND] == "10m"]
+    _, mid_lon = path_midpoint(sp[C.TX_LAT].to_numpy(), sp[C.TX_LON].to_numpy(),
+                               sp[C.RX_LAT].to_numpy(), sp[C.RX_LON].to_numpy())
+    hours = sp[C.SLOT].dt.hour + sp[C.SLOT].dt.minute / 60
+    local = np.mod(hours.to_numpy() + np.asarray(mid_lon) / 15.0, 24.0)
+    assert np.mean((local > 7) & (local < 19)) > 0.75
