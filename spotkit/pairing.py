@@ -111,23 +111,46 @@ def _validate(spots: pd.DataFrame) -> pd.DataFrame:
     return spots
 
 
-def _calls_present(series: pd.Series, limit: int = 15) -> str:
-    counts = series.value_counts()
-    counts = counts[counts > 0]
+_CODED = (C.TX_CALL, C.RX_CALL, C.TX_LOCATOR, C.RX_LOCATOR, C.BAND)
+
+
+def _encode(spots: pd.DataFrame):
+    """Working copy with the text columns replaced by integer codes, and their categories."""
+    work = spots[_NEEDED].copy()
+    cats = {}
+    for col in _CODED:
+        s = _as_category(spots[col].astype(str) if not isinstance(
+            spots[col].dtype, pd.CategoricalDtype) else spots[col])
+        cats[col] = s.cat.categories
+        work[col] = s.cat.codes.to_numpy(dtype=np.int64)
+    return work, cats
+
+
+def _calls_present(codes: np.ndarray, categories, limit: int = 15) -> str:
+    n = np.bincount(codes[codes >= 0], minlength=len(categories))
+    counts = pd.Series(n, index=np.asarray(categories, dtype=object))
+    counts = counts[counts > 0].sort_values(ascending=False, kind="stable")
     shown = ", ".join(f"{k} ({v})" for k, v in counts.head(limit).items())
     more = f" and {len(counts) - limit} more" if len(counts) > limit else ""
     return shown + more
 
 
-def _check_call(spots: pd.DataFrame, col: str, call: str, role: str) -> str:
+def _check_call(work: pd.DataFrame, cats: dict, col: str, call: str, role: str):
+    """The call (upper case) and its integer code in ``col``; InputError if absent."""
     call = str(call).strip().upper()
-    values = spots[col]
-    if not (values == call).any():
+    codes = work[col].to_numpy()
+    code = int(cats[col].get_indexer([call])[0])
+    if code < 0 or not (codes == code).any():
         what = "receiver" if col == C.RX_CALL else "transmitter"
         raise InputError(
             f"{role} call {call!r} is not a {what} call in the data; {what} calls present "
-            f"(reports): {_calls_present(values)}")
-    return call
+            f"(reports): {_calls_present(codes, cats[col])}")
+    return call, code
+
+
+def _thr_by_code(thr: pd.Series, cats: dict) -> np.ndarray:
+    return thr.reindex(pd.Index(np.asarray(cats[C.RX_CALL], dtype=object))).to_numpy(
+        dtype=float)
 
 
 def receiver_thresholds(spots: pd.DataFrame, min_reports: int = 20) -> pd.Series:
@@ -166,7 +189,14 @@ def _side(df: pd.DataFrame, keys: list[str]) -> pd.DataFrame:
     return df.groupby(keys, observed=True, sort=False).agg(agg).reset_index()
 
 
-def _finish(merged: pd.DataFrame, set_aside: dict, design: str) -> pd.DataFrame:
+def _decode(codes, categories) -> pd.Categorical:
+    c = np.asarray(codes, dtype=float)
+    c = np.where(np.isnan(c), -1, c).astype(np.int64)
+    return pd.Categorical.from_codes(c, categories=categories).remove_unused_categories()
+
+
+def _finish(merged: pd.DataFrame, set_aside: dict, design: str, cats: dict,
+            cluster_col: str, far_side: str) -> pd.DataFrame:
     """Common tail: limits, heard flags, on-air filter, output columns."""
     heard_a = merged["_snrw_a"].notna().to_numpy()
     heard_b = merged["_snrw_b"].notna().to_numpy()
@@ -181,18 +211,20 @@ def _finish(merged: pd.DataFrame, set_aside: dict, design: str) -> pd.DataFrame:
         set_aside["only B heard and A not on the air in that slot"] = n_off_a
     m = merged.loc[keep].reset_index(drop=True)
     out = pd.DataFrame({
-        C.CLUSTER: m["_cluster"].astype(str).astype("category"),
-        C.BAND: m["_band"].astype(str).astype("category"),
+        C.CLUSTER: _decode(m["_cluster"], cats[cluster_col]),
+        C.BAND: _decode(m["_band"], cats[C.BAND]),
         C.SLOT: _to_utc(m["_slot"].to_numpy()),
     })
     if "_slot_b" in m:
         out[C.SLOT_B] = _to_utc(m["_slot_b"].to_numpy())
-    for col in [C.FAR_CALL, C.FAR_LOCATOR]:
-        out[col] = m[col].astype(str).astype("category")
+    far_cols = ((C.RX_CALL, C.RX_LOCATOR) if far_side == "rx" else
+                (C.TX_CALL, C.TX_LOCATOR))
+    for col, src in zip([C.FAR_CALL, C.FAR_LOCATOR], far_cols):
+        out[col] = _decode(m[col], cats[src])
     for col in [C.FAR_LAT, C.FAR_LON]:
         out[col] = m[col].to_numpy(dtype=float)
     for col in [C.TX_LOCATOR, C.RX_LOCATOR]:
-        out[col] = m[col].astype(str).astype("category")
+        out[col] = _decode(m[col], cats[col])
     for col in [C.TX_LAT, C.TX_LON, C.RX_LAT, C.RX_LON, C.DISTANCE, C.BEARING]:
         out[col] = m[col].to_numpy(dtype=float)
     out[C.SNR_A] = m["_snrw_a"].to_numpy(dtype=float)
@@ -231,48 +263,46 @@ def _outer(side_a: pd.DataFrame, side_b: pd.DataFrame, keys: list[str]) -> pd.Da
     b = side_b[cols].rename(columns={"_snrw": "_snrw_b"})
     m = a.merge(b, on=keys, how="outer", suffixes=("", "_fromb"), sort=False)
     for c in _CARRY:
-        alt = m.pop(c + "_fromb")
-        if isinstance(m[c].dtype, pd.CategoricalDtype) or m[c].dtype == object:
-            m[c] = m[c].astype(object).where(m[c].notna(), alt.astype(object))
-        else:
-            m[c] = m[c].where(m[c].notna(), alt)
+        alt = m.pop(c + "_fromb").to_numpy(dtype=float)
+        v = m[c].to_numpy(dtype=float)
+        m[c] = np.where(np.isnan(v), alt, v)
     return m
 
 
 # --- designs -------------------------------------------------------------------------------
-def _pair_simultaneous(spots, a, b, thr):
-    a = _check_call(spots, C.TX_CALL, a, "A")
-    b = _check_call(spots, C.TX_CALL, b, "B")
+def _pair_simultaneous(spots, a, b, thr, cats):
+    a, code_a = _check_call(spots, cats, C.TX_CALL, a, "A")
+    b, code_b = _check_call(spots, cats, C.TX_CALL, b, "B")
     if a == b:
         raise UsageError("the simultaneous design needs two different transmitter calls for "
                          "A and B")
-    df = spots.assign(_slot=_ns(spots[C.SLOT]), _band=spots[C.BAND].astype(str),
-                      _cluster=spots[C.RX_CALL].astype(str))
+    df = spots.assign(_slot=_ns(spots[C.SLOT]), _band=spots[C.BAND],
+                      _cluster=spots[C.RX_CALL])
     df = _far_from(df, "rx")
     keys = ["_cluster", "_band", "_slot"]
-    sa = _side(df[df[C.TX_CALL] == a], keys)
-    sb = _side(df[df[C.TX_CALL] == b], keys)
+    sa = _side(df[df[C.TX_CALL] == code_a], keys)
+    sb = _side(df[df[C.TX_CALL] == code_b], keys)
     m = _outer(sa, sb, keys)
     for x, s in (("a", sa), ("b", sb)):
         pw = s.groupby(["_band", "_slot"], sort=False)[C.POWER].median().rename(f"_pow_{x}")
         m = m.merge(pw, left_on=["_band", "_slot"], right_index=True, how="left")
-    thr_rx = m["_cluster"].map(thr).to_numpy(dtype=float)
+    thr_rx = _thr_by_code(thr, cats)[m["_cluster"].to_numpy(dtype=np.int64)]
     m["_thr_a"] = thr_rx
     m["_thr_b"] = thr_rx
     return m
 
 
-def _pair_receive(spots, a, b, thr):
-    a = _check_call(spots, C.RX_CALL, a, "A")
-    b = _check_call(spots, C.RX_CALL, b, "B")
+def _pair_receive(spots, a, b, thr, cats):
+    a, code_a = _check_call(spots, cats, C.RX_CALL, a, "A")
+    b, code_b = _check_call(spots, cats, C.RX_CALL, b, "B")
     if a == b:
         raise UsageError("the receive design needs two different receiver calls for A and B")
-    df = spots.assign(_slot=_ns(spots[C.SLOT]), _band=spots[C.BAND].astype(str),
-                      _cluster=spots[C.TX_CALL].astype(str))
+    df = spots.assign(_slot=_ns(spots[C.SLOT]), _band=spots[C.BAND],
+                      _cluster=spots[C.TX_CALL])
     df = _far_from(df, "tx")
     keys = ["_cluster", "_band", "_slot"]
-    sa = _side(df[df[C.RX_CALL] == a], keys)
-    sb = _side(df[df[C.RX_CALL] == b], keys)
+    sa = _side(df[df[C.RX_CALL] == code_a], keys)
+    sb = _side(df[df[C.RX_CALL] == code_b], keys)
     m = _outer(sa, sb, keys)
     # transmitter power of the pair: from whichever report is present (same transmitter)
     pa = sa.set_index(keys)[C.POWER]
@@ -433,17 +463,18 @@ def _match_slots(a_slots: np.ndarray, b_slots: np.ndarray, window: int):
     return np.asarray(pa, dtype=np.int64), np.asarray(pb, dtype=np.int64)
 
 
-def _pair_alternating(spots, a, b, thr, schedule, window_slots, set_aside):
-    call = _check_call(spots, C.TX_CALL, _single_call(a, b, "alternating"), "A/B")
+def _pair_alternating(spots, a, b, thr, schedule, window_slots, set_aside, cats):
+    call, code = _check_call(spots, cats, C.TX_CALL, _single_call(a, b, "alternating"),
+                             "A/B")
     if schedule is None:
         raise UsageError("the alternating design needs a schedule (even-odd, odd-even, "
                          "every-N or a CSV of start, end, antenna)")
     if int(window_slots) < 1:
         raise UsageError("window_slots must be at least 1")
-    df = spots[spots[C.TX_CALL] == call]
-    df = df.assign(_slot=_ns(df[C.SLOT]), _band=df[C.BAND].astype(str),
-                   _cluster=df[C.RX_CALL].astype(str))
-    ant = schedule_antennas(df[C.SLOT], df["_band"], schedule)
+    df = spots[spots[C.TX_CALL] == code]
+    df = df.assign(_slot=_ns(df[C.SLOT]), _band=df[C.BAND], _cluster=df[C.RX_CALL])
+    band_names = np.asarray(cats[C.BAND], dtype=object)[df["_band"].to_numpy()]
+    ant = schedule_antennas(df[C.SLOT], band_names, schedule)
     uncovered = int((ant < 0).sum())
     if uncovered == len(df):
         t0, t1 = df[C.SLOT].min(), df[C.SLOT].max()
@@ -483,14 +514,15 @@ def _pair_alternating(spots, a, b, thr, schedule, window_slots, set_aside):
         pw = s.groupby("_pair")[C.POWER].median().rename(f"_pow_{x}")
         m = m.merge(pw, left_on="_pair", right_index=True, how="left")
     # an antenna is on the air in a matched slot by construction (someone heard it there)
-    thr_rx = m["_cluster"].map(thr).to_numpy(dtype=float)
+    thr_rx = _thr_by_code(thr, cats)[m["_cluster"].to_numpy(dtype=np.int64)]
     m["_thr_a"] = thr_rx
     m["_thr_b"] = thr_rx
     return m
 
 
-def _pair_before_after(spots, a, b, change_at, set_aside):
-    call = _check_call(spots, C.TX_CALL, _single_call(a, b, "before-after"), "A/B")
+def _pair_before_after(spots, a, b, change_at, set_aside, cats):
+    call, code = _check_call(spots, cats, C.TX_CALL, _single_call(a, b, "before-after"),
+                             "A/B")
     if change_at is None:
         raise UsageError("the before-after design needs change_at (the moment the antenna "
                          "changed, UTC)")
@@ -500,11 +532,11 @@ def _pair_before_after(spots, a, b, change_at, set_aside):
         raise UsageError(f"change_at {change_at!r} is not a time") from None
     t_change = t_change.tz_localize("UTC") if t_change.tz is None else t_change.tz_convert(
         "UTC")
-    df = spots.assign(_slot=_ns(spots[C.SLOT]), _band=spots[C.BAND].astype(str),
-                      _cluster=spots[C.RX_CALL].astype(str),
+    df = spots.assign(_slot=_ns(spots[C.SLOT]), _band=spots[C.BAND],
+                      _cluster=spots[C.RX_CALL],
                       _snrw=snr_per_watt(spots[C.SNR], spots[C.POWER]))
     keys = ["_cluster", "_band", "_slot"]
-    is_t = (df[C.TX_CALL] == call).to_numpy()
+    is_t = (df[C.TX_CALL] == code).to_numpy()
     target = _side(_far_from(df[is_t], "rx").drop(columns="_snrw"), keys)
     control = df[~is_t].groupby(keys, sort=False)["_snrw"].mean().rename("_ctrl")
     m = target.merge(control, left_on=keys, right_index=True, how="left")
@@ -577,19 +609,22 @@ def pair_spots(spots: pd.DataFrame, design: Design, a: str, b: str | None = None
     spots = _validate(spots)
     set_aside: dict[str, int] = {}
     thr = receiver_thresholds(spots, min_receiver_reports)
+    work, cats = _encode(spots)
     after = None
     if design == "simultaneous":
-        m = _pair_simultaneous(spots, a, b, thr)
+        m = _pair_simultaneous(work, a, b, thr, cats)
     elif design == "receive":
-        m = _pair_receive(spots, a, b, thr)
+        m = _pair_receive(work, a, b, thr, cats)
     elif design == "alternating":
-        m = _pair_alternating(spots, a, b, thr, schedule, window_slots, set_aside)
+        m = _pair_alternating(work, a, b, thr, schedule, window_slots, set_aside, cats)
     else:
-        m, after = _pair_before_after(spots, a, b, change_at, set_aside)
+        m, after = _pair_before_after(work, a, b, change_at, set_aside, cats)
         m["_pow_a"] = 0.0  # no on-air filter: every row has one observation
         m["_pow_b"] = 0.0
     m = m.drop(columns=[C.BEARING], errors="ignore").rename(columns={"_bearing": C.BEARING})
-    out = _finish(m, set_aside, design)
+    out = _finish(m, set_aside, design, cats,
+                  C.TX_CALL if design == "receive" else C.RX_CALL,
+                  "tx" if design == "receive" else "rx")
     if after is not None:
         out[C.LIMIT_A] = np.nan
         out[C.LIMIT_B] = np.nan
