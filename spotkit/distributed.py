@@ -96,16 +96,27 @@ def coverage_columns_needed(by: Sequence[str], side: Side = "rx") -> list[str]:
     return [c for c in C.CANONICAL if c in need]
 
 
-def _locator_prefix(s: pd.Series, n: int) -> pd.Series:
-    """First ``n`` characters, upper case, computed once per distinct value."""
-    cat = s if isinstance(s.dtype, pd.CategoricalDtype) else s.astype("category")
-    cats = pd.Series(np.asarray(cat.cat.categories, dtype=object)).astype(str).str[:n].str.upper()
-    codes = cat.cat.codes.to_numpy()
-    vals = np.append(cats.to_numpy(dtype=object), None)[np.where(codes < 0, len(cats), codes)]
-    return pd.Series(vals, index=s.index, dtype=object).astype("category")
+# A key column is handled as (codes, uniques): int64 codes into ``uniques``, -1 = missing.
+def _codes(values) -> tuple[np.ndarray, np.ndarray]:
+    if isinstance(getattr(values, "dtype", None), pd.CategoricalDtype):
+        cat = values.array if isinstance(values, pd.Series) else values
+        return (np.asarray(cat.codes).astype(np.int64),
+                np.asarray(cat.categories, dtype=object))
+    codes, uniques = pd.factorize(np.asarray(values), use_na_sentinel=True)
+    return codes.astype(np.int64), np.asarray(uniques)
 
 
-def _keys_frame(df: pd.DataFrame, by: Sequence[str], side: str) -> pd.DataFrame:
+def _locator_prefix(s: pd.Series, n: int) -> tuple[np.ndarray, np.ndarray]:
+    """First ``n`` characters, upper case, computed once per distinct locator."""
+    codes, uniques = _codes(s if isinstance(s.dtype, pd.CategoricalDtype)
+                            else s.astype("category"))
+    prefix = pd.Series(uniques, dtype=object).astype(str).str[:n].str.upper().to_numpy()
+    pcodes, puniq = pd.factorize(prefix)
+    pcodes = np.append(pcodes.astype(np.int64), -1)
+    return pcodes[np.where(codes < 0, len(uniques), codes)], np.asarray(puniq, dtype=object)
+
+
+def _key_codes(df: pd.DataFrame, by: Sequence[str], side: str) -> dict:
     loc = C.RX_LOCATOR if side == "rx" else C.TX_LOCATOR
     out = {}
     for key in by:
@@ -115,12 +126,68 @@ def _keys_frame(df: pd.DataFrame, by: Sequence[str], side: str) -> pd.DataFrame:
         elif key == "field":
             out[name] = _locator_prefix(df[loc], 2)
         elif key == "hour":
-            out[name] = df[C.SLOT].dt.hour.astype("int64")
+            out[name] = (df[C.SLOT].dt.hour.to_numpy().astype(np.int64), np.arange(24))
         elif key == "day":
-            out[name] = df[C.SLOT].dt.strftime("%Y-%m-%d").astype("category")
+            ns = df[C.SLOT].to_numpy(dtype="datetime64[ns]").astype("datetime64[D]")
+            c, u = pd.factorize(ns)
+            out[name] = (c.astype(np.int64), np.asarray(pd.DatetimeIndex(u).strftime("%Y-%m-%d"),
+                                                        dtype=object))
         else:
-            out[name] = df[name]
-    return pd.DataFrame(out, index=df.index)
+            out[name] = _codes(df[name])
+    return out
+
+
+def _decode(codes: np.ndarray, uniques: np.ndarray):
+    """Codes back to values: a Categorical for text, an array for numbers (NaN if missing)."""
+    if uniques.dtype.kind not in "fiub":
+        return pd.Categorical.from_codes(codes, categories=pd.Index(uniques, dtype=object))
+    missing = codes < 0
+    if not missing.any():
+        return uniques[codes]
+    vals = uniques.astype(float)
+    return np.append(vals, np.nan)[np.where(missing, len(vals), codes)]
+
+
+def _combo_ids(cols: dict) -> tuple[np.ndarray, list[np.ndarray]]:
+    """Row -> combination id, and per column the codes of each combination."""
+    names = list(cols)
+    n = len(next(iter(cols.values()))[0])
+    dims = [len(u) + 1 for _, u in cols.values()]
+    size = float(np.prod(np.array(dims, dtype=float)))
+    if size < 2.0**62:
+        key = np.ravel_multi_index([c + 1 for c, _ in cols.values()], dims)
+        if size <= max(4 * n, 2**22):  # dense: no hashing
+            seen = np.bincount(key, minlength=int(size)) > 0
+            ukey = np.flatnonzero(seen)
+            lookup = np.cumsum(seen) - 1
+            inv = lookup[key]
+        else:
+            inv, ukey = pd.factorize(key)
+        return inv.astype(np.int64), [p - 1 for p in np.unravel_index(ukey, dims)]
+    # too many combinations for one integer: let pandas group
+    frame = pd.DataFrame({nm: c for nm, (c, _) in cols.items()})
+    inv = frame.groupby(names, sort=False).ngroup().to_numpy()
+    first = pd.Series(np.arange(n)).groupby(inv).first().to_numpy()
+    return inv.astype(np.int64), [frame[nm].to_numpy()[first] for nm in names]
+
+
+def _count_combos(cols: dict, weights: np.ndarray | None = None) -> pd.DataFrame:
+    """Distinct combinations of coded columns with their (weighted) counts.
+
+    ``cols``: name -> (codes, uniques). Returns the decoded columns and ``C.COUNT``.
+    """
+    names = list(cols)
+    n = len(next(iter(cols.values()))[0]) if cols else 0
+    if not names:
+        total = n if weights is None else int(np.sum(weights))
+        return pd.DataFrame({C.COUNT: np.array([total], dtype=np.int64)})
+    inv, first_codes = _combo_ids(cols)
+    w = np.ones(n, dtype=np.int64) if weights is None else np.asarray(weights, dtype=np.int64)
+    counts = np.bincount(inv, weights=w, minlength=len(first_codes[0])).astype(np.int64)
+    out = pd.DataFrame({nm: _decode(fc, u) for nm, fc, (_, u) in
+                        zip(names, first_codes, cols.values())})
+    out[C.COUNT] = counts
+    return out
 
 
 @dataclass
@@ -147,15 +214,6 @@ class CoveragePartials:
     stations: pd.DataFrame
 
 
-def _plain(df: pd.DataFrame) -> pd.DataFrame:
-    """Categorical columns -> plain str/object, so partials from any partition concatenate."""
-    out = df.copy()
-    for name in out.columns:
-        if isinstance(out[name].dtype, pd.CategoricalDtype):
-            out[name] = out[name].astype(object).where(out[name].notna(), None)
-    return out
-
-
 def coverage_partials(df: pd.DataFrame, by: Sequence[CoverageKey] = ("band", "square"),
                       *, side: Side = "rx") -> CoveragePartials:
     """Partial coverage aggregate of one spot table (or one partition of it).
@@ -175,6 +233,7 @@ def coverage_partials(df: pd.DataFrame, by: Sequence[CoverageKey] = ("band", "sq
     Returns
     -------
     CoveragePartials
+        Key columns hold plain values (str, int), so partials of any partitions merge.
     """
     _check_choice(side, SIDES, "side")
     by = list(by)
@@ -186,19 +245,41 @@ def coverage_partials(df: pd.DataFrame, by: Sequence[CoverageKey] = ("band", "sq
     if missing:
         raise InputError(f"spot table has no column(s) {', '.join(missing)} for coverage")
     station = C.RX_CALL if side == "rx" else C.TX_CALL
-    keys = _keys_frame(df, by, side)
-    names = list(keys.columns)
+    keys = _key_codes(df, by, side)
+    names = list(keys)
     value = np.round(snr_per_watt(df[C.SNR].to_numpy(dtype=float),
                                   df[C.POWER].to_numpy(dtype=float)), VALUE_DECIMALS)
-    vals = keys.assign(**{C.SNR_PER_W: value})
-    values = (vals.groupby(names + [C.SNR_PER_W], observed=True, dropna=False, sort=False)
-              .size().rename(C.COUNT).reset_index())
-    st_cols = names if station in names else names + [station]
-    st = keys if station in names else keys.assign(**{station: df[station]})
-    stations = (st.groupby(st_cols, observed=True, dropna=False, sort=False).size()
-                .index.to_frame(index=False))
+    values = _count_combos({**keys, C.SNR_PER_W: _codes(value)})
+    st_keys = dict(keys) if station in keys else {**keys, station: _codes(df[station])}
+    stations = _count_combos(st_keys).drop(columns=C.COUNT)
     stations = stations.loc[stations[station].notna()].reset_index(drop=True)
-    return CoveragePartials(names, station, _plain(values), _plain(stations))
+    return CoveragePartials(names, station, values, stations)
+
+
+def _recode(frames: list[pd.DataFrame], names: list[str]) -> dict:
+    """Codes of the rows of all ``frames`` stacked, per column, against shared uniques.
+
+    Categorical columns are re-coded through the union of their (few) categories, so no
+    text is hashed per row; numeric columns are factorised.
+    """
+    out = {}
+    for nm in names:
+        cols = [f[nm] for f in frames]
+        if all(isinstance(c.dtype, pd.CategoricalDtype) for c in cols):
+            cats = [np.asarray(c.cat.categories, dtype=object) for c in cols]
+            union = pd.Index(np.concatenate(cats) if cats else np.zeros(0, object)).unique()
+            codes = []
+            for c, k in zip(cols, cats):
+                m = np.append(union.get_indexer(k).astype(np.int64), -1)
+                cc = c.cat.codes.to_numpy().astype(np.int64)
+                codes.append(m[np.where(cc < 0, len(k), cc)])
+            out[nm] = (np.concatenate(codes) if codes else np.zeros(0, np.int64),
+                       np.asarray(union, dtype=object))
+        else:
+            vals = np.concatenate([np.asarray(c.astype(object) if isinstance(
+                c.dtype, pd.CategoricalDtype) else c.to_numpy()) for c in cols])
+            out[nm] = _codes(vals)
+    return out
 
 
 def combine_coverage(partials: Iterable[CoveragePartials]) -> CoveragePartials:
@@ -219,29 +300,13 @@ def combine_coverage(partials: Iterable[CoveragePartials]) -> CoveragePartials:
     keys, station = parts[0].keys, parts[0].station
     if any(p.keys != keys or p.station != station for p in parts):
         raise UsageError("coverage partials were built with different keys or sides")
-    values = pd.concat([p.values for p in parts], ignore_index=True)
-    values = (values.groupby(keys + [C.SNR_PER_W], dropna=False, sort=False)[C.COUNT]
-              .sum().reset_index())
+    vframes = [p.values for p in parts]
+    values = _count_combos(_recode(vframes, keys + [C.SNR_PER_W]),
+                           weights=np.concatenate([f[C.COUNT].to_numpy() for f in vframes]))
     st_cols = keys + ([station] if station not in keys else [])
-    stations = pd.concat([p.stations for p in parts], ignore_index=True)
-    stations = stations.drop_duplicates(st_cols, ignore_index=True)
+    stations = _count_combos(_recode([p.stations for p in parts], st_cols)).drop(
+        columns=C.COUNT)
     return CoveragePartials(keys, station, values, stations)
-
-
-def _sort_keys(df: pd.DataFrame, keys: list[str]) -> pd.DataFrame:
-    """Sort by the keys (bands in band-plan order) and return with a fresh index."""
-    if not keys or df.empty:
-        return df.reset_index(drop=True)
-    order = {}
-    for k in keys:
-        if k == C.BAND:
-            rank = {b: i for i, b in enumerate(BAND_ORDER)}
-            order[k] = df[k].map(lambda b: rank.get(b, len(BAND_ORDER)))
-        else:
-            order[k] = df[k]
-    tmp = pd.DataFrame(order)
-    idx = tmp.sort_values(keys, kind="stable", na_position="last").index
-    return df.loc[idx].reset_index(drop=True)
 
 
 def finish_coverage(partials: CoveragePartials) -> pd.DataFrame:
@@ -259,7 +324,11 @@ def finish_coverage(partials: CoveragePartials) -> pd.DataFrame:
     keys, station = partials.keys, partials.station
     v = partials.values
     if keys:
-        gid, uniq = _group_ids(v, keys)
+        cols = _recode([v, partials.stations], keys)
+        inv, first_codes = _combo_ids(cols)
+        gid, st_gid = inv[:len(v)], inv[len(v):]
+        uniq = pd.DataFrame({nm: _decode(fc, u) for nm, fc, (_, u) in
+                             zip(keys, first_codes, cols.values())})
     else:
         gid, uniq = np.zeros(len(v), np.int64), pd.DataFrame(index=[0])
     n_groups = len(uniq)
@@ -278,7 +347,6 @@ def finish_coverage(partials: CoveragePartials) -> pd.DataFrame:
     out = uniq.reset_index(drop=True).copy()
     out[C.COUNT] = total
     if keys:
-        st_gid = _match_groups(partials.stations, keys, uniq)
         out[STATIONS] = np.bincount(st_gid[st_gid >= 0], minlength=n_groups).astype(np.int64)
     else:
         out[STATIONS] = np.int64(partials.stations[station].nunique(dropna=True))
@@ -287,29 +355,11 @@ def finish_coverage(partials: CoveragePartials) -> pd.DataFrame:
     out[SNR_MAX] = vmax
     if not keys:
         return out[COVERAGE_COLUMNS]
-    out = _sort_keys(out, keys)
     for k in keys:
-        if k != C.HOUR and (out[k].dtype == object or pd.api.types.is_string_dtype(out[k])):
-            cats = [b for b in BAND_ORDER if b in set(out[k].dropna())] if k == C.BAND else \
-                sorted(out[k].dropna().unique())
-            if k == C.BAND:
-                cats += sorted(set(out[k].dropna()) - set(cats))
-            out[k] = pd.Categorical(out[k], categories=cats)
+        if isinstance(out[k].dtype, pd.CategoricalDtype):
+            out[k] = store.normalise_categories(out[k], band=(k == C.BAND))
+    out = out.sort_values(keys, kind="stable", na_position="last", ignore_index=True)
     return out[keys + COVERAGE_COLUMNS]
-
-
-def _group_ids(df: pd.DataFrame, keys: list[str]):
-    g = df.groupby(keys, dropna=False, sort=False, observed=True).ngroup().to_numpy()
-    first = pd.Series(np.arange(len(df))).groupby(g).first().to_numpy()
-    uniq = df.iloc[first][keys].reset_index(drop=True)
-    return g.astype(np.int64), uniq
-
-
-def _match_groups(df: pd.DataFrame, keys: list[str], uniq: pd.DataFrame) -> np.ndarray:
-    """Row -> index of its group in ``uniq`` (-1 if absent)."""
-    lookup = uniq.assign(_gid=np.arange(len(uniq)))
-    merged = df[keys].merge(lookup, on=keys, how="left", sort=False)
-    return merged["_gid"].fillna(-1).to_numpy(dtype=np.int64)
 
 
 def _weighted_median(gid, x, w, n_groups) -> np.ndarray:

@@ -764,29 +764,37 @@ def table_to_spots(table: pa.Table) -> pd.DataFrame:
     df = C.apply_dtypes(df)
     for name in _CATEGORY_COLUMNS:
         if name in df.columns:
-            df[name] = _normalise_categories(df[name], band=(name == C.BAND))
+            df[name] = normalise_categories(df[name], band=(name == C.BAND))
     if DAY in df.columns:
         df[DAY] = pd.to_datetime(df[DAY]).dt.date if len(df) else df[DAY]
     return df
 
 
-def _normalise_categories(s: pd.Series, *, band: bool) -> pd.Series:
-    s = s.cat.remove_unused_categories()
-    present = s.cat.categories
-    values = [str(v) for v in present]
+def normalise_categories(s: pd.Series, *, band: bool) -> pd.Series:
+    """Drop unused categories and order the rest (bands by band plan, others sorted)."""
+    codes = s.cat.codes.to_numpy()
+    cats = s.cat.categories
+    used = np.bincount(codes[codes >= 0], minlength=len(cats)) > 0
+    values = np.asarray(cats, dtype=object)[used].astype(str)
     if band:
-        known = [b for b in BAND_ORDER if b in set(values)]
-        cats = known + sorted(set(values) - set(known))
+        present = set(values)
+        known = [b for b in BAND_ORDER if b in present]
+        order = known + sorted(present - set(known))
     else:
-        cats = sorted(values)
-    if values == cats:
+        order = sorted(values)
+    if used.all() and list(values) == order:
         return s
-    return s.cat.reorder_categories(pd.Index(cats, dtype=present.dtype))
+    position = {v: i for i, v in enumerate(order)}
+    mapping = np.full(len(cats) + 1, -1, dtype=np.int64)
+    mapping[np.flatnonzero(used)] = [position[v] for v in values]
+    new_codes = mapping[np.where(codes < 0, len(cats), codes)]
+    cat = pd.Categorical.from_codes(new_codes, categories=pd.Index(order, dtype=cats.dtype))
+    return pd.Series(cat, index=s.index, name=s.name)
 
 
 __all__ = [
     "DAY", "PARTITION_KEYS", "MANIFEST_NAME", "REJECTS_DIR", "ROW_GROUP_ROWS",
     "write_spots", "read_spots_parquet", "append_to_dataset", "read_dataset",
     "dataset_manifest", "dataset_filter", "file_sha256", "table_to_spots", "archive_files",
-    "read_archive_file", "ingest_to_dataset", "chunk_rows_for_memory",
+    "read_archive_file", "normalise_categories", "ingest_to_dataset", "chunk_rows_for_memory",
 ]
