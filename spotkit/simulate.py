@@ -27,7 +27,16 @@ Model (each part a parameter; defaults in :class:`Propagation`):
 Truth. The true B-minus-A difference of a pair is the gain difference of the two antennas
 towards that far station (transmit designs: transmit gain; receive design: receive gain),
 in dB - i.e. the difference of the SNRs normalised to 1 W with the fading averaged out.
-:class:`Truth` keeps one row per pair in which at least one antenna was heard.
+:class:`Truth` keeps one row per pair in which at least one antenna was heard. Pairs are:
+simultaneous, receiver x slot; receive, transmitter x slot; alternating, receiver x (A slot,
+the following slot when B is on the air there); before-after, every report of the target
+(A before the change, B after).
+
+Output. :func:`simulate_spots` returns the canonical spot table (as the ingest would make
+it: glossary dtypes, enriched with :func:`spotkit.geo.add_path_columns`, no duplicates);
+:func:`write_foreign_csv` writes it in invented CSV layouts (other headings, delimiters,
+units and time formats, optional duplicate uploads and corrupted rows) and returns what
+the reader needs; :func:`make_demo_data` writes the demo scenario of ``demo_data/``.
 
 Known error: this is a plausibility model for testing estimators, not a propagation
 prediction. The day/night term uses local mean solar time at the path midpoint (no season),
@@ -259,7 +268,9 @@ class Truth:
         ``paths``), ``slot_min`` (minutes after ``start``, UTC) and ``heard`` (1: A only,
         2: B only, 3: both).
         """
-        doc = {"design": self.design, "a": self.a, "b": self.b, "overall": self.overall,
+        overall = {k: (None if isinstance(v, float) and math.isnan(v) else v)
+                   for k, v in self.overall.items()}
+        doc = {"design": self.design, "a": self.a, "b": self.b, "overall": overall,
                "distance_edges_km": list(DEFAULT_DISTANCE_EDGES),
                "cells": json.loads(self.cells().to_json(orient="records"))}
         if include_pairs:
@@ -281,7 +292,7 @@ class Truth:
                 "heard": (p[C.HEARD_A].to_numpy(bool).astype(int)
                           + 2 * p[C.HEARD_B].to_numpy(bool).astype(int)).tolist(),
             }
-        text = json.dumps(doc, separators=(",", ":"))
+        text = json.dumps(doc, separators=(",", ":"), allow_nan=False)
         if path is not None:
             path = Path(path)
             if path.suffix == ".gz":
@@ -541,6 +552,8 @@ def simulate_spots(design: Design = "simultaneous", *, days: float = 3, seed: in
     t0 = (t0.tz_localize("UTC") if t0.tz is None else t0.tz_convert("UTC")).normalize()
     slot_ns = C.SLOT_MINUTES * 60 * 10**9
     n_slots = int(round(days * 24 * 60 / C.SLOT_MINUTES))
+    if n_slots < 1:
+        raise UsageError(f"days={days:g} is shorter than one {C.SLOT_MINUTES}-minute slot")
     slots = pd.DatetimeIndex(t0 + pd.to_timedelta(np.arange(n_slots) * slot_ns, unit="ns"))
     slot_ns_arr = slots.asi8 if slots.unit == "ns" else slots.as_unit("ns").asi8
     transmit = design != "receive"
