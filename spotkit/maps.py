@@ -280,12 +280,12 @@ def base_map(ax=None, *, projection: Projection = "azimuthal", home=None,
             r = extent * 1e3
             ax.set_extent([-r, r, -r, r], crs=crs)
             t = np.linspace(0, 2 * np.pi, 361)
-            ax.set_boundary(mpath.Path(np.c_[r * np.sin(t), r * np.cos(t)]), transform=ax.transData)
+            circle = mpath.Path(np.c_[r * np.sin(t), r * np.cos(t)])
+            ax.set_boundary(circle, transform=ax.transData)
         else:
             ax.set_global()
         if rings:
             draw_rings(ax, crs, min(extent, 20000.0), ring_step_km)
-        lat, lon = home_latlon(home)
         ax.plot([0], [0], marker="*", ms=9, color="black", mec="white", mew=0.6,
                 transform=crs, zorder=6, gid="home")
     else:
@@ -634,8 +634,10 @@ def difference_map(result, *, level: Level = "auto", band=None, pairs=None, home
     Colours run on a diverging scale centred on 0 dB with symmetric limits (blue: B better,
     red: A better with the default ``"RdBu"``). Receivers are dots and locator squares are
     square markers at the cell centre (a 2 x 1 deg cell is too small to see on a world-wide
-    map); locator fields are drawn as their 20 x 10 deg cells. Groups whose confidence interval excludes
-    0 dB are drawn solid; the rest faint and hatched. Far stations heard by only one antenna
+    map); locator fields are drawn as their 20 x 10 deg cells. Groups whose confidence
+    interval excludes 0 dB are drawn solid; the rest (CI includes 0, or no CI, as for a
+    single receiver whose pairs form one bootstrap cluster) faint and hatched; groups with
+    too few pairs for an estimate are grey rings. Far stations heard by only one antenna
     (no difference, only a bound) are marked apart: a downward triangle for "only A heard",
     an upward triangle for "only B heard". One panel per band when the result is split by
     band (unless ``band`` picks one).
@@ -740,10 +742,13 @@ def difference_map(result, *, level: Level = "auto", band=None, pairs=None, home
             ax.scatter(x, y, marker=marker, s=22, facecolors="white", edgecolors="black",
                        linewidths=0.7, transform=crs, zorder=6, gid=kind.replace("_", "-"))
         n_sig = int((drawable & sig).sum())
+        n_ci = int((drawable & np.isfinite(sub[C.CI_LOW].to_numpy(dtype=float))).sum())
         what = {"receiver": "receivers", "square": "squares", "field": "fields"}[level]
         title = f"{bnd}: " if bnd is not None else ""
-        ax.set_title(f"{title}B - A by {level}: {int(drawable.sum())} {what}, {n_sig} with CI "
-                     "excluding 0", fontsize=9, pad=16)
+        ci_txt = (f"{n_sig} with CI excluding 0" if n_ci or not drawable.any()
+                  else "no CIs (one cluster per group)")
+        ax.set_title(f"{title}B - A by {level}: {int(drawable.sum())} {what}, {ci_txt}",
+                     fontsize=9, pad=16)
     mappable = plt.cm.ScalarMappable(norm=norm, cmap=cmap_obj)
     cb = fig.colorbar(mappable, ax=fig.axes, orientation="horizontal", fraction=0.035, pad=0.05,
                       shrink=0.7, extend="both")
@@ -752,7 +757,7 @@ def difference_map(result, *, level: Level = "auto", band=None, pairs=None, home
         Line2D([], [], marker="s", ls="", color=cmap_obj(0.85), mec="#303030",
                label="CI excludes 0 dB"),
         Line2D([], [], marker="s", ls="", color=cmap_obj(0.85), alpha=0.35, mec="#a0a0a0",
-               label="CI includes 0 dB (faint)"),
+               label="CI includes 0 dB or no CI (faint)"),
         Line2D([], [], marker="v", ls="", mfc="white", mec="black", label="heard by A only"),
         Line2D([], [], marker="^", ls="", mfc="white", mec="black", label="heard by B only"),
         Line2D([], [], marker="o", ls="", mfc="none", mec="#8a8a8a", label="too few pairs"),
@@ -884,6 +889,7 @@ def reach_map(pairs: pd.DataFrame, *, band=None, layout: ReachLayout = "side", h
 
 __all__ = ["PROJECTIONS", "RESOLUTIONS", "SIDES", "LEVELS", "REACH_LAYOUTS", "home_latlon",
            "make_projection", "project_points", "auto_extent_km", "draw_land", "draw_rings",
-           "draw_geodesic_rings", "base_map", "draw_paths", "resolve_side", "home_from_spots", "far_station_summary",
+           "draw_geodesic_rings", "base_map", "draw_paths", "resolve_side", "home_from_spots",
+           "far_station_summary",
            "coverage_map", "home_from_pairs", "difference_cells", "symmetric_limit",
            "difference_map", "reach_stations", "reach_map"]

@@ -25,7 +25,8 @@ def test_land_area_matches_the_earth():
     from pyproj import Geod
 
     geod = Geod(ellps="WGS84")
-    area_km2 = sum(abs(geod.geometry_area_perimeter(p)[0]) for p in basemap.land_geometry().geoms) / 1e6
+    polygons = basemap.land_geometry().geoms
+    area_km2 = sum(abs(geod.geometry_area_perimeter(p)[0]) for p in polygons) / 1e6
     assert area_km2 == pytest.approx(148.9e6, rel=0.02)
 
 

@@ -93,7 +93,8 @@ def test_coverage_plots_one_marker_per_distinct_receiver_per_band(sim):
     ax = geo_axes[0]
     sub = spots[spots[C.BAND].astype(str) == bands[0]]
     per_w = sub[C.SNR] - (sub[C.POWER] - 30.0)
-    expected = np.sort(per_w.groupby(sub[C.RX_CALL].astype(str), observed=True).median().to_numpy())
+    by_rx = per_w.groupby(sub[C.RX_CALL].astype(str), observed=True)
+    expected = np.sort(by_rx.median().to_numpy())
     (stations,) = _by_gid(ax, "stations")
     np.testing.assert_allclose(np.sort(stations.get_array()), expected, atol=1e-9)
 
@@ -184,8 +185,10 @@ def test_reach_map_marks_what_each_antenna_reached(result_by_field):
     fig = maps.reach_map(pairs, band="10m")
     ax_a, ax_b = [ax for ax in fig.axes if hasattr(ax, "projection")]
     st = maps.reach_stations(pairs, "10m")
-    n_a = sum(len(a.get_offsets()) for a in _by_gid(ax_a, "heard-both-a") + _by_gid(ax_a, "only-a-a"))
-    n_b = sum(len(a.get_offsets()) for a in _by_gid(ax_b, "heard-both-b") + _by_gid(ax_b, "only-b-b"))
+    n_a = sum(len(a.get_offsets())
+              for a in _by_gid(ax_a, "heard-both-a") + _by_gid(ax_a, "only-a-a"))
+    n_b = sum(len(a.get_offsets())
+              for a in _by_gid(ax_b, "heard-both-b") + _by_gid(ax_b, "only-b-b"))
     sub = pairs[pairs[C.BAND].astype(str) == "10m"]
     assert n_a == sub.loc[sub[C.HEARD_A], C.FAR_CALL].nunique() == int(st[C.HEARD_A].sum())
     assert n_b == sub.loc[sub[C.HEARD_B], C.FAR_CALL].nunique()
