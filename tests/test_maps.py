@@ -268,3 +268,17 @@ def test_world_path_samples_lie_on_the_geodesic():
             g = Geodesic.WGS84.Inverse(48.145833, 11.625, la[k, i], lo[k, i])
             assert g["s12"] == pytest.approx(total["s12"] * i / 8, abs=1e-3)
             assert g["azi1"] == pytest.approx(total["azi1"], abs=1e-6)
+
+
+def test_higher_resolution_only_when_asked():
+    """The default land layer is the shipped one; cartopy's 1:50m feature (downloaded on
+    first draw) is only set up when asked for, and nothing is fetched until drawn."""
+    import cartopy.feature as cfeature
+
+    ax = maps.base_map(projection="world", home="JN58td", fig=plt.figure())
+    assert not any(isinstance(getattr(a, "_feature", None), cfeature.NaturalEarthFeature)
+                   for a in ax.get_children())
+    art = maps.draw_land(ax, resolution="50m")
+    assert isinstance(art._feature, cfeature.NaturalEarthFeature)
+    assert art._feature.scale == "50m"
+    art.remove()

@@ -15,7 +15,19 @@ matplotlib.use("Agg")
 
 
 @pytest.fixture(autouse=True)
-def _close():
+def _offline(tmp_path, monkeypatch):
+    """No network and an empty cartopy data directory (the CLI test draws a map)."""
+    import urllib.request
+
+    import cartopy
+
+    monkeypatch.setitem(cartopy.config, "data_dir", str(tmp_path))
+    monkeypatch.setitem(cartopy.config, "pre_existing_data_dir", str(tmp_path))
+
+    def refuse(*args, **kwargs):
+        raise AssertionError("a plot tried to use the network")
+
+    monkeypatch.setattr(urllib.request, "urlopen", refuse)
     yield
     plt.close("all")
 
