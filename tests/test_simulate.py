@@ -512,3 +512,19 @@ def test_ten_metres_opens_by_day_at_the_path_midpoint():
     hours = sp[C.SLOT].dt.hour + sp[C.SLOT].dt.minute / 60
     local = np.mod(hours.to_numpy() + np.asarray(mid_lon) / 15.0, 24.0)
     assert np.mean((local > 7) & (local < 19)) > 0.75
+
+
+def test_far_stations_are_placed_on_land():
+    # oracle: the shipped Natural Earth 1:110m land layer (public domain); coastline
+    # generalised by km to tens of km, so allow 10 % of stations off its coast
+    pytest.importorskip("shapely")
+    from spotkit.basemap import is_land
+    from spotkit.simulate import STATION_REGIONS, place_stations
+
+    lat, lon = place_stations(5000, np.random.default_rng(1))
+    assert is_land(lat, lon).mean() > 0.9
+    w = STATION_REGIONS.set_index("region")["weight"]
+    assert w.sum() == pytest.approx(1.0)
+    # most stations in Europe and North America (invented weights, common practice)
+    eu_na = (lon > -125) & (lon < -60) | ((lon > -10) & (lon < 45) & (lat > 35))
+    assert eu_na.mean() > 0.75
