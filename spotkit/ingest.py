@@ -49,7 +49,7 @@ import numpy as np
 import pandas as pd
 
 from . import columns as C
-from .bands import BAND_ORDER, REGIONS, freq_to_band
+from .bands import BAND_ORDER, REGIONS, band_plan, freq_to_band
 from .errors import InputError, MappingError, NotASpotTableError, UsageError
 from .locator import normalize_locator
 from .units import FREQUENCY_UNITS, POWER_LADDER_DBM, POWER_UNITS, frequency_to_hz, power_to_dbm
@@ -915,20 +915,18 @@ class _Checker:
     def __init__(self, n: int):
         self.field = np.full(n, None, dtype=object)
         self.reason = np.full(n, None, dtype=object)
+        self.bad = np.zeros(n, dtype=bool)
         self.raw = {}
 
     def fail(self, name: str, mask: np.ndarray, reason, raw: pd.Series | None):
-        new = mask & (self.field == None)  # noqa: E711
+        new = mask & ~self.bad
         if not new.any():
             return
+        self.bad |= new
         self.field[new] = name
         self.reason[new] = reason[new] if isinstance(reason, np.ndarray) else reason
         if raw is not None:
             self.raw.setdefault(name, raw)
-
-    @property
-    def bad(self) -> np.ndarray:
-        return self.field != None  # noqa: E711
 
 
 def _clean_chunk(raw: pd.DataFrame, layout: _Layout, rows: np.ndarray, region: str,
@@ -971,8 +969,8 @@ def _clean_chunk(raw: pd.DataFrame, layout: _Layout, rows: np.ndarray, region: s
 
     freq = number(C.FREQ, "frequency", None, None, "",
                   lambda v: frequency_to_hz(v, layout.units["frequency"]))
-    band = freq_to_band(freq, region)
-    chk.fail(C.FREQ, np.isfinite(freq) & pd.isna(band), "frequency not in an amateur band",
+    band = _band_codes(freq, region)
+    chk.fail(C.FREQ, np.isfinite(freq) & (band < 0), "frequency not in an amateur band",
              col[C.FREQ][0])
     snr = number(C.SNR, "SNR", *SNR_RANGE_DB, "dB")
     power = number(C.POWER, "power", *POWER_RANGE_DBM, "dBm",
@@ -989,20 +987,21 @@ def _clean_chunk(raw: pd.DataFrame, layout: _Layout, rows: np.ndarray, region: s
     keep = ~bad
     time_ns = ns[keep]
     slot_ns = np.int64(slot_minutes) * 60 * 10**9
-    time = pd.to_datetime(time_ns, utc=True)
-    spots = pd.DataFrame({
-        C.TIME: time,
+    spots = {
+        C.TIME: pd.to_datetime(time_ns, utc=True),
         C.SLOT: pd.to_datetime(time_ns - np.mod(time_ns, slot_ns), utc=True),
-    })
+    }
     for f in (C.TX_CALL, C.TX_LOCATOR, C.RX_CALL, C.RX_LOCATOR):
         cats, codes = out[f]
         spots[f] = pd.Categorical.from_codes(codes[keep], categories=pd.Index(cats, dtype="str"))
     spots[C.FREQ] = freq[keep]
-    spots[C.BAND] = pd.Categorical(band[keep], categories=BAND_ORDER)
+    spots[C.BAND] = pd.Categorical.from_codes(band[keep], categories=pd.Index(BAND_ORDER,
+                                                                               dtype="str"))
     spots[C.SNR] = snr[keep]
     spots[C.POWER] = power[keep]
     spots[C.DRIFT] = drift[keep]
     spots[C.SOURCE_ROW] = rows[keep]
+    spots = pd.DataFrame(spots)
 
     idx = np.flatnonzero(bad)
     values = np.full(idx.size, "", dtype=object)
@@ -1073,11 +1072,68 @@ def _check_args(region, slot_minutes, chunk_rows):
         raise UsageError(f"chunk_rows must be a positive whole number, not {chunk_rows!r}")
 
 
-def _enrich(spots: pd.DataFrame) -> pd.DataFrame:
-    from .geo import add_path_columns
+def _band_codes(freq_hz: np.ndarray, region: str) -> np.ndarray:
+    """Position of each frequency's band in BAND_ORDER, -1 outside the bands (as
+    :func:`spotkit.bands.freq_to_band`, edges inclusive)."""
+    plan = band_plan(region)
+    lows, highs = plan["low_hz"].to_numpy(), plan["high_hz"].to_numpy()
+    order = np.array([BAND_ORDER.index(b) for b in plan["band"]] + [-1])
+    f = np.asarray(freq_hz, dtype=float)
+    idx = np.searchsorted(lows, f, side="right") - 1
+    inside = (idx >= 0) & (f <= highs[np.clip(idx, 0, None)]) & np.isfinite(f)
+    return order[np.where(inside, idx, len(lows))]
 
-    out = add_path_columns(spots)
-    return out[C.CANONICAL]
+
+class _PathCache:
+    """Locator-pair geometry (C.DERIVED) kept across chunks, keyed by a hash of the pair."""
+
+    MAX_PAIRS = 5_000_000
+
+    def __init__(self):
+        self.keys = np.zeros(0, dtype=np.uint64)
+        self.vals = np.zeros((len(C.DERIVED), 0))  # one row per derived column
+
+    def lookup(self, tx: pd.Series, rx: pd.Series) -> list[np.ndarray]:
+        from .geo import add_path_columns
+
+        tc, rc = tx.cat.codes.to_numpy(np.int64), rx.cat.codes.to_numpy(np.int64)
+        nrx = len(rx.cat.categories) + 1
+        pair_codes, uniq = pd.factorize(tc * nrx + rc, sort=False)
+        ptx, prx = np.divmod(np.asarray(uniq, dtype=np.int64), nrx)
+        pairs = pd.DataFrame({
+            C.TX_LOCATOR: pd.Categorical.from_codes(ptx, dtype=tx.dtype),
+            C.RX_LOCATOR: pd.Categorical.from_codes(prx, dtype=rx.dtype)})
+        h = pd.util.hash_pandas_object(pairs, index=False).to_numpy()
+        pos = np.searchsorted(self.keys, h)
+        pos[pos == self.keys.size] = 0
+        found = self.keys[pos] == h if self.keys.size else np.zeros(h.size, dtype=bool)
+        miss = ~found
+        if found.all():
+            vals = self.vals[:, pos]
+        else:
+            new = add_path_columns(pairs[miss])[C.DERIVED].to_numpy(dtype=float).T
+            vals = np.empty((len(C.DERIVED), h.size))
+            vals[:, found] = self.vals[:, pos[found]]
+            vals[:, miss] = new
+            if self.keys.size + new.shape[1] > self.MAX_PAIRS:
+                self.keys, self.vals = self.keys[:0], self.vals[:, :0]
+            keys = np.concatenate([self.keys, h[miss]])
+            order = np.argsort(keys)
+            self.keys = keys[order]
+            self.vals = np.ascontiguousarray(np.concatenate([self.vals, new], axis=1)[:, order])
+        return [v[pair_codes] for v in vals]
+
+
+def _enrich(spots: pd.DataFrame, name: str, cache: _PathCache) -> pd.DataFrame:
+    """Add C.DERIVED columns and the source file; return the canonical column order."""
+    cols = {c: spots[c] for c in spots.columns}
+    vals = cache.lookup(spots[C.TX_LOCATOR], spots[C.RX_LOCATOR]) if len(spots) else \
+        [np.zeros(0)] * len(C.DERIVED)
+    for j, c in enumerate(C.DERIVED):
+        cols[c] = vals[j]
+    cols[C.SOURCE_FILE] = pd.Categorical.from_codes(
+        np.zeros(len(spots), dtype=np.int8), categories=pd.Index([name], dtype="str"))
+    return pd.DataFrame({c: cols[c] for c in C.CANONICAL})
 
 
 def iter_spot_chunks(paths, *, mapping=None, units=None, delimiter: Delimiter = "auto",
@@ -1099,6 +1155,7 @@ def iter_spot_chunks(paths, *, mapping=None, units=None, delimiter: Delimiter = 
     summary = summary if summary is not None else IngestSummary()
     layouts = [_prepare_layout(p, mapping, units, delimiter, header) for p in paths]
     seen = _SeenKeys()
+    cache = _PathCache()
     bar = None
     if progress:
         from tqdm.auto import tqdm
@@ -1128,8 +1185,7 @@ def iter_spot_chunks(paths, *, mapping=None, units=None, delimiter: Delimiter = 
                     rejects = pd.concat([rejects, extra], ignore_index=True)
                 dup = _duplicates(spots, seen)
                 spots = spots[~dup].reset_index(drop=True)
-                spots[C.SOURCE_FILE] = pd.Categorical([layout.name] * len(spots))
-                spots = _enrich(spots)
+                spots = _enrich(spots, layout.name, cache)
                 _count(summary, len(raw) + len(done), spots, rejects, int(dup.sum()))
                 if bar is not None:
                     bar.update(len(raw) + len(done))
@@ -1172,20 +1228,34 @@ def _count(summary, n_read, spots, rejects, n_dup):
 
 
 def _concat_spots(parts: list[pd.DataFrame]) -> pd.DataFrame:
+    """Concatenate chunks; categoricals get their used values as categories, sorted (bands
+    in band-plan order), so the table does not depend on how it was chunked."""
     parts = [p for p in parts if len(p)] or [C.empty_spots()]
     cats = [n for n in C.CANONICAL if str(C.GLOSSARY[n].dtype) == "category"]
-    plain = pd.concat([p.drop(columns=cats) for p in parts], ignore_index=True)
+    plain = pd.concat([p.drop(columns=cats) for p in parts], ignore_index=True) \
+        if len(parts) > 1 else parts[0].drop(columns=cats)
+    cols = {}
     for name in cats:
-        if name == C.BAND:
-            values = pd.Categorical(np.concatenate([p[name].astype(object).to_numpy()
-                                                    for p in parts]))
-            present = [b for b in BAND_ORDER if b in set(values.categories)]
-            plain[name] = pd.Categorical(values, categories=present)
-        else:
-            u = pd.api.types.union_categoricals([p[name].array for p in parts],
-                                                ignore_order=True)
-            plain[name] = u.reorder_categories(sorted(u.categories)) if len(u.categories) else u
-    return C.apply_dtypes(plain[C.CANONICAL])
+        u = pd.api.types.union_categoricals([p[name].array for p in parts], ignore_order=True) \
+            if len(parts) > 1 else parts[0][name].array
+        cols[name] = _compact_categories(u, band=(name == C.BAND))
+    return C.apply_dtypes(plain.assign(**cols)[C.CANONICAL])
+
+
+def _compact_categories(cat: pd.Categorical, band: bool) -> pd.Categorical:
+    """Keep only used categories, sorted (bands in band-plan order); O(n) in rows."""
+    codes = np.asarray(cat.codes, dtype=np.int64)
+    cats = np.asarray(cat.categories.astype("str"), dtype=object)
+    used = np.bincount(codes[codes >= 0], minlength=cats.size) > 0
+    if band:
+        rank = {b: i for i, b in enumerate(BAND_ORDER)}
+        keep = sorted(np.flatnonzero(used), key=lambda i: rank.get(cats[i], len(rank)))
+    else:
+        keep = sorted(np.flatnonzero(used), key=lambda i: cats[i])
+    remap = np.full(cats.size + 1, -1, dtype=np.int64)
+    remap[np.asarray(keep, dtype=np.int64)] = np.arange(len(keep))
+    return pd.Categorical.from_codes(remap[codes], categories=pd.Index(
+        cats[np.asarray(keep, dtype=np.int64)] if keep else [], dtype="str"))
 
 
 def read_spots(paths, *, mapping=None, units=None, delimiter: Delimiter = "auto",
