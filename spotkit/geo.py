@@ -440,6 +440,9 @@ def elevation_angle(distance_km, layer_height_km=DEFAULT_LAYER_HEIGHT_KM, hops=N
 
 # --- spot tables -------------------------------------------------------------------------
 
+#: Largest key range factorised with a dense lookup table instead of hashing.
+_DENSE_KEYS = 1 << 25
+
 
 def _codes_and_uniques(values):
     """Integer codes (-1 for missing) and the distinct values of a column."""
@@ -457,23 +460,71 @@ def _decode(uniques):
     return np.asarray(lat, dtype=float), np.asarray(lon, dtype=float)
 
 
-def _pair_index(df):
-    """Factorise (tx_locator, rx_locator) rows; returns row->pair codes and pair lat/lon."""
-    tx_codes, tx_uniq = _codes_and_uniques(df[C.TX_LOCATOR])
-    rx_codes, rx_uniq = _codes_and_uniques(df[C.RX_LOCATOR])
-    tx_lat, tx_lon = _decode(tx_uniq)
-    rx_lat, rx_lon = _decode(rx_uniq)
-    # append a NaN slot for missing codes (-1 -> last)
-    tx_lat, tx_lon = np.append(tx_lat, np.nan), np.append(tx_lon, np.nan)
-    rx_lat, rx_lon = np.append(rx_lat, np.nan), np.append(rx_lon, np.nan)
-    tx_codes = np.where(tx_codes < 0, len(tx_uniq), tx_codes)
-    rx_codes = np.where(rx_codes < 0, len(rx_uniq), rx_codes)
-    key = tx_codes * (len(rx_uniq) + 1) + rx_codes
-    pair_codes, pair_keys = pd.factorize(key, sort=False)
-    ptx, prx = np.divmod(np.asarray(pair_keys, dtype=np.int64), len(rx_uniq) + 1)
-    return (pair_codes, tx_codes, rx_codes,
-            (tx_lat[ptx], tx_lon[ptx], rx_lat[prx], rx_lon[prx]),
-            (tx_lat, tx_lon, rx_lat, rx_lon))
+def _factorize_keys(key, n_keys):
+    """Codes and distinct values of non-negative integer keys below ``n_keys``."""
+    if n_keys <= max(_DENSE_KEYS, 2 * key.size):
+        seen = np.zeros(n_keys, dtype=bool)
+        seen[key] = True
+        uniq = np.flatnonzero(seen)
+        rank = np.zeros(n_keys, dtype=np.int64)
+        rank[uniq] = np.arange(uniq.size)
+        return rank[key], uniq
+    codes, uniq = pd.factorize(key, sort=False)
+    return codes.astype(np.int64), np.asarray(uniq, dtype=np.int64)
+
+
+class _Pairs:
+    """Rows of a spot table mapped onto their distinct (tx_locator, rx_locator) pairs."""
+
+    def __init__(self, df):
+        tx_codes, tx_uniq = _codes_and_uniques(df[C.TX_LOCATOR])
+        rx_codes, rx_uniq = _codes_and_uniques(df[C.RX_LOCATOR])
+        tx_lat, tx_lon = _decode(tx_uniq)
+        rx_lat, rx_lon = _decode(rx_uniq)
+        # a NaN slot at the end for missing locators (code -1)
+        self.tx_lat, self.tx_lon = np.append(tx_lat, np.nan), np.append(tx_lon, np.nan)
+        self.rx_lat, self.rx_lon = np.append(rx_lat, np.nan), np.append(rx_lon, np.nan)
+        self.tx_codes = np.where(tx_codes < 0, len(tx_uniq), tx_codes)
+        self.rx_codes = np.where(rx_codes < 0, len(rx_uniq), rx_codes)
+        n_rx = len(rx_uniq) + 1
+        key = self.tx_codes * n_rx + self.rx_codes
+        self.codes, keys = _factorize_keys(key, (len(tx_uniq) + 1) * n_rx)
+        ptx, prx = np.divmod(keys, n_rx)
+        self.lat1, self.lon1 = self.tx_lat[ptx], self.tx_lon[ptx]
+        self.lat2, self.lon2 = self.rx_lat[prx], self.rx_lon[prx]
+
+    def first_rows(self):
+        """Index of one row of each pair."""
+        first = np.zeros(self.lat1.size, dtype=np.int64)
+        first[self.codes[::-1]] = np.arange(self.codes.size - 1, -1, -1)
+        return first
+
+
+def _with_columns(df: pd.DataFrame, new: dict) -> pd.DataFrame:
+    """``df`` with ``new`` columns set, without copying the existing data needlessly."""
+    if any(c in df.columns for c in new):
+        out = df.copy()
+        for name, values in new.items():
+            out[name] = values
+        return out
+    # copy=False: the arrays are fresh, and stacking them into one block would copy them
+    return pd.concat([df, pd.DataFrame(new, index=df.index, copy=False)], axis=1)
+
+
+def _path_columns(pairs: _Pairs, method):
+    """Row columns of :func:`add_path_columns`, and the per-pair distance and azimuth."""
+    s, azi, rev = geodesic_inverse(pairs.lat1, pairs.lon1, pairs.lat2, pairs.lon2,
+                                   method=method)
+    cols = {
+        C.TX_LAT: pairs.tx_lat[pairs.tx_codes],
+        C.TX_LON: pairs.tx_lon[pairs.tx_codes],
+        C.RX_LAT: pairs.rx_lat[pairs.rx_codes],
+        C.RX_LON: pairs.rx_lon[pairs.rx_codes],
+        C.DISTANCE: (s / 1000.0)[pairs.codes],
+        C.BEARING: azi[pairs.codes],
+        C.REVERSE_BEARING: rev[pairs.codes],
+    }
+    return cols, s, azi
 
 
 def add_path_columns(df: pd.DataFrame, method: GeodesicMethod = "auto") -> pd.DataFrame:
@@ -492,36 +543,27 @@ def add_path_columns(df: pd.DataFrame, method: GeodesicMethod = "auto") -> pd.Da
     Returns
     -------
     pandas.DataFrame
-        A copy of ``df`` with float64 columns ``C.TX_LAT``, ``C.TX_LON``, ``C.RX_LAT``,
-        ``C.RX_LON`` [deg, cell centres], ``C.DISTANCE`` [km], ``C.BEARING`` (azimuth at the
-        transmitter towards the receiver) and ``C.REVERSE_BEARING`` (azimuth at the
-        receiver towards the transmitter) [deg, 0-360). Rows whose locator cannot be
-        decoded get NaN.
+        A new frame: ``df``'s columns and float64 columns ``C.TX_LAT``, ``C.TX_LON``,
+        ``C.RX_LAT``, ``C.RX_LON`` [deg, cell centres], ``C.DISTANCE`` [km], ``C.BEARING``
+        (azimuth at the transmitter towards the receiver) and ``C.REVERSE_BEARING`` (azimuth
+        at the receiver towards the transmitter) [deg, 0-360). Rows whose locator cannot be
+        decoded get NaN. ``df`` itself is not changed.
 
     References
     ----------
     C. F. F. Karney, "Algorithms for geodesics", J. Geodesy 87:43-55, 2013.
     """
-    out = df.copy()
-    pair_codes, tx_codes, rx_codes, (plat1, plon1, plat2, plon2), (tla, tlo, rla, rlo) = \
-        _pair_index(df)
-    s, azi, rev = geodesic_inverse(plat1, plon1, plat2, plon2, method=method)
-    out[C.TX_LAT] = tla[tx_codes]
-    out[C.TX_LON] = tlo[tx_codes]
-    out[C.RX_LAT] = rla[rx_codes]
-    out[C.RX_LON] = rlo[rx_codes]
-    out[C.DISTANCE] = (s / 1000.0)[pair_codes]
-    out[C.BEARING] = azi[pair_codes]
-    out[C.REVERSE_BEARING] = rev[pair_codes]
-    return out
+    cols, _, _ = _path_columns(_Pairs(df), method)
+    return _with_columns(df, cols)
 
 
 def add_path_geometry(df: pd.DataFrame, layer_height_km=DEFAULT_LAYER_HEIGHT_KM,
                       method: GeodesicMethod = "auto") -> pd.DataFrame:
     """Add path midpoint, hop count and elevation angle to a spot table.
 
-    Computed once per distinct (tx_locator, rx_locator) pair. The path columns of
-    :func:`add_path_columns` are added first if any is missing.
+    Computed once per distinct (tx_locator, rx_locator) pair. The columns of
+    :func:`add_path_columns` are added too if any of them is missing; if they are present,
+    their distance and bearing are used.
 
     Parameters
     ----------
@@ -530,35 +572,39 @@ def add_path_geometry(df: pd.DataFrame, layer_height_km=DEFAULT_LAYER_HEIGHT_KM,
     layer_height_km : float
         Virtual reflection height h [km] of the hop model.
     method : {"auto", "numpy", "pyproj"}
-        Geodesic engine for the midpoint.
+        Geodesic engine, if the path columns must be computed.
 
     Returns
     -------
     pandas.DataFrame
-        A copy with float64 columns ``C.MID_LAT``, ``C.MID_LON`` [deg],
-        ``C.HOPS`` (whole numbers) and ``C.ELEVATION`` [deg].
+        A new frame with float64 columns ``C.MID_LAT``, ``C.MID_LON`` [deg, the point
+        halfway along the geodesic], ``C.HOPS`` (whole numbers) and ``C.ELEVATION`` [deg].
 
     References
     ----------
     Spherical-Earth mirror hop model (see :func:`elevation_angle`); Vincenty (1975) direct
     problem for the midpoint.
     """
-    needed = [C.TX_LAT, C.TX_LON, C.RX_LAT, C.RX_LON, C.DISTANCE]
-    out = df if all(c in df.columns for c in needed) else add_path_columns(df, method=method)
-    out = out.copy()
-    pair_codes, _, _, (plat1, plon1, plat2, plon2), _ = _pair_index(out)
-    # one representative row per pair for the distance already in the table
-    first = np.full(pair_codes.max() + 1 if pair_codes.size else 0, -1, dtype=np.int64)
-    first[pair_codes[::-1]] = np.arange(pair_codes.size - 1, -1, -1)
-    dist = out[C.DISTANCE].to_numpy(dtype=float)[first]
-    mlat, mlon = path_midpoint(plat1, plon1, plat2, plon2, method=method)
-    hops = hop_count(dist, layer_height_km)
-    el = elevation_angle(dist, layer_height_km, hops)
-    out[C.MID_LAT] = np.asarray(mlat)[pair_codes]
-    out[C.MID_LON] = np.asarray(mlon)[pair_codes]
-    out[C.HOPS] = np.asarray(hops, dtype=float)[pair_codes]
-    out[C.ELEVATION] = np.asarray(el, dtype=float)[pair_codes]
-    return out
+    pairs = _Pairs(df)
+    have = [C.TX_LAT, C.TX_LON, C.RX_LAT, C.RX_LON, C.DISTANCE, C.BEARING]
+    if all(c in df.columns for c in have):
+        cols = {}
+        first = pairs.first_rows()
+        s = df[C.DISTANCE].to_numpy(dtype=float)[first] * 1000.0
+        azi = df[C.BEARING].to_numpy(dtype=float)[first]
+    else:
+        cols, s, azi = _path_columns(pairs, method)
+    mlat, mlon = geodesic_direct(pairs.lat1, pairs.lon1, azi, s / 2.0)
+    dist_km = s / 1000.0
+    hops = hop_count(dist_km, layer_height_km)
+    el = elevation_angle(dist_km, layer_height_km, hops)
+    cols.update({
+        C.MID_LAT: np.asarray(mlat)[pairs.codes],
+        C.MID_LON: np.asarray(mlon)[pairs.codes],
+        C.HOPS: np.asarray(hops, dtype=float)[pairs.codes],
+        C.ELEVATION: np.asarray(el, dtype=float)[pairs.codes],
+    })
+    return _with_columns(df, cols)
 
 
 __all__ = [

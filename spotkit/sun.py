@@ -243,6 +243,14 @@ def path_light(tx_elev, rx_elev, mid_elev=None, twilight_deg: float = CIVIL_TWIL
     """
     _check_twilight(twilight_deg)
     scalar = np.ndim(tx_elev) == 0 and np.ndim(rx_elev) == 0 and np.ndim(mid_elev) == 0
+    res = _path_light_codes(tx_elev, rx_elev, mid_elev, twilight_deg)
+    names = np.array(list(PATH_LIGHT_CLASSES) + [None], dtype=object)
+    out = names[np.where(res < 0, 4, res)]
+    return out[0] if scalar else out
+
+
+def _path_light_codes(tx_elev, rx_elev, mid_elev, twilight_deg):
+    """Codes into PATH_LIGHT_CLASSES (-1 unknown); the rules of :func:`path_light`."""
     t = _light_codes(np.atleast_1d(tx_elev), twilight_deg)
     r = _light_codes(np.atleast_1d(rx_elev), twilight_deg)
     t, r = np.broadcast_arrays(t, r)
@@ -250,8 +258,8 @@ def path_light(tx_elev, rx_elev, mid_elev=None, twilight_deg: float = CIVIL_TWIL
         m = np.full(t.shape, -1, dtype=np.int8)
     else:
         m = np.broadcast_to(_light_codes(np.atleast_1d(mid_elev), twilight_deg), t.shape)
-    # result codes index PATH_LIGHT_CLASSES: 0 day, 1 greyline, 2 mixed, 3 night, 4 None
-    res = np.full(t.shape, 4, dtype=np.int8)
+    # result codes index PATH_LIGHT_CLASSES: 0 day, 1 greyline, 2 mixed, 3 night, -1 None
+    res = np.full(t.shape, -1, dtype=np.int8)
     both_day = (t == 0) & (r == 0)
     both_night = (t == 2) & (r == 2)
     res[both_day] = 0
@@ -259,36 +267,39 @@ def path_light(tx_elev, rx_elev, mid_elev=None, twilight_deg: float = CIVIL_TWIL
     res[(both_day & (m == 2)) | (both_night & (m == 0))] = 2
     res[((t == 0) & (r == 2)) | ((t == 2) & (r == 0))] = 2
     res[((t == 1) | (r == 1)) & (t >= 0) & (r >= 0)] = 1
-    names = np.array(list(PATH_LIGHT_CLASSES) + [None], dtype=object)
-    out = names[res]
-    return out[0] if scalar else out
+    return res
 
 
-def _per_distinct(times_code, jd_u, lat, lon):
-    """Solar elevation per distinct (time, lat, lon); returns row values."""
-    lat_code, lat_u = pd.factorize(lat, use_na_sentinel=True)
-    lon_code, lon_u = pd.factorize(lon, use_na_sentinel=True)
-    nlat, nlon = len(lat_u) + 1, len(lon_u) + 1
-    lat_code = np.where(lat_code < 0, nlat - 1, lat_code).astype(np.int64)
-    lon_code = np.where(lon_code < 0, nlon - 1, lon_code).astype(np.int64)
-    lat_u = np.append(np.asarray(lat_u, dtype=float), np.nan)
-    lon_u = np.append(np.asarray(lon_u, dtype=float), np.nan)
-    key = (times_code * nlat + lat_code) * nlon + lon_code
-    codes, keys = pd.factorize(key)
-    keys = np.asarray(keys, dtype=np.int64)
-    tk, rest = np.divmod(keys, nlat * nlon)
-    lk, ok = np.divmod(rest, nlon)
-    ra, dec, _, _ = _equatorial(jd_u)
-    gast = _sidereal(jd_u)
-    el, _ = _horizontal(ra[tk], dec[tk], gast[tk], lat_u[lk], lon_u[ok])
-    return el[codes]
+def _slot_terms(jd):
+    """Per time: sin/cos of the declination and of (apparent sidereal time - RA)."""
+    ra, dec, _, _ = _equatorial(jd)
+    t = np.deg2rad(_sidereal(jd) - ra)
+    d = np.deg2rad(dec)
+    return np.sin(d), np.cos(d), np.cos(t), np.sin(t)
+
+
+def _row_elevation(row_terms, lat, lon):
+    """Elevation [deg] per row from per-row time terms (see :func:`_slot_terms`).
+
+    sin(el) = sin(lat) sin(dec) + cos(lat) cos(dec) cos(t + lon), t = GAST - RA;
+    cos(lat) = sqrt(1 - sin^2(lat)) (>= 0 for |lat| <= 90) saves a cosine per row.
+    """
+    sd, cd, ct, st = row_terms
+    sp = np.sin(np.deg2rad(lat))
+    cp = np.sqrt(1.0 - sp * sp)
+    q = np.deg2rad(lon)
+    cos_h = ct * np.cos(q) - st * np.sin(q)
+    sin_el = sp * sd + cp * cd * cos_h
+    return np.rad2deg(np.arcsin(np.clip(sin_el, -1.0, 1.0)))
 
 
 def add_sun_columns(df: pd.DataFrame, twilight_deg: float = CIVIL_TWILIGHT_DEG) -> pd.DataFrame:
     """Add the solar elevation at both ends and the middle of each path, and its light class.
 
-    Uses the slot start ``C.SLOT`` (``C.TIME`` if there is no slot column). Computed once per
-    distinct (slot, place). The path midpoint comes from
+    Uses the slot start ``C.SLOT`` (``C.TIME`` if there is no slot column). The solar
+    coordinates are computed once per distinct slot; each row then needs only the sines of
+    its own places and one arcsine (hashing (slot, place) keys would cost more than that
+    arithmetic). The path midpoint comes from
     :func:`spotkit.geo.add_path_geometry`, which is run first if ``C.MID_LAT`` is missing.
 
     Parameters
@@ -319,19 +330,24 @@ def add_sun_columns(df: pd.DataFrame, twilight_deg: float = CIVIL_TWILIGHT_DEG) 
         from .geo import add_path_geometry
 
         out = add_path_geometry(out)
-    out = out.copy()
+    # the solar coordinates (the costly part) once per distinct slot; per row only the
+    # place's own sines and one arcsine - cheaper than hashing (slot, place) keys
     t_code, t_u = pd.factorize(out[time_col], use_na_sentinel=True)
     jd_u = np.append(_julian_day(pd.Series(t_u)) if len(t_u) else np.zeros(0), np.nan)
     t_code = np.where(t_code < 0, len(t_u), t_code).astype(np.int64)
+    row_terms = [x[t_code] for x in _slot_terms(jd_u)]
     elev = {}
-    for col, (la, lo) in {C.TX_SUN: (C.TX_LAT, C.TX_LON), C.RX_SUN: (C.RX_LAT, C.RX_LON),
-                          C.MID_SUN: (C.MID_LAT, C.MID_LON)}.items():
-        elev[col] = _per_distinct(t_code, jd_u, out[la].to_numpy(dtype=float),
-                                  out[lo].to_numpy(dtype=float))
-        out[col] = elev[col]
-    light = path_light(elev[C.TX_SUN], elev[C.RX_SUN], elev[C.MID_SUN], twilight_deg)
-    out[C.PATH_LIGHT] = pd.Categorical(light, categories=list(PATH_LIGHT_CLASSES))
-    return out
+    with np.errstate(invalid="ignore"):
+        for col, (la, lo) in {C.TX_SUN: (C.TX_LAT, C.TX_LON),
+                              C.RX_SUN: (C.RX_LAT, C.RX_LON),
+                              C.MID_SUN: (C.MID_LAT, C.MID_LON)}.items():
+            elev[col] = _row_elevation(row_terms, out[la].to_numpy(dtype=float),
+                                       out[lo].to_numpy(dtype=float))
+    light = _path_light_codes(elev[C.TX_SUN], elev[C.RX_SUN], elev[C.MID_SUN], twilight_deg)
+    new = pd.DataFrame(elev, index=out.index, copy=False)
+    new[C.PATH_LIGHT] = pd.Categorical.from_codes(light, categories=list(PATH_LIGHT_CLASSES))
+    return pd.concat([out.drop(columns=[c for c in new.columns if c in out.columns]), new],
+                     axis=1)
 
 
 __all__ = [

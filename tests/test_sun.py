@@ -185,23 +185,22 @@ def test_add_sun_columns_matches_direct_computation():
     assert pd.isna(out[C.PATH_LIGHT].iloc[5])  # no slot -> unknown
 
 
-def test_add_sun_columns_once_per_distinct_place_and_slot(monkeypatch):
+def test_add_sun_columns_solar_coordinates_once_per_distinct_slot(monkeypatch):
     sizes = []
-    real = sun._horizontal
+    real = sun._slot_terms
 
-    def counting(ra, dec, gast, lat, lon):
-        sizes.append(np.size(lat))
-        return real(ra, dec, gast, lat, lon)
+    def counting(jd):
+        sizes.append(np.size(jd))
+        return real(jd)
 
-    monkeypatch.setattr(sun, "_horizontal", counting)
-    df = pd.concat([_spots().iloc[:5]] * 50, ignore_index=True)
-    df = pd.concat([df, df.assign(**{C.TX_LOCATOR: "JN58td"})], ignore_index=True)
+    monkeypatch.setattr(sun, "_slot_terms", counting)
+    df = pd.concat([_spots()] * 50, ignore_index=True)
     out = sun.add_sun_columns(geo.add_path_geometry(df))
-    want = [len(out[[C.SLOT, la, lo]].drop_duplicates()) for la, lo in
-            [(C.TX_LAT, C.TX_LON), (C.RX_LAT, C.RX_LON), (C.MID_LAT, C.MID_LON)]]
-    assert want == [6, 5, 8]  # counted by hand from _spots plus the JN58td copies
-    assert sizes == want
-    assert len(out) == 500
+    # 3 distinct slots in _spots, plus one slot for the missing time
+    assert sizes == [df[C.SLOT].nunique() + 1] == [4]
+    assert len(out) == 300
+    # rows that share slot and place share the elevation
+    assert (out.groupby([C.SLOT, C.TX_LOCATOR], observed=True)[C.TX_SUN].nunique() == 1).all()
 
 
 def test_add_sun_columns_needs_time():
