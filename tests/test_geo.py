@@ -336,8 +336,11 @@ def _table():
     return pd.DataFrame({C.TX_LOCATOR: pd.Categorical(tx), C.RX_LOCATOR: rx})
 
 
+@pytest.mark.parametrize("dense", [True, False])
 @pytest.mark.parametrize("method", METHODS)
-def test_add_path_columns_matches_geopy_per_row(method):
+def test_add_path_columns_matches_geopy_per_row(method, dense, monkeypatch):
+    if not dense:  # force the hashing branch of the pair factorisation
+        monkeypatch.setattr(geo, "_DENSE_KEYS", -1)
     df = _table()
     out = geo.add_path_columns(df, method=method)
     for col in C.DERIVED:
@@ -391,7 +394,7 @@ def test_add_path_columns_empty_and_undecodable():
     assert np.isnan(out[C.DISTANCE].iloc[0]) and np.isfinite(out[C.DISTANCE].iloc[1])
 
 
-def test_add_path_geometry():
+def test_add_path_geometry(monkeypatch):
     df = _table()
     out = geo.add_path_geometry(df, layer_height_km=300.0)
     for col in (C.MID_LAT, C.MID_LON, C.HOPS, C.ELEVATION):
@@ -405,6 +408,17 @@ def test_add_path_geometry():
     np.testing.assert_allclose(out.loc[ok, C.MID_LAT], mlat, atol=1e-9)
     np.testing.assert_allclose(out.loc[ok, C.MID_LON], mlon, atol=1e-9)
     assert out.loc[~ok, [C.MID_LAT, C.HOPS, C.ELEVATION]].isna().all().all()
-    # with the path columns already present it gives the same
-    again = geo.add_path_geometry(geo.add_path_columns(df))
+    # with the path columns already present it gives the same, solving no geodesic again
+    with_paths = geo.add_path_columns(df)
+
+    def fail(*args, **kwargs):
+        raise AssertionError("inverse problem solved again")
+
+    monkeypatch.setattr(geo, "geodesic_inverse", fail)
+    again = geo.add_path_geometry(with_paths)
     pd.testing.assert_frame_equal(again, out)
+    # a lower layer: more hops, elevations as the mirror model gives them at h = 110 km
+    low = geo.add_path_geometry(with_paths, layer_height_km=110.0)
+    np.testing.assert_allclose(low.loc[ok, C.ELEVATION], geo.elevation_angle(
+        low.loc[ok, C.DISTANCE].to_numpy(), 110.0))
+    assert (low.loc[ok, C.HOPS] >= out.loc[ok, C.HOPS]).all()
