@@ -91,10 +91,12 @@ _KIND_WORDS = {
 }
 # unit words name a kind only when no other kind word is present
 _UNIT_KIND = {"hz": C.FREQ, "khz": C.FREQ, "mhz": C.FREQ, "dbm": C.POWER, "w": C.POWER,
-              "watt": C.POWER, "watts": C.POWER, "mw": C.POWER, "db": C.SNR}
+              "watt": C.POWER, "watts": C.POWER, "mw": C.POWER, "milliwatt": C.POWER,
+              "milliwatts": C.POWER, "db": C.SNR}
 _UNIT_HINT = {"hz": ("frequency", "Hz"), "khz": ("frequency", "kHz"),
               "mhz": ("frequency", "MHz"), "dbm": ("power", "dBm"), "w": ("power", "W"),
               "watt": ("power", "W"), "watts": ("power", "W"), "mw": ("power", "mW"),
+              "milliwatt": ("power", "mW"), "milliwatts": ("power", "mW"),
               "epoch": ("time", "epoch"), "unix": ("time", "epoch")}
 _TX_WORDS = {"tx", "transmitter", "transmit", "transmitting", "sender", "sending", "sent",
              "from", "source", "src", "beacon"}
@@ -253,7 +255,7 @@ class _Layout:
     headings: list
     fields: dict = field(default_factory=dict)  # glossary name -> list of positions
     units: dict = field(default_factory=dict)  # CLI field -> unit
-    inferred: set = field(default_factory=set)
+    inferred: dict = field(default_factory=dict)  # CLI field -> how the unit was found
 
     @property
     def ncols(self) -> int:
@@ -401,6 +403,8 @@ def _sep_label(sep: str) -> str:
 def _heading_words(heading: str) -> list[str]:
     h = unicodedata.normalize("NFKD", str(heading))
     h = "".join(ch for ch in h if not unicodedata.combining(ch))
+    for unit in ("kHz", "MHz", "dBm", "mW"):  # keep unit spellings whole
+        h = h.replace(unit, f" {unit.lower()} ")
     h = re.sub(r"([a-z])([A-Z])", r"\1 \2", h).lower().replace("s/n", "snr")
     words = []
     for w in re.split(r"[^a-z0-9]+", h):
@@ -648,6 +652,8 @@ def _assign_roles(fields, problems, calls, locs):
             problems[f] = ("calls found in " + ", ".join(f"column {i + 1}" for i in free_calls)
                            + " but a file without headings does not say which is the "
                            "transmitter: map one, e.g. --map tx_call=N")
+        for f in (C.TX_LOCATOR, C.RX_LOCATOR):
+            problems[f] = "taken from the column right after each call once the calls are mapped"
         return
     for call_f, loc_f in ((C.TX_CALL, C.TX_LOCATOR), (C.RX_CALL, C.RX_LOCATOR)):
         if loc_f in fields or call_f not in fields:
@@ -743,7 +749,7 @@ def _infer_units(layout: _Layout, sample: pd.DataFrame, units: dict) -> None:
             continue
         if name in hints:
             out[name] = hints[name]
-            layout.inferred.add(name)
+            layout.inferred[name] = "from heading"
             continue
         f = C.CLI_FIELDS[name]
         pos = layout.fields[f]
@@ -760,7 +766,7 @@ def _infer_units(layout: _Layout, sample: pd.DataFrame, units: dict) -> None:
                 out[name] = infer_power_unit(_to_number(col, layout.decimal))
         except InputError as exc:
             raise InputError(f"{layout.name}: column {layout.label(pos[0])}: {exc}") from None
-        layout.inferred.add(name)
+        layout.inferred[name] = "inferred"
     layout.units = out
 
 
@@ -1166,7 +1172,7 @@ def iter_spot_chunks(paths, *, mapping=None, units=None, delimiter: Delimiter = 
             summary.files.append(layout.name)
             summary.columns[layout.name] = layout.describe_columns()
             summary.units[layout.name] = {
-                k: v + (" (inferred)" if k in layout.inferred else "")
+                k: v + (f" ({layout.inferred[k]})" if k in layout.inferred else "")
                 for k, v in layout.units.items()}
             next_row = 1
             skipped_all: dict[int, str] = {}
