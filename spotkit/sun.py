@@ -300,7 +300,8 @@ def add_sun_columns(df: pd.DataFrame, twilight_deg: float = CIVIL_TWILIGHT_DEG) 
     coordinates are computed once per distinct slot; each row then needs only the sines of
     its own places and one arcsine (hashing (slot, place) keys would cost more than that
     arithmetic). The path midpoint comes from
-    :func:`spotkit.geo.add_path_geometry`, which is run first if ``C.MID_LAT`` is missing.
+    :func:`spotkit.geo.add_path_geometry`, which is run first if a position column is
+    missing.
 
     Parameters
     ----------
@@ -312,7 +313,7 @@ def add_sun_columns(df: pd.DataFrame, twilight_deg: float = CIVIL_TWILIGHT_DEG) 
     Returns
     -------
     pandas.DataFrame
-        A copy with float64 ``C.TX_SUN``, ``C.RX_SUN``, ``C.MID_SUN`` [deg, geometric
+        A new frame: ``df``'s columns and float64 ``C.TX_SUN``, ``C.RX_SUN``, ``C.MID_SUN`` [deg, geometric
         elevation] and categorical ``C.PATH_LIGHT`` (day / greyline / mixed / night; NaN
         where a position or time is missing).
 
@@ -325,7 +326,8 @@ def add_sun_columns(df: pd.DataFrame, twilight_deg: float = CIVIL_TWILIGHT_DEG) 
     if time_col not in df.columns:
         raise UsageError(f"add_sun_columns needs a {C.SLOT!r} or {C.TIME!r} column")
     out = df
-    if C.MID_LAT not in out.columns or C.MID_LON not in out.columns:
+    places = [C.TX_LAT, C.TX_LON, C.RX_LAT, C.RX_LON, C.MID_LAT, C.MID_LON]
+    if not all(c in out.columns for c in places):
         # geo sits above sun in the layering; imported here only for this convenience
         from .geo import add_path_geometry
 
