@@ -524,17 +524,17 @@ def _add_plan(sub):
 
 
 def _cmd_plan(args) -> int:
-    from . import plan
+    from . import audit, plan, schedule
 
     action = getattr(args, "plan_action", None)
     if action == "schedule":
-        sched = plan.make_schedule(args.start, args.days, args.bands,
-                                   slot_minutes=args.slot_minutes,
-                                   block_slots=args.block_slots, band_hop=args.band_hop,
-                                   seed=args.seed)
-        plan.write_schedule(sched, args.output)
-        bal = plan.schedule_balance(sched)
-        per = bal["A"].groupby(level=plan.C.BAND).agg(["min", "max"])
+        sched = schedule.make_schedule(args.start, args.days, args.bands,
+                                       slot_minutes=args.slot_minutes,
+                                       block_slots=args.block_slots,
+                                       band_hop=args.band_hop, seed=args.seed)
+        schedule.write_schedule(sched, args.output)
+        bal = schedule.schedule_balance(sched)
+        per = bal["A"].groupby(level=schedule.C.BAND).agg(["min", "max"])
         text = ", ".join(f"{b}: {lo}" + (f"-{hi}" if hi != lo else "")
                          for b, (lo, hi) in per.iterrows())
         print(f"wrote {args.output}: {len(sched):,} slots (slot x band), "
@@ -545,15 +545,15 @@ def _cmd_plan(args) -> int:
         from .ingest import load_spots
 
         spots = load_spots(args.spots)
-        res = plan.audit_schedule(spots, args.schedule, args.call,
-                                  marker="none" if args.no_markers else "power",
-                                  power_a_dbm=args.power_a, power_b_dbm=args.power_b)
+        res = audit.audit_schedule(spots, args.schedule, args.call,
+                                   marker="none" if args.no_markers else "power",
+                                   power_a_dbm=args.power_a, power_b_dbm=args.power_b)
         print(res.text)
         if args.csv:
             res.to_frame().to_csv(args.csv, index=False)
             print(f"wrote {args.csv}")
         if args.corrected:
-            plan.write_schedule(res.corrected_schedule(), args.corrected)
+            schedule.write_schedule(res.corrected_schedule(), args.corrected)
             print(f"wrote {args.corrected}")
         return EXIT_OK
     if action != "duration":
@@ -579,7 +579,7 @@ def _cmd_plan(args) -> int:
         else:
             from .simulate import simulate_spots
 
-            sched = (plan.make_schedule("2026-03-02", 1, [args.band], seed=args.seed)
+            sched = (schedule.make_schedule("2026-03-02", 1, [args.band], seed=args.seed)
                      if args.design == "alternating" else None)
             kw = {"schedule": sched} if sched is not None else {}
             sim = simulate_spots(args.design, days=1, seed=args.seed, start="2026-03-02",

@@ -1,4 +1,4 @@
-"""Experiment planning: schedules, run length, audit of a finished run."""
+"""Experiment planning: how long to run (closed form, pilot, simulation), the plan CLI."""
 from __future__ import annotations
 
 import math
@@ -10,109 +10,30 @@ from scipy import integrate, stats
 
 from spotkit import columns as C
 from spotkit.errors import InputError, UsageError
-from spotkit.pairing import read_schedule, schedule_antennas
+from spotkit.pairing import read_schedule
 from spotkit.plan import (
-    audit_schedule,
     censoring_information,
     duration_by_simulation,
     duration_closed_form,
     duration_table,
-    make_schedule,
     pairs_needed,
     pilot_parameters,
     plot_duration_tradeoff,
     power_closed_form,
-    schedule_balance,
-    write_schedule,
 )
-
-START = "2026-12-01T00:00Z"
-
-
-# --- schedules ---------------------------------------------------------------------------
-@pytest.mark.parametrize("band_hop", [False, True])
-@pytest.mark.parametrize("block_slots", [2, 4, 6])
-@pytest.mark.parametrize("bands", [["20m"], ["20m", "10m"], ["40m", "20m", "10m"]])
-def test_schedule_is_balanced_per_hour_band_antenna(bands, block_slots, band_hop):
-    s = make_schedule(START, 2, bands, block_slots=block_slots, band_hop=band_hop, seed=3)
-    bal = schedule_balance(s)
-    # exact: every antenna has the same number of slots in every clock hour and band
-    assert (bal["A"] == bal["B"]).all()
-    assert (bal["A"] > 0).all()
-    hours = pd.to_datetime(s[C.SCHEDULE_START]).dt.floor("h")
-    assert hours.nunique() == 48
-    assert set(s[C.BAND]) == set(bands)
-    # every band appears in every clock hour
-    assert len(bal) == 48 * len(bands)
-    if band_hop:  # one transmitter: one row per slot, slots back to back
-        assert len(s) == 48 * 30
-        assert not s[C.SCHEDULE_START].duplicated().any()
-    else:  # every band in every slot, same antenna on all bands
-        assert len(s) == 48 * 30 * len(bands)
-        assert (s.groupby(C.SCHEDULE_START)[C.ANTENNA].nunique() == 1).all()
-    step = (s[C.SCHEDULE_END] - s[C.SCHEDULE_START]).unique()
-    assert list(step) == [pd.Timedelta(minutes=2)]
-    # slots start on even UTC minutes (common practice for the 2-minute beacon modes)
-    assert (s[C.SCHEDULE_START].dt.minute % 2 == 0).all()
+from spotkit.schedule import make_schedule, schedule_balance, write_schedule
 
 
-def test_blocks_of_two_keep_a_and_b_next_to_each_other():
-    s = make_schedule(START, 1, ["20m", "10m"], block_slots=2, band_hop=True, seed=5)
-    # in band-hop mode each block is one band: slots 2k and 2k+1 share a band and differ
-    # in antenna
-    ant = s[C.ANTENNA].to_numpy().reshape(-1, 2)
-    band = s[C.BAND].to_numpy().reshape(-1, 2)
-    assert (band[:, 0] == band[:, 1]).all()
-    assert (ant[:, 0] != ant[:, 1]).all()
-    # and the order inside the blocks is random: both orders occur often
-    first_a = (ant[:, 0] == "A").mean()
-    assert 0.35 < first_a < 0.65
+def test_plan_reexports_schedule_and_audit_names():
+    # notebooks and the CLI call plan.make_schedule, plan.audit_schedule, ...: the moved
+    # names must stay reachable from spotkit.plan and be the very same objects
+    from spotkit import audit, plan, schedule
 
-
-def test_schedule_reproducible_from_seed_and_seed_matters():
-    a = make_schedule(START, 1, "20m,10m", band_hop=True, seed=11)
-    b = make_schedule(START, 1, "20m,10m", band_hop=True, seed=11)
-    c = make_schedule(START, 1, "20m,10m", band_hop=True, seed=12)
-    pd.testing.assert_frame_equal(a, b)
-    assert not a[C.ANTENNA].equals(c[C.ANTENNA])
-    assert not a[C.BAND].equals(c[C.BAND])
-    # a different seed changes the order, not the balance
-    assert (schedule_balance(c)["A"] == schedule_balance(c)["B"]).all()
-
-
-@pytest.mark.parametrize("kwargs", [
-    dict(start="2026-12-01T00:10Z"),        # not on the hour
-    dict(block_slots=3),                     # odd block
-    dict(block_slots=0),
-    dict(slot_minutes=4),                    # 15 slots per hour: cannot balance an hour
-    dict(days=0),
-    dict(days=0.01),                          # not whole hours
-    dict(bands="20m,11m"),                    # unknown band
-    dict(bands="20m,20m"),
-])
-def test_schedule_bad_arguments(kwargs):
-    args = dict(start=START, days=1, bands="20m")
-    args.update(kwargs)
-    with pytest.raises(UsageError):
-        make_schedule(args.pop("start"), args.pop("days"), args.pop("bands"), **args)
-
-
-def test_schedule_csv_is_read_back_by_compare(tmp_path):
-    s = make_schedule(START, 1, "20m,10m", band_hop=True, seed=2)
-    path = write_schedule(s, tmp_path / "schedule.csv")
-    back = read_schedule(path)  # the reader `spotkit compare --schedule FILE` uses
-    assert len(back) == len(s)
-    assert (back[C.SCHEDULE_START].to_numpy() == s[C.SCHEDULE_START].to_numpy()).all()
-    assert (back[C.SCHEDULE_END].to_numpy() == s[C.SCHEDULE_END].to_numpy()).all()
-    assert (back[C.ANTENNA].to_numpy() == s[C.ANTENNA].to_numpy()).all()
-    assert (back[C.BAND].to_numpy() == s[C.BAND].to_numpy()).all()
-    # and compare assigns every scheduled slot the planned antenna (mid-slot times too)
-    mid = s[C.SCHEDULE_START] + pd.Timedelta(seconds=30)
-    code = schedule_antennas(mid, s[C.BAND], str(path))
-    assert (code == (s[C.ANTENNA] == "B").to_numpy().astype(int)).all()
-    # a band the schedule does not have in that slot is not covered
-    other = np.where(s[C.BAND] == "20m", "10m", "20m")
-    assert (schedule_antennas(s[C.SCHEDULE_START], other, str(path)) == -1).all()
+    for name in ("ANTENNAS", "slots_per_hour", "make_schedule", "write_schedule",
+                 "schedule_balance", "expand_schedule"):
+        assert name in plan.__all__ and getattr(plan, name) is getattr(schedule, name)
+    for name in ("MARKERS", "FINDINGS", "AuditResult", "audit_schedule"):
+        assert name in plan.__all__ and getattr(plan, name) is getattr(audit, name)
 
 
 # --- run length: closed form ---------------------------------------------------------------
@@ -281,132 +202,6 @@ def test_duration_bad_arguments(kwargs):
         duration_closed_form(args.pop("effect_db"), **args)
 
 
-# --- audit -------------------------------------------------------------------------------
-P_A, P_B = 37.0, 30.0  # the two antennas run at different powers: the power is the marker
-
-
-def _in(df, cols, keys) -> np.ndarray:
-    """Rows of ``df`` whose (cols) tuple is in the set ``keys``."""
-    idx = pd.MultiIndex.from_arrays([df[c].astype(object).to_numpy() for c in cols])
-    return np.asarray(idx.isin(list(keys)), dtype=bool)
-
-
-def _spots_following(schedule, rng, call="Q1ABC", per_slot=(1, 6)):
-    """Reports of ``call`` in every scheduled slot, power telling the antenna."""
-    n = rng.integers(per_slot[0], per_slot[1] + 1, size=len(schedule))
-    rows = schedule.loc[schedule.index.repeat(n)].reset_index(drop=True)
-    rx = np.array([f"Q{d}R{c}" for d in range(2, 8) for c in "ABCDEFGH"])
-    return pd.DataFrame({
-        C.SLOT: rows[C.SCHEDULE_START].astype(C.UTC_DTYPE),
-        C.TX_CALL: pd.Categorical([call] * len(rows)),
-        C.RX_CALL: rng.choice(rx, size=len(rows)),
-        C.BAND: rows[C.BAND].to_numpy(),
-        C.SNR: rng.integers(-28, 5, size=len(rows)).astype(float),
-        C.POWER: np.where(rows[C.ANTENNA] == "A", P_A, P_B),
-    })
-
-
-def test_audit_of_a_clean_run_finds_nothing(rng):
-    s = make_schedule(START, 1, "20m,10m", band_hop=True, seed=4)
-    spots = _spots_following(s, rng)
-    r = audit_schedule(spots, s, "q1abc")
-    assert r.markers == {"A": P_A, "B": P_B}  # inferred from the data
-    assert r.summary["slots_ok"] == len(s)
-    assert r.summary["gaps"] == r.summary["wrong_antenna"] == 0
-    assert r.summary["off_schedule_reports"] == 0
-    assert r.summary["hours_one_antenna"] == 0
-    assert r.summary["efficiency"] == pytest.approx(1.0)
-    # planned effective pairs: half the slots
-    assert r.summary["effective_pairs_planned"] == pytest.approx(len(s) / 2)
-    assert r.to_frame().empty
-
-
-def test_audit_finds_every_deliberately_broken_slot(rng, tmp_path):
-    s = make_schedule(START, 1, "20m,10m", band_hop=True, seed=9)
-    spots = _spots_following(s, rng)
-    hour = s[C.SCHEDULE_START].dt.floor("h")
-    spare = np.flatnonzero((hour != hour.iloc[0] + pd.Timedelta(hours=5)).to_numpy())
-    pick = rng.choice(spare, size=24, replace=False)
-    gap_i, wrong_i, ghost_i = pick[:8], pick[8:16], pick[16:]
-    # 1. gaps: all reports of 8 slots removed
-    SB = [C.SLOT, C.BAND]
-    gap_slots = set(zip(s[C.SCHEDULE_START].iloc[gap_i], s[C.BAND].iloc[gap_i]))
-    spots = spots[~_in(spots, SB, gap_slots)].reset_index(drop=True)
-    # 2. wrong antenna: 8 slots run at the other antenna's power
-    wrong_slots = set(zip(s[C.SCHEDULE_START].iloc[wrong_i], s[C.BAND].iloc[wrong_i]))
-    hit = _in(spots, SB, wrong_slots)
-    spots.loc[hit, C.POWER] = np.where(spots.loc[hit, C.POWER] == P_A, P_B, P_A)
-    # 3. off schedule: the station heard on the band it was not scheduled on (band hop)
-    ghost_slots = set(zip(s[C.SCHEDULE_START].iloc[ghost_i], s[C.BAND].iloc[ghost_i]))
-    ghost = spots[_in(spots, SB, ghost_slots)].copy()
-    ghost[C.BAND] = np.where(ghost[C.BAND] == "20m", "10m", "20m")
-    #    and after the schedule ended
-    late = spots.iloc[:3].copy()
-    late[C.SLOT] = pd.Timestamp("2026-12-02T00:10Z")
-    # 4. one clock hour x band in which every B slot is silent
-    h5 = hour.iloc[0] + pd.Timedelta(hours=5)
-    b5 = s[(hour == h5) & (s[C.BAND] == "10m") & (s[C.ANTENNA] == "B")]
-    silent = set(zip(b5[C.SCHEDULE_START], b5[C.BAND]))
-    spots = spots[~_in(spots, SB, silent)]
-    spots = pd.concat([spots, ghost, late], ignore_index=True)
-    spots = spots.sample(frac=1.0, random_state=1).reset_index(drop=True)
-    spots[C.BAND] = spots[C.BAND].astype("category")
-
-    path = write_schedule(s, tmp_path / "plan.csv")
-    r = audit_schedule(spots, path, "Q1ABC")
-    sl = r.slots
-    found = lambda status: set(zip(sl.loc[sl["status"] == status, C.SLOT],  # noqa: E731
-                                   sl.loc[sl["status"] == status, C.BAND]))
-    assert found("gap") == gap_slots | silent
-    assert found("wrong_antenna") == wrong_slots
-    assert found("unknown_power") == set()
-    assert r.summary["off_schedule_reports"] == len(ghost) + 3
-    off = r.off_schedule
-    assert set(off.loc[off[C.REJECT_REASON] == "not scheduled", C.SLOT]) == {
-        pd.Timestamp("2026-12-02T00:10Z")}
-    assert set(zip(off.loc[off[C.REJECT_REASON] != "not scheduled", C.SLOT],
-                   off.loc[off[C.REJECT_REASON] != "not scheduled", C.BAND])) == set(
-        zip(ghost[C.SLOT], ghost[C.BAND].astype(str)))
-    one = r.hours[r.hours["one_antenna"]]
-    assert list(zip(one["hour_utc"], one[C.BAND])) == [(h5, "10m")]
-    # the findings table lists each problem once
-    f = r.to_frame()
-    assert (f[C.KIND] == "gap").sum() == len(gap_slots | silent)
-    assert (f[C.KIND] == "wrong_antenna").sum() == 8
-    assert (f[C.KIND] == "one_antenna_hour").sum() == 1
-    # cost: effective pairs recomputed by hand from usable slot counts per hour x band
-    usable = sl[sl["status"] == "ok"]
-    g = usable.groupby([usable[C.SLOT].dt.floor("h"), C.BAND, C.ANTENNA]).size()
-    g = g.unstack(C.ANTENNA, fill_value=0)
-    want = (2 * g["A"] * g["B"] / (g["A"] + g["B"])).sum()
-    assert r.summary["effective_pairs"] == pytest.approx(want)
-    assert r.summary["efficiency"] < 1
-    # the corrected schedule gives the wrong-antenna slots the antenna the power says
-    cs = r.corrected_schedule()
-    fixed = cs[_in(cs, [C.SCHEDULE_START, C.BAND], wrong_slots)]
-    orig = s.set_index([C.SCHEDULE_START, C.BAND]).loc[list(
-        zip(fixed[C.SCHEDULE_START], fixed[C.BAND])), C.ANTENNA].to_numpy()
-    assert (fixed[C.ANTENNA].to_numpy() != orig).all()
-    assert "wrong antenna" in r.text
-
-
-def test_audit_without_power_markers_says_so(rng):
-    s = make_schedule(START, 0.25, "20m", seed=1)
-    spots = _spots_following(s, rng).assign(**{C.POWER: 37.0})
-    r = audit_schedule(spots, s, "Q1ABC")
-    assert r.markers is None and r.summary["wrong_antenna"] == 0
-    assert "same power" in r.text
-    with pytest.raises(ValueError, match="power, none"):
-        audit_schedule(spots, s, "Q1ABC", marker="snr")
-
-
-def test_audit_unknown_call_lists_calls(rng):
-    s = make_schedule(START, 0.25, "20m", seed=1)
-    spots = _spots_following(s, rng)
-    with pytest.raises(InputError, match="Q1ABC"):
-        audit_schedule(spots, s, "Q9ZZZ")
-
-
 # --- with the simulator and the comparison -------------------------------------------------
 def _simulate(schedule, days, seed, **kw):
     from spotkit.simulate import simulate_spots
@@ -415,37 +210,6 @@ def _simulate(schedule, days, seed, **kw):
     opts.update(kw)
     return simulate_spots("alternating", days=days, seed=seed, start="2026-03-02",
                           schedule=schedule, **opts)
-
-
-def test_audit_finds_mistakes_in_a_simulated_run(rng):
-    # the plan says S; the operator ran S' = S with 12 slots on the wrong antenna, marked by
-    # power (A 37 dBm, B 30 dBm); 6 more slots lost their reports; some reports sneak onto
-    # the band the schedule did not have in that slot (band hop)
-    planned = make_schedule("2026-03-02", 0.5, "20m,10m", band_hop=True, seed=21)
-    ran = planned.copy()
-    flip = rng.choice(len(ran), size=12, replace=False)
-    ran.loc[flip, C.ANTENNA] = np.where(ran.loc[flip, C.ANTENNA] == "A", "B", "A")
-    sim = _simulate(ran, 0.5, 5, bands=("20m", "10m"), power_a_dbm=37.0, power_b_dbm=30.0)
-    spots = sim.spots
-    SB = [C.SLOT, C.BAND]
-    heard = set(zip(spots[C.SLOT], spots[C.BAND].astype(str)))
-    flipped = set(zip(ran[C.SCHEDULE_START].iloc[flip], ran[C.BAND].iloc[flip]))
-    all_slots = set(zip(planned[C.SCHEDULE_START], planned[C.BAND]))
-    heard_ok = sorted((heard & all_slots) - flipped)
-    lose = {heard_ok[i] for i in rng.choice(len(heard_ok), size=6, replace=False)}
-    spots = spots[~_in(spots.assign(**{C.BAND: spots[C.BAND].astype(str)}), SB, lose)]
-    heard = set(zip(spots[C.SLOT], spots[C.BAND].astype(str)))
-    r = audit_schedule(spots, planned, sim.a)
-    sl = r.slots
-    found = {st: set(zip(sl.loc[sl["status"] == st, C.SLOT], sl.loc[sl["status"] == st, C.BAND]))
-             for st in ("gap", "wrong_antenna", "unknown_power")}
-    assert r.markers == {"A": 37.0, "B": 30.0}
-    assert found["wrong_antenna"] == flipped & heard  # every flipped slot that was heard
-    assert lose <= found["gap"]
-    assert found["gap"] == all_slots - heard  # and the slots nobody heard, nothing else
-    assert found["unknown_power"] == set()
-    assert r.summary["off_schedule_reports"] == 0
-    assert r.summary["efficiency"] < 1
 
 
 def test_pilot_parameters_from_a_simulated_pilot():
@@ -605,12 +369,3 @@ def test_duration_by_simulation_table_is_reproducible():
         duration_by_simulation(1.0, [2], design="before-after", **kw)
     with pytest.raises(UsageError):
         duration_by_simulation(1.0, [1.5], **kw)  # the schedule needs whole hours
-
-
-def test_audit_schedule_without_band_column_covers_every_band(rng):
-    s = make_schedule(START, 0.25, "20m,10m", seed=2)  # same antenna on both bands
-    spots = _spots_following(s, rng)
-    one = s[s[C.BAND] == "20m"].drop(columns=C.BAND)  # start, end, antenna only
-    r = audit_schedule(spots, one, "Q1ABC")
-    assert r.summary["slots_scheduled"] == len(s)
-    assert r.summary["slots_ok"] == len(s) and r.summary["off_schedule_reports"] == 0
