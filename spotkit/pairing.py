@@ -116,14 +116,18 @@ _CODED = (C.TX_CALL, C.RX_CALL, C.TX_LOCATOR, C.RX_LOCATOR, C.BAND)
 
 def _encode(spots: pd.DataFrame):
     """Working copy with the text columns replaced by integer codes, and their categories."""
-    work = spots[_NEEDED].copy()
-    cats = {}
-    for col in _CODED:
-        s = _as_category(spots[col].astype(str) if not isinstance(
-            spots[col].dtype, pd.CategoricalDtype) else spots[col])
-        cats[col] = s.cat.categories
-        work[col] = s.cat.codes.to_numpy(dtype=np.int64)
-    return work, cats
+    data, cats = {}, {}
+    for col in _NEEDED:
+        if col in _CODED:
+            s = _as_category(spots[col].astype(str) if not isinstance(
+                spots[col].dtype, pd.CategoricalDtype) else spots[col])
+            cats[col] = s.cat.categories
+            data[col] = s.cat.codes.to_numpy(dtype=np.int64)
+        elif col == C.SLOT:
+            data[col] = spots[col]
+        else:
+            data[col] = spots[col].to_numpy(dtype=float)
+    return pd.DataFrame(data, copy=False), cats
 
 
 def _calls_present(codes: np.ndarray, categories, limit: int = 15) -> str:
@@ -213,10 +217,10 @@ def _finish(merged: pd.DataFrame, set_aside: dict, design: str, cats: dict,
     out = pd.DataFrame({
         C.CLUSTER: _decode(m["_cluster"], cats[cluster_col]),
         C.BAND: _decode(m["_band"], cats[C.BAND]),
-        C.SLOT: _to_utc(m["_slot"].to_numpy()),
+        C.SLOT: _to_utc(m["_slot"].to_numpy(dtype=np.int64) * _SLOT_NS),
     })
     if "_slot_b" in m:
-        out[C.SLOT_B] = _to_utc(m["_slot_b"].to_numpy())
+        out[C.SLOT_B] = _to_utc(m["_slot_b"].to_numpy(dtype=np.int64) * _SLOT_NS)
     far_cols = ((C.RX_CALL, C.RX_LOCATOR) if far_side == "rx" else
                 (C.TX_CALL, C.TX_LOCATOR))
     for col, src in zip([C.FAR_CALL, C.FAR_LOCATOR], far_cols):
@@ -243,30 +247,107 @@ def _finish(merged: pd.DataFrame, set_aside: dict, design: str, cats: dict,
     return out
 
 
+def _add(df: pd.DataFrame, **cols) -> pd.DataFrame:
+    """Add columns in place (``df`` is the working copy) and return it."""
+    for k, v in cols.items():
+        df[k] = v.to_numpy() if isinstance(v, pd.Series) else v
+    return df
+
+
 def _far_from(df: pd.DataFrame, side: Literal["rx", "tx"]) -> pd.DataFrame:
     if side == "rx":
         src = [C.RX_CALL, C.RX_LOCATOR, C.RX_LAT, C.RX_LON, C.BEARING]
     else:
         src = [C.TX_CALL, C.TX_LOCATOR, C.TX_LAT, C.TX_LON, C.REVERSE_BEARING]
     dst = [C.FAR_CALL, C.FAR_LOCATOR, C.FAR_LAT, C.FAR_LON, "_bearing"]
-    return df.assign(**{d: df[s] for s, d in zip(src, dst)})
+    for s_, d in zip(src, dst):  # in place: ``df`` is the working copy
+        df[d] = df[s_].to_numpy()
+    return df
 
 
 _CARRY = [C.FAR_CALL, C.FAR_LOCATOR, C.FAR_LAT, C.FAR_LON, C.TX_LOCATOR, C.RX_LOCATOR,
           C.TX_LAT, C.TX_LON, C.RX_LAT, C.RX_LON, C.DISTANCE, "_bearing"]
 
 
+def _combine(arrays, dims=None):
+    """One int64 key from several non-negative integer arrays (mixed radix)."""
+    arrays = [np.asarray(x, dtype=np.int64) for x in arrays]
+    if dims is None:
+        dims = [int(x.max()) + 1 if x.size else 1 for x in arrays]
+    key = np.zeros(arrays[0].size, dtype=np.int64)
+    for x, d in zip(arrays, dims):
+        key = key * d + x
+    return key, dims
+
+
+def _split(key, dims):
+    out = []
+    for d in reversed(dims):
+        key, r = np.divmod(key, d)
+        out.append(r)
+    return out[::-1]
+
+
+def _dedupe(key: np.ndarray, snrw: np.ndarray):
+    """Distinct keys, mean per-W SNR per key, and one representative row per key."""
+    order = np.argsort(key, kind="stable")
+    ks = key[order]
+    first = np.flatnonzero(np.r_[True, ks[1:] != ks[:-1]]) if ks.size else np.zeros(0, int)
+    uniq = ks[first]
+    inv = np.repeat(np.arange(uniq.size), np.diff(np.append(first, ks.size)))
+    mean = np.bincount(inv, weights=snrw[order], minlength=uniq.size) / np.bincount(
+        inv, minlength=uniq.size)
+    return uniq, mean, order[first]
+
+
+def _lookup(keys: np.ndarray, table_keys: np.ndarray, table_values: np.ndarray):
+    """Values of ``table_keys`` (sorted, distinct) at ``keys``; NaN where absent."""
+    if table_keys.size == 0:
+        return np.full(keys.size, np.nan)
+    i = np.clip(np.searchsorted(table_keys, keys), 0, table_keys.size - 1)
+    hit = table_keys[i] == keys
+    return np.where(hit, table_values[i], np.nan)
+
+
+def _group_median(key: np.ndarray, values: np.ndarray):
+    s = pd.Series(values).groupby(key, sort=True).median()
+    return s.index.to_numpy(dtype=np.int64), s.to_numpy(dtype=float)
+
+
 def _outer(side_a: pd.DataFrame, side_b: pd.DataFrame, keys: list[str]) -> pd.DataFrame:
-    """Outer join of the two sides on ``keys``; far-station columns from A, else from B."""
-    cols = keys + ["_snrw"] + _CARRY
-    a = side_a[cols].rename(columns={"_snrw": "_snrw_a"})
-    b = side_b[cols].rename(columns={"_snrw": "_snrw_b"})
-    m = a.merge(b, on=keys, how="outer", suffixes=("", "_fromb"), sort=False)
+    """Outer join of the two sides' reports on ``keys`` (integer columns).
+
+    Duplicate reports of one key are merged (mean per-W SNR); far-station columns are taken
+    from A's report, else from B's; ``_power_a`` / ``_power_b`` are the powers of the
+    representative reports.
+    """
+    dims = [int(max(side_a[k].max() if len(side_a) else 0,
+                    side_b[k].max() if len(side_b) else 0)) + 1 for k in keys]
+    res = {}
+    parts = []
+    for x, side in (("a", side_a), ("b", side_b)):
+        key, _ = _combine([side[k].to_numpy() for k in keys], dims)
+        snrw = snr_per_watt(side[C.SNR], side[C.POWER])
+        parts.append((x, side, *_dedupe(key, snrw)))
+    allk = np.concatenate([parts[0][2], parts[1][2]])
+    allk.sort()
+    allk = allk[np.r_[True, allk[1:] != allk[:-1]]] if allk.size else allk
+    for k, col in zip(keys, _split(allk, dims)):
+        res[k] = col
+    pos = [np.searchsorted(allk, part[2]) for part in parts]
+    for (x, side, uniq, mean, rows), idx in zip(parts, pos):
+        v = np.full(allk.size, np.nan)
+        v[idx] = mean
+        res[f"_snrw_{x}"] = v
+        pw = np.full(allk.size, np.nan)
+        pw[idx] = side[C.POWER].to_numpy(dtype=float)[rows]
+        res[f"_power_{x}"] = pw
     for c in _CARRY:
-        alt = m.pop(c + "_fromb").to_numpy(dtype=float)
-        v = m[c].to_numpy(dtype=float)
-        m[c] = np.where(np.isnan(v), alt, v)
-    return m
+        v = np.full(allk.size, np.nan)
+        for (x, side, uniq, mean, rows), idx in list(zip(parts, pos))[::-1]:  # A over B
+            v[idx] = side[c].to_numpy(dtype=float)[rows]
+        res[c] = v
+    return pd.DataFrame(res)
 
 
 # --- designs -------------------------------------------------------------------------------
@@ -276,16 +357,19 @@ def _pair_simultaneous(spots, a, b, thr, cats):
     if a == b:
         raise UsageError("the simultaneous design needs two different transmitter calls for "
                          "A and B")
-    df = spots.assign(_slot=_ns(spots[C.SLOT]), _band=spots[C.BAND],
-                      _cluster=spots[C.RX_CALL])
+    df = _add(spots, _slot=_ns(spots[C.SLOT]) // _SLOT_NS, _band=spots[C.BAND],
+              _cluster=spots[C.RX_CALL])
     df = _far_from(df, "rx")
     keys = ["_cluster", "_band", "_slot"]
-    sa = _side(df[df[C.TX_CALL] == code_a], keys)
-    sb = _side(df[df[C.TX_CALL] == code_b], keys)
+    sa = df[df[C.TX_CALL] == code_a]
+    sb = df[df[C.TX_CALL] == code_b]
     m = _outer(sa, sb, keys)
-    for x, s in (("a", sa), ("b", sb)):
-        pw = s.groupby(["_band", "_slot"], sort=False)[C.POWER].median().rename(f"_pow_{x}")
-        m = m.merge(pw, left_on=["_band", "_slot"], right_index=True, how="left")
+    dims = [int(df["_band"].max()) + 1, int(df["_slot"].max()) + 1]
+    mk, _ = _combine([m["_band"], m["_slot"]], dims)
+    for x, s in (("a", sa), ("b", sb)):  # the antenna's power in that slot (median)
+        tk, tv = _group_median(_combine([s["_band"], s["_slot"]], dims)[0],
+                               s[C.POWER].to_numpy(dtype=float))
+        m[f"_pow_{x}"] = _lookup(mk, tk, tv)
     thr_rx = _thr_by_code(thr, cats)[m["_cluster"].to_numpy(dtype=np.int64)]
     m["_thr_a"] = thr_rx
     m["_thr_b"] = thr_rx
@@ -297,23 +381,22 @@ def _pair_receive(spots, a, b, thr, cats):
     b, code_b = _check_call(spots, cats, C.RX_CALL, b, "B")
     if a == b:
         raise UsageError("the receive design needs two different receiver calls for A and B")
-    df = spots.assign(_slot=_ns(spots[C.SLOT]), _band=spots[C.BAND],
-                      _cluster=spots[C.TX_CALL])
+    df = _add(spots, _slot=_ns(spots[C.SLOT]) // _SLOT_NS, _band=spots[C.BAND],
+              _cluster=spots[C.TX_CALL])
     df = _far_from(df, "tx")
     keys = ["_cluster", "_band", "_slot"]
-    sa = _side(df[df[C.RX_CALL] == code_a], keys)
-    sb = _side(df[df[C.RX_CALL] == code_b], keys)
+    sa = df[df[C.RX_CALL] == code_a]
+    sb = df[df[C.RX_CALL] == code_b]
     m = _outer(sa, sb, keys)
     # transmitter power of the pair: from whichever report is present (same transmitter)
-    pa = sa.set_index(keys)[C.POWER]
-    pb = sb.set_index(keys)[C.POWER]
-    idx = pd.MultiIndex.from_frame(m[keys])
-    power = pa.reindex(idx).to_numpy(dtype=float)
-    power = np.where(np.isnan(power), pb.reindex(idx).to_numpy(dtype=float), power)
-    for x, s in (("a", sa), ("b", sb)):
-        on = s[["_band", "_slot"]].drop_duplicates().assign(**{f"_on_{x}": True})
-        m = m.merge(on, on=["_band", "_slot"], how="left")
-        m[f"_pow_{x}"] = np.where(m.pop(f"_on_{x}").eq(True).to_numpy(), power, np.nan)
+    pa, pb = m["_power_a"].to_numpy(), m["_power_b"].to_numpy()
+    power = np.where(np.isnan(pa), pb, pa)
+    dims = [int(df["_band"].max()) + 1, int(df["_slot"].max()) + 1]
+    mk, _ = _combine([m["_band"], m["_slot"]], dims)
+    for x, s in (("a", sa), ("b", sb)):  # receiver on the air: it reported something
+        tk = np.unique(_combine([s["_band"], s["_slot"]], dims)[0])
+        on = ~np.isnan(_lookup(mk, tk, np.ones(tk.size)))
+        m[f"_pow_{x}"] = np.where(on, power, np.nan)
     m["_thr_a"] = float(thr.get(a, np.nan))
     m["_thr_b"] = float(thr.get(b, np.nan))
     return m
@@ -443,8 +526,10 @@ def schedule_antennas(slots, bands, schedule) -> np.ndarray:
 
 
 def _match_slots(a_slots: np.ndarray, b_slots: np.ndarray, window: int):
-    """Match sorted A slots to B slots one to one, at most ``window`` slots apart (FIFO)."""
-    limit = window * _SLOT_NS
+    """Match sorted A slots to B slots one to one, at most ``window`` slots apart (FIFO).
+
+    Slots are given as slot numbers (slot start / slot length)."""
+    limit = window
     ev = np.concatenate([a_slots, b_slots])
     kind = np.concatenate([np.zeros(a_slots.size, np.int8), np.ones(b_slots.size, np.int8)])
     order = np.lexsort((kind, ev))
@@ -472,7 +557,8 @@ def _pair_alternating(spots, a, b, thr, schedule, window_slots, set_aside, cats)
     if int(window_slots) < 1:
         raise UsageError("window_slots must be at least 1")
     df = spots[spots[C.TX_CALL] == code]
-    df = df.assign(_slot=_ns(df[C.SLOT]), _band=df[C.BAND], _cluster=df[C.RX_CALL])
+    df = df.assign(_slot=_ns(df[C.SLOT]) // _SLOT_NS, _band=df[C.BAND],
+                   _cluster=df[C.RX_CALL])
     band_names = np.asarray(cats[C.BAND], dtype=object)[df["_band"].to_numpy()]
     ant = schedule_antennas(df[C.SLOT], band_names, schedule)
     uncovered = int((ant < 0).sum())
@@ -506,13 +592,15 @@ def _pair_alternating(spots, a, b, thr, schedule, window_slots, set_aside, cats)
     if unmatched:
         set_aside[f"no slot of the other antenna within {int(window_slots)} slot(s)"] = \
             unmatched
-    side_a = _side(side_a.dropna(subset=["_pair"]), keys)
-    side_b = _side(side_b.dropna(subset=["_pair"]), keys)
+    side_a = side_a.dropna(subset=["_pair"]).astype({"_pair": np.int64})
+    side_b = side_b.dropna(subset=["_pair"]).astype({"_pair": np.int64})
     m = _outer(side_a, side_b, keys)
-    m = m.merge(match, on="_pair", how="left")
+    pair = m["_pair"].to_numpy()
+    for col in ("_band", "_slot", "_slot_b"):
+        m[col] = match[col].to_numpy()[pair]
     for x, s in (("a", side_a), ("b", side_b)):
-        pw = s.groupby("_pair")[C.POWER].median().rename(f"_pow_{x}")
-        m = m.merge(pw, left_on="_pair", right_index=True, how="left")
+        tk, tv = _group_median(s["_pair"].to_numpy(), s[C.POWER].to_numpy(dtype=float))
+        m[f"_pow_{x}"] = _lookup(pair, tk, tv)
     # an antenna is on the air in a matched slot by construction (someone heard it there)
     thr_rx = _thr_by_code(thr, cats)[m["_cluster"].to_numpy(dtype=np.int64)]
     m["_thr_a"] = thr_rx
@@ -532,9 +620,9 @@ def _pair_before_after(spots, a, b, change_at, set_aside, cats):
         raise UsageError(f"change_at {change_at!r} is not a time") from None
     t_change = t_change.tz_localize("UTC") if t_change.tz is None else t_change.tz_convert(
         "UTC")
-    df = spots.assign(_slot=_ns(spots[C.SLOT]), _band=spots[C.BAND],
-                      _cluster=spots[C.RX_CALL],
-                      _snrw=snr_per_watt(spots[C.SNR], spots[C.POWER]))
+    df = _add(spots, _slot=_ns(spots[C.SLOT]) // _SLOT_NS, _band=spots[C.BAND],
+              _cluster=spots[C.RX_CALL],
+              _snrw=snr_per_watt(spots[C.SNR], spots[C.POWER]))
     keys = ["_cluster", "_band", "_slot"]
     is_t = (df[C.TX_CALL] == code).to_numpy()
     target = _side(_far_from(df[is_t], "rx").drop(columns="_snrw"), keys)
@@ -545,7 +633,7 @@ def _pair_before_after(spots, a, b, change_at, set_aside, cats):
         set_aside["no control station heard by that receiver in that slot and band"] = no_ctrl
     m = m[m["_ctrl"].notna()].reset_index(drop=True)
     rel = (m["_snrw"] - m["_ctrl"]).to_numpy(dtype=float)
-    after = m["_slot"].to_numpy() >= t_change.value
+    after = m["_slot"].to_numpy(dtype=np.int64) * _SLOT_NS >= t_change.value
     n_before, n_after = int((~after).sum()), int(after.sum())
     if n_before == 0 or n_after == 0:
         raise NoPairsError(
