@@ -858,14 +858,15 @@ def summarise_pairs(pairs: pd.DataFrame, by=(), **group_options) -> pd.DataFrame
     sa = df[C.SNR_A].to_numpy(dtype=float)
     sb = df[C.SNR_B].to_numpy(dtype=float)
     if C.KIND in df.columns:  # before/after
-        kind = df[C.KIND].astype(str).to_numpy()
-        value = np.where(kind == "after", sb, sa)
+        after = (df[C.KIND].astype(str) == "after").to_numpy()
+        kcode = after.astype(np.int64)
+        value = np.where(after, sb, sa)
         cats = list(C.PERIOD_KINDS)
     else:
         ha, hb = ~np.isnan(sa), ~np.isnan(sb)
         la = df[C.LIMIT_A].to_numpy(dtype=float)
         lb = df[C.LIMIT_B].to_numpy(dtype=float)
-        kind = np.where(ha & hb, "both", np.where(ha, "only_a", "only_b"))
+        kcode = np.where(ha & hb, 0, np.where(ha, 1, 2))  # index into C.KINDS
         value = np.where(ha & hb, sb - sa, np.where(ha, lb - sa, sb - la))
         cats = list(C.KINDS)
     value = np.round(value, 6)
@@ -878,9 +879,14 @@ def summarise_pairs(pairs: pd.DataFrame, by=(), **group_options) -> pd.DataFrame
         if bad.any():
             set_aside[f"outside the {col} bins"] = int(bad.sum())
         ok &= ~df[col].isna().to_numpy()
-    frame = pd.DataFrame({col: df[col].to_numpy()[ok] for col in gcols})
-    frame[C.CLUSTER] = df[C.CLUSTER].astype(str).to_numpy()[ok]
-    frame[C.KIND] = pd.Categorical(kind[ok], categories=cats)
+    def take(col):
+        if isinstance(df[col].dtype, pd.CategoricalDtype):
+            return df[col].array[ok].remove_unused_categories()
+        return df[col].to_numpy()[ok]
+
+    frame = pd.DataFrame({col: take(col) for col in gcols})
+    frame[C.CLUSTER] = take(C.CLUSTER)
+    frame[C.KIND] = pd.Categorical.from_codes(kcode[ok], categories=cats)
     frame[C.VALUE] = value[ok]
     counts = (frame.groupby(gcols + [C.CLUSTER, C.KIND, C.VALUE], observed=True, sort=True)
               .size().rename(C.COUNT).reset_index())
