@@ -826,6 +826,31 @@ def _build_spots(rec, em, li, tx_loc, rx_loc, bands, slots, rng) -> pd.DataFrame
     return C.apply_dtypes(df[C.CANONICAL])
 
 
+def _match_neighbours(on_a: np.ndarray, on_b: np.ndarray) -> np.ndarray:
+    """Greedy one-to-one matching of adjacent A and B slots, in time order.
+
+    Returns, per slot, the index of the A slot of the pair it belongs to (-1: unpaired).
+    Equivalent to scanning left to right and pairing each unpaired on-air slot with the
+    next slot when that one is on the air with the other antenna.
+    """
+    n = on_a.size
+    code = np.where(on_a, 0, np.where(on_b, 1, -1))
+    link = (code[:-1] >= 0) & (code[1:] >= 0) & (code[:-1] != code[1:])
+    # runs of linked slots; position of each slot within its run
+    start = np.ones(n, bool)
+    start[1:] = ~link
+    run_start = np.maximum.accumulate(np.where(start, np.arange(n), 0))
+    pos = np.arange(n) - run_start
+    first = np.zeros(n, bool)
+    first[:-1] = link & (pos[:-1] % 2 == 0)
+    out = np.full(n, -1, dtype=np.int64)
+    i = np.flatnonzero(first)
+    a_of_pair = np.where(code[i] == 0, i, i + 1)
+    out[i] = a_of_pair
+    out[i + 1] = a_of_pair
+    return out
+
+
 def _build_truth(design, rec, on, gains, bands, slots, em, li, dist, az, rev, elev,
                  e_site, l_site) -> pd.DataFrame:
     """One row per pair where at least one antenna was heard, with the true B-A gain."""
@@ -847,21 +872,18 @@ def _build_truth(design, rec, on, gains, bands, slots, em, li, dist, az, rev, el
     else:
         tgt = rec[rec["e"] <= 1][["band", "slot", "e", "l"]]
         if design == "alternating":
-            # A in slot s pairs with B in slot s + 1 when B is on the air there
+            # neighbouring on-air A and B slots matched one to one, first come first
+            # matched (window of one slot); the pair's slot is A's
             ka = tgt[tgt["e"] == 0].drop(columns="e")
             kb = tgt[tgt["e"] == 1].drop(columns="e")
-            ok_a = np.zeros(len(ka), bool)
+            a_slot = {}
             for bi, band in enumerate(bands):
-                on_b = np.append(on[band][:, 1], False)
-                sel = ka["band"].to_numpy() == bi
-                ok_a[sel] = on_b[ka["slot"].to_numpy()[sel] + 1]
-            ka = ka[ok_a]
-            prev_ok = np.zeros(len(kb), bool)
-            for bi, band in enumerate(bands):
-                on_a = np.concatenate([[False], on[band][:, 0]])
-                sel = kb["band"].to_numpy() == bi
-                prev_ok[sel] = on_a[kb["slot"].to_numpy()[sel]]
-            kb = kb[prev_ok].assign(slot=lambda d: d["slot"] - 1)
+                a_slot[bi] = _match_neighbours(on[band][:, 0], on[band][:, 1])
+            for k in (ka, kb):
+                bidx, sidx = k["band"].to_numpy(), k["slot"].to_numpy()
+                k["slot"] = np.select([bidx == bi for bi in a_slot],
+                                      [a_slot[bi][sidx] for bi in a_slot], -1)
+            ka, kb = ka[ka["slot"] >= 0], kb[kb["slot"] >= 0]
             m = ka.assign(_a=True).merge(kb.assign(_b=True), how="outer",
                                          on=["band", "slot", "l"])
         elif design == "simultaneous":
