@@ -29,8 +29,9 @@ towards that far station (transmit designs: transmit gain; receive design: recei
 in dB - i.e. the difference of the SNRs normalised to 1 W with the fading averaged out.
 :class:`Truth` keeps one row per pair in which at least one antenna was heard. Pairs are:
 simultaneous, receiver x slot; receive, transmitter x slot; alternating, receiver x (A slot,
-the following slot when B is on the air there); before-after, every report of the target
-(A before the change, B after).
+neighbouring B slot), on-air A and B slots being matched one to one in time order, either
+order, at most one slot apart; before-after, every report of the target (A before the
+change, B after).
 
 Output. :func:`simulate_spots` returns the canonical spot table (as the ingest would make
 it: glossary dtypes, enriched with :func:`spotkit.geo.add_path_columns`, no duplicates);
