@@ -60,9 +60,9 @@ from scipy.signal import lfilter
 from . import columns as C
 from .antenna import Antenna, constant_difference, isotropic_antenna, make_antenna
 from .bands import BEACON_DIAL_KHZ, sort_bands
-from .errors import UsageError
+from .errors import LocatorError, UsageError
 from .geo import add_path_columns, elevation_angle, geodesic_inverse, hop_count, path_midpoint
-from .locator import latlon_to_locator, locator_to_latlon
+from .locator import latlon_to_locator, locator_to_latlon, normalize_locator
 from .units import POWER_LADDER_DBM
 
 Design = Literal["simultaneous", "alternating", "receive", "before-after"]
@@ -593,9 +593,15 @@ def simulate_spots(design: Design = "simultaneous", *, days: float = 3, seed: in
         change_at = None
 
     # --- stations ------------------------------------------------------------------------
-    home_lat, home_lon = locator_to_latlon(home_locator)
-    home_loc = str(home_locator)
+    try:
+        home_lat, home_lon = locator_to_latlon(home_locator)
+    except LocatorError as exc:
+        raise UsageError(f"home_locator: {exc}") from None
+    home_loc = str(normalize_locator([home_locator])[0])
     n_far = n_receivers if transmit else n_transmitters
+    if n_far < 1:
+        raise UsageError("the simulation needs at least one far station "
+                         f"({'n_receivers' if transmit else 'n_transmitters'})")
     far_calls = invent_calls(n_far + (n_controls if design == "before-after" else 0), rng,
                              exclude=(a, b))
     flat, flon = place_stations(n_far, rng)

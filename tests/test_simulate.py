@@ -285,6 +285,13 @@ def test_bad_arguments():
         simulate_spots("alternating", a="Q1ABC", b="Q1XYZ", **SMALL)
     with pytest.raises(UsageError):
         simulate_spots("simultaneous", antenna_a="yagi", **SMALL)
+    with pytest.raises(UsageError, match="home_locator"):
+        simulate_spots("simultaneous", home_locator="ZZ99", **SMALL)
+    with pytest.raises(UsageError, match="far station"):
+        simulate_spots("receive", days=1, n_transmitters=0)
+    # the home locator is spelt canonically
+    sim = simulate_spots("simultaneous", home_locator="jo62QM", days=0.1, n_receivers=20)
+    assert set(sim.spots[C.TX_LOCATOR].astype(str)) == {"JO62qm"}
 
 
 # --- antenna patterns ---------------------------------------------------------------------
