@@ -34,7 +34,7 @@ test-fast: setup
 	$(PY) -m pytest -n 2 -m "not slow and not browser and not notebook"
 
 bench: setup
-	$(PY) benchmarks/run_all.py
+	for f in benchmarks/bench_*.py; do echo "== $$f"; $(PY) $$f || exit 1; done
 
 clean:
 	rm -rf $(VENV) $(OUT) .pytest_cache build *.egg-info
