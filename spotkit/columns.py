@@ -44,7 +44,7 @@ ELEVATION = "elevation_deg"
 TX_SUN = "tx_sun_elevation_deg"
 RX_SUN = "rx_sun_elevation_deg"
 MID_SUN = "mid_sun_elevation_deg"
-PATH_LIGHT = "path_light"  # "day" | "night" | "greyline"
+PATH_LIGHT = "path_light"  # "day" | "night" | "greyline" | "mixed" (spotkit.sun.path_light)
 
 # --- derived analysis columns -----------------------------------------------------------
 SNR_PER_W = "snr_per_w_db"  # SNR normalised to 1 W (30 dBm) transmit power
