@@ -614,3 +614,20 @@ def test_alternating_random_block_schedule_pairs_both_orders():
     idx = ((tr[C.SLOT] - start) / pd.Timedelta(minutes=2)).astype(int).to_numpy()
     assert (ant[idx] == "A").all()  # the pair's slot is A's
     assert (idx % 2 == 0).any() and (idx % 2 == 1).any()  # both orders occur
+
+
+def test_vertical_pattern_over_real_ground():
+    # a ground-mounted vertical over average ground has its main lobe at about 20-30 deg and
+    # a null at the horizon; over sea water the lobe comes down towards the horizon (ARRL
+    # Antenna Book, chapter on ground effects - from memory; tolerance: the stated range)
+    el = np.arange(0.0, 90.01, 0.5)
+    f = band_frequency_hz("20m")
+    peak = {g: el[np.argmax(quarter_wave_vertical_gain(el, f, g, 0.0))]
+            for g in ("sea", "wet", "average", "dry")}
+    assert 20.0 <= peak["average"] <= 30.0
+    assert peak["sea"] < peak["wet"] < peak["average"] < peak["dry"]
+    assert quarter_wave_vertical_gain(0.0, f, "average") < -40
+    # ground loss: 36.6 ohm radiation resistance plus 36.6 ohm loss halves the power (-3 dB)
+    g0 = quarter_wave_vertical_gain(20.0, f, "average", loss_ohm=0.0)
+    g1 = quarter_wave_vertical_gain(20.0, f, "average", loss_ohm=73.13 / 2)
+    assert g0 - g1 == pytest.approx(3.01, abs=0.01)
