@@ -314,40 +314,44 @@ def _group_median(key: np.ndarray, values: np.ndarray):
     return s.index.to_numpy(dtype=np.int64), s.to_numpy(dtype=float)
 
 
-def _outer(side_a: pd.DataFrame, side_b: pd.DataFrame, keys: list[str]) -> pd.DataFrame:
-    """Outer join of the two sides' reports on ``keys`` (integer columns).
+def _outer(df: pd.DataFrame, ia: np.ndarray, ib: np.ndarray, keys: list[str]) -> pd.DataFrame:
+    """Outer join of A's reports (rows ``ia`` of ``df``) and B's (rows ``ib``) on ``keys``.
 
-    Duplicate reports of one key are merged (mean per-W SNR); far-station columns are taken
-    from A's report, else from B's; ``_power_a`` / ``_power_b`` are the powers of the
-    representative reports.
+    ``keys`` are non-negative integer columns. Duplicate reports of one key are merged
+    (mean per-W SNR); far-station columns are taken from A's report, else from B's;
+    ``_power_a`` / ``_power_b`` are the powers of the representative reports. Works on
+    row indices, so no copy of the table is made.
     """
-    dims = [int(max(side_a[k].max() if len(side_a) else 0,
-                    side_b[k].max() if len(side_b) else 0)) + 1 for k in keys]
+    kcols = [df[k].to_numpy() for k in keys]
+    dims = [int(x.max()) + 1 if x.size else 1 for x in kcols]
+    snr = df[C.SNR].to_numpy(dtype=float)
+    power = df[C.POWER].to_numpy(dtype=float)
     res = {}
     parts = []
-    for x, side in (("a", side_a), ("b", side_b)):
-        key, _ = _combine([side[k].to_numpy() for k in keys], dims)
-        snrw = snr_per_watt(side[C.SNR], side[C.POWER])
-        parts.append((x, side, *_dedupe(key, snrw)))
-    allk = np.concatenate([parts[0][2], parts[1][2]])
+    for x, idx in (("a", ia), ("b", ib)):
+        key, _ = _combine([col[idx] for col in kcols], dims)
+        uniq, mean, rows = _dedupe(key, snr_per_watt(snr[idx], power[idx]))
+        parts.append((x, uniq, mean, idx[rows]))  # rows of df
+    allk = np.concatenate([parts[0][1], parts[1][1]])
     allk.sort()
     allk = allk[np.r_[True, allk[1:] != allk[:-1]]] if allk.size else allk
     for k, col in zip(keys, _split(allk, dims)):
         res[k] = col
-    pos = [np.searchsorted(allk, part[2]) for part in parts]
-    for (x, side, uniq, mean, rows), idx in zip(parts, pos):
+    pos = [np.searchsorted(allk, part[1]) for part in parts]
+    for (x, uniq, mean, rows), at in zip(parts, pos):
         v = np.full(allk.size, np.nan)
-        v[idx] = mean
+        v[at] = mean
         res[f"_snrw_{x}"] = v
         pw = np.full(allk.size, np.nan)
-        pw[idx] = side[C.POWER].to_numpy(dtype=float)[rows]
+        pw[at] = power[rows]
         res[f"_power_{x}"] = pw
     for c in _CARRY:
+        col = df[c].to_numpy()
         v = np.full(allk.size, np.nan)
-        for (x, side, uniq, mean, rows), idx in list(zip(parts, pos))[::-1]:  # A over B
-            v[idx] = side[c].to_numpy(dtype=float)[rows]
+        for (x, uniq, mean, rows), at in list(zip(parts, pos))[::-1]:  # A over B
+            v[at] = col[rows]
         res[c] = v
-    return pd.DataFrame(res)
+    return pd.DataFrame(res, copy=False)
 
 
 # --- designs -------------------------------------------------------------------------------
@@ -361,14 +365,15 @@ def _pair_simultaneous(spots, a, b, thr, cats):
               _cluster=spots[C.RX_CALL])
     df = _far_from(df, "rx")
     keys = ["_cluster", "_band", "_slot"]
-    sa = df[df[C.TX_CALL] == code_a]
-    sb = df[df[C.TX_CALL] == code_b]
-    m = _outer(sa, sb, keys)
+    tx = df[C.TX_CALL].to_numpy()
+    ia, ib = np.flatnonzero(tx == code_a), np.flatnonzero(tx == code_b)
+    m = _outer(df, ia, ib, keys)
     dims = [int(df["_band"].max()) + 1, int(df["_slot"].max()) + 1]
     mk, _ = _combine([m["_band"], m["_slot"]], dims)
-    for x, s in (("a", sa), ("b", sb)):  # the antenna's power in that slot (median)
-        tk, tv = _group_median(_combine([s["_band"], s["_slot"]], dims)[0],
-                               s[C.POWER].to_numpy(dtype=float))
+    band, slot = df["_band"].to_numpy(), df["_slot"].to_numpy()
+    power = df[C.POWER].to_numpy(dtype=float)
+    for x, idx in (("a", ia), ("b", ib)):  # the antenna's power in that slot (median)
+        tk, tv = _group_median(_combine([band[idx], slot[idx]], dims)[0], power[idx])
         m[f"_pow_{x}"] = _lookup(mk, tk, tv)
     thr_rx = _thr_by_code(thr, cats)[m["_cluster"].to_numpy(dtype=np.int64)]
     m["_thr_a"] = thr_rx
@@ -385,16 +390,17 @@ def _pair_receive(spots, a, b, thr, cats):
               _cluster=spots[C.TX_CALL])
     df = _far_from(df, "tx")
     keys = ["_cluster", "_band", "_slot"]
-    sa = df[df[C.RX_CALL] == code_a]
-    sb = df[df[C.RX_CALL] == code_b]
-    m = _outer(sa, sb, keys)
+    rx = df[C.RX_CALL].to_numpy()
+    ia, ib = np.flatnonzero(rx == code_a), np.flatnonzero(rx == code_b)
+    m = _outer(df, ia, ib, keys)
     # transmitter power of the pair: from whichever report is present (same transmitter)
     pa, pb = m["_power_a"].to_numpy(), m["_power_b"].to_numpy()
     power = np.where(np.isnan(pa), pb, pa)
     dims = [int(df["_band"].max()) + 1, int(df["_slot"].max()) + 1]
     mk, _ = _combine([m["_band"], m["_slot"]], dims)
-    for x, s in (("a", sa), ("b", sb)):  # receiver on the air: it reported something
-        tk = np.unique(_combine([s["_band"], s["_slot"]], dims)[0])
+    band, slot = df["_band"].to_numpy(), df["_slot"].to_numpy()
+    for x, idx in (("a", ia), ("b", ib)):  # receiver on the air: it reported something
+        tk = np.unique(_combine([band[idx], slot[idx]], dims)[0])
         on = ~np.isnan(_lookup(mk, tk, np.ones(tk.size)))
         m[f"_pow_{x}"] = np.where(on, power, np.nan)
     m["_thr_a"] = float(thr.get(a, np.nan))
@@ -573,7 +579,7 @@ def _pair_alternating(spots, a, b, thr, schedule, window_slots, set_aside, cats)
         warnings.warn(f"{uncovered} of {len(df)} reports of {call} fall outside the schedule "
                       "and are set aside", SpotkitWarning, stacklevel=3)
     df = _far_from(df.assign(_ant=ant), "rx")
-    df = df[df["_ant"] >= 0]
+    df = df[df["_ant"] >= 0].reset_index(drop=True)
     pieces = []
     for band, g in df.groupby("_band", sort=False):
         sa = np.unique(g.loc[g["_ant"] == 0, "_slot"].to_numpy())
@@ -583,23 +589,30 @@ def _pair_alternating(spots, a, b, thr, schedule, window_slots, set_aside, cats)
     match = pd.concat(pieces, ignore_index=True)
     match["_pair"] = np.arange(len(match))
     keys = ["_cluster", "_pair"]
-    side_a = df[df["_ant"] == 0].merge(match[["_band", "_slot", "_pair"]],
-                                       on=["_band", "_slot"], how="left")
-    side_b = df[df["_ant"] == 1].merge(
-        match[["_band", "_slot_b", "_pair"]].rename(columns={"_slot_b": "_slot"}),
-        on=["_band", "_slot"], how="left")
-    unmatched = int(side_a["_pair"].isna().sum() + side_b["_pair"].isna().sum())
+    dims = [int(df["_band"].max()) + 1, int(df["_slot"].max()) + 1]
+    rk, _ = _combine([df["_band"], df["_slot"]], dims)
+    ant = df["_ant"].to_numpy()
+    pair_of = np.full(len(df), -1, dtype=np.int64)
+    for x, slot_col in ((0, "_slot"), (1, "_slot_b")):  # row -> matched pair id
+        mk, _ = _combine([match["_band"], match[slot_col]], dims)
+        order = np.argsort(mk)
+        found = _lookup(rk, mk[order], match["_pair"].to_numpy()[order].astype(float))
+        sel = (ant == x) & ~np.isnan(found)
+        pair_of[sel] = found[sel].astype(np.int64)
+    unmatched = int((pair_of < 0).sum())
     if unmatched:
         set_aside[f"no slot of the other antenna within {int(window_slots)} slot(s)"] = \
             unmatched
-    side_a = side_a.dropna(subset=["_pair"]).astype({"_pair": np.int64})
-    side_b = side_b.dropna(subset=["_pair"]).astype({"_pair": np.int64})
-    m = _outer(side_a, side_b, keys)
+    df["_pair"] = np.maximum(pair_of, 0)
+    ia = np.flatnonzero((ant == 0) & (pair_of >= 0))
+    ib = np.flatnonzero((ant == 1) & (pair_of >= 0))
+    m = _outer(df, ia, ib, keys)
     pair = m["_pair"].to_numpy()
     for col in ("_band", "_slot", "_slot_b"):
         m[col] = match[col].to_numpy()[pair]
-    for x, s in (("a", side_a), ("b", side_b)):
-        tk, tv = _group_median(s["_pair"].to_numpy(), s[C.POWER].to_numpy(dtype=float))
+    power = df[C.POWER].to_numpy(dtype=float)
+    for x, idx in (("a", ia), ("b", ib)):
+        tk, tv = _group_median(pair_of[idx], power[idx])
         m[f"_pow_{x}"] = _lookup(pair, tk, tv)
     # an antenna is on the air in a matched slot by construction (someone heard it there)
     thr_rx = _thr_by_code(thr, cats)[m["_cluster"].to_numpy(dtype=np.int64)]
