@@ -726,12 +726,22 @@ def infer_power_unit(values) -> str:
 
 
 def _to_number(raw: pd.Series, decimal: str) -> pd.Series:
+    """Text cells to float64; cells that are not plain decimal numbers become NaN."""
+    import pyarrow as pa
+    import pyarrow.compute as pc
+
     if pd.api.types.is_numeric_dtype(raw.dtype):
         return raw.astype("float64")
-    s = raw.astype("str")
+    arr = pa.array(raw.astype("str").array)
+    if isinstance(arr, pa.ChunkedArray):
+        arr = arr.combine_chunks()
+    arr = pc.utf8_trim_whitespace(arr.cast(pa.string()))
     if decimal == ",":
-        s = s.str.replace(",", ".", regex=False)
-    return pd.to_numeric(s.str.strip(), errors="coerce").astype("float64")
+        arr = pc.replace_substring(arr, ",", ".")
+    ok = pc.match_substring_regex(arr, r"^[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?$")
+    vals = pc.cast(pc.if_else(ok, arr, pa.scalar(None, pa.string())), pa.float64())
+    out = vals.to_numpy(zero_copy_only=False)
+    return pd.Series(np.asarray(out, dtype="float64"), index=raw.index)
 
 
 def _infer_units(layout: _Layout, sample: pd.DataFrame, units: dict) -> None:
@@ -779,15 +789,13 @@ def _csv_kwargs(layout: _Layout, text: bool = False) -> dict:
     if text:
         dtype = "str"
     else:
-        dtype = {}
+        # text for all (numbers are converted later, keeping the raw text of bad cells);
+        # categoricals where values repeat (times, calls, locators)
+        dtype = {n: "str" for n in names}
         for f, pos in layout.fields.items():
             for i in pos:
-                dtype[names[i]] = "category" if f in _CAT_FIELDS else None
-        used = {i for pos in layout.fields.values() for i in pos}
-        for i in range(layout.ncols):
-            if i not in used:
-                dtype[names[i]] = "str"
-        dtype = {k: v for k, v in dtype.items() if v is not None}
+                if f in _CAT_FIELDS:
+                    dtype[names[i]] = "category"
     kw = dict(sep=layout.sep, header=None, names=names, skiprows=layout.header_lines,
               encoding=layout.encoding, compression=layout.compression, dtype=dtype,
               keep_default_na=False, na_values=[""], skip_blank_lines=False,
@@ -817,6 +825,10 @@ def _prepare_layout(path: Path, mapping, units, delimiter, header) -> _Layout:
         problems = {f: p for f, p in problems.items() if f not in fields}
     else:
         fields, problems = infer_columns(sample, known)
+        if not known and not fields:
+            raise NotASpotTableError(
+                f"{path}: not a spot table (no heading line and no column looks like times, "
+                "callsigns, locators or numbers; if it is one, map every column with --map)")
     missing = [f for f in C.REQUIRED_INPUT if f not in fields]
     if missing or any(f in problems for f in missing):
         lines = [f"  {_CLI_NAME[f]}: {problems.get(f, 'not found')}" for f in missing]
@@ -1041,6 +1053,8 @@ class _SeenKeys:
         return found
 
     def add(self, h: np.ndarray) -> None:
+        if not h.size:
+            return
         self.runs.append(np.sort(h))
         while len(self.runs) > 1 and self.runs[-1].size * 2 >= self.runs[-2].size:
             b = self.runs.pop()
@@ -1195,7 +1209,7 @@ def iter_spot_chunks(paths, *, mapping=None, units=None, delimiter: Delimiter = 
                 _count(summary, len(raw) + len(done), spots, rejects, int(dup.sum()))
                 if bar is not None:
                     bar.update(len(raw) + len(done))
-                yield spots, rejects.sort_values(C.SOURCE_ROW, ignore_index=True)
+                yield spots, _tidy_rejects(rejects)
             if skipped_all:  # bad lines after the last good row
                 rows_left = sorted(skipped_all)
                 rejects = pd.DataFrame({
@@ -1203,10 +1217,17 @@ def iter_spot_chunks(paths, *, mapping=None, units=None, delimiter: Delimiter = 
                     C.REJECT_FIELD: "row", C.REJECT_VALUE: [skipped_all[r] for r in rows_left],
                     C.REJECT_REASON: "wrong number of fields"})
                 _count(summary, len(rows_left), C.empty_spots(), rejects, 0)
-                yield C.empty_spots(), rejects
+                yield C.empty_spots(), _tidy_rejects(rejects)
     finally:
         if bar is not None:
             bar.close()
+
+
+def _tidy_rejects(rejects: pd.DataFrame) -> pd.DataFrame:
+    """Rejects in row order, text columns as Python strings (as C.empty_rejects)."""
+    out = rejects.sort_values(C.SOURCE_ROW, ignore_index=True)[C.REJECT_COLUMNS]
+    text = [C.SOURCE_FILE, C.REJECT_FIELD, C.REJECT_VALUE, C.REJECT_REASON]
+    return out.astype({c: object for c in text} | {C.SOURCE_ROW: "int64"})
 
 
 def _row_numbers(n: int, start: int, skipped: dict) -> tuple[np.ndarray, int]:
