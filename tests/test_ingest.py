@@ -1,0 +1,426 @@
+"""Reading spot CSV files: layouts, mapping, units, rejects, duplicates, chunking, CLI.
+
+Fixtures in tests/data/ingest_*.csv are invented (Q-prefix calls, real grid squares).
+"""
+from __future__ import annotations
+
+import gzip
+import io
+import shutil
+
+import numpy as np
+import pandas as pd
+import pandas.testing as pdt
+import pytest
+from geographiclib.geodesic import Geodesic
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
+
+from spotkit import columns as C
+from spotkit.cli import main
+from spotkit.errors import InputError, MappingError, NotASpotTableError, UsageError
+from spotkit.ingest import (
+    IngestSummary, infer_frequency_unit, infer_power_unit, ingest_to_parquet, load_spots,
+    match_headings, read_spots,
+)
+
+HEAD = "time,tx call,tx locator,rx call,rx locator,frequency mhz,snr,power dbm,drift\n"
+ROWS = [
+    "2026-03-01 10:00,Q1ABC,JN58td,Q7XYZ,IO91lk,14.097100,-12,23,0",
+    "2026-03-01 10:01,Q1ABC,JN58td,Q9DEF,FN31pr,14.097105,-21,23,1",
+    "2026-03-01 10:02,Q2BCD,JO62,Q7XYZ,IO91lk,7.038650,-5,37,-1",
+    "2026-03-01 10:04,Q2BCD,JO62,Q9DEF,FN31pr,10.140200,3,30,0",
+]
+
+
+def _write(tmp_path, name, text, encoding="utf-8"):
+    p = tmp_path / name
+    p.write_bytes(text.encode(encoding) if isinstance(text, str) else text)
+    return p
+
+
+def _balanced(res):
+    s = res.summary
+    assert s.accepted + s.rejected + s.duplicates == s.rows_read
+    assert s.accepted == len(res.spots) and s.rejected == len(res.rejects)
+
+
+# --- layouts -----------------------------------------------------------------------------------
+def test_basic_file_gives_canonical_table(data_dir):
+    res = read_spots(data_dir / "ingest_basic.csv")
+    df = res.spots
+    assert list(df.columns) == C.CANONICAL
+    for name in C.CANONICAL:
+        assert str(df[name].dtype) == str(C.GLOSSARY[name].dtype), name
+    assert res.summary.rows_read == 4 and res.summary.accepted == 4
+    # calls upper case, locators normalised (field letters upper, subsquare lower)
+    assert df[C.TX_CALL].tolist() == ["Q1ABC", "Q1ABC", "Q2BCD", "Q2BCD"]
+    assert df[C.TX_LOCATOR].tolist() == ["JN58td", "JN58td", "JO62", "JO62"]
+    # IARU Region 1 HF band plan: 20 m is 14000-14350 kHz, 40 m 7000-7200, 30 m 10100-10150
+    assert df[C.BAND].tolist() == ["20m", "20m", "40m", "30m"]
+    # 14.097100 MHz = 14 097 100 Hz exactly (SI prefixes), tolerance 1e-3 Hz
+    assert df[C.FREQ].iloc[0] == pytest.approx(14_097_100.0, abs=1e-3)
+    assert df[C.SOURCE_ROW].tolist() == [1, 2, 3, 4]
+    assert res.summary.spots_per_band == {"40m": 1, "30m": 1, "20m": 2}
+
+
+def test_path_columns_match_geographiclib(data_dir):
+    df = read_spots(data_dir / "ingest_basic.csv").spots
+    row = df.iloc[0]
+    # cell centres (Tyson, QST Jan 1989; recomputed): JN58td -> 48.145833 N, 11.625 E;
+    # IO91lk -> 51.4375 N, 1.041667 W; tolerance 1e-6 deg
+    assert row[C.TX_LAT] == pytest.approx(48.145833, abs=1e-6)
+    assert row[C.TX_LON] == pytest.approx(11.625, abs=1e-6)
+    assert row[C.RX_LAT] == pytest.approx(51.4375, abs=1e-6)
+    assert row[C.RX_LON] == pytest.approx(-1.041667, abs=1e-6)
+    # Karney's WGS-84 geodesic (geographiclib as oracle): distance within 1 m, azimuths 1e-6 deg
+    g = Geodesic.WGS84.Inverse(48.145833333333, 11.625, 51.4375, -1.0416666667)
+    assert row[C.DISTANCE] == pytest.approx(g["s12"] / 1000.0, abs=1e-3)
+    assert row[C.BEARING] == pytest.approx(g["azi1"] % 360, abs=1e-6)
+    assert row[C.REVERSE_BEARING] == pytest.approx((g["azi2"] + 180) % 360, abs=1e-6)
+
+
+def test_semicolon_decimal_comma_khz_watts_iso_offsets(data_dir):
+    res = read_spots(data_dir / "ingest_semicolon.csv")
+    df = res.spots
+    assert res.summary.accepted == 3
+    units = res.summary.units[str(data_dir / "ingest_semicolon.csv")]
+    assert units["frequency"].startswith("kHz") and units["power"].startswith("W")
+    # "14097,100" kHz with a decimal comma = 14 097 100 Hz (tolerance 1e-3 Hz)
+    assert df[C.FREQ].iloc[0] == pytest.approx(14_097_100.0, abs=1e-3)
+    # 0.2 W = 23.01 dBm, 5 W = 36.99 dBm (P[dBm] = 10 log10(P / 1 mW); tolerance 0.005 dB)
+    assert df[C.POWER].tolist() == pytest.approx([23.0103, 23.0103, 36.9897], abs=0.005)
+    # ISO 8601 offsets converted to UTC: 12:03:59+02:00 = 10:03:59Z
+    assert df[C.TIME].iloc[2] == pd.Timestamp("2026-03-01 10:03:59", tz="UTC")
+
+
+def test_tab_epoch_hz_milliwatts(data_dir):
+    res = read_spots(data_dir / "ingest_tab_epoch.tsv")
+    df = res.spots
+    # 1772359200 s after 1970-01-01T00:00Z is 2026-03-01T10:00Z (POSIX time, 86400 s/day)
+    assert df[C.TIME].iloc[0] == pd.Timestamp("2026-03-01 10:00", tz="UTC")
+    # 200 mW = 23.01 dBm; 5000 mW = 36.99 dBm (tolerance 0.005 dB)
+    assert df[C.POWER].tolist() == pytest.approx([23.0103, 36.9897], abs=0.005)
+    assert df[C.BAND].tolist() == ["20m", "10m"]
+
+
+@pytest.mark.parametrize("sep,delimiter", [(",", "auto"), (";", "auto"), ("\t", "auto"),
+                                            ("\t", "tab"), ("  ", "auto"), (" ", "space")])
+def test_each_delimiter(tmp_path, sep, delimiter):
+    # blank-delimited rows split "date time" into two fields under the one heading
+    # (so headings of a blank-delimited file cannot contain blanks)
+    text = HEAD.replace(" ", "_").replace(",", sep) + "\n".join(r.replace(",", sep) for r in ROWS)
+    text += "\n"
+    res = read_spots(_write(tmp_path, "d.csv", text), delimiter=delimiter)
+    assert res.summary.accepted == 4
+    assert res.spots[C.TIME].iloc[1] == pd.Timestamp("2026-03-01 10:01", tz="UTC")
+
+
+def test_utf8_bom_and_gzip_and_several_files(tmp_path):
+    text = HEAD + "\n".join(ROWS[:2]) + "\n"
+    bom = _write(tmp_path, "bom.csv", b"\xef\xbb\xbf" + text.encode())
+    gz = tmp_path / "more.csv.gz"
+    with gzip.open(gz, "wt", encoding="utf-8") as fh:
+        fh.write(HEAD + "\n".join(ROWS[2:]) + "\n")
+    res = read_spots([bom, gz])
+    assert res.summary.files == [str(bom), str(gz)]
+    assert res.summary.accepted == 4
+    assert res.spots[C.SOURCE_FILE].tolist() == [str(bom)] * 2 + [str(gz)] * 2
+    assert res.spots[C.SOURCE_ROW].tolist() == [1, 2, 1, 2]
+    assert res.spots[C.TIME].notna().all()
+
+
+def test_latin1_file_is_decoded(data_dir):
+    res = read_spots(data_dir / "ingest_latin1.csv")
+    assert res.summary.accepted == 1
+    # the accented call is decoded (not mangled) and rejected as not a callsign
+    assert res.rejects[C.REJECT_VALUE].tolist() == ["QÉ1ABC"]
+    assert res.rejects[C.REJECT_REASON].tolist() == ["bad call"]
+
+
+def test_headerless_needs_one_call_role_then_infers_the_rest(data_dir):
+    path = data_dir / "ingest_noheader.txt"
+    with pytest.raises(MappingError, match="tx_call"):
+        read_spots(path)
+    res = read_spots(path, mapping={"tx_call": 7})
+    df = res.spots
+    assert df[C.RX_CALL].tolist() == ["Q7XYZ", "Q9DEF", "Q7XYZ"]
+    assert df[C.TX_LOCATOR].tolist() == ["JN58td", "JN58td", "JO62"]
+    assert df[C.SNR].tolist() == [-12, -21, -5]
+    assert df[C.POWER].tolist() == [23, 23, 37]
+    assert df[C.DRIFT].tolist() == [0, 1, -1]
+
+
+def test_headerless_all_positions_mapped(tmp_path):
+    text = "\n".join(ROWS) + "\n"
+    mapping = {"time": 1, "tx_call": 2, "tx_locator": 3, "rx_call": 4, "rx_locator": 5,
+               "frequency": 6, "snr": "7", "power": 8, "drift": 9}
+    res = read_spots(_write(tmp_path, "n.csv", text), mapping=mapping, header=False)
+    assert res.summary.accepted == 4
+    assert res.spots[C.SOURCE_ROW].tolist() == [1, 2, 3, 4]
+
+
+# --- time and slots ---------------------------------------------------------------------------
+def test_times_snap_to_even_minute_slots(tmp_path):
+    # slots start on even UTC minutes (common practice): 10:01:30 -> 10:00, 10:03:59 -> 10:02
+    times = ["2026-03-01 10:00", "2026-03-01 10:01:30", "2026-03-01T10:03:59Z",
+             "2026-03-01 10:04:00"]
+    rows = [t + r[r.index(","):] for t, r in zip(times, ROWS)]
+    res = read_spots(_write(tmp_path, "t.csv", HEAD + "\n".join(rows) + "\n"))
+    slots = res.spots[C.SLOT].dt.strftime("%H:%M").tolist()
+    assert slots == ["10:00", "10:00", "10:02", "10:04"]
+    assert (res.spots[C.SLOT].dt.minute % 2 == 0).all()
+    res10 = read_spots(_write(tmp_path, "t.csv", HEAD + "\n".join(rows) + "\n"),
+                       slot_minutes=10)
+    assert res10.spots[C.SLOT].dt.strftime("%H:%M").tolist() == ["10:00"] * 4
+
+
+def test_split_date_and_time_headings_are_joined(tmp_path):
+    text = ("date,utc time,tx call,tx grid,rx call,rx grid,freq mhz,snr,pwr dbm\n"
+            "2026-03-01,10:03,Q1ABC,JN58td,Q7XYZ,IO91lk,14.0971,-12,23\n")
+    res = read_spots(_write(tmp_path, "dt.csv", text))
+    assert res.spots[C.TIME].iloc[0] == pd.Timestamp("2026-03-01 10:03", tz="UTC")
+    assert res.spots[C.SLOT].iloc[0] == pd.Timestamp("2026-03-01 10:02", tz="UTC")
+
+
+# --- units ------------------------------------------------------------------------------------
+@pytest.mark.parametrize("values,unit", [
+    ([14097100.0, 7038650.0], "Hz"), ([14097.1, 7038.65], "kHz"), ([14.0971, 7.03865], "MHz"),
+    ([144.4901, 50.294], "MHz"),  # 2 m and 6 m in MHz; as kHz they are in no band
+])
+def test_frequency_unit_inferred(values, unit):
+    assert infer_frequency_unit(values) == unit
+
+
+def test_frequency_unit_refused_when_ambiguous():
+    # half kHz-like, half MHz-like values: two units fit -> refuse
+    with pytest.raises(InputError, match="frequency unit"):
+        infer_frequency_unit([14097.1, 14.0971, 7038.6, 7.0386])
+    with pytest.raises(InputError, match="frequency unit"):
+        infer_frequency_unit([1.0, 2.0, 3.0])  # no unit puts them in a band
+
+
+@pytest.mark.parametrize("values,unit", [
+    ([23, 30, 37, 0], "dBm"), ([0.2, 1, 5], "W"), ([200, 1000, 5000], "mW"),
+])
+def test_power_unit_inferred(values, unit):
+    assert infer_power_unit(values) == unit
+
+
+def test_power_unit_refused_when_ambiguous():
+    with pytest.raises(InputError, match="power unit"):
+        infer_power_unit([5, 10, 100])  # whole numbers 61..1500: W or mW?
+
+
+def test_explicit_units_win_and_ambiguous_file_is_refused(tmp_path):
+    text = HEAD.replace("frequency mhz", "frequency").replace("power dbm", "power")
+    text += "2026-03-01 10:00,Q1ABC,JN58td,Q7XYZ,IO91lk,14097.1,-12,100,0\n"
+    p = _write(tmp_path, "u.csv", text)
+    with pytest.raises(InputError, match="power unit"):
+        read_spots(p)
+    res = read_spots(p, units={"power": "W"})
+    # 100 W = 50 dBm (10 log10(100 000 mW)); tolerance 1e-9 dB
+    assert res.spots[C.POWER].iloc[0] == pytest.approx(50.0, abs=1e-9)
+
+
+def test_epoch_given_explicitly(tmp_path):
+    text = HEAD + "1772359200,Q1ABC,JN58td,Q7XYZ,IO91lk,14.0971,-12,23,0\n"
+    res = read_spots(_write(tmp_path, "e.csv", text), units={"time": "epoch"})
+    assert res.spots[C.TIME].iloc[0] == pd.Timestamp("2026-03-01 10:00", tz="UTC")
+
+
+# --- mapping ----------------------------------------------------------------------------------
+def test_headings_matched_by_generic_words():
+    heads = ["Date Time UTC", "sender", "senderGrid", "reporter", "reporter square", "QRG",
+             "S/N", "txPower", "drift"]
+    fields, problems = match_headings(heads)
+    assert not problems
+    assert fields == {C.TIME: [0], C.TX_CALL: [1], C.TX_LOCATOR: [2], C.RX_CALL: [3],
+                      C.RX_LOCATOR: [4], C.FREQ: [5], C.SNR: [6], C.POWER: [7], C.DRIFT: [8]}
+
+
+def test_ambiguous_headings_raise_mapping_error_listing_them(data_dir):
+    with pytest.raises(MappingError) as exc:
+        read_spots(data_dir / "ingest_ambiguous.csv")
+    msg = str(exc.value)
+    assert "'Call'" in msg and "'Grid'" in msg and "--map FIELD=COLUMN" in msg
+    assert "ingest_ambiguous.csv" in msg
+
+
+def test_explicit_mapping_wins_over_guess(tmp_path):
+    # the guess would take 'tx call' and 'rx call'; the mapping swaps them
+    p = _write(tmp_path, "m.csv", HEAD + "\n".join(ROWS) + "\n")
+    res = read_spots(p, mapping={"tx_call": "rx call", C.RX_CALL: "tx call",
+                                 "tx_locator": "rx locator", "rx_locator": "tx locator"})
+    assert res.spots[C.TX_CALL].iloc[0] == "Q7XYZ" and res.spots[C.RX_CALL].iloc[0] == "Q1ABC"
+    assert res.spots[C.TX_LOCATOR].iloc[0] == "IO91lk"
+
+
+def test_mapping_to_missing_column_is_mapping_error(data_dir):
+    with pytest.raises(MappingError, match="no such column"):
+        read_spots(data_dir / "ingest_basic.csv", mapping={"snr": "signal report"})
+
+
+def test_bad_arguments_are_usage_errors(data_dir):
+    p = data_dir / "ingest_basic.csv"
+    with pytest.raises(UsageError, match="valid"):
+        read_spots(p, mapping={"colour": "x"})
+    with pytest.raises(UsageError, match="valid"):
+        read_spots(p, units={"frequency": "GHz"})
+    with pytest.raises(UsageError, match="delimiter"):
+        read_spots(p, delimiter="|")
+    with pytest.raises(UsageError, match="region"):
+        read_spots(p, region="4")
+
+
+# --- rejects and duplicates -----------------------------------------------------------------------
+def test_every_bad_row_is_rejected_with_a_reason(data_dir):
+    res = read_spots(data_dir / "ingest_rejects.csv")
+    _balanced(res)
+    rej = res.rejects.set_index(C.SOURCE_ROW)
+    expected = {
+        2: ("tx_locator", "bad locator"), 3: ("snr", "SNR not a number"),
+        4: ("snr", "SNR outside -60..+60 dB"), 5: ("frequency", "frequency not in an amateur band"),
+        6: ("power", "power outside 0..+60 dBm"), 7: ("time", "unparseable time"),
+        8: ("tx_call", "empty call"), 9: ("row", "blank line"),
+        10: ("row", "wrong number of fields"), 12: ("time", "empty time"),
+        13: ("drift", "drift not a number"), 14: ("tx_call", "bad call"),
+        15: ("rx_locator", "empty locator"),
+    }
+    assert sorted(rej.index) == sorted(expected)
+    for row, (fld, reason) in expected.items():
+        assert (rej.loc[row, C.REJECT_FIELD], rej.loc[row, C.REJECT_REASON]) == (fld, reason)
+    assert rej.loc[2, C.REJECT_VALUE] == "ZZ99zz" and rej.loc[3, C.REJECT_VALUE] == "loud"
+    # row 11 repeats row 1 exactly: removed as a duplicate, the first kept
+    assert res.summary.duplicates == 1
+    assert res.spots[C.SOURCE_ROW].tolist() == [1, 16]
+    assert list(res.rejects.columns) == C.REJECT_COLUMNS
+    text = res.summary_text()
+    assert "duplicates removed: 1" in text and "bad locator: 1" in text
+    assert "accepted + rejected + duplicates = rows read: yes" in text
+
+
+def test_band_plan_region_decides(tmp_path):
+    # 7.250 MHz: outside Region 1's 40 m (7000-7200 kHz), inside Region 2's (7000-7300 kHz)
+    text = HEAD + "2026-03-01 10:00,Q1ABC,JN58td,Q7XYZ,IO91lk,7.250000,-12,23,0\n" + ROWS[0]
+    p = _write(tmp_path, "r.csv", text + "\n")
+    assert read_spots(p, region="1").summary.rejected_by_reason == {
+        "frequency not in an amateur band": 1}
+    assert read_spots(p, region="2").spots[C.BAND].tolist() == ["40m", "20m"]
+
+
+def test_duplicates_across_files_and_chunks(tmp_path):
+    a = _write(tmp_path, "a.csv", HEAD + "\n".join(ROWS) + "\n")
+    b = _write(tmp_path, "b.csv", HEAD + "\n".join(ROWS[1:3] + ROWS[1:2]) + "\n")
+    res = read_spots([a, b], chunk_rows=1)
+    assert res.summary.duplicates == 3 and res.summary.accepted == 4
+    _balanced(res)
+
+
+# --- files that are not spot tables -----------------------------------------------------------------
+@pytest.mark.parametrize("content,what", [
+    (b"", "empty"), (b"   \n\n", "empty"), (b"\x89PNG\r\n\x1a\n\x00\x00\x00\rIHDR" * 20, "binary"),
+    (b"<!DOCTYPE html>\n<html><body><table><tr><td>x</td></tr></table></body></html>", "HTML"),
+    (b"just some words\nin a text file\n", "column"),
+])
+def test_not_a_spot_table(tmp_path, content, what):
+    p = _write(tmp_path, "x.csv", content)
+    with pytest.raises(NotASpotTableError, match=what) as exc:
+        read_spots(p)
+    assert str(p) in str(exc.value)
+
+
+def test_missing_file(tmp_path):
+    with pytest.raises(FileNotFoundError):
+        read_spots(tmp_path / "nope.csv")
+
+
+# --- chunking and Parquet -------------------------------------------------------------------------
+def test_chunked_equals_one_go_and_parquet_round_trip(data_dir, tmp_path):
+    files = [data_dir / "ingest_rejects.csv", data_dir / "ingest_basic.csv"]
+    one = read_spots(files)
+    for n in (1, 2, 5):
+        chunked = read_spots(files, chunk_rows=n)
+        pdt.assert_frame_equal(one.spots, chunked.spots)
+        pdt.assert_frame_equal(one.rejects, chunked.rejects)
+        assert one.summary == chunked.summary
+    out = tmp_path / "o.parquet"
+    summary = ingest_to_parquet(files, out, chunk_rows=3, rejects_path=tmp_path / "rej.csv")
+    assert summary == one.summary
+    back = pd.read_parquet(out)
+    pdt.assert_frame_equal(back.astype(str), one.spots.astype(str))
+    rej = pd.read_csv(tmp_path / "rej.csv", keep_default_na=False)
+    assert len(rej) == one.summary.rejected and list(rej.columns) == C.REJECT_COLUMNS
+
+
+def test_load_spots_passthrough_parquet_and_csv(data_dir, tmp_path):
+    res = read_spots(data_dir / "ingest_basic.csv")
+    assert load_spots(res.spots) is res.spots
+    out = tmp_path / "s.parquet"
+    ingest_to_parquet(data_dir / "ingest_basic.csv", out)
+    assert len(load_spots(out)) == 4
+    assert len(load_spots(data_dir / "ingest_basic.csv")) == 4
+    bad = _write(tmp_path, "bad.csv", HEAD + ROWS[0].replace("-12", "x") + "\n")
+    with pytest.raises(InputError, match="no usable"):
+        load_spots(bad)
+
+
+# --- command line ---------------------------------------------------------------------------------
+def test_cli_ingest_with_map_and_unit(data_dir, tmp_path, capsys):
+    out = tmp_path / "o.parquet"
+    argv = ["ingest", str(data_dir / "ingest_unknown_headings.csv"), "-o", str(out),
+            "--rejects", str(tmp_path / "r.csv")]
+    assert main(argv) == 1  # headings A..H say nothing
+    err = capsys.readouterr().err
+    assert "'A'" in err and "--map" in err
+    maps = ["--map", "time=A", "--map", "tx_call=B", "--map", "tx_locator=C", "--map", "rx_call=D",
+            "--map", "rx_locator=E", "--map", "frequency=F", "--map", "snr=7", "--map", "power=H",
+            "--unit", "frequency=MHz", "--unit", "power=dBm"]
+    assert main(argv + maps) == 0
+    text = capsys.readouterr().out
+    assert "rows read:          2" in text and "accepted:           2" in text
+    assert "spots per band:" in text
+    assert pd.read_parquet(out)[C.SNR].tolist() == [-12, 3]
+
+
+def test_cli_usage_and_input_errors(data_dir, tmp_path, capsys):
+    out = str(tmp_path / "o.parquet")
+    assert main(["ingest", str(data_dir / "ingest_basic.csv"), "-o", out,
+                 "--unit", "power=horsepower"]) == 2
+    assert main(["ingest", str(data_dir / "ingest_basic.csv"), "-o", out, "--map", "snr"]) == 2
+    html = _write(tmp_path, "page.csv", b"<html><body>hi</body></html>")
+    assert main(["ingest", str(html), "-o", out]) == 1
+    assert "not a spot table" in capsys.readouterr().err
+
+
+# --- property: nothing is lost ---------------------------------------------------------------------
+_JUNK = st.one_of(st.just(""), st.text(alphabet="abcXYZ019 -.:/#,;é", max_size=8),
+                  st.integers(-1000, 100000).map(str), st.floats(allow_nan=True).map(str))
+
+
+@settings(max_examples=40, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(data=st.data())
+def test_property_nothing_is_lost(data, tmp_path_factory):
+    n = data.draw(st.integers(1, 12))
+    rows = [ROWS[i % len(ROWS)].replace("10:0", f"1{i % 10}:0").split(",") for i in range(n)]
+    for _ in range(data.draw(st.integers(0, 10))):
+        r, c = data.draw(st.integers(0, n - 1)), data.draw(st.integers(0, 8))
+        rows[r][c] = data.draw(_JUNK)
+    lines = [",".join(r) for r in rows]
+    for _ in range(data.draw(st.integers(0, 3))):
+        lines.insert(data.draw(st.integers(0, len(lines))),
+                     lines[data.draw(st.integers(0, len(lines) - 1))])
+    if data.draw(st.booleans()):
+        lines.insert(data.draw(st.integers(0, len(lines))), "")
+    path = tmp_path_factory.mktemp("prop") / "p.csv"
+    path.write_text(HEAD + "\n".join(lines) + "\n", encoding="utf-8")
+    kw = dict(delimiter=",", units={"time": "iso", "frequency": "MHz", "power": "dBm"})
+    res = read_spots(path, **kw)
+    _balanced(res)
+    assert res.summary.rows_read == len(lines)
+    got = set(res.spots[C.SOURCE_ROW]) | set(res.rejects[C.SOURCE_ROW])
+    assert len(got) == res.summary.accepted + res.summary.rejected  # no row in both
+    assert got <= set(range(1, len(lines) + 1))
+    chunked = read_spots(path, chunk_rows=data.draw(st.integers(1, 5)), **kw)
+    pdt.assert_frame_equal(res.spots, chunked.spots)
+    assert res.summary == chunked.summary
