@@ -65,6 +65,9 @@ COUNT = "count"
 KINDS = ("both", "only_a", "only_b")
 #: before/after design: KIND of a target-minus-control SNR observed before / after the change
 PERIOD_KINDS = ("before", "after")
+#: compressed pair table: pairs in which A (B) was heard exactly at its receiver's decode
+#: threshold (VALUE 0); used for the threshold-density correction of spotkit.compare
+EDGE_KINDS = ("edge_a", "edge_b")
 FAR_CALL = "far_call"  # the station at the other end of a pair: receiver (transmit designs)
 FAR_LOCATOR = "far_locator"  # or transmitter (receive design)
 FAR_LAT = "far_lat"
@@ -101,6 +104,7 @@ P_WILCOXON = "p_wilcoxon"  # Wilcoxon signed-rank p of the both-heard difference
 P_SIGN = "p_sign"  # sign-test p of the both-heard differences
 P_MCNEMAR = "p_mcnemar"  # McNemar exact p on only_a vs only_b
 SIGMA = "sigma_db"  # fitted spread of B-A per pair [dB]
+CORRECTION = "threshold_correction_db"  # added to the censored MLE (spotkit.compare) [dB]
 CLUSTERS = "clusters"  # number of bootstrap clusters (receivers / transmitters) in the group
 NOTE = "note"  # plain-language remark (too few pairs, no interval...)
 GROUP = "group"  # readable group label

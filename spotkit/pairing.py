@@ -846,7 +846,10 @@ def summarise_pairs(pairs: pd.DataFrame, by=(), **group_options) -> pd.DataFrame
     """Compress a pairs table into counts of (group, cluster, kind, value).
 
     ``both``: value = SNR_B - SNR_A (the difference); ``only_a``: LIMIT_B - SNR_A (an upper
-    bound of B - A); ``only_b``: SNR_B - LIMIT_A (a lower bound). Before/after pairs give
+    bound of B - A); ``only_b``: SNR_B - LIMIT_A (a lower bound). Extra rows of kind
+    ``edge_a`` / ``edge_b`` (value 0) count the pairs in which A / B was heard exactly at
+    its receiver's decode threshold (for the correction in :mod:`spotkit.compare`; they are
+    not pairs and not counted in the pair totals). Before/after pairs give
     kinds ``before`` / ``after`` with the relative SNR as value. Values are rounded to
     1e-6 dB before counting. The table is mergeable: tables of disjoint parts of the data
     (e.g. Dask partitions) combine by concatenating and summing ``C.COUNT`` over the other
@@ -875,27 +878,41 @@ def summarise_pairs(pairs: pd.DataFrame, by=(), **group_options) -> pd.DataFrame
         kcode = after.astype(np.int64)
         value = np.where(after, sb, sa)
         cats = list(C.PERIOD_KINDS)
+        rows = np.arange(len(df))
     else:
         ha, hb = ~np.isnan(sa), ~np.isnan(sb)
         la = df[C.LIMIT_A].to_numpy(dtype=float)
         lb = df[C.LIMIT_B].to_numpy(dtype=float)
         kcode = np.where(ha & hb, 0, np.where(ha, 1, 2))  # index into C.KINDS
         value = np.where(ha & hb, sb - sa, np.where(ha, lb - sa, sb - la))
-        cats = list(C.KINDS)
+        cats = list(C.KINDS) + list(C.EDGE_KINDS)
+        # extra rows: pairs in which A (B) was heard exactly at its decode threshold
+        with np.errstate(invalid="ignore"):
+            edge_a = ha & (np.abs(sa - la) < 0.5)
+            edge_b = hb & (np.abs(sb - lb) < 0.5)
+        rows = np.concatenate([np.arange(len(df)), np.flatnonzero(edge_a),
+                               np.flatnonzero(edge_b)])
+        kcode = np.concatenate([kcode, np.full(int(edge_a.sum()), 3),
+                                np.full(int(edge_b.sum()), 4)])
+        value = np.concatenate([value, np.zeros(int(edge_a.sum() + edge_b.sum()))])
     value = np.round(value, 6)
     ok = np.isfinite(value)
     set_aside = {}
-    if (~ok).any():
-        set_aside["censoring limit unknown"] = int((~ok).sum())
+    if (~ok[:len(df)]).any():
+        set_aside["censoring limit unknown"] = int((~ok[:len(df)]).sum())
+    n_pairs = len(df)
     for col in gcols:
-        bad = df[col].isna().to_numpy() & ok
-        if bad.any():
-            set_aside[f"outside the {col} bins"] = int(bad.sum())
-        ok &= ~df[col].isna().to_numpy()
+        missing = df[col].isna().to_numpy()[rows]
+        bad = missing & ok
+        if bad[:n_pairs].any():
+            set_aside[f"outside the {col} bins"] = int(bad[:n_pairs].sum())
+        ok &= ~missing
+    sel = rows[ok]
+
     def take(col):
         if isinstance(df[col].dtype, pd.CategoricalDtype):
-            return df[col].array[ok].remove_unused_categories()
-        return df[col].to_numpy()[ok]
+            return df[col].array[sel].remove_unused_categories()
+        return df[col].to_numpy()[sel]
 
     frame = pd.DataFrame({col: take(col) for col in gcols})
     frame[C.CLUSTER] = take(C.CLUSTER)

@@ -225,7 +225,11 @@ def test_group_keys(simultaneous):
 def test_summary_kinds_values_and_merge(simultaneous):
     p = pair_spots(simultaneous, "simultaneous", "Q1AAA", "Q1BBB")
     s = summarise_pairs(p, "band")
-    assert set(s[C.KIND].astype(str)) == {"both", "only_a", "only_b"}
+    assert set(s[C.KIND].astype(str)) == {"both", "only_a", "only_b", "edge_a"}
+    # edge rows: Q2RX heard A at -28 dB, its own lowest report (its threshold)
+    edge = s[s[C.KIND].astype(str) == "edge_a"]
+    assert list(edge[C.CLUSTER].astype(str)) == ["Q2RX"] and edge[C.COUNT].sum() == 1
+    s = s[s[C.KIND].astype(str).isin(C.KINDS)]
     v = s.set_index([s[C.CLUSTER], s[C.KIND].astype(str)])[C.VALUE]
     assert v[("Q2RX", "both")] == 5.0            # -12 - (-17)
     assert v[("Q3RX", "only_a")] == -29.0 + 27.0  # LIMIT_B - SNR_A (an upper bound of B - A)
@@ -233,6 +237,7 @@ def test_summary_kinds_values_and_merge(simultaneous):
     assert s[C.COUNT].sum() == len(p)
     half = merge_summaries([summarise_pairs(p.iloc[:2], "band"),
                             summarise_pairs(p.iloc[2:], "band")])
+    whole = summarise_pairs(p, "band")
     pd.testing.assert_frame_equal(half.reset_index(drop=True),
-                                  s[half.columns].reset_index(drop=True), check_dtype=False,
-                                  check_categorical=False)
+                                  whole[half.columns].reset_index(drop=True),
+                                  check_dtype=False, check_categorical=False)
