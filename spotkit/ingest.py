@@ -376,6 +376,10 @@ def _sniff_layout(path: Path, delimiter: str, header) -> _Layout:
         headings = [h.strip() for h in first]
         if nfields == len(headings) + 1 and sep == r"\s+":
             headings = _split_date_time_heading(path, headings, _split(data[0], sep))
+        elif nfields > len(headings) and all(
+                not t for ln in data[:50] for t in _split(ln, sep)[len(headings):]):
+            # rows end with a delimiter the heading line lacks: extra empty columns
+            headings += [f"(unnamed {i + 1})" for i in range(len(headings), nfields)]
         elif nfields > len(headings):
             raise InputError(f"{path}: the heading line has {len(headings)} headings but data "
                              f"rows have {nfields} fields (delimiter {_sep_label(sep)})")
@@ -912,17 +916,21 @@ def _parse_time(cols: list[pd.Series], unit: str) -> tuple[np.ndarray, np.ndarra
         inv = np.where(empty, len(cats[0]), codes[0])
         texts = np.append(cats[0], "")
     s = pd.Series(texts, dtype="str").str.strip()
+    lo, hi = (t.value // 10**9 for t in TIME_RANGE)
     if unit == "epoch":
-        secs = pd.to_numeric(s, errors="coerce")
-        ok = secs.notna() & (secs.abs() < 1e11)
-        parsed = pd.to_datetime(secs.where(ok), unit="s", utc=True)
+        secs = _to_number(s, ".")
+        unparsed = secs.isna().to_numpy()
+        bad_range = ((secs < lo) | (secs >= hi)).to_numpy()
+        parsed = pd.to_datetime(secs.where(~bad_range), unit="s", utc=True)
     else:
         parsed = pd.to_datetime(s, format="ISO8601", utc=True, errors="coerce")
+        unparsed = parsed.isna().to_numpy()
+        bad_range = (parsed.notna() & ((parsed < TIME_RANGE[0]) | (parsed >= TIME_RANGE[1]))
+                     ).to_numpy()
+        parsed = parsed.where(~bad_range)
     parsed = parsed.dt.as_unit("ns")
-    bad_range = parsed.notna() & ((parsed < TIME_RANGE[0]) | (parsed >= TIME_RANGE[1]))
-    ns = parsed.to_numpy().view("i8") if parsed.dt.tz is None else \
-        parsed.dt.tz_localize(None).to_numpy().view("i8")
-    status_k = np.where(parsed.isna().to_numpy(), 2, np.where(bad_range.to_numpy(), 3, 0))
+    ns = parsed.dt.tz_localize(None).to_numpy().view("i8")
+    status_k = np.where(unparsed, 2, np.where(bad_range, 3, 0))
     status = np.where(empty, 1, status_k[inv])
     return ns[inv], status
 
