@@ -41,6 +41,7 @@ def _cells(sim, result):
     ("alternating", {}),
     ("receive", {}),
     ("receive", {"threshold_db": -18.0}),      # many reports near threshold
+    ("simultaneous", {"power_b_dbm": 30.0, "threshold_db": -18.0}),  # both at once
 ])
 def test_recovers_known_difference_per_cell(design, kw):
     sim = simulate_spots(design, days=2, seed=5, difference_db=CELL_TRUTH,
@@ -58,16 +59,35 @@ def test_recovers_known_difference_per_cell(design, kw):
 
 
 @pytest.mark.slow
-@pytest.mark.xfail(strict=True, reason="known limitation: with A 7 dB louder than B and "
-                   "many pairs near threshold the flat-level-prior Tobit is biased by up "
-                   "to about 0.4 dB (see the compare module docstring)")
-def test_recovery_near_threshold_with_unequal_powers():
-    sim = simulate_spots("simultaneous", days=2, seed=5, difference_db=CELL_TRUTH,
-                         difference_edges=EDGES, power_b_dbm=30.0, threshold_db=-18.0)
+@pytest.mark.xfail(strict=True, reason="known limitation: alternating design with A and B "
+                   "at different powers - pairs where the path closed between the two "
+                   "slots give one-sided bounds whose size depends on each antenna's power; "
+                   "biased by up to about 0.7 dB in this simulation")
+def test_alternating_with_unequal_powers():
+    sim = simulate_spots("alternating", days=2, seed=7, difference_db=CELL_TRUTH,
+                         difference_edges=EDGES, power_b_dbm=30.0)
     res = compare_antennas(sim.spots, **sim.compare_kwargs(), by="band,distance",
                            distance_edges=EDGES, n_boot=50)
     big = _cells(sim, res).query(f"{C.PAIRS} >= 2000")
     np.testing.assert_allclose(big[C.B_MINUS_A], big["b_minus_a_db_true"], atol=0.3)
+
+
+@pytest.mark.slow
+def test_threshold_correction_reduces_the_bias():
+    """Held-out data, A 7 dB louder, skewed level distribution: the censored MLE without
+    the threshold correction is biased by 0.1-0.2 dB in every cell; with it the mean
+    absolute error is at most half as large."""
+    spots, truth = heldout.generate(n_far=800, n_slots=500, seed=2)
+    err = {}
+    for corr in ("none", "edge"):
+        res = compare_antennas(spots, "simultaneous", heldout.CALL_A, heldout.CALL_B,
+                               by="band,distance", distance_edges=heldout.DISTANCE_EDGES,
+                               n_boot=20, threshold_correction=corr)
+        g = res.groups.merge(truth, on=[C.BAND, C.DISTANCE_MIN, C.DISTANCE_MAX],
+                             suffixes=("", "_true"))
+        err[corr] = (g[C.B_MINUS_A] - g["b_minus_a_db_true"]).abs().mean()
+    assert err["none"] > 0.08
+    assert err["edge"] < 0.5 * err["none"]
 
 
 @pytest.mark.slow
