@@ -3,10 +3,10 @@
 Model (each part a parameter; defaults in :class:`Propagation`):
 
 * Stations. Far stations are placed at random in a small built-in table of weighted lat/lon
-  boxes where amateur stations plausibly are (:data:`STATION_REGIONS`); each gets an
-  invented Q-prefix call, a 6-character locator (some 4-character), a noise-floor offset
-  (normal, ``noise_sd_db``), a decode threshold near -28 dB (some -30), the bands it listens
-  to and an uptime (each hour on the air with that probability).
+  boxes where amateur stations plausibly are (:data:`spotkit.stations.STATION_REGIONS`);
+  each gets an invented Q-prefix call, a 6-character locator (some 4-character), a
+  noise-floor offset (normal, ``noise_sd_db``), a decode threshold near -28 dB (some -30),
+  the bands it listens to and an uptime (each hour on the air with that probability).
 * Links. For every (transmitter site, receiver site) link on a band, per 2-minute slot:
   the path is *open* when ``logit(band, distance, midpoint local hour) + daily condition +
   latent`` is above zero, the latent being a slowly varying AR(1) process (so openings
@@ -27,17 +27,20 @@ Model (each part a parameter; defaults in :class:`Propagation`):
 Truth. The true B-minus-A difference of a pair is the gain difference of the two antennas
 towards that far station (transmit designs: transmit gain; receive design: receive gain),
 in dB - i.e. the difference of the SNRs normalised to 1 W with the fading averaged out.
-:class:`Truth` keeps one row per pair in which at least one antenna was heard. Pairs are:
-simultaneous, receiver x slot; receive, transmitter x slot; alternating, receiver x (A slot,
-neighbouring B slot), on-air A and B slots being matched one to one in time order, either
-order, at most one slot apart; before-after, every report of the target (A before the
-change, B after).
+:class:`spotkit.truth.Truth` keeps one row per pair in which at least one antenna was
+heard. Pairs are: simultaneous, receiver x slot; receive, transmitter x slot; alternating,
+receiver x (A slot, neighbouring B slot), on-air A and B slots being matched one to one in
+time order, either order, at most one slot apart; before-after, every report of the target
+(A before the change, B after).
 
 Output. :func:`simulate_spots` returns the canonical spot table (as the ingest would make
 it: glossary dtypes, enriched with :func:`spotkit.geo.add_path_columns`, no duplicates);
-:func:`write_foreign_csv` writes it in invented CSV layouts (other headings, delimiters,
-units and time formats, optional duplicate uploads and corrupted rows) and returns what
-the reader needs; :func:`make_demo_data` writes the demo scenario of ``demo_data/``.
+:func:`spotkit.layouts.write_foreign_csv` writes it in invented CSV layouts (other
+headings, delimiters, units and time formats, optional duplicate uploads and corrupted rows)
+and returns what the reader needs; :func:`make_demo_data` writes the demo scenario of
+``demo_data/``. The truth, the station populations and the CSV layouts live in
+:mod:`spotkit.truth`, :mod:`spotkit.stations` and :mod:`spotkit.layouts`; their public
+names are re-exported here (``simulate.Truth``, ``simulate.write_foreign_csv``, ...).
 
 Known error: this is a plausibility model for testing estimators, not a propagation
 prediction. The day/night term uses local mean solar time at the path midpoint (no season),
@@ -46,8 +49,6 @@ stations' antennas are isotropic with a random gain folded into the noise offset
 """
 from __future__ import annotations
 
-import gzip
-import json
 import math
 from dataclasses import asdict, dataclass, field
 from pathlib import Path
@@ -59,50 +60,17 @@ from scipy.signal import lfilter
 
 from . import columns as C
 from .antenna import Antenna, constant_difference, isotropic_antenna, make_antenna
-from .bands import BEACON_DIAL_KHZ, sort_bands
+from .bands import BEACON_DIAL_KHZ
 from .errors import LocatorError, UsageError
 from .geo import add_path_columns, elevation_angle, geodesic_inverse, hop_count, path_midpoint
+from .layouts import LAYOUTS, write_foreign_csv
 from .locator import latlon_to_locator, locator_to_latlon, normalize_locator
+from .stations import STATION_REGIONS, invent_calls, place_stations
+from .truth import DEFAULT_DISTANCE_EDGES, TRUTH_COLUMNS, Truth
 from .units import POWER_LADDER_DBM
 
 Design = Literal["simultaneous", "alternating", "receive", "before-after"]
 DESIGNS = ("simultaneous", "alternating", "receive", "before-after")
-#: Default distance cells of :meth:`Truth.cells` [km].
-DEFAULT_DISTANCE_EDGES = (0.0, 1000.0, 3000.0, 6000.0, 20000.0)
-
-#: Where the far stations are placed: (region, lat_min, lat_max, lon_min, lon_max, weight)
-#: [deg]. Invented weights loosely following where amateur stations are numerous; boxes
-#: drawn mostly over land (about 97 % of placed stations fall on land in the Natural
-#: Earth 1:110m layer).
-STATION_REGIONS = pd.DataFrame(
-    [
-        ("France and Benelux", 44.0, 51.5, 0.0, 6.5, 0.10),
-        ("Germany, Austria, Switzerland", 46.5, 53.5, 6.5, 15.0, 0.12),
-        ("Poland, Czechia, Hungary", 46.5, 53.5, 15.0, 23.0, 0.06),
-        ("northern Italy", 44.0, 46.0, 7.5, 12.5, 0.03),
-        ("England", 51.0, 54.0, -3.0, 0.5, 0.05),
-        ("southern Sweden and Norway", 58.5, 61.0, 9.0, 17.0, 0.03),
-        ("Finland", 60.5, 64.0, 22.5, 29.0, 0.01),
-        ("eastern Europe", 47.0, 57.0, 24.0, 40.0, 0.06),
-        ("Iberia", 37.5, 42.5, -7.5, -1.0, 0.03),
-        ("eastern United States", 33.0, 42.0, -90.0, -78.0, 0.17),
-        ("New England and Quebec", 42.0, 46.5, -76.0, -71.0, 0.03),
-        ("central North America", 30.0, 47.0, -105.0, -90.0, 0.05),
-        ("western North America", 34.0, 48.0, -121.0, -115.0, 0.06),
-        ("Japan", 34.5, 36.5, 136.0, 140.0, 0.04),
-        ("south-east Australia", -37.5, -28.0, 144.0, 151.0, 0.04),
-        ("New Zealand", -39.0, -36.5, 174.5, 176.0, 0.01),
-        ("south-east Brazil", -26.0, -19.0, -52.0, -45.0, 0.02),
-        ("Argentina", -38.0, -31.0, -64.0, -58.0, 0.01),
-        ("South Africa", -34.0, -26.0, 19.0, 31.0, 0.01),
-        ("India", 12.0, 28.0, 74.0, 84.0, 0.01),
-        ("eastern Asia", 23.0, 40.0, 105.0, 118.0, 0.02),
-        ("Puerto Rico", 18.0, 18.4, -67.0, -65.8, 0.01),
-        ("Middle East", 29.0, 36.0, 35.0, 50.0, 0.01),
-        ("Siberia", 52.0, 57.0, 60.0, 90.0, 0.02),
-    ],
-    columns=["region", "lat_min", "lat_max", "lon_min", "lon_max", "weight"],
-)
 
 # band -> (SNR at 1 W, 1000 km, isotropic [dB]; open logit at night; open logit by day;
 #          skip distance [km]) - invented, loosely after common practice on each band
@@ -175,173 +143,6 @@ class Propagation:
     locator4_fraction: float = 0.15
 
 
-# --- truth ------------------------------------------------------------------------------
-TRUTH_COLUMNS = [C.BAND, C.SLOT, C.TX_CALL, C.RX_CALL, C.DISTANCE, C.BEARING, C.ELEVATION,
-                 C.B_MINUS_A, C.HEARD_A, C.HEARD_B]
-
-
-@dataclass
-class Truth:
-    """The true B-minus-A difference of every simulated pair.
-
-    Attributes
-    ----------
-    pairs : pandas.DataFrame
-        One row per pair in which at least one antenna was heard: ``C.BAND``, ``C.SLOT``
-        (A's slot), ``C.TX_CALL``, ``C.RX_CALL``, ``C.DISTANCE`` [km], ``C.BEARING`` (from
-        the home station towards the far station) [deg], ``C.ELEVATION`` (hop geometry)
-        [deg], ``C.B_MINUS_A`` (true gain difference) [dB], ``C.HEARD_A``, ``C.HEARD_B``.
-    design, a, b : str
-        What was simulated.
-    """
-
-    pairs: pd.DataFrame
-    design: str = ""
-    a: str = ""
-    b: str = ""
-
-    @property
-    def overall(self) -> dict:
-        """Mean true B-minus-A [dB] over all pairs, with pair counts."""
-        p = self.pairs
-        ha, hb = p[C.HEARD_A].to_numpy(bool), p[C.HEARD_B].to_numpy(bool)
-        return {C.B_MINUS_A: float(p[C.B_MINUS_A].mean()) if len(p) else math.nan,
-                C.PAIRS: int(len(p)), C.BOTH: int((ha & hb).sum()),
-                C.ONLY_A: int((ha & ~hb).sum()), C.ONLY_B: int((~ha & hb).sum())}
-
-    def cells(self, distance_edges=DEFAULT_DISTANCE_EDGES, bearing_width_deg: float | None = None,
-              by_band: bool = True) -> pd.DataFrame:
-        """Mean true B-minus-A by band x distance [x bearing sector].
-
-        Parameters
-        ----------
-        distance_edges : sequence of float
-            Distance cell edges [km]; cells are [lo, hi).
-        bearing_width_deg : float, optional
-            Width of bearing sectors [deg] starting at 0 (sectors [lo, hi)); None: no split.
-        by_band : bool
-            Split by band.
-
-        Returns
-        -------
-        pandas.DataFrame
-            ``C.BAND`` (if by_band), ``C.DISTANCE_MIN``, ``C.DISTANCE_MAX`` [km],
-            [``C.BEARING_MIN``, ``C.BEARING_MAX`` [deg]], ``C.B_MINUS_A`` [dB] (mean true
-            difference over pairs where at least one antenna was heard) and ``C.PAIRS``;
-            empty cells are left out.
-        """
-        p = self.pairs
-        edges = np.asarray(distance_edges, dtype=float)
-        di = np.searchsorted(edges, p[C.DISTANCE].to_numpy(float), side="right") - 1
-        keep = (di >= 0) & (di < len(edges) - 1)
-        df = pd.DataFrame({C.DISTANCE_MIN: edges[np.clip(di, 0, len(edges) - 2)],
-                           C.DISTANCE_MAX: edges[np.clip(di + 1, 1, len(edges) - 1)],
-                           C.B_MINUS_A: p[C.B_MINUS_A].to_numpy(float)})
-        keys = [C.DISTANCE_MIN, C.DISTANCE_MAX]
-        if bearing_width_deg is not None:
-            w = float(bearing_width_deg)
-            lo = np.floor(np.mod(p[C.BEARING].to_numpy(float), 360.0) / w) * w
-            df[C.BEARING_MIN], df[C.BEARING_MAX] = lo, np.minimum(lo + w, 360.0)
-            keys += [C.BEARING_MIN, C.BEARING_MAX]
-        if by_band:
-            df.insert(0, C.BAND, p[C.BAND].astype(str).to_numpy())
-            keys = [C.BAND] + keys
-        df = df[keep]
-        out = df.groupby(keys, sort=True)[C.B_MINUS_A].agg(["mean", "size"]).reset_index()
-        out = out.rename(columns={"mean": C.B_MINUS_A, "size": C.PAIRS})
-        out[C.PAIRS] = out[C.PAIRS].astype("int64")
-        if by_band:
-            order = {b: i for i, b in enumerate(sort_bands(out[C.BAND]))}
-            out = out.sort_values([C.BAND] + keys[1:], key=lambda s: s.map(order)
-                                  if s.name == C.BAND else s, kind="stable")
-        return out.reset_index(drop=True)
-
-    def to_frame(self) -> pd.DataFrame:
-        """The pairs table."""
-        return self.pairs.copy()
-
-    def __str__(self) -> str:
-        o = self.overall
-        return (f"Truth({self.design}, A={self.a}, B={self.b}: true B-A "
-                f"{o[C.B_MINUS_A]:+.2f} dB over {o[C.PAIRS]:,} pairs)")
-
-    def to_json(self, path=None, include_pairs: bool = True) -> str:
-        """Serialise to JSON (``path`` ending in .gz is gzip-compressed); returns the text.
-
-        The document has ``design``, ``a``, ``b``, ``overall``, ``cells`` (by band and the
-        default distance cells) and, with ``include_pairs``, ``pairs`` in a compact form:
-        ``paths`` (columns band, tx_call, rx_call, distance_km, bearing_deg,
-        elevation_deg, b_minus_a_db - one entry per distinct far station and band, since
-        the true difference depends only on the path), and per pair ``path`` (index into
-        ``paths``), ``slot_min`` (minutes after ``start``, UTC) and ``heard`` (1: A only,
-        2: B only, 3: both).
-        """
-        overall = {k: (None if isinstance(v, float) and math.isnan(v) else v)
-                   for k, v in self.overall.items()}
-        doc = {"design": self.design, "a": self.a, "b": self.b, "overall": overall,
-               "distance_edges_km": list(DEFAULT_DISTANCE_EDGES),
-               "cells": json.loads(self.cells().to_json(orient="records"))}
-        if include_pairs:
-            p = self.pairs
-            keys = [C.BAND, C.TX_CALL, C.RX_CALL]
-            cols = keys + [C.DISTANCE, C.BEARING, C.ELEVATION, C.B_MINUS_A]
-            flat = p[cols].astype({k: str for k in keys})
-            codes, uniq = pd.factorize(pd.MultiIndex.from_frame(flat[keys]))
-            first = np.unique(codes, return_index=True)[1]
-            paths = flat.iloc[first].reset_index(drop=True)
-            ns = pd.DatetimeIndex(p[C.SLOT]).as_unit("ns").asi8
-            t0 = int(ns.min()) if len(ns) else 0
-            doc["pairs"] = {
-                "start": pd.Timestamp(t0, tz="UTC").strftime("%Y-%m-%dT%H:%M:%SZ"),
-                "paths": {c: (paths[c].tolist() if c in keys else
-                              np.round(paths[c].to_numpy(float), 4).tolist()) for c in cols},
-                "path": codes.tolist(),
-                "slot_min": ((ns - t0) // (60 * 10**9)).tolist(),
-                "heard": (p[C.HEARD_A].to_numpy(bool).astype(int)
-                          + 2 * p[C.HEARD_B].to_numpy(bool).astype(int)).tolist(),
-            }
-        text = json.dumps(doc, separators=(",", ":"), allow_nan=False)
-        if path is not None:
-            path = Path(path)
-            if path.suffix == ".gz":
-                with gzip.open(path, "wt", encoding="utf-8") as fh:
-                    fh.write(text)
-            else:
-                path.write_text(text, encoding="utf-8")
-        return text
-
-    @classmethod
-    def from_json(cls, source) -> "Truth":
-        """Read what :meth:`to_json` wrote: JSON text, or a path (.json or .json.gz)."""
-        if isinstance(source, (str, Path)) and not str(source).lstrip().startswith("{"):
-            path = Path(source)
-            opener = gzip.open if path.suffix == ".gz" else open
-            with opener(path, "rt", encoding="utf-8") as fh:
-                doc = json.load(fh)
-        else:
-            doc = json.loads(source)
-        pairs = doc.get("pairs")
-        if pairs is None:
-            raise ValueError("this truth JSON was written without its pairs")
-        paths = pd.DataFrame(pairs["paths"])
-        idx = np.asarray(pairs["path"], dtype=np.int64)
-        df = paths.iloc[idx].reset_index(drop=True) if len(paths) else pd.DataFrame(
-            {c: pd.Series(dtype=float) for c in pairs["paths"]})
-        t0 = pd.Timestamp(pairs["start"])
-        df[C.SLOT] = (t0 + pd.to_timedelta(np.asarray(pairs["slot_min"], dtype=np.int64),
-                                           unit="min")).astype(C.UTC_DTYPE) if len(df) else \
-            pd.Series(dtype=C.UTC_DTYPE)
-        heard = np.asarray(pairs["heard"], dtype=np.int64)
-        df[C.HEARD_A] = (heard & 1).astype(bool)
-        df[C.HEARD_B] = (heard & 2).astype(bool)
-        for c in (C.DISTANCE, C.BEARING, C.ELEVATION, C.B_MINUS_A):
-            df[c] = df[c].astype(float)
-        for c in (C.BAND, C.TX_CALL, C.RX_CALL):
-            df[c] = df[c].astype(str).astype("category")
-        return cls(df[TRUTH_COLUMNS], doc.get("design", ""), doc.get("a", ""),
-                   doc.get("b", ""))
-
-
 @dataclass
 class Simulation:
     """One simulated experiment.
@@ -389,50 +190,6 @@ class Simulation:
 
 
 # --- stations -----------------------------------------------------------------------------
-def place_stations(n: int, rng: np.random.Generator, regions: pd.DataFrame | None = None):
-    """Random station positions from a weighted table of lat/lon boxes.
-
-    Parameters
-    ----------
-    n : int
-        Number of stations.
-    rng : numpy.random.Generator
-    regions : pandas.DataFrame, optional
-        Columns lat_min, lat_max, lon_min, lon_max [deg], weight; default
-        :data:`STATION_REGIONS`.
-
-    Returns
-    -------
-    lat, lon : numpy.ndarray
-        [deg].
-    """
-    reg = STATION_REGIONS if regions is None else regions
-    w = reg["weight"].to_numpy(float)
-    k = rng.choice(len(reg), size=n, p=w / w.sum())
-    lat = rng.uniform(reg["lat_min"].to_numpy()[k], reg["lat_max"].to_numpy()[k])
-    lon = rng.uniform(reg["lon_min"].to_numpy()[k], reg["lon_max"].to_numpy()[k])
-    return lat, lon
-
-
-def invent_calls(n: int, rng: np.random.Generator, exclude=()) -> np.ndarray:
-    """``n`` distinct invented callsigns with the Q prefix (never issued to amateurs)."""
-    letters = np.array(list("ABCDEFGHIJKLMNOPQRSTUVWXYZ"))
-    taken = {str(c).upper() for c in exclude}
-    out: list[str] = []
-    while len(out) < n:
-        m = 2 * (n - len(out)) + 10
-        digit = rng.integers(0, 10, m).astype(str)
-        k = rng.integers(2, 4, m)
-        suffix = ["".join(s[:j]) for s, j in zip(letters[rng.integers(0, 26, (m, 3))], k)]
-        for c in np.char.add(np.char.add("Q", digit), np.array(suffix)):
-            if c not in taken:
-                taken.add(c)
-                out.append(str(c))
-                if len(out) == n:
-                    break
-    return np.array(out, dtype=object)
-
-
 def _locators(lat, lon, rng, frac4):
     loc = np.asarray(latlon_to_locator(lat, lon, precision=6), dtype=object)
     short = rng.random(loc.size) < frac4
@@ -923,118 +680,6 @@ def _build_truth(design, rec, on, gains, bands, slots, em, li, dist, az, rev, el
                            kind="stable").reset_index(drop=True)
 
 
-# --- foreign CSV layouts (for tests of the readers) ---------------------------------------
-#: Invented CSV layouts: delimiter, heading line (None: none), time format ("epoch" or a
-#: strftime format), frequency unit and decimals, power unit. Field order is always time,
-#: tx call, tx locator, rx call, rx locator, frequency, SNR, power, drift.
-LAYOUTS = {
-    "comma": dict(sep=",", time="%Y-%m-%d %H:%M", freq=("MHz", 6), power="dBm",
-                  headings=["Time UTC", "Tx Call", "Tx Grid", "Rx Call", "Rx Grid",
-                            "Freq MHz", "SNR dB", "Power dBm", "Drift"]),
-    "semicolon": dict(sep=";", time="epoch", freq=("kHz", 3), power="W",
-                      headings=["t_epoch", "origin", "origin_sq", "hearer", "hearer_sq",
-                                "khz", "s_n", "watts", "dr"]),
-    "tab": dict(sep="\t", time="%Y-%m-%dT%H:%M:%SZ", freq=("Hz", 0), power="mW",
-                headings=["timestamp", "sender callsign", "sender locator",
-                          "reporter callsign", "reporter locator", "frequency hz", "snr",
-                          "power mw", "drift"]),
-    "space": dict(sep=" ", time="epoch", freq=("MHz", 6), power="dBm", headings=None),
-    "canonical": dict(sep=",", time="%Y-%m-%dT%H:%M:%SZ", freq=("Hz", 0), power="dBm",
-                      headings=list(C.INPUT_FIELDS)),
-}
-_LAYOUT_FIELDS = ["time", "tx_call", "tx_locator", "rx_call", "rx_locator", "frequency",
-                  "snr", "power", "drift"]
-# (field position, junk) written into corrupted rows; each makes the row unusable
-_JUNK = [(0, "yesterday"), (1, ""), (2, "ZZ99"), (4, "AB1"), (5, "abc"), (6, "n/a"),
-         (7, "-5"), (5, "1.0")]
-
-
-def _fmt(values, spec):
-    return np.char.mod(spec, np.asarray(values, dtype=float)).astype(object)
-
-
-def write_foreign_csv(spots: pd.DataFrame, path, layout: str = "comma", *,
-                      duplicates: float = 0.0, corrupt: int = 0, seed: int = 0):
-    """Write a spot table as CSV in one of several invented layouts (:data:`LAYOUTS`).
-
-    Parameters
-    ----------
-    spots : pandas.DataFrame
-        Canonical spot table (as from :func:`simulate_spots`).
-    path : str or path-like
-        Output file; a ``.gz`` suffix compresses with gzip.
-    layout : {"comma", "semicolon", "tab", "space", "canonical"}
-        ``comma``: ``YYYY-MM-DD HH:MM`` times, MHz, dBm; ``semicolon``: epoch seconds, kHz,
-        W, headings the reader cannot guess; ``tab``: ISO 8601 with Z, Hz, mW; ``space``:
-        no heading line, epoch seconds, MHz, dBm; ``canonical``: glossary names.
-    duplicates : float
-        Fraction of rows uploaded twice (the copy follows a little later in the file).
-    corrupt : int
-        Number of rows with one field replaced by junk (bad time, empty call, bad locator,
-        non-numeric frequency or SNR, power out of range, frequency out of band); never
-        duplicated.
-    seed : int
-        Seed for choosing duplicated and corrupted rows.
-
-    Returns
-    -------
-    mapping : dict
-        Field (CLI name) -> heading or 1-based column position, for ``read_spots``.
-    units : dict
-        Field -> unit (``time``: iso|epoch, ``frequency``: Hz|kHz|MHz, ``power``:
-        dBm|W|mW), for ``read_spots``.
-    """
-    if layout not in LAYOUTS:
-        raise ValueError(f"unknown layout {layout!r}; valid: {', '.join(LAYOUTS)}")
-    lay = LAYOUTS[layout]
-    rng = np.random.default_rng(seed)
-    n = len(spots)
-    slot = pd.DatetimeIndex(spots[C.SLOT])
-    if lay["time"] == "epoch":
-        t = (slot.as_unit("ns").asi8 // 10**9).astype(str).astype(object)
-    else:
-        t = np.asarray(slot.strftime(lay["time"]), dtype=object)
-    funit, dec = lay["freq"]
-    f = spots[C.FREQ].to_numpy(float) / {"Hz": 1.0, "kHz": 1e3, "MHz": 1e6}[funit]
-    pw = spots[C.POWER].to_numpy(float)
-    if lay["power"] == "dBm":
-        p = _fmt(pw, "%.0f")
-    else:
-        p = _fmt(10.0 ** ((pw - 30.0) / 10.0) * (1.0 if lay["power"] == "W" else 1e3), "%.6g")
-    cols = [t, spots[C.TX_CALL].astype(str).to_numpy(object),
-            spots[C.TX_LOCATOR].astype(str).to_numpy(object),
-            spots[C.RX_CALL].astype(str).to_numpy(object),
-            spots[C.RX_LOCATOR].astype(str).to_numpy(object), _fmt(f, f"%.{dec}f"),
-            _fmt(spots[C.SNR], "%.0f"), p, _fmt(spots[C.DRIFT].fillna(0.0), "%.0f")]
-    table = np.column_stack(cols) if n else np.empty((0, 9), dtype=object)
-    if corrupt:
-        rows = rng.choice(n, size=min(int(corrupt), n), replace=False)
-        junk = rng.integers(0, len(_JUNK), rows.size)
-        for r, j in zip(rows, junk):
-            table[r, _JUNK[j][0]] = _JUNK[j][1]
-        clean = np.setdiff1d(np.arange(n), rows)
-    else:
-        clean = np.arange(n)
-    n_dup = int(round(duplicates * n))
-    if n_dup and clean.size:
-        src = rng.choice(clean, size=min(n_dup, clean.size), replace=False)
-        key = np.concatenate([np.arange(n), src + rng.integers(1, 30, src.size) + 0.5])
-        order = np.argsort(key, kind="stable")
-        table = np.concatenate([table, table[src]])[order]
-    out = pd.DataFrame(table, columns=lay["headings"] or list(range(9)))
-    gz = str(path).endswith(".gz")
-    out.to_csv(path, sep=lay["sep"], index=False, header=lay["headings"] is not None,
-               compression={"method": "gzip", "mtime": 0} if gz else None,
-               lineterminator="\n")
-    if lay["headings"] is None:
-        mapping = {k: i + 1 for i, k in enumerate(_LAYOUT_FIELDS)}
-    else:
-        mapping = dict(zip(_LAYOUT_FIELDS, lay["headings"]))
-    units = {"time": "epoch" if lay["time"] == "epoch" else "iso", "frequency": funit,
-             "power": lay["power"]}
-    return mapping, units
-
-
 # --- demo data --------------------------------------------------------------------------------
 #: The invented demo station.
 DEMO_CALL = "Q1ABC"
@@ -1079,5 +724,5 @@ def make_demo_data(out_dir, *, days: float = 3, n_receivers: int = 250,
 __all__ = [
     "DESIGNS", "DEFAULT_DISTANCE_EDGES", "STATION_REGIONS", "Propagation", "Truth",
     "Simulation", "place_stations", "invent_calls", "simulate_spots", "LAYOUTS",
-    "write_foreign_csv", "DEMO_CALL", "DEMO_LOCATOR", "make_demo_data",
+    "write_foreign_csv", "DEMO_CALL", "DEMO_LOCATOR", "make_demo_data", "TRUTH_COLUMNS",
 ]

@@ -184,25 +184,7 @@ def test_receive_truth_bearing_is_from_home(sims):
     np.testing.assert_allclose(got[common], rev[common], atol=1e-9)
 
 
-# --- truth ----------------------------------------------------------------------------------
-def test_constant_difference_gives_exact_cells():
-    edges = (0, 1000, 3000, 6000, 20000)
-    sim = simulate_spots("simultaneous", seed=3, difference_db={"10m": [0.5, 1.0, 2.0, 3.0],
-                                                                "20m": 0.0},
-                         difference_edges=edges, **SMALL)
-    cells = sim.truth.cells(distance_edges=edges)
-    want = {("10m", 0.0): 0.5, ("10m", 1000.0): 1.0, ("10m", 3000.0): 2.0,
-            ("10m", 6000.0): 3.0}
-    for row in cells.itertuples():
-        band, lo = getattr(row, C.BAND), getattr(row, C.DISTANCE_MIN)
-        assert getattr(row, C.B_MINUS_A) == pytest.approx(want.get((band, lo), 0.0), abs=1e-12)
-    assert cells[C.PAIRS].sum() == len(sim.truth.pairs)
-    with45 = sim.truth.cells(distance_edges=edges, bearing_width_deg=45)
-    assert {C.BEARING_MIN, C.BEARING_MAX} <= set(with45.columns)
-    assert with45[C.PAIRS].sum() == len(sim.truth.pairs)
-    assert (with45[C.BEARING_MAX] - with45[C.BEARING_MIN] == 45).all()
-
-
+# --- the truth the simulator builds (the Truth class itself: test_truth.py) -----------------
 def test_truth_pairs_heard_by_at_least_one(sims):
     for sim in sims.values():
         tr = sim.truth.pairs
@@ -224,19 +206,6 @@ def test_truth_matches_the_spots(sims):
     d = sp.groupby(C.RX_CALL, observed=True)[C.DISTANCE].first()
     td = tr.groupby(C.RX_CALL)[C.DISTANCE].first()
     np.testing.assert_allclose(td, d[td.index], atol=1e-9)
-
-
-def test_truth_json_round_trip(sims, tmp_path):
-    tr = sims["alternating"].truth
-    back = Truth.from_json(tr.to_json())
-    pd.testing.assert_frame_equal(back.pairs[[C.RX_CALL, C.HEARD_A, C.HEARD_B]].astype(
-        {C.RX_CALL: str}), tr.pairs[[C.RX_CALL, C.HEARD_A, C.HEARD_B]].astype({C.RX_CALL: str}))
-    assert (back.pairs[C.SLOT] == tr.pairs[C.SLOT]).all()
-    np.testing.assert_allclose(back.pairs[C.B_MINUS_A], tr.pairs[C.B_MINUS_A], atol=1e-4)
-    assert back.overall[C.PAIRS] == tr.overall[C.PAIRS]
-    p = tmp_path / "t.truth.json.gz"
-    tr.to_json(p)
-    assert Truth.from_json(p).overall[C.PAIRS] == tr.overall[C.PAIRS]
 
 
 # --- knobs and reproducibility ----------------------------------------------------------
@@ -359,58 +328,16 @@ def test_simulation_type(sims):
     assert "Q1ABC" in str(sims["simultaneous"])
 
 
-# --- foreign CSV layouts, read back by the ingest ---------------------------------------------
-from spotkit.simulate import LAYOUTS, write_foreign_csv  # noqa: E402
+def test_moved_names_still_importable_from_simulate():
+    # Truth, the station populations and the CSV layouts moved to their own modules
+    from spotkit import layouts, simulate, stations, truth
 
-_COMPARE = [C.SLOT, C.TX_CALL, C.TX_LOCATOR, C.RX_CALL, C.RX_LOCATOR, C.BAND, C.SNR,
-            C.FREQ, C.POWER, C.DRIFT, C.DISTANCE, C.BEARING]
-
-
-def _canon(df):
-    out = df[_COMPARE].copy()
-    for c in (C.TX_CALL, C.TX_LOCATOR, C.RX_CALL, C.RX_LOCATOR, C.BAND):
-        out[c] = out[c].astype(str)
-    return out.sort_values([C.SLOT, C.TX_CALL, C.RX_CALL]).reset_index(drop=True)
-
-
-@pytest.mark.parametrize("layout", list(LAYOUTS))
-@pytest.mark.parametrize("suffix", [".csv", ".csv.gz"])
-def test_foreign_layouts_read_back_to_the_same_table(sims, tmp_path, layout, suffix):
-    ingest = pytest.importorskip("spotkit.ingest")
-    sp = sims["simultaneous"].spots.iloc[::4]
-    path = tmp_path / f"spots{suffix}"
-    mapping, units = write_foreign_csv(sp, path, layout)
-    res = ingest.read_spots(path, mapping=mapping, units=units)
-    assert res.summary.accepted == len(sp) and res.summary.rejected == 0
-    got, want = _canon(res.spots), _canon(sp)
-    # power through W / mW text with 6 significant digits: within 1e-4 dB
-    np.testing.assert_allclose(got[C.POWER], want[C.POWER], atol=1e-4)
-    pd.testing.assert_frame_equal(got.drop(columns=C.POWER), want.drop(columns=C.POWER),
-                                  check_dtype=False)
-
-
-@pytest.mark.parametrize("layout", ["comma", "tab", "canonical"])
-def test_readable_layouts_need_no_mapping(sims, tmp_path, layout):
-    ingest = pytest.importorskip("spotkit.ingest")
-    sp = sims["receive"].spots.iloc[::4]
-    path = tmp_path / "spots.csv"
-    write_foreign_csv(sp, path, layout)
-    res = ingest.read_spots(path)
-    assert res.summary.accepted == len(sp)
-
-
-@pytest.mark.parametrize("layout", list(LAYOUTS))
-def test_duplicates_and_corrupted_rows_are_accounted_for(sims, tmp_path, layout):
-    ingest = pytest.importorskip("spotkit.ingest")
-    sp = sims["receive"].spots.iloc[::4]
-    path = tmp_path / "spots.csv"
-    mapping, units = write_foreign_csv(sp, path, layout, duplicates=0.01, corrupt=25, seed=3)
-    res = ingest.read_spots(path, mapping=mapping, units=units)
-    n_dup = int(round(0.01 * len(sp)))
-    s = res.summary
-    assert s.rows_read == len(sp) + n_dup
-    assert s.duplicates == n_dup
-    assert s.rejected == 25 and s.accepted == len(sp) - 25
+    for mod, names in ((truth, ["Truth", "TRUTH_COLUMNS", "DEFAULT_DISTANCE_EDGES"]),
+                       (stations, ["STATION_REGIONS", "place_stations", "invent_calls"]),
+                       (layouts, ["LAYOUTS", "write_foreign_csv"])):
+        for name in names:
+            assert getattr(simulate, name) is getattr(mod, name), name
+            assert name in simulate.__all__, name
 
 
 # --- command line -----------------------------------------------------------------------------
@@ -519,22 +446,6 @@ def test_ten_metres_opens_by_day_at_the_path_midpoint():
     hours = sp[C.SLOT].dt.hour + sp[C.SLOT].dt.minute / 60
     local = np.mod(hours.to_numpy() + np.asarray(mid_lon) / 15.0, 24.0)
     assert np.mean((local > 7) & (local < 19)) > 0.75
-
-
-def test_far_stations_are_placed_on_land():
-    # oracle: the shipped Natural Earth 1:110m land layer (public domain); coastline
-    # generalised by km to tens of km, so allow 10 % of stations off its coast
-    pytest.importorskip("shapely")
-    from spotkit.basemap import is_land
-    from spotkit.simulate import STATION_REGIONS, place_stations
-
-    lat, lon = place_stations(5000, np.random.default_rng(1))
-    assert is_land(lat, lon).mean() > 0.9
-    w = STATION_REGIONS.set_index("region")["weight"]
-    assert w.sum() == pytest.approx(1.0)
-    # most stations in Europe and North America (invented weights, common practice)
-    eu_na = (lon > -125) & (lon < -60) | ((lon > -10) & (lon < 45) & (lat > 35))
-    assert eu_na.mean() > 0.75
 
 
 def test_gain_tables_interpolate_the_patterns():
