@@ -241,3 +241,11 @@ def test_summary_kinds_values_and_merge(simultaneous):
     pd.testing.assert_frame_equal(half.reset_index(drop=True),
                                   whole[half.columns].reset_index(drop=True),
                                   check_dtype=False, check_categorical=False)
+
+
+def test_light_key_from_sun(simultaneous):
+    p = pair_spots(simultaneous, "simultaneous", "Q1AAA", "Q1BBB")
+    g = add_group_keys(p, "light")
+    # 2 March, 00:00-00:06 UTC: Europe and the US east coast are in darkness
+    # (solar elevation well below -6 deg; common knowledge of the terminator)
+    assert set(g[C.PATH_LIGHT].astype(str)) == {"night"}
