@@ -157,26 +157,18 @@ def test_difference_map_symmetric_scale_solid_only_where_ci_excludes_zero(result
     assert n_solid > 0
 
 
-def test_difference_cells_flags_one_sided_and_significance():
+def test_difference_map_marks_one_sided_cells():
+    # the cells themselves (significance, one-sidedness, positions): test_mapdata.py
     groups = pd.DataFrame({
         C.SQUARE: ["JN58", "FN31", "PM95", "IO91"],
         C.B_MINUS_A: [2.0, 0.5, np.nan, np.nan],
         C.CI_LOW: [1.0, -0.5, np.nan, np.nan], C.CI_HIGH: [3.0, 1.5, np.nan, np.nan],
         C.BOTH: [50, 40, 0, 0], C.ONLY_A: [3, 2, 5, 0], C.ONLY_B: [4, 1, 0, 6],
     })
-    cells = maps.difference_cells(groups)
-    assert cells.attrs["level"] == "square"
-    assert cells["significant"].tolist() == [True, False, False, False]
-    assert cells["one_sided"].tolist() == ["", "", "only_a", "only_b"]
-    # JN58 square centre (Tyson 1989 scheme): 48.5 N, 11 E; cell 2 x 1 deg
-    assert cells[C.FAR_LAT].iloc[0] == pytest.approx(48.5)
-    assert cells[C.FAR_LON].iloc[0] == pytest.approx(11.0)
-    assert cells["cell_dlon"].iloc[0] == 2.0 and cells["cell_dlat"].iloc[0] == 1.0
     fig = maps.difference_map(groups, home="JN58td")
     ax = fig.axes[0]
     assert len(_by_gid(ax, "only-a")[0].get_offsets()) == 1
     assert len(_by_gid(ax, "only-b")[0].get_offsets()) == 1
-    assert maps.symmetric_limit([2.0, -0.4]) == pytest.approx(2.0)
 
 
 @pytest.mark.slow
@@ -254,22 +246,6 @@ def test_receive_side_maps_the_transmitters():
     assert "transmitters" in fig.axes[0].get_title()
 
 
-def test_world_path_samples_lie_on_the_geodesic():
-    """Samples of a drawn path are equally spaced along the WGS-84 geodesic from home:
-    geographiclib (Karney 2013) as a test-only oracle, 1 mm in distance, 1e-6 deg in
-    azimuth."""
-    from geographiclib.geodesic import Geodesic
-
-    la, lo = maps._geodesic_samples(48.145833, 11.625, np.array([-33.9, 40.7]),
-                                    np.array([151.2, -74.0]), 9)
-    for k in range(2):
-        total = Geodesic.WGS84.Inverse(48.145833, 11.625, la[k, -1], lo[k, -1])
-        for i in range(1, 9):
-            g = Geodesic.WGS84.Inverse(48.145833, 11.625, la[k, i], lo[k, i])
-            assert g["s12"] == pytest.approx(total["s12"] * i / 8, abs=1e-3)
-            assert g["azi1"] == pytest.approx(total["azi1"], abs=1e-6)
-
-
 def test_higher_resolution_only_when_asked():
     """The default land layer is the shipped one; cartopy's 1:50m feature (downloaded on
     first draw) is only set up when asked for, and nothing is fetched until drawn."""
@@ -282,3 +258,12 @@ def test_higher_resolution_only_when_asked():
     assert isinstance(art._feature, cfeature.NaturalEarthFeature)
     assert art._feature.scale == "50m"
     art.remove()
+
+
+def test_moved_names_still_importable_from_maps():
+    # the data preparation moved to spotkit.mapdata; maps re-exports its public names
+    from spotkit import mapdata
+
+    for name in mapdata.__all__:
+        assert getattr(maps, name) is getattr(mapdata, name), name
+        assert name in maps.__all__, name
