@@ -15,6 +15,9 @@ states), so A and B may run at different powers.
     [, ``band``] intervals). On each band the on-air A slots are matched one to one with
     on-air B slots no more than ``window_slots`` slots away (first come, first matched); a
     pair is one receiver's reports in a matched (A slot, B slot). Cluster: the receiver.
+    By default a pair is kept only when the receiver also reported the call in the slots
+    just before and after it (the path stayed open); in simulation this halves the bias
+    that paths closing between the two slots cause when A and B run at different powers.
 ``"receive"``
     Two co-located receivers (rx calls A and B) hearing the same transmitters. A pair is one
     transmitter in one slot and band; the cluster is the transmitter.
@@ -554,7 +557,8 @@ def _match_slots(a_slots: np.ndarray, b_slots: np.ndarray, window: int):
     return np.asarray(pa, dtype=np.int64), np.asarray(pb, dtype=np.int64)
 
 
-def _pair_alternating(spots, a, b, thr, schedule, window_slots, set_aside, cats):
+def _pair_alternating(spots, a, b, thr, schedule, window_slots, set_aside, cats,
+                      require_open_path):
     call, code = _check_call(spots, cats, C.TX_CALL, _single_call(a, b, "alternating"),
                              "A/B")
     if schedule is None:
@@ -618,6 +622,21 @@ def _pair_alternating(spots, a, b, thr, schedule, window_slots, set_aside, cats)
     thr_rx = _thr_by_code(thr, cats)[m["_cluster"].to_numpy(dtype=np.int64)]
     m["_thr_a"] = thr_rx
     m["_thr_b"] = thr_rx
+    if require_open_path:
+        # keep a pair only if the receiver heard the call (either antenna) in the slot just
+        # before and just after the pair: evidence that the path was open throughout
+        dims2 = [int(df["_cluster"].max()) + 1, int(df["_slot"].max()) + 3]
+        have = np.unique(_combine([df["_cluster"], df["_slot"] + 1], dims2)[0])
+        lo = np.minimum(m["_slot"].to_numpy(), m["_slot_b"].to_numpy())
+        hi = np.maximum(m["_slot"].to_numpy(), m["_slot_b"].to_numpy())
+        cl = m["_cluster"].to_numpy(dtype=np.int64)
+        before = ~np.isnan(_lookup(_combine([cl, lo], dims2)[0], have, np.ones(have.size)))
+        after = ~np.isnan(_lookup(_combine([cl, hi + 2], dims2)[0], have, np.ones(have.size)))
+        ok = before & after
+        if (~ok).any():
+            set_aside["alternating pair without reports in the slots around it"] = int(
+                (~ok).sum())
+        m = m[ok].reset_index(drop=True)
     return m
 
 
@@ -665,7 +684,8 @@ def _pair_before_after(spots, a, b, change_at, set_aside, cats):
 # --- public entry ---------------------------------------------------------------------------
 def pair_spots(spots: pd.DataFrame, design: Design, a: str, b: str | None = None, *,
                schedule=None, change_at=None, window_slots: int = 1,
-               min_receiver_reports: int = 20) -> pd.DataFrame:
+               min_receiver_reports: int = 20,
+               require_open_path: bool = True) -> pd.DataFrame:
     """Pair the reports of antennas A and B according to an experiment design.
 
     Parameters
@@ -686,6 +706,11 @@ def pair_spots(spots: pd.DataFrame, design: Design, a: str, b: str | None = None
         Alternating design: the largest distance between paired A and B slots [slots].
     min_receiver_reports : int
         See :func:`receiver_thresholds`.
+    require_open_path : bool
+        Alternating design: keep a pair only if the receiver also reported the call in the
+        slot just before and the slot just after the pair (either antenna), as evidence
+        that the path stayed open; otherwise a path that closes between the A and the B
+        slot looks like a one-sided pair. Pairs without that evidence are set aside.
 
     Returns
     -------
@@ -717,7 +742,8 @@ def pair_spots(spots: pd.DataFrame, design: Design, a: str, b: str | None = None
     elif design == "receive":
         m = _pair_receive(work, a, b, thr, cats)
     elif design == "alternating":
-        m = _pair_alternating(work, a, b, thr, schedule, window_slots, set_aside, cats)
+        m = _pair_alternating(work, a, b, thr, schedule, window_slots, set_aside, cats,
+                              require_open_path)
     else:
         m, after = _pair_before_after(work, a, b, change_at, set_aside, cats)
         m["_pow_a"] = 0.0  # no on-air filter: every row has one observation

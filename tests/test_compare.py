@@ -53,16 +53,19 @@ def test_recovers_known_difference_per_cell(design, kw):
     assert len(big) >= 3
     # tolerance 0.3 dB in cells with thousands of pairs (the target)
     np.testing.assert_allclose(big[C.B_MINUS_A], big["b_minus_a_db_true"], atol=0.3)
-    # the same pairs as the simulator's (alternating: a few slots matched differently)
-    # (receive: slots where the other receiver reported nothing count as off the air)
-    np.testing.assert_allclose(g[C.PAIRS], g["pairs_true"], rtol=0.05)
+    # the same pairs as the simulator's, less those set aside (receive: slots where the
+    # other receiver reported nothing count as off the air; alternating: pairs without
+    # reports in the slots around them)
+    assert (g[C.PAIRS] <= 1.01 * g["pairs_true"]).all()
+    assert (g[C.PAIRS] >= (0.7 if design == "alternating" else 0.95) * g["pairs_true"]).all()
 
 
 @pytest.mark.slow
 @pytest.mark.xfail(strict=True, reason="known limitation: alternating design with A and B "
                    "at different powers - pairs where the path closed between the two "
                    "slots give one-sided bounds whose size depends on each antenna's power; "
-                   "biased by up to about 0.7 dB in this simulation")
+                   "biased by up to about 0.4 dB in this simulation (0.6 dB without the "
+                   "open-path check)")
 def test_alternating_with_unequal_powers():
     sim = simulate_spots("alternating", days=2, seed=7, difference_db=CELL_TRUTH,
                          difference_edges=EDGES, power_b_dbm=30.0)

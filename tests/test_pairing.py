@@ -162,7 +162,8 @@ def alternating_spots():
 
 
 def test_alternating_pairs_neighbouring_slots():
-    p = pair_spots(alternating_spots(), "alternating", "Q1AAA", "Q1AAA", schedule="even-odd")
+    p = pair_spots(alternating_spots(), "alternating", "Q1AAA", "Q1AAA", schedule="even-odd",
+                   require_open_path=False)
     q2 = p[p[C.CLUSTER] == "Q2RX"]
     assert len(q2) == 3
     np.testing.assert_array_equal((q2[C.SLOT_B] - q2[C.SLOT]).dt.total_seconds(), 120)
@@ -171,6 +172,12 @@ def test_alternating_pairs_neighbouring_slots():
     assert len(q3) == 1 and q3[C.HEARD_A].all() and not q3[C.HEARD_B].any()
     # slot 7 (B) has no on-air A slot within one slot: set aside, not silently dropped
     assert sum(p.attrs["set_aside"].values()) == 1
+    # with the open-path check only Q2RX's middle pair (slots 2, 3) has reports of the call
+    # in the slots around it (1 and 4)
+    p = pair_spots(alternating_spots(), "alternating", "Q1AAA", schedule="even-odd")
+    assert list(p[C.SLOT].dt.minute) == [4]
+    assert p.attrs["set_aside"]["alternating pair without reports in the slots around it"] \
+        == 3
 
 
 def test_alternating_schedule_not_covering_the_data(tmp_path):
@@ -182,7 +189,8 @@ def test_alternating_schedule_not_covering_the_data(tmp_path):
     part.write_text("start,end,antenna\n2026-03-02T00:00Z,2026-03-02T00:02Z,A\n"
                     "2026-03-02T00:02Z,2026-03-02T00:04Z,B\n")
     with pytest.warns(SpotkitWarning, match="outside the schedule"):
-        p = pair_spots(alternating_spots(), "alternating", "Q1AAA", schedule=str(part))
+        p = pair_spots(alternating_spots(), "alternating", "Q1AAA", schedule=str(part),
+                       require_open_path=False)
     assert p.attrs["set_aside"]["slot not covered by the schedule"] == 6
 
 
