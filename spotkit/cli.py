@@ -219,6 +219,12 @@ def _add_compare(sub):
                    help="reflection height for elevation angles [km] (default 300)")
     p.add_argument("--window", type=int, default=1, metavar="SLOTS",
                    help="alternating design: largest distance of paired slots (default 1)")
+    p.add_argument("--no-open-path-check", action="store_true",
+                   help="alternating design: keep pairs even without reports of the call in "
+                   "the slots around them")
+    p.add_argument("--threshold-correction", choices=["edge", "none"], default="edge",
+                   help="first-order correction for reports at the decode threshold "
+                   "(default edge)")
     p.add_argument("--boot", type=int, default=1000, help="bootstrap resamples (default 1000)")
     p.add_argument("--seed", type=int, default=0, help="bootstrap seed (default 0)")
     p.add_argument("--min-pairs", type=int, default=30,
@@ -259,7 +265,8 @@ def _cmd_compare(args) -> int:
         by=by, bearing_width_deg=args.bearing_width, hour=args.hour_basis,
         layer_height_km=args.layer_height, window_slots=args.window, n_boot=args.boot,
         seed=args.seed, min_pairs=args.min_pairs, confidence=args.confidence,
-        progress=args.progress, **kw)
+        progress=args.progress, threshold_correction=args.threshold_correction,
+        require_open_path=not args.no_open_path_check, **kw)
     print(result)
     if args.json:
         result.to_json(args.json)
