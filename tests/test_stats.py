@@ -303,240 +303,6 @@ def test_wilson_matches_statsmodels():
         S.wilson_interval(5, 3)
 
 
-# ----------------------------------------------------------------------------- censored MLE
-def censor(x, lower_limit, upper_limit):
-    """Below ``lower_limit``: upper bounds there; above ``upper_limit``: lower bounds there."""
-    kinds = np.where(x < lower_limit, 1, np.where(x > upper_limit, -1, 0))
-    vals = np.where(kinds == 1, lower_limit, np.where(kinds == -1, upper_limit, x))
-    return vals, kinds
-
-
-def test_censored_mle_without_censoring_is_mean_and_sd(rng):
-    # Tobin (1958): with no censoring the model is ordinary least squares: mean and the
-    # ddof=0 SD, to rounding (1e-12 dB)
-    x = tied_sample(rng, 500)
-    u, c = compress(x)
-    fit = S.censored_normal_mle(u, np.zeros(u.size, int), c)
-    assert fit.converged
-    assert fit.mu == pytest.approx(np.mean(x), abs=1e-12)
-    assert fit.sigma == pytest.approx(np.std(x), abs=1e-12)
-    assert fit.n_exact == 500 and fit.n_upper == 0 and fit.n_lower == 0
-    # the log-likelihood is that of the normal at those values
-    assert fit.loglik == pytest.approx(sps.norm.logpdf(x, fit.mu, fit.sigma).sum(), rel=1e-10)
-
-
-def test_censored_mle_equal_values_floor():
-    fit = S.censored_normal_mle([2.0], [0], [40])
-    assert fit.mu == 2.0 and fit.sigma == S.SIGMA_FLOOR_DB
-
-
-@pytest.mark.parametrize("true_mu,true_sigma", [(0.3, 3.0), (-1.7, 5.0)])
-def test_censored_mle_recovers_parameters_heavy_censoring(rng, true_mu, true_sigma):
-    # simulation: about 40 % censored on each side (limits at mu -+ 0.253 sigma);
-    # estimates within 4 standard errors of the truth
-    x = rng.normal(true_mu, true_sigma, 4000)
-    lim = 0.2533 * true_sigma
-    vals, kinds = censor(x, true_mu - lim, true_mu + lim)
-    assert 0.37 < np.mean(kinds == 1) < 0.43 and 0.37 < np.mean(kinds == -1) < 0.43
-    fit = S.censored_normal_mle(vals, kinds)
-    assert fit.converged
-    assert abs(fit.mu - true_mu) < 4 * fit.se_mu
-    assert abs(fit.sigma - true_sigma) < 4 * fit.se_sigma
-    # the naive mean of the exact values alone is pulled to the window, not the truth
-    assert fit.se_mu < 0.2 * true_sigma
-
-
-def test_censored_mle_standard_error_matches_monte_carlo(rng):
-    # the information-based SE of mu agrees with the spread over 60 simulated data sets
-    # to within 25 % (Monte-Carlo error of an SD from 60 draws is about 9 %)
-    mus, ses = [], []
-    for _ in range(60):
-        vals, kinds = censor(rng.normal(0.0, 2.0, 400), -1.0, 1.5)
-        fit = S.censored_normal_mle(vals, kinds)
-        mus.append(fit.mu)
-        ses.append(fit.se_mu)
-    assert np.std(mus, ddof=1) == pytest.approx(np.mean(ses), rel=0.25)
-
-
-def test_censored_mle_whole_db_is_not_stuck_on_grid(rng):
-    # the headline estimator on whole-dB data: true shift 0.3 dB, sigma 3 dB, exact values
-    # reported in whole dB, bounds at -2.5 / +2.5 dB. The MLE is continuous: it returns
-    # about 0.3 dB (tolerance 0.1 dB = 4 SE; the rounding of exact values biases it by
-    # under 0.01 dB here), clearly neither 0 nor 0.5 as the HL estimate must be.
-    z = rng.normal(0.3, 3.0, 20000)
-    vals, kinds = censor(z, -2.5, 2.5)
-    vals = np.where(kinds == 0, np.round(vals), vals)
-    u, inv = np.unique(np.c_[vals, kinds], axis=0, return_inverse=True)
-    c = np.bincount(inv.ravel())
-    assert u.shape[0] == 7  # seven distinct (value, kind) rows carry 20 000 pairs
-    fit = S.censored_normal_mle(u[:, 0], u[:, 1].astype(int), c)
-    assert abs(fit.mu - 0.3) < 0.1
-    assert abs(fit.mu - 0.0) > 0.15 and abs(fit.mu - 0.5) > 0.1
-    assert fit.sigma == pytest.approx(3.0, abs=0.15)
-
-
-def test_censored_mle_compressed_equals_expanded(rng):
-    x = tied_sample(rng, 3000)
-    vals, kinds = censor(x, -2.0, 3.0)
-    u, inv = np.unique(np.c_[vals, kinds], axis=0, return_inverse=True)
-    c = np.bincount(inv.ravel())
-    a = S.censored_normal_mle(vals, kinds)
-    b = S.censored_normal_mle(u[:, 0], u[:, 1].astype(int), c)
-    assert a.mu == pytest.approx(b.mu, abs=1e-9)
-    assert a.sigma == pytest.approx(b.sigma, abs=1e-9)
-    assert a.loglik == pytest.approx(b.loglik, rel=1e-10)
-
-
-def test_censored_mle_is_the_maximum(rng):
-    # oracle: scipy.optimize.minimize (Nelder-Mead) on the same log-likelihood written out
-    # independently with scipy.stats.norm; the fitted log-likelihood is at least as high
-    from scipy.optimize import minimize
-    vals, kinds = censor(rng.normal(1.0, 2.5, 300), -0.5, 2.0)
-
-    def negll(p):
-        mu, s = p[0], np.exp(p[1])
-        return -(sps.norm.logpdf(vals[kinds == 0], mu, s).sum()
-                 + sps.norm.logcdf(vals[kinds == 1], mu, s).sum()
-                 + sps.norm.logsf(vals[kinds == -1], mu, s).sum())
-
-    ref = minimize(negll, [0.0, 0.0], method="Nelder-Mead",
-                   options=dict(xatol=1e-8, fatol=1e-10, maxiter=4000))
-    fit = S.censored_normal_mle(vals, kinds)
-    assert fit.mu == pytest.approx(ref.x[0], abs=1e-4)
-    assert fit.sigma == pytest.approx(np.exp(ref.x[1]), abs=1e-4)
-    assert -fit.loglik <= ref.fun + 1e-8
-
-
-def test_censored_mle_no_exact_values():
-    # bounds of both kinds that a narrow normal can satisfy: sigma goes to its floor
-    fit = S.censored_normal_mle([1.0, -1.0], [1, -1], [5, 5])
-    assert fit.converged and fit.sigma == pytest.approx(S.SIGMA_FLOOR_DB)
-    assert fit.mu == pytest.approx(0.0, abs=1e-8)
-    # only upper bounds: no maximum (mu runs to -inf) -> NaN, not converged
-    fit = S.censored_normal_mle([1.0, 3.0], [1, 1], [5, 2])
-    assert np.isnan(fit.mu) and not fit.converged
-    # contradictory bounds only (true <= -4 and true >= +4): sigma diverges -> NaN
-    fit = S.censored_normal_mle([-4.0, 4.0], [1, -1], [3, 3])
-    assert np.isnan(fit.mu) and not fit.converged
-
-
-def test_censored_mle_floor_with_censoring():
-    # all exact values equal (0 dB) and bounds that agree with them (true <= 3, true >= -3):
-    # the unconstrained sigma would be about 0, so the fit sits on the floor, mu = 0 by
-    # symmetry; the batch fit does the same
-    vals, kinds = [0.0, 3.0, -3.0], [0, 1, -1]
-    fit = S.censored_normal_mle(vals, kinds, [50, 1, 1], sigma_floor=0.5)
-    assert fit.converged
-    assert fit.sigma == 0.5 and fit.mu == pytest.approx(0.0, abs=1e-10)
-    # lower bounds close above -1 dB pull mu off the exact value, still on the floor;
-    # oracle: scipy.optimize.minimize_scalar over mu with sigma = 0.5, tolerance 1e-6 dB
-    from scipy.optimize import minimize_scalar
-    vals2 = [0.0, 3.0, -0.2]
-    fit2 = S.censored_normal_mle(vals2, kinds, [50, 1, 30], sigma_floor=0.5)
-    ref = minimize_scalar(lambda m: -(50 * sps.norm.logpdf(0.0, m, 0.5)
-                                      + sps.norm.logcdf(3.0, m, 0.5)
-                                      + 30 * sps.norm.logsf(-0.2, m, 0.5)),
-                          bounds=(-1, 1), method="bounded", options=dict(xatol=1e-9))
-    assert fit2.sigma == 0.5 and fit2.mu > 0.01
-    assert fit2.mu == pytest.approx(ref.x, abs=1e-6)
-    for v, w, f in ((vals, [50, 1, 1], fit), (vals2, [50, 1, 30], fit2)):
-        mu, sigma = S.censored_normal_mle_batch(v, kinds, [w, w], sigma_floor=0.5)
-        np.testing.assert_allclose(mu, f.mu, atol=1e-10)
-        np.testing.assert_allclose(sigma, 0.5)
-
-
-def test_batch_equals_single_fits(rng):
-    u = np.array([-6.0, -4, -3, -2, -1, 0, 1, 2, 3, 4, 6])
-    kinds = np.array([1, 1, 0, 0, 0, 0, 0, 0, 0, -1, -1])
-    base = np.array([30, 20, 25, 40, 60, 70, 65, 45, 30, 25, 35], float)
-    w = rng.multinomial(int(base.sum()), base / base.sum(), size=40).astype(float)
-    w[3] = 0.0  # no data -> NaN
-    w[5] = np.where(kinds == 0, w[5], 0.0)  # no censoring -> closed form
-    w[7] = np.where(kinds == 1, w[7], 0.0)  # only upper bounds -> NaN
-    w[9, kinds == 0] = 0.0  # only bounds, contradictory (<= -4 and >= +4) -> NaN
-    w[11] = 0.0
-    w[11, [0, 5, 10]] = [1, 50, 1]  # one exact value, bounds contradicting it
-    mu, sigma = S.censored_normal_mle_batch(u, kinds, w)
-    assert mu.shape == (40,)
-    for b in range(40):
-        f = S.censored_normal_mle(u, kinds, w[b])
-        if np.isnan(f.mu):
-            assert np.isnan(mu[b]) and np.isnan(sigma[b])
-        else:
-            assert mu[b] == pytest.approx(f.mu, abs=1e-8)
-            assert sigma[b] == pytest.approx(f.sigma, abs=1e-8)
-    assert np.isnan(mu[3]) and np.isnan(mu[7]) and np.isnan(mu[9])
-    assert mu[5] == pytest.approx(np.sum(w[5] * u) / w[5].sum(), abs=1e-12)
-    assert sigma[11] > 1.0  # the bounds widen the fit well above the floor
-    assert np.all(np.isfinite(np.delete(mu, [3, 7, 9])))
-
-
-def test_batch_rejects_bad_shapes():
-    with pytest.raises(UsageError):
-        S.censored_normal_mle_batch([1.0, 2.0], [0, 0], np.ones((3, 3)))
-    with pytest.raises(UsageError):
-        S.censored_normal_mle([1.0, 2.0], [0, 2])
-
-
-# ----------------------------------------------------------------------------- bootstrap
-def test_cluster_bootstrap_weights_shape_and_sums():
-    w = S.cluster_bootstrap_weights(12, 500, np.random.default_rng(3))
-    assert w.shape == (500, 12) and w.dtype.kind == "i"
-    assert np.all(w.sum(axis=1) == 12)
-    # each cluster is drawn 1 time per sample on average (Davison & Hinkley 1997, s. 3.8)
-    assert w.mean() == pytest.approx(1.0, abs=0.05)
-    again = S.cluster_bootstrap_weights(12, 500, 3)
-    assert np.array_equal(again, S.cluster_bootstrap_weights(12, 500, 3))
-
-
-def test_cluster_bootstrap_coverage(rng):
-    # simulation (Davison & Hinkley 1997, s. 3.8): 20 clusters of 10 values with a cluster
-    # random effect (ICC 0.5). The percentile interval of the cluster bootstrap covers the
-    # true mean in about 95 % of 200 data sets (accept 0.90-0.99); resampling single values
-    # ignores the correlation and under-covers (design effect 5.5: about 60 %).
-    n_rep, g, m, n_boot, mu = 200, 20, 10, 400, 1.0
-    hit_cluster = hit_iid = 0
-    for _ in range(n_rep):
-        y = mu + rng.normal(0, 1, (g, 1)) + rng.normal(0, 1, (g, m))
-        w = S.cluster_bootstrap_weights(g, n_boot, rng)
-        reps = (w @ y.sum(axis=1)) / (w.sum(axis=1) * m)
-        lo, hi = S.bootstrap_interval(reps, y.mean())
-        hit_cluster += lo <= mu <= hi
-        flat = y.ravel()
-        wi = S.cluster_bootstrap_weights(flat.size, n_boot, rng)
-        lo, hi = S.bootstrap_interval(wi @ flat / flat.size, flat.mean())
-        hit_iid += lo <= mu <= hi
-    assert 0.90 <= hit_cluster / n_rep <= 0.99
-    assert hit_iid / n_rep < 0.80
-
-
-def test_bootstrap_interval_methods(rng):
-    reps = rng.normal(2.0, 0.5, (5000, 3))
-    reps[:10, 1] = np.nan  # failed fits are left out
-    est = np.array([2.1, 2.0, 1.9])
-    lo, hi = S.bootstrap_interval(reps, est)
-    np.testing.assert_allclose(lo[0], np.quantile(reps[:, 0], 0.025))
-    np.testing.assert_allclose(hi[1], np.quantile(reps[10:, 1], 0.975))
-    blo, bhi = S.bootstrap_interval(reps, est, method="basic")
-    np.testing.assert_allclose(blo, 2 * est - hi)
-    nlo, nhi = S.bootstrap_interval(reps, est, method="normal")
-    # normal quantile 1.96 x SD 0.5 = 0.98 dB half-width, tolerance 0.03 dB (MC error)
-    np.testing.assert_allclose(nhi - est, 0.98, atol=0.03)
-    with pytest.raises(ValueError, match="percentile"):
-        S.bootstrap_interval(reps, est, method="bca")
-    lo, hi = S.bootstrap_interval(np.full(10, np.nan), 1.0)
-    assert np.isnan(lo) and np.isnan(hi)
-
-
-def test_bootstrap_p_value(rng):
-    # estimate 1.96 SE from zero -> p = 0.05 (normal approximation); tolerance 0.005
-    reps = rng.normal(0.0, 1.0, 20000)
-    assert S.bootstrap_p_value(reps, 1.96) == pytest.approx(0.05, abs=0.005)
-    p = S.bootstrap_p_value(np.c_[reps, 2 * reps], [0.0, 3.92])
-    assert p[0] == pytest.approx(1.0) and p[1] == pytest.approx(0.05, abs=0.005)
-    assert np.isnan(S.bootstrap_p_value(np.ones(50), 1.0))
-
-
 # ----------------------------------------------------------------------------- arguments
 @pytest.mark.parametrize("call", [
     lambda: S.wilcoxon_signed_rank([1, 2], alternative="bigger"),
@@ -561,16 +327,19 @@ def test_bad_counts_raise_usage_error():
 
 
 def test_empty_and_degenerate_inputs_give_nan_not_warnings():
-    # pytest turns warnings into errors: these must be quiet NaNs
+    # pytest turns warnings into errors: these must be quiet NaNs (censored fits and the
+    # bootstrap: test_censored.py, test_bootstrap.py)
     assert np.isnan(S.hodges_lehmann([]))
     assert np.isnan(S.wilcoxon_signed_rank([]).p_value)
     assert np.isnan(S.sign_test([]).p_value)
-    assert np.isnan(S.censored_normal_mle([], []).mu)
-    mu, sigma = S.censored_normal_mle_batch([], [], np.zeros((3, 0)))
-    assert np.all(np.isnan(mu)) and np.all(np.isnan(sigma))
     assert S.hodges_lehmann_ci([1.0, 2.0]) == (-np.inf, np.inf)  # 95 % unreachable at n = 2
-    lo, hi = S.bootstrap_interval([[1.0, np.nan], [2.0, 3.0]], [1.5, 3.0], method="normal")
-    assert np.isfinite(lo[0]) and np.isnan(lo[1]) and np.isnan(hi[1])
-    assert np.isnan(S.bootstrap_p_value([1.0, np.nan], 1.0))
-    with pytest.raises(UsageError):
-        S.bootstrap_interval([], 1.0)
+
+
+def test_moved_names_still_importable_from_stats():
+    # the censored-normal fit and the bootstrap moved to their own modules
+    from spotkit import bootstrap, censored
+
+    for mod in (censored, bootstrap):
+        for name in mod.__all__:
+            assert getattr(S, name) is getattr(mod, name), name
+            assert name in S.__all__, name
