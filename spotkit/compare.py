@@ -262,22 +262,31 @@ def estimate_groups(counts: pd.DataFrame, *, n_boot: int = 1000, seed: int = 0,
             if use_edge else 0.0
         out[C.B_MINUS_A][g], out[C.SIGMA][g] = fit.mu + corr, fit.sigma
         out[C.CORRECTION][g] = corr
-        if clusters_per_group[g] < 2:
-            notes[g] = f"only one of the {cluster_label}: no interval"
-            continue
-        wb_all = np.asarray((S[sl] @ WT).T)  # (n_boot, K)
-        wb = wb_all[:, pm]
+        single = clusters_per_group[g] < 2
+        if not single:
+            wb_all = np.asarray((S[sl] @ WT).T)  # (n_boot, K)
+            wb = wb_all[:, pm]
+            ea_b, eb_b = wb_all[:, k_all == 2].sum(1), wb_all[:, k_all == -2].sum(1)
+        else:  # one cluster (e.g. by receiver): resample its pairs, as if independent
+            gen = np.random.default_rng([int(seed), g])
+            wb = gen.multinomial(int(t.sum()), t / t.sum(), size=int(n_boot)).astype(float)
+            heard_a = wb[:, k == 0].sum(1) + wb[:, k == 1].sum(1)
+            heard_b = wb[:, k == 0].sum(1) + wb[:, k == -1].sum(1)
+            ea_b = e_a * heard_a / max(n_both[g] + n_a[g], 1)
+            eb_b = e_b * heard_b / max(n_both[g] + n_b[g], 1)
         mu_b, sig_b = stats.censored_normal_mle_batch(v, k, wb)
         if use_edge:
-            mu_b = mu_b + edge_correction(
-                sig_b, wb[:, k == 0].sum(1), wb[:, k == 1].sum(1), wb[:, k == -1].sum(1),
-                wb_all[:, k_all == 2].sum(1), wb_all[:, k_all == -2].sum(1))
+            mu_b = mu_b + edge_correction(sig_b, wb[:, k == 0].sum(1), wb[:, k == 1].sum(1),
+                                          wb[:, k == -1].sum(1), ea_b, eb_b)
         est = out[C.B_MINUS_A][g]
         lo, hi = stats.bootstrap_interval(mu_b, est, confidence)
         out[C.CI_LOW][g], out[C.CI_HIGH][g] = lo, hi
         out[C.P_VALUE][g] = _nan_if_none(stats.bootstrap_p_value(mu_b, est))
         bad = np.mean(~np.isfinite(mu_b))
-        if bad > 0.05:
+        if single:
+            notes[g] = (f"a single {cluster_label.rstrip('s')}: interval from resampling its "
+                        "pairs as if independent (too narrow)")
+        elif bad > 0.05:
             notes[g] = (f"{bad:.0%} of the bootstrap resamples had no estimate: interval "
                         "unreliable")
         elif clusters_per_group[g] < 5:

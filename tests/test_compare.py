@@ -284,3 +284,15 @@ def test_cli_alternating_reads_a_planned_schedule(tmp_path, capsys):
     # invented truth 2.0 dB; 0.5 dB tolerance for this small run (its CI is about +-0.3 dB)
     assert doc["overall"]["b_minus_a_db"] == pytest.approx(2.0, abs=0.5)
     assert doc["overall"]["pairs"] > 500
+
+
+def test_by_receiver_for_maps(small_sim):
+    res = compare_antennas(small_sim.spots, **small_sim.compare_kwargs(), by="receiver",
+                           n_boot=30, min_pairs=20)
+    g = res.groups
+    assert {C.FAR_CALL, C.FAR_LOCATOR, C.FAR_LAT, C.FAR_LON} <= set(g.columns)
+    est = g[g[C.B_MINUS_A].notna()]
+    assert len(est) > 10 and (est[C.CLUSTERS] == 1).all()
+    # one cluster per group: the interval comes from the pairs, and the note says so
+    assert est[C.CI_LOW].notna().all()
+    assert est[C.NOTE].str.contains("as if independent").all()
