@@ -38,9 +38,11 @@ threshold the uncorrected difference-Tobit was off by up to 0.4 dB (simulator) a
 The both-heard-only mean was off by 0.2-0.4 dB in the same cases. The alternating design
 with A and B at different powers remains biased (up to about 0.4 dB in one simulation,
 0.6 dB without the open-path check of :func:`spotkit.pairing.pair_spots`): when the path
-closes between the two slots the one-sided bound depends on each antenna's power. The normal model for the per-pair spread (fast fading, rounding, alternating slots)
-is an approximation. The before/after design does not model censoring and is weaker
-(see :mod:`spotkit.pairing`).
+closes between the two slots the one-sided bound depends on each antenna's power. The
+normal model for the per-pair spread (fast fading, rounding, alternating slots) is an
+approximation. The before/after design does not model censoring and is weaker (see
+:mod:`spotkit.pairing`). Groups with a single cluster (e.g. ``by="receiver"``) get an
+interval from resampling their pairs as if independent, which is too narrow.
 
 References
 ----------
