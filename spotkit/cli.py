@@ -43,7 +43,8 @@ def _add_ingest(sub):
         "bearings and band, and write the canonical table as Parquet.",
     )
     p.add_argument("files", nargs="+", metavar="FILE", help="spot CSV files (.csv, .csv.gz)")
-    p.add_argument("-o", "--output", required=True, metavar="OUT.parquet")
+    p.add_argument("-o", "--output", metavar="OUT.parquet",
+                   help="Parquet file to write (or give --dataset)")
     p.add_argument("--rejects", metavar="REJECTS.csv", help="write set-aside rows here")
     p.add_argument("--map", action="append", type=_key_value, default=[],
                    metavar="FIELD=COLUMN", help="say which column holds FIELD")
@@ -56,10 +57,23 @@ def _add_ingest(sub):
     p.add_argument("--slot-minutes", type=int, default=2, help="slot length (default 2)")
     p.add_argument("--header", default="auto", choices=["auto", "yes", "no"],
                    help="whether the first line holds headings (default: auto-detect)")
+    # archive options (spotkit.store)
+    p.add_argument("--dataset", metavar="DIR", help="append to a partitioned Parquet archive "
+                   "instead of writing one file; a file already in it is refused")
+    p.add_argument("--partition", default="band,day", metavar="KEYS",
+                   help="archive partition keys, from band and day (default band,day)")
+    p.add_argument("--chunk-rows", type=int, metavar="N", help="read N rows at a time")
+    p.add_argument("--memory-mb", type=float, metavar="M",
+                   help="keep memory under about M MiB (sets the chunk size)")
     p.set_defaults(func=_cmd_ingest)
 
 
 def _cmd_ingest(args) -> int:
+    # --- archive branch: --dataset / --memory-mb (see _archive_ingest below) ---
+    done = _archive_ingest(args)
+    if done is not None:
+        return done
+    # --- end of archive branch ---
     from .ingest import ingest_to_parquet
 
     mapping, units = dict(args.map), dict(args.unit)
@@ -352,7 +366,7 @@ def _add_map(sub):
         "map", help="draw coverage, difference or reach maps",
         description="Draw a map, offline: coverage (far stations by band coloured by SNR per "
         "watt), difference (B minus A per receiver / locator square / field, solid where the "
-        "95 %% CI excludes 0) or reach (what A and B reached). Difference and reach need the "
+        "95 % CI excludes 0) or reach (what A and B reached). Difference and reach need the "
         "A/B options.")
     _add_figure_options(p, ["coverage", "difference", "reach"], "which map")
     p.add_argument("--home", metavar="LOCATOR", help="map centre (default: the station "
@@ -399,7 +413,7 @@ def _add_plot(sub):
     p = sub.add_parser(
         "plot", help="draw comparison and coverage plots",
         description="Draw a plot: B minus A by bearing (polar), distance, elevation or hour "
-        "with 95 %% CIs (need the A/B options); P(heard) against distance for A and B (needs "
+        "with 95 % CIs (need the A/B options); P(heard) against distance for A and B (needs "
         "the A/B options); SNR per watt against distance; spots per hour by band.")
     _add_figure_options(p, ["bearing", "distance", "elevation", "hour", "heard",
                             "snr-distance", "spots-per-hour"], "which plot")
@@ -713,6 +727,158 @@ def _cmd_demo(args) -> int:
     return EXIT_OK
 
 
+# --- archive (partitioned Parquet store, Dask) -------------------------------------------
+def _archive_ingest(args):
+    """The ``ingest --dataset/--memory-mb`` branch; None when neither option is given."""
+    from pathlib import Path
+
+    from .store import chunk_rows_for_memory, ingest_to_dataset
+
+    dataset, memory_mb = getattr(args, "dataset", None), getattr(args, "memory_mb", None)
+    if dataset and args.output:
+        raise UsageError("give either -o OUT.parquet or --dataset DIR, not both")
+    if not dataset and not args.output:
+        raise UsageError("give -o OUT.parquet or --dataset DIR")
+    if not dataset:
+        if memory_mb is not None:  # one Parquet file, chunk size from the memory cap
+            size = sum(Path(f).stat().st_size for f in args.files if Path(f).is_file())
+            by_mem = chunk_rows_for_memory(memory_mb, total_input_bytes=size)
+            args.chunk_rows = min(args.chunk_rows or by_mem, by_mem)
+        return None
+    if args.rejects:
+        raise UsageError("--rejects applies to -o; an archive keeps its rejects in "
+                         "DIR/_rejects/")
+    mapping, units = dict(args.map), dict(args.unit)
+    if len(mapping) != len(args.map) or len(units) != len(args.unit):
+        raise UsageError("each FIELD may be given only once in --map / --unit")
+    header = {"auto": "auto", "yes": True, "no": False}[getattr(args, "header", "auto")]
+    partition = [k for k in args.partition.replace(" ", "").split(",") if k]
+    try:
+        summary = ingest_to_dataset(
+            args.files, dataset, chunk_rows=args.chunk_rows, memory_mb=memory_mb,
+            partition_by=partition, mapping=mapping, units=units, delimiter=args.delimiter,
+            header=header, slot_minutes=args.slot_minutes, region=args.region)
+    except ValueError as exc:
+        if isinstance(exc, (InputError, UsageError)):
+            raise
+        raise UsageError(f"--partition: {exc}") from None
+    print(summary.text())
+    print(f"appended {summary.accepted:,} spots to the archive {dataset} "
+          f"({summary.rejected:,} rejects kept in {dataset}/_rejects/)")
+    return EXIT_OK
+
+
+def _add_archive(sub):
+    p = sub.add_parser(
+        "archive", help="work with a partitioned spot archive (coverage, compare, info)",
+        description="Analyse a partitioned Parquet archive written by 'spotkit ingest "
+        "--dataset DIR', partition by partition, locally or on a Dask cluster.")
+    asub = p.add_subparsers(dest="archive_command", metavar="ACTION", parser_class=_Parser)
+
+    def common(q):
+        q.add_argument("dataset", metavar="DIR", help="archive directory")
+        q.add_argument("--band", action="append", default=None, metavar="BAND",
+                       help="only this band (repeatable or comma-separated)")
+        q.add_argument("--start", metavar="TIME", help="first slot (UTC, inclusive)")
+        q.add_argument("--end", metavar="TIME", help="end of the period (UTC, exclusive)")
+        q.add_argument("--scheduler", default=None, metavar="ADDRESS",
+                       help="Dask scheduler: 'local' (a local cluster), 'threads', "
+                       "'processes', 'sync' or the address of a running scheduler "
+                       "(tcp://host:8786); default: threads")
+
+    info = asub.add_parser("info", help="what the archive holds (manifest)")
+    info.add_argument("dataset", metavar="DIR")
+    cov = asub.add_parser("coverage", help="spots, stations and SNR per W by group")
+    common(cov)
+    cov.add_argument("--by", default="band,square", metavar="KEYS",
+                     help="group keys from band, square, field, hour, tx_call, rx_call, day "
+                     "(default band,square)")
+    cov.add_argument("--side", choices=["rx", "tx"], default="rx",
+                     help="rx: where the transmitters were heard (receivers); tx: what the "
+                     "receivers heard (transmitters)")
+    cov.add_argument("-o", "--output", metavar="OUT.csv", help="write the table as CSV")
+    cmp = asub.add_parser("compare", help="compare two antennas over the archive")
+    common(cmp)
+    cmp.add_argument("--design", required=True,
+                     choices=["simultaneous", "alternating", "receive", "before-after"])
+    cmp.add_argument("--a", required=True, metavar="CALL")
+    cmp.add_argument("--b", metavar="CALL")
+    cmp.add_argument("--schedule", metavar="even-odd|odd-even|every-N|FILE")
+    cmp.add_argument("--change-at", metavar="TIME")
+    cmp.add_argument("--by", default="", metavar="KEY,KEY")
+    cmp.add_argument("--window", type=int, default=1, metavar="SLOTS")
+    cmp.add_argument("--boot", type=int, default=1000)
+    cmp.add_argument("--seed", type=int, default=0)
+    cmp.add_argument("--min-pairs", type=int, default=30)
+    cmp.add_argument("--confidence", type=float, default=0.95)
+    cmp.add_argument("--json", metavar="OUT.json")
+    cmp.add_argument("--csv", metavar="OUT.csv")
+    p.set_defaults(func=_cmd_archive)
+
+
+def _archive_bands(args):
+    if not args.band:
+        return None
+    return [b.strip() for item in args.band for b in item.split(",") if b.strip()]
+
+
+def _cmd_archive(args) -> int:
+    from . import distributed, store
+
+    action = getattr(args, "archive_command", None)
+    if action is None:
+        raise UsageError("spotkit archive: choose an action: info, coverage or compare")
+    if action == "info":
+        man = store.dataset_manifest(args.dataset)
+        if not man["batches"]:
+            raise InputError(f"{args.dataset}: not a spotkit archive (no manifest)")
+        rows = sum(int(b.get("rows") or 0) for b in man["batches"])
+        files = sum(len(b.get("files", [])) for b in man["batches"])
+        print(f"archive {args.dataset}: partitioned by {', '.join(man['partition_by'])}; "
+              f"{len(man['batches'])} batch(es), {rows:,} spots in {files:,} files")
+        for b in man["batches"]:
+            print(f"  {b.get('written_utc')}  {b.get('rows', 0):>12,} spots  "
+                  f"{b.get('rejected') or 0:>9,} rejected  {b.get('source')}")
+        return EXIT_OK
+    selection = dict(bands=_archive_bands(args), start=args.start, end=args.end)
+    if action == "coverage":
+        by = [k for k in args.by.replace(" ", "").split(",") if k]
+        try:
+            table = distributed.coverage_dask(args.dataset, by, side=args.side,
+                                              scheduler=args.scheduler, **selection)
+        except ValueError as exc:
+            if isinstance(exc, (InputError, UsageError)):
+                raise
+            raise UsageError(f"--by/--side: {exc}") from None
+        if args.output:
+            table.to_csv(args.output, index=False)
+            print(f"wrote {len(table):,} rows to {args.output}")
+        else:
+            print(table.to_string(index=False))
+        return EXIT_OK
+    by = [k for k in args.by.replace(" ", "").split(",") if k]
+    try:
+        from .pairing import parse_by
+        parse_by(by)
+    except ValueError as exc:
+        if isinstance(exc, UsageError):
+            raise
+        raise UsageError(f"--by: {exc}") from None
+    result = distributed.compare_dask(
+        args.dataset, args.design, args.a, args.b, by=by, schedule=args.schedule,
+        change_at=args.change_at, window_slots=args.window, n_boot=args.boot, seed=args.seed,
+        min_pairs=args.min_pairs, confidence=args.confidence, scheduler=args.scheduler,
+        **selection)
+    print(result)
+    if args.json:
+        result.to_json(args.json)
+        print(f"wrote {args.json}")
+    if args.csv:
+        result.to_frame().to_csv(args.csv, index=False)
+        print(f"wrote {args.csv}")
+    return EXIT_OK
+
+
 # --- main --------------------------------------------------------------------------------
 def build_parser() -> argparse.ArgumentParser:
     parser = _Parser(
@@ -722,7 +888,7 @@ def build_parser() -> argparse.ArgumentParser:
     parser.add_argument("--version", action="version", version=f"spotkit {__version__}")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
     for add in (_add_ingest, _add_simulate, _add_compare, _add_map, _add_plot, _add_plan,
-                _add_report, _add_demo):
+                _add_report, _add_demo, _add_archive):
         add(sub)
     return parser
 

@@ -18,19 +18,21 @@ no second implementation of the maths, so the two paths give the same answers:
   merging, not approximations. The histogram is small because reported SNR is whole dB and
   power sits on a 0/3/7 dBm ladder (common practice).
 * **comparison** (:func:`compare_dask`): per partition ``pairing.pair_spots`` then
-  ``compare.summarise_pairs`` (the compressed pair table of group x cluster x kind x value
+  ``pairing.summarise_pairs`` (the compressed pair table of group x cluster x kind x value
   counts), merged by summing counts, then ``compare.estimate_groups`` once on the merged
   table.
 
-Known edge cases of partitioning by band and UTC day of the slot (the archive's layout):
-every spot of one slot lands in one partition, so simultaneous-transmit and receive designs
-pair exactly as in pandas. In the **alternating** design a pair joins an A slot with a
-neighbouring B slot; the pair whose two slots straddle 00:00 UTC falls in two partitions and
-is lost (at most one window per receiver and band per day: with 2-minute slots and a window
-of one slot, about 1/720 of the pairs). Statistics that the pairing takes over the whole
-table (each receiver's decode threshold, an antenna's median power) are computed per
-partition unless they are passed in; :func:`compare_dask` computes them over all partitions
-first when the pairing function accepts them.
+Partitions and the pairing. The archive is partitioned by band and UTC day of the slot, so
+every spot of one slot lands in one partition: simultaneous-transmit and receive pairs
+(same slot) never straddle partitions. The **alternating** design pairs an A slot with a
+neighbouring B slot and checks the receiver heard the call in the slots around the pair (on
+any band), so a pair at 00:00 UTC or one whose evidence sits on another band would be lost
+if partitions were cut by band and day: :func:`compare_dask` therefore reads the reports of
+the call under test (a small part of the archive) as one partition. The **before/after**
+design needs both periods and the control stations: one partition per band. The one
+statistic the pairing takes over the whole table - each receiver's decode threshold, its
+lowest reported SNR - is computed over all partitions first, and the censoring limits of
+each partition's pairs are moved from the partition's thresholds to the global ones.
 
 The Dask path runs on any scheduler: the default threads, a local cluster it starts itself
 (``scheduler="local"``), or a running cluster (``scheduler="tcp://host:8786"`` or a
@@ -452,18 +454,22 @@ class _ArchiveReader:
 
     def __init__(self, root, columns, selection):
         self.root, self.columns, self.selection = str(root), columns, selection
+        self.partition_by = store.dataset_manifest(root).get("partition_by",
+                                                             list(store.PARTITION_KEYS))
 
     def __call__(self, file):
-        return store.read_archive_file(self.root, file, columns=self.columns, **self.selection)
+        return store.read_archive_file(self.root, file, columns=self.columns,
+                                       partition_by=self.partition_by, **self.selection)
 
 
 def read_archive_dask(root, *, columns: Sequence[str] | None = None, bands=None, start=None,
                       end=None, tx_calls=None, rx_calls=None, locator_prefix=None,
-                      per_band: bool = False):
+                      group: Literal["file", "band", "all"] = "file"):
     """A partitioned archive as a :class:`dask.dataframe.DataFrame`, one partition per file.
 
-    With ``per_band=True`` (archives partitioned band first) all files of one band form one
-    partition: for analyses that need a band's whole period at once.
+    ``group="band"`` (archives partitioned band first) makes all files of one band one
+    partition, ``group="all"`` everything one partition: for analyses that need a band's
+    (or the selection's) whole period at once.
 
     Partitions whose band/day directory cannot match the selection are not opened; inside a
     file the selection is pushed down to Parquet (see :func:`spotkit.store.read_dataset`).
@@ -480,18 +486,21 @@ def read_archive_dask(root, *, columns: Sequence[str] | None = None, bands=None,
     files = store.archive_files(root, bands=bands, start=start, end=end)
     if not files:
         raise InputError(f"{root}: no spots in the archive match the selection")
-    if per_band:
+    _check_choice(group, ("file", "band", "all"), "partition grouping")
+    if group == "band":
         groups: dict[str, list[str]] = {}
         for f in files:
             groups.setdefault(f.split("/", 1)[0], []).append(f)
         files = list(groups.values())
+    elif group == "all":
+        files = [files]
     reader = _ArchiveReader(root, list(columns) if columns is not None else None, selection)
     meta = reader(files[0]).iloc[:0]
     return dd.from_map(reader, files, meta=meta, enforce_metadata=False,
                        label="read-spot-archive")
 
 
-def _partitions(source, columns, selection, per_band=False):
+def _partitions(source, columns, selection, group="file"):
     """Delayed pandas partitions of an archive path or a Dask DataFrame."""
     import dask.dataframe as dd
 
@@ -501,7 +510,7 @@ def _partitions(source, columns, selection, per_band=False):
                              "filter the Dask DataFrame yourself")
         ddf = source if columns is None else source[list(columns)]
     elif isinstance(source, (str, Path)):
-        ddf = read_archive_dask(source, columns=columns, per_band=per_band, **selection)
+        ddf = read_archive_dask(source, columns=columns, group=group, **selection)
     else:
         raise UsageError(f"expected an archive directory or a Dask DataFrame, got "
                          f"{type(source).__name__}")
@@ -780,13 +789,15 @@ def compare_dask(source, design: str, a: str, b: str | None = None, *, by=(), sc
     of :func:`spotkit.compare.compare_antennas` plus ``scheduler``, ``split_every`` and a
     selection pushed down to Parquet (``bands``, ``start``, ``end`` [UTC]).
 
-    For the simultaneous and receive designs the result equals
-    :func:`~spotkit.compare.compare_antennas` on the whole table (same seed, same
-    bootstrap). For the alternating design, pairs whose two slots straddle 00:00 UTC are
-    lost (see the module docstring); ``set_aside`` counts only what the partitions that
-    hold the calls set aside. The before/after design compares two periods, so an archive
-    is read one partition per band (all days of a band in memory at once); a Dask
-    DataFrame given as ``source`` must hold both periods in each partition.
+    From an archive the result equals :func:`~spotkit.compare.compare_antennas` on the
+    whole table (same seed, same bootstrap) for every design: the second pass reads only
+    the reports of the calls under test (pushed down to Parquet), one partition per file for
+    the simultaneous and receive designs; the alternating design's reports form a single
+    partition (its pairing looks at neighbouring slots on every band) and the before/after
+    design reads one partition per band (it needs the control stations and both periods).
+    A Dask DataFrame given as ``source`` is used partition by partition as it is: then
+    alternating pairs that straddle a partition edge are lost, and each partition must hold
+    both periods of a before/after run.
 
     Returns
     -------
@@ -805,13 +816,27 @@ def compare_dask(source, design: str, a: str, b: str | None = None, *, by=(), sc
         layer_height_km=layer_height_km)
     selection = dict(bands=bands, start=start, end=end, tx_calls=None, rx_calls=None,
                      locator_prefix=None)
-    # before/after needs both periods in one partition: one partition per band
-    parts = _partitions(source, None, selection, per_band=design == "before-after")
     col, need = _calls_needed(design, a, b)
+    archive = isinstance(source, (str, Path))
+    # pass 1 (thresholds, calls present) needs two columns of every spot
+    parts1 = _partitions(source, [C.RX_CALL, C.TX_CALL, C.SNR] if archive else None,
+                         selection)
+    # pass 2: simultaneous / receive / alternating use only the reports of the calls under
+    # test (filter pushed down to Parquet); alternating looks at neighbouring slots on every
+    # band, so its reports form one partition; before/after needs the other stations
+    # (controls) and both periods: one partition per band
+    if design == "before-after":
+        parts2 = _partitions(source, None, selection, group="band")
+    elif archive:
+        sel2 = dict(selection, **{"tx_calls" if col == C.TX_CALL else "rx_calls": need})
+        parts2 = _partitions(source, None, sel2,
+                             group="all" if design == "alternating" else "file")
+    else:
+        parts2 = _partitions(source, None, selection)
     rec_d = dask.delayed(receiver_partials, pure=True)
     calls_d = dask.delayed(_distinct_calls, pure=True)
-    rec_total = _tree_reduce([rec_d(p) for p in parts], combine_receivers, split_every)
-    calls_total = _tree_reduce([calls_d(p, col) for p in parts], _union, split_every)
+    rec_total = _tree_reduce([rec_d(p) for p in parts1], combine_receivers, split_every)
+    calls_total = _tree_reduce([calls_d(p, col) for p in parts1], _union, split_every)
     with dask_scheduler(scheduler) as kw:
         rec, calls = dask.compute(rec_total, calls_total, **kw)
         missing = [c for c in need if c not in calls]
@@ -825,7 +850,7 @@ def compare_dask(source, design: str, a: str, b: str | None = None, *, by=(), sc
         partials = [cmp_d(p, design, a, b, by=keys, thresholds=thr, schedule=schedule,
                           change_at=change_at, window_slots=window_slots,
                           min_receiver_reports=min_receiver_reports,
-                          group_options=group_options) for p in parts]
+                          group_options=group_options) for p in parts2]
         (merged,) = dask.compute(_tree_reduce(partials, combine_compare, split_every), **kw)
     options = dict(group_options, window_slots=int(window_slots),
                    schedule=schedule if isinstance(schedule, (str, type(None))) else "table",

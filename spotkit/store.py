@@ -18,11 +18,18 @@ statistics exclude the query. Tables come back with the glossary dtypes
 (:func:`spotkit.columns.apply_dtypes`): tz-aware UTC times, categoricals for callsigns,
 locators and bands.
 
+CSV exports go in with :func:`ingest_to_dataset`: the files are read chunk by chunk by
+:func:`spotkit.ingest.iter_spot_chunks`, each chunk is split by partition and written at
+once, so memory is bounded by the chunk size (``memory_mb`` picks it, see
+:func:`chunk_rows_for_memory`) plus the reader's duplicate-key set (8 bytes per distinct
+report, briefly about three times that while two sorted runs of it merge).
+
 Known limits: partitioning by slot day keeps every spot of one slot in one partition, but a
 run of slots that crosses midnight UTC is split over two partitions (see
 :mod:`spotkit.distributed` for what that means for alternating designs). Duplicate reports
 *across* two different exports that overlap in time are not removed on append; use
-:func:`read_dataset` with ``dedupe=True`` to drop them on read.
+:func:`read_dataset` with ``dedupe=True`` to drop them on read. One writer at a time: two
+processes appending to the same archive at once can lose a manifest entry.
 """
 from __future__ import annotations
 
@@ -698,7 +705,8 @@ def archive_files(root, *, bands=None, start=None, end=None, tx_calls=None, rx_c
 
 def read_archive_file(root, file, *, columns: Sequence[str] | None = None, bands=None,
                       start=None, end=None, tx_calls=None, rx_calls=None,
-                      locator_prefix=None) -> pd.DataFrame:
+                      locator_prefix=None, partition_by: Sequence[str] | None = None
+                      ) -> pd.DataFrame:
     """Read one data file of an archive (with its partition values) and filter its rows.
 
     Parameters
@@ -710,6 +718,8 @@ def read_archive_file(root, file, *, columns: Sequence[str] | None = None, bands
         are read as one table.
     columns, bands, start, end, tx_calls, rx_calls, locator_prefix
         As :func:`read_dataset`.
+    partition_by : sequence of str, optional
+        The archive's partition keys (read from the manifest when not given).
 
     Returns
     -------
@@ -718,7 +728,8 @@ def read_archive_file(root, file, *, columns: Sequence[str] | None = None, bands
     """
     root = Path(root)
     files = [file] if isinstance(file, (str, os.PathLike)) else list(file)
-    partition_by = dataset_manifest(root).get("partition_by", list(PARTITION_KEYS))
+    if partition_by is None:
+        partition_by = dataset_manifest(root).get("partition_by", list(PARTITION_KEYS))
     dataset = ds.dataset([str(root / f) for f in files], format="parquet",
                          partitioning=_partitioning(partition_by), partition_base_dir=str(root))
     expr = dataset_filter(bands=bands, start=start, end=end, tx_calls=tx_calls,

@@ -278,3 +278,24 @@ def test_chunk_rows_for_memory():
         store.chunk_rows_for_memory(store.BASE_MEMORY_MB)
     with pytest.raises(UsageError, match="positive"):
         store.chunk_rows_for_memory(-5)
+
+
+# --- command line -----------------------------------------------------------------------------
+def test_cli_ingest_dataset_append_and_refuse(tmp_path, capsys):
+    from spotkit.cli import main
+
+    a = spots_csv(make_spots(120, seed=8), tmp_path / "a.csv")
+    root = tmp_path / "arch"
+    assert main(["ingest", str(a), "--dataset", str(root), "--chunk-rows", "40"]) == 0
+    assert "appended 120 spots" in capsys.readouterr().out
+    assert len(store.read_dataset(root)) == 120
+    assert main(["ingest", str(a), "--dataset", str(root)]) == 1  # same file again
+    assert "already in the archive" in capsys.readouterr().err
+    assert main(["ingest", str(a), "--dataset", str(root), "-o", str(tmp_path / "x.parquet")]) == 2
+    assert main(["ingest", str(a)]) == 2  # neither -o nor --dataset
+    assert main(["ingest", str(a), "--dataset", str(tmp_path / "b"), "--partition", "hour"]) == 2
+    assert main(["archive", "info", str(root)]) == 0
+    assert "120 spots" in capsys.readouterr().out
+    out = tmp_path / "one.parquet"  # -o with a memory cap: one file, chunked
+    assert main(["ingest", str(a), "-o", str(out), "--memory-mb", "500"]) == 0
+    assert len(store.read_spots_parquet(out)) == 120
