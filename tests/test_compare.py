@@ -296,3 +296,23 @@ def test_by_receiver_for_maps(small_sim):
     # one cluster per group: the interval comes from the pairs, and the note says so
     assert est[C.CI_LOW].notna().all()
     assert est[C.NOTE].str.contains("as if independent").all()
+
+
+def test_estimate_groups_without_censoring_is_least_squares():
+    """With no one-sided pairs the Tobit reduces to least squares (Tobin 1958): the mean
+    and the ddof=0 SD of the differences (to 1e-9 dB); the paired tests match scipy."""
+    from scipy import stats as sps
+    rng = np.random.default_rng(7)
+    d = np.round(rng.normal(0.8, 2.0, 400))
+    cl = np.repeat([f"Q2R{i}" for i in range(20)], 20)
+    counts = (pd.DataFrame({C.CLUSTER: cl, C.KIND: "both", C.VALUE: d})
+              .groupby([C.CLUSTER, C.KIND, C.VALUE]).size().rename(C.COUNT).reset_index())
+    r = estimate_groups(counts, n_boot=200, seed=1).iloc[0]
+    assert r[C.B_MINUS_A] == pytest.approx(d.mean(), abs=1e-9)
+    assert r[C.SIGMA] == pytest.approx(d.std(), abs=1e-9)
+    assert r[C.CORRECTION] == 0.0 and r[C.ONLY_A] == 0 and np.isnan(r[C.P_MCNEMAR])
+    assert r[C.CI_LOW] < d.mean() < r[C.CI_HIGH]
+    # oracle: scipy.stats.wilcoxon (zeros dropped, normal approximation with tie
+    # correction and continuity correction), tolerance 1e-9
+    w = sps.wilcoxon(d, zero_method="wilcox", correction=True, method="approx")
+    assert r[C.P_WILCOXON] == pytest.approx(w.pvalue, rel=1e-9)
