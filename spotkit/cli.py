@@ -883,7 +883,18 @@ def _cmd_archive(args) -> int:
 def build_parser() -> argparse.ArgumentParser:
     parser = _Parser(
         prog="spotkit",
-        description="Compare antennas with numbers from weak-signal beacon spot reports.",
+        description="Compare antennas with numbers from weak-signal beacon spot reports: "
+        "how many dB antenna B beats antenna A, how sure that is, and where.",
+        formatter_class=argparse.RawDescriptionHelpFormatter,
+        epilog="""a typical session:
+  spotkit demo -o out                    the whole job on the bundled demo data
+  spotkit ingest export.csv -o spots.parquet --rejects rejects.csv
+  spotkit compare spots.parquet --design simultaneous --a CALL_A --b CALL_B --by band,distance
+  spotkit map spots.parquet --kind coverage -o coverage.png
+  spotkit report spots.parquet --design simultaneous --a CALL_A --b CALL_B -o report.html
+
+Each command has --help. Exit codes: 0 ok, 1 bad input (the message names the file, row
+and field), 2 usage.""",
     )
     parser.add_argument("--version", action="version", version=f"spotkit {__version__}")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
