@@ -9,7 +9,8 @@ Model (all invented; test-only):
   the air in the same slots (simultaneous design), or, with ``design="receive"``, two
   co-located receivers ``Q1HOA`` / ``Q1HOB`` hearing many transmitters;
 * far stations at uniformly random points of the sphere between latitudes -60 and 70 deg,
-  with 4- or 6-character locators, each with a decode threshold of -28 or -30 dB;
+  with 4- or 6-character locators, each with a decode threshold of -28 or -30 dB (the
+  two home receivers of the receive design: -28 dB);
 * each slot uses one band (cycling through ``bands``); a far station hears the slot's path
   open with probability ``p_open``;
 * per pair a common level (per W) drawn from a right-skewed distribution that puts many
@@ -111,7 +112,10 @@ def generate(*, n_far: int = 600, n_slots: int = 240, bands=("20m", "10m"),
     snr_a = level + rng.normal(0, fading_db, fi.size) + (power_a_dbm - 30)
     snr_b = level + delta + rng.normal(0, fading_db, fi.size) + (power_b_dbm - 30)
     ra, rb = np.round(snr_a), np.round(snr_b)
-    ha, hb = ra >= thr[fi], rb >= thr[fi]
+    # the deciding receiver's threshold: the far station's (simultaneous) or the home
+    # receivers' own, -28 dB for both (receive)
+    t_rx = thr[fi] if design == "simultaneous" else np.full(fi.size, -28.0)
+    ha, hb = ra >= t_rx, rb >= t_rx
     any_ = ha | hb
     pairs_truth = pd.DataFrame({C.BAND: band[any_], "_cell": cell[any_],
                                 "_delta": delta[any_]})
