@@ -390,7 +390,8 @@ class PilotParameters:
     pairs_per_hour : float
         Report rate [1/h].
     mean_db, sigma_db : float
-        Censored-normal fit of B-minus-A: mean and per-pair spread [dB].
+        B-minus-A as the comparison reports it (the censored-normal fit with its threshold
+        correction) and the fit's per-pair spread [dB].
     censored_fraction : float
         Fraction of one-sided pairs.
     censoring_factor : float
@@ -453,9 +454,9 @@ def pilot_parameters(spots: pd.DataFrame, design: str, a: str, b: str | None = N
     The pilot (e.g. a day of reports with the real set-up) is compared as the real run
     would be (:func:`spotkit.compare.compare_antennas`). From it:
 
-    * ``sigma_db``, ``mean_db``: the censored-normal (Tobit) fit to all pairs, so one-sided
-      pairs count, with its independent-pairs standard error ``se_iid`` (observed
-      information);
+    * ``sigma_db``: the censored-normal (Tobit) fit to all pairs, so one-sided pairs count,
+      with its independent-pairs standard error ``se_iid`` (observed information);
+      ``mean_db``: the comparison's headline B-minus-A;
     * the report rate: pairs per hour of the pilot's span (first to last slot of the band,
       plus one slot);
     * censoring, measured rather than modelled: ``censoring_factor = sigma^2 / (N se_iid^2)``;
@@ -510,6 +511,9 @@ def pilot_parameters(spots: pd.DataFrame, design: str, a: str, b: str | None = N
         span_spots = spots[(spots[C.BAND].astype(str) == band).to_numpy()]
         g = res.groups
         row = g[(g[C.BAND].astype(str) == band).to_numpy()].iloc[0].to_dict()
+    # the fit uses the pairs themselves; compare's extra threshold-edge rows only feed its
+    # correction of the estimate, which the headline below already carries
+    counts = counts[counts[C.KIND].astype(str).isin(C.KINDS).to_numpy()]
     kinds = counts[C.KIND].astype(str).map({"both": 0, "only_a": 1, "only_b": -1}).to_numpy()
     w = counts[C.COUNT].to_numpy(dtype=float)
     fit = censored_normal_mle(counts[C.VALUE].to_numpy(dtype=float), kinds, w)
@@ -529,7 +533,7 @@ def pilot_parameters(spots: pd.DataFrame, design: str, a: str, b: str | None = N
     icc = min(0.99, max(0.0, (deff - 1.0) / (m - 1.0))) if m > 1 else 0.0
     return PilotParameters(
         band=band, hours=float(hours), pairs=int(n), pairs_per_hour=n / float(hours),
-        mean_db=float(fit.mu), sigma_db=float(fit.sigma),
+        mean_db=float(row[C.B_MINUS_A]), sigma_db=float(fit.sigma),
         censored_fraction=float(w[kinds != 0].sum() / n), censoring_factor=float(r),
         design_effect=float(deff), icc=float(icc), clusters=float(clusters),
         receivers=int(per_cluster.size), se_db=float(se_boot))
