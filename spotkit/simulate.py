@@ -57,6 +57,7 @@ from typing import Literal
 import numpy as np
 import pandas as pd
 from scipy.signal import lfilter
+from tqdm.auto import tqdm
 
 from . import columns as C
 from .antenna import Antenna, constant_difference, isotropic_antenna, make_antenna
@@ -239,7 +240,8 @@ def simulate_spots(design: Design = "simultaneous", *, days: float = 3, seed: in
                    power_b_dbm: float = 37.0, tx_fraction: float | None = None,
                    control_tx_fraction: float = 0.3, threshold_db: float | None = None,
                    schedule="even-odd", change_at=None,
-                   propagation: Propagation | None = None) -> Simulation:
+                   propagation: Propagation | None = None,
+                   progress: bool = False) -> Simulation:
     """Simulate the spot reports of an antenna experiment with a known answer.
 
     Parameters
@@ -291,6 +293,8 @@ def simulate_spots(design: Design = "simultaneous", *, days: float = 3, seed: in
         Before-after design: moment of the change (UTC); default the middle day's 00:00.
     propagation : Propagation, optional
         Model parameters.
+    progress : bool
+        Show a progress bar (per band, over the simulated days).
 
     Returns
     -------
@@ -503,7 +507,8 @@ def simulate_spots(design: Design = "simultaneous", *, days: float = 3, seed: in
         st_slow = rng.standard_normal(n_t * n_r)
         st_open = rng.standard_normal(n_t * n_r)
         st_rx = rng.standard_normal(n_r)
-        for c0 in range(0, n_slots, per_day):
+        for c0 in tqdm(range(0, n_slots, per_day), desc=f"simulate {band}", unit="day",
+                       disable=not progress):
             c1 = min(c0 + per_day, n_slots)
             ns = c1 - c0
             slow, st_slow = _ar1(n_t * n_r, ns, rho_slow, rng, st_slow)
