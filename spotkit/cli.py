@@ -163,10 +163,11 @@ def _cmd_simulate(args) -> int:
         antenna_a = make_antenna(args.antenna_a or "isotropic", bands)
     sim = simulate_spots(
         args.design, days=args.days, seed=args.seed, start=args.start,
-        bands=bands, n_receivers=args.receivers, n_transmitters=args.transmitters, home_locator=args.home,
-        antenna_a=antenna_a, antenna_b=args.antenna_b, difference_db=diff,
-        power_a_dbm=args.power_a, power_b_dbm=args.power_b, tx_fraction=args.tx_fraction,
-        threshold_db=args.threshold, schedule=args.schedule, change_at=args.change_at)
+        bands=bands, n_receivers=args.receivers, n_transmitters=args.transmitters,
+        home_locator=args.home, antenna_a=antenna_a, antenna_b=args.antenna_b,
+        difference_db=diff, power_a_dbm=args.power_a, power_b_dbm=args.power_b,
+        tx_fraction=args.tx_fraction, threshold_db=args.threshold, schedule=args.schedule,
+        change_at=args.change_at, progress=sys.stderr.isatty())
     out = Path(args.output)
     mapping, units = write_foreign_csv(sim.spots, out, args.layout,
                                        duplicates=args.duplicates, corrupt=args.corrupt,
