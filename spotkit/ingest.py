@@ -793,17 +793,20 @@ def _csv_kwargs(layout: _Layout, text: bool = False) -> dict:
     if text:
         dtype = "str"
     else:
-        # text for all (numbers are converted later, keeping the raw text of bad cells);
-        # categoricals where values repeat (times, calls, locators)
+        # categoricals where values repeat (times, calls, locators); numbers parsed by the
+        # C parser (a column with a bad cell comes back as text and is converted later);
+        # other columns as text
         dtype = {n: "str" for n in names}
         for f, pos in layout.fields.items():
             for i in pos:
                 if f in _CAT_FIELDS:
                     dtype[names[i]] = "category"
+                else:
+                    dtype.pop(names[i])
     kw = dict(sep=layout.sep, header=None, names=names, skiprows=layout.header_lines,
               encoding=layout.encoding, compression=layout.compression, dtype=dtype,
               keep_default_na=False, na_values=[""], skip_blank_lines=False,
-              on_bad_lines="warn", index_col=False, decimal=layout.decimal)
+              on_bad_lines="warn", index_col=False, decimal=layout.decimal, low_memory=False)
     if layout.sep != r"\s+":
         kw["skipinitialspace"] = True
     return kw
@@ -935,6 +938,22 @@ def _parse_time(cols: list[pd.Series], unit: str) -> tuple[np.ndarray, np.ndarra
     return ns[inv], status
 
 
+def _fmt_number(x: float) -> str:
+    return np.format_float_positional(x, trim="-") if np.isfinite(x) else str(x)
+
+
+def _cell_text(s: pd.Series, decimal: str) -> np.ndarray:
+    """Cell text for the rejects table; numbers in one spelling whether the column was
+    read as numbers or as text (so the table does not depend on chunking)."""
+    if pd.api.types.is_numeric_dtype(s.dtype):
+        return np.array(["" if np.isnan(x) else _fmt_number(x) for x in s.to_numpy(float)],
+                        dtype=object)
+    text = s.astype("str").fillna("").to_numpy(dtype=object)
+    nums = _to_number(s, decimal).to_numpy()
+    return np.array([_fmt_number(x) if np.isfinite(x) else t for t, x in zip(text, nums)],
+                    dtype=object)
+
+
 class _Checker:
     """Collects the first failure of each row."""
 
@@ -960,14 +979,23 @@ def _clean_chunk(raw: pd.DataFrame, layout: _Layout, rows: np.ndarray, region: s
     n = len(raw)
     chk = _Checker(n)
     col = {f: [raw.iloc[:, i] for i in pos] for f, pos in layout.fields.items()}
-    chk.fail("row", raw.isna().all(axis=1).to_numpy(), "blank line", None)
+    maybe_blank = np.flatnonzero(col[C.TIME][0].isna().to_numpy()
+                                 & col[C.TX_CALL][0].isna().to_numpy())
+    blank = np.zeros(n, dtype=bool)
+    blank[maybe_blank] = raw.iloc[maybe_blank].isna().all(axis=1).to_numpy()
+    chk.fail("row", blank, "blank line", None)
 
     ns, status = _parse_time(col[C.TIME], layout.units["time"])
-    time_raw = col[C.TIME][0].astype("str") if len(col[C.TIME]) == 1 else (
-        col[C.TIME][0].astype("str").fillna("") + " " + col[C.TIME][1].astype("str").fillna(""))
-    reasons = np.array([None, "empty time", "unparseable time",
-                        "time out of range (before 1990 or from 2100)"], dtype=object)
-    chk.fail(C.TIME, status > 0, reasons[status], time_raw)
+
+    def time_text(idx):
+        parts = [c.iloc[idx].astype("str").fillna("").to_numpy(dtype=object)
+                 for c in col[C.TIME]]
+        return parts[0] if len(parts) == 1 else np.char.add(
+            np.char.add(parts[0].astype(str), " "), parts[1].astype(str)).astype(object)
+
+    for code, reason in ((1, "empty time"), (2, "unparseable time"),
+                         (3, "time out of range (before 1990 or from 2100)")):
+        chk.fail(C.TIME, status == code, reason, time_text)
 
     out = {}
     for f, fn, what in ((C.TX_CALL, _norm_calls, "call"),
@@ -975,19 +1003,20 @@ def _clean_chunk(raw: pd.DataFrame, layout: _Layout, rows: np.ndarray, region: s
                         (C.RX_CALL, _norm_calls, "call"),
                         (C.RX_LOCATOR, normalize_locator, "locator")):
         cats, codes, _ = _recode(col[f][0], fn)
-        reason = np.where(codes == -1, f"empty {what}", f"bad {what}")
-        chk.fail(f, codes < 0, reason, col[f][0])
+        chk.fail(f, codes == -1, f"empty {what}", col[f][0])
+        chk.fail(f, codes == -2, f"bad {what}", col[f][0])
         out[f] = (cats, codes)
 
     def number(f, label, lo, hi, unit_txt, convert=None):
         rawc = col[f][0]
         v = _to_number(rawc, layout.decimal).to_numpy()
-        empty = rawc.isna().to_numpy()
+        empty = rawc.isna().to_numpy()  # numeric columns: also cells reading "nan"
         if convert is not None:
             with np.errstate(divide="ignore", invalid="ignore"):
                 v = convert(v)
-        reason = np.where(empty, f"empty {label}", f"{label} not a number")
-        chk.fail(f, ~np.isfinite(v) & (empty | np.isnan(v)), reason, rawc)
+        nan = np.isnan(v)
+        chk.fail(f, nan & empty, f"empty {label}", rawc)
+        chk.fail(f, nan & ~empty, f"{label} not a number", rawc)
         if lo is not None:
             chk.fail(f, np.isfinite(v) & ((v < lo) | (v > hi)) | np.isinf(v),
                      f"{label} outside {lo:+g}..{hi:+g} {unit_txt}".replace("+0..", "0.."), rawc)
@@ -1027,14 +1056,20 @@ def _clean_chunk(raw: pd.DataFrame, layout: _Layout, rows: np.ndarray, region: s
     spots[C.POWER] = power[keep]
     spots[C.DRIFT] = drift[keep]
     spots[C.SOURCE_ROW] = rows[keep]
-    spots = pd.DataFrame(spots)
 
     idx = np.flatnonzero(bad)
     values = np.full(idx.size, "", dtype=object)
     for name, rawc in chk.raw.items():
         sel = chk.field[idx] == name
-        if sel.any():
-            values[sel] = rawc.iloc[idx[sel]].astype("str").fillna("").to_numpy(dtype=object)
+        if not sel.any():
+            continue
+        if callable(rawc):
+            values[sel] = rawc(idx[sel])
+            continue
+        cells = rawc.iloc[idx[sel]]
+        values[sel] = _cell_text(cells, layout.decimal) if name in (
+            C.FREQ, C.SNR, C.POWER, C.DRIFT) else cells.astype("str").fillna("").to_numpy(
+            dtype=object)
     rejects = pd.DataFrame({
         C.SOURCE_FILE: layout.name,
         C.SOURCE_ROW: rows[idx].astype("int64"),
@@ -1070,10 +1105,17 @@ class _SeenKeys:
             self.runs.append(np.sort(np.concatenate([a, b])))
 
 
-def _duplicates(spots: pd.DataFrame, seen: _SeenKeys) -> np.ndarray:
-    if spots.empty:
+def _duplicates(spots: dict, seen: _SeenKeys) -> np.ndarray:
+    """Which rows repeat a report seen before (in this chunk or an earlier one)."""
+    n = len(spots[C.SOURCE_ROW])
+    if not n:
         return np.zeros(0, dtype=bool)
-    h = pd.util.hash_pandas_object(spots[C.REPORT_KEY], index=False).to_numpy()
+    h = np.zeros(n, dtype=np.uint64)
+    with np.errstate(over="ignore"):
+        for name in C.REPORT_KEY:
+            v = spots[name]
+            v = v.array if isinstance(v, pd.Index) else v
+            h = h * np.uint64(0x100000001B3) ^ pd.util.hash_array(v)
     dup = pd.Series(h).duplicated().to_numpy() | seen.contains(h)
     seen.add(h[~dup])
     return dup
@@ -1152,15 +1194,16 @@ class _PathCache:
         return [v[pair_codes] for v in vals]
 
 
-def _enrich(spots: pd.DataFrame, name: str, cache: _PathCache) -> pd.DataFrame:
-    """Add C.DERIVED columns and the source file; return the canonical column order."""
-    cols = {c: spots[c] for c in spots.columns}
-    vals = cache.lookup(spots[C.TX_LOCATOR], spots[C.RX_LOCATOR]) if len(spots) else \
-        [np.zeros(0)] * len(C.DERIVED)
+def _enrich(spots: dict, keep: np.ndarray, name: str, cache: _PathCache) -> pd.DataFrame:
+    """Keep rows ``keep``, add C.DERIVED columns and the source file; build the table."""
+    cols = {c: v[keep] for c, v in spots.items()}
+    n = len(cols[C.SOURCE_ROW])
+    vals = cache.lookup(pd.Series(cols[C.TX_LOCATOR]), pd.Series(cols[C.RX_LOCATOR])) if n \
+        else [np.zeros(0)] * len(C.DERIVED)
     for j, c in enumerate(C.DERIVED):
         cols[c] = vals[j]
     cols[C.SOURCE_FILE] = pd.Categorical.from_codes(
-        np.zeros(len(spots), dtype=np.int8), categories=pd.Index([name], dtype="str"))
+        np.zeros(n, dtype=np.int8), categories=pd.Index([name], dtype="str"))
     return pd.DataFrame({c: cols[c] for c in C.CANONICAL})
 
 
@@ -1212,8 +1255,7 @@ def iter_spot_chunks(paths, *, mapping=None, units=None, delimiter: Delimiter = 
                         C.REJECT_REASON: "wrong number of fields"})
                     rejects = pd.concat([rejects, extra], ignore_index=True)
                 dup = _duplicates(spots, seen)
-                spots = spots[~dup].reset_index(drop=True)
-                spots = _enrich(spots, layout.name, cache)
+                spots = _enrich(spots, ~dup, layout.name, cache)
                 _count(summary, len(raw) + len(done), spots, rejects, int(dup.sum()))
                 if bar is not None:
                     bar.update(len(raw) + len(done))
