@@ -353,8 +353,11 @@ def _sniff_layout(path: Path, delimiter: str, header) -> _Layout:
     sep = _sniff_sep(lines, delimiter)
     first = _split(lines[0], sep)
     if header == "auto":
+        # no numbers in the first line, and numbers below it or a known heading word in it
         has_header = not any(_is_number(t) for t in first) and (
-            len(lines) == 1 or sum(_is_number(t) for t in _split(lines[1], sep)) >= 2)
+            len(lines) == 1
+            or any(sum(_is_number(t) for t in _split(ln, sep)) >= 2 for ln in lines[1:50])
+            or any(_heading_kind(t)[0] is not None for t in first))
     elif isinstance(header, bool):
         has_header = header
     else:
