@@ -33,6 +33,17 @@ def _key_value(text: str) -> tuple[str, str]:
     return k.strip(), v.strip()
 
 
+def _add_progress_option(p):
+    p.add_argument("--progress", action=argparse.BooleanOptionalAction, default=None,
+                   help="show progress bars on stderr (default: when it is a terminal)")
+
+
+def _progress(args) -> bool:
+    """Whether to show progress bars: as asked, else when stderr is a terminal."""
+    asked = getattr(args, "progress", None)
+    return sys.stderr.isatty() if asked is None else bool(asked)
+
+
 # --- ingest ------------------------------------------------------------------------------
 def _add_ingest(sub):
     p = sub.add_parser(
@@ -133,6 +144,7 @@ def _add_simulate(sub):
     p.add_argument("--duplicates", type=float, default=0.0,
                    help="fraction of reports uploaded twice")
     p.add_argument("--corrupt", type=int, default=0, help="number of corrupted rows")
+    _add_progress_option(p)
     p.set_defaults(func=_cmd_simulate)
 
 
@@ -167,7 +179,7 @@ def _cmd_simulate(args) -> int:
         home_locator=args.home, antenna_a=antenna_a, antenna_b=args.antenna_b,
         difference_db=diff, power_a_dbm=args.power_a, power_b_dbm=args.power_b,
         tx_fraction=args.tx_fraction, threshold_db=args.threshold, schedule=args.schedule,
-        change_at=args.change_at, progress=sys.stderr.isatty())
+        change_at=args.change_at, progress=_progress(args))
     out = Path(args.output)
     mapping, units = write_foreign_csv(sim.spots, out, args.layout,
                                        duplicates=args.duplicates, corrupt=args.corrupt,
@@ -248,7 +260,7 @@ def _add_compare(sub):
                    help="confidence level of the intervals (default 0.95)")
     p.add_argument("--json", metavar="OUT.json", help="write the result as JSON")
     p.add_argument("--csv", metavar="OUT.csv", help="write the result table as CSV")
-    p.add_argument("--progress", action="store_true", help="show a progress bar")
+    _add_progress_option(p)
     p.set_defaults(func=_cmd_compare)
 
 
@@ -280,7 +292,7 @@ def _cmd_compare(args) -> int:
         by=by, bearing_width_deg=args.bearing_width, hour=args.hour_basis,
         layer_height_km=args.layer_height, window_slots=args.window, n_boot=args.boot,
         seed=args.seed, min_pairs=args.min_pairs, confidence=args.confidence,
-        progress=args.progress, threshold_correction=args.threshold_correction,
+        progress=_progress(args), threshold_correction=args.threshold_correction,
         require_open_path=not args.no_open_path_check, **kw)
     print(result)
     if args.json:
@@ -382,6 +394,7 @@ def _add_map(sub):
                    help="reach: A and B side by side (default) or overlaid")
     p.add_argument("--resolution", choices=["110m", "50m", "10m"], default="110m",
                    help="land layer: 110m is shipped; 50m/10m are downloaded by cartopy once")
+    _add_progress_option(p)
     p.set_defaults(func=_cmd_map)
 
 
@@ -391,7 +404,8 @@ def _cmd_map(args) -> int:
 
     spots = load_spots(args.spots)
     bands = _figure_bands(args)
-    common = dict(home=args.home, projection=args.projection, resolution=args.resolution)
+    common = dict(home=args.home, projection=args.projection, resolution=args.resolution,
+                  progress=_progress(args))
     if args.kind == "coverage":
         fig = maps.coverage_map(spots, bands=bands, paths=args.paths, **common)
     elif args.kind == "difference":
@@ -673,7 +687,7 @@ def _add_report(sub):
     p.add_argument("--seed", type=int, default=0, help="bootstrap seed (default 0)")
     p.add_argument("--title", help="report title")
     p.add_argument("-o", "--output", required=True, metavar="OUT.html")
-    p.add_argument("--no-progress", action="store_true", help="hide the progress bars")
+    _add_progress_option(p)
     p.set_defaults(func=_cmd_report)
 
 
@@ -694,7 +708,7 @@ def _cmd_report(args) -> int:
 
     by = _by_keys(args.by)
     spots = load_spots(args.spots)
-    progress = not args.no_progress
+    progress = _progress(args)
     results, map_result = standard_comparisons(
         spots, args.design, args.a, args.b, by=by or None, schedule=args.schedule,
         change_at=args.change_at, n_boot=args.boot, seed=args.seed, progress=progress)
@@ -716,7 +730,7 @@ def _add_demo(sub):
     p.add_argument("--data", metavar="DIR", help="demo data folder (default: the bundled "
                    "demo_data/)")
     p.add_argument("--boot", type=int, default=1000, help="bootstrap resamples (default 1000)")
-    p.add_argument("--no-progress", action="store_true", help="hide the progress bars")
+    _add_progress_option(p)
     p.set_defaults(func=_cmd_demo)
 
 
@@ -724,7 +738,7 @@ def _cmd_demo(args) -> int:
     from .demo import run_demo
 
     run_demo(args.output, data_dir=args.data, n_boot=args.boot,
-             progress=not args.no_progress, echo=print)
+             progress=_progress(args), echo=print)
     return EXIT_OK
 
 

@@ -291,11 +291,18 @@ def _panel_grid(n: int, ncols: int | None):
     return nrows, ncols
 
 
+def _panels(items, progress: bool):
+    """Iterate over the panels to draw, with a progress bar when asked."""
+    from tqdm.auto import tqdm
+
+    return tqdm(items, desc="drawing", unit="panel", disable=not progress)
+
+
 def coverage_map(spots: pd.DataFrame, *, bands=None, home=None, side: Side = "auto",
                  projection: Projection = "azimuthal", paths: bool = False,
                  extent_km: float | None = None, ring_step_km: float | None = None,
                  resolution: Resolution = "110m", cmap: str = "viridis",
-                 ncols: int | None = None, fig=None):
+                 ncols: int | None = None, fig=None, progress: bool = False):
     """Coverage by band: one panel per band, far stations coloured by SNR per watt.
 
     Each far station (receiver, or transmitter on the receive side) is one marker per band at
@@ -321,6 +328,8 @@ def coverage_map(spots: pd.DataFrame, *, bands=None, home=None, side: Side = "au
         A perceptually uniform matplotlib colour map.
     ncols : int, optional
     fig : matplotlib.figure.Figure, optional
+    progress : bool
+        Show a progress bar over the panels.
 
     Returns
     -------
@@ -350,7 +359,7 @@ def coverage_map(spots: pd.DataFrame, *, bands=None, home=None, side: Side = "au
     side_name = resolve_side(spots, side)
     who = "receivers" if side_name == "transmit" else "transmitters"
     sc = None
-    for i, band in enumerate(chosen):
+    for i, band in enumerate(_panels(chosen, progress)):
         ax = fig.add_subplot(nrows, ncols, i + 1, projection=crs)
         base_map(ax, projection=projection, home=home, extent_km=extent_km,
                  ring_step_km=ring_step_km, resolution=resolution)
@@ -388,7 +397,7 @@ def difference_map(result, *, level: Level = "auto", band=None, pairs=None, home
                    projection: Projection = "azimuthal", extent_km: float | None = None,
                    ring_step_km: float | None = None, vmax: float | None = None,
                    cmap: str = "RdBu", resolution: Resolution = "110m",
-                   ncols: int | None = None, fig=None):
+                   ncols: int | None = None, fig=None, progress: bool = False):
     """Map of the B-minus-A estimate per receiver or per locator square / field.
 
     Colours run on a diverging scale centred on 0 dB with symmetric limits (blue: B better,
@@ -422,6 +431,8 @@ def difference_map(result, *, level: Level = "auto", band=None, pairs=None, home
     resolution : {"110m", "50m", "10m"}
     ncols : int, optional
     fig : matplotlib.figure.Figure, optional
+    progress : bool
+        Show a progress bar over the panels.
 
     Returns
     -------
@@ -461,7 +472,7 @@ def difference_map(result, *, level: Level = "auto", band=None, pairs=None, home
     if fig is None:
         w, h = (5.2, 5.4) if projection == "azimuthal" else (7.5, 4.2)
         fig = plt.figure(figsize=(w * ncols, h * nrows + 0.8))
-    for i, bnd in enumerate(chosen):
+    for i, bnd in enumerate(_panels(chosen, progress)):
         ax = fig.add_subplot(nrows, ncols, i + 1, projection=crs)
         base_map(ax, projection=projection, home=home, extent_km=extent_km,
                  ring_step_km=ring_step_km, resolution=resolution)
@@ -537,7 +548,8 @@ _REACH_STYLE = {"both": ("heard by both", None, "o"),
 
 def reach_map(pairs: pd.DataFrame, *, band=None, layout: ReachLayout = "side", home=None,
               projection: Projection = "azimuthal", extent_km: float | None = None,
-              ring_step_km: float | None = None, resolution: Resolution = "110m", fig=None):
+              ring_step_km: float | None = None, resolution: Resolution = "110m", fig=None,
+              progress: bool = False):
     """What A and what B reached: far stations heard by each antenna, with distance rings.
 
     ``layout="side"``: two panels, A's far stations on the left and B's on the right, each
@@ -552,7 +564,7 @@ def reach_map(pairs: pd.DataFrame, *, band=None, layout: ReachLayout = "side", h
     band : str or list of str, optional
         Restrict to these bands (a station counts once per band).
     layout : {"side", "overlay"}
-    home, projection, extent_km, ring_step_km, resolution, fig
+    home, projection, extent_km, ring_step_km, resolution, fig, progress
         As in :func:`coverage_map`.
 
     Returns
@@ -581,7 +593,7 @@ def reach_map(pairs: pd.DataFrame, *, band=None, layout: ReachLayout = "side", h
         w, h = (5.2, 5.8) if projection == "azimuthal" else (7.5, 4.6)
         fig = plt.figure(figsize=(w * len(panels), h))
     bands_txt = "" if band is None else f" ({band if isinstance(band, str) else ', '.join(band)})"
-    for i, (who, classes) in enumerate(panels):
+    for i, (who, classes) in enumerate(_panels(panels, progress)):
         ax = fig.add_subplot(1, len(panels), i + 1, projection=crs)
         base_map(ax, projection=projection, home=home, extent_km=extent_km,
                  ring_step_km=ring_step_km, resolution=resolution)
