@@ -51,7 +51,7 @@ import pandas as pd
 from . import columns as C
 from .bands import BAND_ORDER, REGIONS, band_plan, freq_to_band
 from .errors import InputError, MappingError, NotASpotTableError, UsageError
-from .locator import normalize_locator
+from .locator import locator_to_latlon, normalize_locator
 from .units import FREQUENCY_UNITS, POWER_LADDER_DBM, POWER_UNITS, frequency_to_hz, power_to_dbm
 
 #: Rows read from the start of each file to infer layout, columns and units.
@@ -1158,34 +1158,46 @@ def _band_codes(freq_hz: np.ndarray, region: str) -> np.ndarray:
 
 
 class _PathCache:
-    """Locator-pair geometry (C.DERIVED) kept across chunks, keyed by a hash of the pair."""
+    """Geodesic distance and azimuths per locator pair, kept across chunks.
+
+    Each distinct locator of a chunk is decoded once (cell centre, :mod:`spotkit.locator`);
+    each distinct (tx, rx) pair is solved once by :func:`spotkit.geo.geodesic_inverse` and
+    remembered under a 64-bit hash of the two locator texts, so a pair seen in an earlier
+    chunk is not solved again. Results equal :func:`spotkit.geo.add_path_columns`.
+    """
 
     MAX_PAIRS = 5_000_000
 
     def __init__(self):
         self.keys = np.zeros(0, dtype=np.uint64)
-        self.vals = np.zeros((len(C.DERIVED), 0))  # one row per derived column
+        self.vals = np.zeros((3, 0))  # distance [km], bearing, reverse bearing [deg]
 
-    def lookup(self, tx: pd.Series, rx: pd.Series) -> list[np.ndarray]:
-        from .geo import add_path_columns
+    def lookup(self, tx: pd.Categorical, rx: pd.Categorical) -> list[np.ndarray]:
+        from .geo import geodesic_inverse
 
-        tc, rc = tx.cat.codes.to_numpy(np.int64), rx.cat.codes.to_numpy(np.int64)
-        nrx = len(rx.cat.categories) + 1
+        tx_cats = np.asarray(tx.categories.astype("str"), dtype=object)
+        rx_cats = np.asarray(rx.categories.astype("str"), dtype=object)
+        tx_lat, tx_lon = (np.atleast_1d(a) for a in locator_to_latlon(tx_cats, "coerce"))
+        rx_lat, rx_lon = (np.atleast_1d(a) for a in locator_to_latlon(rx_cats, "coerce"))
+        tc, rc = np.asarray(tx.codes, dtype=np.int64), np.asarray(rx.codes, dtype=np.int64)
+        nrx = rx_cats.size
         pair_codes, uniq = pd.factorize(tc * nrx + rc, sort=False)
         ptx, prx = np.divmod(np.asarray(uniq, dtype=np.int64), nrx)
-        pairs = pd.DataFrame({
-            C.TX_LOCATOR: pd.Categorical.from_codes(ptx, dtype=tx.dtype),
-            C.RX_LOCATOR: pd.Categorical.from_codes(prx, dtype=rx.dtype)})
-        h = pd.util.hash_pandas_object(pairs, index=False).to_numpy()
+        with np.errstate(over="ignore"):
+            h = (pd.util.hash_array(tx_cats)[ptx] * np.uint64(0x100000001B3)
+                 ^ pd.util.hash_array(rx_cats)[prx])
         pos = np.searchsorted(self.keys, h)
         pos[pos == self.keys.size] = 0
         found = self.keys[pos] == h if self.keys.size else np.zeros(h.size, dtype=bool)
-        miss = ~found
         if found.all():
             vals = self.vals[:, pos]
         else:
-            new = add_path_columns(pairs[miss])[C.DERIVED].to_numpy(dtype=float).T
-            vals = np.empty((len(C.DERIVED), h.size))
+            miss = ~found
+            m_tx, m_rx = ptx[miss], prx[miss]
+            dist_m, azi, rev = geodesic_inverse(tx_lat[m_tx], tx_lon[m_tx],
+                                                rx_lat[m_rx], rx_lon[m_rx])
+            new = np.vstack([np.asarray(dist_m, dtype=float) / 1000.0, azi, rev])
+            vals = np.empty((3, h.size))
             vals[:, found] = self.vals[:, pos[found]]
             vals[:, miss] = new
             if self.keys.size + new.shape[1] > self.MAX_PAIRS:
@@ -1194,14 +1206,15 @@ class _PathCache:
             order = np.argsort(keys)
             self.keys = keys[order]
             self.vals = np.ascontiguousarray(np.concatenate([self.vals, new], axis=1)[:, order])
-        return [v[pair_codes] for v in vals]
+        return [tx_lat[tc], tx_lon[tc], rx_lat[rc], rx_lon[rc],
+                *(v[pair_codes] for v in vals)]
 
 
 def _enrich(spots: dict, keep: np.ndarray, name: str, cache: _PathCache) -> pd.DataFrame:
     """Keep rows ``keep``, add C.DERIVED columns and the source file; build the table."""
     cols = {c: v[keep] for c, v in spots.items()}
     n = len(cols[C.SOURCE_ROW])
-    vals = cache.lookup(pd.Series(cols[C.TX_LOCATOR]), pd.Series(cols[C.RX_LOCATOR])) if n \
+    vals = cache.lookup(cols[C.TX_LOCATOR], cols[C.RX_LOCATOR]) if n \
         else [np.zeros(0)] * len(C.DERIVED)
     for j, c in enumerate(C.DERIVED):
         cols[c] = vals[j]

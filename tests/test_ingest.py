@@ -438,3 +438,15 @@ def test_property_nothing_is_lost(data, tmp_path_factory):
     chunked = read_spots(path, chunk_rows=data.draw(st.integers(1, 5)), **kw)
     pdt.assert_frame_equal(res.spots, chunked.spots)
     assert res.summary == chunked.summary
+
+
+def test_path_columns_equal_geo_add_path_columns_across_chunks(tmp_path):
+    from spotkit.geo import add_path_columns
+
+    locs = ["JN58td", "IO91lk", "FN31pr", "JO62", "RE78ir", "GF15vc", "FM18lw", "PM95"]
+    rows = [f"2026-03-01 10:{2 * (i % 30):02d},Q{i % 7}AB,{locs[i % 8]},Q{i % 5}XY,"
+            f"{locs[(3 * i + 1) % 8]},14.0971,{-20 + i % 9},23,0" for i in range(60)]
+    res = read_spots(_write(tmp_path, "g.csv", HEAD + "\n".join(rows) + "\n"), chunk_rows=7)
+    ref = add_path_columns(res.spots[[C.TX_LOCATOR, C.RX_LOCATOR]])
+    for name in C.DERIVED:
+        np.testing.assert_array_equal(res.spots[name].to_numpy(), ref[name].to_numpy())
