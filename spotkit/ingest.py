@@ -1461,7 +1461,8 @@ def ingest_to_parquet(paths, out_path, *, chunk_rows: int = 500_000, rejects_pat
             Path(rejects_path).parent.mkdir(parents=True, exist_ok=True)
             rej_fh = open(rejects_path, "w", encoding="utf-8", newline="")
             C.empty_rejects().to_csv(rej_fh, index=False)
-        with pq.ParquetWriter(tmp, schema) as writer:
+        dict_cols = [n for n in C.CANONICAL if str(C.GLOSSARY[n].dtype) == "category"]
+        with pq.ParquetWriter(tmp, schema, use_dictionary=dict_cols) as writer:
             wrote = False
             for spots, rejects in iter_spot_chunks(paths, chunk_rows=chunk_rows,
                                                    summary=summary, **kw):
