@@ -37,7 +37,6 @@ from __future__ import annotations
 import codecs
 import csv
 import gzip
-import io
 import re
 import unicodedata
 import warnings
@@ -170,7 +169,8 @@ class IngestSummary:
             for band, n in self.spots_per_band.items():
                 lines.append(f"  {band}: {n:,}")
         for f in self.files:
-            cols = ", ".join(f"{_CLI_NAME.get(k, k)}<-{v}" for k, v in self.columns.get(f, {}).items())
+            cols = ", ".join(f"{_CLI_NAME.get(k, k)}<-{v}"
+                             for k, v in self.columns.get(f, {}).items())
             units = ", ".join(f"{k} {v}" for k, v in self.units.get(f, {}).items())
             lines.append(f"{f}: columns {cols}; units {units}")
         return "\n".join(lines)
@@ -611,7 +611,8 @@ def infer_columns(sample: pd.DataFrame, known: dict | None = None) -> tuple[dict
     if C.TIME not in fields:
         iso = [i for i, p in prof.items() if p["iso"] >= hit]
         dates = [i for i, p in prof.items() if p["date"] >= hit and p["iso"] < hit]
-        if not iso and len(dates) == 1 and dates[0] + 1 in prof and prof[dates[0] + 1]["clock"] >= hit:
+        clock_next = len(dates) == 1 and dates[0] + 1 in prof and prof[dates[0] + 1]["clock"] >= hit
+        if not iso and clock_next:
             fields[C.TIME] = [dates[0], dates[0] + 1]
             prof.pop(dates[0]), prof.pop(dates[0] + 1)
         else:
@@ -1085,17 +1086,25 @@ def _clean_chunk(raw: pd.DataFrame, layout: _Layout, rows: np.ndarray, region: s
 
 # --- duplicates across chunks --------------------------------------------------------------------
 class _SeenKeys:
-    """Set of 64-bit report-key hashes kept as a few sorted arrays (log-structured)."""
+    """Set of 64-bit report-key hashes kept as a few sorted arrays (log-structured).
+
+    Queries are sorted first so that the binary searches walk each array in order
+    (cache-friendly); arrays of similar size are merged, so there are O(log n) of them.
+    """
 
     def __init__(self):
         self.runs: list[np.ndarray] = []
 
     def contains(self, h: np.ndarray) -> np.ndarray:
-        found = np.zeros(h.size, dtype=bool)
+        order = np.argsort(h)
+        hs = h[order]
+        found_sorted = np.zeros(h.size, dtype=bool)
         for run in self.runs:
-            pos = np.searchsorted(run, h)
+            pos = np.searchsorted(run, hs)
             pos[pos == run.size] = 0
-            found |= run[pos] == h
+            found_sorted |= run[pos] == hs
+        found = np.empty(h.size, dtype=bool)
+        found[order] = found_sorted
         return found
 
     def add(self, h: np.ndarray) -> None:
@@ -1105,7 +1114,9 @@ class _SeenKeys:
         while len(self.runs) > 1 and self.runs[-1].size * 2 >= self.runs[-2].size:
             b = self.runs.pop()
             a = self.runs.pop()
-            self.runs.append(np.sort(np.concatenate([a, b])))
+            merged = np.concatenate([a, b])
+            merged.sort(kind="stable")  # timsort/radix: two sorted runs merge in O(n)
+            self.runs.append(merged)
 
 
 def _duplicates(spots: dict, seen: _SeenKeys) -> np.ndarray:
@@ -1186,7 +1197,9 @@ class _PathCache:
         with np.errstate(over="ignore"):
             h = (pd.util.hash_array(tx_cats)[ptx] * np.uint64(0x100000001B3)
                  ^ pd.util.hash_array(rx_cats)[prx])
-        pos = np.searchsorted(self.keys, h)
+        h_order = np.argsort(h)
+        pos = np.empty(h.size, dtype=np.int64)
+        pos[h_order] = np.searchsorted(self.keys, h[h_order])  # sorted queries: cache-friendly
         pos[pos == self.keys.size] = 0
         found = self.keys[pos] == h if self.keys.size else np.zeros(h.size, dtype=bool)
         if found.all():
@@ -1520,12 +1533,6 @@ def _read_parquet(path: Path) -> pd.DataFrame:
     from . import store
 
     return store.read_spots_parquet(path)
-
-
-def _write_parquet(df: pd.DataFrame, path) -> Path:
-    from . import store
-
-    return store.write_spots(df, path)
 
 
 __all__ = ["IngestSummary", "IngestResult", "read_spots", "iter_spot_chunks",

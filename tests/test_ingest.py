@@ -5,8 +5,6 @@ Fixtures in tests/data/ingest_*.csv are invented (Q-prefix calls, real grid squa
 from __future__ import annotations
 
 import gzip
-import io
-import shutil
 
 import numpy as np
 import pandas as pd
@@ -20,7 +18,7 @@ from spotkit import columns as C
 from spotkit.cli import main
 from spotkit.errors import InputError, MappingError, NotASpotTableError, UsageError
 from spotkit.ingest import (
-    IngestSummary, infer_frequency_unit, infer_power_unit, ingest_to_parquet, load_spots,
+    infer_frequency_unit, infer_power_unit, ingest_to_parquet, load_spots,
     match_headings, read_spots,
 )
 
