@@ -87,6 +87,8 @@ def _cmd_ingest(args) -> int:
     # --- end of archive branch ---
     from .ingest import ingest_to_parquet
 
+    if not args.output:
+        raise UsageError("ingest: give -o OUT.parquet (or --dataset DIR)")
     mapping, units = dict(args.map), dict(args.unit)
     if len(mapping) != len(args.map) or len(units) != len(args.unit):
         raise UsageError("each FIELD may be given only once in --map / --unit")

@@ -399,6 +399,7 @@ def test_cli_usage_and_input_errors(data_dir, tmp_path, capsys):
     assert main(["ingest", str(data_dir / "ingest_basic.csv"), "-o", out,
                  "--unit", "power=horsepower"]) == 2
     assert main(["ingest", str(data_dir / "ingest_basic.csv"), "-o", out, "--map", "snr"]) == 2
+    assert main(["ingest", str(data_dir / "ingest_basic.csv")]) == 2  # no -o
     html = _write(tmp_path, "page.csv", b"<html><body>hi</body></html>")
     assert main(["ingest", str(html), "-o", out]) == 1
     assert "not a spot table" in capsys.readouterr().err
