@@ -52,7 +52,6 @@ import pandas as pd
 
 from . import columns as C
 from . import store
-from .bands import BAND_ORDER
 from .errors import InputError, UsageError
 from .units import snr_per_watt
 

@@ -21,8 +21,10 @@ locators and bands.
 CSV exports go in with :func:`ingest_to_dataset`: the files are read chunk by chunk by
 :func:`spotkit.ingest.iter_spot_chunks`, each chunk is split by partition and written at
 once, so memory is bounded by the chunk size (``memory_mb`` picks it, see
-:func:`chunk_rows_for_memory`) plus the reader's duplicate-key set (8 bytes per distinct
-report, briefly about three times that while two sorted runs of it merge).
+:func:`chunk_rows_for_memory`) plus what the reader keeps across chunks: its duplicate-key
+set (8 bytes per distinct report, briefly about three times that while two sorted runs of
+it merge) and its locator-pair cache. The key set grows with the input, so an input much
+larger than the memory cap cannot be ingested under it (the cap is refused).
 
 Known limits: partitioning by slot day keeps every spot of one slot in one partition, but a
 run of slots that crosses midnight UTC is split over two partitions (see
@@ -39,7 +41,7 @@ import json
 import os
 import shutil
 import uuid
-from collections.abc import Iterable, Sequence
+from collections.abc import Sequence
 from pathlib import Path
 from typing import Any
 
@@ -379,9 +381,9 @@ BASE_MEMORY_MB = 200
 #: Peak memory per row of a chunk while it is parsed, validated, enriched and written
 #: [bytes] (measured by benchmarks/bench_archive.py; the ingest module says about 1 kB).
 CHUNK_BYTES_PER_ROW = 1500
-#: Memory per distinct report kept to find duplicates across chunks [bytes] (8-byte hashes,
-#: doubled while two sorted runs merge).
-SEEN_BYTES_PER_ROW = 16
+#: Memory per distinct report kept by the reader to find duplicates across chunks [bytes]:
+#: 8-byte hashes, about three times that while its two largest sorted runs merge.
+SEEN_BYTES_PER_ROW = 24
 #: Bytes per CSV row assumed when estimating a file's row count for the duplicate keys.
 CSV_BYTES_PER_ROW = 60
 MIN_CHUNK_ROWS = 1000
@@ -393,7 +395,13 @@ def chunk_rows_for_memory(memory_mb: float, *, total_input_bytes: int = 0) -> in
     Budget: ``memory_mb = BASE_MEMORY_MB + rows_estimate * SEEN_BYTES_PER_ROW / 2**20
     + chunk_rows * CHUNK_BYTES_PER_ROW / 2**20``, with ``rows_estimate`` the input size over
     :data:`CSV_BYTES_PER_ROW` (gzip files count 5x their size). The constants are
-    measurements on one machine, not guarantees; the benchmark checks them.
+    measurements on one machine, not guarantees; the benchmark checks them. Not modelled:
+    the reader's cache of locator-pair geometry (about 64 bytes per distinct pair, up to
+    three times that while it grows), small for the usual ~1 million pairs.
+
+    Because the reader keeps every report's key to find duplicates, the memory needed
+    grows with the input (about 24/60 of the CSV size at its peak): a cap far below the
+    input size cannot be honoured and is refused rather than exceeded silently.
 
     Raises
     ------

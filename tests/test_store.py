@@ -299,3 +299,19 @@ def test_cli_ingest_dataset_append_and_refuse(tmp_path, capsys):
     out = tmp_path / "one.parquet"  # -o with a memory cap: one file, chunked
     assert main(["ingest", str(a), "-o", str(out), "--memory-mb", "500"]) == 0
     assert len(store.read_spots_parquet(out)) == 120
+
+
+def test_partition_filters_skip_other_directories(tmp_path):
+    """Pushdown check: a damaged file in a partition outside the selection is never opened."""
+    root = tmp_path / "arch"
+    df = make_spots(300, seed=9)
+    store.append_to_dataset(df, root)
+    victim = next(root.glob(f"{C.BAND}=40m/*/*.parquet"))
+    victim.write_bytes(b"not parquet at all")
+    got = store.read_dataset(root, bands="20m", start="2026-12-01")
+    want = df[(df[C.BAND] == "20m") & (df[C.SLOT] >= pd.Timestamp("2026-12-01", tz="UTC"))]
+    assert_same_spots(got, want)
+    assert all(f.startswith(f"{C.BAND}=20m/{store.DAY}=2026-12-01")
+               for f in store.archive_files(root, bands="20m", start="2026-12-01"))
+    with pytest.raises(Exception):
+        store.read_dataset(root, bands="40m")
