@@ -449,3 +449,22 @@ def test_path_columns_equal_geo_add_path_columns_across_chunks(tmp_path):
     ref = add_path_columns(res.spots[[C.TX_LOCATOR, C.RX_LOCATOR]])
     for name in C.DERIVED:
         np.testing.assert_array_equal(res.spots[name].to_numpy(), ref[name].to_numpy())
+
+
+def test_both_readers_agree(data_dir, monkeypatch):
+    # the pyarrow streaming reader (comma/semicolon/tab files) and the pandas reader (all
+    # others) give the same table and rejects on a file with every kind of bad row
+    import spotkit.ingest as ingest
+
+    path = data_dir / "ingest_rejects.csv"
+    fast = read_spots(path, chunk_rows=4)
+    monkeypatch.setattr(ingest, "_arrow_chunks", ingest._raw_chunks)
+    slow = read_spots(path, chunk_rows=4)
+    pdt.assert_frame_equal(fast.spots, slow.spots)
+    pdt.assert_frame_equal(fast.rejects, slow.rejects)
+    assert fast.summary == slow.summary
+
+
+def test_heading_line_only(tmp_path):
+    res = read_spots(_write(tmp_path, "h.csv", HEAD))
+    assert res.summary.rows_read == 0 and res.spots.empty and list(res.spots.columns) == C.CANONICAL
