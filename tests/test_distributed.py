@@ -272,7 +272,6 @@ def test_compare_dask_unknown_call_lists_calls(sim_archive):
         D.compare_dask(root, "simultaneous", sim.a, "Q9NOPE", n_boot=10, scheduler="sync")
 
 
-@pytest.mark.slow
 @pytest.mark.parametrize("design", ["alternating", "receive", "before-after"])
 def test_compare_dask_equals_pandas_other_designs(tmp_path, design):
     """Receive pairs by (transmitter, slot); the alternating design's reports are read as
