@@ -44,6 +44,82 @@ def _progress(args) -> bool:
     return sys.stderr.isatty() if asked is None else bool(asked)
 
 
+DESIGNS = ("simultaneous", "alternating", "receive", "before-after")
+
+
+def _add_ab_options(p, *, required: bool = True, title: str = "A/B comparison"):
+    """The A/B comparison options: the same names and meaning in compare, map, plot and
+    report. ``required=False`` where only some kinds of output compare two antennas."""
+    g = p.add_argument_group(title)
+    g.add_argument("--design", required=required, choices=DESIGNS,
+                   help="how reports are assigned to A and B")
+    g.add_argument("--a", required=required, metavar="CALL",
+                   help="call of A (transmitter; receiver in the receive design)")
+    g.add_argument("--b", metavar="CALL", help="call of B (alternating and before-after: "
+                   "the same call as --a, may be left out)")
+    g.add_argument("--schedule", metavar="even-odd|odd-even|every-N|FILE",
+                   help="alternating design: antenna schedule (CSV: start,end,antenna[,band])")
+    g.add_argument("--change-at", metavar="TIME", help="before-after design: when the "
+                   "antenna changed (UTC, e.g. 2026-03-04T00:00Z)")
+    g.add_argument("--distance-edges", metavar="KM,KM,...",
+                   help="distance bin edges [km] (default 0,1000,3000,6000,20100)")
+    g.add_argument("--elevation-edges", metavar="DEG,DEG,...",
+                   help="elevation bin edges [deg] (default 0,5,10,20,40,90)")
+    g.add_argument("--bearing-width", type=float, default=45.0,
+                   help="bearing sector width [deg] (default 45)")
+    g.add_argument("--hour-basis", choices=["utc", "local"], default="utc",
+                   help="hour of day in UTC or local solar time at the path midpoint")
+    g.add_argument("--layer-height", type=float, default=300.0,
+                   help="reflection height for elevation angles [km] (default 300)")
+    g.add_argument("--window", type=int, default=1, metavar="SLOTS",
+                   help="alternating design: largest distance of paired slots (default 1)")
+    g.add_argument("--no-open-path-check", action="store_true",
+                   help="alternating design: keep pairs even without reports of the call in "
+                   "the slots around them")
+    g.add_argument("--threshold-correction", choices=["edge", "none"], default="edge",
+                   help="first-order correction for reports at the decode threshold "
+                   "(default edge)")
+    g.add_argument("--boot", type=int, default=1000, help="bootstrap resamples (default 1000)")
+    g.add_argument("--seed", type=int, default=0, help="bootstrap seed (default 0)")
+    g.add_argument("--min-pairs", type=int, default=30,
+                   help="fewest pairs for a group estimate (default 30)")
+    g.add_argument("--confidence", type=float, default=0.95,
+                   help="confidence level of the intervals (default 0.95)")
+
+
+def _float_list(text, option):
+    try:
+        return [float(x) for x in text.split(",") if x.strip()]
+    except ValueError:
+        raise UsageError(f"{option} must be numbers separated by commas, got {text!r}") from None
+
+
+def _by_keys(text: str) -> list[str]:
+    from .pairing import parse_by
+
+    by = [k for k in (text or "").replace(" ", "").split(",") if k]
+    try:
+        parse_by(by)
+    except ValueError as exc:
+        raise UsageError(f"--by: {exc}") from None
+    return by
+
+
+def _compare_kwargs(args) -> dict:
+    """Keyword arguments of :func:`spotkit.compare.compare_antennas` from the A/B options."""
+    kw = dict(schedule=args.schedule, change_at=args.change_at,
+              bearing_width_deg=args.bearing_width, hour=args.hour_basis,
+              layer_height_km=args.layer_height, window_slots=args.window,
+              n_boot=args.boot, seed=args.seed, min_pairs=args.min_pairs,
+              confidence=args.confidence, threshold_correction=args.threshold_correction,
+              require_open_path=not args.no_open_path_check)
+    if args.distance_edges:
+        kw["distance_edges"] = _float_list(args.distance_edges, "--distance-edges")
+    if args.elevation_edges:
+        kw["elevation_edges"] = _float_list(args.elevation_edges, "--elevation-edges")
+    return kw
+
+
 # --- ingest ------------------------------------------------------------------------------
 def _add_ingest(sub):
     p = sub.add_parser(
@@ -76,6 +152,7 @@ def _add_ingest(sub):
     p.add_argument("--chunk-rows", type=int, metavar="N", help="read N rows at a time")
     p.add_argument("--memory-mb", type=float, metavar="M",
                    help="keep memory under about M MiB (sets the chunk size)")
+    _add_progress_option(p)
     p.set_defaults(func=_cmd_ingest)
 
 
@@ -99,7 +176,7 @@ def _cmd_ingest(args) -> int:
     summary = ingest_to_parquet(
         args.files, args.output, rejects_path=args.rejects, mapping=mapping, units=units,
         delimiter=args.delimiter, header=header, slot_minutes=args.slot_minutes,
-        region=args.region, **kw)
+        region=args.region, progress=_progress(args), **kw)
     print(summary.text())
     print(f"wrote {summary.accepted:,} spots to {args.output}"
           + (f" and {summary.rejected:,} rejects to {args.rejects}" if args.rejects else ""))
@@ -222,80 +299,25 @@ def _add_compare(sub):
         "confidence intervals, paired tests and plain-language verdicts.")
     p.add_argument("spots", metavar="SPOTS",
                    help="spot table: Parquet from 'spotkit ingest' or a spot CSV")
-    p.add_argument("--design", required=True,
-                   choices=["simultaneous", "alternating", "receive", "before-after"],
-                   help="how reports are assigned to A and B")
-    p.add_argument("--a", required=True, metavar="CALL",
-                   help="call of A (transmitter; receiver in the receive design)")
-    p.add_argument("--b", metavar="CALL", help="call of B (alternating and before-after: "
-                   "the same call as --a, may be left out)")
-    p.add_argument("--schedule", metavar="even-odd|odd-even|every-N|FILE",
-                   help="alternating design: antenna schedule (CSV: start,end,antenna[,band])")
-    p.add_argument("--change-at", metavar="TIME", help="before-after design: when the "
-                   "antenna changed (UTC, e.g. 2026-03-04T00:00Z)")
     p.add_argument("--by", default="", metavar="KEY,KEY",
                    help="group by any of band, distance, bearing, hour, elevation, light, "
                    "field, square, receiver")
-    p.add_argument("--distance-edges", metavar="KM,KM,...",
-                   help="distance bin edges [km] (default 0,1000,3000,6000,20100)")
-    p.add_argument("--elevation-edges", metavar="DEG,DEG,...",
-                   help="elevation bin edges [deg] (default 0,5,10,20,40,90)")
-    p.add_argument("--bearing-width", type=float, default=45.0,
-                   help="bearing sector width [deg] (default 45)")
-    p.add_argument("--hour-basis", choices=["utc", "local"], default="utc",
-                   help="hour of day in UTC or local solar time at the path midpoint")
-    p.add_argument("--layer-height", type=float, default=300.0,
-                   help="reflection height for elevation angles [km] (default 300)")
-    p.add_argument("--window", type=int, default=1, metavar="SLOTS",
-                   help="alternating design: largest distance of paired slots (default 1)")
-    p.add_argument("--no-open-path-check", action="store_true",
-                   help="alternating design: keep pairs even without reports of the call in "
-                   "the slots around them")
-    p.add_argument("--threshold-correction", choices=["edge", "none"], default="edge",
-                   help="first-order correction for reports at the decode threshold "
-                   "(default edge)")
-    p.add_argument("--boot", type=int, default=1000, help="bootstrap resamples (default 1000)")
-    p.add_argument("--seed", type=int, default=0, help="bootstrap seed (default 0)")
-    p.add_argument("--min-pairs", type=int, default=30,
-                   help="fewest pairs for a group estimate (default 30)")
-    p.add_argument("--confidence", type=float, default=0.95,
-                   help="confidence level of the intervals (default 0.95)")
+    _add_ab_options(p)
     p.add_argument("--json", metavar="OUT.json", help="write the result as JSON")
     p.add_argument("--csv", metavar="OUT.csv", help="write the result table as CSV")
     _add_progress_option(p)
     p.set_defaults(func=_cmd_compare)
 
 
-def _float_list(text, option):
-    try:
-        return [float(x) for x in text.split(",") if x.strip()]
-    except ValueError:
-        raise UsageError(f"{option} must be numbers separated by commas, got {text!r}") from None
-
-
 def _cmd_compare(args) -> int:
     from .compare import compare_antennas
     from .ingest import load_spots
 
-    kw = {}
-    if args.distance_edges:
-        kw["distance_edges"] = _float_list(args.distance_edges, "--distance-edges")
-    if args.elevation_edges:
-        kw["elevation_edges"] = _float_list(args.elevation_edges, "--elevation-edges")
-    try:
-        by = [k for k in args.by.replace(" ", "").split(",") if k]
-        from .pairing import parse_by
-        parse_by(by)
-    except ValueError as exc:
-        raise UsageError(f"--by: {exc}") from None
+    by = _by_keys(args.by)
+    kw = _compare_kwargs(args)
     spots = load_spots(args.spots)
-    result = compare_antennas(
-        spots, args.design, args.a, args.b, schedule=args.schedule, change_at=args.change_at,
-        by=by, bearing_width_deg=args.bearing_width, hour=args.hour_basis,
-        layer_height_km=args.layer_height, window_slots=args.window, n_boot=args.boot,
-        seed=args.seed, min_pairs=args.min_pairs, confidence=args.confidence,
-        progress=_progress(args), threshold_correction=args.threshold_correction,
-        require_open_path=not args.no_open_path_check, **kw)
+    result = compare_antennas(spots, args.design, args.a, args.b, by=by,
+                              progress=_progress(args), **kw)
     print(result)
     if args.json:
         result.to_json(args.json)
@@ -318,21 +340,8 @@ def _add_figure_options(p, kinds, help_kind):
     p.add_argument("--band", action="append", default=[], metavar="BAND",
                    help="only this band, e.g. 10m (repeat or comma-separate for several)")
     p.add_argument("--dpi", type=int, default=150, help="resolution of a PNG (default 150)")
-    g = p.add_argument_group("A/B comparison (kinds that compare two antennas)")
-    g.add_argument("--design", choices=["simultaneous", "alternating", "receive",
-                                        "before-after"], help="experiment design")
-    g.add_argument("--a", metavar="CALL", help="call of antenna A (see spotkit compare)")
-    g.add_argument("--b", metavar="CALL", help="call of antenna B")
-    g.add_argument("--schedule", metavar="even-odd|FILE", help="alternating design schedule")
-    g.add_argument("--change-at", metavar="TIME", help="before-after design: change time (UTC)")
-    g.add_argument("--distance-edges", metavar="KM,KM,...",
-                   help="distance bin edges [km] (default 0,1000,3000,6000,20100)")
-    g.add_argument("--bearing-width", type=float, default=45.0,
-                   help="bearing sector width [deg] (default 45)")
-    g.add_argument("--boot", type=int, default=1000, help="bootstrap resamples (default 1000)")
-    g.add_argument("--seed", type=int, default=0, help="bootstrap seed (default 0)")
-    g.add_argument("--min-pairs", type=int, default=30,
-                   help="fewest pairs for a group estimate (default 30)")
+    _add_ab_options(p, required=False,
+                    title="A/B comparison (kinds that compare two antennas)")
 
 
 def _figure_bands(args):
@@ -347,19 +356,8 @@ def _figure_compare(args, spots, by):
     if not args.design or not args.a:
         raise UsageError(f"--kind {args.kind} compares two antennas: give --design and --a "
                          "(and --b, --schedule or --change-at as the design needs)")
-    kw = {}
-    if args.distance_edges:
-        try:
-            kw["distance_edges"] = [float(x) for x in args.distance_edges.split(",")]
-        except ValueError:
-            raise UsageError(f"--distance-edges must be numbers separated by commas, got "
-                             f"{args.distance_edges!r}") from None
-    if getattr(args, "hour_basis", None):
-        kw["hour"] = args.hour_basis
-    return compare_antennas(spots, args.design, args.a, args.b, schedule=args.schedule,
-                            change_at=args.change_at, by=by,
-                            bearing_width_deg=args.bearing_width, n_boot=args.boot,
-                            seed=args.seed, min_pairs=args.min_pairs, **kw)
+    return compare_antennas(spots, args.design, args.a, args.b, by=by,
+                            progress=_progress(args), **_compare_kwargs(args))
 
 
 def _save_figure(fig, path, dpi) -> int:
@@ -434,8 +432,6 @@ def _add_plot(sub):
         "the A/B options); SNR per watt against distance; spots per hour by band.")
     _add_figure_options(p, ["bearing", "distance", "elevation", "hour", "heard",
                             "snr-distance", "spots-per-hour"], "which plot")
-    p.add_argument("--hour-basis", choices=["utc", "local"], default="utc",
-                   help="hour: UTC or local solar time at the path midpoint (default utc)")
     p.set_defaults(func=_cmd_plot)
 
 
@@ -676,32 +672,13 @@ def _add_report(sub):
         "safety cautions. Figures are embedded; the file needs no network to open.")
     p.add_argument("spots", metavar="SPOTS",
                    help="spot table: Parquet from 'spotkit ingest' or a spot CSV")
-    p.add_argument("--design", required=True,
-                   choices=["simultaneous", "alternating", "receive", "before-after"],
-                   help="how reports are assigned to A and B")
-    p.add_argument("--a", required=True, metavar="CALL", help="call of A")
-    p.add_argument("--b", metavar="CALL", help="call of B")
-    p.add_argument("--schedule", metavar="even-odd|FILE", help="alternating design schedule")
-    p.add_argument("--change-at", metavar="TIME", help="before-after design: change time (UTC)")
     p.add_argument("--by", default="", metavar="KEY,KEY",
                    help="an extra breakdown shown last, e.g. band,distance,bearing")
-    p.add_argument("--boot", type=int, default=1000, help="bootstrap resamples (default 1000)")
-    p.add_argument("--seed", type=int, default=0, help="bootstrap seed (default 0)")
+    _add_ab_options(p)
     p.add_argument("--title", help="report title")
     p.add_argument("-o", "--output", required=True, metavar="OUT.html")
     _add_progress_option(p)
     p.set_defaults(func=_cmd_report)
-
-
-def _by_keys(text: str) -> list[str]:
-    from .pairing import parse_by
-
-    by = [k for k in (text or "").replace(" ", "").split(",") if k]
-    try:
-        parse_by(by)
-    except ValueError as exc:
-        raise UsageError(f"--by: {exc}") from None
-    return by
 
 
 def _cmd_report(args) -> int:
@@ -712,8 +689,8 @@ def _cmd_report(args) -> int:
     spots = load_spots(args.spots)
     progress = _progress(args)
     results, map_result = standard_comparisons(
-        spots, args.design, args.a, args.b, by=by or None, schedule=args.schedule,
-        change_at=args.change_at, n_boot=args.boot, seed=args.seed, progress=progress)
+        spots, args.design, args.a, args.b, by=by or None, progress=progress,
+        **_compare_kwargs(args))
     write_report(args.output, spots, results, map_result=map_result, title=args.title,
                  progress=progress)
     print(results[0].verdicts()[0])
@@ -774,7 +751,8 @@ def _archive_ingest(args):
         summary = ingest_to_dataset(
             args.files, dataset, chunk_rows=args.chunk_rows, memory_mb=memory_mb,
             partition_by=partition, mapping=mapping, units=units, delimiter=args.delimiter,
-            header=header, slot_minutes=args.slot_minutes, region=args.region)
+            header=header, slot_minutes=args.slot_minutes, region=args.region,
+            progress=_progress(args))
     except ValueError as exc:
         if isinstance(exc, (InputError, UsageError)):
             raise
