@@ -759,10 +759,26 @@ def _to_number(raw: pd.Series, decimal: str) -> pd.Series:
     arr = pc.utf8_trim_whitespace(arr.cast(pa.string()))
     if decimal == ",":
         arr = pc.replace_substring(arr, ",", ".")
-    ok = pc.match_substring_regex(arr, r"^[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?$")
-    vals = pc.cast(pc.if_else(ok, arr, pa.scalar(None, pa.string())), pa.float64())
-    out = vals.to_numpy(zero_copy_only=False)
-    return pd.Series(np.asarray(out, dtype="float64"), index=raw.index)
+    pattern = r"^[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?$"
+    try:
+        # fast path: arrow's parser accepts every plain decimal number the pattern accepts,
+        # and besides them only spellings of NaN and infinity; NaN comes out as NaN either
+        # way, so only infinite results are checked against the pattern
+        vals = pc.cast(pc.if_else(pc.equal(arr, ""), pa.scalar(None, pa.string()), arr),
+                       pa.float64())
+    except (pa.ArrowInvalid, pa.ArrowNotImplementedError):
+        ok = pc.match_substring_regex(arr, pattern)
+        vals = pc.cast(pc.if_else(ok, arr, pa.scalar(None, pa.string())), pa.float64())
+        out = vals.to_numpy(zero_copy_only=False)
+        return pd.Series(np.asarray(out, dtype="float64"), index=raw.index)
+    out = np.asarray(vals.to_numpy(zero_copy_only=False), dtype="float64")
+    inf = np.flatnonzero(np.isinf(out))
+    if inf.size:
+        out = out.copy()
+        ok = pc.match_substring_regex(arr.take(pa.array(inf)), pattern).to_numpy(
+            zero_copy_only=False)
+        out[inf[~np.asarray(ok, dtype=bool)]] = np.nan
+    return pd.Series(out, index=raw.index)
 
 
 def _infer_units(layout: _Layout, sample: pd.DataFrame, units: dict) -> None:
@@ -1112,9 +1128,9 @@ def _clean_chunk(raw: pd.DataFrame, layout: _Layout, rows: np.ndarray, region: s
     keep = ~bad
     time_ns = ns[keep]
     slot_ns = np.int64(slot_minutes) * 60 * 10**9
-    spots = {
-        C.TIME: pd.to_datetime(time_ns, utc=True),
-        C.SLOT: pd.to_datetime(time_ns - np.mod(time_ns, slot_ns), utc=True),
+    spots = {  # times as int64 ns since 1970 UTC until the table is built
+        C.TIME: time_ns,
+        C.SLOT: time_ns - np.mod(time_ns, slot_ns),
     }
     for f in (C.TX_CALL, C.TX_LOCATOR, C.RX_CALL, C.RX_LOCATOR):
         cats, codes = out[f]
@@ -1289,9 +1305,10 @@ class _PathCache:
                 *(v[pair_codes] for v in vals)]
 
 
-def _enrich(spots: dict, keep: np.ndarray, name: str, cache: _PathCache) -> pd.DataFrame:
-    """Keep rows ``keep``, add C.DERIVED columns and the source file; build the table."""
-    cols = {c: v[keep] for c, v in spots.items()}
+def _enrich(spots: dict, keep: np.ndarray, name: str, cache: _PathCache) -> dict:
+    """Keep rows ``keep``, add C.DERIVED columns and the source file; the table's columns
+    (C.CANONICAL order) as arrays and categoricals."""
+    cols = {c: v if keep.all() else v[keep] for c, v in spots.items()}
     n = len(cols[C.SOURCE_ROW])
     vals = cache.lookup(cols[C.TX_LOCATOR], cols[C.RX_LOCATOR]) if n \
         else [np.zeros(0)] * len(C.DERIVED)
@@ -1299,7 +1316,36 @@ def _enrich(spots: dict, keep: np.ndarray, name: str, cache: _PathCache) -> pd.D
         cols[c] = vals[j]
     cols[C.SOURCE_FILE] = pd.Categorical.from_codes(
         np.zeros(n, dtype=np.int8), categories=pd.Index([name], dtype="str"))
-    return pd.DataFrame({c: cols[c] for c in C.CANONICAL})
+    return {c: cols[c] for c in C.CANONICAL}
+
+
+def _frame(cols: dict | None) -> pd.DataFrame:
+    """The chunk's columns as a canonical DataFrame (None: an empty table)."""
+    if cols is None:
+        return C.empty_spots()
+    return pd.DataFrame({c: (pd.to_datetime(cols[c], utc=True) if c in (C.TIME, C.SLOT)
+                             else cols[c]) for c in C.CANONICAL})
+
+
+def _table(cols: dict | None, schema):
+    """The chunk's columns as a pyarrow Table with ``schema`` (no pandas round trip)."""
+    import pyarrow as pa
+
+    if cols is None:
+        return schema.empty_table()
+    arrays = []
+    for f in schema:
+        v = cols[f.name]
+        if pa.types.is_dictionary(f.type):
+            codes = np.asarray(v.codes, dtype=np.int32)
+            arrays.append(pa.DictionaryArray.from_arrays(
+                pa.array(codes, mask=codes < 0),
+                pa.array(np.asarray(v.categories, dtype=object), pa.string())))
+        elif pa.types.is_timestamp(f.type):
+            arrays.append(pa.array(np.asarray(v, dtype=np.int64), pa.int64()).view(f.type))
+        else:
+            arrays.append(pa.array(np.asarray(v), f.type))
+    return pa.Table.from_arrays(arrays, schema=schema)
 
 
 def iter_spot_chunks(paths, *, mapping=None, units=None, delimiter: Delimiter = "auto",
@@ -1313,6 +1359,17 @@ def iter_spot_chunks(paths, *, mapping=None, units=None, delimiter: Delimiter = 
     place as chunks are yielded) receives the counts. Duplicates are removed across chunks
     and files; memory grows only by 8 bytes per distinct report (the key hashes).
     """
+    for cols, rejects in _iter_chunk_columns(
+            paths, mapping=mapping, units=units, delimiter=delimiter, header=header,
+            slot_minutes=slot_minutes, region=region, chunk_rows=chunk_rows,
+            progress=progress, summary=summary):
+        yield _frame(cols), rejects
+
+
+def _iter_chunk_columns(paths, *, mapping, units, delimiter, header, slot_minutes, region,
+                        chunk_rows, progress, summary):
+    """As :func:`iter_spot_chunks`, yielding the spots as a dict of columns (times as int64
+    ns; None for no spots) for :func:`_frame` or :func:`_table`."""
     _check_args(region, slot_minutes, chunk_rows)
     mapping = _check_mapping(mapping)
     units = _check_units(units)
@@ -1362,8 +1419,8 @@ def iter_spot_chunks(paths, *, mapping=None, units=None, delimiter: Delimiter = 
                     C.SOURCE_FILE: layout.name, C.SOURCE_ROW: np.array(rows_left, dtype="int64"),
                     C.REJECT_FIELD: "row", C.REJECT_VALUE: [skipped_all[r] for r in rows_left],
                     C.REJECT_REASON: "wrong number of fields"})
-                _count(summary, len(rows_left), C.empty_spots(), rejects, 0)
-                yield C.empty_spots(), _tidy_rejects(rejects)
+                _count(summary, len(rows_left), None, rejects, 0)
+                yield None, _tidy_rejects(rejects)
     finally:
         if bar is not None:
             bar.close()
@@ -1388,14 +1445,18 @@ def _row_numbers(n: int, start: int, skipped: dict) -> tuple[np.ndarray, int]:
 
 def _count(summary, n_read, spots, rejects, n_dup):
     summary.rows_read += n_read
-    summary.accepted += len(spots)
     summary.rejected += len(rejects)
     summary.duplicates += n_dup
     summary._add_counts(rejects[C.REJECT_REASON].value_counts().to_dict(),
                         summary.rejected_by_reason)
-    if len(spots):
-        counts = spots[C.BAND].value_counts(sort=False)
-        summary._add_counts(counts[counts > 0].to_dict(), summary.spots_per_band)
+    n = 0 if spots is None else len(spots[C.SOURCE_ROW])
+    summary.accepted += n
+    if n:
+        band = spots[C.BAND]
+        counts = np.bincount(np.asarray(band.codes)[np.asarray(band.codes) >= 0],
+                             minlength=len(band.categories))
+        summary._add_counts({b: k for b, k in zip(band.categories, counts) if k > 0},
+                            summary.spots_per_band)
     summary.spots_per_band = {b: summary.spots_per_band[b]
                               for b in BAND_ORDER if b in summary.spots_per_band}
 
@@ -1544,11 +1605,10 @@ def ingest_to_parquet(paths, out_path, *, chunk_rows: int = 500_000, rejects_pat
         dict_cols = [n for n in C.CANONICAL if str(C.GLOSSARY[n].dtype) == "category"]
         with pq.ParquetWriter(tmp, schema, use_dictionary=dict_cols) as writer:
             wrote = False
-            for spots, rejects in iter_spot_chunks(paths, chunk_rows=chunk_rows,
-                                                   summary=summary, **kw):
-                if len(spots) or not wrote:
-                    writer.write_table(pa.Table.from_pandas(spots, schema=schema,
-                                                            preserve_index=False))
+            for spots, rejects in _iter_chunk_columns(paths, chunk_rows=chunk_rows,
+                                                      summary=summary, **_read_kw(kw)):
+                if (spots is not None and len(spots[C.SOURCE_ROW])) or not wrote:
+                    writer.write_table(_table(spots, schema))
                     wrote = True
                 if rej_fh is not None and len(rejects):
                     rejects[C.REJECT_COLUMNS].to_csv(rej_fh, index=False, header=False)
@@ -1559,6 +1619,16 @@ def ingest_to_parquet(paths, out_path, *, chunk_rows: int = 500_000, rejects_pat
         if tmp.exists():
             tmp.unlink()
     return summary
+
+
+def _read_kw(kw: dict) -> dict:
+    """Keywords of :func:`read_spots` with their defaults filled in."""
+    defaults = dict(mapping=None, units=None, delimiter="auto", header="auto",
+                    slot_minutes=C.SLOT_MINUTES, region="all", progress=False)
+    unknown = set(kw) - set(defaults)
+    if unknown:
+        raise TypeError(f"unexpected keyword(s): {', '.join(sorted(unknown))}")
+    return defaults | kw
 
 
 def write_rejects(rejects: pd.DataFrame, path) -> Path:
