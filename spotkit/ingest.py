@@ -925,7 +925,7 @@ def _arrow_chunks(layout: _Layout, chunk_rows: int | None
     reader = pacsv.open_csv(
         source,
         read_options=pacsv.ReadOptions(column_names=names, skip_rows=layout.header_lines,
-                                       block_size=1 << 22, use_threads=False,
+                                       block_size=1 << 24, use_threads=False,
                                        encoding=encoding),
         parse_options=pacsv.ParseOptions(delimiter=layout.sep, invalid_row_handler=handler,
                                          ignore_empty_lines=False),
@@ -1253,13 +1253,89 @@ def _band_codes(freq_hz: np.ndarray, region: str) -> np.ndarray:
 class _PathCache:
     """Geodesic distance and azimuths per locator pair, kept across chunks.
 
-    Each distinct locator of a chunk is decoded once (cell centre, :mod:`spotkit.locator`);
-    each distinct (tx, rx) pair is solved once by :func:`spotkit.geo.geodesic_inverse` and
-    remembered under a 64-bit hash of the two locator texts, so a pair seen in an earlier
-    chunk is not solved again. Results equal :func:`spotkit.geo.add_path_columns`.
+    Each distinct locator gets a number the first time it is seen (one per transmitter
+    locator and one per receiver locator; its cell centre is decoded once,
+    :mod:`spotkit.locator`); each distinct (tx, rx) pair is solved once by
+    :func:`spotkit.geo.geodesic_inverse` and remembered in a dense table indexed by the two
+    numbers, so a pair seen in an earlier chunk is not solved again. When the table would
+    exceed :attr:`MAX_CELLS` cells, pairs are remembered under a 64-bit hash of the two
+    locator texts instead (slower). Results equal :func:`spotkit.geo.add_path_columns`.
     """
 
     MAX_PAIRS = 5_000_000
+    #: Largest dense pair table [cells of 4 bytes] (128 MB).
+    MAX_CELLS = 1 << 25
+
+    def __init__(self):
+        self.ids = ({}, {})  # locator text -> number, for tx and rx
+        self.pos = ([np.zeros(0), np.zeros(0)], [np.zeros(0), np.zeros(0)])  # lat, lon
+        self.table = np.full((0, 0), -1, dtype=np.int32)  # pair -> column of vals
+        self.vals = np.zeros((3, 0))  # distance [km], bearing, reverse bearing [deg]
+        self.n_vals = 0
+        self.hashed = None  # _HashedPathCache once the dense table is too big
+
+    def _numbers(self, side: int, cats: np.ndarray) -> np.ndarray:
+        ids = self.ids[side]
+        new = [c for c in cats if c not in ids]
+        if new:
+            first = len(ids)
+            for k, c in enumerate(new):
+                ids[c] = first + k
+            lat, lon = (np.atleast_1d(a) for a in locator_to_latlon(
+                np.asarray(new, dtype=object), "coerce"))
+            self.pos[side][0] = np.concatenate([self.pos[side][0], lat])
+            self.pos[side][1] = np.concatenate([self.pos[side][1], lon])
+        return np.fromiter((ids[c] for c in cats), dtype=np.int64, count=len(cats))
+
+    def lookup(self, tx: pd.Categorical, rx: pd.Categorical) -> list[np.ndarray]:
+        if self.hashed is not None:
+            return self.hashed.lookup(tx, rx)
+        from .geo import geodesic_inverse
+
+        tx_cats = np.asarray(tx.categories.astype("str"), dtype=object)
+        rx_cats = np.asarray(rx.categories.astype("str"), dtype=object)
+        tg = self._numbers(0, tx_cats)[np.asarray(tx.codes, dtype=np.int64)]
+        rg = self._numbers(1, rx_cats)[np.asarray(rx.codes, dtype=np.int64)]
+        ntx, nrx = len(self.ids[0]), len(self.ids[1])
+        if ntx * nrx > self.MAX_CELLS:
+            self.hashed = _HashedPathCache()
+            self.table = np.full((0, 0), -1, dtype=np.int32)
+            self.vals = np.zeros((3, 0))
+            return self.hashed.lookup(tx, rx)
+        if ntx > self.table.shape[0] or nrx > self.table.shape[1]:
+            shape = (max(ntx, self.table.shape[0] * 5 // 4),
+                     max(nrx, self.table.shape[1] * 5 // 4))  # room for a few more
+            if shape[0] * shape[1] > self.MAX_CELLS:
+                shape = (ntx, nrx)
+            grown = np.full(shape, -1, dtype=np.int32)
+            grown[:self.table.shape[0], :self.table.shape[1]] = self.table
+            self.table = grown
+        idx = self.table[tg, rg]
+        miss = np.flatnonzero(idx < 0)
+        if miss.size:
+            key = pd.unique(tg[miss] * nrx + rg[miss])
+            mt, mr = np.divmod(key, nrx)
+            (tlat, tlon), (rlat, rlon) = self.pos
+            dist_m, azi, rev = geodesic_inverse(tlat[mt], tlon[mt], rlat[mr], rlon[mr])
+            new = np.vstack([np.asarray(dist_m, dtype=float) / 1000.0, azi, rev])
+            if self.n_vals + key.size > self.vals.shape[1]:
+                grown = np.zeros((3, max(2 * self.vals.shape[1], self.n_vals + key.size)))
+                grown[:, :self.n_vals] = self.vals[:, :self.n_vals]
+                self.vals = grown
+            self.vals[:, self.n_vals:self.n_vals + key.size] = new
+            self.table[mt, mr] = np.arange(self.n_vals, self.n_vals + key.size,
+                                           dtype=np.int32)
+            self.n_vals += key.size
+            idx[miss] = self.table[tg[miss], rg[miss]]
+        (tlat, tlon), (rlat, rlon) = self.pos
+        return [tlat[tg], tlon[tg], rlat[rg], rlon[rg], *(v[idx] for v in self.vals)]
+
+
+class _HashedPathCache:
+    """Pair geometry remembered under a 64-bit hash of the two locator texts (sorted
+    arrays); used by :class:`_PathCache` when its dense table would be too big."""
+
+    MAX_PAIRS = _PathCache.MAX_PAIRS
 
     def __init__(self):
         self.keys = np.zeros(0, dtype=np.uint64)
@@ -1603,7 +1679,11 @@ def ingest_to_parquet(paths, out_path, *, chunk_rows: int = 500_000, rejects_pat
             rej_fh = open(rejects_path, "w", encoding="utf-8", newline="")
             C.empty_rejects().to_csv(rej_fh, index=False)
         dict_cols = [n for n in C.CANONICAL if str(C.GLOSSARY[n].dtype) == "category"]
-        with pq.ParquetWriter(tmp, schema, use_dictionary=dict_cols) as writer:
+        # statistics for the plain columns only: min/max of the text columns cost a third
+        # of the write time and say little (calls and locators are not sorted)
+        plain = [n for n in C.CANONICAL if n not in dict_cols]
+        with pq.ParquetWriter(tmp, schema, use_dictionary=dict_cols, compression="snappy",
+                              write_statistics=plain) as writer:
             wrote = False
             for spots, rejects in _iter_chunk_columns(paths, chunk_rows=chunk_rows,
                                                       summary=summary, **_read_kw(kw)):

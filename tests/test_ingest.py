@@ -439,8 +439,16 @@ def test_property_nothing_is_lost(data, tmp_path_factory):
     assert res.summary == chunked.summary
 
 
-def test_path_columns_equal_geo_add_path_columns_across_chunks(tmp_path):
+@pytest.mark.parametrize("max_cells", [None, 1, 49])
+def test_path_columns_equal_geo_add_path_columns_across_chunks(tmp_path, monkeypatch,
+                                                               max_cells):
+    # max_cells: the dense pair table as is, never used (hashed pairs from the start), and
+    # outgrown part way through the file
+    import spotkit.ingest as ingest
     from spotkit.geo import add_path_columns
+
+    if max_cells is not None:
+        monkeypatch.setattr(ingest._PathCache, "MAX_CELLS", max_cells)
 
     locs = ["JN58td", "IO91lk", "FN31pr", "JO62", "RE78ir", "GF15vc", "FM18lw", "PM95"]
     rows = [f"2026-03-01 10:{2 * (i % 30):02d},Q{i % 7}AB,{locs[i % 8]},Q{i % 5}XY,"
