@@ -53,6 +53,7 @@ import gzip
 import re
 import unicodedata
 import warnings
+from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Iterator, Literal, Sequence
@@ -756,10 +757,18 @@ def _to_number(raw: pd.Series, decimal: str) -> pd.Series:
     arr = pa.array(raw.astype("str").array)
     if isinstance(arr, pa.ChunkedArray):
         arr = arr.combine_chunks()
-    arr = pc.utf8_trim_whitespace(arr.cast(pa.string()))
+    arr = arr.cast(pa.string())
+    if decimal == ".":
+        try:  # the usual case: clean cells, no blanks around them
+            vals = pc.cast(arr, pa.float64())
+        except (pa.ArrowInvalid, pa.ArrowNotImplementedError):
+            pass
+        else:
+            return _checked_numbers(vals, arr, raw.index)
+    arr = pc.utf8_trim_whitespace(arr)
     if decimal == ",":
         arr = pc.replace_substring(arr, ",", ".")
-    pattern = r"^[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?$"
+    pattern = _NUMBER_PATTERN
     try:
         # fast path: arrow's parser accepts every plain decimal number the pattern accepts,
         # and besides them only spellings of NaN and infinity; NaN comes out as NaN either
@@ -771,14 +780,26 @@ def _to_number(raw: pd.Series, decimal: str) -> pd.Series:
         vals = pc.cast(pc.if_else(ok, arr, pa.scalar(None, pa.string())), pa.float64())
         out = vals.to_numpy(zero_copy_only=False)
         return pd.Series(np.asarray(out, dtype="float64"), index=raw.index)
+    return _checked_numbers(vals, arr, raw.index)
+
+
+_NUMBER_PATTERN = r"^[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?$"
+
+
+def _checked_numbers(vals, arr, index) -> pd.Series:
+    """Arrow-parsed numbers ``vals`` of text ``arr``, infinities kept only when spelled as
+    plain decimal numbers (overflow); "inf", "infinity" and the like become NaN."""
+    import pyarrow as pa
+    import pyarrow.compute as pc
+
     out = np.asarray(vals.to_numpy(zero_copy_only=False), dtype="float64")
     inf = np.flatnonzero(np.isinf(out))
     if inf.size:
         out = out.copy()
-        ok = pc.match_substring_regex(arr.take(pa.array(inf)), pattern).to_numpy(
-            zero_copy_only=False)
+        text = pc.utf8_trim_whitespace(arr.take(pa.array(inf)))
+        ok = pc.match_substring_regex(text, _NUMBER_PATTERN).to_numpy(zero_copy_only=False)
         out[inf[~np.asarray(ok, dtype=bool)]] = np.nan
-    return pd.Series(out, index=raw.index)
+    return pd.Series(out, index=index)
 
 
 def _infer_units(layout: _Layout, sample: pd.DataFrame, units: dict) -> None:
@@ -1125,7 +1146,7 @@ def _clean_chunk(raw: pd.DataFrame, layout: _Layout, rows: np.ndarray, region: s
         drift = np.full(n, np.nan)
 
     bad = chk.bad
-    keep = ~bad
+    keep = ~bad if bad.any() else slice(None)
     time_ns = ns[keep]
     slot_ns = np.int64(slot_minutes) * 60 * 10**9
     spots = {  # times as int64 ns since 1970 UTC until the table is built
@@ -1134,10 +1155,12 @@ def _clean_chunk(raw: pd.DataFrame, layout: _Layout, rows: np.ndarray, region: s
     }
     for f in (C.TX_CALL, C.TX_LOCATOR, C.RX_CALL, C.RX_LOCATOR):
         cats, codes = out[f]
-        spots[f] = pd.Categorical.from_codes(codes[keep], categories=pd.Index(cats, dtype="str"))
+        spots[f] = pd.Categorical.from_codes(codes[keep], categories=pd.Index(cats, dtype="str"),
+                                             validate=False)  # codes made by _recode
     spots[C.FREQ] = freq[keep]
     spots[C.BAND] = pd.Categorical.from_codes(band[keep], categories=pd.Index(BAND_ORDER,
-                                                                               dtype="str"))
+                                                                               dtype="str"),
+                                              validate=False)
     spots[C.SNR] = snr[keep]
     spots[C.POWER] = power[keep]
     spots[C.DRIFT] = drift[keep]
@@ -1170,29 +1193,27 @@ def _clean_chunk(raw: pd.DataFrame, layout: _Layout, rows: np.ndarray, region: s
 class _SeenKeys:
     """Set of 64-bit report-key hashes kept as a few sorted arrays (log-structured).
 
-    Queries are sorted first so that the binary searches walk each array in order
+    Queries come sorted, so that the binary searches walk each array in order
     (cache-friendly); arrays of similar size are merged, so there are O(log n) of them.
     """
 
     def __init__(self):
         self.runs: list[np.ndarray] = []
 
-    def contains(self, h: np.ndarray) -> np.ndarray:
-        order = np.argsort(h)
-        hs = h[order]
-        found_sorted = np.zeros(h.size, dtype=bool)
+    def contains_sorted(self, hs: np.ndarray) -> np.ndarray:
+        """Which of the sorted hashes ``hs`` are in the set."""
+        found = np.zeros(hs.size, dtype=bool)
         for run in self.runs:
             pos = np.searchsorted(run, hs)
             pos[pos == run.size] = 0
-            found_sorted |= run[pos] == hs
-        found = np.empty(h.size, dtype=bool)
-        found[order] = found_sorted
+            found |= run[pos] == hs
         return found
 
-    def add(self, h: np.ndarray) -> None:
-        if not h.size:
+    def add_sorted(self, hs: np.ndarray) -> None:
+        """Add sorted hashes not yet in the set."""
+        if not hs.size:
             return
-        self.runs.append(np.sort(h))
+        self.runs.append(hs)
         while len(self.runs) > 1 and self.runs[-1].size * 2 >= self.runs[-2].size:
             b = self.runs.pop()
             a = self.runs.pop()
@@ -1212,8 +1233,20 @@ def _duplicates(spots: dict, seen: _SeenKeys) -> np.ndarray:
             v = spots[name]
             v = v.array if isinstance(v, pd.Index) else v
             h = h * np.uint64(0x100000001B3) ^ pd.util.hash_array(v)
-    dup = pd.Series(h).duplicated().to_numpy() | seen.contains(h)
-    seen.add(h[~dup])
+    order = np.argsort(h)
+    hs = h[order]
+    again = np.zeros(n, dtype=bool)  # sorted position repeats the one before it
+    np.equal(hs[1:], hs[:-1], out=again[1:])
+    if again.any():
+        # within a run of equal hashes the row read first is kept: sort each run by row
+        run_id = np.cumsum(~again) - 1
+        grouped = np.flatnonzero(again | np.append(again[1:], False))
+        sub = np.lexsort((order[grouped], run_id[grouped]))
+        order[grouped] = order[grouped][sub]
+    dup_sorted = again | seen.contains_sorted(hs)
+    dup = np.empty(n, dtype=bool)
+    dup[order] = dup_sorted
+    seen.add_sorted(hs[~dup_sorted])
     return dup
 
 
@@ -1682,16 +1715,24 @@ def ingest_to_parquet(paths, out_path, *, chunk_rows: int = 500_000, rejects_pat
         # statistics for the plain columns only: min/max of the text columns cost a third
         # of the write time and say little (calls and locators are not sorted)
         plain = [n for n in C.CANONICAL if n not in dict_cols]
+        # one chunk is encoded and written in a second thread (pyarrow releases the GIL)
+        # while the next is read and cleaned; at most one chunk waits
         with pq.ParquetWriter(tmp, schema, use_dictionary=dict_cols, compression="snappy",
-                              write_statistics=plain) as writer:
-            wrote = False
+                              write_statistics=plain) as writer, \
+                ThreadPoolExecutor(max_workers=1) as pool:
+            wrote, pending = False, None
             for spots, rejects in _iter_chunk_columns(paths, chunk_rows=chunk_rows,
                                                       summary=summary, **_read_kw(kw)):
                 if (spots is not None and len(spots[C.SOURCE_ROW])) or not wrote:
-                    writer.write_table(_table(spots, schema))
+                    table = _table(spots, schema)
+                    if pending is not None:
+                        pending.result()
+                    pending = pool.submit(writer.write_table, table)
                     wrote = True
                 if rej_fh is not None and len(rejects):
                     rejects[C.REJECT_COLUMNS].to_csv(rej_fh, index=False, header=False)
+            if pending is not None:
+                pending.result()
         tmp.replace(out_path)
     finally:
         if rej_fh is not None:
