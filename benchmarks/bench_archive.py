@@ -176,7 +176,7 @@ def run_coverage(root: Path, n_workers: int, rows: int):
     from distributed import Client, LocalCluster
 
     with LocalCluster(n_workers=n_workers, threads_per_worker=1, processes=True,
-                      dashboard_address=None, memory_limit="1.5GB") as cluster, \
+                      dashboard_address=":0", memory_limit="1.5GB") as cluster, \
             Client(cluster) as client:
         client.run(lambda: None)  # workers up
         with TreeMemory() as mem:

@@ -437,7 +437,7 @@ def dask_scheduler(scheduler: Scheduler = None, *, n_workers: int = 2,
     if scheduler == "local":
         with LocalCluster(n_workers=n_workers, threads_per_worker=threads_per_worker,
                           processes=processes, memory_limit=memory_limit,
-                          dashboard_address=None) as cluster, Client(cluster) as client:
+                          dashboard_address=":0") as cluster, Client(cluster) as client:
             yield {"scheduler": client}
         return
     try:
