@@ -922,11 +922,39 @@ def _raw_chunks(layout: _Layout, chunk_rows: int | None) -> Iterator[tuple[pd.Da
         warnings.warn_explicit(w.message, w.category, w.filename, w.lineno)
 
 
+#: Bytes per block of the pyarrow CSV reader.
+_BLOCK_BYTES = 1 << 24
+
+
+class _RowNumbersUnknown(Exception):
+    """A row was set aside by a multithreaded read, which does not know its line number."""
+
+
 def _arrow_chunks(layout: _Layout, chunk_rows: int | None
                   ) -> Iterator[tuple[pd.DataFrame, list]]:
     """Like :func:`_raw_chunks`, with pyarrow's streaming CSV reader (faster; used for
     comma, semicolon and tab files with decimal points). Rows with too few fields are set
-    aside like rows with too many."""
+    aside like rows with too many.
+
+    The file is read with several threads; those cannot tell the line number of a row with
+    the wrong number of fields, so at the first such row the file is read again in one
+    thread from where the chunks handed out so far end (they held no such row).
+    """
+    done, threads = 0, True
+    while True:
+        try:
+            for raw, skipped in _arrow_pass(layout, chunk_rows, threads, done):
+                done += len(raw)
+                yield raw, skipped
+            return
+        except _RowNumbersUnknown:
+            threads = False
+
+
+def _arrow_pass(layout: _Layout, chunk_rows: int | None, threads: bool, skip: int
+                ) -> Iterator[tuple[pd.DataFrame, list]]:
+    """One read of the file for :func:`_arrow_chunks`, leaving out the first ``skip`` data
+    rows (all good ones)."""
     import pyarrow as pa
     import pyarrow.csv as pacsv
 
@@ -935,40 +963,54 @@ def _arrow_chunks(layout: _Layout, chunk_rows: int | None
     types = {n: pa.dictionary(pa.int32(), pa.string()) if n in cats else pa.string()
              for n in names}
     bad: list = []
+    unknown: list = []
 
     def handler(row):
+        if row.number is None or row.number < 0:
+            unknown.append(row)
         bad.append((row.number, f"expected {row.expected_columns} fields, "
                                 f"saw {row.actual_columns}"))
         return "skip"
 
     encoding = {"utf-8": "utf8", "utf-8-sig": "utf8", "latin-1": "latin1"}[layout.encoding]
     source = pa.input_stream(str(layout.path), compression=layout.compression)
-    reader = pacsv.open_csv(
-        source,
-        read_options=pacsv.ReadOptions(column_names=names, skip_rows=layout.header_lines,
-                                       block_size=1 << 24, use_threads=False,
-                                       encoding=encoding),
-        parse_options=pacsv.ParseOptions(delimiter=layout.sep, invalid_row_handler=handler,
-                                         ignore_empty_lines=False),
-        convert_options=pacsv.ConvertOptions(column_types=types, strings_can_be_null=True,
-                                             quoted_strings_can_be_null=True,
-                                             null_values=[""]))
-    batches, n = [], 0
-
-    def emit():
-        table = pa.Table.from_batches(batches, schema=reader.schema).unify_dictionaries()
-        df = table.combine_chunks().to_pandas()
-        skipped = [(line, msg) for line, msg in bad]
-        bad.clear()
-        return df, skipped
-
     try:
+        reader = pacsv.open_csv(
+            source,
+            read_options=pacsv.ReadOptions(column_names=names, skip_rows=layout.header_lines,
+                                           block_size=_BLOCK_BYTES, use_threads=threads,
+                                           encoding=encoding),
+            parse_options=pacsv.ParseOptions(delimiter=layout.sep, invalid_row_handler=handler,
+                                             ignore_empty_lines=False),
+            convert_options=pacsv.ConvertOptions(column_types=types, strings_can_be_null=True,
+                                                 quoted_strings_can_be_null=True,
+                                                 null_values=[""]))
+        if unknown:
+            raise _RowNumbersUnknown
+        batches, n = [], 0
+
+        def emit():
+            table = pa.Table.from_batches(batches, schema=reader.schema).unify_dictionaries()
+            df = table.combine_chunks().to_pandas()
+            skipped = [(line, msg) for line, msg in bad]
+            bad.clear()
+            return df, skipped
+
         for batch in reader:
+            if unknown:  # the handler runs before the batch holding the row is returned
+                raise _RowNumbersUnknown
+            if skip:
+                k = min(skip, batch.num_rows)
+                batch, skip = batch.slice(k), skip - k
+                if not batch.num_rows:
+                    continue
             batches.append(batch)
             n += batch.num_rows
             if chunk_rows and n >= chunk_rows:
                 yield emit()
                 batches, n = [], 0
+        if unknown:
+            raise _RowNumbersUnknown
         if batches or bad or not chunk_rows:
             yield emit()
     finally:

@@ -473,6 +473,29 @@ def test_both_readers_agree(data_dir, monkeypatch):
     assert fast.summary == slow.summary
 
 
+@pytest.mark.parametrize("bad_rows", [(), (3,), (150, 151, 600), (1199,)])
+def test_multithreaded_reader_rereads_for_row_numbers(tmp_path, monkeypatch, bad_rows):
+    # small blocks, so the file is read by several threads; a row with the wrong number of
+    # fields makes the reader start again in one thread where the chunks handed out end:
+    # same table and same rejects (with their row numbers) as the pandas reader
+    import spotkit.ingest as ingest
+
+    rows = [f"2026-03-01 10:{2 * (i % 30):02d},Q{i % 7}AB,JN58td,Q{i % 5}XY,IO91lk,14.0971,"
+            f"{-20 + i % 31},23,{i % 3 - 1}" for i in range(1200)]
+    for r in bad_rows:
+        rows[r - 1] = rows[r - 1] + ",extra"
+    path = _write(tmp_path, "t.csv", HEAD + "\n".join(rows) + "\n")
+    monkeypatch.setattr(ingest, "_BLOCK_BYTES", 2048)
+    fast = read_spots(path, chunk_rows=100)
+    assert list(fast.rejects[C.SOURCE_ROW]) == list(bad_rows)
+    monkeypatch.setattr(ingest, "_arrow_chunks", ingest._raw_chunks)
+    slow = read_spots(path, chunk_rows=100)
+    pdt.assert_frame_equal(fast.spots, slow.spots)
+    pdt.assert_frame_equal(fast.rejects, slow.rejects)
+    assert fast.summary == slow.summary
+    _balanced(fast)
+
+
 def test_heading_line_only(tmp_path):
     res = read_spots(_write(tmp_path, "h.csv", HEAD))
     assert res.summary.rows_read == 0 and res.spots.empty and list(res.spots.columns) == C.CANONICAL
