@@ -923,7 +923,7 @@ def _raw_chunks(layout: _Layout, chunk_rows: int | None) -> Iterator[tuple[pd.Da
 
 
 #: Bytes per block of the pyarrow CSV reader.
-_BLOCK_BYTES = 1 << 24
+_BLOCK_BYTES = 1 << 26
 
 
 class _RowNumbersUnknown(Exception):
@@ -1275,20 +1275,20 @@ def _duplicates(spots: dict, seen: _SeenKeys) -> np.ndarray:
             v = spots[name]
             v = v.array if isinstance(v, pd.Index) else v
             h = h * np.uint64(0x100000001B3) ^ pd.util.hash_array(v)
-    order = np.argsort(h)
-    hs = h[order]
+    hs = np.sort(h)
     again = np.zeros(n, dtype=bool)  # sorted position repeats the one before it
     np.equal(hs[1:], hs[:-1], out=again[1:])
-    if again.any():
-        # within a run of equal hashes the row read first is kept: sort each run by row
-        run_id = np.cumsum(~again) - 1
-        grouped = np.flatnonzero(again | np.append(again[1:], False))
-        sub = np.lexsort((order[grouped], run_id[grouped]))
-        order[grouped] = order[grouped][sub]
-    dup_sorted = again | seen.contains_sorted(hs)
-    dup = np.empty(n, dtype=bool)
-    dup[order] = dup_sorted
-    seen.add_sorted(hs[~dup_sorted])
+    found = seen.contains_sorted(hs)
+    seen.add_sorted(hs[~again & ~found])  # sorted, distinct, new
+    dup = np.zeros(n, dtype=bool)
+    if again.any() or found.any():
+        # the few rows whose hash repeats: a repeat within the chunk (the row read first is
+        # kept) or a hash seen in an earlier chunk
+        repeated = np.unique(hs[again | found])
+        cand = np.flatnonzero(pd.Index(repeated).get_indexer(h) >= 0)
+        hc = h[cand]
+        dup[cand] = (pd.Series(hc).duplicated().to_numpy()
+                     | (pd.Index(np.unique(hs[found])).get_indexer(hc) >= 0))
     return dup
 
 
@@ -1759,8 +1759,11 @@ def ingest_to_parquet(paths, out_path, *, chunk_rows: int = 500_000, rejects_pat
         plain = [n for n in C.CANONICAL if n not in dict_cols]
         # one chunk is encoded and written in a second thread (pyarrow releases the GIL)
         # while the next is read and cleaned; at most one chunk waits
-        with pq.ParquetWriter(tmp, schema, use_dictionary=dict_cols, compression="snappy",
-                              write_statistics=plain) as writer, \
+        # numbers with few distinct values (positions of locators, SNR, power, drift) are
+        # dictionary-encoded too: smaller and faster to write than plain + snappy
+        few = [C.TX_LAT, C.TX_LON, C.RX_LAT, C.RX_LON, C.SNR, C.POWER, C.DRIFT]
+        with pq.ParquetWriter(tmp, schema, use_dictionary=dict_cols + few,
+                              compression="snappy", write_statistics=plain) as writer, \
                 ThreadPoolExecutor(max_workers=1) as pool:
             wrote, pending = False, None
             for spots, rejects in _iter_chunk_columns(paths, chunk_rows=chunk_rows,
