@@ -930,6 +930,11 @@ class _RowNumbersUnknown(Exception):
     """A row was set aside by a multithreaded read, which does not know its line number."""
 
 
+class _NotPlainNumbers(Exception):
+    """A numeric column has a cell that is not a plain decimal number (or spells NaN or
+    infinity): it must be read as text to tell empty, bad and out-of-range cells apart."""
+
+
 def _arrow_chunks(layout: _Layout, chunk_rows: int | None
                   ) -> Iterator[tuple[pd.DataFrame, list]]:
     """Like :func:`_raw_chunks`, with pyarrow's streaming CSV reader (faster; used for
@@ -938,30 +943,37 @@ def _arrow_chunks(layout: _Layout, chunk_rows: int | None
 
     The file is read with several threads; those cannot tell the line number of a row with
     the wrong number of fields, so at the first such row the file is read again in one
-    thread from where the chunks handed out so far end (they held no such row).
+    thread from where the chunks handed out so far end (they held no such row). Likewise
+    the numeric columns are first parsed as numbers by the reader, and read again as text
+    from there at the first cell that is not a plain number.
     """
-    done, threads = 0, True
+    done, threads, numbers = 0, True, True
     while True:
         try:
-            for raw, skipped in _arrow_pass(layout, chunk_rows, threads, done):
+            for raw, skipped in _arrow_pass(layout, chunk_rows, threads, done, numbers):
                 done += len(raw)
                 yield raw, skipped
             return
         except _RowNumbersUnknown:
             threads = False
+        except _NotPlainNumbers:
+            numbers = False
 
 
-def _arrow_pass(layout: _Layout, chunk_rows: int | None, threads: bool, skip: int
-                ) -> Iterator[tuple[pd.DataFrame, list]]:
+def _arrow_pass(layout: _Layout, chunk_rows: int | None, threads: bool, skip: int,
+                numbers: bool = False) -> Iterator[tuple[pd.DataFrame, list]]:
     """One read of the file for :func:`_arrow_chunks`, leaving out the first ``skip`` data
-    rows (all good ones)."""
+    rows (all good ones); ``numbers``: parse the numeric columns as float64."""
     import pyarrow as pa
+    import pyarrow.compute as pc
     import pyarrow.csv as pacsv
 
     names = [f"c{i}" for i in range(layout.ncols)]
     cats = {names[i] for f, pos in layout.fields.items() if f in _CAT_FIELDS for i in pos}
-    types = {n: pa.dictionary(pa.int32(), pa.string()) if n in cats else pa.string()
-             for n in names}
+    nums = {names[i] for f, pos in layout.fields.items()
+            if f in (C.FREQ, C.SNR, C.POWER, C.DRIFT) for i in pos} if numbers else set()
+    types = {n: pa.dictionary(pa.int32(), pa.string()) if n in cats
+             else pa.float64() if n in nums else pa.string() for n in names}
     bad: list = []
     unknown: list = []
 
@@ -972,11 +984,15 @@ def _arrow_pass(layout: _Layout, chunk_rows: int | None, threads: bool, skip: in
                                 f"saw {row.actual_columns}"))
         return "skip"
 
+    def plain(batch) -> bool:  # parsed numbers all finite or empty
+        return not any(pc.any(pc.invert(pc.is_finite(batch.column(n)))).as_py()
+                       for n in nums)
+
     encoding = {"utf-8": "utf8", "utf-8-sig": "utf8", "latin-1": "latin1"}[layout.encoding]
     source = pa.input_stream(str(layout.path), compression=layout.compression)
     try:
-        reader = pacsv.open_csv(
-            source,
+        reader = _open_csv(
+            pacsv, source, nums,
             read_options=pacsv.ReadOptions(column_names=names, skip_rows=layout.header_lines,
                                            block_size=_BLOCK_BYTES, use_threads=threads,
                                            encoding=encoding),
@@ -988,6 +1004,7 @@ def _arrow_pass(layout: _Layout, chunk_rows: int | None, threads: bool, skip: in
         if unknown:
             raise _RowNumbersUnknown
         batches, n = [], 0
+        batch_iter = iter(reader)
 
         def emit():
             table = pa.Table.from_batches(batches, schema=reader.schema).unify_dictionaries()
@@ -996,9 +1013,19 @@ def _arrow_pass(layout: _Layout, chunk_rows: int | None, threads: bool, skip: in
             bad.clear()
             return df, skipped
 
-        for batch in reader:
+        while True:
+            try:
+                batch = next(batch_iter)
+            except StopIteration:
+                break
+            except pa.ArrowInvalid:
+                if nums:  # a cell the number parser refused: read as text from here
+                    raise _NotPlainNumbers from None
+                raise
             if unknown:  # the handler runs before the batch holding the row is returned
                 raise _RowNumbersUnknown
+            if nums and not plain(batch):
+                raise _NotPlainNumbers
             if skip:
                 k = min(skip, batch.num_rows)
                 batch, skip = batch.slice(k), skip - k
@@ -1015,6 +1042,19 @@ def _arrow_pass(layout: _Layout, chunk_rows: int | None, threads: bool, skip: in
             yield emit()
     finally:
         source.close()
+
+
+def _open_csv(pacsv, source, nums, **kw):
+    """``pacsv.open_csv``; a cell the number parser refuses in the first block (read at
+    once) raises :class:`_NotPlainNumbers`."""
+    import pyarrow as pa
+
+    try:
+        return pacsv.open_csv(source, **kw)
+    except pa.ArrowInvalid:
+        if nums:
+            raise _NotPlainNumbers from None
+        raise
 
 
 def _skipped_lines(caught) -> list:

@@ -496,6 +496,33 @@ def test_multithreaded_reader_rereads_for_row_numbers(tmp_path, monkeypatch, bad
     _balanced(fast)
 
 
+@pytest.mark.parametrize("cell,row", [("nan", 2), ("inf", 700), ("1e999", 700), (" -12", 2),
+                                      ("-12 ", 700), ("x", 700), ("", 700), ("1,5", 2)])
+def test_numbers_parsed_by_reader_fall_back_to_text(tmp_path, monkeypatch, cell, row):
+    # the reader parses SNR, frequency, power and drift as numbers and reads the file again
+    # as text from the first odd cell on: same table, rejects and summary as reading text
+    import spotkit.ingest as ingest
+
+    rows = [f"2026-03-01 10:{2 * (i % 30):02d},Q{i % 7}AB,JN58td,Q{i % 5}XY,IO91lk,14.0971,"
+            f"{-20 + i % 31},23,{i % 3 - 1}" for i in range(1000)]
+    parts = rows[row - 1].split(",")
+    parts[6] = cell
+    rows[row - 1] = ",".join(parts)
+    path = _write(tmp_path, "n.csv", HEAD + "\n".join(rows) + "\n")
+    monkeypatch.setattr(ingest, "_BLOCK_BYTES", 2048)
+    got = read_spots(path, chunk_rows=100)
+
+    def text_only(layout, chunk_rows):
+        return ingest._arrow_pass(layout, chunk_rows, False, 0, False)
+
+    monkeypatch.setattr(ingest, "_arrow_chunks", text_only)
+    ref = read_spots(path, chunk_rows=100)
+    pdt.assert_frame_equal(got.spots, ref.spots)
+    pdt.assert_frame_equal(got.rejects, ref.rejects)
+    assert got.summary == ref.summary
+    _balanced(got)
+
+
 def test_heading_line_only(tmp_path):
     res = read_spots(_write(tmp_path, "h.csv", HEAD))
     assert res.summary.rows_read == 0 and res.spots.empty and list(res.spots.columns) == C.CANONICAL
