@@ -13,9 +13,9 @@
    tables must be identical.
 3. Writes a spot CSV three times larger than a memory cap (``--memory-mb``, default 300;
    rows from about one million distinct locator pairs) and ingests it into an archive with
-   :func:`spotkit.store.ingest_to_dataset` (``memory_mb`` = the cap) in a child process;
+   :func:`spotkit.archive.ingest_to_dataset` (``memory_mb`` = the cap) in a child process;
    prints the cap and the child's peak resident memory (target: under the cap). When the
-   memory model of :func:`spotkit.store.chunk_rows_for_memory` refuses the cap (the
+   memory model of :func:`spotkit.archive.chunk_rows_for_memory` refuses the cap (the
    reader's duplicate-key set grows with the input), the run is made with small chunks
    and the refusal is printed beside the measurement.
 
@@ -46,8 +46,8 @@ import pyarrow as pa
 import pyarrow.parquet as pq
 
 from spotkit import columns as C
+from spotkit import archive, store
 from spotkit import distributed as D
-from spotkit import store
 from spotkit.bands import BEACON_DIAL_KHZ
 from spotkit.errors import UsageError
 from spotkit.locator import latlon_to_locator
@@ -242,10 +242,10 @@ def make_csv(path: Path, target_bytes: int, seed: int = 3, n_pairs: int = 1_000_
 def run_ingest(csv: Path, root: Path, memory_mb: float | None, chunk_rows: int | None):
     if root.exists():
         shutil.rmtree(root)
-    code = ("import sys; from spotkit import store; "
+    code = ("import sys; from spotkit import archive; "
             "m = None if sys.argv[3] == 'none' else float(sys.argv[3]); "
             "c = None if sys.argv[4] == 'none' else int(sys.argv[4]); "
-            "s = store.ingest_to_dataset(sys.argv[1], sys.argv[2], memory_mb=m, chunk_rows=c); "
+            "s = archive.ingest_to_dataset(sys.argv[1], sys.argv[2], memory_mb=m, chunk_rows=c); "
             "print(s.accepted, s.rejected, s.duplicates)")
     t0 = time.perf_counter()
     proc = subprocess.Popen([sys.executable, "-c", code, str(csv), str(root),
@@ -309,7 +309,7 @@ def main(argv=None) -> int:
                   f"{time.perf_counter() - t0:.1f} s")
         size = csv.stat().st_size
         try:
-            chunk = store.chunk_rows_for_memory(args.memory_mb, total_input_bytes=size)
+            chunk = archive.chunk_rows_for_memory(args.memory_mb, total_input_bytes=size)
             how, mem_arg, chunk_arg = f"memory_mb={args.memory_mb:.0f} -> chunk {chunk:,} rows", \
                 args.memory_mb, None
         except UsageError as exc:

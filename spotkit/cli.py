@@ -726,7 +726,7 @@ def _archive_ingest(args):
     """The ``ingest --dataset/--memory-mb`` branch; None when neither option is given."""
     from pathlib import Path
 
-    from .store import chunk_rows_for_memory, ingest_to_dataset
+    from .archive import chunk_rows_for_memory, ingest_to_dataset
 
     dataset, memory_mb = getattr(args, "dataset", None), getattr(args, "memory_mb", None)
     if dataset and args.output:

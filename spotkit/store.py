@@ -18,13 +18,8 @@ statistics exclude the query. Tables come back with the glossary dtypes
 (:func:`spotkit.columns.apply_dtypes`): tz-aware UTC times, categoricals for callsigns,
 locators and bands.
 
-CSV exports go in with :func:`ingest_to_dataset`: the files are read chunk by chunk by
-:func:`spotkit.ingest.iter_spot_chunks`, each chunk is split by partition and written at
-once, so memory is bounded by the chunk size (``memory_mb`` picks it, see
-:func:`chunk_rows_for_memory`) plus what the reader keeps across chunks: its duplicate-key
-set (8 bytes per distinct report, briefly about three times that while two sorted runs of
-it merge) and its locator-pair cache. The key set grows with the input, so an input much
-larger than the memory cap cannot be ingested under it (the cap is refused).
+CSV exports go in with :func:`spotkit.archive.ingest_to_dataset`, which reads them chunk by
+chunk and appends each chunk through this module's writer.
 
 Known limits: partitioning by slot day keeps every spot of one slot in one partition, but a
 run of slots that crosses midnight UTC is split over two partitions (see
@@ -375,173 +370,6 @@ def append_to_dataset(df: pd.DataFrame, root, *, partition_by: Sequence[str] = P
     return entry
 
 
-#: Rough resident size of a Python process with spotkit, pandas and pyarrow loaded [MiB]
-#: (measured by benchmarks/bench_archive.py).
-BASE_MEMORY_MB = 200
-#: Peak memory per row of a chunk while it is parsed, validated, enriched and written
-#: [bytes] (measured by benchmarks/bench_archive.py; the ingest module says about 1 kB).
-CHUNK_BYTES_PER_ROW = 1500
-#: Memory per distinct report kept by the reader to find duplicates across chunks [bytes]:
-#: 8-byte hashes, about three times that while its two largest sorted runs merge.
-SEEN_BYTES_PER_ROW = 24
-#: Bytes per CSV row assumed when estimating a file's row count for the duplicate keys.
-CSV_BYTES_PER_ROW = 60
-MIN_CHUNK_ROWS = 1000
-
-
-def chunk_rows_for_memory(memory_mb: float, *, total_input_bytes: int = 0) -> int:
-    """Chunk size [rows] that keeps an archive ingest under ``memory_mb`` [MiB].
-
-    Budget: ``memory_mb = BASE_MEMORY_MB + rows_estimate * SEEN_BYTES_PER_ROW / 2**20
-    + chunk_rows * CHUNK_BYTES_PER_ROW / 2**20``, with ``rows_estimate`` the input size over
-    :data:`CSV_BYTES_PER_ROW` (gzip files count 5x their size). The constants are
-    measurements on one machine, not guarantees; the benchmark checks them. Not modelled:
-    the reader's cache of locator-pair geometry (about 64 bytes per distinct pair, up to
-    three times that while it grows), small for the usual ~1 million pairs.
-
-    Because the reader keeps every report's key to find duplicates, the memory needed
-    grows with the input (about 24/60 of the CSV size at its peak): a cap far below the
-    input size cannot be honoured and is refused rather than exceeded silently.
-
-    Raises
-    ------
-    UsageError
-        When the cap leaves room for fewer than :data:`MIN_CHUNK_ROWS` rows per chunk.
-    """
-    if not np.isfinite(memory_mb) or memory_mb <= 0:
-        raise UsageError(f"memory_mb must be a positive number of MiB, not {memory_mb!r}")
-    seen_mb = total_input_bytes / CSV_BYTES_PER_ROW * SEEN_BYTES_PER_ROW / 2**20
-    room = (memory_mb - BASE_MEMORY_MB - seen_mb) * 2**20
-    rows = int(room // CHUNK_BYTES_PER_ROW)
-    if rows < MIN_CHUNK_ROWS:
-        need = BASE_MEMORY_MB + seen_mb + MIN_CHUNK_ROWS * CHUNK_BYTES_PER_ROW / 2**20
-        raise UsageError(f"a memory cap of {memory_mb:g} MiB is too small for this input; "
-                         f"it needs at least {need:.0f} MiB")
-    return rows
-
-
-def _input_bytes(paths: Sequence[Path]) -> int:
-    total = 0
-    for p in paths:
-        size = p.stat().st_size
-        total += size * 5 if p.suffix.lower() in (".gz", ".gzip") else size
-    return total
-
-
-def ingest_to_dataset(paths, root, *, chunk_rows: int | None = None,
-                      memory_mb: float | None = None,
-                      partition_by: Sequence[str] = PARTITION_KEYS, progress: bool = False,
-                      **read_kw):
-    """Read spot CSV files chunk by chunk and append them to a partitioned archive.
-
-    Every input file's SHA-256 is checked against the archive's manifest first: a file
-    already appended (or given twice) is refused with :class:`~spotkit.errors.InputError`
-    and nothing is written. The files are read by :func:`spotkit.ingest.iter_spot_chunks`
-    (duplicates removed across chunks and files of this call), each chunk is split by
-    partition and written as it comes, so peak memory is bounded by the chunk size. Rejected
-    rows are kept as ``<root>/_rejects/<token>.csv``. Files land in the archive only when all
-    inputs were read; on an error nothing is added.
-
-    Parameters
-    ----------
-    paths : str, path-like or sequence of them
-        Spot CSV files.
-    root : str or path-like
-        Archive directory (created if missing).
-    chunk_rows : int, optional
-        Rows per chunk.
-    memory_mb : float, optional
-        Memory cap [MiB]; sets ``chunk_rows`` by :func:`chunk_rows_for_memory` (the smaller
-        of the two when both are given). Default without either: 500,000 rows.
-    partition_by : sequence of {"band", "day"}
-        Partition keys (must match an existing archive).
-    progress : bool
-        Progress bar on stderr.
-    **read_kw
-        Keywords of :func:`spotkit.ingest.read_spots` (mapping, units, delimiter, header,
-        slot_minutes, region).
-
-    Returns
-    -------
-    spotkit.ingest.IngestSummary
-        Counts over all files; the manifest has one batch per file.
-    """
-    # The one call upwards (store is below ingest): imported here, so the archive writer
-    # itself does not depend on the reader.
-    from .ingest import IngestSummary, iter_spot_chunks
-
-    if isinstance(paths, (str, os.PathLike)):
-        paths = [paths]
-    paths = [Path(p) for p in paths]
-    if not paths:
-        raise UsageError("no input files given")
-    for p in paths:
-        if not p.is_file():
-            raise FileNotFoundError(f"{p}: no such file")
-    if memory_mb is not None:
-        by_mem = chunk_rows_for_memory(memory_mb, total_input_bytes=_input_bytes(paths))
-        chunk_rows = by_mem if chunk_rows is None else min(chunk_rows, by_mem)
-    elif chunk_rows is None:
-        chunk_rows = 500_000
-    root = Path(root)
-    manifest = _prepare_root(root, partition_by)
-    hashes = {}
-    for p in paths:
-        h = file_sha256(p)
-        _check_new_hash(root, manifest, h, str(p))
-        if h in hashes.values():
-            first = next(q for q, v in hashes.items() if v == h)
-            raise InputError(f"{p}: same content as {first} (SHA-256 {h[:12]}...); "
-                             "give each export once")
-        hashes[p] = h
-    summary = IngestSummary()
-    apps: dict[int, _Appender] = {}  # by position of the input file
-    rej_fhs: dict[int, Any] = {}
-    rej_counts: dict[int, int] = {}
-    try:
-        for spots, rejects in iter_spot_chunks(paths, chunk_rows=chunk_rows, summary=summary,
-                                               progress=progress, **read_kw):
-            i = len(summary.files) - 1
-            app = apps.get(i)
-            if app is None:
-                app = apps[i] = _Appender(root, partition_by, uuid.uuid4().hex[:12])
-            if len(spots):
-                app.write(_to_arrow(spots))
-            if len(rejects):
-                fh = rej_fhs.get(i)
-                if fh is None:
-                    (app.staging / REJECTS_DIR).mkdir(parents=True, exist_ok=True)
-                    fh = rej_fhs[i] = open(app.staging / REJECTS_DIR / f"{app.token}.csv", "w",
-                                           encoding="utf-8", newline="")
-                    rejects[C.REJECT_COLUMNS].iloc[:0].to_csv(fh, index=False)
-                rejects[C.REJECT_COLUMNS].to_csv(fh, index=False, header=False)
-                rej_counts[i] = rej_counts.get(i, 0) + len(rejects)
-        for fh in rej_fhs.values():
-            fh.close()
-        for app in apps.values():
-            app.close()
-    except BaseException:
-        for fh in rej_fhs.values():
-            fh.close()
-        for app in apps.values():
-            app.abort()
-        raise
-    for i, p in enumerate(paths):
-        app = apps.get(i) or _Appender(root, partition_by, uuid.uuid4().hex[:12])
-        rej_rel = None
-        if i in rej_fhs:
-            (root / REJECTS_DIR).mkdir(exist_ok=True)
-            rej_rel = f"{REJECTS_DIR}/{app.token}.csv"
-            os.replace(app.staging / rej_rel, root / rej_rel)
-        files = app.commit()
-        manifest["batches"].append({
-            "token": app.token, "sha256": hashes[p], "source": str(p), "rows": app.rows,
-            "rejected": rej_counts.get(i, 0), "rejects": rej_rel, "written_utc": _now(),
-            "files": files})
-    _write_manifest(root, manifest)
-    return summary
-
-
 def _now() -> str:
     return _dt.datetime.now(_dt.timezone.utc).isoformat(timespec="seconds")
 
@@ -815,5 +643,5 @@ __all__ = [
     "DAY", "PARTITION_KEYS", "MANIFEST_NAME", "REJECTS_DIR", "ROW_GROUP_ROWS",
     "write_spots", "read_spots_parquet", "append_to_dataset", "read_dataset",
     "dataset_manifest", "dataset_filter", "file_sha256", "table_to_spots", "archive_files",
-    "read_archive_file", "normalise_categories", "ingest_to_dataset", "chunk_rows_for_memory",
+    "read_archive_file", "normalise_categories",
 ]

@@ -5,7 +5,6 @@ down) must equal the in-memory table selected with plain boolean masks.
 """
 from __future__ import annotations
 
-import os
 
 import numpy as np
 import pandas as pd
@@ -13,7 +12,7 @@ import pyarrow.compute as pc
 import pytest
 
 from spotkit import columns as C
-from spotkit import store
+from spotkit import archive, store
 from spotkit.errors import InputError, UsageError
 
 CALLS_TX = ["Q1ABC", "Q7XYZ", "Q3KLM"]
@@ -236,7 +235,7 @@ def test_ingest_to_dataset_tiny_chunks_equals_in_memory(tmp_path):
     want = read_spots(path)  # in one go, in memory
     assert want.summary.rejected >= 1 and want.summary.duplicates == 2
     root = tmp_path / "arch"
-    summary = store.ingest_to_dataset(path, root, chunk_rows=37)
+    summary = archive.ingest_to_dataset(path, root, chunk_rows=37)
     got = store.read_dataset(root)
     assert_same_spots(got, want.spots)
     assert (summary.rows_read, summary.accepted, summary.rejected, summary.duplicates) == (
@@ -253,16 +252,16 @@ def test_ingest_to_dataset_refuses_same_file_and_appends_new(tmp_path):
     a = spots_csv(make_spots(300, seed=6), tmp_path / "a.csv")
     b = spots_csv(make_spots(200, seed=7, start="2026-12-02 00:00"), tmp_path / "b.csv")
     root = tmp_path / "arch"
-    store.ingest_to_dataset(a, root, memory_mb=400)
+    archive.ingest_to_dataset(a, root, memory_mb=400)
     files_before = sorted(p.name for p in root.rglob("*.parquet"))
     copy = tmp_path / "renamed-copy.csv"
     copy.write_bytes(a.read_bytes())
     with pytest.raises(InputError, match="already in the archive"):
-        store.ingest_to_dataset([b, copy], root)  # refused before anything is written
+        archive.ingest_to_dataset([b, copy], root)  # refused before anything is written
     assert sorted(p.name for p in root.rglob("*.parquet")) == files_before
     with pytest.raises(InputError, match="same content"):
-        store.ingest_to_dataset([b, b], root)
-    store.ingest_to_dataset(b, root, chunk_rows=50)
+        archive.ingest_to_dataset([b, b], root)
+    archive.ingest_to_dataset(b, root, chunk_rows=50)
     man = store.dataset_manifest(root)
     assert [m["source"] for m in man["batches"]] == [str(a), str(b)]
     assert len(store.read_dataset(root)) == 500
@@ -271,13 +270,13 @@ def test_ingest_to_dataset_refuses_same_file_and_appends_new(tmp_path):
 
 def test_chunk_rows_for_memory():
     # budget formula (see the docstring): base + seen keys + chunk
-    rows = store.chunk_rows_for_memory(1000)
-    assert rows == int((1000 - store.BASE_MEMORY_MB) * 2**20 // store.CHUNK_BYTES_PER_ROW)
-    assert store.chunk_rows_for_memory(1000, total_input_bytes=6 * 10**8) < rows
+    rows = archive.chunk_rows_for_memory(1000)
+    assert rows == int((1000 - archive.BASE_MEMORY_MB) * 2**20 // archive.CHUNK_BYTES_PER_ROW)
+    assert archive.chunk_rows_for_memory(1000, total_input_bytes=6 * 10**8) < rows
     with pytest.raises(UsageError, match="too small"):
-        store.chunk_rows_for_memory(store.BASE_MEMORY_MB)
+        archive.chunk_rows_for_memory(archive.BASE_MEMORY_MB)
     with pytest.raises(UsageError, match="positive"):
-        store.chunk_rows_for_memory(-5)
+        archive.chunk_rows_for_memory(-5)
 
 
 # --- command line -----------------------------------------------------------------------------
