@@ -1585,7 +1585,9 @@ def _iter_chunk_columns(paths, *, mapping, units, delimiter, header, slot_minute
             next_row = 1
             skipped_all: dict[int, str] = {}
             fast = layout.sep in (",", ";", "\t") and layout.decimal == "."
-            for raw, skipped in (_arrow_chunks if fast else _raw_chunks)(layout, chunk_rows):
+            chunks = _prefetch(_arrow_chunks(layout, chunk_rows)) if fast \
+                else _raw_chunks(layout, chunk_rows)
+            for raw, skipped in chunks:
                 for line, msg in skipped:
                     skipped_all[line - layout.header_lines] = msg
                 rows, next_row = _row_numbers(len(raw), next_row, skipped_all)
@@ -1615,6 +1617,54 @@ def _iter_chunk_columns(paths, *, mapping, units, delimiter, header, slot_minute
     finally:
         if bar is not None:
             bar.close()
+
+
+def _prefetch(chunks: Iterator) -> Iterator:
+    """Run the iterator ``chunks`` in a second thread, one item ahead of the consumer (the
+    CSV reader releases the GIL while it parses, so reading overlaps cleaning)."""
+    import queue
+    import threading
+
+    q: queue.Queue = queue.Queue(maxsize=1)
+    stop = threading.Event()
+    done = object()
+
+    def put(item) -> bool:
+        while not stop.is_set():
+            try:
+                q.put(item, timeout=0.1)
+                return True
+            except queue.Full:
+                continue
+        return False
+
+    def run():
+        try:
+            for item in chunks:
+                if not put((None, item)):
+                    return
+            put((None, done))
+        except BaseException as exc:  # handed to the consumer
+            put((exc, None))
+        finally:
+            if stop.is_set():
+                close = getattr(chunks, "close", None)
+                if close is not None:
+                    close()
+
+    worker = threading.Thread(target=run, name="spotkit-ingest-reader", daemon=True)
+    worker.start()
+    try:
+        while True:
+            exc, item = q.get()
+            if exc is not None:
+                raise exc
+            if item is done:
+                return
+            yield item
+    finally:
+        stop.set()
+        worker.join()
 
 
 def _tidy_rejects(rejects: pd.DataFrame) -> pd.DataFrame:

@@ -523,6 +523,34 @@ def test_numbers_parsed_by_reader_fall_back_to_text(tmp_path, monkeypatch, cell,
     _balanced(got)
 
 
+def test_prefetch_passes_items_errors_and_stops_early():
+    from spotkit.ingest import _prefetch
+
+    assert list(_prefetch(iter(range(5)))) == [0, 1, 2, 3, 4]
+
+    def failing():
+        yield 1
+        raise InputError("bad block")
+
+    with pytest.raises(InputError, match="bad block"):
+        list(_prefetch(failing()))
+    closed = []
+
+    def endless():
+        try:
+            i = 0
+            while True:
+                yield i
+                i += 1
+        finally:
+            closed.append(True)
+
+    it = _prefetch(endless())
+    assert next(it) == 0 and next(it) == 1
+    it.close()  # the reading thread stops and closes its source
+    assert closed == [True]
+
+
 def test_heading_line_only(tmp_path):
     res = read_spots(_write(tmp_path, "h.csv", HEAD))
     assert res.summary.rows_read == 0 and res.spots.empty and list(res.spots.columns) == C.CANONICAL
