@@ -926,6 +926,13 @@ def _raw_chunks(layout: _Layout, chunk_rows: int | None) -> Iterator[tuple[pd.Da
 _BLOCK_BYTES = 1 << 26
 
 
+def _block_bytes(chunk_rows: int | None) -> int:
+    """Reader block size: about one chunk (64 bytes a row), 1 MB to :data:`_BLOCK_BYTES`."""
+    if not chunk_rows:
+        return _BLOCK_BYTES
+    return int(min(_BLOCK_BYTES, max(1 << 20, 64 * chunk_rows)))
+
+
 class _RowNumbersUnknown(Exception):
     """A row was set aside by a multithreaded read, which does not know its line number."""
 
@@ -994,7 +1001,8 @@ def _arrow_pass(layout: _Layout, chunk_rows: int | None, threads: bool, skip: in
         reader = _open_csv(
             pacsv, source, nums,
             read_options=pacsv.ReadOptions(column_names=names, skip_rows=layout.header_lines,
-                                           block_size=_BLOCK_BYTES, use_threads=threads,
+                                           block_size=_block_bytes(chunk_rows),
+                                           use_threads=threads,
                                            encoding=encoding),
             parse_options=pacsv.ParseOptions(delimiter=layout.sep, invalid_row_handler=handler,
                                              ignore_empty_lines=False),
