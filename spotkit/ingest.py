@@ -1815,7 +1815,7 @@ def _arrow_schema():
     return pa.schema(fields)
 
 
-def ingest_to_parquet(paths, out_path, *, chunk_rows: int = 500_000, rejects_path=None,
+def ingest_to_parquet(paths, out_path, *, chunk_rows: int = 1_000_000, rejects_path=None,
                       **kw) -> IngestSummary:
     """Stream spot files to one Parquet file chunk by chunk (bounded memory).
 
@@ -1826,7 +1826,8 @@ def ingest_to_parquet(paths, out_path, *, chunk_rows: int = 500_000, rejects_pat
     out_path : str or path-like
         Parquet file to write (the canonical table, glossary dtypes).
     chunk_rows : int
-        Rows per chunk; peak memory grows with it (roughly 1 kB per row).
+        Rows per chunk; peak memory grows with it (roughly 1 kB per row: two chunks are in
+        flight, one being read while the one before is cleaned and written).
     rejects_path : str or path-like, optional
         CSV file for the rejects table.
     **kw
