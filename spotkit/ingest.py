@@ -923,14 +923,14 @@ def _raw_chunks(layout: _Layout, chunk_rows: int | None) -> Iterator[tuple[pd.Da
 
 
 #: Bytes per block of the pyarrow CSV reader.
-_BLOCK_BYTES = 1 << 26
+_BLOCK_BYTES = 1 << 27
 
 
 def _block_bytes(chunk_rows: int | None) -> int:
-    """Reader block size: about one chunk (64 bytes a row), 1 MB to :data:`_BLOCK_BYTES`."""
+    """Reader block size: about one chunk (72 bytes a row), 1 MB to :data:`_BLOCK_BYTES`."""
     if not chunk_rows:
         return _BLOCK_BYTES
-    return int(min(_BLOCK_BYTES, max(1 << 20, 64 * chunk_rows)))
+    return int(min(_BLOCK_BYTES, max(1 << 20, 72 * chunk_rows)))
 
 
 class _RowNumbersUnknown(Exception):
@@ -1393,7 +1393,9 @@ class _PathCache:
         self.ids = ({}, {})  # locator text -> number, for tx and rx
         self.pos = ([np.zeros(0), np.zeros(0)], [np.zeros(0), np.zeros(0)])  # lat, lon
         self.table = np.full((0, 0), -1, dtype=np.int32)  # pair -> column of vals
-        self.vals = np.zeros((3, 0))  # distance [km], bearing, reverse bearing [deg]
+        # one row per pair: distance [km], bearing, reverse bearing [deg] (rows, so that
+        # looking a pair up touches one cache line)
+        self.vals = np.zeros((0, 3))
         self.n_vals = 0
         self.hashed = None  # _HashedPathCache once the dense table is too big
 
@@ -1423,7 +1425,7 @@ class _PathCache:
         if ntx * nrx > self.MAX_CELLS:
             self.hashed = _HashedPathCache()
             self.table = np.full((0, 0), -1, dtype=np.int32)
-            self.vals = np.zeros((3, 0))
+            self.vals = np.zeros((0, 3))
             return self.hashed.lookup(tx, rx)
         if ntx > self.table.shape[0] or nrx > self.table.shape[1]:
             shape = (max(ntx, self.table.shape[0] * 5 // 4),
@@ -1440,18 +1442,20 @@ class _PathCache:
             mt, mr = np.divmod(key, nrx)
             (tlat, tlon), (rlat, rlon) = self.pos
             dist_m, azi, rev = geodesic_inverse(tlat[mt], tlon[mt], rlat[mr], rlon[mr])
-            new = np.vstack([np.asarray(dist_m, dtype=float) / 1000.0, azi, rev])
-            if self.n_vals + key.size > self.vals.shape[1]:
-                grown = np.zeros((3, max(2 * self.vals.shape[1], self.n_vals + key.size)))
-                grown[:, :self.n_vals] = self.vals[:, :self.n_vals]
+            new = np.column_stack([np.asarray(dist_m, dtype=float) / 1000.0, azi, rev])
+            if self.n_vals + key.size > self.vals.shape[0]:
+                grown = np.zeros((max(2 * self.vals.shape[0], self.n_vals + key.size), 3))
+                grown[:self.n_vals] = self.vals[:self.n_vals]
                 self.vals = grown
-            self.vals[:, self.n_vals:self.n_vals + key.size] = new
+            self.vals[self.n_vals:self.n_vals + key.size] = new
             self.table[mt, mr] = np.arange(self.n_vals, self.n_vals + key.size,
                                            dtype=np.int32)
             self.n_vals += key.size
             idx[miss] = self.table[tg[miss], rg[miss]]
         (tlat, tlon), (rlat, rlon) = self.pos
-        return [tlat[tg], tlon[tg], rlat[rg], rlon[rg], *(v[idx] for v in self.vals)]
+        rows = self.vals[idx]
+        return [tlat[tg], tlon[tg], rlat[rg], rlon[rg],
+                *(np.ascontiguousarray(rows[:, j]) for j in range(3))]
 
 
 class _HashedPathCache:
