@@ -36,9 +36,18 @@ Files without a heading line: columns are classified by content (:func:`infer_co
 but which call is the transmitter cannot be seen in the data, so ``tx_call`` or ``rx_call``
 must be mapped (``--map tx_call=7``: 1-based column position).
 
-Speed (benchmarks/bench_ingest.py, 10 million rows, 2-core machine shared with other jobs):
-about 0.4 million rows/s streamed to Parquet, 7-8x the time of a bare ``pandas.read_csv`` of
-the same file (the target was 3x), with a peak of about 1.1 GB at 1 million rows per chunk.
+How the bulk path is kept fast: the CSV is read by pyarrow with several threads, one chunk
+ahead in a second thread, with calls, locators and times dictionary-encoded (validated and
+parsed once per distinct value) and the numeric columns parsed as numbers (a file with odd
+numeric cells is read again as text from the first one, a row with the wrong number of
+fields again in one thread, so that rejects keep their row numbers); duplicates are found
+from one sort of the key hashes per chunk; pair geometry comes from a dense table of locator
+numbers; Parquet chunks are built straight from the arrays and written in a third thread.
+
+Speed (benchmarks/bench_ingest.py, 10 million rows, 646 MB, 2-core machine shared with
+other jobs): 11.2 s streamed to Parquet, about 0.9 million rows/s, 4.5x the 2.5 s of a bare
+``pandas.read_csv`` of the same file (the target was 3x; 16.9 s of CPU time against 3.1 s),
+with a peak of 1.5 GB at 1 million rows per chunk (target < 6 GB).
 
 Known limits: duplicates are found by a 64-bit hash of the report key, so two different
 reports are wrongly taken as duplicates with probability about ``n**2 / 2**65`` (3e-6 for
