@@ -17,10 +17,7 @@ from hypothesis import strategies as st
 from spotkit import columns as C
 from spotkit.cli import main
 from spotkit.errors import InputError, MappingError, NotASpotTableError, UsageError
-from spotkit.ingest import (
-    infer_frequency_unit, infer_power_unit, ingest_to_parquet, load_spots,
-    match_headings, read_spots,
-)
+from spotkit.ingest import ingest_to_parquet, load_spots, read_spots
 
 HEAD = "time,tx call,tx locator,rx call,rx locator,frequency mhz,snr,power dbm,drift\n"
 ROWS = [
@@ -182,34 +179,6 @@ def test_split_date_and_time_headings_are_joined(tmp_path):
 
 
 # --- units ------------------------------------------------------------------------------------
-@pytest.mark.parametrize("values,unit", [
-    ([14097100.0, 7038650.0], "Hz"), ([14097.1, 7038.65], "kHz"), ([14.0971, 7.03865], "MHz"),
-    ([144.4901, 50.294], "MHz"),  # 2 m and 6 m in MHz; as kHz they are in no band
-])
-def test_frequency_unit_inferred(values, unit):
-    assert infer_frequency_unit(values) == unit
-
-
-def test_frequency_unit_refused_when_ambiguous():
-    # half kHz-like, half MHz-like values: two units fit -> refuse
-    with pytest.raises(InputError, match="frequency unit"):
-        infer_frequency_unit([14097.1, 14.0971, 7038.6, 7.0386])
-    with pytest.raises(InputError, match="frequency unit"):
-        infer_frequency_unit([1.0, 2.0, 3.0])  # no unit puts them in a band
-
-
-@pytest.mark.parametrize("values,unit", [
-    ([23, 30, 37, 0], "dBm"), ([0.2, 1, 5], "W"), ([200, 1000, 5000], "mW"),
-])
-def test_power_unit_inferred(values, unit):
-    assert infer_power_unit(values) == unit
-
-
-def test_power_unit_refused_when_ambiguous():
-    with pytest.raises(InputError, match="power unit"):
-        infer_power_unit([5, 10, 100])  # whole numbers 61..1500: W or mW?
-
-
 def test_explicit_units_win_and_ambiguous_file_is_refused(tmp_path):
     text = HEAD.replace("frequency mhz", "frequency").replace("power dbm", "power")
     text += "2026-03-01 10:00,Q1ABC,JN58td,Q7XYZ,IO91lk,14097.1,-12,100,0\n"
@@ -241,15 +210,6 @@ def test_epoch_given_explicitly(tmp_path):
 
 
 # --- mapping ----------------------------------------------------------------------------------
-def test_headings_matched_by_generic_words():
-    heads = ["Date Time UTC", "sender", "senderGrid", "reporter", "reporter square", "QRG",
-             "S/N", "txPower", "drift"]
-    fields, problems = match_headings(heads)
-    assert not problems
-    assert fields == {C.TIME: [0], C.TX_CALL: [1], C.TX_LOCATOR: [2], C.RX_CALL: [3],
-                      C.RX_LOCATOR: [4], C.FREQ: [5], C.SNR: [6], C.POWER: [7], C.DRIFT: [8]}
-
-
 def test_ambiguous_headings_raise_mapping_error_listing_them(data_dir):
     with pytest.raises(MappingError) as exc:
         read_spots(data_dir / "ingest_ambiguous.csv")
