@@ -46,9 +46,11 @@ from one sort of the key hashes per chunk; pair geometry comes from a dense tabl
 numbers; Parquet chunks are built straight from the arrays and written in a third thread.
 
 Speed (benchmarks/bench_ingest.py, 10 million rows, 646 MB, 2-core machine shared with
-other jobs): 11.2 s streamed to Parquet, about 0.9 million rows/s, 4.5x the 2.5 s of a bare
-``pandas.read_csv`` of the same file (the target was 3x; 16.9 s of CPU time against 3.1 s),
-with a peak of 1.5 GB at 1 million rows per chunk (target < 6 GB).
+other jobs): 11.2 s streamed to Parquet (0.9 million rows/s), 4.5x the 2.5 s of a bare
+``pandas.read_csv`` of the same file, when the machine was otherwise nearly idle; 16.7 s
+(6.1x) when other jobs kept it busy. The target of 3x is not met: the ingest does 14-17 s
+of CPU work against about 3 s for the bare read, and overlaps it on two cores only when
+they are free. Peak memory 1.5 GB at 1 million rows per chunk (target < 6 GB).
 
 Known limits: duplicates are found by a 64-bit hash of the report key, so two different
 reports are wrongly taken as duplicates with probability about ``n**2 / 2**65`` (3e-6 for
