@@ -30,3 +30,20 @@ def data_dir() -> Path:
 @pytest.fixture
 def demo_dir() -> Path:
     return DEMO
+
+
+class Experiment:
+    """Spots of one A/B experiment and what to pass to compare."""
+
+    def __init__(self, spots, design, a, b):
+        self.spots, self.design, self.a, self.b = spots, design, a, b
+
+
+@pytest.fixture(scope="session")
+def sim():
+    """The demo data's simultaneous-transmit experiment (demo_data/README.md): the invented
+    station Q1ABC (antenna A) and Q1ABD (antenna B)."""
+    from spotkit.ingest import load_spots
+
+    spots = load_spots(DEMO / "simultaneous.csv.gz")
+    return Experiment(spots, "simultaneous", "Q1ABC", "Q1ABD")

@@ -32,30 +32,6 @@ def _offline(tmp_path, monkeypatch):
     plt.close("all")
 
 
-class _Experiment:
-    """Spots of one A/B experiment and what to pass to compare."""
-
-    def __init__(self, spots, design, a, b):
-        self.spots, self.design, self.a, self.b = spots, design, a, b
-
-
-@pytest.fixture(scope="module")
-def sim():
-    """The demo data's simultaneous-transmit experiment (demo_data/README.md); a small
-    seeded simulator run while the demo data is not there."""
-    from pathlib import Path
-
-    demo = Path(__file__).resolve().parents[1] / "demo_data" / "simultaneous.csv.gz"
-    if demo.exists():
-        from spotkit.ingest import load_spots
-
-        return _Experiment(load_spots(demo), "simultaneous", "Q1ABC", "Q1ABD")
-    from spotkit.simulate import simulate_spots
-
-    s = simulate_spots("simultaneous", days=1, seed=3, n_receivers=120)
-    return _Experiment(s.spots, s.design, s.a, s.b)
-
-
 @pytest.fixture(scope="module")
 def pairs(sim):
     from spotkit.pairing import pair_spots
