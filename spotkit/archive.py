@@ -3,8 +3,8 @@
 The files are read by :func:`spotkit.ingest.iter_spot_chunks`, each chunk is split by
 partition and written at once through :mod:`spotkit.store`, so memory is bounded by the chunk
 size (``memory_mb`` picks it, see :func:`chunk_rows_for_memory`) plus what the reader keeps
-across chunks: its duplicate-key set (8 bytes per distinct report, briefly about three times
-that while two sorted runs of it merge) and its locator-pair cache. The key set grows with
+across chunks: its duplicate-key set (8 bytes per distinct report, briefly twice that while
+two sorted runs of it merge) and its locator-pair cache. The key set grows with
 the input, so an input much larger than the memory cap cannot be ingested under it (the cap
 is refused rather than exceeded silently).
 
@@ -34,8 +34,8 @@ BASE_MEMORY_MB = 200
 #: [bytes] (measured by benchmarks/bench_archive.py; the ingest module says about 1 kB).
 CHUNK_BYTES_PER_ROW = 1500
 #: Memory per distinct report kept by the reader to find duplicates across chunks [bytes]:
-#: 8-byte hashes, about three times that while its two largest sorted runs merge.
-SEEN_BYTES_PER_ROW = 24
+#: 8-byte hashes, twice that while its two largest sorted runs merge into one.
+SEEN_BYTES_PER_ROW = 16
 #: Bytes per CSV row assumed when estimating a file's row count for the duplicate keys.
 CSV_BYTES_PER_ROW = 60
 MIN_CHUNK_ROWS = 1000
@@ -52,7 +52,7 @@ def chunk_rows_for_memory(memory_mb: float, *, total_input_bytes: int = 0) -> in
     three times that while it grows), small for the usual ~1 million pairs.
 
     Because the reader keeps every report's key to find duplicates, the memory needed
-    grows with the input (about 24/60 of the CSV size at its peak): a cap far below the
+    grows with the input (about 16/60 of the CSV size at its peak): a cap far below the
     input size cannot be honoured and is refused rather than exceeded silently.
 
     Raises

@@ -576,6 +576,7 @@ class _SeenKeys:
             b = self.runs.pop()
             a = self.runs.pop()
             merged = np.concatenate([a, b])
+            del a, b  # free the two runs before sorting: peak 2n hashes, not 3n
             merged.sort(kind="stable")  # timsort/radix: two sorted runs merge in O(n)
             self.runs.append(merged)
 
