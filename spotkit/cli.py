@@ -309,6 +309,17 @@ def _add_compare(sub):
     p.set_defaults(func=_cmd_compare)
 
 
+def _write_result(result, args) -> None:
+    """Print a comparison and write it as JSON / CSV when asked (--json, --csv)."""
+    print(result)
+    if args.json:
+        result.to_json(args.json)
+        print(f"wrote {args.json}")
+    if args.csv:
+        result.to_frame().to_csv(args.csv, index=False)
+        print(f"wrote {args.csv}")
+
+
 def _cmd_compare(args) -> int:
     from .compare import compare_antennas
     from .ingest import load_spots
@@ -318,13 +329,7 @@ def _cmd_compare(args) -> int:
     spots = load_spots(args.spots)
     result = compare_antennas(spots, args.design, args.a, args.b, by=by,
                               progress=_progress(args), **kw)
-    print(result)
-    if args.json:
-        result.to_json(args.json)
-        print(f"wrote {args.json}")
-    if args.csv:
-        result.to_frame().to_csv(args.csv, index=False)
-        print(f"wrote {args.csv}")
+    _write_result(result, args)
     return 0
 
 
@@ -864,13 +869,7 @@ def _cmd_archive(args) -> int:
         change_at=args.change_at, window_slots=args.window, n_boot=args.boot, seed=args.seed,
         min_pairs=args.min_pairs, confidence=args.confidence, scheduler=args.scheduler,
         **selection)
-    print(result)
-    if args.json:
-        result.to_json(args.json)
-        print(f"wrote {args.json}")
-    if args.csv:
-        result.to_frame().to_csv(args.csv, index=False)
-        print(f"wrote {args.csv}")
+    _write_result(result, args)
     return EXIT_OK
 
 

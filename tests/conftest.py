@@ -47,3 +47,26 @@ def sim():
 
     spots = load_spots(DEMO / "simultaneous.csv.gz")
     return Experiment(spots, "simultaneous", "Q1ABC", "Q1ABD")
+
+
+@pytest.fixture
+def offline(tmp_path, monkeypatch):
+    """An empty cartopy data directory and no way out: a map or plot that tried to download
+    its coastlines would fail or leave files behind."""
+    import urllib.request
+
+    import cartopy
+    import matplotlib.pyplot as plt
+
+    data_dir = tmp_path / "cartopy-data"
+    data_dir.mkdir()
+    monkeypatch.setitem(cartopy.config, "data_dir", str(data_dir))
+    monkeypatch.setitem(cartopy.config, "pre_existing_data_dir", str(data_dir))
+
+    def refuse(*args, **kwargs):
+        raise AssertionError("a map or plot tried to use the network")
+
+    monkeypatch.setattr(urllib.request, "urlopen", refuse)
+    yield
+    assert list(data_dir.iterdir()) == []
+    plt.close("all")

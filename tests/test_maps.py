@@ -1,11 +1,9 @@
 """Maps (spotkit.maps): drawn headless (Agg) with no network, checked on their content.
 
-Spots come from the demo data (demo_data/simultaneous.csv.gz), or from a small seeded
-simulator run where the demo data is missing.
+Spots come from the demo data (demo_data/simultaneous.csv.gz, conftest.sim).
 """
 from __future__ import annotations
 
-import urllib.request
 
 import matplotlib
 import matplotlib.pyplot as plt
@@ -20,23 +18,8 @@ matplotlib.use("Agg")
 
 
 @pytest.fixture(autouse=True)
-def no_network(tmp_path, monkeypatch):
-    """An empty cartopy data directory and no way out: a map that tried to download its
-    coastlines would fail or leave files behind."""
-    import cartopy
-
-    data_dir = tmp_path / "cartopy-data"
-    data_dir.mkdir()
-    monkeypatch.setitem(cartopy.config, "data_dir", str(data_dir))
-    monkeypatch.setitem(cartopy.config, "pre_existing_data_dir", str(data_dir))
-
-    def refuse(*args, **kwargs):
-        raise AssertionError("a map tried to use the network")
-
-    monkeypatch.setattr(urllib.request, "urlopen", refuse)
-    yield
-    assert list(data_dir.iterdir()) == []
-    plt.close("all")
+def _no_network(offline):
+    """Every test here runs offline (see conftest.offline)."""
 
 
 @pytest.fixture(scope="module")

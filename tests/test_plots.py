@@ -2,7 +2,6 @@
 from __future__ import annotations
 
 import matplotlib
-import matplotlib.pyplot as plt
 import numpy as np
 import pandas as pd
 import pytest
@@ -15,21 +14,8 @@ matplotlib.use("Agg")
 
 
 @pytest.fixture(autouse=True)
-def _offline(tmp_path, monkeypatch):
-    """No network and an empty cartopy data directory (the CLI test draws a map)."""
-    import urllib.request
-
-    import cartopy
-
-    monkeypatch.setitem(cartopy.config, "data_dir", str(tmp_path))
-    monkeypatch.setitem(cartopy.config, "pre_existing_data_dir", str(tmp_path))
-
-    def refuse(*args, **kwargs):
-        raise AssertionError("a plot tried to use the network")
-
-    monkeypatch.setattr(urllib.request, "urlopen", refuse)
-    yield
-    plt.close("all")
+def _no_network(offline):
+    """Every test here runs offline (see conftest.offline)."""
 
 
 @pytest.fixture(scope="module")
