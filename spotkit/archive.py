@@ -4,9 +4,9 @@ The files are read by :func:`spotkit.ingest.iter_spot_chunks`, each chunk is spl
 partition and written at once through :mod:`spotkit.store`, so memory is bounded by the chunk
 size (``memory_mb`` picks it, see :func:`chunk_rows_for_memory`) plus what the reader keeps
 across chunks: its duplicate-key set (8 bytes per distinct report, briefly twice that while
-two sorted runs of it merge) and its locator-pair cache. The key set grows with
-the input, so an input much larger than the memory cap cannot be ingested under it (the cap
-is refused rather than exceeded silently).
+two sorted runs of it merge) and its locator-pair cache. Under a memory cap
+the reader keeps the keys of the latest slot days only (duplicates share their slot), so
+memory no longer grows with the input; the input must then be in time order.
 
 Known limits: see :mod:`spotkit.store` (one writer at a time; duplicates across two
 overlapping exports are removed on read with ``dedupe=True``, not on append).
@@ -38,6 +38,13 @@ CHUNK_BYTES_PER_ROW = 1500
 SEEN_BYTES_PER_ROW = 16
 #: Bytes per CSV row assumed when estimating a file's row count for the duplicate keys.
 CSV_BYTES_PER_ROW = 60
+#: Under a memory cap the reader keeps duplicate keys of the latest slot days only
+#: (``dedupe_window_days``); room kept for them, the locator-pair table (up to 128 MB, twice
+#: that while it grows) and the Parquet writers' buffers [MiB] (measured by
+#: benchmarks/bench_archive.py).
+WINDOW_RESERVE_MB = 600
+#: Days of slots whose duplicate keys are kept under a memory cap.
+DEDUPE_WINDOW_DAYS = 1
 MIN_CHUNK_ROWS = 1000
 
 
@@ -72,14 +79,6 @@ def chunk_rows_for_memory(memory_mb: float, *, total_input_bytes: int = 0) -> in
     return rows
 
 
-def _input_bytes(paths: Sequence[Path]) -> int:
-    total = 0
-    for p in paths:
-        size = p.stat().st_size
-        total += size * 5 if p.suffix.lower() in (".gz", ".gzip") else size
-    return total
-
-
 def ingest_to_dataset(paths, root, *, chunk_rows: int | None = None,
                       memory_mb: float | None = None,
                       partition_by: Sequence[str] = PARTITION_KEYS, progress: bool = False,
@@ -103,8 +102,13 @@ def ingest_to_dataset(paths, root, *, chunk_rows: int | None = None,
     chunk_rows : int, optional
         Rows per chunk.
     memory_mb : float, optional
-        Memory cap [MiB]; sets ``chunk_rows`` by :func:`chunk_rows_for_memory` (the smaller
-        of the two when both are given). Default without either: 500,000 rows.
+        Memory cap [MiB]. The reader then keeps duplicate keys for the latest
+        :data:`DEDUPE_WINDOW_DAYS` slot days only, so memory does not grow with the input,
+        and the input must be in time order (a report older than that raises
+        :class:`~spotkit.errors.InputError`); ``chunk_rows`` comes from
+        :func:`chunk_rows_for_memory` of the cap less :data:`WINDOW_RESERVE_MB` (the smaller
+        of the two when both are given). Default without either: 500,000 rows, duplicate
+        keys of the whole input.
     partition_by : sequence of {"band", "day"}
         Partition keys (must match an existing archive).
     progress : bool
@@ -127,7 +131,14 @@ def ingest_to_dataset(paths, root, *, chunk_rows: int | None = None,
         if not p.is_file():
             raise FileNotFoundError(f"{p}: no such file")
     if memory_mb is not None:
-        by_mem = chunk_rows_for_memory(memory_mb, total_input_bytes=_input_bytes(paths))
+        # keys of the latest slot days only: memory no longer grows with the input, but the
+        # input must be in time order (the reader refuses a report older than the window)
+        read_kw.setdefault("dedupe_window_days", DEDUPE_WINDOW_DAYS)
+        least = BASE_MEMORY_MB + WINDOW_RESERVE_MB + MIN_CHUNK_ROWS * CHUNK_BYTES_PER_ROW / 2**20
+        if not memory_mb >= least:
+            raise UsageError(f"a memory cap of {memory_mb:g} MiB is too small for archive "
+                             f"ingest; it needs at least {least:.0f} MiB")
+        by_mem = chunk_rows_for_memory(memory_mb - WINDOW_RESERVE_MB)
         chunk_rows = by_mem if chunk_rows is None else min(chunk_rows, by_mem)
     elif chunk_rows is None:
         chunk_rows = 500_000
@@ -191,4 +202,5 @@ def ingest_to_dataset(paths, root, *, chunk_rows: int | None = None,
 
 
 __all__ = ["BASE_MEMORY_MB", "CHUNK_BYTES_PER_ROW", "SEEN_BYTES_PER_ROW", "CSV_BYTES_PER_ROW",
-           "MIN_CHUNK_ROWS", "chunk_rows_for_memory", "ingest_to_dataset"]
+           "MIN_CHUNK_ROWS", "WINDOW_RESERVE_MB", "DEDUPE_WINDOW_DAYS", "chunk_rows_for_memory",
+           "ingest_to_dataset"]

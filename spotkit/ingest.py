@@ -609,6 +609,52 @@ def _duplicates(spots: dict, seen: _SeenKeys) -> np.ndarray:
     return dup
 
 
+class _DayKeys:
+    """Report-key hashes kept per slot day, forgetting the days more than ``window_days``
+    before the latest day read: bounded memory for time-ordered input.
+
+    A duplicate shares its slot with the report it repeats, so only recent days need their
+    keys. A report older than the forgotten days cannot be checked; it raises
+    :class:`~spotkit.errors.InputError` instead of being let through unchecked.
+    """
+
+    _DAY_NS = 86_400 * 10**9
+
+    def __init__(self, window_days: int):
+        if window_days < 1:
+            raise UsageError(f"dedupe_window_days must be 1 or more, not {window_days!r}")
+        self.window = int(window_days)
+        self.days: dict[int, _SeenKeys] = {}
+        self.cutoff: int | None = None  # days before this one are forgotten
+
+    def duplicates(self, spots: dict, source: str) -> np.ndarray:
+        """Which rows repeat a report seen before (see :func:`_duplicates`)."""
+        n = len(spots[C.SOURCE_ROW])
+        if not n:
+            return np.zeros(0, dtype=bool)
+        day = np.asarray(spots[C.SLOT], dtype=np.int64) // self._DAY_NS
+        if self.cutoff is not None and (day < self.cutoff).any():
+            row = np.asarray(spots[C.SOURCE_ROW])[np.flatnonzero(day < self.cutoff)[0]]
+            raise InputError(
+                f"{source}, row {row}: a report more than {self.window} day(s) older than "
+                "reports already read; ingest under a memory cap finds duplicates only in "
+                "time-ordered input - sort the file by time or ingest it without a cap")
+        days = np.unique(day)
+        if days.size == 1:
+            dup = _duplicates(spots, self.days.setdefault(int(days[0]), _SeenKeys()))
+        else:
+            dup = np.zeros(n, dtype=bool)
+            for d in days:
+                idx = np.flatnonzero(day == d)
+                sub = {k: spots[k][idx] for k in (*C.REPORT_KEY, C.SOURCE_ROW)}
+                dup[idx] = _duplicates(sub, self.days.setdefault(int(d), _SeenKeys()))
+        cut = int(days[-1]) - self.window
+        self.cutoff = cut if self.cutoff is None else max(self.cutoff, cut)
+        for d in [d for d in self.days if d < self.cutoff]:
+            del self.days[d]
+        return dup
+
+
 # --- drivers -------------------------------------------------------------------------------------
 def _as_paths(paths) -> list[Path]:
     if isinstance(paths, (str, Path)):
@@ -823,23 +869,27 @@ def _table(cols: dict | None, schema):
 def iter_spot_chunks(paths, *, mapping=None, units=None, delimiter: Delimiter = "auto",
                      header: Header = "auto", slot_minutes: int = C.SLOT_MINUTES,
                      region="all", chunk_rows: int | None = 500_000, progress: bool = False,
-                     summary: IngestSummary | None = None
+                     summary: IngestSummary | None = None,
+                     dedupe_window_days: int | None = None
                      ) -> Iterator[tuple[pd.DataFrame, pd.DataFrame]]:
     """Read spot files chunk by chunk; yield (spots, rejects) per chunk.
 
     Same parameters as :func:`read_spots`. ``summary`` (an :class:`IngestSummary`, updated in
     place as chunks are yielded) receives the counts. Duplicates are removed across chunks
-    and files; memory grows only by 8 bytes per distinct report (the key hashes).
+    and files; memory grows only by 8 bytes per distinct report (the key hashes), or, with
+    ``dedupe_window_days``, per distinct report of the latest days only: the keys of slot
+    days more than that many days before the latest day read are forgotten, and a report
+    older than that raises :class:`~spotkit.errors.InputError` (time-ordered input only).
     """
     for cols, rejects in _iter_chunk_columns(
             paths, mapping=mapping, units=units, delimiter=delimiter, header=header,
             slot_minutes=slot_minutes, region=region, chunk_rows=chunk_rows,
-            progress=progress, summary=summary):
+            progress=progress, summary=summary, dedupe_window_days=dedupe_window_days):
         yield _frame(cols), rejects
 
 
 def _iter_chunk_columns(paths, *, mapping, units, delimiter, header, slot_minutes, region,
-                        chunk_rows, progress, summary):
+                        chunk_rows, progress, summary, dedupe_window_days=None):
     """As :func:`iter_spot_chunks`, yielding the spots as a dict of columns (times as int64
     ns; None for no spots) for :func:`_frame` or :func:`_table`."""
     _check_args(region, slot_minutes, chunk_rows)
@@ -849,7 +899,7 @@ def _iter_chunk_columns(paths, *, mapping, units, delimiter, header, slot_minute
     paths = _as_paths(paths)
     summary = summary if summary is not None else IngestSummary()
     layouts = [_prepare_layout(p, mapping, units, delimiter, header) for p in paths]
-    seen = _SeenKeys()
+    seen = _SeenKeys() if dedupe_window_days is None else _DayKeys(dedupe_window_days)
     cache = _PathCache()
     bar = None
     if progress:
@@ -881,7 +931,8 @@ def _iter_chunk_columns(paths, *, mapping, units, delimiter, header, slot_minute
                         C.REJECT_VALUE: [skipped_all.pop(r) for r in done],
                         C.REJECT_REASON: "wrong number of fields"})
                     rejects = pd.concat([rejects, extra], ignore_index=True)
-                dup = _duplicates(spots, seen)
+                dup = (_duplicates(spots, seen) if isinstance(seen, _SeenKeys)
+                       else seen.duplicates(spots, layout.name))
                 spots = _enrich(spots, ~dup, layout.name, cache)
                 _count(summary, len(raw) + len(done), spots, rejects, int(dup.sum()))
                 if bar is not None:

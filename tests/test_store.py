@@ -252,7 +252,7 @@ def test_ingest_to_dataset_refuses_same_file_and_appends_new(tmp_path):
     a = spots_csv(make_spots(300, seed=6), tmp_path / "a.csv")
     b = spots_csv(make_spots(200, seed=7, start="2026-12-02 00:00"), tmp_path / "b.csv")
     root = tmp_path / "arch"
-    archive.ingest_to_dataset(a, root, memory_mb=400)
+    archive.ingest_to_dataset(a, root, memory_mb=1000)
     files_before = sorted(p.name for p in root.rglob("*.parquet"))
     copy = tmp_path / "renamed-copy.csv"
     copy.write_bytes(a.read_bytes())
@@ -314,3 +314,32 @@ def test_partition_filters_skip_other_directories(tmp_path):
                for f in store.archive_files(root, bands="20m", start="2026-12-01"))
     with pytest.raises(Exception):
         store.read_dataset(root, bands="40m")
+
+
+def test_ingest_under_a_memory_cap_keeps_recent_days_keys_only(tmp_path):
+    from spotkit.ingest import read_spots
+
+    # three days of time-ordered reports (about 1.7 MB, so the reader takes several chunks);
+    # three day-1 reports are uploaded again after day 2, in a later chunk but within the
+    # one-day window
+    days = [make_spots(8000, seed=20 + d, start=f"2026-12-0{1 + d} 00:00").sort_values(
+        C.SLOT, kind="stable") for d in range(3)]
+    again = days[0].iloc[[7990, 7995, 7999]]
+    path = spots_csv(pd.concat([days[0], days[1], again, days[2]]), tmp_path / "ordered.csv")
+    want = read_spots(path)
+    assert want.summary.duplicates == 3
+    root = tmp_path / "arch"
+    summary = archive.ingest_to_dataset(path, root, chunk_rows=5000, memory_mb=2000)
+    assert (summary.accepted, summary.duplicates) == (want.summary.accepted, 3)
+    assert_same_spots(store.read_dataset(root), want.spots)
+
+
+def test_ingest_under_a_memory_cap_refuses_input_out_of_time_order(tmp_path):
+    late = make_spots(12000, seed=30, start="2026-12-05 00:00")
+    early = make_spots(12000, seed=31, start="2026-12-01 00:00")
+    path = spots_csv(pd.concat([late, early]), tmp_path / "unordered.csv")
+    with pytest.raises(InputError, match=r"unordered\.csv, row \d+: .*time.order"):
+        archive.ingest_to_dataset(path, tmp_path / "arch", chunk_rows=5000, memory_mb=2000)
+    # without a cap every report's key is kept, so any order is fine
+    archive.ingest_to_dataset(path, tmp_path / "arch2", chunk_rows=5000)
+    assert len(store.read_dataset(tmp_path / "arch2")) == 24000
