@@ -241,10 +241,12 @@ def _to_arrow(df: pd.DataFrame) -> pa.Table:
 
 
 class _Appender:
-    """Writes spot tables into ``<root>/_staging-<token>/`` split by partition - one open
-    Parquet file per partition, one row group per written piece - and moves the files into
-    the archive on :meth:`commit`. Memory: the table being written plus one file footer per
-    open partition."""
+    """Writes spot tables into ``<root>/_staging-<token>/`` split by partition - one row group
+    per written piece - and moves the files into the archive on :meth:`commit`. A partition's
+    file stays open only while the pieces written keep reaching it: a partition that a piece
+    does not reach is closed, and a later piece for it opens a new file (``part-<token>-<n>``).
+    Memory: the table being written plus the writers of the partitions it reaches, however
+    many partitions the input spans."""
 
     def __init__(self, root: Path, partition_by: Sequence[str], token: str):
         self.root = root
@@ -253,7 +255,7 @@ class _Appender:
         self.staging = root / f"{_STAGING_PREFIX}{token}"
         self.rows = 0
         self.writers: dict[tuple, pq.ParquetWriter] = {}
-        self.files: dict[tuple, str] = {}
+        self.files: list[str] = []
 
     def _partition_values(self, table: pa.Table) -> pd.DataFrame:
         cols = {}
@@ -279,17 +281,23 @@ class _Appender:
         parts = self._partition_values(table)
         data = table.drop_columns([k for k in self.partition_by if k in table.column_names])
         groups = parts.groupby(self.partition_by, observed=True, sort=False).indices
+        reached = set()
         for key, idx in groups.items():
             key = key if isinstance(key, tuple) else (key,)
+            reached.add(key)
             writer = self.writers.get(key)
             if writer is None:
                 rel = "/".join(f"{k}={_format_key(k, v)}" for k, v in zip(self.partition_by, key))
-                rel = f"{rel}/part-{self.token}.parquet"
+                n = sum(f.startswith(rel + "/") for f in self.files)
+                rel = f"{rel}/part-{self.token}{'' if n == 0 else f'-{n}'}.parquet"
                 path = self.staging / rel
                 path.parent.mkdir(parents=True, exist_ok=True)
                 writer = pq.ParquetWriter(path, data.schema)
-                self.writers[key], self.files[key] = writer, rel
+                self.writers[key] = writer
+                self.files.append(rel)
             writer.write_table(data.take(pa.array(np.sort(idx))), row_group_size=ROW_GROUP_ROWS)
+        for key in [k for k in self.writers if k not in reached]:
+            self.writers.pop(key).close()
         self.rows += table.num_rows
 
     def close(self) -> None:
@@ -300,7 +308,7 @@ class _Appender:
     def commit(self) -> list[str]:
         self.close()
         moved = []
-        for rel in sorted(self.files.values()):
+        for rel in sorted(self.files):
             dst = self.root / rel
             dst.parent.mkdir(parents=True, exist_ok=True)
             os.replace(self.staging / rel, dst)
