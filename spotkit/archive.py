@@ -30,9 +30,10 @@ from .store import (PARTITION_KEYS, REJECTS_DIR, _Appender, _check_new_hash, _no
 #: Rough resident size of a Python process with spotkit, pandas and pyarrow loaded [MiB]
 #: (measured by benchmarks/bench_archive.py).
 BASE_MEMORY_MB = 200
-#: Peak memory per row of a chunk while it is parsed, validated, enriched and written
-#: [bytes] (measured by benchmarks/bench_archive.py; the ingest module says about 1 kB).
-CHUNK_BYTES_PER_ROW = 1500
+#: Peak memory per row of a chunk [bytes]: up to three chunks are alive at once (one read
+#: ahead by the reader's thread, one being cleaned and enriched, one being written) - measured
+#: by benchmarks/bench_archive.py (about 3.4 kB a row at 489,335-row chunks).
+CHUNK_BYTES_PER_ROW = 3500
 #: Memory per distinct report kept by the reader to find duplicates across chunks [bytes]:
 #: 8-byte hashes, twice that while its two largest sorted runs merge into one.
 SEEN_BYTES_PER_ROW = 16
