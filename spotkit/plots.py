@@ -227,10 +227,10 @@ def bearing_plot(result, *, band=None, ax=None, rlim: float | None = None):
 
 def heard_by_distance(pairs: pd.DataFrame, *, distance_edges=None, bin_km: float = 1000.0,
                       confidence: float = 0.95) -> pd.DataFrame:
-    """P(heard) of A and of B per distance bin, with Wilson score intervals.
+    """P(heard) of A and of B per distance bin, with Wilson score intervals, side by side.
 
-    Among the pairs of a bin (slots in which at least one antenna reached the far station),
-    the fraction in which A, and the fraction in which B, was heard.
+    :func:`spotkit.reach.heard_by_distance` (one row per bin and antenna) laid out with A
+    beside B for plotting, with bins every ``bin_km`` by default.
 
     Parameters
     ----------
@@ -250,29 +250,22 @@ def heard_by_distance(pairs: pd.DataFrame, *, distance_edges=None, bin_km: float
     ----------
     E. B. Wilson, J. Am. Stat. Assoc. 22:209-212 (1927).
     """
-    from .stats import wilson_interval
+    from .reach import heard_by_distance as heard_long
 
     d = pairs[C.DISTANCE].to_numpy(dtype=float)
     if distance_edges is None:
         top = bin_km * np.ceil(np.nanmax(d) / bin_km) if len(d) else bin_km
         distance_edges = np.arange(0.0, top + bin_km / 2, bin_km)
-    e = np.asarray(distance_edges, dtype=float)
-    i = np.searchsorted(e, d, side="right") - 1
-    ok = (i >= 0) & (i < e.size - 1)
-    ha = (pairs[C.HEARD_A] if C.HEARD_A in pairs else pairs[C.SNR_A].notna()).to_numpy(bool)
-    hb = (pairs[C.HEARD_B] if C.HEARD_B in pairs else pairs[C.SNR_B].notna()).to_numpy(bool)
-    nb = e.size - 1
-    n = np.bincount(i[ok], minlength=nb)
-    ka = np.bincount(i[ok], weights=ha[ok], minlength=nb)
-    kb = np.bincount(i[ok], weights=hb[ok], minlength=nb)
-    out = pd.DataFrame({C.DISTANCE_MIN: e[:-1], C.DISTANCE_MAX: e[1:], C.PAIRS: n,
-                        C.HEARD_A: ka.astype(int), C.HEARD_B: kb.astype(int)})
-    out = out[out[C.PAIRS] > 0].reset_index(drop=True)
-    for who, k in (("a", out[C.HEARD_A]), ("b", out[C.HEARD_B])):
-        lo, hi = wilson_interval(k.to_numpy(), out[C.PAIRS].to_numpy(), confidence)
-        out[f"p_{who}"] = k / out[C.PAIRS]
-        out[f"p_{who}_low"], out[f"p_{who}_high"] = lo, hi
-    return out
+    long = heard_long(pairs, distance_edges=distance_edges, by_band=False,
+                      confidence=confidence)
+    keys = [C.DISTANCE_MIN, C.DISTANCE_MAX]
+    a = long[long[C.ANTENNA] == "A"].set_index(keys)
+    b = long[long[C.ANTENNA] == "B"].set_index(keys)
+    out = pd.DataFrame({C.PAIRS: a[C.PAIRS], C.HEARD_A: a[C.HEARD], C.HEARD_B: b[C.HEARD]})
+    for who, t in (("a", a), ("b", b)):
+        out[f"p_{who}"] = t[C.P_HEARD]
+        out[f"p_{who}_low"], out[f"p_{who}_high"] = t[C.P_HEARD_LOW], t[C.P_HEARD_HIGH]
+    return out.reset_index()
 
 
 def heard_plot(pairs, *, band=None, distance_edges=None, bin_km: float = 1000.0, ax=None):
