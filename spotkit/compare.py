@@ -309,7 +309,7 @@ def estimate_groups(counts: pd.DataFrame, *, n_boot: int = 1000, seed: int = 0,
               C.SIGMA, C.CORRECTION):
         res[c] = out[c]
     res[C.METHOD] = (
-        f"censored-normal MLE (Tobit) of per-W B-A using both-heard and one-sided pairs"
+        "censored-normal MLE (Tobit) of per-W B-A using both-heard and one-sided pairs"
         + ("" if not use_edge else ", with a first-order correction for reports at the "
            "decode threshold") + f"; {confidence:.0%} percentile cluster bootstrap over "
         f"{cluster_label} ({int(n_boot)} resamples); p from the bootstrap SE")
