@@ -62,6 +62,9 @@ class CensoredFit:
         They assume independent observations and an interior maximum: with ``sigma`` on its
         floor ``se_sigma`` is not meaningful, and with clustered data use the cluster
         bootstrap instead.
+    missed_a, missed_b : float
+        :func:`censored_mixture_mle` only: fitted shares ``pa``, ``pb`` of pairs with only
+        A (only B) heard for a reason that says nothing about ``d`` (0 for the plain fit).
     """
 
     mu: float
@@ -74,6 +77,8 @@ class CensoredFit:
     n_iter: int = 0
     se_mu: float = float("nan")
     se_sigma: float = float("nan")
+    missed_a: float = 0.0
+    missed_b: float = 0.0
 
     def to_dict(self) -> dict:
         """The fields as a plain dict."""
@@ -321,6 +326,252 @@ def censored_normal_mle_batch(values, kinds, weights,
     return mu, sigma
 
 
+# ------------------------------------------------------------- censored normal with missed reports
+def _mixture_parts(delta, gamma, pa, pb, v, sgn, exact, w, need_hess=True):
+    """Log-likelihood, gradient (B, 4) and Hessian (B, 4, 4) of the missed-report mixture.
+
+    Parameters ``(delta, gamma, pa, pb)``, each (B,); ``w`` is (B, K). With
+    ``c = 1 - pa - pb``: an exact value contributes ``log c + log gamma - r^2/2 - log sqrt(2 pi)``;
+    an upper bound (only A heard) ``log(pa + c Phi(u))``, a lower bound (only B heard)
+    ``log(pb + c Phi(u))``, with ``u = sgn (gamma v - delta)``.
+    """
+    r = gamma[:, None] * v[None, :] - delta[:, None]
+    u = sgn[None, :] * r
+    log_cdf = special.log_ndtr(u)
+    up = sgn[None, :] > 0
+    own = np.where(up, pa[:, None], pb[:, None])     # the bound's own missing share
+    c = (1.0 - pa - pb)[:, None]
+    log_c = np.log(c)
+    log_m = np.logaddexp(np.log(own), log_c + log_cdf)
+    ex = exact[None, :]
+    lg = np.log(gamma)[:, None]
+    ll_e = log_c + lg - 0.5 * r * r - _LOG_SQRT_2PI
+    ll = np.sum(np.where(w > 0, w * np.where(ex, ll_e, log_m), 0.0), axis=1)
+    if not need_hess:
+        return ll
+    log_pdf = -0.5 * u * u - _LOG_SQRT_2PI
+    q = np.exp(log_c + log_pdf - log_m)             # c phi / M
+    h = -q * (u + q)
+    cdf = np.exp(log_cdf - log_m)                   # Phi / M
+    ncdf = np.exp(special.log_ndtr(-u) - log_m)     # (1 - Phi) / M
+    pm2 = np.exp(log_pdf - 2.0 * log_m)             # phi / M^2
+    other = np.where(up, pb[:, None], pa[:, None])
+    sv = sgn[None, :] * v[None, :]
+    # derivatives of a bound's log M in its own share and in the other one
+    g_own, g_oth = ncdf, -cdf
+    h_oo, h_ot, h_tt = -ncdf * ncdf, ncdf * cdf, -cdf * cdf
+    dq_own = -pm2 * (1.0 - other)                   # d q / d own
+    dq_oth = -pm2 * own                             # d q / d other
+    inv_c = 1.0 / c
+    g_d = np.sum(w * np.where(ex, r, -sgn * q), axis=1)
+    g_g = np.sum(w * np.where(ex, 1.0 / gamma[:, None] - r * v, sv * q), axis=1)
+    g_a = np.sum(w * np.where(ex, -inv_c, np.where(up, g_own, g_oth)), axis=1)
+    g_b = np.sum(w * np.where(ex, -inv_c, np.where(up, g_oth, g_own)), axis=1)
+    h_dd = np.sum(w * np.where(ex, -1.0, h), axis=1)
+    h_dg = np.sum(w * np.where(ex, v, -h * v), axis=1)
+    h_gg = np.sum(w * np.where(ex, -1.0 / gamma[:, None] ** 2 - v * v, h * v * v), axis=1)
+    dqa = np.where(up, dq_own, dq_oth)
+    dqb = np.where(up, dq_oth, dq_own)
+    h_da = np.sum(w * np.where(ex, 0.0, -sgn * dqa), axis=1)
+    h_db = np.sum(w * np.where(ex, 0.0, -sgn * dqb), axis=1)
+    h_ga = np.sum(w * np.where(ex, 0.0, sv * dqa), axis=1)
+    h_gb = np.sum(w * np.where(ex, 0.0, sv * dqb), axis=1)
+    e2 = -inv_c * inv_c
+    h_aa = np.sum(w * np.where(ex, e2, np.where(up, h_oo, h_tt)), axis=1)
+    h_bb = np.sum(w * np.where(ex, e2, np.where(up, h_tt, h_oo)), axis=1)
+    h_ab = np.sum(w * np.where(ex, e2, h_ot), axis=1)
+    grad = np.stack([g_d, g_g, g_a, g_b], axis=1)
+    hess = np.stack([np.stack([h_dd, h_dg, h_da, h_db], 1),
+                     np.stack([h_dg, h_gg, h_ga, h_gb], 1),
+                     np.stack([h_da, h_ga, h_aa, h_ab], 1),
+                     np.stack([h_db, h_gb, h_ab, h_bb], 1)], axis=1)
+    return ll, grad, hess
+
+
+def _mixture_batch(v, kind, w, sigma_floor, max_iter=200, tol=1e-9, pi_min=1e-6,
+                   pi_max=0.95):
+    """Batch fit of the missed-report mixture; returns mu, sigma, pa, pb, converged, loglik."""
+    b = w.shape[0]
+    exact = kind == 0
+    sgn = kind.astype(float)
+    w_e = w[:, exact].sum(axis=1)
+    mu, sigma, conv, loglik, _it = _tobit_batch(v, kind, w, sigma_floor)
+    pa, pb = np.zeros(b), np.zeros(b)
+    # the mixture needs exact values (without them the missing shares explain every bound)
+    rows = np.nonzero((w_e > 0) & (w[:, ~exact].sum(axis=1) > 0))[0]
+    if rows.size == 0:
+        return mu, sigma, pa, pb, conv, loglik
+    gmax = 1.0 / sigma_floor
+    wr = w[rows]
+    with np.errstate(invalid="ignore", divide="ignore"):
+        we = np.where(exact[None, :], wr, 0.0)
+        m0 = (we * v).sum(axis=1) / w_e[rows]
+        sd0 = np.sqrt((we * (v - m0[:, None]) ** 2).sum(axis=1) / w_e[rows])
+    x = np.empty((rows.size, 4))
+    x[:, 1] = 1.0 / np.maximum(sd0, sigma_floor)
+    x[:, 0] = m0 * x[:, 1]
+    tot = wr.sum(axis=1)
+    x[:, 2] = np.clip(0.5 * wr[:, kind == 1].sum(axis=1) / tot, 0.01, 0.3)
+    x[:, 3] = np.clip(0.5 * wr[:, kind == -1].sum(axis=1) / tot, 0.01, 0.3)
+    active = np.ones(rows.size, bool)
+    done = np.zeros(rows.size, bool)
+    eye = np.eye(4)
+    for _ in range(max_iter):
+        idx = np.nonzero(active)[0]
+        if idx.size == 0:
+            break
+        wa = wr[idx]
+        x0 = x[idx]
+        with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
+            ll, grad, hess = _mixture_parts(x0[:, 0], x0[:, 1], x0[:, 2], x0[:, 3], v, sgn,
+                                            exact, wa)
+        # parameters held on a bound: a share at its floor pushing down, sigma at its floor
+        fixed = np.zeros((idx.size, 4), bool)
+        fixed[:, 1] = (x0[:, 1] >= gmax * (1 - 1e-12)) & (grad[:, 1] > 0)
+        fixed[:, 2] = (x0[:, 2] <= pi_min) & (grad[:, 2] <= 0.0)
+        fixed[:, 3] = (x0[:, 3] <= pi_min) & (grad[:, 3] <= 0.0)
+        gf = np.where(fixed, 0.0, grad)
+        hf = np.where(fixed[:, :, None] | fixed[:, None, :], 0.0, hess)
+        hf = hf - eye[None] * fixed[:, :, None]
+        finite = np.all(np.isfinite(hf), axis=(1, 2)) & np.all(np.isfinite(gf), axis=1)
+        hf[~finite] = -eye
+        gf[~finite] = 0.0
+        ok_h = finite & (np.linalg.eigvalsh(hf).max(axis=1) < 0)
+        step = np.zeros((idx.size, 4))
+        if ok_h.any():
+            step[ok_h] = -np.linalg.solve(hf[ok_h], gf[ok_h][:, :, None])[:, :, 0]
+        if (~ok_h).any():  # gradient ascent scaled by the curvature
+            diag = np.abs(np.diagonal(hf[~ok_h], axis1=1, axis2=2))
+            step[~ok_h] = gf[~ok_h] / np.maximum(diag, 1.0)
+        t = np.ones(idx.size)
+        with np.errstate(invalid="ignore", divide="ignore"):
+            sg = step[:, 1]
+            t = np.where(sg > 0, np.minimum(t, (gmax - x0[:, 1]) / sg), t)
+            t = np.where(sg < 0, np.minimum(t, -0.9 * x0[:, 1] / sg), t)
+            for j in (2, 3):
+                sp = step[:, j]
+                t = np.where(sp < 0, np.minimum(t, (pi_min - x0[:, j]) / sp), t)
+            ss = step[:, 2] + step[:, 3]
+            t = np.where(ss > 0, np.minimum(t, (pi_max - x0[:, 2] - x0[:, 3]) / ss), t)
+        t = np.maximum(t, 0.0)
+        accepted = np.zeros(idx.size, bool)
+        xn = x0.copy()
+        for _half in range(50):
+            todo = np.nonzero(~accepted)[0]
+            if todo.size == 0:
+                break
+            c = x0[todo] + t[todo, None] * step[todo]
+            c[:, 1] = np.minimum(c[:, 1], gmax)
+            c[:, 2:] = np.maximum(c[:, 2:], pi_min)
+            with np.errstate(invalid="ignore", divide="ignore"):
+                ll_new = _mixture_parts(c[:, 0], c[:, 1], c[:, 2], c[:, 3], v, sgn, exact,
+                                        wa[todo], need_hess=False)
+            okk = np.isfinite(ll_new) & (ll_new >= ll[todo] - 1e-12 * np.abs(ll[todo]))
+            xn[todo[okk]] = c[okk]
+            accepted[todo[okk]] = True
+            t[todo[~okk]] *= 0.5
+        scale = np.c_[1 + np.abs(x0[:, :1]), x0[:, 1:2], np.ones((idx.size, 2))]
+        moved = np.max(np.abs(xn - x0) / scale, axis=1)
+        x[idx] = xn
+        small = (moved < tol) | ~accepted
+        diverged = (xn[:, 1] < 1e-8) | (np.abs(xn[:, 0] / xn[:, 1]) > 1e8)
+        done[idx[small & ~diverged]] = True
+        active[idx[small | diverged]] = False
+    with np.errstate(invalid="ignore", divide="ignore"):
+        m_new = np.where(x[:, 1] >= 1e-8, x[:, 0] / x[:, 1], np.nan)
+        ll_new = _mixture_parts(x[:, 0], x[:, 1], x[:, 2], x[:, 3], v, sgn, exact, wr,
+                                need_hess=False)
+    # keep the plain fit where the mixture did not do better (it nests it at pa = pb = 0)
+    better = done & np.isfinite(m_new) & ~(ll_new < np.nan_to_num(loglik[rows], nan=-np.inf))
+    r_b = rows[better]
+    mu[r_b], sigma[r_b] = m_new[better], 1.0 / x[better, 1]
+    pa[r_b], pb[r_b] = x[better, 2], x[better, 3]
+    conv[r_b] = True
+    loglik[r_b] = ll_new[better]
+    return mu, sigma, pa, pb, conv, loglik
+
+
+def censored_mixture_mle(values, kinds, counts=None,
+                         sigma_floor: float = SIGMA_FLOOR_DB) -> CensoredFit:
+    """Censored-normal fit allowing for reports missing for reasons other than ``d``.
+
+    A one-sided observation (one antenna heard, the other not) is explained either by the
+    censored normal - the silent side was below its limit - or, with probability ``pi``,
+    by something that does not depend on ``d`` (the path closed or faded out between two
+    slots, the receiver stopped listening, a decode was lost to interference). Under the
+    flat prior on the common level that makes the censored-normal likelihood a function of
+    ``d`` alone, an exact value contributes ``(1 - pi) phi`` and a bound
+    ``pi + (1 - pi) Phi`` (a two-component mixture; ``pi`` is a nuisance parameter fitted
+    with ``mu`` and ``sigma``). ``pi`` is identified by bounds that the normal part cannot
+    explain (e.g. a strong report on one side with nothing on the other). The model
+    nests :func:`censored_normal_mle` at ``pi = 0``; the result is the better of the two
+    fits. ``pi`` is held in ``[1e-6, 0.95]`` (the lower bound keeps the derivatives finite
+    for bounds far in the normal's tail); without exact values it is 0 (a mixture fitted
+    to bounds alone would put every bound in the missing component). Maximised by Newton's
+    method in ``(mu/sigma, 1/sigma, pi)`` with step halving, started from the mean and SD
+    of the exact values.
+
+    Parameters and returns as :func:`censored_normal_mle`; ``CensoredFit.missed`` holds
+    ``pi``. Standard errors are not computed (NaN): use the bootstrap.
+
+    References
+    ----------
+    .. [1] J. Tobin, Econometrica 26(1):24-36, 1958. doi:10.2307/1907382
+    .. [2] G. J. McLachlan and D. Peel, Finite Mixture Models, Wiley, 2000 (mixture
+       likelihoods; citation from memory).
+    """
+    if not sigma_floor > 0:
+        raise UsageError(f"sigma_floor must be positive, got {sigma_floor}")
+    v, k = _check_kinds(values, kinds)
+    c = np.ones(v.shape) if counts is None else np.asarray(counts, dtype=float).ravel()
+    if c.shape != v.shape:
+        raise UsageError(f"counts has {c.size} entries but values has {v.size}")
+    if np.any(~np.isfinite(c)) or np.any(c < 0):
+        raise UsageError("counts must be finite and non-negative")
+    mu, sigma, pa, pb, conv, ll = _mixture_batch(v, k, c[None, :], sigma_floor)
+    return CensoredFit(float(mu[0]), float(sigma[0]), bool(conv[0]), float(c[k == 0].sum()),
+                       float(c[k == 1].sum()), float(c[k == -1].sum()), float(ll[0]), 0,
+                       missed_a=float(pa[0]), missed_b=float(pb[0]))
+
+
+def censored_mixture_mle_batch(values, kinds, weights, sigma_floor: float = SIGMA_FLOOR_DB):
+    """Many :func:`censored_mixture_mle` fits at once, one per row of ``weights``.
+
+    Returns
+    -------
+    mu, sigma, missed_a, missed_b : numpy.ndarray, shape (B,)
+        Fitted mean and SD [dB] and the missing shares ``pa``, ``pb``.
+    """
+    if not sigma_floor > 0:
+        raise UsageError(f"sigma_floor must be positive, got {sigma_floor}")
+    v, k = _check_kinds(values, kinds)
+    w = np.asarray(weights, dtype=float)
+    if w.ndim != 2 or w.shape[1] != v.size:
+        raise UsageError(f"weights must have shape (B, {v.size}), got {w.shape}")
+    if np.any(~np.isfinite(w)) or np.any(w < 0):
+        raise UsageError("weights must be finite and non-negative")
+    mu, sigma, pa, pb, _conv, _ll = _mixture_batch(v, k, w, sigma_floor)
+    return mu, sigma, pa, pb
+
+
+def normal_share(values, kinds, mu, sigma, missed_a, missed_b):
+    """Posterior share of each observation explained by the censored normal.
+
+    1 for exact values; for a bound ``c Phi(u) / (p + c Phi(u))`` with ``p`` its side's
+    missing share (``missed_a`` for upper bounds, ``missed_b`` for lower bounds) and
+    ``c = 1 - missed_a - missed_b``. Parameters are arrays of shape (B,); returns (B, K).
+    """
+    v, k = _check_kinds(values, kinds)
+    mu, sigma, pa, pb = (np.atleast_1d(np.asarray(x, dtype=float))
+                         for x in (mu, sigma, missed_a, missed_b))
+    u = k[None, :] * (v[None, :] - mu[:, None]) / sigma[:, None]
+    own = np.where(k[None, :] > 0, pa[:, None], pb[:, None])
+    with np.errstate(divide="ignore", invalid="ignore"):
+        a = np.log1p(-pa - pb)[:, None] + special.log_ndtr(u)
+        share = np.exp(a - np.logaddexp(np.log(own), a))
+    return np.where(k[None, :] == 0, 1.0, share)
+
 
 __all__ = ["SIGMA_FLOOR_DB", "CensoredFit", "censored_normal_mle",
-           "censored_normal_mle_batch"]
+           "censored_normal_mle_batch", "censored_mixture_mle", "censored_mixture_mle_batch",
+           "normal_share"]

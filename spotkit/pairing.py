@@ -18,6 +18,7 @@ states), so A and B may run at different powers.
     By default a pair is kept only when the receiver also reported the call in the slots
     just before and after it (the path stayed open); in simulation this halves the bias
     that paths closing between the two slots cause when A and B run at different powers.
+    The rest is absorbed by the missed-report mixture of :mod:`spotkit.compare`.
 ``"receive"``
     Two co-located receivers (rx calls A and B) hearing the same transmitters. A pair is one
     transmitter in one slot and band; the cluster is the transmitter.

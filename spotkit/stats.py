@@ -38,7 +38,8 @@ from .bootstrap import (
     cluster_bootstrap_weights,
 )
 from .censored import (
-    SIGMA_FLOOR_DB, CensoredFit, censored_normal_mle, censored_normal_mle_batch,
+    SIGMA_FLOOR_DB, CensoredFit, censored_mixture_mle, censored_mixture_mle_batch,
+    censored_normal_mle, censored_normal_mle_batch, normal_share,
 )
 from .errors import UsageError
 
@@ -541,7 +542,8 @@ def wilson_interval(successes, trials, confidence: float = 0.95):
 __all__ = [
     "TestResult", "CensoredFit", "wilcoxon_signed_rank", "hodges_lehmann",
     "hodges_lehmann_ci", "sign_test", "mcnemar", "benjamini_hochberg", "wilson_interval",
-    "censored_normal_mle", "censored_normal_mle_batch", "cluster_bootstrap_weights",
+    "censored_normal_mle", "censored_normal_mle_batch", "censored_mixture_mle",
+    "censored_mixture_mle_batch", "normal_share", "cluster_bootstrap_weights",
     "bootstrap_interval", "bootstrap_p_value", "SIGMA_FLOOR_DB", "INTERVAL_METHODS",
     "IntervalMethod",
 ]

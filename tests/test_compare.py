@@ -61,18 +61,44 @@ def test_recovers_known_difference_per_cell(design, kw):
 
 
 @pytest.mark.slow
-@pytest.mark.xfail(strict=True, reason="known limitation: alternating design with A and B "
-                   "at different powers - pairs where the path closed between the two "
-                   "slots give one-sided bounds whose size depends on each antenna's power; "
-                   "biased by up to about 0.4 dB in this simulation (0.6 dB without the "
-                   "open-path check)")
 def test_alternating_with_unequal_powers():
+    """A 5 W, B 1 W, alternating slots: pairs where the path closed (or the receiver
+    stopped) between the A and the B slot are one-sided for a reason that is not the
+    antenna, and their bounds depend on each antenna's power. The missed-report mixture
+    absorbs them; the plain censored fit was off by 0.37 dB in the 10 m short cell."""
     sim = simulate_spots("alternating", days=2, seed=7, difference_db=CELL_TRUTH,
                          difference_edges=EDGES, power_b_dbm=30.0)
-    res = compare_antennas(sim.spots, **sim.compare_kwargs(), by="band,distance",
-                           distance_edges=EDGES, n_boot=50)
+    kw = dict(by="band,distance", distance_edges=EDGES, n_boot=50)
+    res = compare_antennas(sim.spots, **sim.compare_kwargs(), **kw)
     big = _cells(sim, res).query(f"{C.PAIRS} >= 2000")
+    assert len(big) >= 3
+    # the issue's target: 0.3 dB in cells with thousands of pairs
     np.testing.assert_allclose(big[C.B_MINUS_A], big["b_minus_a_db_true"], atol=0.3)
+    plain = compare_antennas(sim.spots, **sim.compare_kwargs(), missed_reports="none", **kw)
+    old = _cells(sim, plain).query(f"{C.PAIRS} >= 2000")
+    err_new = (big[C.B_MINUS_A] - big["b_minus_a_db_true"]).abs()
+    err_old = (old[C.B_MINUS_A] - old["b_minus_a_db_true"]).abs()
+    assert err_old.max() > 0.3 and err_new.max() < 0.5 * err_old.max()
+
+
+@pytest.mark.slow
+def test_alternating_unequal_powers_interval_coverage():
+    """200 independent small alternating experiments at unequal powers (disjoint receiver
+    sets of one simulation, about 15 receivers and 1,200 pairs each): the 95 % CI covers
+    the truth in about 95 % of them. Measured 0.91 (0.865 without the missed-report
+    mixture); the shortfall is the residual bias of about -0.04 dB stated in
+    spotkit.compare (binomial SD 1.5 %: accept 0.88-0.99)."""
+    sim = simulate_spots("alternating", days=1, seed=11, bands=("20m",), n_receivers=3000,
+                         difference_db=1.0, power_b_dbm=30.0)
+    p = pair_spots(sim.spots, **sim.compare_kwargs())
+    rx = np.sort(p[C.CLUSTER].astype(str).unique())
+    run_of = dict(zip(rx, np.random.default_rng(0).permutation(rx.size) % 200))
+    counts = summarise_pairs(p, ())
+    counts.insert(0, "run", counts[C.CLUSTER].map(run_of))
+    res = estimate_groups(counts, n_boot=200, seed=1, min_pairs=10)
+    assert len(res) == 200 and res[C.CI_LOW].notna().all()
+    covered = ((res[C.CI_LOW] <= 1.0) & (res[C.CI_HIGH] >= 1.0)).mean()
+    assert 0.88 <= covered <= 0.99
 
 
 @pytest.mark.slow
