@@ -663,7 +663,7 @@ def compare_partials(df: pd.DataFrame, design: str, a: str, b: str | None = None
                            min_receiver_reports=min_receiver_reports)
     except NoPairsError:
         return empty
-    if thresholds is not None and design != "before-after":
+    if thresholds is not None:  # before/after too: its bounds use the threshold as well
         local = receiver_thresholds(df, min_receiver_reports)
         shift = thresholds.reindex(local.index).to_numpy(dtype=float) - local.to_numpy()
         shift = pd.Series(shift, index=local.index.astype(str))

@@ -26,9 +26,14 @@ states), so A and B may run at different powers.
     One transmitter call whose antenna changed at ``change_at``. Each report of the target
     is referred to a control - the mean per-W SNR of the *other* stations the same receiver
     heard on the same band in the same slot - and the relative SNR before (kind
-    ``"before"``) is compared with after (``"after"``). This design is weaker than the
-    others: propagation, the control stations and the receivers all change between the
-    periods, and censoring is not modelled.
+    ``"before"``) is compared with after (``"after"``). Where a receiver heard a control in
+    a slot and band in which the target was on the air (someone heard it there) but did not
+    hear the target, the row is censored: the relative SNR is below
+    ``threshold - (power - 30) - control`` (``LIMIT_A`` before, ``LIMIT_B`` after; kinds
+    ``"before_below"`` / ``"after_below"`` in the compressed table). Only receivers that
+    heard the target on that band at some time get such rows (the path geometry comes from
+    their reports). This design is weaker than the others: propagation, the control
+    stations and the receivers all change between the periods.
 
 Censoring. A missing report is "not heard" only when that antenna was on the air in that
 slot and band (some receiver heard it there; alternating: the schedule says so too).
@@ -59,6 +64,10 @@ from .units import REFERENCE_POWER_DBM, snr_per_watt
 
 Design = Literal["simultaneous", "alternating", "receive", "before-after"]
 DESIGNS = ("simultaneous", "alternating", "receive", "before-after")
+
+#: compressed pair table, before/after design: KIND of an observation where the target was
+#: on the air but not heard (VALUE: upper bound of its target-minus-control SNR [dB])
+PERIOD_BOUND_KINDS = ("before_below", "after_below")
 
 #: Group keys accepted by :func:`add_group_keys` / :func:`summarise_pairs`.
 GROUP_KEYS = ("band", "distance", "bearing", "hour", "elevation", "light", "field", "square",
@@ -204,13 +213,18 @@ def _decode(codes, categories) -> pd.Categorical:
 
 
 def _finish(merged: pd.DataFrame, set_aside: dict, design: str, cats: dict,
-            cluster_col: str, far_side: str) -> pd.DataFrame:
-    """Common tail: limits, heard flags, on-air filter, output columns."""
+            cluster_col: str, far_side: str, keep_unheard: bool = False) -> pd.DataFrame:
+    """Common tail: limits, heard flags, on-air filter, output columns.
+
+    ``keep_unheard`` (before/after): every row is one observation, heard or censored."""
     heard_a = merged["_snrw_a"].notna().to_numpy()
     heard_b = merged["_snrw_b"].notna().to_numpy()
     on_a = merged["_pow_a"].notna().to_numpy()
     on_b = merged["_pow_b"].notna().to_numpy()
     keep = (heard_a & heard_b) | (heard_a & on_b) | (heard_b & on_a)
+    if keep_unheard:
+        keep = np.ones(len(merged), dtype=bool)
+        on_a = on_b = keep
     n_off_b = int((heard_a & ~heard_b & ~on_b).sum())
     n_off_a = int((heard_b & ~heard_a & ~on_a).sum())
     if n_off_b:
@@ -641,7 +655,7 @@ def _pair_alternating(spots, a, b, thr, schedule, window_slots, set_aside, cats,
     return m
 
 
-def _pair_before_after(spots, a, b, change_at, set_aside, cats):
+def _pair_before_after(spots, a, b, change_at, set_aside, cats, thr):
     call, code = _check_call(spots, cats, C.TX_CALL, _single_call(a, b, "before-after"),
                              "A/B")
     if change_at is None:
@@ -665,7 +679,6 @@ def _pair_before_after(spots, a, b, change_at, set_aside, cats):
     if no_ctrl:
         set_aside["no control station heard by that receiver in that slot and band"] = no_ctrl
     m = m[m["_ctrl"].notna()].reset_index(drop=True)
-    rel = (m["_snrw"] - m["_ctrl"]).to_numpy(dtype=float)
     after = m["_slot"].to_numpy(dtype=np.int64) * _SLOT_NS >= t_change.value
     n_before, n_after = int((~after).sum()), int(after.sum())
     if n_before == 0 or n_after == 0:
@@ -673,12 +686,37 @@ def _pair_before_after(spots, a, b, change_at, set_aside, cats):
             f"before-after: {n_before} usable reports before and {n_after} after "
             f"{t_change.isoformat()}; both periods need reports of {call} with control "
             "stations heard by the same receivers")
+    # target not heard: a receiver heard a control station in a slot and band where the
+    # target was on the air (someone heard it there), on a band where it heard the target
+    # at some time (its path geometry comes from that report)
+    dims = [int(df["_cluster"].max()) + 1, int(df["_band"].max()) + 1,
+            int(df["_slot"].max()) + 1]
+    tgt = df[is_t]
+    onair_k, onair_p = _group_median(_combine([tgt["_band"], tgt["_slot"]], dims[1:])[0],
+                                     tgt[C.POWER].to_numpy(dtype=float))
+    ctrl = control.reset_index()
+    ck = _combine([ctrl["_band"], ctrl["_slot"]], dims[1:])[0]
+    ctrl["_tp"] = _lookup(ck, onair_k, onair_p)
+    heard_k = np.unique(_combine([tgt[k] for k in keys], dims)[0])
+    ctrl_heard = ~np.isnan(_lookup(_combine([ctrl[k] for k in keys], dims)[0], heard_k,
+                                   np.ones(heard_k.size)))
+    cens = ctrl[ctrl["_tp"].notna().to_numpy() & ~ctrl_heard]
+    geom = target.drop_duplicates(["_cluster", "_band"]).drop(columns=["_slot", "_snrw"])
+    cens = cens.merge(geom, on=["_cluster", "_band"], how="inner")
+    cens["_snrw"] = np.nan
+    m["_tp"] = m[C.POWER].to_numpy(dtype=float)
+    m = pd.concat([m, cens[m.columns]], ignore_index=True)
+    after = m["_slot"].to_numpy(dtype=np.int64) * _SLOT_NS >= t_change.value
+    ctrl_v = m["_ctrl"].to_numpy(dtype=float)
+    rel = m["_snrw"].to_numpy(dtype=float) - ctrl_v
+    # censoring limit of the relative SNR: threshold - (target power - 30) - control
+    bound = (_thr_by_code(thr, cats)[m["_cluster"].to_numpy(dtype=np.int64)] - ctrl_v)
     m["_snrw_a"] = np.where(after, np.nan, rel)
     m["_snrw_b"] = np.where(after, rel, np.nan)
-    m["_pow_a"] = np.nan
-    m["_pow_b"] = np.nan
-    m["_thr_a"] = np.nan
-    m["_thr_b"] = np.nan
+    m["_pow_a"] = np.where(after, np.nan, m["_tp"].to_numpy(dtype=float))
+    m["_pow_b"] = np.where(after, m["_tp"].to_numpy(dtype=float), np.nan)
+    m["_thr_a"] = np.where(after, np.nan, bound)
+    m["_thr_b"] = np.where(after, bound, np.nan)
     return m, after
 
 
@@ -746,16 +784,12 @@ def pair_spots(spots: pd.DataFrame, design: Design, a: str, b: str | None = None
         m = _pair_alternating(work, a, b, thr, schedule, window_slots, set_aside, cats,
                               require_open_path)
     else:
-        m, after = _pair_before_after(work, a, b, change_at, set_aside, cats)
-        m["_pow_a"] = 0.0  # no on-air filter: every row has one observation
-        m["_pow_b"] = 0.0
+        m, after = _pair_before_after(work, a, b, change_at, set_aside, cats, thr)
     m = m.drop(columns=[C.BEARING], errors="ignore").rename(columns={"_bearing": C.BEARING})
     out = _finish(m, set_aside, design, cats,
                   C.TX_CALL if design == "receive" else C.RX_CALL,
-                  "tx" if design == "receive" else "rx")
+                  "tx" if design == "receive" else "rx", keep_unheard=after is not None)
     if after is not None:
-        out[C.LIMIT_A] = np.nan
-        out[C.LIMIT_B] = np.nan
         out[C.KIND] = pd.Categorical(np.where(after, "after", "before"),
                                      categories=list(C.PERIOD_KINDS))
     return out
@@ -902,9 +936,13 @@ def summarise_pairs(pairs: pd.DataFrame, by=(), **group_options) -> pd.DataFrame
     sb = df[C.SNR_B].to_numpy(dtype=float)
     if C.KIND in df.columns:  # before/after
         after = (df[C.KIND].astype(str) == "after").to_numpy()
-        kcode = after.astype(np.int64)
-        value = np.where(after, sb, sa)
-        cats = list(C.PERIOD_KINDS)
+        obs = np.where(after, sb, sa)
+        bound = np.where(after, df[C.LIMIT_B].to_numpy(dtype=float),
+                         df[C.LIMIT_A].to_numpy(dtype=float))
+        heard = ~np.isnan(obs)
+        kcode = after.astype(np.int64) + 2 * (~heard)  # into PERIOD_KINDS + PERIOD_BOUND_KINDS
+        value = np.where(heard, obs, bound)
+        cats = list(C.PERIOD_KINDS) + list(PERIOD_BOUND_KINDS)
         rows = np.arange(len(df))
     else:
         ha, hb = ~np.isnan(sa), ~np.isnan(sb)
@@ -962,7 +1000,7 @@ def merge_summaries(tables) -> pd.DataFrame:
     return df.groupby(keys, observed=True, sort=True, dropna=False)[C.COUNT].sum().reset_index()
 
 
-__all__ = ["DESIGNS", "GROUP_KEYS", "PAIR_COLUMNS", "DEFAULT_DISTANCE_EDGES",
-           "DEFAULT_ELEVATION_EDGES", "pair_spots", "receiver_thresholds", "read_schedule",
-           "schedule_antennas", "parse_by", "group_columns", "add_group_keys",
-           "summarise_pairs", "merge_summaries"]
+__all__ = ["DESIGNS", "GROUP_KEYS", "PAIR_COLUMNS", "PERIOD_BOUND_KINDS",
+           "DEFAULT_DISTANCE_EDGES", "DEFAULT_ELEVATION_EDGES", "pair_spots",
+           "receiver_thresholds", "read_schedule", "schedule_antennas", "parse_by",
+           "group_columns", "add_group_keys", "summarise_pairs", "merge_summaries"]

@@ -125,9 +125,52 @@ def test_before_after_is_weaker_and_says_so():
     res = compare_antennas(sim.spots, **sim.compare_kwargs(), n_boot=200)
     # weaker design: 0.5 dB tolerance on the overall difference (simulated truth 1.5 dB)
     assert res.overall[C.B_MINUS_A] == pytest.approx(1.5, abs=0.5)
-    assert "weaker" in res.overall[C.METHOD] and "censoring not modelled" in \
-        res.overall[C.METHOD]
+    method = res.overall[C.METHOD]
+    assert "weaker" in method and "upper bound where it was on the air but not heard" \
+        in method
     assert "weaker" in res.verdicts()[0]
+    # the censored observations are in the compressed table as bounds
+    kinds = set(res.counts[C.KIND].astype(str))
+    assert {"before", "after", "before_below", "after_below"} <= kinds
+
+
+BA_TRUTH = {"20m": (0.5, 1.5, -1.0), "10m": (-0.5, 1.0, 2.0)}  # invented, dB
+
+
+@pytest.mark.slow
+def test_before_after_recovers_band_and_cells_with_four_days_per_period():
+    """Before/after with censoring modelled: four days per period, invented truth per band
+    x distance cell. Cells with 10,000 or more heard reports land within the issue's
+    0.3 dB (measured 0.08-0.19 dB; with the earlier heard-only estimator up to 0.35 dB);
+    so does the band-level estimate when the truth is one number per band (measured
+    0.05-0.23 dB over three seeds)."""
+    sim = simulate_spots("before-after", days=8, seed=5, difference_db=BA_TRUTH,
+                         difference_edges=EDGES)
+    res = compare_antennas(sim.spots, **sim.compare_kwargs(), by="band,distance",
+                           distance_edges=EDGES, n_boot=50)
+    big = _cells(sim, res).query(f"{C.PAIRS} >= 10000")
+    assert len(big) >= 3
+    np.testing.assert_allclose(big[C.B_MINUS_A], big["b_minus_a_db_true"], atol=0.3)
+    truth = {"20m": 0.5, "10m": 2.0}
+    sim = simulate_spots("before-after", days=8, seed=7, difference_db=truth)
+    res = compare_antennas(sim.spots, **sim.compare_kwargs(), by="band", n_boot=50)
+    g = res.groups
+    np.testing.assert_allclose(g[C.B_MINUS_A], g[C.BAND].astype(str).map(truth), atol=0.3)
+
+
+@pytest.mark.slow
+@pytest.mark.xfail(strict=True, reason="known limitation: before/after with one day per "
+                   "period - propagation (openness, daily conditions) changes between the "
+                   "periods and the control stations' paths do not follow the target's; "
+                   "off by about 1 dB on 10 m in this simulation although censoring is "
+                   "modelled")
+def test_before_after_one_day_per_period_by_band():
+    truth = {"20m": 0.5, "10m": 2.0}
+    sim = simulate_spots("before-after", days=2, seed=5, difference_db=truth)
+    res = compare_antennas(sim.spots, **sim.compare_kwargs(), by="band", n_boot=50)
+    g = res.groups
+    assert (g[C.PAIRS] >= 5000).all()
+    np.testing.assert_allclose(g[C.B_MINUS_A], g[C.BAND].astype(str).map(truth), atol=0.3)
 
 
 @pytest.mark.slow

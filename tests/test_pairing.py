@@ -210,6 +210,34 @@ def test_before_after_relative_to_control():
         pair_spots(make_spots(rows), "before-after", "Q1AAA", change_at="2027-01-01")
 
 
+def test_before_after_target_on_the_air_but_not_heard_is_a_bound():
+    # Q2RX hears the target in slots 0 and 3 and the control in 0-3; in slots 1-2 the
+    # target is on the air (Q3RX hears it) but Q2RX does not: upper bounds of the relative
+    # SNR at threshold - (power - 30) - control. Q2RX's threshold is its lowest report,
+    # -25 dB; target 37 dBm, control -16 dB per W -> -25 - 7 + 16 = -16 dB (exact)
+    rows = [(0, "Q1AAA", "JN58", "Q2RX", "IO91", "20m", -10, 37),
+            (3, "Q1AAA", "JN58", "Q2RX", "IO91", "20m", -7, 37),
+            (1, "Q1AAA", "JN58", "Q3RX", "FN31", "20m", -20, 37),
+            (2, "Q1AAA", "JN58", "Q3RX", "FN31", "20m", -21, 37)]
+    for i in range(4):
+        rows.append((i, "Q7CTL", "JN59", "Q2RX", "IO91", "20m", -14, 30))
+        rows.append((i, "Q7CTM", "JN57", "Q2RX", "IO91", "20m", -18, 30))
+    rows.append((0, "Q7CTL", "JN59", "Q2RX", "IO91", "40m", -25, 30))  # lowest report
+    p = pair_spots(make_spots(rows), "before-after", "Q1AAA",
+                   change_at="2026-03-02T00:04Z")
+    p = p[p[C.CLUSTER] == "Q2RX"].sort_values(C.SLOT)
+    assert list(p[C.KIND]) == ["before", "before", "after", "after"]
+    assert list(p[C.HEARD_A] | p[C.HEARD_B]) == [True, False, False, True]
+    assert p[C.LIMIT_A].iloc[1] == -16.0 and np.isnan(p[C.SNR_A].iloc[1])
+    assert p[C.LIMIT_B].iloc[2] == -16.0 and np.isnan(p[C.SNR_B].iloc[2])
+    assert p[C.DISTANCE].nunique() == 1  # geometry of the censored rows from Q2RX's path
+    counts = summarise_pairs(p, ())
+    got = dict(zip(counts[C.KIND].astype(str), counts[C.VALUE]))
+    # heard: -17 - (-16) = -1 dB before; -14 + 16 = +2 dB after
+    assert got == {"before": -1.0, "after": 2.0, "before_below": -16.0,
+                   "after_below": -16.0}
+
+
 def test_group_keys(simultaneous):
     p = pair_spots(simultaneous, "simultaneous", "Q1AAA", "Q1BBB")
     g = add_group_keys(p, "band,distance,bearing,hour,field,square,elevation",
