@@ -59,8 +59,6 @@ UTF-8 and Latin-1 is read as Latin-1. Times without a zone are taken as UTC.
 """
 from __future__ import annotations
 
-import re
-import warnings
 from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -70,12 +68,16 @@ import numpy as np
 import pandas as pd
 
 from . import columns as C
+from . import csvread
 from .bands import BAND_ORDER, REGIONS, band_plan
+from .csvread import TextChunk, TextColumn
+from .dedupe import DayKeys, SeenKeys, hash_values, report_hashes
 from .errors import InputError, UsageError
-from .locator import locator_to_latlon, normalize_locator
+from .locator import normalize_locator
+from .pathcache import PathCache
 from .sniff import (  # noqa: F401  (public names re-exported from here)
-    _CALL_RE, _CAT_FIELDS, _CLI_NAME, DELIMITERS, MAX_WATTS, SAMPLE_ROWS, TIME_UNITS,
-    UNIT_CHOICES, Delimiter, Header, _check_mapping, _check_units, _csv_kwargs,
+    _CALL_RE, _CLI_NAME, DELIMITERS, MAX_WATTS, SAMPLE_ROWS, TIME_UNITS,
+    UNIT_CHOICES, Delimiter, Header, _check_mapping, _check_units,
     _delimiter_arg, _Layout, _prepare_layout, _to_number, infer_columns, infer_frequency_unit,
     infer_power_unit, match_headings,
 )
@@ -172,193 +174,23 @@ class IngestResult:
         return self.summary.text()
 
 
-# --- reading -------------------------------------------------------------------------------------
-def _raw_chunks(layout: _Layout, chunk_rows: int | None) -> Iterator[tuple[pd.DataFrame, list]]:
-    """Yield (raw chunk, skipped lines [(line number, message)])."""
-    kw = _csv_kwargs(layout)
-    with warnings.catch_warnings(record=True) as caught:
-        warnings.simplefilter("always")
-        if chunk_rows:
-            reader = pd.read_csv(layout.path, chunksize=chunk_rows, **kw)
-            with reader:
-                for chunk in reader:
-                    yield chunk, _skipped_lines(caught)
-        else:
-            chunk = pd.read_csv(layout.path, **kw)
-            yield chunk, _skipped_lines(caught)
-    for w in caught:
-        warnings.warn_explicit(w.message, w.category, w.filename, w.lineno)
+# --- cleaning: each distinct cell once, rows by gathers -------------------------------------
+def _per_row(table: np.ndarray, codes: np.ndarray, empty) -> np.ndarray:
+    """``table[codes]``, with ``empty`` where the code is -1 (an empty cell)."""
+    return np.take(np.append(table, np.asarray([empty], dtype=table.dtype)), codes)
 
 
-#: Bytes per block of the pyarrow CSV reader.
-_BLOCK_BYTES = 1 << 27
-
-
-def _block_bytes(chunk_rows: int | None) -> int:
-    """Reader block size: about one chunk (72 bytes a row), 1 MB to :data:`_BLOCK_BYTES`."""
-    if not chunk_rows:
-        return _BLOCK_BYTES
-    return int(min(_BLOCK_BYTES, max(1 << 20, 72 * chunk_rows)))
-
-
-class _RowNumbersUnknown(Exception):
-    """A row was set aside by a multithreaded read, which does not know its line number."""
-
-
-class _NotPlainNumbers(Exception):
-    """A numeric column has a cell that is not a plain decimal number (or spells NaN or
-    infinity): it must be read as text to tell empty, bad and out-of-range cells apart."""
-
-
-def _arrow_chunks(layout: _Layout, chunk_rows: int | None
-                  ) -> Iterator[tuple[pd.DataFrame, list]]:
-    """Like :func:`_raw_chunks`, with pyarrow's streaming CSV reader (faster; used for
-    comma, semicolon and tab files with decimal points). Rows with too few fields are set
-    aside like rows with too many.
-
-    The file is read with several threads; those cannot tell the line number of a row with
-    the wrong number of fields, so at the first such row the file is read again in one
-    thread from where the chunks handed out so far end (they held no such row). Likewise
-    the numeric columns are first parsed as numbers by the reader, and read again as text
-    from there at the first cell that is not a plain number.
-    """
-    done, threads, numbers = 0, True, True
-    while True:
-        try:
-            for raw, skipped in _arrow_pass(layout, chunk_rows, threads, done, numbers):
-                done += len(raw)
-                yield raw, skipped
-            return
-        except _RowNumbersUnknown:
-            threads = False
-        except _NotPlainNumbers:
-            numbers = False
-
-
-def _arrow_pass(layout: _Layout, chunk_rows: int | None, threads: bool, skip: int,
-                numbers: bool = False) -> Iterator[tuple[pd.DataFrame, list]]:
-    """One read of the file for :func:`_arrow_chunks`, leaving out the first ``skip`` data
-    rows (all good ones); ``numbers``: parse the numeric columns as float64."""
-    import pyarrow as pa
-    import pyarrow.compute as pc
-    import pyarrow.csv as pacsv
-
-    names = [f"c{i}" for i in range(layout.ncols)]
-    cats = {names[i] for f, pos in layout.fields.items() if f in _CAT_FIELDS for i in pos}
-    nums = {names[i] for f, pos in layout.fields.items()
-            if f in (C.FREQ, C.SNR, C.POWER, C.DRIFT) for i in pos} if numbers else set()
-    types = {n: pa.dictionary(pa.int32(), pa.string()) if n in cats
-             else pa.float64() if n in nums else pa.string() for n in names}
-    bad: list = []
-    unknown: list = []
-
-    def handler(row):
-        if row.number is None or row.number < 0:
-            unknown.append(row)
-        bad.append((row.number, f"expected {row.expected_columns} fields, "
-                                f"saw {row.actual_columns}"))
-        return "skip"
-
-    def plain(batch) -> bool:  # parsed numbers all finite or empty
-        return not any(pc.any(pc.invert(pc.is_finite(batch.column(n)))).as_py()
-                       for n in nums)
-
-    encoding = {"utf-8": "utf8", "utf-8-sig": "utf8", "latin-1": "latin1"}[layout.encoding]
-    source = pa.input_stream(str(layout.path), compression=layout.compression)
-    try:
-        reader = _open_csv(
-            pacsv, source, nums,
-            read_options=pacsv.ReadOptions(column_names=names, skip_rows=layout.header_lines,
-                                           block_size=_block_bytes(chunk_rows),
-                                           use_threads=threads,
-                                           encoding=encoding),
-            parse_options=pacsv.ParseOptions(delimiter=layout.sep, invalid_row_handler=handler,
-                                             ignore_empty_lines=False),
-            convert_options=pacsv.ConvertOptions(column_types=types, strings_can_be_null=True,
-                                                 quoted_strings_can_be_null=True,
-                                                 null_values=[""]))
-        if unknown:
-            raise _RowNumbersUnknown
-        batches, n = [], 0
-        batch_iter = iter(reader)
-
-        def emit():
-            table = pa.Table.from_batches(batches, schema=reader.schema).unify_dictionaries()
-            df = table.combine_chunks().to_pandas()
-            skipped = [(line, msg) for line, msg in bad]
-            bad.clear()
-            return df, skipped
-
-        while True:
-            try:
-                batch = next(batch_iter)
-            except StopIteration:
-                break
-            except pa.ArrowInvalid:
-                if nums:  # a cell the number parser refused: read as text from here
-                    raise _NotPlainNumbers from None
-                raise
-            if unknown:  # the handler runs before the batch holding the row is returned
-                raise _RowNumbersUnknown
-            if nums and not plain(batch):
-                raise _NotPlainNumbers
-            if skip:
-                k = min(skip, batch.num_rows)
-                batch, skip = batch.slice(k), skip - k
-                if not batch.num_rows:
-                    continue
-            batches.append(batch)
-            n += batch.num_rows
-            if chunk_rows and n >= chunk_rows:
-                yield emit()
-                batches, n = [], 0
-        if unknown:
-            raise _RowNumbersUnknown
-        if batches or bad or not chunk_rows:
-            yield emit()
-    finally:
-        source.close()
-
-
-def _open_csv(pacsv, source, nums, **kw):
-    """``pacsv.open_csv``; a cell the number parser refuses in the first block (read at
-    once) raises :class:`_NotPlainNumbers`."""
-    import pyarrow as pa
-
-    try:
-        return pacsv.open_csv(source, **kw)
-    except pa.ArrowInvalid:
-        if nums:
-            raise _NotPlainNumbers from None
-        raise
-
-
-def _skipped_lines(caught) -> list:
-    out = []
-    rest = []
-    for w in caught:
-        for m in re.finditer(r"Skipping line (\d+): (.*)", str(w.message)):
-            out.append((int(m.group(1)), m.group(2).strip()))
-        if "Skipping line" not in str(w.message):
-            rest.append(w)
-    caught[:] = rest
-    return out
-
-
-# --- cleaning ------------------------------------------------------------------------------------
-def _recode(cat: pd.Series, fn) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """Apply ``fn`` (array of distinct strings -> array of normalised strings or None) to the
-    categories; return (new categories, new codes, raw codes)."""
-    codes = cat.cat.codes.to_numpy()
-    cats = np.asarray(cat.cat.categories.astype("str"), dtype=object)
+def _recode(col: TextColumn, fn) -> tuple[np.ndarray, np.ndarray]:
+    """Apply ``fn`` (array of distinct texts -> normalised texts or None) to the distinct
+    cells; return (new categories, new codes per row: -1 empty cell, -2 bad value)."""
+    cats = col.values
     norm = np.asarray(fn(cats), dtype=object) if cats.size else np.array([], dtype=object)
     ok = np.array([x is not None for x in norm], dtype=bool)
     uniq, inv = np.unique(norm[ok].astype(str), return_inverse=True) if ok.any() else (
         np.array([], dtype=str), np.array([], dtype=int))
-    mapping = np.full(cats.size + 1, -2, dtype=np.int64)  # -1: empty cell, -2: bad value
+    mapping = np.full(cats.size, -2, dtype=np.int64)
     mapping[np.flatnonzero(ok)] = inv
-    mapping[-1] = -1
-    return uniq, mapping[codes], codes
+    return uniq, _per_row(mapping, col.codes, -1)
 
 
 def _norm_calls(cats):
@@ -367,22 +199,29 @@ def _norm_calls(cats):
     return np.where(ok, up, None)
 
 
-def _parse_time(cols: list[pd.Series], unit: str) -> tuple[np.ndarray, np.ndarray]:
-    """Parse time categories; returns (int64 ns since epoch, status) with status 0 ok,
-    1 empty, 2 unparseable, 3 out of range."""
-    codes = [c.cat.codes.to_numpy().astype(np.int64) for c in cols]
-    cats = [np.asarray(c.cat.categories.astype("str"), dtype=object) for c in cols]
-    empty = np.zeros(len(codes[0]), dtype=bool)
-    for cd in codes:
-        empty |= cd < 0
-    if len(cols) == 2:
-        combo = codes[0] * (len(cats[1]) + 1) + codes[1]
-        keys, inv = np.unique(np.where(empty, -1, combo), return_inverse=True)
-        texts = np.array([f"{cats[0][k // (len(cats[1]) + 1)]} {cats[1][k % (len(cats[1]) + 1)]}"
-                          if k >= 0 else "" for k in keys], dtype=object)
-    else:
-        inv = np.where(empty, len(cats[0]), codes[0])
-        texts = np.append(cats[0], "")
+def _time_codes(cols: list[TextColumn]) -> tuple[np.ndarray, np.ndarray]:
+    """(code per row, -1 when a cell is empty; distinct time texts): one column as it is,
+    a date and a time column joined by a blank."""
+    if len(cols) == 1:
+        return cols[0].codes, cols[0].values
+    c0, c1 = (np.asarray(c.codes, dtype=np.int64) for c in cols)
+    empty = (c0 < 0) | (c1 < 0)
+    codes, uniq = pd.factorize(np.where(empty, -1, c0 * max(cols[1].values.size, 1) + c1))
+    keys = np.asarray(uniq, dtype=np.int64)
+    k0, k1 = np.divmod(np.maximum(keys, 0), max(cols[1].values.size, 1))
+    texts = np.array([f"{cols[0].values[a]} {cols[1].values[b]}" for a, b in zip(k0, k1)],
+                     dtype=object)
+    codes = np.asarray(codes, dtype=np.int64)
+    if (keys < 0).any():  # the empty combination: code -1
+        blank = int(np.flatnonzero(keys < 0)[0])
+        codes = np.where(codes == blank, -1, codes - (codes > blank))
+        texts = np.delete(texts, blank)
+    return codes, texts
+
+
+def _parse_times(texts: np.ndarray, unit: str) -> tuple[np.ndarray, np.ndarray]:
+    """Distinct time texts -> (int64 ns since 1970 UTC, status: 0 ok, 2 unparseable,
+    3 out of range)."""
     s = pd.Series(texts, dtype="str").str.strip()
     lo, hi = (t.value // 10**9 for t in TIME_RANGE)
     if unit == "epoch":
@@ -396,263 +235,194 @@ def _parse_time(cols: list[pd.Series], unit: str) -> tuple[np.ndarray, np.ndarra
         bad_range = (parsed.notna() & ((parsed < TIME_RANGE[0]) | (parsed >= TIME_RANGE[1]))
                      ).to_numpy()
         parsed = parsed.where(~bad_range)
-    parsed = parsed.dt.as_unit("ns")
-    ns = parsed.dt.tz_localize(None).to_numpy().view("i8")
-    status_k = np.where(unparsed, 2, np.where(bad_range, 3, 0))
-    status = np.where(empty, 1, status_k[inv])
-    return ns[inv], status
+    ns = parsed.dt.as_unit("ns").dt.tz_localize(None).to_numpy().view("i8").copy()
+    status = np.where(unparsed, 2, np.where(bad_range, 3, 0)).astype(np.int8)
+    ns[status != 0] = 0
+    return ns, status
 
 
-def _fmt_number(x: float) -> str:
-    return np.format_float_positional(x, trim="-") if np.isfinite(x) else str(x)
+def _parse_numbers(col: TextColumn, decimal: str, lo, hi, convert=None):
+    """Distinct cells of a numeric column -> (values, status: 0 ok, 2 not a number,
+    3 outside lo..hi)."""
+    v = _to_number(pd.Series(col.values, dtype="str"), decimal).to_numpy(dtype=float)
+    if convert is not None:
+        with np.errstate(divide="ignore", invalid="ignore"):
+            v = np.asarray(convert(v), dtype=float)
+    status = np.where(np.isnan(v), 2, 0).astype(np.int8)
+    if lo is not None:
+        status[np.isinf(v) | (np.isfinite(v) & ((v < lo) | (v > hi)))] = 3
+    return v, status
 
 
-def _cell_text(s: pd.Series, decimal: str) -> np.ndarray:
-    """Cell text for the rejects table; numbers in one spelling whether the column was
-    read as numbers or as text (so the table does not depend on chunking)."""
-    if pd.api.types.is_numeric_dtype(s.dtype):
-        return np.array(["" if np.isnan(x) else _fmt_number(x) for x in s.to_numpy(float)],
+def _number_rows(col, decimal: str, lo, hi, convert=None):
+    """A numeric column -> (value per row, status per row: 0 ok, 1 empty, 2 not a number,
+    3 outside lo..hi; (codes, distinct values) or (None, value per row) for the key).
+
+    ``col`` is a :class:`TextColumn` (each distinct cell parsed once) or a float64 array
+    parsed by the reader (NaN: empty cell; the reader leaves no other NaN or infinity).
+    """
+    if isinstance(col, TextColumn):
+        v_d, st_d = _parse_numbers(col, decimal, lo, hi, convert)
+        return (_per_row(v_d, col.codes, np.nan), _per_row(st_d, col.codes, 1),
+                (col.codes, v_d))
+    v = col
+    if convert is not None:
+        with np.errstate(divide="ignore", invalid="ignore"):
+            v = np.asarray(convert(col), dtype=float)
+    status = np.zeros(v.size, dtype=np.int8)
+    status[np.isnan(v)] = 2
+    if lo is not None:
+        status[np.isinf(v) | (v < lo) | (v > hi)] = 3
+    status[np.isnan(col)] = 1
+    return v, status, (None, v)
+
+
+def _cell_text(column, idx: np.ndarray, decimal: str, numeric: bool) -> np.ndarray:
+    """Text of the cells ``idx`` for the rejects table; numbers in one spelling whichever
+    way the reader took them (as text or as numbers), so it does not depend on chunking."""
+    if not isinstance(column, TextColumn):
+        return np.array(["" if np.isnan(x) else _fmt_number(x) for x in column[idx]],
                         dtype=object)
-    text = s.astype("str").fillna("").to_numpy(dtype=object)
-    nums = _to_number(s, decimal).to_numpy()
+    text = column.cells(idx)
+    if not numeric:
+        return text
+    nums = _to_number(pd.Series(text, dtype="str"), decimal).to_numpy(dtype=float)
     return np.array([_fmt_number(x) if np.isfinite(x) else t for t, x in zip(text, nums)],
                     dtype=object)
 
 
-class _Checker:
-    """Collects the first failure of each row."""
-
-    def __init__(self, n: int):
-        self.field = np.full(n, None, dtype=object)
-        self.reason = np.full(n, None, dtype=object)
-        self.bad = np.zeros(n, dtype=bool)
-        self.raw = {}
-
-    def fail(self, name: str, mask: np.ndarray, reason, raw: pd.Series | None):
-        new = mask & ~self.bad
-        if not new.any():
-            return
-        self.bad |= new
-        self.field[new] = name
-        self.reason[new] = reason[new] if isinstance(reason, np.ndarray) else reason
-        if raw is not None:
-            self.raw.setdefault(name, raw)
+def _fmt_number(x: float) -> str:
+    return np.format_float_positional(x, trim="-")
 
 
-def _clean_chunk(raw: pd.DataFrame, layout: _Layout, rows: np.ndarray, region: str,
-                 slot_minutes: int) -> tuple[pd.DataFrame, pd.DataFrame]:
-    n = len(raw)
-    chk = _Checker(n)
-    col = {f: [raw.iloc[:, i] for i in pos] for f, pos in layout.fields.items()}
-    maybe_blank = np.flatnonzero(col[C.TIME][0].isna().to_numpy()
-                                 & col[C.TX_CALL][0].isna().to_numpy())
-    blank = np.zeros(n, dtype=bool)
-    blank[maybe_blank] = raw.iloc[maybe_blank].isna().all(axis=1).to_numpy()
-    chk.fail("row", blank, "blank line", None)
+_TIME_REASONS = {1: "empty time", 2: "unparseable time",
+                 3: "time out of range (before 1990 or from 2100)"}
 
-    ns, status = _parse_time(col[C.TIME], layout.units["time"])
 
-    def time_text(idx):
-        parts = [c.iloc[idx].astype("str").fillna("").to_numpy(dtype=object)
-                 for c in col[C.TIME]]
-        return parts[0] if len(parts) == 1 else np.char.add(
-            np.char.add(parts[0].astype(str), " "), parts[1].astype(str)).astype(object)
+def _number_reasons(label: str, lo, hi, unit_txt: str) -> dict:
+    out = {1: f"empty {label}", 2: f"{label} not a number"}
+    if lo is not None:
+        out[3] = f"{label} outside {lo:+g}..{hi:+g} {unit_txt}".replace("+0..", "0..")
+    return out
 
-    for code, reason in ((1, "empty time"), (2, "unparseable time"),
-                         (3, "time out of range (before 1990 or from 2100)")):
-        chk.fail(C.TIME, status == code, reason, time_text)
 
-    out = {}
+def _clean_chunk(raw: TextChunk, layout: _Layout, rows: np.ndarray, region: str,
+                 slot_minutes: int) -> tuple[dict, pd.DataFrame, list]:
+    """Validate and convert one chunk. Returns (spots: the accepted rows' columns, times
+    as int64 ns; rejects; key parts of the accepted rows for :mod:`spotkit.dedupe`)."""
+    n = raw.n
+    col = {f: [raw.columns[i] for i in pos] for f, pos in layout.fields.items()}
+    checks = []  # (field, status per row (0 ok), reasons by status), in order of checking
+    keys = {}  # report-key field -> (codes per row, hash per distinct value)
+
+    t_codes, t_texts = _time_codes(col[C.TIME])
+    t_ns, t_status = _parse_times(t_texts, layout.units["time"])
+    checks.append((C.TIME, _per_row(t_status, t_codes, 1), _TIME_REASONS))
+    slot_ns = np.int64(slot_minutes) * 60 * 10**9
+    slot_d = t_ns - np.mod(t_ns, slot_ns)
+    keys[C.SLOT] = (t_codes, slot_d)
+
+    cats = {}
     for f, fn, what in ((C.TX_CALL, _norm_calls, "call"),
                         (C.TX_LOCATOR, normalize_locator, "locator"),
                         (C.RX_CALL, _norm_calls, "call"),
                         (C.RX_LOCATOR, normalize_locator, "locator")):
-        cats, codes, _ = _recode(col[f][0], fn)
-        chk.fail(f, codes == -1, f"empty {what}", col[f][0])
-        chk.fail(f, codes == -2, f"bad {what}", col[f][0])
-        out[f] = (cats, codes)
+        uniq, codes = _recode(col[f][0], fn)
+        checks.append((f, np.where(codes == -1, 1, np.where(codes == -2, 2, 0)).astype(np.int8),
+                       {1: f"empty {what}", 2: f"bad {what}"}))
+        cats[f] = (uniq, codes)
+        keys[f] = (codes, uniq)
 
-    def number(f, label, lo, hi, unit_txt, convert=None):
-        rawc = col[f][0]
-        v = _to_number(rawc, layout.decimal).to_numpy()
-        empty = rawc.isna().to_numpy()  # numeric columns: also cells reading "nan"
-        if convert is not None:
-            with np.errstate(divide="ignore", invalid="ignore"):
-                v = convert(v)
-        nan = np.isnan(v)
-        chk.fail(f, nan & empty, f"empty {label}", rawc)
-        chk.fail(f, nan & ~empty, f"{label} not a number", rawc)
-        if lo is not None:
-            chk.fail(f, np.isfinite(v) & ((v < lo) | (v > hi)) | np.isinf(v),
-                     f"{label} outside {lo:+g}..{hi:+g} {unit_txt}".replace("+0..", "0.."), rawc)
-        return v
-
-    freq = number(C.FREQ, "frequency", None, None, "",
-                  lambda v: frequency_to_hz(v, layout.units["frequency"]))
-    band = _band_codes(freq, region)
-    chk.fail(C.FREQ, np.isfinite(freq) & (band < 0), "frequency not in an amateur band",
-             col[C.FREQ][0])
-    snr = number(C.SNR, "SNR", *SNR_RANGE_DB, "dB")
-    power = number(C.POWER, "power", *POWER_RANGE_DBM, "dBm",
-                   lambda v: power_to_dbm(v, layout.units["power"]))
+    fcol = col[C.FREQ][0]
+    if not isinstance(fcol, TextColumn):  # (the reader parses SNR, power and drift only)
+        raise TypeError("the frequency column must be read as text")
+    f_d, f_st = _parse_numbers(fcol, layout.decimal, None, None,
+                               lambda v: frequency_to_hz(v, layout.units["frequency"]))
+    band_d = _band_codes(f_d, region)
+    f_st[(f_st == 0) & (band_d < 0)] = 4
+    checks.append((C.FREQ, _per_row(f_st, fcol.codes, 1),
+                   _number_reasons("frequency", None, None, "")
+                   | {4: "frequency not in an amateur band"}))
+    keys[C.FREQ] = (fcol.codes, f_d)
+    values = {}
+    for f, label, rng, unit_txt, convert in (
+            (C.SNR, "SNR", SNR_RANGE_DB, "dB", None),
+            (C.POWER, "power", POWER_RANGE_DBM, "dBm",
+             lambda v: power_to_dbm(v, layout.units["power"]))):
+        v, st, keys[f] = _number_rows(col[f][0], layout.decimal, *rng, convert)
+        checks.append((f, st, _number_reasons(label, *rng, unit_txt)))
+        values[f] = v
     if C.DRIFT in col:
-        rawd = col[C.DRIFT][0]
-        drift = _to_number(rawd, layout.decimal).to_numpy()
-        chk.fail(C.DRIFT, rawd.notna().to_numpy() & ~np.isfinite(drift), "drift not a number",
-                 rawd)
+        drift, d_st, _ = _number_rows(col[C.DRIFT][0], layout.decimal, None, None)
+        d_st[d_st == 1] = 0  # drift is optional: an empty cell is fine
+        d_st[(d_st == 0) & np.isinf(drift)] = 2  # "inf" and overflow are not numbers either
+        drift = np.where(d_st == 0, drift, np.nan)
+        checks.append((C.DRIFT, d_st, {2: "drift not a number"}))
     else:
         drift = np.full(n, np.nan)
 
-    bad = chk.bad
+    bad = np.zeros(n, dtype=bool)
+    for _, st, _ in checks:
+        bad |= st != 0
     keep = ~bad if bad.any() else slice(None)
-    time_ns = ns[keep]
-    slot_ns = np.int64(slot_minutes) * 60 * 10**9
-    spots = {  # times as int64 ns since 1970 UTC until the table is built
-        C.TIME: time_ns,
-        C.SLOT: time_ns - np.mod(time_ns, slot_ns),
-    }
-    for f in (C.TX_CALL, C.TX_LOCATOR, C.RX_CALL, C.RX_LOCATOR):
-        cats, codes = out[f]
-        spots[f] = pd.Categorical.from_codes(codes[keep], categories=pd.Index(cats, dtype="str"),
-                                             validate=False)  # codes made by _recode
-    spots[C.FREQ] = freq[keep]
-    spots[C.BAND] = pd.Categorical.from_codes(band[keep], categories=pd.Index(BAND_ORDER,
-                                                                               dtype="str"),
-                                              validate=False)
-    spots[C.SNR] = snr[keep]
-    spots[C.POWER] = power[keep]
-    spots[C.DRIFT] = drift[keep]
-    spots[C.SOURCE_ROW] = rows[keep]
 
+    def kept(codes):
+        return codes[keep]
+
+    t_kept = kept(t_codes)
+    time_ns = np.take(t_ns, t_kept)
+    spots = {C.TIME: time_ns, C.SLOT: np.take(slot_d, t_kept)}
+    for f, (uniq, codes) in cats.items():
+        spots[f] = pd.Categorical.from_codes(kept(codes), validate=False,  # made by _recode
+                                             categories=pd.Index(uniq, dtype="str"))
+    spots[C.FREQ] = np.take(f_d, kept(fcol.codes))
+    spots[C.BAND] = pd.Categorical.from_codes(
+        np.take(band_d, kept(fcol.codes)), categories=pd.Index(BAND_ORDER, dtype="str"),
+        validate=False)
+    spots[C.SNR] = kept(values[C.SNR])
+    spots[C.POWER] = kept(values[C.POWER])
+    spots[C.DRIFT] = kept(drift)
+    spots[C.SOURCE_ROW] = rows[keep]
+    key_parts = [(None, hash_values(kept(v))) if codes is None else (kept(codes),
+                                                                      hash_values(v))
+                 for codes, v in (keys[f] for f in C.REPORT_KEY)]
+    return spots, _rejects(raw, layout, rows, bad, checks, col), key_parts
+
+
+_NUMERIC = (C.FREQ, C.SNR, C.POWER, C.DRIFT)
+
+
+def _rejects(raw: TextChunk, layout: _Layout, rows, bad, checks, col) -> pd.DataFrame:
+    """Rejects table of the rows ``bad``: the first failing field (blank rows first), its
+    cell text and the reason."""
     idx = np.flatnonzero(bad)
-    values = np.full(idx.size, "", dtype=object)
-    for name, rawc in chk.raw.items():
-        sel = chk.field[idx] == name
-        if not sel.any():
-            continue
-        if callable(rawc):
-            values[sel] = rawc(idx[sel])
-            continue
-        cells = rawc.iloc[idx[sel]]
-        values[sel] = _cell_text(cells, layout.decimal) if name in (
-            C.FREQ, C.SNR, C.POWER, C.DRIFT) else cells.astype("str").fillna("").to_numpy(
-            dtype=object)
-    rejects = pd.DataFrame({
+    field = np.full(idx.size, None, dtype=object)
+    reason = np.full(idx.size, None, dtype=object)
+    value = np.full(idx.size, "", dtype=object)
+    if idx.size:
+        blank = np.ones(idx.size, dtype=bool)
+        for c in raw.columns:
+            blank &= (c.codes[idx] < 0) if isinstance(c, TextColumn) else np.isnan(c[idx])
+        field[blank], reason[blank] = "row", "blank line"
+        todo = ~blank
+        for f, st, reasons in checks:
+            s = st[idx]
+            hit = todo & (s != 0)
+            if not hit.any():
+                continue
+            field[hit] = f
+            reason[hit] = [reasons[int(k)] for k in s[hit]]
+            cells = [_cell_text(c, idx[hit], layout.decimal, f in _NUMERIC) for c in col[f]]
+            value[hit] = cells[0] if len(cells) == 1 else np.char.add(
+                np.char.add(cells[0].astype(str), " "), cells[1].astype(str)).astype(object)
+            todo &= ~hit
+    return pd.DataFrame({
         C.SOURCE_FILE: layout.name,
         C.SOURCE_ROW: rows[idx].astype("int64"),
-        C.REJECT_FIELD: [_CLI_NAME.get(f, f) for f in chk.field[idx]],
-        C.REJECT_VALUE: values,
-        C.REJECT_REASON: chk.reason[idx],
+        C.REJECT_FIELD: [_CLI_NAME.get(f, f) for f in field],
+        C.REJECT_VALUE: value,
+        C.REJECT_REASON: reason,
     }, index=pd.RangeIndex(idx.size))
-    return spots, rejects
-
-
-# --- duplicates across chunks --------------------------------------------------------------------
-class _SeenKeys:
-    """Set of 64-bit report-key hashes kept as a few sorted arrays (log-structured).
-
-    Queries come sorted, so that the binary searches walk each array in order
-    (cache-friendly); arrays of similar size are merged, so there are O(log n) of them.
-    """
-
-    def __init__(self):
-        self.runs: list[np.ndarray] = []
-
-    def contains_sorted(self, hs: np.ndarray) -> np.ndarray:
-        """Which of the sorted hashes ``hs`` are in the set."""
-        found = np.zeros(hs.size, dtype=bool)
-        for run in self.runs:
-            pos = np.searchsorted(run, hs)
-            pos[pos == run.size] = 0
-            found |= run[pos] == hs
-        return found
-
-    def add_sorted(self, hs: np.ndarray) -> None:
-        """Add sorted hashes not yet in the set."""
-        if not hs.size:
-            return
-        self.runs.append(hs)
-        while len(self.runs) > 1 and self.runs[-1].size * 2 >= self.runs[-2].size:
-            b = self.runs.pop()
-            a = self.runs.pop()
-            merged = np.concatenate([a, b])
-            del a, b  # free the two runs before sorting: peak 2n hashes, not 3n
-            merged.sort(kind="stable")  # timsort/radix: two sorted runs merge in O(n)
-            self.runs.append(merged)
-
-
-def _duplicates(spots: dict, seen: _SeenKeys) -> np.ndarray:
-    """Which rows repeat a report seen before (in this chunk or an earlier one)."""
-    n = len(spots[C.SOURCE_ROW])
-    if not n:
-        return np.zeros(0, dtype=bool)
-    h = np.zeros(n, dtype=np.uint64)
-    with np.errstate(over="ignore"):
-        for name in C.REPORT_KEY:
-            v = spots[name]
-            v = v.array if isinstance(v, pd.Index) else v
-            h = h * np.uint64(0x100000001B3) ^ pd.util.hash_array(v)
-    hs = np.sort(h)
-    again = np.zeros(n, dtype=bool)  # sorted position repeats the one before it
-    np.equal(hs[1:], hs[:-1], out=again[1:])
-    found = seen.contains_sorted(hs)
-    seen.add_sorted(hs[~again & ~found])  # sorted, distinct, new
-    dup = np.zeros(n, dtype=bool)
-    if again.any() or found.any():
-        # the few rows whose hash repeats: a repeat within the chunk (the row read first is
-        # kept) or a hash seen in an earlier chunk
-        repeated = np.unique(hs[again | found])
-        cand = np.flatnonzero(pd.Index(repeated).get_indexer(h) >= 0)
-        hc = h[cand]
-        dup[cand] = (pd.Series(hc).duplicated().to_numpy()
-                     | (pd.Index(np.unique(hs[found])).get_indexer(hc) >= 0))
-    return dup
-
-
-class _DayKeys:
-    """Report-key hashes kept per slot day, forgetting the days more than ``window_days``
-    before the latest day read: bounded memory for time-ordered input.
-
-    A duplicate shares its slot with the report it repeats, so only recent days need their
-    keys. A report older than the forgotten days cannot be checked; it raises
-    :class:`~spotkit.errors.InputError` instead of being let through unchecked.
-    """
-
-    _DAY_NS = 86_400 * 10**9
-
-    def __init__(self, window_days: int):
-        if window_days < 1:
-            raise UsageError(f"dedupe_window_days must be 1 or more, not {window_days!r}")
-        self.window = int(window_days)
-        self.days: dict[int, _SeenKeys] = {}
-        self.cutoff: int | None = None  # days before this one are forgotten
-
-    def duplicates(self, spots: dict, source: str) -> np.ndarray:
-        """Which rows repeat a report seen before (see :func:`_duplicates`)."""
-        n = len(spots[C.SOURCE_ROW])
-        if not n:
-            return np.zeros(0, dtype=bool)
-        day = np.asarray(spots[C.SLOT], dtype=np.int64) // self._DAY_NS
-        if self.cutoff is not None and (day < self.cutoff).any():
-            row = np.asarray(spots[C.SOURCE_ROW])[np.flatnonzero(day < self.cutoff)[0]]
-            raise InputError(
-                f"{source}, row {row}: a report more than {self.window} day(s) older than "
-                "reports already read; ingest under a memory cap finds duplicates only in "
-                "time-ordered input - sort the file by time or ingest it without a cap")
-        days = np.unique(day)
-        if days.size == 1:
-            dup = _duplicates(spots, self.days.setdefault(int(days[0]), _SeenKeys()))
-        else:
-            dup = np.zeros(n, dtype=bool)
-            for d in days:
-                idx = np.flatnonzero(day == d)
-                sub = {k: spots[k][idx] for k in (*C.REPORT_KEY, C.SOURCE_ROW)}
-                dup[idx] = _duplicates(sub, self.days.setdefault(int(d), _SeenKeys()))
-        cut = int(days[-1]) - self.window
-        self.cutoff = cut if self.cutoff is None else max(self.cutoff, cut)
-        for d in [d for d in self.days if d < self.cutoff]:
-            del self.days[d]
-        return dup
 
 
 # --- drivers -------------------------------------------------------------------------------------
@@ -688,145 +458,11 @@ def _band_codes(freq_hz: np.ndarray, region: str) -> np.ndarray:
     return order[np.where(inside, idx, len(lows))]
 
 
-class _PathCache:
-    """Geodesic distance and azimuths per locator pair, kept across chunks.
-
-    Each distinct locator gets a number the first time it is seen (one per transmitter
-    locator and one per receiver locator; its cell centre is decoded once,
-    :mod:`spotkit.locator`); each distinct (tx, rx) pair is solved once by
-    :func:`spotkit.geo.geodesic_inverse` and remembered in a dense table indexed by the two
-    numbers, so a pair seen in an earlier chunk is not solved again. When the table would
-    exceed :attr:`MAX_CELLS` cells, pairs are remembered under a 64-bit hash of the two
-    locator texts instead (slower). Results equal :func:`spotkit.geo.add_path_columns`.
-    """
-
-    MAX_PAIRS = 5_000_000
-    #: Largest dense pair table [cells of 4 bytes] (128 MB).
-    MAX_CELLS = 1 << 25
-
-    def __init__(self):
-        self.ids = ({}, {})  # locator text -> number, for tx and rx
-        self.pos = ([np.zeros(0), np.zeros(0)], [np.zeros(0), np.zeros(0)])  # lat, lon
-        self.table = np.full((0, 0), -1, dtype=np.int32)  # pair -> column of vals
-        # one row per pair: distance [km], bearing, reverse bearing [deg] (rows, so that
-        # looking a pair up touches one cache line)
-        self.vals = np.zeros((0, 3))
-        self.n_vals = 0
-        self.hashed = None  # _HashedPathCache once the dense table is too big
-
-    def _numbers(self, side: int, cats: np.ndarray) -> np.ndarray:
-        ids = self.ids[side]
-        new = [c for c in cats if c not in ids]
-        if new:
-            first = len(ids)
-            for k, c in enumerate(new):
-                ids[c] = first + k
-            lat, lon = (np.atleast_1d(a) for a in locator_to_latlon(
-                np.asarray(new, dtype=object), "coerce"))
-            self.pos[side][0] = np.concatenate([self.pos[side][0], lat])
-            self.pos[side][1] = np.concatenate([self.pos[side][1], lon])
-        return np.fromiter((ids[c] for c in cats), dtype=np.int64, count=len(cats))
-
-    def lookup(self, tx: pd.Categorical, rx: pd.Categorical) -> list[np.ndarray]:
-        if self.hashed is not None:
-            return self.hashed.lookup(tx, rx)
-        from .geo import geodesic_inverse
-
-        tx_cats = np.asarray(tx.categories.astype("str"), dtype=object)
-        rx_cats = np.asarray(rx.categories.astype("str"), dtype=object)
-        tg = self._numbers(0, tx_cats)[np.asarray(tx.codes, dtype=np.int64)]
-        rg = self._numbers(1, rx_cats)[np.asarray(rx.codes, dtype=np.int64)]
-        ntx, nrx = len(self.ids[0]), len(self.ids[1])
-        if ntx * nrx > self.MAX_CELLS:
-            self.hashed = _HashedPathCache()
-            self.table = np.full((0, 0), -1, dtype=np.int32)
-            self.vals = np.zeros((0, 3))
-            return self.hashed.lookup(tx, rx)
-        if ntx > self.table.shape[0] or nrx > self.table.shape[1]:
-            shape = (max(ntx, self.table.shape[0] * 5 // 4),
-                     max(nrx, self.table.shape[1] * 5 // 4))  # room for a few more
-            if shape[0] * shape[1] > self.MAX_CELLS:
-                shape = (ntx, nrx)
-            grown = np.full(shape, -1, dtype=np.int32)
-            grown[:self.table.shape[0], :self.table.shape[1]] = self.table
-            self.table = grown
-        idx = self.table[tg, rg]
-        miss = np.flatnonzero(idx < 0)
-        if miss.size:
-            key = pd.unique(tg[miss] * nrx + rg[miss])
-            mt, mr = np.divmod(key, nrx)
-            (tlat, tlon), (rlat, rlon) = self.pos
-            dist_m, azi, rev = geodesic_inverse(tlat[mt], tlon[mt], rlat[mr], rlon[mr])
-            new = np.column_stack([np.asarray(dist_m, dtype=float) / 1000.0, azi, rev])
-            if self.n_vals + key.size > self.vals.shape[0]:
-                grown = np.zeros((max(2 * self.vals.shape[0], self.n_vals + key.size), 3))
-                grown[:self.n_vals] = self.vals[:self.n_vals]
-                self.vals = grown
-            self.vals[self.n_vals:self.n_vals + key.size] = new
-            self.table[mt, mr] = np.arange(self.n_vals, self.n_vals + key.size,
-                                           dtype=np.int32)
-            self.n_vals += key.size
-            idx[miss] = self.table[tg[miss], rg[miss]]
-        (tlat, tlon), (rlat, rlon) = self.pos
-        rows = self.vals[idx]
-        return [tlat[tg], tlon[tg], rlat[rg], rlon[rg],
-                *(np.ascontiguousarray(rows[:, j]) for j in range(3))]
-
-
-class _HashedPathCache:
-    """Pair geometry remembered under a 64-bit hash of the two locator texts (sorted
-    arrays); used by :class:`_PathCache` when its dense table would be too big."""
-
-    MAX_PAIRS = _PathCache.MAX_PAIRS
-
-    def __init__(self):
-        self.keys = np.zeros(0, dtype=np.uint64)
-        self.vals = np.zeros((3, 0))  # distance [km], bearing, reverse bearing [deg]
-
-    def lookup(self, tx: pd.Categorical, rx: pd.Categorical) -> list[np.ndarray]:
-        from .geo import geodesic_inverse
-
-        tx_cats = np.asarray(tx.categories.astype("str"), dtype=object)
-        rx_cats = np.asarray(rx.categories.astype("str"), dtype=object)
-        tx_lat, tx_lon = (np.atleast_1d(a) for a in locator_to_latlon(tx_cats, "coerce"))
-        rx_lat, rx_lon = (np.atleast_1d(a) for a in locator_to_latlon(rx_cats, "coerce"))
-        tc, rc = np.asarray(tx.codes, dtype=np.int64), np.asarray(rx.codes, dtype=np.int64)
-        nrx = rx_cats.size
-        pair_codes, uniq = pd.factorize(tc * nrx + rc, sort=False)
-        ptx, prx = np.divmod(np.asarray(uniq, dtype=np.int64), nrx)
-        with np.errstate(over="ignore"):
-            h = (pd.util.hash_array(tx_cats)[ptx] * np.uint64(0x100000001B3)
-                 ^ pd.util.hash_array(rx_cats)[prx])
-        h_order = np.argsort(h)
-        pos = np.empty(h.size, dtype=np.int64)
-        pos[h_order] = np.searchsorted(self.keys, h[h_order])  # sorted queries: cache-friendly
-        pos[pos == self.keys.size] = 0
-        found = self.keys[pos] == h if self.keys.size else np.zeros(h.size, dtype=bool)
-        if found.all():
-            vals = self.vals[:, pos]
-        else:
-            miss = ~found
-            m_tx, m_rx = ptx[miss], prx[miss]
-            dist_m, azi, rev = geodesic_inverse(tx_lat[m_tx], tx_lon[m_tx],
-                                                rx_lat[m_rx], rx_lon[m_rx])
-            new = np.vstack([np.asarray(dist_m, dtype=float) / 1000.0, azi, rev])
-            vals = np.empty((3, h.size))
-            vals[:, found] = self.vals[:, pos[found]]
-            vals[:, miss] = new
-            if self.keys.size + new.shape[1] > self.MAX_PAIRS:
-                self.keys, self.vals = self.keys[:0], self.vals[:, :0]
-            keys = np.concatenate([self.keys, h[miss]])
-            order = np.argsort(keys)
-            self.keys = keys[order]
-            self.vals = np.ascontiguousarray(np.concatenate([self.vals, new], axis=1)[:, order])
-        return [tx_lat[tc], tx_lon[tc], rx_lat[rc], rx_lon[rc],
-                *(v[pair_codes] for v in vals)]
-
-
-def _enrich(spots: dict, keep: np.ndarray, name: str, cache: _PathCache) -> dict:
+def _enrich(spots: dict, keep: np.ndarray, name: str, cache: PathCache) -> dict:
     """Keep rows ``keep``, add C.DERIVED columns and the source file; the table's columns
     (C.CANONICAL order) as arrays and categoricals."""
-    cols = {c: v if keep.all() else v[keep] for c, v in spots.items()}
+    everything = bool(keep.all())
+    cols = {c: v if everything else v[keep] for c, v in spots.items()}
     n = len(cols[C.SOURCE_ROW])
     vals = cache.lookup(cols[C.TX_LOCATOR], cols[C.RX_LOCATOR]) if n \
         else [np.zeros(0)] * len(C.DERIVED)
@@ -899,8 +535,8 @@ def _iter_chunk_columns(paths, *, mapping, units, delimiter, header, slot_minute
     paths = _as_paths(paths)
     summary = summary if summary is not None else IngestSummary()
     layouts = [_prepare_layout(p, mapping, units, delimiter, header) for p in paths]
-    seen = _SeenKeys() if dedupe_window_days is None else _DayKeys(dedupe_window_days)
-    cache = _PathCache()
+    seen = SeenKeys() if dedupe_window_days is None else DayKeys(dedupe_window_days)
+    cache = PathCache()
     bar = None
     if progress:
         from tqdm.auto import tqdm
@@ -916,13 +552,16 @@ def _iter_chunk_columns(paths, *, mapping, units, delimiter, header, slot_minute
             next_row = 1
             skipped_all: dict[int, str] = {}
             fast = layout.sep in (",", ";", "\t") and layout.decimal == "."
-            chunks = _prefetch(_arrow_chunks(layout, chunk_rows)) if fast \
-                else _raw_chunks(layout, chunk_rows)
+            numbers = tuple(i for f in (C.SNR, C.POWER, C.DRIFT) for i in
+                            layout.fields.get(f, ()))
+            chunks = csvread.prefetch(csvread.arrow_chunks(layout, chunk_rows, numbers)) \
+                if fast else csvread.pandas_chunks(layout, chunk_rows)
             for raw, skipped in chunks:
                 for line, msg in skipped:
                     skipped_all[line - layout.header_lines] = msg
-                rows, next_row = _row_numbers(len(raw), next_row, skipped_all)
-                spots, rejects = _clean_chunk(raw, layout, rows, region, slot_minutes)
+                rows, next_row = _row_numbers(raw.n, next_row, skipped_all)
+                spots, rejects, key_parts = _clean_chunk(raw, layout, rows, region,
+                                                         slot_minutes)
                 done = [r for r in skipped_all if r < next_row]
                 if done:
                     extra = pd.DataFrame({
@@ -931,12 +570,14 @@ def _iter_chunk_columns(paths, *, mapping, units, delimiter, header, slot_minute
                         C.REJECT_VALUE: [skipped_all.pop(r) for r in done],
                         C.REJECT_REASON: "wrong number of fields"})
                     rejects = pd.concat([rejects, extra], ignore_index=True)
-                dup = (_duplicates(spots, seen) if isinstance(seen, _SeenKeys)
-                       else seen.duplicates(spots, layout.name))
+                h = report_hashes(key_parts) if key_parts[0][0].size \
+                    else np.zeros(0, dtype=np.uint64)
+                dup = (seen.duplicates(h) if isinstance(seen, SeenKeys) else seen.duplicates(
+                    h, spots[C.SLOT], spots[C.SOURCE_ROW], layout.name))
                 spots = _enrich(spots, ~dup, layout.name, cache)
-                _count(summary, len(raw) + len(done), spots, rejects, int(dup.sum()))
+                _count(summary, raw.n + len(done), spots, rejects, int(dup.sum()))
                 if bar is not None:
-                    bar.update(len(raw) + len(done))
+                    bar.update(raw.n + len(done))
                 yield spots, _tidy_rejects(rejects)
             if skipped_all:  # bad lines after the last good row
                 rows_left = sorted(skipped_all)
@@ -949,54 +590,6 @@ def _iter_chunk_columns(paths, *, mapping, units, delimiter, header, slot_minute
     finally:
         if bar is not None:
             bar.close()
-
-
-def _prefetch(chunks: Iterator) -> Iterator:
-    """Run the iterator ``chunks`` in a second thread, one item ahead of the consumer (the
-    CSV reader releases the GIL while it parses, so reading overlaps cleaning)."""
-    import queue
-    import threading
-
-    q: queue.Queue = queue.Queue(maxsize=1)
-    stop = threading.Event()
-    done = object()
-
-    def put(item) -> bool:
-        while not stop.is_set():
-            try:
-                q.put(item, timeout=0.1)
-                return True
-            except queue.Full:
-                continue
-        return False
-
-    def run():
-        try:
-            for item in chunks:
-                if not put((None, item)):
-                    return
-            put((None, done))
-        except BaseException as exc:  # handed to the consumer
-            put((exc, None))
-        finally:
-            if stop.is_set():
-                close = getattr(chunks, "close", None)
-                if close is not None:
-                    close()
-
-    worker = threading.Thread(target=run, name="spotkit-ingest-reader", daemon=True)
-    worker.start()
-    try:
-        while True:
-            exc, item = q.get()
-            if exc is not None:
-                raise exc
-            if item is done:
-                return
-            yield item
-    finally:
-        stop.set()
-        worker.join()
 
 
 def _tidy_rejects(rejects: pd.DataFrame) -> pd.DataFrame:
@@ -1181,11 +774,18 @@ def ingest_to_parquet(paths, out_path, *, chunk_rows: int = 1_000_000, rejects_p
         plain = [n for n in C.CANONICAL if n not in dict_cols]
         # one chunk is encoded and written in a second thread (pyarrow releases the GIL)
         # while the next is read and cleaned; at most one chunk waits
-        # numbers with few distinct values (positions of locators, SNR, power, drift) are
-        # dictionary-encoded too: smaller and faster to write than plain + snappy
-        few = [C.TX_LAT, C.TX_LON, C.RX_LAT, C.RX_LON, C.SNR, C.POWER, C.DRIFT]
+        # numbers with few distinct values (times, positions of locators, frequency, SNR,
+        # power, drift) are dictionary-encoded too: smaller and faster to write than plain
+        # + snappy; distance and bearings (a value per pair) are written plain, as snappy
+        # does not shrink them; the row numbers as deltas (they count up)
+        few = [C.TIME, C.SLOT, C.TX_LAT, C.TX_LON, C.RX_LAT, C.RX_LON, C.FREQ, C.SNR,
+               C.POWER, C.DRIFT]
+        raw = [C.DISTANCE, C.BEARING, C.REVERSE_BEARING]
         with pq.ParquetWriter(tmp, schema, use_dictionary=dict_cols + few,
-                              compression="snappy", write_statistics=plain) as writer, \
+                              compression={n: "none" if n in raw else "snappy"
+                                           for n in C.CANONICAL},
+                              column_encoding={C.SOURCE_ROW: "DELTA_BINARY_PACKED"},
+                              write_statistics=plain) as writer, \
                 ThreadPoolExecutor(max_workers=1) as pool:
             wrote, pending = False, None
             for spots, rejects in _iter_chunk_columns(paths, chunk_rows=chunk_rows,

@@ -724,24 +724,10 @@ def _infer_units(layout: _Layout, sample: pd.DataFrame, units: dict) -> None:
 
 
 # --- preparing a file: layout, columns, units ----------------------------------------------
-_CAT_FIELDS = (C.TIME, C.TX_CALL, C.TX_LOCATOR, C.RX_CALL, C.RX_LOCATOR)
-
-
-def _csv_kwargs(layout: _Layout, text: bool = False) -> dict:
+def _csv_kwargs(layout: _Layout) -> dict:
+    """Keywords of :func:`pandas.read_csv` reading every cell as text."""
     names = [f"c{i}" for i in range(layout.ncols)]
-    if text:
-        dtype = "str"
-    else:
-        # categoricals where values repeat (times, calls, locators); numbers parsed by the
-        # C parser (a column with a bad cell comes back as text and is converted later);
-        # other columns as text
-        dtype = {n: "str" for n in names}
-        for f, pos in layout.fields.items():
-            for i in pos:
-                if f in _CAT_FIELDS:
-                    dtype[names[i]] = "category"
-                else:
-                    dtype.pop(names[i])
+    dtype = "str"
     kw = dict(sep=layout.sep, header=None, names=names, skiprows=layout.header_lines,
               encoding=layout.encoding, compression=layout.compression, dtype=dtype,
               keep_default_na=False, na_values=[""], skip_blank_lines=False,
@@ -754,7 +740,7 @@ def _csv_kwargs(layout: _Layout, text: bool = False) -> dict:
 def _read_sample(layout: _Layout) -> pd.DataFrame:
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
-        return pd.read_csv(layout.path, nrows=SAMPLE_ROWS, **_csv_kwargs(layout, text=True))
+        return pd.read_csv(layout.path, nrows=SAMPLE_ROWS, **_csv_kwargs(layout))
 
 
 def _prepare_layout(path: Path, mapping, units, delimiter, header) -> _Layout:

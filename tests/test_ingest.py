@@ -404,11 +404,11 @@ def test_path_columns_equal_geo_add_path_columns_across_chunks(tmp_path, monkeyp
                                                                max_cells):
     # max_cells: the dense pair table as is, never used (hashed pairs from the start), and
     # outgrown part way through the file
-    import spotkit.ingest as ingest
     from spotkit.geo import add_path_columns
+    from spotkit.pathcache import PathCache
 
     if max_cells is not None:
-        monkeypatch.setattr(ingest._PathCache, "MAX_CELLS", max_cells)
+        monkeypatch.setattr(PathCache, "MAX_CELLS", max_cells)
 
     locs = ["JN58td", "IO91lk", "FN31pr", "JO62", "RE78ir", "GF15vc", "FM18lw", "PM95"]
     rows = [f"2026-03-01 10:{2 * (i % 30):02d},Q{i % 7}AB,{locs[i % 8]},Q{i % 5}XY,"
@@ -422,11 +422,11 @@ def test_path_columns_equal_geo_add_path_columns_across_chunks(tmp_path, monkeyp
 def test_both_readers_agree(data_dir, monkeypatch):
     # the pyarrow streaming reader (comma/semicolon/tab files) and the pandas reader (all
     # others) give the same table and rejects on a file with every kind of bad row
-    import spotkit.ingest as ingest
+    from spotkit import csvread
 
     path = data_dir / "ingest_rejects.csv"
     fast = read_spots(path, chunk_rows=4)
-    monkeypatch.setattr(ingest, "_arrow_chunks", ingest._raw_chunks)
+    monkeypatch.setattr(csvread, "arrow_chunks", csvread.pandas_chunks)
     slow = read_spots(path, chunk_rows=4)
     pdt.assert_frame_equal(fast.spots, slow.spots)
     pdt.assert_frame_equal(fast.rejects, slow.rejects)
@@ -438,17 +438,17 @@ def test_multithreaded_reader_rereads_for_row_numbers(tmp_path, monkeypatch, bad
     # small blocks, so the file is read by several threads; a row with the wrong number of
     # fields makes the reader start again in one thread where the chunks handed out end:
     # same table and same rejects (with their row numbers) as the pandas reader
-    import spotkit.ingest as ingest
+    from spotkit import csvread
 
     rows = [f"2026-03-01 10:{2 * (i % 30):02d},Q{i % 7}AB,JN58td,Q{i % 5}XY,IO91lk,14.0971,"
             f"{-20 + i % 31},23,{i % 3 - 1}" for i in range(1200)]
     for r in bad_rows:
         rows[r - 1] = rows[r - 1] + ",extra"
     path = _write(tmp_path, "t.csv", HEAD + "\n".join(rows) + "\n")
-    monkeypatch.setattr(ingest, "_BLOCK_BYTES", 2048)
+    monkeypatch.setattr(csvread, "BLOCK_BYTES", 2048)
     fast = read_spots(path, chunk_rows=100)
     assert list(fast.rejects[C.SOURCE_ROW]) == list(bad_rows)
-    monkeypatch.setattr(ingest, "_arrow_chunks", ingest._raw_chunks)
+    monkeypatch.setattr(csvread, "arrow_chunks", csvread.pandas_chunks)
     slow = read_spots(path, chunk_rows=100)
     pdt.assert_frame_equal(fast.spots, slow.spots)
     pdt.assert_frame_equal(fast.rejects, slow.rejects)
@@ -458,10 +458,11 @@ def test_multithreaded_reader_rereads_for_row_numbers(tmp_path, monkeypatch, bad
 
 @pytest.mark.parametrize("cell,row", [("nan", 2), ("inf", 700), ("1e999", 700), (" -12", 2),
                                       ("-12 ", 700), ("x", 700), ("", 700), ("1,5", 2)])
-def test_numbers_parsed_by_reader_fall_back_to_text(tmp_path, monkeypatch, cell, row):
-    # the reader parses SNR, frequency, power and drift as numbers and reads the file again
-    # as text from the first odd cell on: same table, rejects and summary as reading text
-    import spotkit.ingest as ingest
+def test_odd_numeric_cells_same_from_both_readers(tmp_path, monkeypatch, cell, row):
+    # every cell is read as text and each distinct text parsed once: an odd SNR cell gives
+    # the same table, rejects (with the cell's own text) and summary from the multithreaded
+    # pyarrow reader as from the pandas reader
+    from spotkit import csvread
 
     rows = [f"2026-03-01 10:{2 * (i % 30):02d},Q{i % 7}AB,JN58td,Q{i % 5}XY,IO91lk,14.0971,"
             f"{-20 + i % 31},23,{i % 3 - 1}" for i in range(1000)]
@@ -469,22 +470,20 @@ def test_numbers_parsed_by_reader_fall_back_to_text(tmp_path, monkeypatch, cell,
     parts[6] = cell
     rows[row - 1] = ",".join(parts)
     path = _write(tmp_path, "n.csv", HEAD + "\n".join(rows) + "\n")
-    monkeypatch.setattr(ingest, "_BLOCK_BYTES", 2048)
+    monkeypatch.setattr(csvread, "BLOCK_BYTES", 2048)
     got = read_spots(path, chunk_rows=100)
-
-    def text_only(layout, chunk_rows):
-        return ingest._arrow_pass(layout, chunk_rows, False, 0, False)
-
-    monkeypatch.setattr(ingest, "_arrow_chunks", text_only)
+    monkeypatch.setattr(csvread, "arrow_chunks", csvread.pandas_chunks)
     ref = read_spots(path, chunk_rows=100)
     pdt.assert_frame_equal(got.spots, ref.spots)
     pdt.assert_frame_equal(got.rejects, ref.rejects)
     assert got.summary == ref.summary
     _balanced(got)
+    if cell not in (" -12", "-12 ", "1,5"):  # "1,5": one field too many
+        assert got.rejects[C.REJECT_VALUE].tolist() == [cell]
 
 
 def test_prefetch_passes_items_errors_and_stops_early():
-    from spotkit.ingest import _prefetch
+    from spotkit.csvread import prefetch as _prefetch
 
     assert list(_prefetch(iter(range(5)))) == [0, 1, 2, 3, 4]
 
