@@ -180,17 +180,54 @@ def _per_row(table: np.ndarray, codes: np.ndarray, empty) -> np.ndarray:
     return np.take(np.append(table, np.asarray([empty], dtype=table.dtype)), codes)
 
 
-def _recode(col: TextColumn, fn) -> tuple[np.ndarray, np.ndarray]:
-    """Apply ``fn`` (array of distinct texts -> normalised texts or None) to the distinct
-    cells; return (new categories, new codes per row: -1 empty cell, -2 bad value)."""
-    cats = col.values
-    norm = np.asarray(fn(cats), dtype=object) if cats.size else np.array([], dtype=object)
-    ok = np.array([x is not None for x in norm], dtype=bool)
-    uniq, inv = np.unique(norm[ok].astype(str), return_inverse=True) if ok.any() else (
-        np.array([], dtype=str), np.array([], dtype=int))
-    mapping = np.full(cats.size, -2, dtype=np.int64)
-    mapping[np.flatnonzero(ok)] = inv
-    return uniq, _per_row(mapping, col.codes, -1)
+class _Distinct:
+    """Normalised values of one kind of text field (calls, locators), kept across chunks
+    and files, so that each distinct cell text is checked and normalised once.
+
+    Codes are given in order of first appearance; ``dtype`` has the normalised texts as
+    categories and ``hashes`` their 64-bit hashes (:func:`spotkit.dedupe.hash_values`).
+    """
+
+    def __init__(self, fn):
+        self.fn = fn  # array of texts -> normalised texts or None (bad)
+        self.by_text: dict = {}  # cell text -> code, -2 for a bad value
+        self.by_norm: dict = {}  # normalised text -> code
+        self.texts: list = []
+        self.hashes = np.zeros(0, dtype=np.uint64)
+        self._dtype = None
+
+    @property
+    def dtype(self) -> pd.CategoricalDtype:
+        """Categorical dtype of the normalised texts seen so far."""
+        if self._dtype is None or len(self._dtype.categories) != len(self.texts):
+            self._dtype = pd.CategoricalDtype(pd.Index(self.texts, dtype="str"))
+        return self._dtype
+
+    def codes(self, values: np.ndarray) -> np.ndarray:
+        """Code of each distinct cell text in ``values`` (-2: bad value)."""
+        get = self.by_text.get
+        out = np.fromiter((get(v, -3) for v in values), dtype=np.int32, count=len(values))
+        new = np.flatnonzero(out == -3)
+        if new.size:
+            texts = values[new]
+            first = len(self.texts)
+            for k, (t, v) in zip(new, zip(texts, self.fn(texts))):
+                if v is None:
+                    c = -2
+                else:
+                    c = self.by_norm.get(v)
+                    if c is None:
+                        c = self.by_norm[v] = len(self.texts)
+                        self.texts.append(v)
+                self.by_text[t] = c
+                out[k] = c
+            self.hashes = np.concatenate([self.hashes, hash_values(
+                np.asarray(self.texts[first:], dtype=object))])
+        return out
+
+
+def _new_distinct() -> dict:
+    return {"call": _Distinct(_norm_calls), "locator": _Distinct(normalize_locator)}
 
 
 def _norm_calls(cats):
@@ -256,7 +293,8 @@ def _parse_numbers(col: TextColumn, decimal: str, lo, hi, convert=None):
 
 def _number_rows(col, decimal: str, lo, hi, convert=None):
     """A numeric column -> (value per row, status per row: 0 ok, 1 empty, 2 not a number,
-    3 outside lo..hi; (codes, distinct values) or (None, value per row) for the key).
+    3 outside lo..hi; (codes, hash of each distinct value) or (None, value per row) for
+    the report key).
 
     ``col`` is a :class:`TextColumn` (each distinct cell parsed once) or a float64 array
     parsed by the reader (NaN: empty cell; the reader leaves no other NaN or infinity).
@@ -264,7 +302,7 @@ def _number_rows(col, decimal: str, lo, hi, convert=None):
     if isinstance(col, TextColumn):
         v_d, st_d = _parse_numbers(col, decimal, lo, hi, convert)
         return (_per_row(v_d, col.codes, np.nan), _per_row(st_d, col.codes, 1),
-                (col.codes, v_d))
+                (col.codes, hash_values(v_d)))
     v = col
     if convert is not None:
         with np.errstate(divide="ignore", invalid="ignore"):
@@ -307,31 +345,33 @@ def _number_reasons(label: str, lo, hi, unit_txt: str) -> dict:
 
 
 def _clean_chunk(raw: TextChunk, layout: _Layout, rows: np.ndarray, region: str,
-                 slot_minutes: int) -> tuple[dict, pd.DataFrame, list]:
-    """Validate and convert one chunk. Returns (spots: the accepted rows' columns, times
-    as int64 ns; rejects; key parts of the accepted rows for :mod:`spotkit.dedupe`)."""
+                 slot_minutes: int, distinct: dict | None = None
+                 ) -> tuple[dict, pd.DataFrame, list]:
+    """Validate and convert one chunk. ``distinct``: the calls and locators seen so far
+    ({"call": _Distinct, "locator": _Distinct}, updated). Returns (spots: the accepted rows'
+    columns, times as int64 ns; rejects; key parts of the accepted rows for
+    :mod:`spotkit.dedupe`)."""
+    if distinct is None:
+        distinct = _new_distinct()
     n = raw.n
     col = {f: [raw.columns[i] for i in pos] for f, pos in layout.fields.items()}
     checks = []  # (field, status per row (0 ok), reasons by status), in order of checking
-    keys = {}  # report-key field -> (codes per row, hash per distinct value)
+    keys = {}  # report-key field -> (codes per row or None, values or their hashes)
 
     t_codes, t_texts = _time_codes(col[C.TIME])
     t_ns, t_status = _parse_times(t_texts, layout.units["time"])
     checks.append((C.TIME, _per_row(t_status, t_codes, 1), _TIME_REASONS))
     slot_ns = np.int64(slot_minutes) * 60 * 10**9
     slot_d = t_ns - np.mod(t_ns, slot_ns)
-    keys[C.SLOT] = (t_codes, slot_d)
+    keys[C.SLOT] = (t_codes, hash_values(slot_d))
 
-    cats = {}
-    for f, fn, what in ((C.TX_CALL, _norm_calls, "call"),
-                        (C.TX_LOCATOR, normalize_locator, "locator"),
-                        (C.RX_CALL, _norm_calls, "call"),
-                        (C.RX_LOCATOR, normalize_locator, "locator")):
-        uniq, codes = _recode(col[f][0], fn)
-        checks.append((f, np.where(codes == -1, 1, np.where(codes == -2, 2, 0)).astype(np.int8),
+    for f, what in ((C.TX_CALL, "call"), (C.TX_LOCATOR, "locator"), (C.RX_CALL, "call"),
+                    (C.RX_LOCATOR, "locator")):
+        c = col[f][0]
+        mapping = distinct[what].codes(c.values)
+        checks.append((f, _per_row(np.where(mapping == -2, 2, 0).astype(np.int8), c.codes, 1),
                        {1: f"empty {what}", 2: f"bad {what}"}))
-        cats[f] = (uniq, codes)
-        keys[f] = (codes, uniq)
+        keys[f] = (_per_row(mapping, c.codes, -1), distinct[what].hashes)
 
     fcol = col[C.FREQ][0]
     if not isinstance(fcol, TextColumn):  # (the reader parses SNR, power and drift only)
@@ -343,7 +383,7 @@ def _clean_chunk(raw: TextChunk, layout: _Layout, rows: np.ndarray, region: str,
     checks.append((C.FREQ, _per_row(f_st, fcol.codes, 1),
                    _number_reasons("frequency", None, None, "")
                    | {4: "frequency not in an amateur band"}))
-    keys[C.FREQ] = (fcol.codes, f_d)
+    keys[C.FREQ] = (fcol.codes, hash_values(f_d))
     values = {}
     for f, label, rng, unit_txt, convert in (
             (C.SNR, "SNR", SNR_RANGE_DB, "dB", None),
@@ -372,9 +412,10 @@ def _clean_chunk(raw: TextChunk, layout: _Layout, rows: np.ndarray, region: str,
     t_kept = kept(t_codes)
     time_ns = np.take(t_ns, t_kept)
     spots = {C.TIME: time_ns, C.SLOT: np.take(slot_d, t_kept)}
-    for f, (uniq, codes) in cats.items():
-        spots[f] = pd.Categorical.from_codes(kept(codes), validate=False,  # made by _recode
-                                             categories=pd.Index(uniq, dtype="str"))
+    for f, what in ((C.TX_CALL, "call"), (C.TX_LOCATOR, "locator"), (C.RX_CALL, "call"),
+                    (C.RX_LOCATOR, "locator")):
+        spots[f] = pd.Categorical.from_codes(kept(keys[f][0]), validate=False,  # valid codes
+                                             dtype=distinct[what].dtype)
     spots[C.FREQ] = np.take(f_d, kept(fcol.codes))
     spots[C.BAND] = pd.Categorical.from_codes(
         np.take(band_d, kept(fcol.codes)), categories=pd.Index(BAND_ORDER, dtype="str"),
@@ -383,8 +424,7 @@ def _clean_chunk(raw: TextChunk, layout: _Layout, rows: np.ndarray, region: str,
     spots[C.POWER] = kept(values[C.POWER])
     spots[C.DRIFT] = kept(drift)
     spots[C.SOURCE_ROW] = rows[keep]
-    key_parts = [(None, hash_values(kept(v))) if codes is None else (kept(codes),
-                                                                      hash_values(v))
+    key_parts = [(None, hash_values(kept(v))) if codes is None else (kept(codes), v)
                  for codes, v in (keys[f] for f in C.REPORT_KEY)]
     return spots, _rejects(raw, layout, rows, bad, checks, col), key_parts
 
@@ -537,6 +577,7 @@ def _iter_chunk_columns(paths, *, mapping, units, delimiter, header, slot_minute
     layouts = [_prepare_layout(p, mapping, units, delimiter, header) for p in paths]
     seen = SeenKeys() if dedupe_window_days is None else DayKeys(dedupe_window_days)
     cache = PathCache()
+    distinct = _new_distinct()
     bar = None
     if progress:
         from tqdm.auto import tqdm
@@ -561,7 +602,7 @@ def _iter_chunk_columns(paths, *, mapping, units, delimiter, header, slot_minute
                     skipped_all[line - layout.header_lines] = msg
                 rows, next_row = _row_numbers(raw.n, next_row, skipped_all)
                 spots, rejects, key_parts = _clean_chunk(raw, layout, rows, region,
-                                                         slot_minutes)
+                                                         slot_minutes, distinct)
                 done = [r for r in skipped_all if r < next_row]
                 if done:
                     extra = pd.DataFrame({
