@@ -327,59 +327,50 @@ def censored_normal_mle_batch(values, kinds, weights,
 
 
 # ------------------------------------------------------------- censored normal with missed reports
-def _mixture_parts(delta, gamma, pa, pb, v, sgn, exact, w, need_hess=True):
+def _mixture_parts(delta, gamma, pa, pb, v, sgn, exact, w, need_hess=True, ew=1.0):
     """Log-likelihood, gradient (B, 4) and Hessian (B, 4, 4) of the missed-report mixture.
 
-    Parameters ``(delta, gamma, pa, pb)``, each (B,); ``w`` is (B, K). With
-    ``c = 1 - pa - pb``: an exact value contributes ``log c + log gamma - r^2/2 - log sqrt(2 pi)``;
-    an upper bound (only A heard) ``log(pa + c Phi(u))``, a lower bound (only B heard)
-    ``log(pb + c Phi(u))``, with ``u = sgn (gamma v - delta)``.
+    Parameters ``(delta, gamma, pa, pb)``, each (B,); ``w`` is (B, K). An exact value
+    contributes ``log(1 - pa) + log(1 - pb) + ew (log gamma - r^2/2 - log sqrt(2 pi))``;
+    an upper bound (only A heard) ``log(pa + (1 - pa) Phi(u))``, a lower bound (only B
+    heard) ``log(pb + (1 - pb) Phi(u))``, with ``u = sgn (gamma v - delta)``.
     """
     r = gamma[:, None] * v[None, :] - delta[:, None]
     u = sgn[None, :] * r
     log_cdf = special.log_ndtr(u)
     up = sgn[None, :] > 0
     own = np.where(up, pa[:, None], pb[:, None])     # the bound's own missing share
-    c = (1.0 - pa - pb)[:, None]
-    log_c = np.log(c)
-    log_m = np.logaddexp(np.log(own), log_c + log_cdf)
+    log_1mo = np.log1p(-own)
+    log_m = np.logaddexp(np.log(own), log_1mo + log_cdf)
     ex = exact[None, :]
     lg = np.log(gamma)[:, None]
-    ll_e = log_c + lg - 0.5 * r * r - _LOG_SQRT_2PI
+    l1a, l1b = np.log1p(-pa)[:, None], np.log1p(-pb)[:, None]
+    ll_e = l1a + l1b + ew * (lg - 0.5 * r * r - _LOG_SQRT_2PI)
     ll = np.sum(np.where(w > 0, w * np.where(ex, ll_e, log_m), 0.0), axis=1)
     if not need_hess:
         return ll
     log_pdf = -0.5 * u * u - _LOG_SQRT_2PI
-    q = np.exp(log_c + log_pdf - log_m)             # c phi / M
+    q = np.exp(log_1mo + log_pdf - log_m)           # (1 - p) phi / M
     h = -q * (u + q)
-    cdf = np.exp(log_cdf - log_m)                   # Phi / M
     ncdf = np.exp(special.log_ndtr(-u) - log_m)     # (1 - Phi) / M
-    pm2 = np.exp(log_pdf - 2.0 * log_m)             # phi / M^2
-    other = np.where(up, pb[:, None], pa[:, None])
+    dq = -np.exp(log_pdf - 2.0 * log_m)             # d q / d own = -phi / M^2
     sv = sgn[None, :] * v[None, :]
-    # derivatives of a bound's log M in its own share and in the other one
-    g_own, g_oth = ncdf, -cdf
-    h_oo, h_ot, h_tt = -ncdf * ncdf, ncdf * cdf, -cdf * cdf
-    dq_own = -pm2 * (1.0 - other)                   # d q / d own
-    dq_oth = -pm2 * own                             # d q / d other
-    inv_c = 1.0 / c
-    g_d = np.sum(w * np.where(ex, r, -sgn * q), axis=1)
-    g_g = np.sum(w * np.where(ex, 1.0 / gamma[:, None] - r * v, sv * q), axis=1)
-    g_a = np.sum(w * np.where(ex, -inv_c, np.where(up, g_own, g_oth)), axis=1)
-    g_b = np.sum(w * np.where(ex, -inv_c, np.where(up, g_oth, g_own)), axis=1)
-    h_dd = np.sum(w * np.where(ex, -1.0, h), axis=1)
-    h_dg = np.sum(w * np.where(ex, v, -h * v), axis=1)
-    h_gg = np.sum(w * np.where(ex, -1.0 / gamma[:, None] ** 2 - v * v, h * v * v), axis=1)
-    dqa = np.where(up, dq_own, dq_oth)
-    dqb = np.where(up, dq_oth, dq_own)
-    h_da = np.sum(w * np.where(ex, 0.0, -sgn * dqa), axis=1)
-    h_db = np.sum(w * np.where(ex, 0.0, -sgn * dqb), axis=1)
-    h_ga = np.sum(w * np.where(ex, 0.0, sv * dqa), axis=1)
-    h_gb = np.sum(w * np.where(ex, 0.0, sv * dqb), axis=1)
-    e2 = -inv_c * inv_c
-    h_aa = np.sum(w * np.where(ex, e2, np.where(up, h_oo, h_tt)), axis=1)
-    h_bb = np.sum(w * np.where(ex, e2, np.where(up, h_tt, h_oo)), axis=1)
-    h_ab = np.sum(w * np.where(ex, e2, h_ot), axis=1)
+    ia, ib = 1.0 / (1.0 - pa)[:, None], 1.0 / (1.0 - pb)[:, None]
+    g_d = np.sum(w * np.where(ex, ew * r, -sgn * q), axis=1)
+    g_g = np.sum(w * np.where(ex, ew * (1.0 / gamma[:, None] - r * v), sv * q), axis=1)
+    g_a = np.sum(w * np.where(ex, -ia, np.where(up, ncdf, 0.0)), axis=1)
+    g_b = np.sum(w * np.where(ex, -ib, np.where(up, 0.0, ncdf)), axis=1)
+    h_dd = np.sum(w * np.where(ex, -ew, h), axis=1)
+    h_dg = np.sum(w * np.where(ex, ew * v, -h * v), axis=1)
+    h_gg = np.sum(w * np.where(ex, -ew * (1.0 / gamma[:, None] ** 2 + v * v), h * v * v),
+                  axis=1)
+    h_da = np.sum(w * np.where(ex | ~up, 0.0, -sgn * dq), axis=1)
+    h_db = np.sum(w * np.where(ex | up, 0.0, -sgn * dq), axis=1)
+    h_ga = np.sum(w * np.where(ex | ~up, 0.0, sv * dq), axis=1)
+    h_gb = np.sum(w * np.where(ex | up, 0.0, sv * dq), axis=1)
+    h_aa = np.sum(w * np.where(ex, -ia * ia, np.where(up, -ncdf * ncdf, 0.0)), axis=1)
+    h_bb = np.sum(w * np.where(ex, -ib * ib, np.where(up, 0.0, -ncdf * ncdf)), axis=1)
+    h_ab = np.zeros_like(h_aa)
     grad = np.stack([g_d, g_g, g_a, g_b], axis=1)
     hess = np.stack([np.stack([h_dd, h_dg, h_da, h_db], 1),
                      np.stack([h_dg, h_gg, h_ga, h_gb], 1),
@@ -389,13 +380,14 @@ def _mixture_parts(delta, gamma, pa, pb, v, sgn, exact, w, need_hess=True):
 
 
 def _mixture_batch(v, kind, w, sigma_floor, max_iter=200, tol=1e-9, pi_min=1e-6,
-                   pi_max=0.95):
+                   pi_max=0.95, ew=1.0):
     """Batch fit of the missed-report mixture; returns mu, sigma, pa, pb, converged, loglik."""
     b = w.shape[0]
     exact = kind == 0
     sgn = kind.astype(float)
     w_e = w[:, exact].sum(axis=1)
-    mu, sigma, conv, loglik, _it = _tobit_batch(v, kind, w, sigma_floor)
+    mu, sigma, conv, loglik, _it = _tobit_batch(v, kind, np.where(exact[None, :], ew * w, w),
+                                                sigma_floor)
     pa, pb = np.zeros(b), np.zeros(b)
     # the mixture needs exact values (without them the missing shares explain every bound)
     rows = np.nonzero((w_e > 0) & (w[:, ~exact].sum(axis=1) > 0))[0]
@@ -424,12 +416,13 @@ def _mixture_batch(v, kind, w, sigma_floor, max_iter=200, tol=1e-9, pi_min=1e-6,
         x0 = x[idx]
         with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
             ll, grad, hess = _mixture_parts(x0[:, 0], x0[:, 1], x0[:, 2], x0[:, 3], v, sgn,
-                                            exact, wa)
+                                            exact, wa, ew=ew)
         # parameters held on a bound: a share at its floor pushing down, sigma at its floor
         fixed = np.zeros((idx.size, 4), bool)
         fixed[:, 1] = (x0[:, 1] >= gmax * (1 - 1e-12)) & (grad[:, 1] > 0)
-        fixed[:, 2] = (x0[:, 2] <= pi_min) & (grad[:, 2] <= 0.0)
-        fixed[:, 3] = (x0[:, 3] <= pi_min) & (grad[:, 3] <= 0.0)
+        for j in (2, 3):
+            fixed[:, j] = ((x0[:, j] <= pi_min) & (grad[:, j] <= 0.0)
+                           | (x0[:, j] >= pi_max) & (grad[:, j] >= 0.0))
         gf = np.where(fixed, 0.0, grad)
         hf = np.where(fixed[:, :, None] | fixed[:, None, :], 0.0, hess)
         hf = hf - eye[None] * fixed[:, :, None]
@@ -451,8 +444,7 @@ def _mixture_batch(v, kind, w, sigma_floor, max_iter=200, tol=1e-9, pi_min=1e-6,
             for j in (2, 3):
                 sp = step[:, j]
                 t = np.where(sp < 0, np.minimum(t, (pi_min - x0[:, j]) / sp), t)
-            ss = step[:, 2] + step[:, 3]
-            t = np.where(ss > 0, np.minimum(t, (pi_max - x0[:, 2] - x0[:, 3]) / ss), t)
+                t = np.where(sp > 0, np.minimum(t, (pi_max - x0[:, j]) / sp), t)
         t = np.maximum(t, 0.0)
         accepted = np.zeros(idx.size, bool)
         xn = x0.copy()
@@ -462,10 +454,10 @@ def _mixture_batch(v, kind, w, sigma_floor, max_iter=200, tol=1e-9, pi_min=1e-6,
                 break
             c = x0[todo] + t[todo, None] * step[todo]
             c[:, 1] = np.minimum(c[:, 1], gmax)
-            c[:, 2:] = np.maximum(c[:, 2:], pi_min)
+            c[:, 2:] = np.clip(c[:, 2:], pi_min, pi_max)
             with np.errstate(invalid="ignore", divide="ignore"):
                 ll_new = _mixture_parts(c[:, 0], c[:, 1], c[:, 2], c[:, 3], v, sgn, exact,
-                                        wa[todo], need_hess=False)
+                                        wa[todo], need_hess=False, ew=ew)
             okk = np.isfinite(ll_new) & (ll_new >= ll[todo] - 1e-12 * np.abs(ll[todo]))
             xn[todo[okk]] = c[okk]
             accepted[todo[okk]] = True
@@ -480,7 +472,7 @@ def _mixture_batch(v, kind, w, sigma_floor, max_iter=200, tol=1e-9, pi_min=1e-6,
     with np.errstate(invalid="ignore", divide="ignore"):
         m_new = np.where(x[:, 1] >= 1e-8, x[:, 0] / x[:, 1], np.nan)
         ll_new = _mixture_parts(x[:, 0], x[:, 1], x[:, 2], x[:, 3], v, sgn, exact, wr,
-                                need_hess=False)
+                                need_hess=False, ew=ew)
     # keep the plain fit where the mixture did not do better (it nests it at pa = pb = 0)
     better = done & np.isfinite(m_new) & ~(ll_new < np.nan_to_num(loglik[rows], nan=-np.inf))
     r_b = rows[better]
@@ -491,34 +483,41 @@ def _mixture_batch(v, kind, w, sigma_floor, max_iter=200, tol=1e-9, pi_min=1e-6,
     return mu, sigma, pa, pb, conv, loglik
 
 
-def censored_mixture_mle(values, kinds, counts=None,
-                         sigma_floor: float = SIGMA_FLOOR_DB) -> CensoredFit:
+def censored_mixture_mle(values, kinds, counts=None, sigma_floor: float = SIGMA_FLOOR_DB,
+                         exact_weight: float = 1.0) -> CensoredFit:
     """Censored-normal fit allowing for reports missing for reasons other than ``d``.
 
     A one-sided observation (one antenna heard, the other not) is explained either by the
-    censored normal - the silent side was below its limit - or, with probability ``pi``,
-    by something that does not depend on ``d`` (the path closed or faded out between two
-    slots, the receiver stopped listening, a decode was lost to interference). Under the
-    flat prior on the common level that makes the censored-normal likelihood a function of
-    ``d`` alone, an exact value contributes ``(1 - pi) phi`` and a bound
-    ``pi + (1 - pi) Phi`` (a two-component mixture; ``pi`` is a nuisance parameter fitted
-    with ``mu`` and ``sigma``). ``pi`` is identified by bounds that the normal part cannot
-    explain (e.g. a strong report on one side with nothing on the other). The model
-    nests :func:`censored_normal_mle` at ``pi = 0``; the result is the better of the two
-    fits. ``pi`` is held in ``[1e-6, 0.95]`` (the lower bound keeps the derivatives finite
-    for bounds far in the normal's tail); without exact values it is 0 (a mixture fitted
-    to bounds alone would put every bound in the missing component). Maximised by Newton's
-    method in ``(mu/sigma, 1/sigma, pi)`` with step halving, started from the mean and SD
-    of the exact values.
+    censored normal - the silent side was below its limit - or by something that does not
+    depend on ``d`` (the path closed or faded out between two slots, the receiver stopped
+    listening, a decode was lost to interference): with probability ``pa`` when only A
+    was heard (an upper bound), ``pb`` when only B was (a lower bound). An upper bound
+    contributes ``log(pa + (1 - pa) Phi(u))``, a lower bound ``log(pb + (1 - pb) Phi(u))``
+    and an exact value ``log(1 - pa) + log(1 - pb) + exact_weight * log(phi(r) / sigma)``:
+    the product of the two conditional likelihoods "B's outcome given A heard" and "A's
+    outcome given B heard" of paired reports (each with its own missing share) when
+    ``exact_weight`` is 2, a single mixture when it is 1. ``pa`` and ``pb`` are nuisance
+    parameters fitted with ``mu`` and ``sigma``; bounds the normal cannot explain (a
+    strong report on one side and nothing on the other) identify them. The model nests the
+    censored-normal fit (``pa = pb = 0``), which is returned where the mixture does not
+    fit better. ``pa`` and ``pb`` are held in ``[1e-6, 0.95]`` (the floor keeps the
+    derivatives finite for bounds far in the normal's tail); without exact values they are
+    0 (they would explain every bound). Maximised by Newton's method in
+    ``(mu/sigma, 1/sigma, pa, pb)`` with step halving, started from the mean and SD of the
+    exact values.
 
-    Parameters and returns as :func:`censored_normal_mle`; ``CensoredFit.missed`` holds
-    ``pi``. Standard errors are not computed (NaN): use the bootstrap.
+    Parameters and returns as :func:`censored_normal_mle`, plus ``exact_weight`` (weight
+    of an exact value's normal density); ``CensoredFit.missed_a`` / ``missed_b`` hold
+    ``pa`` / ``pb``. Standard errors are not computed (NaN): use the bootstrap.
 
     References
     ----------
     .. [1] J. Tobin, Econometrica 26(1):24-36, 1958. doi:10.2307/1907382
     .. [2] G. J. McLachlan and D. Peel, Finite Mixture Models, Wiley, 2000 (mixture
        likelihoods; citation from memory).
+    .. [3] C. Varin, N. Reid and D. Firth, "An overview of composite likelihood methods",
+       Statistica Sinica 21:5-42, 2011 (products of conditional likelihoods; citation
+       from memory).
     """
     if not sigma_floor > 0:
         raise UsageError(f"sigma_floor must be positive, got {sigma_floor}")
@@ -528,13 +527,15 @@ def censored_mixture_mle(values, kinds, counts=None,
         raise UsageError(f"counts has {c.size} entries but values has {v.size}")
     if np.any(~np.isfinite(c)) or np.any(c < 0):
         raise UsageError("counts must be finite and non-negative")
-    mu, sigma, pa, pb, conv, ll = _mixture_batch(v, k, c[None, :], sigma_floor)
+    mu, sigma, pa, pb, conv, ll = _mixture_batch(v, k, c[None, :], sigma_floor,
+                                                 ew=float(exact_weight))
     return CensoredFit(float(mu[0]), float(sigma[0]), bool(conv[0]), float(c[k == 0].sum()),
                        float(c[k == 1].sum()), float(c[k == -1].sum()), float(ll[0]), 0,
                        missed_a=float(pa[0]), missed_b=float(pb[0]))
 
 
-def censored_mixture_mle_batch(values, kinds, weights, sigma_floor: float = SIGMA_FLOOR_DB):
+def censored_mixture_mle_batch(values, kinds, weights, sigma_floor: float = SIGMA_FLOOR_DB,
+                               exact_weight: float = 1.0):
     """Many :func:`censored_mixture_mle` fits at once, one per row of ``weights``.
 
     Returns
@@ -550,16 +551,17 @@ def censored_mixture_mle_batch(values, kinds, weights, sigma_floor: float = SIGM
         raise UsageError(f"weights must have shape (B, {v.size}), got {w.shape}")
     if np.any(~np.isfinite(w)) or np.any(w < 0):
         raise UsageError("weights must be finite and non-negative")
-    mu, sigma, pa, pb, _conv, _ll = _mixture_batch(v, k, w, sigma_floor)
+    mu, sigma, pa, pb, _conv, _ll = _mixture_batch(v, k, w, sigma_floor,
+                                                   ew=float(exact_weight))
     return mu, sigma, pa, pb
 
 
 def normal_share(values, kinds, mu, sigma, missed_a, missed_b):
     """Posterior share of each observation explained by the censored normal.
 
-    1 for exact values; for a bound ``c Phi(u) / (p + c Phi(u))`` with ``p`` its side's
-    missing share (``missed_a`` for upper bounds, ``missed_b`` for lower bounds) and
-    ``c = 1 - missed_a - missed_b``. Parameters are arrays of shape (B,); returns (B, K).
+    1 for exact values; for a bound ``(1 - p) Phi(u) / (p + (1 - p) Phi(u))`` with ``p``
+    its side's missing share (``missed_a`` for upper bounds, ``missed_b`` for lower
+    bounds). Parameters are arrays of shape (B,); returns shape (B, K).
     """
     v, k = _check_kinds(values, kinds)
     mu, sigma, pa, pb = (np.atleast_1d(np.asarray(x, dtype=float))
@@ -567,7 +569,7 @@ def normal_share(values, kinds, mu, sigma, missed_a, missed_b):
     u = k[None, :] * (v[None, :] - mu[:, None]) / sigma[:, None]
     own = np.where(k[None, :] > 0, pa[:, None], pb[:, None])
     with np.errstate(divide="ignore", invalid="ignore"):
-        a = np.log1p(-pa - pb)[:, None] + special.log_ndtr(u)
+        a = np.log1p(-own) + special.log_ndtr(u)
         share = np.exp(a - np.logaddexp(np.log(own), a))
     return np.where(k[None, :] == 0, 1.0, share)
 

@@ -76,9 +76,9 @@ def _add_ab_options(p, *, required: bool = True, title: str = "A/B comparison"):
     g.add_argument("--no-open-path-check", action="store_true",
                    help="alternating design: keep pairs even without reports of the call in "
                    "the slots around them")
-    g.add_argument("--threshold-correction", choices=["edge", "none"], default="edge",
+    g.add_argument("--threshold-correction", choices=["edge", "none"], default="none",
                    help="first-order correction for reports at the decode threshold "
-                   "(default edge)")
+                   "(default none: the paired likelihood no longer needs it)")
     g.add_argument("--boot", type=int, default=1000, help="bootstrap resamples (default 1000)")
     g.add_argument("--seed", type=int, default=0, help="bootstrap seed (default 0)")
     g.add_argument("--min-pairs", type=int, default=30,

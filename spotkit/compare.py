@@ -2,15 +2,20 @@
 
 Model. Within a pair both antennas see the same path, so per-W SNRs are
 ``A = L + e_A`` and ``B = L + delta + e_B`` with a common level ``L``. Under a flat prior
-on ``L`` the joint density of (A, B) depends only on ``B - A``, so a pair where only one
-antenna was heard tells us a bound on ``B - A`` (the silent antenna was below its
-receiver's threshold) and the likelihood is that of a censored normal (Tobit) model on
-the differences: both heard -> exact ``d``, only A -> ``d <= LIMIT_B - A``, only B ->
-``d >= B - LIMIT_A``. The headline ``b_minus_a_db`` is its maximum-likelihood ``mu``
-(:func:`spotkit.stats.censored_normal_mle`), which uses the one-sided pairs and is not
-stuck on whole or half dB. The mean over both-heard pairs only is reported beside it: near
-threshold it is biased in favour of the antenna heard less often (its unlucky fades drop
-out of the both-heard set), which is why it is not the headline.
+on ``L``, given A's value ``a`` B is ``N(a + mu, sigma^2)``: heard (its difference ``d``
+has a normal density) or below its limit (``d <= LIMIT_B - a``). That is a proper
+conditional likelihood over the pairs in which A was heard; likewise A's outcome given B
+over the pairs in which B was heard (only B -> ``d >= B - LIMIT_A``). The fit maximises
+their product, a composite likelihood: a both-heard pair enters both factors, so its
+normal density counts twice (:data:`PAIRED_EXACT_WEIGHT`), a one-sided pair once, in a
+censored-normal (Tobit) fit. The headline ``b_minus_a_db`` is its ``mu``; it uses the
+one-sided pairs and is not stuck on whole or half dB. (The plain difference-Tobit, which
+counts a both-heard pair once, is not a likelihood of the observed pairs: which pairs are
+observed at all - at least one antenna heard - depends on ``mu``. It was biased by
+0.1-0.4 dB with A 7 dB louder, even with a flat level distribution, where the composite
+fit is unbiased; see Known error.) The mean over both-heard pairs only is reported beside
+it: near threshold it is biased in favour of the antenna heard less often (its unlucky
+fades drop out of the both-heard set), which is why it is not the headline.
 
 Uncertainty. Reports of one receiver (transmitter, in the receive design) share its noise
 floor and its paths, so pairs are not independent: the 95 % CI is a percentile cluster
@@ -22,14 +27,13 @@ Benjamini-Hochberg over the groups. Beside them, on the both-heard differences: 
 Hodges-Lehmann shift, Wilcoxon's signed-rank and the sign test; on the discordant counts
 (only A / only B): McNemar's exact test.
 
-Threshold correction. The flat prior is never quite true: reports pile up near the decode
-threshold, and the bound of a one-sided pair is taken from the heard antenna's own noisy
-SNR. By Tweedie's formula that pulls the estimate by about ``-sigma_e^2 h_A`` for pairs
-anchored on A (``h_A``: share of A's heard pairs exactly at threshold, per dB) and
-``+sigma_e^2 h_B`` for those anchored on B. By default (``threshold_correction="edge"``)
-:func:`edge_correction` adds this first-order term, computed from extra ``edge_a`` /
-``edge_b`` counts in the compressed table, to the estimate and to every bootstrap
-replicate. It is an empirical correction of this project, checked by simulation only.
+Threshold correction (optional, off by default). :func:`edge_correction` adds a
+first-order Tweedie term for reports piling up at the decode threshold
+(``-sigma_e^2 h_A`` for pairs anchored on A, ``+sigma_e^2 h_B`` on B; ``h``: share of the
+heard pairs exactly at threshold), from extra ``edge_a`` / ``edge_b`` counts in the
+compressed table. It was made for the plain difference-Tobit; with the composite
+likelihood it over-corrects (by 0.1-0.18 dB in the simulations below), so
+``threshold_correction="none"`` is the default and ``"edge"`` is kept for comparison.
 
 Missed reports. A pair can be one-sided for a reason that has nothing to do with the
 antennas: in the alternating design the path closes (or fades out) between the A slot and
@@ -41,29 +45,27 @@ likelihood is a mixture: an only-A pair is missing B's report for such a reason 
 probability ``pa`` (only-B: ``pb``), fitted per group with ``mu`` and ``sigma``
 (:func:`spotkit.censored.censored_mixture_mle`); strong one-sided reports the normal
 cannot explain identify ``pa`` and ``pb``. It nests the plain fit (``pa = pb = 0``), which
-it returns where the mixture does not fit better; the edge correction then counts each
-one-sided pair by its posterior share of the censored-normal component.
+it returns where the mixture does not fit better; an edge correction, if asked for, then
+counts each one-sided pair by its posterior share of the censored-normal component.
 
-Known error (measured in the test suite's simulations): with A and B at equal power the
-estimate is within a few hundredths of a dB; with A 7 dB louder and many pairs near
-threshold the uncorrected difference-Tobit was off by up to 0.4 dB (simulator) and
-0.1-0.2 dB (held-out generator), the corrected one by up to about 0.2 dB and under 0.1 dB.
-The both-heard-only mean was off by 0.2-0.4 dB in the same cases. Alternating design, A
-5 W and B 1 W (2 days, seed 7, band x distance cells with 10,000-29,000 pairs): the plain
-fit was off by +0.37, -0.05, +0.14 and +0.01 dB, the mixture by -0.04, -0.15, 0.00 and
--0.07 dB; over 360,000 pairs of one band the mixture is off by -0.05 dB (plain +0.05 dB,
-+0.14 dB without the open-path check of :func:`spotkit.pairing.pair_spots`). That residual
-is not the closures (it is -0.04 dB with paths that never close): the difference-Tobit
-ignores that which pairs are observed at all (at least one antenna heard) depends on
-``mu``, and the level distribution is not flat; both grow with the per-pair spread, which
-the slot-to-slot change makes larger in the alternating design. In 200 small alternating
-runs at unequal powers (about 1,200 pairs, 15 receivers each) the 95 % CI covered the
-truth in 91 % (86.5 % without the mixture); with larger runs the -0.05 dB bias is a
-larger part of the interval and coverage falls (79 % at 1,900 pairs per run). With equal
-powers the mixture changes the alternating cells by under 0.1 dB; in the simultaneous and
-receive designs (no closures) it fits shares near zero and changes the estimate by under
-0.02 dB. The normal model for the per-pair spread (fast fading, rounding, alternating
-slots) is an approximation.
+Known error (measured in the test suite's simulations, cells with 2,000 or more pairs):
+simultaneous and receive designs, equal or unequal powers, with and without many reports
+near threshold: within 0.08 dB (simulator) and 0.06 dB (held-out generator, where the
+plain difference-Tobit was off by 0.1-0.2 dB and its edge-corrected version by up to
+0.1 dB); the both-heard-only mean was off by 0.26 dB in the held-out case with heavy
+censoring. Alternating design, A 5 W and B 1 W (2 days, seed 7): the plain
+difference-Tobit was off by +0.37, -0.05, +0.14 and +0.01 dB in the four big cells, the
+composite fit with the missed-report mixture by -0.02, -0.02, 0.00 and +0.01 dB; over
+360,000 pairs of one band by -0.01 dB (+0.005 dB without the open-path check, where the
+plain fit was off by +0.14 dB), and with paths that never close by -0.006 dB. In 200 small
+alternating runs at unequal powers (about 1,200 pairs, 15 receivers each) the 95 % CI
+covered the truth in 92 %: its half-width is about 6 % short of the spread of the
+estimates over the runs (simultaneous design, 600 pairs per run: 95.5 %). In the
+simultaneous and receive designs (no closures) the mixture fits shares near zero and
+changes the estimate by under 0.02 dB. The normal
+model for the per-pair spread (fast fading, rounding, alternating slots) and the flat
+prior are approximations; a strongly skewed level distribution leaves a few hundredths
+of a dB (-0.03 dB in a synthetic check with A 7 dB louder).
 
 Before/after design: per group and period, the same censored fit (with the missed-report
 share) of the target-minus-control SNR, exact where the target was heard and an upper
@@ -75,8 +77,10 @@ cell) with four days per period the cells with 12,000-40,000 reports were within
 within 0.23 dB (three seeds); with one day per period a band was off by up to 1.05 dB and
 cells by up to 1.8 dB (the heard-only estimator: 0.9 dB) with intervals that missed the
 truth - the change of propagation between the periods (openness, daily conditions; the
-control stations' paths do not follow the target's) dominates, and censoring that is mostly paths closing (30-60 % of
-the slots) cannot be told apart from a weaker antenna. It stays the weaker design.
+control stations' paths do not follow the target's) dominates, and censoring that is
+mostly paths closing (30-60 % of the slots) cannot be told apart from a weaker antenna.
+It stays the weaker design. (Per period there is one conditional likelihood - the
+target's outcome given the control - so a heard report counts once here.)
 Groups with a single cluster (e.g. ``by="receiver"``) get an interval from resampling
 their pairs as if independent, which is too narrow.
 
@@ -92,6 +96,8 @@ References
    doi:10.1198/jasa.2011.tm11181 (citation from memory)
 .. [5] G. J. McLachlan and D. Peel, Finite Mixture Models, Wiley, 2000 (citation from
    memory).
+.. [6] C. Varin, N. Reid and D. Firth, "An overview of composite likelihood methods",
+   Statistica Sinica 21:5-42, 2011 (citation from memory).
 """
 from __future__ import annotations
 
@@ -117,6 +123,9 @@ ThresholdCorrection = Literal["edge", "none"]
 THRESHOLD_CORRECTIONS = ("edge", "none")
 MissedReports = Literal["fit", "none"]
 MISSED_REPORTS = ("fit", "none")
+#: weight of a both-heard pair's density in the paired designs' likelihood: it enters both
+#: conditional likelihoods, "B's outcome given A heard" and "A's outcome given B heard"
+PAIRED_EXACT_WEIGHT = 2.0
 _META = (C.CLUSTER, C.KIND, C.VALUE, C.COUNT)
 
 #: result columns of :func:`estimate_groups` after the group keys
@@ -167,6 +176,15 @@ def edge_correction(sigma, n_both, n_only_a, n_only_b, n_edge_a, n_edge_b):
         return np.where(n > 0, sigma ** 2 / 2 * (h_a * n_only_a - h_b * n_only_b) / n, 0.0)
 
 
+def _fit(v, k, t, use_mix):
+    """The censored fit of one group's paired differences (both-heard pairs count in both
+    conditional likelihoods, see :data:`PAIRED_EXACT_WEIGHT`)."""
+    if use_mix:
+        return stats.censored_mixture_mle(v, k, t, exact_weight=PAIRED_EXACT_WEIGHT)
+    fit = stats.censored_normal_mle(v, k, np.where(k == 0, PAIRED_EXACT_WEIGHT, 1.0) * t)
+    return fit
+
+
 def _explained(v, k, w, mu, sigma, missed_a, missed_b):
     """Weights of the only-A and only-B pairs the censored normal explains, per row of ``w``.
 
@@ -192,7 +210,7 @@ def _tests_on_both(vals, cnts, out, g):
 def estimate_groups(counts: pd.DataFrame, *, n_boot: int = 1000, seed: int = 0,
                     confidence: float = 0.95, min_pairs: int = 30, clusters=None,
                     cluster_label: str = "receivers", progress: bool = False,
-                    threshold_correction: ThresholdCorrection = "edge",
+                    threshold_correction: ThresholdCorrection = "none",
                     missed_reports: MissedReports = "fit") -> pd.DataFrame:
     """B minus A per group from a compressed pair table.
 
@@ -217,14 +235,14 @@ def estimate_groups(counts: pd.DataFrame, *, n_boot: int = 1000, seed: int = 0,
         What the clusters are, for the method text ("receivers" / "transmitters").
     progress : bool
         Show a progress bar over groups (tqdm).
-    threshold_correction : {"edge", "none"}
-        Add :func:`edge_correction` to the censored MLE (and to each bootstrap replicate);
-        needs the ``edge_a`` / ``edge_b`` rows of the compressed table (without them the
-        correction is zero).
+    threshold_correction : {"none", "edge"}
+        ``"edge"``: add :func:`edge_correction` to the censored MLE (and to each bootstrap
+        replicate); needs the ``edge_a`` / ``edge_b`` rows of the compressed table. Off by
+        default: it over-corrects the composite likelihood (module docstring).
     missed_reports : {"fit", "none"}
         ``"fit"``: allow a share of the one-sided pairs to be missing for reasons other
         than B - A (path closed between slots, receiver off, decode lost), fitted per group
-        (:func:`spotkit.censored.censored_mixture_mle`); the edge correction then counts
+        (:func:`spotkit.censored.censored_mixture_mle`); an edge correction then counts
         only the one-sided pairs the censored normal explains. ``"none"``: the plain
         censored-normal fit.
 
@@ -322,7 +340,7 @@ def estimate_groups(counts: pd.DataFrame, *, n_boot: int = 1000, seed: int = 0,
         if pairs < min_pairs:
             notes[g] = f"too few pairs ({pairs:,} < {min_pairs:,}): no estimate"
             continue
-        fit = (stats.censored_mixture_mle if use_mix else stats.censored_normal_mle)(v, k, t)
+        fit = _fit(v, k, t, use_mix)
         if not np.isfinite(fit.mu):
             notes[g] = ("no estimate: the pairs do not bound B - A on both sides (e.g. "
                         "only one antenna ever heard)")
@@ -348,9 +366,11 @@ def estimate_groups(counts: pd.DataFrame, *, n_boot: int = 1000, seed: int = 0,
             ea_b = e_a * heard_a / max(n_both[g] + n_a[g], 1)
             eb_b = e_b * heard_b / max(n_both[g] + n_b[g], 1)
         if use_mix:
-            mu_b, sig_b, pa_b, pb_b = stats.censored_mixture_mle_batch(v, k, wb)
+            mu_b, sig_b, pa_b, pb_b = stats.censored_mixture_mle_batch(
+                v, k, wb, exact_weight=PAIRED_EXACT_WEIGHT)
         else:
-            (mu_b, sig_b), pa_b, pb_b = stats.censored_normal_mle_batch(v, k, wb), 0.0, 0.0
+            (mu_b, sig_b), pa_b, pb_b = stats.censored_normal_mle_batch(
+                v, k, np.where(k == 0, PAIRED_EXACT_WEIGHT, 1.0) * wb), 0.0, 0.0
         if use_edge:
             na_b, nb_b = _explained(v, k, wb, mu_b, sig_b, pa_b, pb_b)
             mu_b = mu_b + edge_correction(sig_b, wb[:, k == 0].sum(1), na_b, nb_b, ea_b,
@@ -384,7 +404,9 @@ def estimate_groups(counts: pd.DataFrame, *, n_boot: int = 1000, seed: int = 0,
               C.SIGMA, C.CORRECTION):
         res[c] = out[c]
     res[C.METHOD] = (
-        "censored-normal MLE (Tobit) of per-W B-A using both-heard and one-sided pairs"
+        "censored-normal MLE (Tobit) of per-W B-A using both-heard and one-sided pairs "
+        "(both-heard pairs in both conditional likelihoods, given A heard and given B "
+        "heard)"
         + ("" if not use_mix else ", allowing a fitted share of one-sided pairs to be "
            "missing for other reasons (path closed, receiver off)")
         + ("" if not use_edge else ", with a first-order correction for reports at the "
@@ -730,7 +752,7 @@ def compare_antennas(spots: pd.DataFrame, design: Design, a: str, b: str | None 
                      layer_height_km: float = 300.0, window_slots: int = 1,
                      n_boot: int = 1000, seed: int = 0, min_pairs: int = 30,
                      confidence: float = 0.95, progress: bool = False,
-                     threshold_correction: ThresholdCorrection = "edge",
+                     threshold_correction: ThresholdCorrection = "none",
                      require_open_path: bool = True,
                      missed_reports: MissedReports = "fit") -> ComparisonResult:
     """Compare antenna B with antenna A: B minus A [dB] overall and by group.

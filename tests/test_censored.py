@@ -205,10 +205,9 @@ def test_empty_inputs_give_nan_not_warnings():
 def _mixture_loglik(v, k, c, mu, sigma, pa, pb):
     """Oracle: the mixture log-likelihood written with scipy.stats.norm."""
     z = (v - mu) / sigma
-    cc = 1.0 - pa - pb
-    ll = np.where(k == 0, np.log(cc) + sps.norm.logpdf(z) - np.log(sigma),
-                  np.where(k == 1, np.log(pa + cc * sps.norm.cdf(z)),
-                           np.log(pb + cc * sps.norm.sf(z))))
+    ll = np.where(k == 0, np.log1p(-pa) + np.log1p(-pb) + sps.norm.logpdf(z) - np.log(sigma),
+                  np.where(k == 1, np.log(pa + (1 - pa) * sps.norm.cdf(z)),
+                           np.log(pb + (1 - pb) * sps.norm.sf(z))))
     return float(np.sum(c * ll))
 
 
@@ -238,14 +237,16 @@ def _paired(rng, n, lose_b=0.0, lose_a=0.0):
 
 def test_mixture_without_missing_reports_is_the_plain_fit(rng):
     # nested model: with nothing missing the fitted shares stay near their floor and mu,
-    # sigma equal the censored-normal fit (to 0.02 dB)
+    # sigma equal the censored-normal fit with the same weights (to 0.02 dB); the paired
+    # (composite) likelihood recovers the truth mu = 1 dB (0.1 dB, about 5 SE)
     vals, kinds, _, _ = _paired(rng, 20000)
-    plain = CN.censored_normal_mle(vals, kinds)
-    mix = CN.censored_mixture_mle(vals, kinds)
+    plain = CN.censored_normal_mle(vals, kinds, np.where(kinds == 0, 2.0, 1.0))
+    mix = CN.censored_mixture_mle(vals, kinds, exact_weight=2.0)
     assert mix.missed_a < 0.005 and mix.missed_b < 0.005
     assert mix.mu == pytest.approx(plain.mu, abs=0.02)
     assert mix.sigma == pytest.approx(plain.sigma, abs=0.02)
     assert mix.loglik >= plain.loglik - 1e-6
+    assert mix.mu == pytest.approx(1.0, abs=0.1)
 
 
 def test_mixture_recovers_mu_when_reports_go_missing(rng):
@@ -254,17 +255,20 @@ def test_mixture_recovers_mu_when_reports_go_missing(rng):
     # side's limit). The plain fit is pulled far off; the mixture recovers mu within 0.1 dB
     # (about 5 SE) and sigma within 0.1 dB, and the missing shares within 0.02
     vals, kinds, share_a, share_b = _paired(rng, 40000, lose_b=0.10, lose_a=0.04)
-    plain = CN.censored_normal_mle(vals, kinds)
-    mix = CN.censored_mixture_mle(vals, kinds)
+    plain = CN.censored_normal_mle(vals, kinds, np.where(kinds == 0, 2.0, 1.0))
+    mix = CN.censored_mixture_mle(vals, kinds, exact_weight=2.0)
     assert abs(plain.mu - 1.0) > 0.3
     assert mix.mu == pytest.approx(1.0, abs=0.1)
     assert mix.sigma == pytest.approx(1.8 * np.sqrt(2.0), abs=0.1)
     assert mix.missed_a == pytest.approx(share_a, abs=0.02)
     assert mix.missed_b == pytest.approx(share_b, abs=0.02)
     # the returned log-likelihood is the mixture's, written with scipy.stats (1e-8 relative)
-    assert mix.loglik == pytest.approx(_mixture_loglik(vals, kinds, np.ones(vals.size),
-                                                       mix.mu, mix.sigma, mix.missed_a,
-                                                       mix.missed_b), rel=1e-8)
+    one = CN.censored_mixture_mle(vals, kinds)  # exact weight 1: a single mixture
+    assert one.mu == pytest.approx(1.0, abs=0.1)
+    assert one.loglik == pytest.approx(_mixture_loglik(vals, kinds, np.ones(vals.size),
+                                                       one.mu, one.sigma, one.missed_a,
+                                                       one.missed_b), rel=1e-8)
+    mix = one
     # and it is a maximum: nudging any parameter lowers it
     for dm, ds, da, db in ((0.02, 0, 0, 0), (-0.02, 0, 0, 0), (0, 0.02, 0, 0),
                            (0, 0, 0.002, 0), (0, 0, 0, -0.002)):
@@ -287,6 +291,6 @@ def test_mixture_batch_matches_single_fits(rng):
     fit = CN.censored_mixture_mle([1.0, -2.0], [1, -1], [5, 5])
     assert fit.missed_a == 0.0 and fit.missed_b == 0.0
     share = CN.normal_share([0.0, 1.0], [0, 1], [0.0], [1.0], [0.2], [0.1])
-    # exact: 1; bound at mu: c Phi / (pa + c Phi) = 0.35 / 0.55
-    assert share[0, 0] == 1.0 and share[0, 1] == pytest.approx(0.7 * sps.norm.cdf(1.0) /
-                                                               (0.2 + 0.7 * sps.norm.cdf(1.0)))
+    # exact: 1; upper bound 1 sigma above mu: (1 - pa) Phi(1) / (pa + (1 - pa) Phi(1))
+    assert share[0, 0] == 1.0 and share[0, 1] == pytest.approx(0.8 * sps.norm.cdf(1.0) /
+                                                               (0.2 + 0.8 * sps.norm.cdf(1.0)))
