@@ -454,9 +454,10 @@ def pilot_parameters(spots: pd.DataFrame, design: str, a: str, b: str | None = N
     The pilot (e.g. a day of reports with the real set-up) is compared as the real run
     would be (:func:`spotkit.compare.compare_antennas`). From it:
 
-    * ``sigma_db``: the censored-normal (Tobit) fit to all pairs, so one-sided pairs count,
-      with its independent-pairs standard error ``se_iid`` (observed information);
-      ``mean_db``: the comparison's headline B-minus-A;
+    * ``sigma_db`` and ``mean_db``: the comparison's fitted spread and headline
+      B-minus-A; a plain censored-normal (Tobit) fit to all pairs, so one-sided pairs
+      count, gives the independent-pairs standard error ``se_iid`` (observed information)
+      and its own ``sigma`` for the two ratios below;
     * the report rate: pairs per hour of the pilot's span (first to last slot of the band,
       plus one slot);
     * censoring, measured rather than modelled: ``censoring_factor = sigma^2 / (N se_iid^2)``;
@@ -533,7 +534,7 @@ def pilot_parameters(spots: pd.DataFrame, design: str, a: str, b: str | None = N
     icc = min(0.99, max(0.0, (deff - 1.0) / (m - 1.0))) if m > 1 else 0.0
     return PilotParameters(
         band=band, hours=float(hours), pairs=int(n), pairs_per_hour=n / float(hours),
-        mean_db=float(row[C.B_MINUS_A]), sigma_db=float(fit.sigma),
+        mean_db=float(row[C.B_MINUS_A]), sigma_db=float(row[C.SIGMA]),
         censored_fraction=float(w[kinds != 0].sum() / n), censoring_factor=float(r),
         design_effect=float(deff), icc=float(icc), clusters=float(clusters),
         receivers=int(per_cluster.size), se_db=float(se_boot))
