@@ -121,14 +121,18 @@ def main(argv=None) -> int:
     ap.add_argument("--chunk-rows", type=int, default=1_000_000)
     ap.add_argument("--read-spots", action="store_true", help="also time read_spots in one go")
     ap.add_argument("--keep", action="store_true", help="keep the temporary directory")
+    ap.add_argument("--csv", type=Path, help="use this CSV made by an earlier run (--keep) "
+                    "instead of making one; --rows must match it")
     args = ap.parse_args(argv)
     tmp = Path(tempfile.mkdtemp(prefix="spotkit_bench_ingest_"))
-    csv_path = tmp / "spots.csv"
-    t = time.perf_counter()
-    make_csv(csv_path, args.rows)
-    size_mb = csv_path.stat().st_size / 1e6
-    print(f"made {args.rows:,} rows ({size_mb:,.0f} MB) in {time.perf_counter() - t:.1f} s: "
-          f"{csv_path}")
+    csv_path = args.csv or tmp / "spots.csv"
+    if args.csv is None:
+        t = time.perf_counter()
+        make_csv(csv_path, args.rows)
+        print(f"made {args.rows:,} rows ({csv_path.stat().st_size / 1e6:,.0f} MB) in "
+              f"{time.perf_counter() - t:.1f} s: {csv_path}")
+    else:
+        print(f"using {csv_path} ({csv_path.stat().st_size / 1e6:,.0f} MB)")
     runs = {
         "pandas.read_csv": f"import pandas as pd\ndf = pd.read_csv({str(csv_path)!r})\n"
                            "extra = len(df)",

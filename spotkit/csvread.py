@@ -45,6 +45,11 @@ class TextColumn:
 
     codes: np.ndarray
     values: np.ndarray
+    has_empty: bool | None = None  # whether some code is -1 (None: not known yet)
+
+    def __post_init__(self):
+        if self.has_empty is None:
+            self.has_empty = bool(self.codes.size) and bool((self.codes < 0).any())
 
     def cells(self, idx: np.ndarray) -> np.ndarray:
         """The text of rows ``idx`` ("" for empty cells), as an object array."""
@@ -179,7 +184,8 @@ def _text_column(arr) -> TextColumn:
     if arr.null_count:
         idx = idx.fill_null(-1)
     return TextColumn(idx.to_numpy(zero_copy_only=False),
-                      np.asarray(arr.dictionary.to_numpy(zero_copy_only=False), dtype=object))
+                      np.asarray(arr.dictionary.to_numpy(zero_copy_only=False), dtype=object),
+                      arr.null_count > 0)
 
 
 def arrow_pass(layout: _Layout, chunk_rows: int | None, threads: bool, skip: int,

@@ -180,6 +180,14 @@ def _per_row(table: np.ndarray, codes: np.ndarray, empty) -> np.ndarray:
     return np.take(np.append(table, np.asarray([empty], dtype=table.dtype)), codes)
 
 
+def _status_rows(status: np.ndarray, col: TextColumn, empty: int) -> np.ndarray | None:
+    """Status of each row from the status of each distinct cell (``empty`` for empty
+    cells); None when no row can fail (the usual clean chunk: no gather needed)."""
+    if not status.any() and not (empty and col.has_empty):
+        return None
+    return _per_row(status.astype(np.int8), col.codes, empty)
+
+
 class _Distinct:
     """Normalised values of one kind of text field (calls, locators), kept across chunks
     and files, so that each distinct cell text is checked and normalised once.
@@ -227,7 +235,10 @@ class _Distinct:
 
 
 def _new_distinct() -> dict:
-    return {"call": _Distinct(_norm_calls), "locator": _Distinct(normalize_locator)}
+    """One :class:`_Distinct` per call and locator field (each side numbered apart: the
+    pair geometry is kept in a table of transmitter by receiver locators)."""
+    return {C.TX_CALL: _Distinct(_norm_calls), C.TX_LOCATOR: _Distinct(normalize_locator),
+            C.RX_CALL: _Distinct(_norm_calls), C.RX_LOCATOR: _Distinct(normalize_locator)}
 
 
 def _norm_calls(cats):
@@ -297,11 +308,12 @@ def _number_rows(col, decimal: str, lo, hi, convert=None):
     the report key).
 
     ``col`` is a :class:`TextColumn` (each distinct cell parsed once) or a float64 array
-    parsed by the reader (NaN: empty cell; the reader leaves no other NaN or infinity).
+    parsed by the reader (NaN: empty cell; the reader leaves no other NaN or infinity). The
+    status is None when no row can fail.
     """
     if isinstance(col, TextColumn):
         v_d, st_d = _parse_numbers(col, decimal, lo, hi, convert)
-        return (_per_row(v_d, col.codes, np.nan), _per_row(st_d, col.codes, 1),
+        return (_per_row(v_d, col.codes, np.nan), _status_rows(st_d, col, 1),
                 (col.codes, hash_values(v_d)))
     v = col
     if convert is not None:
@@ -348,7 +360,7 @@ def _clean_chunk(raw: TextChunk, layout: _Layout, rows: np.ndarray, region: str,
                  slot_minutes: int, distinct: dict | None = None
                  ) -> tuple[dict, pd.DataFrame, list]:
     """Validate and convert one chunk. ``distinct``: the calls and locators seen so far
-    ({"call": _Distinct, "locator": _Distinct}, updated). Returns (spots: the accepted rows'
+    (:func:`_new_distinct`, updated). Returns (spots: the accepted rows'
     columns, times as int64 ns; rejects; key parts of the accepted rows for
     :mod:`spotkit.dedupe`)."""
     if distinct is None:
@@ -360,7 +372,8 @@ def _clean_chunk(raw: TextChunk, layout: _Layout, rows: np.ndarray, region: str,
 
     t_codes, t_texts = _time_codes(col[C.TIME])
     t_ns, t_status = _parse_times(t_texts, layout.units["time"])
-    checks.append((C.TIME, _per_row(t_status, t_codes, 1), _TIME_REASONS))
+    checks.append((C.TIME, _status_rows(t_status, col[C.TIME][0] if len(col[C.TIME]) == 1
+                                        else TextColumn(t_codes, t_texts), 1), _TIME_REASONS))
     slot_ns = np.int64(slot_minutes) * 60 * 10**9
     slot_d = t_ns - np.mod(t_ns, slot_ns)
     keys[C.SLOT] = (t_codes, hash_values(slot_d))
@@ -368,10 +381,10 @@ def _clean_chunk(raw: TextChunk, layout: _Layout, rows: np.ndarray, region: str,
     for f, what in ((C.TX_CALL, "call"), (C.TX_LOCATOR, "locator"), (C.RX_CALL, "call"),
                     (C.RX_LOCATOR, "locator")):
         c = col[f][0]
-        mapping = distinct[what].codes(c.values)
-        checks.append((f, _per_row(np.where(mapping == -2, 2, 0).astype(np.int8), c.codes, 1),
+        mapping = distinct[f].codes(c.values)
+        checks.append((f, _status_rows(np.where(mapping == -2, 2, 0), c, 1),
                        {1: f"empty {what}", 2: f"bad {what}"}))
-        keys[f] = (_per_row(mapping, c.codes, -1), distinct[what].hashes)
+        keys[f] = (_per_row(mapping, c.codes, -1), distinct[f].hashes)
 
     fcol = col[C.FREQ][0]
     if not isinstance(fcol, TextColumn):  # (the reader parses SNR, power and drift only)
@@ -380,7 +393,7 @@ def _clean_chunk(raw: TextChunk, layout: _Layout, rows: np.ndarray, region: str,
                                lambda v: frequency_to_hz(v, layout.units["frequency"]))
     band_d = _band_codes(f_d, region)
     f_st[(f_st == 0) & (band_d < 0)] = 4
-    checks.append((C.FREQ, _per_row(f_st, fcol.codes, 1),
+    checks.append((C.FREQ, _status_rows(f_st, fcol, 1),
                    _number_reasons("frequency", None, None, "")
                    | {4: "frequency not in an amateur band"}))
     keys[C.FREQ] = (fcol.codes, hash_values(f_d))
@@ -394,13 +407,16 @@ def _clean_chunk(raw: TextChunk, layout: _Layout, rows: np.ndarray, region: str,
         values[f] = v
     if C.DRIFT in col:
         drift, d_st, _ = _number_rows(col[C.DRIFT][0], layout.decimal, None, None)
-        d_st[d_st == 1] = 0  # drift is optional: an empty cell is fine
-        d_st[(d_st == 0) & np.isinf(drift)] = 2  # "inf" and overflow are not numbers either
-        drift = np.where(d_st == 0, drift, np.nan)
-        checks.append((C.DRIFT, d_st, {2: "drift not a number"}))
+        if d_st is not None:
+            d_st[d_st == 1] = 0  # drift is optional: an empty cell is fine
+            d_st[(d_st == 0) & np.isinf(drift)] = 2  # "inf" and overflow: not numbers either
+            if d_st.any():
+                drift = np.where(d_st == 0, drift, np.nan)
+            checks.append((C.DRIFT, d_st, {2: "drift not a number"}))
     else:
         drift = np.full(n, np.nan)
 
+    checks = [c for c in checks if c[1] is not None]
     bad = np.zeros(n, dtype=bool)
     for _, st, _ in checks:
         bad |= st != 0
@@ -412,10 +428,9 @@ def _clean_chunk(raw: TextChunk, layout: _Layout, rows: np.ndarray, region: str,
     t_kept = kept(t_codes)
     time_ns = np.take(t_ns, t_kept)
     spots = {C.TIME: time_ns, C.SLOT: np.take(slot_d, t_kept)}
-    for f, what in ((C.TX_CALL, "call"), (C.TX_LOCATOR, "locator"), (C.RX_CALL, "call"),
-                    (C.RX_LOCATOR, "locator")):
+    for f in (C.TX_CALL, C.TX_LOCATOR, C.RX_CALL, C.RX_LOCATOR):
         spots[f] = pd.Categorical.from_codes(kept(keys[f][0]), validate=False,  # valid codes
-                                             dtype=distinct[what].dtype)
+                                             dtype=distinct[f].dtype)
     spots[C.FREQ] = np.take(f_d, kept(fcol.codes))
     spots[C.BAND] = pd.Categorical.from_codes(
         np.take(band_d, kept(fcol.codes)), categories=pd.Index(BAND_ORDER, dtype="str"),
