@@ -12,10 +12,10 @@ gathers; a reject keeps the cell's own text.
 
 Two readers give the same chunks:
 
-- pyarrow's streaming CSV reader (comma, semicolon or tab files with decimal points),
-  with several threads. Those cannot tell the line number of a row with the wrong number of
-  fields, so at the first such row the file is read again in one thread from where the
-  chunks handed out so far end (they held no such row);
+- pyarrow's CSV reader (comma, semicolon or tab files with decimal points): the file is
+  cut at line ends into pieces of about 8 MB, each parsed with several threads, gathered
+  into chunks. Threads cannot tell the line number of a row with the wrong number of
+  fields, so a piece holding such a row is parsed again in one thread;
 - pandas' C parser for the rest (runs of blanks, decimal commas), which fills a row with
   too few fields with empty cells.
 
@@ -115,11 +115,16 @@ def _skipped_lines(caught) -> list:
 
 
 # --- pyarrow ---------------------------------------------------------------------------------
-def _block_bytes(chunk_rows: int | None) -> int:
-    """Reader block size: about one chunk (72 bytes a row), 1 MB to :data:`BLOCK_BYTES`."""
+#: Bytes per piece parsed at once (with several threads); pieces are gathered into chunks.
+PIECE_BYTES = 1 << 23
+
+
+def _piece_bytes(chunk_rows: int | None, line_bytes: float) -> int | None:
+    """Bytes per piece: :data:`PIECE_BYTES`, less for small chunks, at most
+    :data:`BLOCK_BYTES` (None: the whole file in one piece)."""
     if not chunk_rows:
-        return BLOCK_BYTES
-    return int(min(BLOCK_BYTES, max(1 << 20, 72 * chunk_rows)))
+        return None
+    return int(min(BLOCK_BYTES, PIECE_BYTES, max(1 << 12, chunk_rows * line_bytes)))
 
 
 class _RowNumbersUnknown(Exception):
@@ -131,67 +136,108 @@ class _NotPlainNumbers(Exception):
     or infinity): it must be read as text to tell empty, bad and out-of-range cells apart."""
 
 
+def _pieces(source, size: int | None):
+    """Yield the stream in pieces of about ``size`` bytes that end at a line end."""
+    carry = b""
+    while True:
+        data = source.read(size) if size else source.read()
+        if not data:
+            if carry:
+                yield carry
+            return
+        data = carry + data
+        cut = data.rfind(b"\n") + 1
+        if size and cut == 0:  # no line end yet: a very long line
+            carry = data
+            continue
+        if not size:
+            cut = len(data)
+        carry = data[cut:]
+        yield data[:cut]
+
+
 def arrow_chunks(layout: _Layout, chunk_rows: int | None,
                  numbers: tuple = ()) -> Iterator[tuple[TextChunk, list]]:
-    """Chunks read by pyarrow's streaming reader; yields (chunk, skipped lines). Rows with
-    too few fields are set aside like rows with too many.
+    """Chunks read by pyarrow's CSV reader; yields (chunk, skipped lines). Rows with too few
+    fields are set aside like rows with too many.
 
-    The columns at positions ``numbers`` are parsed as float64 by the reader (cheaper than
-    text for short numbers; an empty cell is NaN) until a cell is not a plain finite
-    decimal number; from the chunk holding it on, they are read as text.
+    The file is cut at line ends into pieces of about :data:`PIECE_BYTES`, each parsed with
+    several threads, and the pieces are gathered into chunks of at least ``chunk_rows``
+    rows. Threads cannot tell the line number of a row with the wrong number of fields, so
+    a piece holding such a row is parsed again in one thread. The columns at positions
+    ``numbers`` are parsed as float64 (cheaper than text for short numbers; an empty cell is
+    NaN) until a cell is not a plain finite decimal number; from that piece on, they are
+    read as text.
     """
-    done, threads = 0, True
-    while True:
-        try:
-            for chunk, skipped in arrow_pass(layout, chunk_rows, threads, done, numbers):
-                done += chunk.n
-                yield chunk, skipped
-            return
-        except _RowNumbersUnknown:
-            threads = False
-        except _NotPlainNumbers:
-            numbers = ()
-
-
-def _open_csv(pacsv, source, numbers, **kw):
-    """``pacsv.open_csv``; a cell the number parser refuses in the first block (read at
-    once) raises :class:`_NotPlainNumbers`."""
     import pyarrow as pa
+
+    source = pa.input_stream(str(layout.path), compression=layout.compression)
+    tables, bad, rows = [], [], 0
+
+    def emit():
+        table = pa.concat_tables(tables) if len(tables) > 1 else tables[0]
+        if any(c.num_chunks > 1 for c in table.columns):
+            table = table.unify_dictionaries().combine_chunks()
+        out = TextChunk(table.num_rows, [_column(c) for c in table.columns]), list(bad)
+        tables.clear()
+        bad.clear()
+        return out
 
     try:
-        return pacsv.open_csv(source, **kw)
-    except pa.ArrowInvalid:
-        if numbers:
-            raise _NotPlainNumbers from None
-        raise
+        head = source.read(1 << 16)
+        line_bytes = max(len(head), 1) / max(head.count(b"\n"), 1)
+        lines_before = 0  # lines of the file before the piece (heading included)
+        first = True
+        for piece in _pieces(_Prepend(head, source), _piece_bytes(chunk_rows, line_bytes)):
+            skip = layout.header_lines if first else 0
+            while True:
+                try:
+                    table, piece_bad = _read_piece(layout, piece, skip, True, numbers)
+                except _RowNumbersUnknown:
+                    table, piece_bad = _read_piece(layout, piece, skip, False, numbers)
+                except _NotPlainNumbers:
+                    numbers = ()
+                    if tables:  # the pieces so far hold numbers: a chunk of their own
+                        rows = 0
+                        yield emit()
+                    continue
+                break
+            tables.append(table)
+            bad.extend((lines_before + line, msg) for line, msg in piece_bad)
+            rows += table.num_rows
+            lines_before += piece.count(b"\n")
+            first = False
+            if chunk_rows and rows >= chunk_rows:
+                rows = 0
+                yield emit()
+        if tables or bad or not chunk_rows:
+            if not tables:
+                tables.append(_read_piece(layout, b"", 0, False, numbers)[0])
+            yield emit()
+    finally:
+        source.close()
 
 
-def _column(col):
-    """A column of a table read by pyarrow: :class:`TextColumn` (dictionary-encoded text)
-    or float64 array (numbers, NaN for empty cells)."""
-    import pyarrow as pa
+class _Prepend:
+    """A stream with ``head`` (already read) put back in front."""
 
-    if pa.types.is_floating(col.type):
-        return np.asarray(col.to_numpy(), dtype=np.float64)
-    if not col.num_chunks:
-        return TextColumn(np.zeros(0, dtype=np.int32), np.zeros(0, dtype=object))
-    return _text_column(col.chunk(0))
+    def __init__(self, head: bytes, source):
+        self.head, self.source = head, source
 
-
-def _text_column(arr) -> TextColumn:
-    """A pyarrow dictionary array as a :class:`TextColumn`."""
-    idx = arr.indices
-    if arr.null_count:
-        idx = idx.fill_null(-1)
-    return TextColumn(idx.to_numpy(zero_copy_only=False),
-                      np.asarray(arr.dictionary.to_numpy(zero_copy_only=False), dtype=object),
-                      arr.null_count > 0)
+    def read(self, size=None) -> bytes:
+        if self.head:
+            if size is None or size >= len(self.head):
+                out, self.head = self.head, b""
+                rest = self.source.read() if size is None else self.source.read(
+                    size - len(out))
+                return out + rest
+            out, self.head = self.head[:size], self.head[size:]
+            return out
+        return self.source.read() if size is None else self.source.read(size)
 
 
-def arrow_pass(layout: _Layout, chunk_rows: int | None, threads: bool, skip: int,
-               numbers: tuple = ()) -> Iterator[tuple[TextChunk, list]]:
-    """One read of the file for :func:`arrow_chunks`, leaving out the first ``skip`` data
-    rows (all good ones); columns at positions ``numbers`` parsed as float64."""
+def _read_piece(layout: _Layout, piece: bytes, skip: int, threads: bool, numbers: tuple):
+    """Parse one piece; (pyarrow table, bad rows [(line number in the piece, message)])."""
     import pyarrow as pa
     import pyarrow.compute as pc
     import pyarrow.csv as pacsv
@@ -210,63 +256,49 @@ def arrow_pass(layout: _Layout, chunk_rows: int | None, threads: bool, skip: int
         return "skip"
 
     encoding = {"utf-8": "utf8", "utf-8-sig": "utf8", "latin-1": "latin1"}[layout.encoding]
-    source = pa.input_stream(str(layout.path), compression=layout.compression)
     try:
-        reader = _open_csv(
-            pacsv, source, numbers,
-            read_options=pacsv.ReadOptions(column_names=names, skip_rows=layout.header_lines,
-                                           block_size=_block_bytes(chunk_rows),
+        table = pacsv.read_csv(
+            pa.py_buffer(piece),
+            read_options=pacsv.ReadOptions(column_names=names, skip_rows=skip,
+                                           block_size=max(1 << 20, len(piece) // 8 + 1),
                                            use_threads=threads, encoding=encoding),
             parse_options=pacsv.ParseOptions(delimiter=layout.sep, invalid_row_handler=handler,
                                              ignore_empty_lines=False),
             convert_options=pacsv.ConvertOptions(column_types=types, strings_can_be_null=True,
                                                  quoted_strings_can_be_null=True,
                                                  null_values=[""]))
-        if unknown:
-            raise _RowNumbersUnknown
-        batches, n = [], 0
+    except pa.ArrowInvalid:
+        if numbers:  # a cell the number parser refused
+            raise _NotPlainNumbers from None
+        raise
+    if unknown:
+        raise _RowNumbersUnknown
+    if numbers and not all(  # NaN or infinity spelled out
+            pc.all(pc.is_finite(table.column(i))).as_py() in (True, None) for i in numbers):
+        raise _NotPlainNumbers
+    return table, bad
 
-        def emit():
-            table = pa.Table.from_batches(batches, schema=reader.schema)
-            if len(batches) > 1:
-                table = table.unify_dictionaries().combine_chunks()
-            cols = [_column(c) for c in table.columns]
-            skipped = list(bad)
-            bad.clear()
-            return TextChunk(table.num_rows, cols), skipped
 
-        batch_iter = iter(reader)
-        while True:
-            try:
-                batch = next(batch_iter)
-            except StopIteration:
-                break
-            except pa.ArrowInvalid:
-                if numbers:  # a cell the number parser refused: read as text from here
-                    raise _NotPlainNumbers from None
-                raise
-            if unknown:  # the handler runs before the batch holding the row is returned
-                raise _RowNumbersUnknown
-            if numbers and not all(  # NaN or infinity spelled out: read as text from here
-                    pc.all(pc.is_finite(batch.column(i))).as_py() in (True, None)
-                    for i in numbers):
-                raise _NotPlainNumbers
-            if skip:
-                k = min(skip, batch.num_rows)
-                batch, skip = batch.slice(k), skip - k
-                if not batch.num_rows:
-                    continue
-            batches.append(batch)
-            n += batch.num_rows
-            if chunk_rows and n >= chunk_rows:
-                yield emit()
-                batches, n = [], 0
-        if unknown:
-            raise _RowNumbersUnknown
-        if batches or bad or not chunk_rows:
-            yield emit()
-    finally:
-        source.close()
+def _column(col):
+    """A column of a table read by pyarrow: :class:`TextColumn` (dictionary-encoded text)
+    or float64 array (numbers, NaN for empty cells)."""
+    import pyarrow as pa
+
+    if pa.types.is_floating(col.type):
+        return np.asarray(col.to_numpy(), dtype=np.float64)
+    if not col.num_chunks:
+        return TextColumn(np.zeros(0, dtype=np.int32), np.zeros(0, dtype=object), False)
+    return _text_column(col.chunk(0))
+
+
+def _text_column(arr) -> TextColumn:
+    """A pyarrow dictionary array as a :class:`TextColumn`."""
+    idx = arr.indices
+    if arr.null_count:
+        idx = idx.fill_null(-1)
+    return TextColumn(idx.to_numpy(zero_copy_only=False),
+                      np.asarray(arr.dictionary.to_numpy(zero_copy_only=False), dtype=object),
+                      arr.null_count > 0)
 
 
 # --- reading ahead ---------------------------------------------------------------------------
