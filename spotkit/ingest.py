@@ -28,29 +28,29 @@ after the heading line, blank lines included (they are rejected as blank), and
 ``source_row`` is its 1-based number counted from the first line after the heading (the
 heading line is not counted; quoted fields spanning lines are not supported).
 
-Files are read by pyarrow's streaming CSV reader when they are comma, semicolon or tab
-delimited with decimal points, and by pandas' C parser otherwise (blank-delimited files,
-decimal commas); both give the same table. Rows with the wrong number of fields are set
-aside ("wrong number of fields"); the pandas reader fills a row with too few fields with
-empty cells instead (so such a row is accepted when only the optional drift is missing).
-Files without a heading line: columns are classified by content (:func:`infer_columns`),
-but which call is the transmitter cannot be seen in the data, so ``tx_call`` or ``rx_call``
-must be mapped (``--map tx_call=7``: 1-based column position).
+Files are read by pyarrow's CSV reader when they are comma, semicolon or tab delimited
+with decimal points, and by pandas' C parser otherwise (blank-delimited files, decimal
+commas); both give the same table (:mod:`spotkit.csvread`). Rows with the wrong number of
+fields are set aside ("wrong number of fields"); the pandas reader fills a row with too few
+fields with empty cells instead (so such a row is accepted when only the optional drift is
+missing). Files without a heading line: columns are classified by content
+(:func:`infer_columns`), but which call is the transmitter cannot be seen in the data, so
+``tx_call`` or ``rx_call`` must be mapped (``--map tx_call=7``: 1-based column position).
 
-How the bulk path is kept fast: the CSV is read by pyarrow with several threads, one chunk
-ahead in a second thread, with calls, locators and times dictionary-encoded (validated and
-parsed once per distinct value) and the numeric columns parsed as numbers (a file with odd
-numeric cells is read again as text from the first one, a row with the wrong number of
-fields again in one thread, so that rejects keep their row numbers); duplicates are found
-from one sort of the key hashes per chunk; pair geometry comes from a dense table of locator
-numbers; Parquet chunks are built straight from the arrays and written in a third thread.
+How the bulk path is kept fast: the file is parsed in 8 MB pieces with several threads, a
+chunk ahead in a second thread, every column dictionary-encoded except SNR, power and
+drift (parsed as numbers); each distinct cell is checked once (:mod:`spotkit.clean`; calls
+and locators once per ingest), rows are reached by gathers; duplicates come from one sort
+of 64-bit key hashes per chunk behind a byte map (:mod:`spotkit.dedupe`); pair geometry
+from a dense table of locator numbers, each pair solved once (:mod:`spotkit.pathcache`);
+Parquet chunks are built straight from the arrays and written in a third thread.
 
-Speed (benchmarks/bench_ingest.py, 10 million rows, 646 MB, 2-core machine shared with
-other jobs): 11.2 s streamed to Parquet (0.9 million rows/s), 4.5x the 2.5 s of a bare
-``pandas.read_csv`` of the same file, when the machine was otherwise nearly idle; 16.7 s
-(6.1x) when other jobs kept it busy. The target of 3x is not met: the ingest does 14-17 s
-of CPU work against about 3 s for the bare read, and overlaps it on two cores only when
-they are free. Peak memory 1.5 GB at 1 million rows per chunk (target < 6 GB).
+Speed (benchmarks/bench_ingest.py, 10 million rows, 646 MB, 2-core machine, quiet): 7.9 to
+8.1 s streamed to Parquet (1.2-1.3 million rows/s), 3.8-4.0x the 2.0-2.1 s of a bare
+``pandas.read_csv`` of the same file. The target of 3x is not met: the ingest does about
+14 s of CPU work on two cores (parsing 5.5, writing Parquet 2.7, pair geometry 1.7,
+duplicates 1.5, checks 0.6) against 3.7 s for the bare read, which itself runs on both
+cores. Peak memory 1.2 GB at 1 million rows per chunk (target < 6 GB).
 
 Known limits: duplicates are found by a 64-bit hash of the report key, so two different
 reports are wrongly taken as duplicates with probability about ``n**2 / 2**65`` (3e-6 for
