@@ -89,6 +89,19 @@ class CensoredFit:
 _LOG_SQRT_2PI = 0.5 * np.log(2 * np.pi)
 
 
+def _check_batch(values, kinds, weights, sigma_floor):
+    """Checked (values, kinds, weights) of a batch fit (weights shape (B, K))."""
+    if not sigma_floor > 0:
+        raise UsageError(f"sigma_floor must be positive, got {sigma_floor}")
+    v, k = _check_kinds(values, kinds)
+    w = np.asarray(weights, dtype=float)
+    if w.ndim != 2 or w.shape[1] != v.size:
+        raise UsageError(f"weights must have shape (B, {v.size}), got {w.shape}")
+    if np.any(~np.isfinite(w)) or np.any(w < 0):
+        raise UsageError("weights must be finite and non-negative")
+    return v, k, w
+
+
 def _check_kinds(values, kinds):
     v = np.asarray(values, dtype=float).ravel()
     k = np.asarray(kinds).ravel()
@@ -314,14 +327,7 @@ def censored_normal_mle_batch(values, kinds, weights,
     ----------
     .. [1] J. Tobin, Econometrica 26(1):24-36, 1958. doi:10.2307/1907382
     """
-    if not sigma_floor > 0:
-        raise UsageError(f"sigma_floor must be positive, got {sigma_floor}")
-    v, k = _check_kinds(values, kinds)
-    w = np.asarray(weights, dtype=float)
-    if w.ndim != 2 or w.shape[1] != v.size:
-        raise UsageError(f"weights must have shape (B, {v.size}), got {w.shape}")
-    if np.any(~np.isfinite(w)) or np.any(w < 0):
-        raise UsageError("weights must be finite and non-negative")
+    v, k, w = _check_batch(values, kinds, weights, sigma_floor)
     mu, sigma, _conv, _ll, _it = _tobit_batch(v, k, w, sigma_floor)
     return mu, sigma
 
@@ -543,14 +549,7 @@ def censored_mixture_mle_batch(values, kinds, weights, sigma_floor: float = SIGM
     mu, sigma, missed_a, missed_b : numpy.ndarray, shape (B,)
         Fitted mean and SD [dB] and the missing shares ``pa``, ``pb``.
     """
-    if not sigma_floor > 0:
-        raise UsageError(f"sigma_floor must be positive, got {sigma_floor}")
-    v, k = _check_kinds(values, kinds)
-    w = np.asarray(weights, dtype=float)
-    if w.ndim != 2 or w.shape[1] != v.size:
-        raise UsageError(f"weights must have shape (B, {v.size}), got {w.shape}")
-    if np.any(~np.isfinite(w)) or np.any(w < 0):
-        raise UsageError("weights must be finite and non-negative")
+    v, k, w = _check_batch(values, kinds, weights, sigma_floor)
     mu, sigma, pa, pb, _conv, _ll = _mixture_batch(v, k, w, sigma_floor,
                                                    ew=float(exact_weight))
     return mu, sigma, pa, pb
