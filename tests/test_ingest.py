@@ -513,3 +513,31 @@ def test_prefetch_passes_items_errors_and_stops_early():
 def test_heading_line_only(tmp_path):
     res = read_spots(_write(tmp_path, "h.csv", HEAD))
     assert res.summary.rows_read == 0 and res.spots.empty and list(res.spots.columns) == C.CANONICAL
+
+
+@pytest.mark.parametrize("piece_bytes", [16, 300])
+def test_pieces_cut_at_line_ends_give_the_same_table(tmp_path, monkeypatch, piece_bytes):
+    # the pyarrow reader cuts the file into pieces at line ends and gathers them into
+    # chunks: pieces shorter than a line (16 bytes) or a few lines long, a gzip file, a
+    # row with too many fields, an odd SNR and a blank line give the same table, rejects
+    # (row numbers included) and summary as the pandas reader
+    from spotkit import csvread
+
+    rows = [f"2026-03-01 10:{2 * (i % 30):02d},Q{i % 7}AB,JN58td,Q{i % 5}XY,IO91lk,14.0971,"
+            f"{-20 + i % 31},23,{i % 3 - 1}" for i in range(400)]
+    rows[10] += ",extra"
+    rows[200] = rows[200].replace(",23,", ",loud,")
+    rows[300] = ""
+    path = tmp_path / "p.csv.gz"
+    with gzip.open(path, "wt", encoding="utf-8") as fh:
+        fh.write(HEAD + "\n".join(rows))  # no line end after the last row
+    monkeypatch.setattr(csvread, "PIECE_BYTES", piece_bytes)
+    got = read_spots(path, chunk_rows=50)
+    assert got.summary.rows_read == 400
+    monkeypatch.setattr(csvread, "arrow_chunks", csvread.pandas_chunks)
+    ref = read_spots(path, chunk_rows=50)
+    pdt.assert_frame_equal(got.spots, ref.spots)
+    pdt.assert_frame_equal(got.rejects, ref.rejects)
+    assert got.summary == ref.summary
+    assert got.rejects[C.SOURCE_ROW].tolist() == [11, 201, 301]
+    _balanced(got)
