@@ -505,7 +505,8 @@ def ingest_to_parquet(paths, out_path, *, chunk_rows: int = 1_000_000, rejects_p
         # numbers with few distinct values (times, positions of locators, frequency, SNR,
         # power, drift) are dictionary-encoded too: smaller and faster to write than plain
         # + snappy; distance and bearings (a value per pair) are written plain, as snappy
-        # does not shrink them; the row numbers as deltas (they count up)
+        # does not shrink them; the row numbers as deltas (they count up); values are
+        # encoded 65,536 at a time (the default 1,024 costs a tenth more CPU)
         few = [C.TIME, C.SLOT, C.TX_LAT, C.TX_LON, C.RX_LAT, C.RX_LON, C.FREQ, C.SNR,
                C.POWER, C.DRIFT]
         raw = [C.DISTANCE, C.BEARING, C.REVERSE_BEARING]
@@ -513,7 +514,8 @@ def ingest_to_parquet(paths, out_path, *, chunk_rows: int = 1_000_000, rejects_p
                               compression={n: "none" if n in raw else "snappy"
                                            for n in C.CANONICAL},
                               column_encoding={C.SOURCE_ROW: "DELTA_BINARY_PACKED"},
-                              write_statistics=plain) as writer, \
+                              write_statistics=plain,
+                              write_batch_size=1 << 16) as writer, \
                 ThreadPoolExecutor(max_workers=1) as pool:
             wrote, pending = False, None
             for spots, rejects in _iter_chunk_columns(paths, chunk_rows=chunk_rows,
