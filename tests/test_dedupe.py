@@ -70,3 +70,11 @@ def test_day_keys_forget_old_days_and_refuse_reports_older_than_the_window():
         keys.duplicates(np.array([5], dtype=np.uint64), np.array([0]), np.array([9]), "f.csv")
     with pytest.raises(UsageError):
         dedupe.DayKeys(0)
+
+
+def test_sort_hashes_equals_numpy_sort():
+    rng = np.random.default_rng(5)
+    for n in (10, 70_000, 200_000):
+        h = rng.integers(0, 2**63, n, dtype=np.int64).astype(np.uint64) * np.uint64(2)
+        h[: n // 10] = h[-(n // 10):]  # repeats
+        np.testing.assert_array_equal(dedupe.sort_hashes(h), np.sort(h))
