@@ -156,6 +156,30 @@ def _pieces(source, size: int | None):
         yield data[:cut]
 
 
+def _file_pieces(f, size: int | None):
+    """Yield a seekable file in pieces of about ``size`` bytes that end at a line end, as
+    pyarrow buffers read straight from the file (each piece starts where the last line end
+    of the one before was; no bytes are copied to join pieces)."""
+    total, pos = f.size(), 0
+    while pos < total:
+        want = total - pos if not size else size
+        while True:
+            f.seek(pos)
+            buf = f.read_buffer(min(want, total - pos))
+            if pos + buf.size >= total:
+                cut = buf.size
+                break
+            tail = buf.slice(max(0, buf.size - (1 << 16))).to_pybytes()
+            k = tail.rfind(b"\n")
+            if k >= 0:
+                cut = buf.size - len(tail) + k + 1
+                if cut > 0:
+                    break
+            want *= 2  # no line end near the end of the piece: read more
+        yield buf.slice(0, cut)
+        pos += cut
+
+
 def arrow_chunks(layout: _Layout, chunk_rows: int | None,
                  numbers: tuple = ()) -> Iterator[tuple[TextChunk, list]]:
     """Chunks read by pyarrow's CSV reader; yields (chunk, skipped lines). Rows with too few
@@ -171,7 +195,9 @@ def arrow_chunks(layout: _Layout, chunk_rows: int | None,
     """
     import pyarrow as pa
 
-    source = pa.input_stream(str(layout.path), compression=layout.compression)
+    plain = layout.compression is None
+    source = pa.OSFile(str(layout.path)) if plain else pa.input_stream(
+        str(layout.path), compression=layout.compression)
     tables, bad, rows = [], [], 0
 
     def emit():
@@ -186,9 +212,11 @@ def arrow_chunks(layout: _Layout, chunk_rows: int | None,
     try:
         head = source.read(1 << 16)
         line_bytes = max(len(head), 1) / max(head.count(b"\n"), 1)
+        size = _piece_bytes(chunk_rows, line_bytes)
         lines_before = 0  # lines of the file before the piece (heading included)
         first = True
-        for piece in _pieces(_Prepend(head, source), _piece_bytes(chunk_rows, line_bytes)):
+        pieces = _file_pieces(source, size) if plain else _pieces(_Prepend(head, source), size)
+        for piece in pieces:
             skip = layout.header_lines if first else 0
             while True:
                 try:
@@ -205,7 +233,7 @@ def arrow_chunks(layout: _Layout, chunk_rows: int | None,
             tables.append(table)
             bad.extend((lines_before + line, msg) for line, msg in piece_bad)
             rows += table.num_rows
-            lines_before += piece.count(b"\n")
+            lines_before += skip + table.num_rows + len(piece_bad)  # a line is one of these
             first = False
             if chunk_rows and rows >= chunk_rows:
                 rows = 0

@@ -516,9 +516,10 @@ def test_heading_line_only(tmp_path):
 
 
 @pytest.mark.parametrize("piece_bytes", [16, 300])
-def test_pieces_cut_at_line_ends_give_the_same_table(tmp_path, monkeypatch, piece_bytes):
+@pytest.mark.parametrize("gz", [True, False])
+def test_pieces_cut_at_line_ends_give_the_same_table(tmp_path, monkeypatch, piece_bytes, gz):
     # the pyarrow reader cuts the file into pieces at line ends and gathers them into
-    # chunks: pieces shorter than a line (16 bytes) or a few lines long, a gzip file, a
+    # chunks: pieces shorter than a line (16 bytes) or a few lines long, gzip or plain, a
     # row with too many fields, an odd SNR and a blank line give the same table, rejects
     # (row numbers included) and summary as the pandas reader
     from spotkit import csvread
@@ -528,8 +529,8 @@ def test_pieces_cut_at_line_ends_give_the_same_table(tmp_path, monkeypatch, piec
     rows[10] += ",extra"
     rows[200] = rows[200].replace(",23,", ",loud,")
     rows[300] = ""
-    path = tmp_path / "p.csv.gz"
-    with gzip.open(path, "wt", encoding="utf-8") as fh:
+    path = tmp_path / ("p.csv.gz" if gz else "p.csv")
+    with (gzip.open(path, "wt", encoding="utf-8") if gz else open(path, "w")) as fh:
         fh.write(HEAD + "\n".join(rows))  # no line end after the last row
     monkeypatch.setattr(csvread, "PIECE_BYTES", piece_bytes)
     got = read_spots(path, chunk_rows=50)
