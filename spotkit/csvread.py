@@ -288,7 +288,7 @@ def _read_piece(layout: _Layout, piece: bytes, skip: int, threads: bool, numbers
         table = pacsv.read_csv(
             pa.py_buffer(piece),
             read_options=pacsv.ReadOptions(column_names=names, skip_rows=skip,
-                                           block_size=max(1 << 20, len(piece) // 8 + 1),
+                                           block_size=max(1 << 20, len(piece) // 2 + 1),
                                            use_threads=threads, encoding=encoding),
             parse_options=pacsv.ParseOptions(delimiter=layout.sep, invalid_row_handler=handler,
                                              ignore_empty_lines=False),
