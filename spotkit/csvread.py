@@ -187,7 +187,8 @@ def arrow_chunks(layout: _Layout, chunk_rows: int | None,
 
     The file is cut at line ends into pieces of about :data:`PIECE_BYTES`, each parsed with
     several threads, and the pieces are gathered into chunks of at least ``chunk_rows``
-    rows. Threads cannot tell the line number of a row with the wrong number of fields, so
+    rows (the first chunk is the first piece alone, so that the work after reading starts
+    early). Threads cannot tell the line number of a row with the wrong number of fields, so
     a piece holding such a row is parsed again in one thread. The columns at positions
     ``numbers`` are parsed as float64 (cheaper than text for short numbers; an empty cell is
     NaN) until a cell is not a plain finite decimal number; from that piece on, they are
@@ -198,7 +199,7 @@ def arrow_chunks(layout: _Layout, chunk_rows: int | None,
     plain = layout.compression is None
     source = pa.OSFile(str(layout.path)) if plain else pa.input_stream(
         str(layout.path), compression=layout.compression)
-    tables, bad, rows = [], [], 0
+    tables, bad, rows, emitted = [], [], 0, False
 
     def emit():
         table = pa.concat_tables(tables) if len(tables) > 1 else tables[0]
@@ -226,7 +227,7 @@ def arrow_chunks(layout: _Layout, chunk_rows: int | None,
                 except _NotPlainNumbers:
                     numbers = ()
                     if tables:  # the pieces so far hold numbers: a chunk of their own
-                        rows = 0
+                        rows, emitted = 0, True
                         yield emit()
                     continue
                 break
@@ -235,8 +236,8 @@ def arrow_chunks(layout: _Layout, chunk_rows: int | None,
             rows += table.num_rows
             lines_before += skip + table.num_rows + len(piece_bad)  # a line is one of these
             first = False
-            if chunk_rows and rows >= chunk_rows:
-                rows = 0
+            if chunk_rows and (rows >= chunk_rows or not emitted):
+                rows, emitted = 0, True  # the first piece alone: the pipeline starts early
                 yield emit()
         if tables or bad or not chunk_rows:
             if not tables:
