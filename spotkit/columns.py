@@ -65,6 +65,9 @@ COUNT = "count"
 KINDS = ("both", "only_a", "only_b")
 #: before/after design: KIND of a target-minus-control SNR observed before / after the change
 PERIOD_KINDS = ("before", "after")
+#: before/after design: KIND of an observation before / after the change where the target
+#: was on the air but not heard (VALUE: upper bound of its target-minus-control SNR [dB])
+PERIOD_BOUND_KINDS = ("before_below", "after_below")
 #: compressed pair table: pairs in which A (B) was heard exactly at its receiver's decode
 #: threshold (VALUE 0); used for the threshold-density correction of spotkit.compare
 EDGE_KINDS = ("edge_a", "edge_b")

@@ -66,8 +66,8 @@ Design = Literal["simultaneous", "alternating", "receive", "before-after"]
 DESIGNS = ("simultaneous", "alternating", "receive", "before-after")
 
 #: compressed pair table, before/after design: KIND of an observation where the target was
-#: on the air but not heard (VALUE: upper bound of its target-minus-control SNR [dB])
-PERIOD_BOUND_KINDS = ("before_below", "after_below")
+#: on the air but not heard (the glossary's values, kept here for older imports)
+PERIOD_BOUND_KINDS = C.PERIOD_BOUND_KINDS
 
 #: Group keys accepted by :func:`add_group_keys` / :func:`summarise_pairs`.
 GROUP_KEYS = ("band", "distance", "bearing", "hour", "elevation", "light", "field", "square",
@@ -76,6 +76,8 @@ HourBasis = Literal["utc", "local"]
 
 DEFAULT_DISTANCE_EDGES = (0.0, 1000.0, 3000.0, 6000.0, 20100.0)
 DEFAULT_ELEVATION_EDGES = (0.0, 5.0, 10.0, 20.0, 40.0, 90.0)
+#: before/after design: length of the day blocks resampled for day-to-day changes [h]
+DEFAULT_DAY_HOURS = 24.0
 
 _SLOT_NS = C.SLOT_MINUTES * 60 * 1_000_000_000
 _DAY_NS = 86400 * 1_000_000_000
@@ -812,6 +814,17 @@ def _bin(x: np.ndarray, edges: np.ndarray):
     return np.where(ok, edges[i], np.nan), np.where(ok, edges[i + 1], np.nan)
 
 
+def _positive_hours(hours) -> float:
+    try:
+        h = float(hours)
+    except (TypeError, ValueError):
+        h = float("nan")
+    if not (np.isfinite(h) and h * 3600 >= C.SLOT_MINUTES * 60):
+        raise UsageError(f"day_hours must be at least one slot ({C.SLOT_MINUTES} min), got "
+                         f"{hours!r}")
+    return h
+
+
 def parse_by(by) -> tuple[str, ...]:
     """Normalise a ``by`` argument (``"band,distance"`` or a sequence) to a tuple of keys."""
     if by is None:
@@ -903,7 +916,8 @@ def add_group_keys(pairs: pd.DataFrame, by=(), *,
     return out
 
 
-def summarise_pairs(pairs: pd.DataFrame, by=(), **group_options) -> pd.DataFrame:
+def summarise_pairs(pairs: pd.DataFrame, by=(), *, day_hours: float = DEFAULT_DAY_HOURS,
+                    **group_options) -> pd.DataFrame:
     """Compress a pairs table into counts of (group, cluster, kind, value).
 
     ``both``: value = SNR_B - SNR_A (the difference); ``only_a``: LIMIT_B - SNR_A (an upper
@@ -911,7 +925,11 @@ def summarise_pairs(pairs: pd.DataFrame, by=(), **group_options) -> pd.DataFrame
     ``edge_a`` / ``edge_b`` (value 0) count the pairs in which A / B was heard exactly at
     its receiver's decode threshold (for the correction in :mod:`spotkit.compare`; they are
     not pairs and not counted in the pair totals). Before/after pairs give
-    kinds ``before`` / ``after`` with the relative SNR as value. Values are rounded to
+    kinds ``before`` / ``after`` with the relative SNR as value and ``before_below`` /
+    ``after_below`` (:data:`spotkit.columns.PERIOD_BOUND_KINDS`) with its upper bound, and
+    one more column, ``C.SLOT``: the start of the block of ``day_hours`` (counted from
+    00:00 UTC, 1 January 1970; with 24 h the UTC date) the observation falls in, so that
+    :mod:`spotkit.compare` can resample days as well as receivers. Values are rounded to
     1e-6 dB before counting. The table is mergeable: tables of disjoint parts of the data
     (e.g. Dask partitions) combine by concatenating and summing ``C.COUNT`` over the other
     columns (:func:`merge_summaries`).
@@ -922,28 +940,35 @@ def summarise_pairs(pairs: pd.DataFrame, by=(), **group_options) -> pd.DataFrame
         From :func:`pair_spots`.
     by : str or sequence of str
         Group keys (:func:`add_group_keys`, whose keyword options ``group_options`` are).
+    day_hours : float
+        Before/after design: length of the day blocks [h] (default 24: UTC dates).
 
     Returns
     -------
     pandas.DataFrame
-        Columns :func:`group_columns` ``(by)`` + ``C.CLUSTER``, ``C.KIND``, ``C.VALUE`` [dB],
-        ``C.COUNT``. ``attrs["set_aside"]`` counts pairs outside every group bin.
+        Columns :func:`group_columns` ``(by)`` (+ ``C.SLOT`` [UTC], before/after) +
+        ``C.CLUSTER``, ``C.KIND``, ``C.VALUE`` [dB], ``C.COUNT``. ``attrs["set_aside"]``
+        counts pairs outside every group bin.
     """
     keys = parse_by(by)
     df = add_group_keys(pairs, keys, **group_options) if keys else pairs
     gcols = group_columns(keys)
     sa = df[C.SNR_A].to_numpy(dtype=float)
     sb = df[C.SNR_B].to_numpy(dtype=float)
+    block = None
     if C.KIND in df.columns:  # before/after
         after = (df[C.KIND].astype(str) == "after").to_numpy()
         obs = np.where(after, sb, sa)
         bound = np.where(after, df[C.LIMIT_B].to_numpy(dtype=float),
                          df[C.LIMIT_A].to_numpy(dtype=float))
         heard = ~np.isnan(obs)
-        kcode = after.astype(np.int64) + 2 * (~heard)  # into PERIOD_KINDS + PERIOD_BOUND_KINDS
+        kcode = after.astype(np.int64) + 2 * (~heard)  # into C.PERIOD_KINDS + C.PERIOD_BOUND_KINDS
         value = np.where(heard, obs, bound)
-        cats = list(C.PERIOD_KINDS) + list(PERIOD_BOUND_KINDS)
+        cats = list(C.PERIOD_KINDS) + list(C.PERIOD_BOUND_KINDS)
         rows = np.arange(len(df))
+        # the day block of each observation (for the day-to-day part of the interval)
+        block_ns = int(round(_positive_hours(day_hours) * 3.6e12))
+        block = (_ns(df[C.SLOT]) // block_ns) * block_ns
     else:
         ha, hb = ~np.isnan(sa), ~np.isnan(sb)
         la = df[C.LIMIT_A].to_numpy(dtype=float)
@@ -980,10 +1005,14 @@ def summarise_pairs(pairs: pd.DataFrame, by=(), **group_options) -> pd.DataFrame
         return df[col].to_numpy()[sel]
 
     frame = pd.DataFrame({col: take(col) for col in gcols})
+    if block is not None:
+        frame[C.SLOT] = _to_utc(block[sel]).array
     frame[C.CLUSTER] = take(C.CLUSTER)
     frame[C.KIND] = pd.Categorical.from_codes(kcode[ok], categories=cats)
     frame[C.VALUE] = value[ok]
-    counts = (frame.groupby(gcols + [C.CLUSTER, C.KIND, C.VALUE], observed=True, sort=True)
+    day = [C.SLOT] if block is not None else []
+    counts = (frame.groupby(gcols + day + [C.CLUSTER, C.KIND, C.VALUE], observed=True,
+                            sort=True)
               .size().rename(C.COUNT).reset_index())
     counts[C.COUNT] = counts[C.COUNT].astype(np.int64)
     counts.attrs["set_aside"] = set_aside
@@ -1001,6 +1030,7 @@ def merge_summaries(tables) -> pd.DataFrame:
 
 
 __all__ = ["DESIGNS", "GROUP_KEYS", "PAIR_COLUMNS", "PERIOD_BOUND_KINDS",
-           "DEFAULT_DISTANCE_EDGES", "DEFAULT_ELEVATION_EDGES", "pair_spots",
+           "DEFAULT_DISTANCE_EDGES", "DEFAULT_ELEVATION_EDGES", "DEFAULT_DAY_HOURS",
+           "pair_spots",
            "receiver_thresholds", "read_schedule", "schedule_antennas", "parse_by",
            "group_columns", "add_group_keys", "summarise_pairs", "merge_summaries"]

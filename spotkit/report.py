@@ -52,7 +52,9 @@ _DESIGN_WORDS = {
         "One antenna was changed at a moment. Its reports before and after are compared "
         "relative to other stations heard by the same receivers in the same slots. This "
         "design is weaker: propagation, the control stations and the receivers all change "
-        "between the two periods, and censoring is not modelled."),
+        "between the two periods. A slot where the target was on the air but not heard "
+        "counts as an upper bound; the interval resamples days as well as receivers, and "
+        "with a single day in a period none is given."),
 }
 
 _METHOD_WORDS = [
