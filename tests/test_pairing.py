@@ -236,6 +236,31 @@ def test_before_after_target_on_the_air_but_not_heard_is_a_bound():
     # heard: -17 - (-16) = -1 dB before; -14 + 16 = +2 dB after
     assert got == {"before": -1.0, "after": 2.0, "before_below": -16.0,
                    "after_below": -16.0}
+    assert set(counts[C.KIND].astype(str)) == set(C.PERIOD_KINDS + C.PERIOD_BOUND_KINDS)
+
+
+def test_before_after_summary_keeps_the_day_block():
+    # slots 0 and 1 on 2 March, slots 720 and 1080 (2 min each: 00:00 and 12:00 UTC) on
+    # 3 March; the change at 00:00 on 3 March
+    rows = []
+    for i in (0, 1, 720, 1080):
+        rows.append((i, "Q1AAA", "JN58", "Q2RX", "IO91", "20m", -10, 37))
+        rows.append((i, "Q7CTL", "JN59", "Q2RX", "IO91", "20m", -15, 30))
+    p = pair_spots(make_spots(rows), "before-after", "Q1AAA",
+                   change_at="2026-03-03T00:00Z")
+    day = pd.Timedelta(days=1)
+    counts = summarise_pairs(p, ())
+    assert list(counts.columns) == [C.SLOT, C.CLUSTER, C.KIND, C.VALUE, C.COUNT]
+    assert list(counts[C.SLOT]) == [T0, T0 + day]  # UTC dates (default 24 h blocks)
+    assert list(counts[C.COUNT]) == [2, 2]
+    half = summarise_pairs(p, (), day_hours=12)
+    assert list(half[C.SLOT]) == [T0, T0 + day, T0 + 1.5 * day]
+    assert list(half[C.COUNT]) == [2, 1, 1]
+    # mergeable: the two halves of the pairs sum to the whole
+    merged = merge_summaries([summarise_pairs(p.iloc[:2], ()), summarise_pairs(p.iloc[2:], ())])
+    pd.testing.assert_frame_equal(merged, counts.reset_index(drop=True), check_dtype=False)
+    with pytest.raises(UsageError, match="day_hours"):
+        summarise_pairs(p, (), day_hours=0)
 
 
 def test_group_keys(simultaneous):
