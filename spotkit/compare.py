@@ -100,13 +100,15 @@ four days per period the band estimates were off by 0.25 dB (10 m) and 0.13 dB (
 40 band x seed cases (seeds 100-119; mean widths 0.45 and 0.27 dB), the two-way interval in
 96 % of 80 (10 m 92.5 %, 20 m 100 %; mean widths 0.96 and 0.61 dB - mildly conservative on
 20 m, as the pigeonhole bootstrap is expected to be). With two days per period: RMS 0.28
-and 0.22 dB, coverage TWO_DAY. With invented truth per band x distance cell and four days
-per period the cells with 12,000-40,000 reports were within 0.21 dB (two seeds; the earlier
-heard-only estimator up to 0.35 dB). With one day per period a band was off by up to 1.05
-dB and cells by up to 1.8 dB, with receivers-only intervals that missed the truth (now
-none is given): the change of propagation between the periods dominates, and censoring
-that is mostly paths closing (30-60 % of the slots) cannot be told apart from a weaker
-antenna. It stays the weaker design.
+and 0.22 dB, coverage 95 % of 80 (10 m 97.5 %, 20 m 92.5 %; widths 1.33 and 0.86 dB). With
+invented truth per band x distance cell and four days per period the cells with
+12,000-40,000 reports were within 0.21 dB (two seeds; the earlier heard-only estimator up
+to 0.35 dB). With one day per period (seeds 100-119) the band estimates were off by 0.28 dB
+RMS, by up to 0.78 dB (seed 5: 1.05 dB on 10 m, cells up to 1.8 dB), and the receivers-only
+interval covered the truth in only 85 % of 40 cases (now none is given): the change of
+propagation between the periods dominates, and censoring that is mostly paths closing
+(30-60 % of the slots) cannot be told apart from a weaker antenna. It stays the weaker
+design.
 
 Groups with a single cluster (e.g. ``by="receiver"``) get an interval from resampling
 their pairs as if independent, which is too narrow.

@@ -153,7 +153,12 @@ def test_before_after_is_weaker_and_says_so():
     assert "weaker" in res.verdicts()[0]
     # the censored observations are in the compressed table as bounds
     kinds = set(res.counts[C.KIND].astype(str))
-    assert {"before", "after", "before_below", "after_below"} <= kinds
+    assert set(C.PERIOD_KINDS + C.PERIOD_BOUND_KINDS) <= kinds
+    # one day per period: the day-to-day change cannot be measured - no interval, said so
+    assert np.isnan(res.overall[C.CI_LOW]) and np.isnan(res.overall[C.P_VALUE])
+    assert res.overall[C.NOTE].startswith("one day per period")
+    assert "without an interval (one day per period: the interval would leave out " \
+        "day-to-day propagation changes" in res.verdicts()[0]
 
 
 BA_TRUTH = {"20m": (0.5, 1.5, -1.0), "10m": (-0.5, 1.0, 2.0)}  # invented, dB
@@ -173,11 +178,29 @@ def test_before_after_recovers_band_and_cells_with_four_days_per_period():
     big = _cells(sim, res).query(f"{C.PAIRS} >= 10000")
     assert len(big) >= 3
     np.testing.assert_allclose(big[C.B_MINUS_A], big["b_minus_a_db_true"], atol=0.3)
+
+
+@pytest.mark.slow
+def test_before_after_interval_covers_the_band_truth_with_four_days_per_period():
+    """Four days per period, one true difference per band (invented): the two-way interval
+    (receivers x days within each period) covers the truth in at least 6 of 8 band x seed
+    cases here (measured: 8 of 8). Measured over seeds 100-139 (200 resamples): 96 % of 80 (10 m 92.5 %,
+    20 m 100 %); the receivers-only interval it replaces covered 75 % of 40 (seeds
+    100-119), about half as wide. Seed 7 is also a recovery check: both bands within the
+    issue's 0.3 dB (measured 0.05-0.23 dB over three seeds)."""
     truth = {"20m": 0.5, "10m": 2.0}
-    sim = simulate_spots("before-after", days=8, seed=7, difference_db=truth)
-    res = compare_antennas(sim.spots, **sim.compare_kwargs(), by="band", n_boot=50)
-    g = res.groups
-    np.testing.assert_allclose(g[C.B_MINUS_A], g[C.BAND].astype(str).map(truth), atol=0.3)
+    covered = []
+    for seed in (7, 1, 2, 3):
+        sim = simulate_spots("before-after", days=8, seed=seed, difference_db=truth)
+        res = compare_antennas(sim.spots, **sim.compare_kwargs(), by="band", n_boot=100,
+                               seed=seed)
+        g = res.groups
+        want = g[C.BAND].astype(str).map(truth)
+        if seed == 7:
+            np.testing.assert_allclose(g[C.B_MINUS_A], want, atol=0.3)
+        assert g[C.NOTE].str.startswith("4 days before and 4 after").all()
+        covered += list((g[C.CI_LOW] <= want) & (want <= g[C.CI_HIGH]))
+    assert len(covered) == 8 and sum(covered) >= 6
 
 
 @pytest.mark.slow
@@ -185,7 +208,7 @@ def test_before_after_recovers_band_and_cells_with_four_days_per_period():
                    "period - propagation (openness, daily conditions) changes between the "
                    "periods and the control stations' paths do not follow the target's; "
                    "off by about 1 dB on 10 m in this simulation although censoring is "
-                   "modelled")
+                   "modelled (the result now has no interval and says why)")
 def test_before_after_one_day_per_period_by_band():
     truth = {"20m": 0.5, "10m": 2.0}
     sim = simulate_spots("before-after", days=2, seed=5, difference_db=truth)
