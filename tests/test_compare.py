@@ -184,9 +184,9 @@ def test_before_after_recovers_band_and_cells_with_four_days_per_period():
 def test_before_after_interval_covers_the_band_truth_with_four_days_per_period():
     """Four days per period, one true difference per band (invented): the two-way interval
     (receivers x days within each period) covers the truth in at least 6 of 8 band x seed
-    cases here (measured: 8 of 8). Measured over seeds 100-139 (200 resamples): 96 % of 80 (10 m 92.5 %,
-    20 m 100 %); the receivers-only interval it replaces covered 75 % of 40 (seeds
-    100-119), about half as wide. Seed 7 is also a recovery check: both bands within the
+    cases here (measured: 8 of 8). Measured over seeds 100-139 (200 resamples): 96 % of
+    80 (10 m 92.5 %, 20 m 100 %); the receivers-only interval it replaces covered 75 % of
+    40 (seeds 100-119), about half as wide. Seed 7 is also a recovery check: both bands within the
     issue's 0.3 dB (measured 0.05-0.23 dB over three seeds)."""
     truth = {"20m": 0.5, "10m": 2.0}
     covered = []
