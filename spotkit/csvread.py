@@ -159,7 +159,8 @@ def _pieces(source, size: int | None):
 def _file_pieces(f, size: int | None):
     """Yield a seekable file in pieces of about ``size`` bytes that end at a line end, as
     pyarrow buffers read straight from the file (each piece starts where the last line end
-    of the one before was; no bytes are copied to join pieces)."""
+    of the one before was; no bytes are copied to join pieces), each with the number of
+    bytes left after it."""
     total, pos = f.size(), 0
     while pos < total:
         want = total - pos if not size else size
@@ -176,8 +177,8 @@ def _file_pieces(f, size: int | None):
                 if cut > 0:
                     break
             want *= 2  # no line end near the end of the piece: read more
-        yield buf.slice(0, cut)
         pos += cut
+        yield buf.slice(0, cut), total - pos
 
 
 def arrow_chunks(layout: _Layout, chunk_rows: int | None,
@@ -187,8 +188,9 @@ def arrow_chunks(layout: _Layout, chunk_rows: int | None,
 
     The file is cut at line ends into pieces of about :data:`PIECE_BYTES`, each parsed with
     several threads, and the pieces are gathered into chunks of at least ``chunk_rows``
-    rows (the first chunk is the first piece alone, so that the work after reading starts
-    early). Threads cannot tell the line number of a row with the wrong number of fields, so
+    rows (the first chunk is the first piece alone, and so are the pieces of the last
+    chunk of a plain file, so that the work after reading starts early and ends soon after
+    it). Threads cannot tell the line number of a row with the wrong number of fields, so
     a piece holding such a row is parsed again in one thread. The columns at positions
     ``numbers`` are parsed as float64 (cheaper than text for short numbers; an empty cell is
     NaN) until a cell is not a plain finite decimal number; from that piece on, they are
@@ -216,8 +218,10 @@ def arrow_chunks(layout: _Layout, chunk_rows: int | None,
         size = _piece_bytes(chunk_rows, line_bytes)
         lines_before = 0  # lines of the file before the piece (heading included)
         first = True
-        pieces = _file_pieces(source, size) if plain else _pieces(_Prepend(head, source), size)
-        for piece in pieces:
+        pieces = _file_pieces(source, size) if plain else (
+            (p, None) for p in _pieces(_Prepend(head, source), size))
+        chunk_bytes = (chunk_rows or 0) * line_bytes
+        for piece, left in pieces:
             skip = layout.header_lines if first else 0
             while True:
                 try:
@@ -236,8 +240,11 @@ def arrow_chunks(layout: _Layout, chunk_rows: int | None,
             rows += table.num_rows
             lines_before += skip + table.num_rows + len(piece_bad)  # a line is one of these
             first = False
-            if chunk_rows and (rows >= chunk_rows or not emitted):
-                rows, emitted = 0, True  # the first piece alone: the pipeline starts early
+            # the first piece alone, so that the pipeline starts early; the pieces of the
+            # last chunk one by one, so that it ends soon after the reading
+            if chunk_rows and (rows >= chunk_rows or not emitted
+                               or (left is not None and left < chunk_bytes)):
+                rows, emitted = 0, True
                 yield emit()
         if tables or bad or not chunk_rows:
             if not tables:
