@@ -32,8 +32,10 @@ states), so A and B may run at different powers.
     ``threshold - (power - 30) - control`` (``LIMIT_A`` before, ``LIMIT_B`` after; kinds
     ``"before_below"`` / ``"after_below"`` in the compressed table). Only receivers that
     heard the target on that band at some time get such rows (the path geometry comes from
-    their reports). This design is weaker than the others: propagation, the control
-    stations and the receivers all change between the periods.
+    their reports). The compressed table (:func:`summarise_pairs`) keeps the day block of
+    each observation, so that the interval can resample days as well as receivers. This
+    design is weaker than the others: propagation, the control stations and the receivers
+    all change between the periods.
 
 Censoring. A missing report is "not heard" only when that antenna was on the air in that
 slot and band (some receiver heard it there; alternating: the schedule says so too).
