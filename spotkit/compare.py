@@ -267,7 +267,9 @@ def estimate_groups(counts: pd.DataFrame, *, n_boot: int = 1000, seed: int = 0,
     ----------
     counts : pandas.DataFrame
         From :func:`spotkit.pairing.summarise_pairs` (possibly merged over partitions):
-        group-key columns, ``C.CLUSTER``, ``C.KIND``, ``C.VALUE`` [dB], ``C.COUNT``.
+        group-key columns, ``C.CLUSTER``, ``C.KIND``, ``C.VALUE`` [dB], ``C.COUNT``; in
+        the before/after design also ``C.SLOT``, the day block [UTC] (without it, or with
+        fewer than two days in a period, before/after groups get no interval).
     n_boot : int
         Bootstrap resamples of the clusters.
     seed : int
