@@ -82,6 +82,9 @@ def _add_ab_options(p, *, required: bool = True, title: str = "A/B comparison"):
     g.add_argument("--missed-reports", choices=["fit", "none"], default="fit",
                    help="allow a fitted share of one-sided pairs to be missing for reasons "
                    "other than the antenna, e.g. a path closing between slots (default fit)")
+    g.add_argument("--day-hours", type=float, default=24.0, metavar="HOURS",
+                   help="before-after design: length of the blocks of time resampled as "
+                   "days for the interval (default 24: UTC dates)")
     g.add_argument("--boot", type=int, default=1000, help="bootstrap resamples (default 1000)")
     g.add_argument("--seed", type=int, default=0, help="bootstrap seed (default 0)")
     g.add_argument("--min-pairs", type=int, default=30,
@@ -115,7 +118,7 @@ def _compare_kwargs(args) -> dict:
               layer_height_km=args.layer_height, window_slots=args.window,
               n_boot=args.boot, seed=args.seed, min_pairs=args.min_pairs,
               confidence=args.confidence, threshold_correction=args.threshold_correction,
-              missed_reports=args.missed_reports,
+              missed_reports=args.missed_reports, day_hours=args.day_hours,
               require_open_path=not args.no_open_path_check)
     if args.distance_edges:
         kw["distance_edges"] = _float_list(args.distance_edges, "--distance-edges")

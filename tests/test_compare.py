@@ -370,6 +370,27 @@ def test_cli_end_to_end(small_sim, tmp_path, capsys):
     assert "B-A dB" in capsys.readouterr().out
 
 
+@pytest.mark.slow
+def test_cli_before_after_day_hours(tmp_path, capsys):
+    # one UTC day per period: no interval; with 12-hour blocks as "days" the two-way
+    # bootstrap has two blocks per period and gives one (the option reaches the estimator)
+    sim = simulate_spots("before-after", days=2, seed=5, difference_db=1.5,
+                         bands=("20m",), n_receivers=150)
+    path = tmp_path / "spots.parquet"
+    sim.spots.to_parquet(path)
+    kw = sim.compare_kwargs()
+    low = {}
+    for hours in ("24", "12"):
+        out = tmp_path / f"r{hours}.json"
+        code = main(["compare", str(path), "--design", "before-after", "--a", kw["a"],
+                     "--change-at", str(kw["change_at"]), "--boot", "50",
+                     "--day-hours", hours, "--json", str(out)])
+        assert code == 0
+        low[hours] = json.loads(out.read_text())["overall"]["ci_low_db"]
+    capsys.readouterr()
+    assert low["24"] is None and isinstance(low["12"], float)
+
+
 def test_cli_bad_call_and_bad_option(small_sim, tmp_path, capsys):
     path = tmp_path / "spots.parquet"
     small_sim.spots.to_parquet(path)
