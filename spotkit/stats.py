@@ -34,8 +34,8 @@ import numpy as np
 from scipy import stats
 
 from .bootstrap import (
-    INTERVAL_METHODS, IntervalMethod, bootstrap_interval, bootstrap_p_value,
-    cluster_bootstrap_weights,
+    DRAWS, INTERVAL_METHODS, IntervalMethod, bootstrap_interval, bootstrap_p_value,
+    cluster_bootstrap_weights, stratified_bootstrap_weights,
 )
 from .censored import (
     SIGMA_FLOOR_DB, CensoredFit, censored_mixture_mle, censored_mixture_mle_batch,
@@ -544,6 +544,6 @@ __all__ = [
     "hodges_lehmann_ci", "sign_test", "mcnemar", "benjamini_hochberg", "wilson_interval",
     "censored_normal_mle", "censored_normal_mle_batch", "censored_mixture_mle",
     "censored_mixture_mle_batch", "normal_share", "cluster_bootstrap_weights",
-    "bootstrap_interval", "bootstrap_p_value", "SIGMA_FLOOR_DB", "INTERVAL_METHODS",
-    "IntervalMethod",
+    "stratified_bootstrap_weights", "bootstrap_interval", "bootstrap_p_value",
+    "SIGMA_FLOOR_DB", "INTERVAL_METHODS", "DRAWS", "IntervalMethod",
 ]
