@@ -40,6 +40,23 @@ def _balanced(res):
     assert s.accepted == len(res.spots) and s.rejected == len(res.rejects)
 
 
+def _many_rows(n):
+    """``n`` good data rows (invented Q calls) for the reader tests."""
+    return [f"2026-03-01 10:{2 * (i % 30):02d},Q{i % 7}AB,JN58td,Q{i % 5}XY,IO91lk,14.0971,"
+            f"{-20 + i % 31},23,{i % 3 - 1}" for i in range(n)]
+
+
+def _same_from_pandas_reader(res, path, monkeypatch, **kw):
+    """The result ``res`` of the pyarrow reader equals the pandas reader's on ``path``."""
+    from spotkit import csvread
+
+    monkeypatch.setattr(csvread, "arrow_chunks", csvread.pandas_chunks)
+    ref = read_spots(path, **kw)
+    pdt.assert_frame_equal(res.spots, ref.spots)
+    pdt.assert_frame_equal(res.rejects, ref.rejects)
+    assert res.summary == ref.summary
+
+
 # --- layouts -----------------------------------------------------------------------------------
 def test_basic_file_gives_canonical_table(data_dir):
     res = read_spots(data_dir / "ingest_basic.csv")
@@ -420,17 +437,11 @@ def test_path_columns_equal_geo_add_path_columns_across_chunks(tmp_path, monkeyp
 
 
 def test_both_readers_agree(data_dir, monkeypatch):
-    # the pyarrow streaming reader (comma/semicolon/tab files) and the pandas reader (all
-    # others) give the same table and rejects on a file with every kind of bad row
-    from spotkit import csvread
-
+    # the pyarrow reader (comma/semicolon/tab files) and the pandas reader (all others)
+    # give the same table and rejects on a file with every kind of bad row
     path = data_dir / "ingest_rejects.csv"
     fast = read_spots(path, chunk_rows=4)
-    monkeypatch.setattr(csvread, "arrow_chunks", csvread.pandas_chunks)
-    slow = read_spots(path, chunk_rows=4)
-    pdt.assert_frame_equal(fast.spots, slow.spots)
-    pdt.assert_frame_equal(fast.rejects, slow.rejects)
-    assert fast.summary == slow.summary
+    _same_from_pandas_reader(fast, path, monkeypatch, chunk_rows=4)
 
 
 @pytest.mark.parametrize("bad_rows", [(), (3,), (150, 151, 600), (1199,)])
@@ -440,19 +451,14 @@ def test_multithreaded_reader_rereads_for_row_numbers(tmp_path, monkeypatch, bad
     # same table and same rejects (with their row numbers) as the pandas reader
     from spotkit import csvread
 
-    rows = [f"2026-03-01 10:{2 * (i % 30):02d},Q{i % 7}AB,JN58td,Q{i % 5}XY,IO91lk,14.0971,"
-            f"{-20 + i % 31},23,{i % 3 - 1}" for i in range(1200)]
+    rows = _many_rows(1200)
     for r in bad_rows:
         rows[r - 1] = rows[r - 1] + ",extra"
     path = _write(tmp_path, "t.csv", HEAD + "\n".join(rows) + "\n")
     monkeypatch.setattr(csvread, "BLOCK_BYTES", 2048)
     fast = read_spots(path, chunk_rows=100)
     assert list(fast.rejects[C.SOURCE_ROW]) == list(bad_rows)
-    monkeypatch.setattr(csvread, "arrow_chunks", csvread.pandas_chunks)
-    slow = read_spots(path, chunk_rows=100)
-    pdt.assert_frame_equal(fast.spots, slow.spots)
-    pdt.assert_frame_equal(fast.rejects, slow.rejects)
-    assert fast.summary == slow.summary
+    _same_from_pandas_reader(fast, path, monkeypatch, chunk_rows=100)
     _balanced(fast)
 
 
@@ -464,19 +470,14 @@ def test_odd_numeric_cells_same_from_both_readers(tmp_path, monkeypatch, cell, r
     # pyarrow reader as from the pandas reader
     from spotkit import csvread
 
-    rows = [f"2026-03-01 10:{2 * (i % 30):02d},Q{i % 7}AB,JN58td,Q{i % 5}XY,IO91lk,14.0971,"
-            f"{-20 + i % 31},23,{i % 3 - 1}" for i in range(1000)]
+    rows = _many_rows(1000)
     parts = rows[row - 1].split(",")
     parts[6] = cell
     rows[row - 1] = ",".join(parts)
     path = _write(tmp_path, "n.csv", HEAD + "\n".join(rows) + "\n")
     monkeypatch.setattr(csvread, "BLOCK_BYTES", 2048)
     got = read_spots(path, chunk_rows=100)
-    monkeypatch.setattr(csvread, "arrow_chunks", csvread.pandas_chunks)
-    ref = read_spots(path, chunk_rows=100)
-    pdt.assert_frame_equal(got.spots, ref.spots)
-    pdt.assert_frame_equal(got.rejects, ref.rejects)
-    assert got.summary == ref.summary
+    _same_from_pandas_reader(got, path, monkeypatch, chunk_rows=100)
     _balanced(got)
     if cell not in (" -12", "-12 ", "1,5"):  # "1,5": one field too many
         assert got.rejects[C.REJECT_VALUE].tolist() == [cell]
@@ -524,8 +525,7 @@ def test_pieces_cut_at_line_ends_give_the_same_table(tmp_path, monkeypatch, piec
     # (row numbers included) and summary as the pandas reader
     from spotkit import csvread
 
-    rows = [f"2026-03-01 10:{2 * (i % 30):02d},Q{i % 7}AB,JN58td,Q{i % 5}XY,IO91lk,14.0971,"
-            f"{-20 + i % 31},23,{i % 3 - 1}" for i in range(400)]
+    rows = _many_rows(400)
     rows[10] += ",extra"
     rows[200] = rows[200].replace(",23,", ",loud,")
     rows[300] = ""
@@ -535,10 +535,6 @@ def test_pieces_cut_at_line_ends_give_the_same_table(tmp_path, monkeypatch, piec
     monkeypatch.setattr(csvread, "PIECE_BYTES", piece_bytes)
     got = read_spots(path, chunk_rows=50)
     assert got.summary.rows_read == 400
-    monkeypatch.setattr(csvread, "arrow_chunks", csvread.pandas_chunks)
-    ref = read_spots(path, chunk_rows=50)
-    pdt.assert_frame_equal(got.spots, ref.spots)
-    pdt.assert_frame_equal(got.rejects, ref.rejects)
-    assert got.summary == ref.summary
+    _same_from_pandas_reader(got, path, monkeypatch, chunk_rows=50)
     assert got.rejects[C.SOURCE_ROW].tolist() == [11, 201, 301]
     _balanced(got)
