@@ -3,7 +3,7 @@
 1. A coverage map of 50,000 distinct receivers with their great-circle paths
    (target: render < 15 s on 2 cores).
 2. A difference map aggregated from 1 million pairs: compress the pairs per band and locator
-   square (spotkit.pairing.summarise_pairs), estimate B minus A per square
+   square (spotkit.grouping.summarise_pairs), estimate B minus A per square
    (spotkit.compare.estimate_groups) and draw it (target: render < 15 s; the aggregation
    time is printed beside it).
 
@@ -92,7 +92,7 @@ def main(argv=None) -> int:
 
     from spotkit import maps
     from spotkit.compare import estimate_groups
-    from spotkit.pairing import summarise_pairs
+    from spotkit.grouping import summarise_pairs
 
     rng = np.random.default_rng(20261201)
     out = tempfile.mkdtemp(prefix="bench_maps_")

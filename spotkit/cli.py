@@ -101,7 +101,7 @@ def _float_list(text, option):
 
 
 def _by_keys(text: str) -> list[str]:
-    from .pairing import parse_by
+    from .grouping import parse_by
 
     by = [k for k in (text or "").replace(" ", "").split(",") if k]
     try:
@@ -865,7 +865,7 @@ def _cmd_archive(args) -> int:
         return EXIT_OK
     by = [k for k in args.by.replace(" ", "").split(",") if k]
     try:
-        from .pairing import parse_by
+        from .grouping import parse_by
         parse_by(by)
     except ValueError as exc:
         if isinstance(exc, UsageError):

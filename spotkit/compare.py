@@ -156,9 +156,9 @@ from . import columns as C
 from . import stats
 from .bootstrap import stratified_bootstrap_weights
 from .errors import NoPairsError, UsageError
-from .pairing import (DEFAULT_DAY_HOURS, DEFAULT_DISTANCE_EDGES, DEFAULT_ELEVATION_EDGES,
-                      Design, HourBasis, group_columns, pair_spots, parse_by,
-                      summarise_pairs)
+from .grouping import (DEFAULT_DAY_HOURS, DEFAULT_DISTANCE_EDGES, DEFAULT_ELEVATION_EDGES,
+                       HourBasis, group_columns, parse_by, summarise_pairs)
+from .pairing import Design, pair_spots
 
 _KIND_CODE = {"both": 0, "only_a": 1, "only_b": -1, "edge_a": 2, "edge_b": -2}
 ThresholdCorrection = Literal["edge", "none"]
@@ -266,7 +266,7 @@ def estimate_groups(counts: pd.DataFrame, *, n_boot: int = 1000, seed: int = 0,
     Parameters
     ----------
     counts : pandas.DataFrame
-        From :func:`spotkit.pairing.summarise_pairs` (possibly merged over partitions):
+        From :func:`spotkit.grouping.summarise_pairs` (possibly merged over partitions):
         group-key columns, ``C.CLUSTER``, ``C.KIND``, ``C.VALUE`` [dB], ``C.COUNT``; in
         the before/after design also ``C.SLOT``, the day block [UTC] (without it, or with
         fewer than two days in a period, before/after groups get no interval).
@@ -879,7 +879,7 @@ def compare_antennas(spots: pd.DataFrame, design: Design, a: str, b: str | None 
     change_at : str or pandas.Timestamp, optional
         Before-after design's change time (UTC).
     by : str or sequence of str
-        Group keys (:data:`spotkit.pairing.GROUP_KEYS`).
+        Group keys (:data:`spotkit.grouping.GROUP_KEYS`).
     distance_edges : sequence of float
         Distance bin edges [km].
     bearing_width_deg : float

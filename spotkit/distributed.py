@@ -18,7 +18,7 @@ no second implementation of the maths, so the two paths give the same answers:
   merging, not approximations. The histogram is small because reported SNR is whole dB and
   power sits on a 0/3/7 dBm ladder (common practice).
 * **comparison** (:func:`compare_dask`): per partition ``pairing.pair_spots`` then
-  ``pairing.summarise_pairs`` (the compressed pair table of group x cluster x kind x value
+  ``grouping.summarise_pairs`` (the compressed pair table of group x cluster x kind x value
   counts), merged by summing counts, then ``compare.estimate_groups`` once on the merged
   table.
 
@@ -579,7 +579,7 @@ class ComparePartials:
     Attributes
     ----------
     overall, counts : pandas.DataFrame
-        Compressed pair tables (:func:`spotkit.pairing.summarise_pairs`) without and with
+        Compressed pair tables (:func:`spotkit.grouping.summarise_pairs`) without and with
         the group keys.
     clusters : set of str
         Clusters (bootstrap units) that have pairs.
@@ -640,7 +640,7 @@ def compare_partials(df: pd.DataFrame, design: str, a: str, b: str | None = None
                      group_options: dict | None = None) -> ComparePartials:
     """Pair one partition and compress its pairs (the per-partition work of a comparison).
 
-    Runs :func:`spotkit.pairing.pair_spots` and :func:`spotkit.pairing.summarise_pairs`.
+    Runs :func:`spotkit.pairing.pair_spots` and :func:`spotkit.grouping.summarise_pairs`.
     A partition without the calls the design needs gives empty tables; so does one where
     nothing pairs. With ``thresholds`` (receiver thresholds over the whole data, see
     :func:`thresholds_from_partials`) the censoring limits are moved from the partition's
@@ -649,7 +649,8 @@ def compare_partials(df: pd.DataFrame, design: str, a: str, b: str | None = None
     those of the whole table.
     """
     from .errors import NoPairsError
-    from .pairing import pair_spots, receiver_thresholds, summarise_pairs
+    from .grouping import summarise_pairs
+    from .pairing import pair_spots, receiver_thresholds
 
     group_options = group_options or {}
     empty = _empty_compare(by, group_options)
@@ -690,13 +691,13 @@ def compare_partials(df: pd.DataFrame, design: str, a: str, b: str | None = None
 
 
 def _parse_by(by) -> tuple:
-    from .pairing import parse_by
+    from .grouping import parse_by
 
     return parse_by(by)
 
 
 def _empty_compare(by, group_options) -> ComparePartials:
-    from .pairing import group_columns
+    from .grouping import group_columns
 
     cols = list(group_columns(_parse_by(by))) + [C.CLUSTER, C.KIND, C.VALUE, C.COUNT]
     empty = pd.DataFrame({c: pd.Series(dtype=object) for c in cols})
@@ -704,8 +705,8 @@ def _empty_compare(by, group_options) -> ComparePartials:
 
 
 def combine_compare(partials: Iterable[ComparePartials]) -> ComparePartials:
-    """Merge comparison partials: sum counts (:func:`spotkit.pairing.merge_summaries`)."""
-    from .pairing import merge_summaries
+    """Merge comparison partials: sum counts (:func:`spotkit.grouping.merge_summaries`)."""
+    from .grouping import merge_summaries
 
     parts = list(partials)
     if not parts:
@@ -741,7 +742,8 @@ def finish_compare(merged: ComparePartials, design: str, a: str, b: str | None =
     """
     from .compare import RESULT_COLUMNS, ComparisonResult, estimate_groups
     from .errors import NoPairsError
-    from .pairing import PAIR_COLUMNS, group_columns
+    from .grouping import group_columns
+    from .pairing import PAIR_COLUMNS
 
     keys = _parse_by(by)
     if len(merged.overall) == 0:
@@ -805,7 +807,7 @@ def compare_dask(source, design: str, a: str, b: str | None = None, *, by=(), sc
     """
     import dask
 
-    from .pairing import DEFAULT_DISTANCE_EDGES, DEFAULT_ELEVATION_EDGES
+    from .grouping import DEFAULT_DISTANCE_EDGES, DEFAULT_ELEVATION_EDGES
 
     keys = _parse_by(by)
     group_options = dict(

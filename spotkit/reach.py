@@ -39,7 +39,8 @@ import pandas as pd
 
 from . import columns as C
 from .errors import UsageError
-from .pairing import DEFAULT_DISTANCE_EDGES, Design, add_group_keys, pair_spots
+from .grouping import DEFAULT_DISTANCE_EDGES, add_group_keys
+from .pairing import Design, pair_spots
 from .stats import wilson_interval
 
 _ANTENNAS = (("A", C.HEARD_A), ("B", C.HEARD_B))

@@ -18,7 +18,8 @@ from spotkit import columns as C
 from spotkit.cli import main
 from spotkit.compare import RESULT_COLUMNS, compare_antennas, estimate_groups
 from spotkit.errors import InputError, NoPairsError
-from spotkit.pairing import merge_summaries, pair_spots, summarise_pairs
+from spotkit.grouping import merge_summaries, summarise_pairs
+from spotkit.pairing import pair_spots
 from spotkit.simulate import simulate_spots
 
 sys.path.insert(0, str(Path(__file__).resolve().parent))

@@ -8,9 +8,9 @@ import pytest
 from spotkit import columns as C
 from spotkit.errors import InputError, NoPairsError, SpotkitWarning, UsageError
 from spotkit.geo import add_path_columns
-from spotkit.pairing import (add_group_keys, merge_summaries, pair_spots, parse_by,
-                             read_schedule, receiver_thresholds, schedule_antennas,
-                             summarise_pairs)
+from spotkit.grouping import add_group_keys, merge_summaries, parse_by, summarise_pairs
+from spotkit.pairing import (pair_spots, read_schedule, receiver_thresholds,
+                             schedule_antennas)
 
 T0 = pd.Timestamp("2026-03-02T00:00Z")
 
