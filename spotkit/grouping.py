@@ -272,6 +272,17 @@ def merge_summaries(tables) -> pd.DataFrame:
     return df.groupby(keys, observed=True, sort=True, dropna=False)[C.COUNT].sum().reset_index()
 
 
+def group_index(counts: pd.DataFrame, keys: list[str]):
+    """(group code of each row, one row per group with its key values, sorted); one
+    group when ``keys`` is empty."""
+    if not keys:
+        return np.zeros(len(counts), dtype=np.int64), pd.DataFrame(index=[0])
+    codes, uniq = pd.factorize(pd.MultiIndex.from_frame(counts[keys]), sort=True)
+    frame = uniq.to_frame(index=False)
+    frame.columns = keys
+    return codes.astype(np.int64), frame
+
+
 __all__ = ["GROUP_KEYS", "DEFAULT_DISTANCE_EDGES", "DEFAULT_ELEVATION_EDGES",
            "DEFAULT_DAY_HOURS", "parse_by", "group_columns", "add_group_keys",
-           "summarise_pairs", "merge_summaries"]
+           "summarise_pairs", "merge_summaries", "group_index"]
