@@ -45,12 +45,14 @@ of 64-bit key hashes per chunk behind a byte map (:mod:`spotkit.dedupe`); pair g
 from a dense table of locator numbers, each pair solved once (:mod:`spotkit.pathcache`);
 Parquet chunks are built straight from the arrays and written in a third thread.
 
-Speed (benchmarks/bench_ingest.py, 10 million rows, 646 MB, 2-core machine, quiet): 7.9 to
-8.1 s streamed to Parquet (1.2-1.3 million rows/s), 3.8-4.0x the 2.0-2.1 s of a bare
-``pandas.read_csv`` of the same file. The target of 3x is not met: the ingest does about
-14 s of CPU work on two cores (parsing 5.5, writing Parquet 2.7, pair geometry 1.7,
-duplicates 1.5, checks 0.6) against 3.7 s for the bare read, which itself runs on both
-cores. Peak memory 1.2 GB at 1 million rows per chunk (target < 6 GB).
+Speed (benchmarks/bench_ingest.py, 10 million rows, 646 MB, 2-core machine with nothing
+else running; best of three interleaved runs): 6.8 to 8.6 s streamed to Parquet (1.2-1.5
+million rows/s) against 1.6 to 1.9 s for a bare ``pandas.read_csv`` of the same file,
+4.2-4.5x (one single run came to 3.2x). The target of 3x is not met: the ingest does
+12-15 s of CPU work on two cores (pyarrow's parse about 4, writing Parquet 2.3, pair
+geometry 1, the checks, hashes, duplicate sort and gathers about 3, start-up 0.7) against
+about 3 s for the bare read, which itself uses both cores. Peak memory 1.1-1.2 GB at 1
+million rows per chunk (target < 6 GB).
 
 Known limits: duplicates are found by a 64-bit hash of the report key, so two different
 reports are wrongly taken as duplicates with probability about ``n**2 / 2**65`` (3e-6 for
