@@ -818,6 +818,9 @@ def _add_archive(sub):
     cmp.add_argument("--seed", type=int, default=0)
     cmp.add_argument("--min-pairs", type=int, default=30)
     cmp.add_argument("--confidence", type=float, default=0.95)
+    cmp.add_argument("--missed-reports", choices=["fit", "none"], default="fit")
+    cmp.add_argument("--threshold-correction", choices=["edge", "none"], default="none")
+    cmp.add_argument("--day-hours", type=float, default=24.0, metavar="HOURS")
     cmp.add_argument("--json", metavar="OUT.json")
     cmp.add_argument("--csv", metavar="OUT.csv")
     p.set_defaults(func=_cmd_archive)
@@ -875,7 +878,8 @@ def _cmd_archive(args) -> int:
         args.dataset, args.design, args.a, args.b, by=by, schedule=args.schedule,
         change_at=args.change_at, window_slots=args.window, n_boot=args.boot, seed=args.seed,
         min_pairs=args.min_pairs, confidence=args.confidence, scheduler=args.scheduler,
-        **selection)
+        missed_reports=args.missed_reports, threshold_correction=args.threshold_correction,
+        day_hours=args.day_hours, **selection)
     _write_result(result, args)
     return EXIT_OK
 

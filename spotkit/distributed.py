@@ -303,7 +303,8 @@ def _calls_needed(design: str, a: str, b: str | None) -> tuple[str, list[str]]:
 def compare_partials(df: pd.DataFrame, design: str, a: str, b: str | None = None, *,
                      by=(), thresholds: pd.Series | None = None, schedule=None,
                      change_at=None, window_slots: int = 1, min_receiver_reports: int = 20,
-                     group_options: dict | None = None) -> ComparePartials:
+                     group_options: dict | None = None, day_hours: float = 24.0,
+                     require_open_path: bool = True) -> ComparePartials:
     """Pair one partition and compress its pairs (the per-partition work of a comparison).
 
     Runs :func:`spotkit.pairing.pair_spots` and :func:`spotkit.grouping.summarise_pairs`.
@@ -327,7 +328,8 @@ def compare_partials(df: pd.DataFrame, design: str, a: str, b: str | None = None
     try:
         pairs = pair_spots(df, design, a, b, schedule=schedule, change_at=change_at,
                            window_slots=window_slots,
-                           min_receiver_reports=min_receiver_reports)
+                           min_receiver_reports=min_receiver_reports,
+                           require_open_path=require_open_path)
     except NoPairsError:
         return empty
     if thresholds is not None:  # before/after too: its bounds use the threshold as well
@@ -342,8 +344,9 @@ def compare_partials(df: pd.DataFrame, design: str, a: str, b: str | None = None
             pairs[C.LIMIT_A] = pairs[C.LIMIT_A].to_numpy() + d
             pairs[C.LIMIT_B] = pairs[C.LIMIT_B].to_numpy() + d
     keys = _parse_by(by)
-    overall = summarise_pairs(pairs, ())
-    counts = summarise_pairs(pairs, keys, **group_options) if keys else overall
+    overall = summarise_pairs(pairs, (), day_hours=day_hours)
+    counts = summarise_pairs(pairs, keys, day_hours=day_hours, **group_options) if keys \
+        else overall
     set_aside = dict(pairs.attrs.get("set_aside", {}))
     for k, v in (counts.attrs.get("set_aside", {}) if keys else {}).items():
         set_aside[f"groups: {k}"] = v
@@ -398,7 +401,8 @@ def combine_compare(partials: Iterable[ComparePartials]) -> ComparePartials:
 
 def finish_compare(merged: ComparePartials, design: str, a: str, b: str | None = None, *,
                    by=(), n_boot: int = 1000, seed: int = 0, min_pairs: int = 30,
-                   confidence: float = 0.95, options: dict | None = None):
+                   confidence: float = 0.95, options: dict | None = None,
+                   threshold_correction: str = "none", missed_reports: str = "fit"):
     """Estimate B minus A from merged partials, as :func:`spotkit.compare.compare_antennas`.
 
     Returns
@@ -417,7 +421,8 @@ def finish_compare(merged: ComparePartials, design: str, a: str, b: str | None =
         raise NoPairsError(f"no pairs found for the {design} design in any partition ({why})")
     label = "transmitters" if design == "receive" else "receivers"
     est = dict(n_boot=n_boot, seed=seed, confidence=confidence, min_pairs=min_pairs,
-               clusters=sorted(merged.clusters), cluster_label=label)
+               clusters=sorted(merged.clusters), cluster_label=label,
+               threshold_correction=threshold_correction, missed_reports=missed_reports)
     overall = estimate_groups(merged.overall, **est).iloc[0].to_dict()
     overall[C.P_ADJUSTED] = overall[C.P_VALUE]
     if keys:
@@ -445,7 +450,8 @@ def compare_dask(source, design: str, a: str, b: str | None = None, *, by=(), sc
                  elevation_edges=None, layer_height_km: float = 300.0, n_boot: int = 1000,
                  seed: int = 0, min_pairs: int = 30, confidence: float = 0.95,
                  scheduler: Scheduler = None, split_every: int = 16, bands=None, start=None,
-                 end=None):
+                 end=None, threshold_correction: str = "none", missed_reports: str = "fit",
+                 day_hours: float = 24.0, require_open_path: bool = True):
     """Compare antennas A and B over a partitioned archive on Dask.
 
     Two passes over the partitions: (1) each receiver's lowest SNR and report count
@@ -517,15 +523,20 @@ def compare_dask(source, design: str, a: str, b: str | None = None, *, by=(), sc
         partials = [cmp_d(p, design, a, b, by=keys, thresholds=thr, schedule=schedule,
                           change_at=change_at, window_slots=window_slots,
                           min_receiver_reports=min_receiver_reports,
-                          group_options=group_options) for p in parts2]
+                          group_options=group_options, day_hours=day_hours,
+                          require_open_path=require_open_path) for p in parts2]
         (merged,) = dask.compute(_tree_reduce(partials, combine_compare, split_every), **kw)
     options = dict(group_options, window_slots=int(window_slots),
+                   threshold_correction=threshold_correction, missed_reports=missed_reports,
+                   day_hours=float(day_hours), require_open_path=bool(require_open_path),
                    schedule=schedule if isinstance(schedule, (str, type(None))) else "table",
                    change_at=None if change_at is None else str(change_at))
     options["distance_edges"] = [float(x) for x in options["distance_edges"]]
     options["elevation_edges"] = [float(x) for x in options["elevation_edges"]]
     return finish_compare(merged, design, a, b, by=keys, n_boot=n_boot, seed=seed,
-                          min_pairs=min_pairs, confidence=confidence, options=options)
+                          min_pairs=min_pairs, confidence=confidence, options=options,
+                          threshold_correction=threshold_correction,
+                          missed_reports=missed_reports)
 
 
 def _distinct_calls(df: pd.DataFrame, col: str) -> set:

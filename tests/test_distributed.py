@@ -272,8 +272,14 @@ def test_compare_dask_unknown_call_lists_calls(sim_archive):
         D.compare_dask(root, "simultaneous", sim.a, "Q9NOPE", n_boot=10, scheduler="sync")
 
 
-@pytest.mark.parametrize("design", ["alternating", "receive", "before-after"])
-def test_compare_dask_equals_pandas_other_designs(tmp_path, design):
+@pytest.mark.parametrize("design, options", [
+    ("alternating", {}), ("receive", {}), ("before-after", {}),
+    # the estimator's options reach the Dask path too
+    ("alternating", dict(missed_reports="none", threshold_correction="edge",
+                         require_open_path=False)),
+    ("before-after", dict(day_hours=12.0, missed_reports="none")),
+])
+def test_compare_dask_equals_pandas_other_designs(tmp_path, design, options):
     """Receive pairs by (transmitter, slot); the alternating design's reports are read as
     one partition and before/after one partition per band: all exact."""
     from spotkit.compare import compare_antennas
@@ -282,7 +288,7 @@ def test_compare_dask_equals_pandas_other_designs(tmp_path, design):
     sim = simulate_spots(design, days=2, seed=3, n_receivers=40, n_transmitters=40,
                          start="2026-03-02")
     kw = {"alternating": dict(schedule=sim.schedule),
-          "before-after": dict(change_at=sim.change_at)}.get(design, {})
+          "before-after": dict(change_at=sim.change_at)}.get(design, {}) | options
     store.append_to_dataset(sim.spots, tmp_path / "arch")
     want = compare_antennas(sim.spots, design, sim.a, sim.b, by=("band",), n_boot=100, seed=4,
                             **kw)
