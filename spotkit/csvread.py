@@ -13,9 +13,9 @@ gathers; a reject keeps the cell's own text.
 Two readers give the same chunks:
 
 - pyarrow's CSV reader (comma, semicolon or tab files with decimal points): the file is
-  cut at line ends into pieces of about 8 MB, each parsed with several threads, gathered
-  into chunks. Threads cannot tell the line number of a row with the wrong number of
-  fields, so a piece holding such a row is parsed again in one thread;
+  cut at line ends into pieces of about 8 MB, parsed two at a time, each in one thread (so
+  the line number of a row with the wrong number of fields is known), and gathered into
+  chunks;
 - pandas' C parser for the rest (runs of blanks, decimal commas), which fills a row with
   too few fields with empty cells.
 
@@ -26,6 +26,8 @@ from __future__ import annotations
 
 import re
 import warnings
+from collections import deque
+from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass
 from typing import Iterator
 
@@ -115,8 +117,10 @@ def _skipped_lines(caught) -> list:
 
 
 # --- pyarrow ---------------------------------------------------------------------------------
-#: Bytes per piece parsed at once (with several threads); pieces are gathered into chunks.
+#: Bytes per piece parsed at once; pieces are gathered into chunks.
 PIECE_BYTES = 1 << 23
+#: Pieces parsed at the same time (one thread each) and pieces handed out ahead.
+PARSERS, AHEAD = 2, 3
 
 
 def _piece_bytes(chunk_rows: int | None, line_bytes: float) -> int | None:
@@ -125,10 +129,6 @@ def _piece_bytes(chunk_rows: int | None, line_bytes: float) -> int | None:
     if not chunk_rows:
         return None
     return int(min(BLOCK_BYTES, PIECE_BYTES, max(1 << 12, chunk_rows * line_bytes)))
-
-
-class _RowNumbersUnknown(Exception):
-    """A row was set aside by a multithreaded read, which does not know its line number."""
 
 
 class _NotPlainNumbers(Exception):
@@ -186,12 +186,12 @@ def arrow_chunks(layout: _Layout, chunk_rows: int | None,
     """Chunks read by pyarrow's CSV reader; yields (chunk, skipped lines). Rows with too few
     fields are set aside like rows with too many.
 
-    The file is cut at line ends into pieces of about :data:`PIECE_BYTES`, each parsed with
-    several threads, and the pieces are gathered into chunks of at least ``chunk_rows``
-    rows (the first chunk is the first piece alone, and so are the pieces of the last
-    chunk of a plain file, so that the work after reading starts early and ends soon after
-    it). Threads cannot tell the line number of a row with the wrong number of fields, so
-    a piece holding such a row is parsed again in one thread. The columns at positions
+    The file is cut at line ends into pieces of about :data:`PIECE_BYTES`, parsed
+    :data:`PARSERS` at a time (each in one thread: pyarrow's own threads cannot tell the
+    line number of a row with the wrong number of fields), and the pieces are gathered into
+    chunks of at least ``chunk_rows`` rows (the first chunk is the first piece alone, and
+    so are the pieces of the last chunk of a plain file, so that the work after reading
+    starts early and ends soon after it). The columns at positions
     ``numbers`` are parsed as float64 (cheaper than text for short numbers; an empty cell is
     NaN) until a cell is not a plain finite decimal number; from that piece on, they are
     read as text.
@@ -217,38 +217,54 @@ def arrow_chunks(layout: _Layout, chunk_rows: int | None,
         line_bytes = max(len(head), 1) / max(head.count(b"\n"), 1)
         size = _piece_bytes(chunk_rows, line_bytes)
         lines_before = 0  # lines of the file before the piece (heading included)
-        first = True
-        pieces = _file_pieces(source, size) if plain else (
-            (p, None) for p in _pieces(_Prepend(head, source), size))
+        pieces = enumerate(_file_pieces(source, size) if plain else (
+            (p, None) for p in _pieces(_Prepend(head, source), size)))
         chunk_bytes = (chunk_rows or 0) * line_bytes
-        for piece, left in pieces:
-            skip = layout.header_lines if first else 0
-            while True:
+        with ThreadPoolExecutor(max_workers=PARSERS) as pool:
+            pending: deque = deque()  # (future, piece, lines to skip, bytes left after it)
+
+            def submit(piece, skip, left):
+                pending.append((pool.submit(_read_piece, layout, piece, skip, numbers),
+                                piece, skip, left))
+
+            def refill():
+                while len(pending) < AHEAD:
+                    k, item = next(pieces, (None, None))
+                    if item is None:
+                        return
+                    submit(item[0], layout.header_lines if k == 0 else 0, item[1])
+
+            refill()
+            while pending:
+                fut, piece, skip, left = pending.popleft()
                 try:
-                    table, piece_bad = _read_piece(layout, piece, skip, True, numbers)
-                except _RowNumbersUnknown:
-                    table, piece_bad = _read_piece(layout, piece, skip, False, numbers)
-                except _NotPlainNumbers:
+                    table, piece_bad = fut.result()
+                except _NotPlainNumbers:  # this piece and the ones after it: as text
                     numbers = ()
+                    redo = [(piece, skip, left)] + [x[1:] for x in pending]
+                    for x in pending:
+                        x[0].cancel()
+                    pending.clear()
+                    for item in redo:
+                        submit(*item)
                     if tables:  # the pieces so far hold numbers: a chunk of their own
                         rows, emitted = 0, True
                         yield emit()
                     continue
-                break
-            tables.append(table)
-            bad.extend((lines_before + line, msg) for line, msg in piece_bad)
-            rows += table.num_rows
-            lines_before += skip + table.num_rows + len(piece_bad)  # a line is one of these
-            first = False
-            # the first piece alone, so that the pipeline starts early; the pieces of the
-            # last chunk one by one, so that it ends soon after the reading
-            if chunk_rows and (rows >= chunk_rows or not emitted
-                               or (left is not None and left < chunk_bytes)):
-                rows, emitted = 0, True
-                yield emit()
+                refill()
+                tables.append(table)
+                bad.extend((lines_before + line, msg) for line, msg in piece_bad)
+                rows += table.num_rows
+                lines_before += skip + table.num_rows + len(piece_bad)  # a line is one of these
+                # the first piece alone, so that the pipeline starts early; the pieces of
+                # the last chunk one by one, so that it ends soon after the reading
+                if chunk_rows and (rows >= chunk_rows or not emitted
+                                   or (left is not None and left < chunk_bytes)):
+                    rows, emitted = 0, True
+                    yield emit()
         if tables or bad or not chunk_rows:
             if not tables:
-                tables.append(_read_piece(layout, b"", 0, False, numbers)[0])
+                tables.append(_read_piece(layout, b"", 0, numbers)[0])
             yield emit()
     finally:
         source.close()
@@ -272,8 +288,9 @@ class _Prepend:
         return self.source.read() if size is None else self.source.read(size)
 
 
-def _read_piece(layout: _Layout, piece: bytes, skip: int, threads: bool, numbers: tuple):
-    """Parse one piece; (pyarrow table, bad rows [(line number in the piece, message)])."""
+def _read_piece(layout: _Layout, piece: bytes, skip: int, numbers: tuple):
+    """Parse one piece in one thread; (pyarrow table, bad rows [(line number in the piece,
+    message)])."""
     import pyarrow as pa
     import pyarrow.compute as pc
     import pyarrow.csv as pacsv
@@ -282,11 +299,8 @@ def _read_piece(layout: _Layout, piece: bytes, skip: int, threads: bool, numbers
     types = {n: pa.float64() if i in numbers else pa.dictionary(pa.int32(), pa.string())
              for i, n in enumerate(names)}
     bad: list = []
-    unknown: list = []
 
     def handler(row):
-        if row.number is None or row.number < 0:
-            unknown.append(row)
         bad.append((row.number, f"expected {row.expected_columns} fields, "
                                 f"saw {row.actual_columns}"))
         return "skip"
@@ -296,8 +310,8 @@ def _read_piece(layout: _Layout, piece: bytes, skip: int, threads: bool, numbers
         table = pacsv.read_csv(
             pa.py_buffer(piece),
             read_options=pacsv.ReadOptions(column_names=names, skip_rows=skip,
-                                           block_size=max(1 << 20, len(piece) // 2 + 1),
-                                           use_threads=threads, encoding=encoding),
+                                           block_size=max(1 << 20, len(piece) + 1),
+                                           use_threads=False, encoding=encoding),
             parse_options=pacsv.ParseOptions(delimiter=layout.sep, invalid_row_handler=handler,
                                              ignore_empty_lines=False),
             convert_options=pacsv.ConvertOptions(column_types=types, strings_can_be_null=True,
@@ -307,8 +321,6 @@ def _read_piece(layout: _Layout, piece: bytes, skip: int, threads: bool, numbers
         if numbers:  # a cell the number parser refused
             raise _NotPlainNumbers from None
         raise
-    if unknown:
-        raise _RowNumbersUnknown
     if numbers and not all(  # NaN or infinity spelled out
             pc.all(pc.is_finite(table.column(i))).as_py() in (True, None) for i in numbers):
         raise _NotPlainNumbers

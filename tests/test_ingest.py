@@ -445,10 +445,9 @@ def test_both_readers_agree(data_dir, monkeypatch):
 
 
 @pytest.mark.parametrize("bad_rows", [(), (3,), (150, 151, 600), (1199,)])
-def test_multithreaded_reader_rereads_for_row_numbers(tmp_path, monkeypatch, bad_rows):
-    # small blocks, so the file is read by several threads; a row with the wrong number of
-    # fields makes the reader start again in one thread where the chunks handed out end:
-    # same table and same rejects (with their row numbers) as the pandas reader
+def test_pieces_parsed_in_parallel_keep_row_numbers(tmp_path, monkeypatch, bad_rows):
+    # small pieces (2 kB), parsed two at a time: rows with the wrong number of fields keep
+    # their row numbers; same table and rejects as the pandas reader
     from spotkit import csvread
 
     rows = _many_rows(1200)
@@ -466,8 +465,8 @@ def test_multithreaded_reader_rereads_for_row_numbers(tmp_path, monkeypatch, bad
                                       ("-12 ", 700), ("x", 700), ("", 700), ("1,5", 2)])
 def test_odd_numeric_cells_same_from_both_readers(tmp_path, monkeypatch, cell, row):
     # every cell is read as text and each distinct text parsed once: an odd SNR cell gives
-    # the same table, rejects (with the cell's own text) and summary from the multithreaded
-    # pyarrow reader as from the pandas reader
+    # the same table, rejects (with the cell's own text) and summary from the pyarrow
+    # reader (pieces parsed in parallel) as from the pandas reader
     from spotkit import csvread
 
     rows = _many_rows(1000)
