@@ -37,8 +37,8 @@ missing). Files without a heading line: columns are classified by content
 (:func:`infer_columns`), but which call is the transmitter cannot be seen in the data, so
 ``tx_call`` or ``rx_call`` must be mapped (``--map tx_call=7``: 1-based column position).
 
-How the bulk path is kept fast: the file is parsed in 8 MB pieces with several threads, a
-chunk ahead in a second thread, every column dictionary-encoded except SNR, power and
+How the bulk path is kept fast: the file is parsed in 8 MB pieces, two at a time, a chunk
+ahead of the cleaning, every column dictionary-encoded except SNR, power and
 drift (parsed as numbers); each distinct cell is checked once (:mod:`spotkit.clean`; calls
 and locators once per ingest), rows are reached by gathers; duplicates come from one sort
 of 64-bit key hashes per chunk behind a byte map (:mod:`spotkit.dedupe`); pair geometry
