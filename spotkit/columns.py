@@ -123,6 +123,16 @@ DISTANCE_MEDIAN = "distance_median_km"  # over the distinct far stations reached
 DISTANCE_P90 = "distance_p90_km"
 DISTANCE_FARTHEST = "distance_farthest_km"
 
+# --- planning (spotkit.plan) and checks against a simulation's truth -------------------------
+HOURS = "hours"  # run length [h]
+SE = "se_db"  # standard error of B minus A [dB]
+CI_WIDTH = "ci_width_db"  # width of the confidence interval of B minus A [dB]
+CI_WIDTH_SIM = "ci_width_sim_db"  # mean interval width over simulated runs [dB]
+CI_WIDTH_SIM_SE = "ci_width_sim_se_db"  # its standard error [dB]
+TRUTH = "truth_db"  # the simulated true B minus A [dB]
+THRESHOLD = "threshold_db"  # a receiver's decode threshold [dB in 2500 Hz]
+NOISE = "noise_db"  # a receiver's noise offset in the simulator [dB]
+
 # --- rejects table -----------------------------------------------------------------------
 REJECT_FIELD = "field"
 REJECT_VALUE = "value"

@@ -55,17 +55,17 @@ def truth_check(result, truth, distance_edges=None) -> pd.DataFrame:
     cells = truth.cells(distance_edges=edges)
     est = result.groups
     keys = [C.BAND, C.DISTANCE_MIN]
-    merged = est.merge(cells[keys + [C.B_MINUS_A]].rename(columns={C.B_MINUS_A: "truth_db"}),
+    merged = est.merge(cells[keys + [C.B_MINUS_A]].rename(columns={C.B_MINUS_A: C.TRUTH}),
                        on=keys, how="left")
     out = merged[[C.BAND, C.DISTANCE_MIN, C.DISTANCE_MAX, C.B_MINUS_A, C.CI_LOW, C.CI_HIGH,
-                  "truth_db", C.PAIRS]].copy()
-    covered = (out[C.CI_LOW] <= out["truth_db"]) & (out["truth_db"] <= out[C.CI_HIGH])
+                  C.TRUTH, C.PAIRS]].copy()
+    covered = (out[C.CI_LOW] <= out[C.TRUTH]) & (out[C.TRUTH] <= out[C.CI_HIGH])
     out["covered"] = covered.astype("boolean").mask(out[C.CI_LOW].isna())
     over = {C.BAND: "all", C.DISTANCE_MIN: np.nan, C.DISTANCE_MAX: np.nan,
             C.B_MINUS_A: result.overall[C.B_MINUS_A], C.CI_LOW: result.overall[C.CI_LOW],
-            C.CI_HIGH: result.overall[C.CI_HIGH], "truth_db": truth.overall[C.B_MINUS_A],
+            C.CI_HIGH: result.overall[C.CI_HIGH], C.TRUTH: truth.overall[C.B_MINUS_A],
             C.PAIRS: result.overall[C.PAIRS]}
-    over["covered"] = over[C.CI_LOW] <= over["truth_db"] <= over[C.CI_HIGH]
+    over["covered"] = over[C.CI_LOW] <= over[C.TRUTH] <= over[C.CI_HIGH]
     return pd.concat([pd.DataFrame([over]), out], ignore_index=True)
 
 
@@ -123,7 +123,7 @@ def run_demo(out_dir="out", *, data_dir=None, n_boot: int = 1000, progress: bool
         say(str(results[0]))
         say("\nestimate against the scenario's truth (band x distance):")
         db = {c: (lambda x: "" if pd.isna(x) else f"{x:+.2f}")
-              for c in (C.B_MINUS_A, C.CI_LOW, C.CI_HIGH, "truth_db")}
+              for c in (C.B_MINUS_A, C.CI_LOW, C.CI_HIGH, C.TRUTH)}
         km = {c: (lambda x: "" if pd.isna(x) else f"{x:,.0f}")
               for c in (C.DISTANCE_MIN, C.DISTANCE_MAX)}
         say(check.to_string(index=False, formatters={**db, **km}))

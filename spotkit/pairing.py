@@ -175,7 +175,7 @@ def receiver_thresholds(spots: pd.DataFrame, min_reports: int = 20) -> pd.Series
     if well.any() and (~well).any():
         typical = float(thr[well].median())
         thr[~well] = np.minimum(thr[~well], typical)
-    thr.name = "threshold_db"
+    thr.name = C.THRESHOLD
     return thr
 
 

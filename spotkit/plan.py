@@ -368,7 +368,7 @@ censoring_factor
     se = np.sqrt(within / n + floor)
     z_a = _st.norm.ppf(1 - alpha / 2)
     pw = _st.norm.cdf(abs(effect_db) / se - z_a) + _st.norm.cdf(-abs(effect_db) / se - z_a)
-    return pd.DataFrame({"hours": h, C.PAIRS: n, "se_db": se, "ci_width_db": 2 * z_a * se,
+    return pd.DataFrame({C.HOURS: h, C.PAIRS: n, C.SE: se, C.CI_WIDTH: 2 * z_a * se,
                          "power": pw})
 
 
@@ -651,15 +651,15 @@ def duration_by_simulation(effect_db: float, hours: Sequence[float], *, n_runs: 
     width = hi - lo
     n_ok = np.isfinite(width).sum(axis=1)
     return pd.DataFrame({
-        "hours": hours,
+        C.HOURS: hours,
         "runs": int(n_runs),
         "power_sim": k / int(n_runs),
         "power_sim_low": w_lo,
         "power_sim_high": w_hi,
         "estimate_mean_db": _nanmean(est),
         "estimate_sd_db": _nanstd(est),
-        "ci_width_sim_db": _nanmean(width),
-        "ci_width_sim_se_db": _nanstd(width) / np.sqrt(np.maximum(n_ok, 1)),
+        C.CI_WIDTH_SIM: _nanmean(width),
+        C.CI_WIDTH_SIM_SE: _nanstd(width) / np.sqrt(np.maximum(n_ok, 1)),
         "pairs_sim": npairs.mean(axis=1),
         "censored_fraction_sim": ncens.sum(axis=1) / np.maximum(npairs.sum(axis=1), 1),
     })
@@ -714,8 +714,8 @@ def duration_table(effect_db: float, hours: Sequence[float] = (3, 6, 12, 24, 48,
                               censoring_factor=censoring_factor)
     if simulation is not None:
         sim = simulation.drop(columns=[c for c in simulation.columns
-                                       if c in table.columns and c != "hours"])
-        table = table.merge(sim, on="hours", how="outer").sort_values("hours")
+                                       if c in table.columns and c != C.HOURS])
+        table = table.merge(sim, on=C.HOURS, how="outer").sort_values(C.HOURS)
         table = table.reset_index(drop=True)
     need = duration_closed_form(effect_db, sigma_db=sigma_db, pairs_per_hour=pairs_per_hour,
                                 alpha=alpha, power=power, icc=icc, clusters=clusters,
@@ -750,39 +750,39 @@ def plot_duration_tradeoff(table: pd.DataFrame, ax=None):
 
     if ax is None:
         _, ax = plt.subplots(figsize=(7, 4.2))
-    t = table.sort_values("hours")
+    t = table.sort_values(C.HOURS)
     need = table.attrs.get("needed")
     eff = table.attrs.get("effect_db")
     inputs = table.attrs.get("inputs")
     if inputs is not None and eff is not None:  # smooth closed-form curves
-        lo = float(t["hours"].min())
-        if need and np.isfinite(need.get("hours", np.nan)):
-            lo = min(lo, need["hours"])
-        curve = power_closed_form(np.geomspace(lo / 1.5, float(t["hours"].max()), 200), eff,
+        lo = float(t[C.HOURS].min())
+        if need and np.isfinite(need.get(C.HOURS, np.nan)):
+            lo = min(lo, need[C.HOURS])
+        curve = power_closed_form(np.geomspace(lo / 1.5, float(t[C.HOURS].max()), 200), eff,
                                   **inputs)
     else:
         curve = t
-    ax.plot(curve["hours"], curve["ci_width_db"], "-", color="C0",
+    ax.plot(curve[C.HOURS], curve[C.CI_WIDTH], "-", color="C0",
             label="CI width, closed form")
-    if "ci_width_sim_db" in t:
-        ax.errorbar(t["hours"], t["ci_width_sim_db"], yerr=2 * t["ci_width_sim_se_db"],
+    if C.CI_WIDTH_SIM in t:
+        ax.errorbar(t[C.HOURS], t[C.CI_WIDTH_SIM], yerr=2 * t[C.CI_WIDTH_SIM_SE],
                     fmt="o", color="C0", capsize=3, label="CI width, simulated")
     ax.set_xscale("log")
-    ax.set_xticks(t["hours"].to_numpy(), [f"{h:g}" for h in t["hours"]])
+    ax.set_xticks(t[C.HOURS].to_numpy(), [f"{h:g}" for h in t[C.HOURS]])
     ax.xaxis.set_minor_locator(plt.NullLocator())
     ax.set_xlabel("run length [h]")
     ax.set_ylabel("expected confidence-interval width [dB]", color="C0")
     right = ax.twinx()
-    right.plot(curve["hours"], curve["power"], "--", color="C3", label="power, closed form")
+    right.plot(curve[C.HOURS], curve["power"], "--", color="C3", label="power, closed form")
     if "power_sim" in t:
         err = np.vstack([t["power_sim"] - t["power_sim_low"],
                          t["power_sim_high"] - t["power_sim"]])
-        right.errorbar(t["hours"], t["power_sim"], yerr=err, fmt="s", color="C3",
+        right.errorbar(t[C.HOURS], t["power_sim"], yerr=err, fmt="s", color="C3",
                        capsize=3, label="power, simulated")
     right.set_ylim(0, 1.02)
     right.set_ylabel("power (chance of detecting the effect)", color="C3")
-    if need and np.isfinite(need.get("hours", np.nan)):
-        ax.axvline(need["hours"], color="0.5", lw=0.8)
+    if need and np.isfinite(need.get(C.HOURS, np.nan)):
+        ax.axvline(need[C.HOURS], color="0.5", lw=0.8)
         right.axhline(need["power"], color="0.5", lw=0.8)
     if eff is not None:
         ax.set_title(f"Run length to detect B - A = {eff:g} dB")

@@ -405,8 +405,8 @@ def simulate_spots(design: Design = "simultaneous", *, days: float = 3, seed: in
         stations.append(pd.DataFrame({"call": ctrl_calls, "locator": ctrl_loc,
                                       "role": "control transmitter"}))
         stations.append(pd.DataFrame({"call": far_calls, "locator": far_loc,
-                                      "role": "receiver", "threshold_db": far_thr,
-                                      "noise_db": far_noise}))
+                                      "role": "receiver", C.THRESHOLD: far_thr,
+                                      C.NOISE: far_noise}))
     else:
         tx_loc = far_loc
         rx_loc = np.array([home_loc], dtype=object)
@@ -420,8 +420,8 @@ def simulate_spots(design: Design = "simultaneous", *, days: float = 3, seed: in
               "cal": np.zeros(2, dtype=int), "listen": np.ones((2, len(bands)), bool),
               "uptime": np.ones(2), "antenna": [ant_a, ant_b]}
         stations.append(pd.DataFrame({"call": [a, b], "locator": home_loc,
-                                      "role": "home receiver", "threshold_db": home_thr,
-                                      "noise_db": 0.0}))
+                                      "role": "home receiver", C.THRESHOLD: home_thr,
+                                      C.NOISE: 0.0}))
         stations.append(pd.DataFrame({"call": far_calls, "locator": far_loc,
                                       "role": "transmitter", "power_dbm": far_power}))
     stations = pd.concat(stations, ignore_index=True)
