@@ -36,10 +36,6 @@ import pandas as pd
 
 from .sniff import _csv_kwargs, _Layout
 
-#: Bytes per block of the pyarrow CSV reader.
-BLOCK_BYTES = 1 << 27
-
-
 @dataclass
 class TextColumn:
     """One column of a chunk: ``codes`` (int, one per row, -1 for an empty cell) into
@@ -124,11 +120,11 @@ PARSERS, AHEAD = 2, 3
 
 
 def _piece_bytes(chunk_rows: int | None, line_bytes: float) -> int | None:
-    """Bytes per piece: :data:`PIECE_BYTES`, less for small chunks, at most
-    :data:`BLOCK_BYTES` (None: the whole file in one piece)."""
+    """Bytes per piece: :data:`PIECE_BYTES`, less for small chunks (None: the whole file
+    in one piece)."""
     if not chunk_rows:
         return None
-    return int(min(BLOCK_BYTES, PIECE_BYTES, max(1 << 12, chunk_rows * line_bytes)))
+    return int(min(PIECE_BYTES, max(1 << 12, chunk_rows * line_bytes)))
 
 
 class _NotPlainNumbers(Exception):

@@ -76,7 +76,7 @@ class PathCache:
     def _numbers(self, side: int, cats: np.ndarray) -> np.ndarray:
         """Number of each distinct locator text (decoding the new ones)."""
         ids = self.ids[side]
-        new = [c for c in dict.fromkeys(cats) if c not in ids]
+        new = [c for c in cats if c not in ids]  # cats are distinct
         if new:
             first = len(ids)
             for k, c in enumerate(new):

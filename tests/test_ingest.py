@@ -454,7 +454,7 @@ def test_pieces_parsed_in_parallel_keep_row_numbers(tmp_path, monkeypatch, bad_r
     for r in bad_rows:
         rows[r - 1] = rows[r - 1] + ",extra"
     path = _write(tmp_path, "t.csv", HEAD + "\n".join(rows) + "\n")
-    monkeypatch.setattr(csvread, "BLOCK_BYTES", 2048)
+    monkeypatch.setattr(csvread, "PIECE_BYTES", 2048)
     fast = read_spots(path, chunk_rows=100)
     assert list(fast.rejects[C.SOURCE_ROW]) == list(bad_rows)
     _same_from_pandas_reader(fast, path, monkeypatch, chunk_rows=100)
@@ -474,7 +474,7 @@ def test_odd_numeric_cells_same_from_both_readers(tmp_path, monkeypatch, cell, r
     parts[6] = cell
     rows[row - 1] = ",".join(parts)
     path = _write(tmp_path, "n.csv", HEAD + "\n".join(rows) + "\n")
-    monkeypatch.setattr(csvread, "BLOCK_BYTES", 2048)
+    monkeypatch.setattr(csvread, "PIECE_BYTES", 2048)
     got = read_spots(path, chunk_rows=100)
     _same_from_pandas_reader(got, path, monkeypatch, chunk_rows=100)
     _balanced(got)
