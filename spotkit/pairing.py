@@ -356,25 +356,37 @@ def _outer(df: pd.DataFrame, ia: np.ndarray, ib: np.ndarray, keys: list[str]) ->
 
 
 # --- designs -------------------------------------------------------------------------------
-def _pair_simultaneous(spots, a, b, thr, cats):
-    a, code_a = _check_call(spots, cats, C.TX_CALL, a, "A")
-    b, code_b = _check_call(spots, cats, C.TX_CALL, b, "B")
+#: the same-slot designs: (column of the A/B calls, cluster column, far side, calls are)
+_SAME_SLOT = {"simultaneous": (C.TX_CALL, C.RX_CALL, "rx", "transmitter"),
+              "receive": (C.RX_CALL, C.TX_CALL, "tx", "receiver")}
+
+
+def _same_slot_pairs(spots, a, b, cats, design):
+    """Shared start of the simultaneous and receive designs: the two calls checked, A's and
+    B's reports (rows ``ia``, ``ib`` of ``df``) outer-joined on (cluster, band, slot) into
+    ``m``; ``mk`` and ``rk`` the (band, slot) keys of ``m``'s and ``df``'s rows."""
+    call_col, cluster_col, far, what = _SAME_SLOT[design]
+    a, code_a = _check_call(spots, cats, call_col, a, "A")
+    b, code_b = _check_call(spots, cats, call_col, b, "B")
     if a == b:
-        raise UsageError("the simultaneous design needs two different transmitter calls for "
-                         "A and B")
+        raise UsageError(f"the {design} design needs two different {what} calls for A and B")
     df = _add(spots, _slot=_ns(spots[C.SLOT]) // _SLOT_NS, _band=spots[C.BAND],
-              _cluster=spots[C.RX_CALL])
-    df = _far_from(df, "rx")
-    keys = ["_cluster", "_band", "_slot"]
-    tx = df[C.TX_CALL].to_numpy()
-    ia, ib = np.flatnonzero(tx == code_a), np.flatnonzero(tx == code_b)
-    m = _outer(df, ia, ib, keys)
+              _cluster=spots[cluster_col])
+    df = _far_from(df, far)
+    calls = df[call_col].to_numpy()
+    ia, ib = np.flatnonzero(calls == code_a), np.flatnonzero(calls == code_b)
+    m = _outer(df, ia, ib, ["_cluster", "_band", "_slot"])
     dims = [int(df["_band"].max()) + 1, int(df["_slot"].max()) + 1]
     mk, _ = _combine([m["_band"], m["_slot"]], dims)
-    band, slot = df["_band"].to_numpy(), df["_slot"].to_numpy()
+    rk, _ = _combine([df["_band"], df["_slot"]], dims)
+    return a, b, df, ia, ib, m, mk, rk
+
+
+def _pair_simultaneous(spots, a, b, thr, cats):
+    a, b, df, ia, ib, m, mk, rk = _same_slot_pairs(spots, a, b, cats, "simultaneous")
     power = df[C.POWER].to_numpy(dtype=float)
     for x, idx in (("a", ia), ("b", ib)):  # the antenna's power in that slot (median)
-        tk, tv = _group_median(_combine([band[idx], slot[idx]], dims)[0], power[idx])
+        tk, tv = _group_median(rk[idx], power[idx])
         m[f"_pow_{x}"] = _lookup(mk, tk, tv)
     thr_rx = _thr_by_code(thr, cats)[m["_cluster"].to_numpy(dtype=np.int64)]
     m["_thr_a"] = thr_rx
@@ -383,25 +395,12 @@ def _pair_simultaneous(spots, a, b, thr, cats):
 
 
 def _pair_receive(spots, a, b, thr, cats):
-    a, code_a = _check_call(spots, cats, C.RX_CALL, a, "A")
-    b, code_b = _check_call(spots, cats, C.RX_CALL, b, "B")
-    if a == b:
-        raise UsageError("the receive design needs two different receiver calls for A and B")
-    df = _add(spots, _slot=_ns(spots[C.SLOT]) // _SLOT_NS, _band=spots[C.BAND],
-              _cluster=spots[C.TX_CALL])
-    df = _far_from(df, "tx")
-    keys = ["_cluster", "_band", "_slot"]
-    rx = df[C.RX_CALL].to_numpy()
-    ia, ib = np.flatnonzero(rx == code_a), np.flatnonzero(rx == code_b)
-    m = _outer(df, ia, ib, keys)
+    a, b, df, ia, ib, m, mk, rk = _same_slot_pairs(spots, a, b, cats, "receive")
     # transmitter power of the pair: from whichever report is present (same transmitter)
     pa, pb = m["_power_a"].to_numpy(), m["_power_b"].to_numpy()
     power = np.where(np.isnan(pa), pb, pa)
-    dims = [int(df["_band"].max()) + 1, int(df["_slot"].max()) + 1]
-    mk, _ = _combine([m["_band"], m["_slot"]], dims)
-    band, slot = df["_band"].to_numpy(), df["_slot"].to_numpy()
     for x, idx in (("a", ia), ("b", ib)):  # receiver on the air: it reported something
-        tk = np.unique(_combine([band[idx], slot[idx]], dims)[0])
+        tk = np.unique(rk[idx])
         on = ~np.isnan(_lookup(mk, tk, np.ones(tk.size)))
         m[f"_pow_{x}"] = np.where(on, power, np.nan)
     m["_thr_a"] = float(thr.get(a, np.nan))
