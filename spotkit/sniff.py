@@ -171,15 +171,18 @@ def _open_binary(path: Path, compression):
 def _detect_encoding(path: Path, compression, head: bytes) -> str:
     """UTF-8 (BOM or not) unless some byte sequence is not UTF-8; then Latin-1."""
     dec = codecs.getincrementaldecoder("utf-8")()
+    buf = bytearray(1 << 23)
     try:
         with _open_binary(path, compression) as fh:
             while True:
-                block = fh.read(1 << 23)
-                if not block:
+                k = fh.readinto(buf)
+                if not k:
                     dec.decode(b"", final=True)
                     break
-                if not block.isascii():
-                    dec.decode(block)
+                # all bytes below 128 (ASCII, the usual file) is checked at memory speed;
+                # other blocks go through the decoder
+                if np.frombuffer(buf, np.uint8, k).max() >= 128:
+                    dec.decode(bytes(buf[:k]))
     except UnicodeDecodeError:
         return "latin-1"
     return "utf-8-sig" if head.startswith(codecs.BOM_UTF8) else "utf-8"
