@@ -64,6 +64,8 @@ class PathCache:
 
     def __init__(self):
         self.ids: tuple[dict, dict] = ({}, {})  # locator text -> number, tx and rx
+        # the texts of the numbers 0, 1, ... while they were met in category order
+        self.known = [np.zeros(0, dtype=object), np.zeros(0, dtype=object)]
         self.lat = [np.zeros(0), np.zeros(0)]
         self.lon = [np.zeros(0), np.zeros(0)]
         self.width = 0  # receiver numbers per row of the dense table
@@ -73,10 +75,18 @@ class PathCache:
         self.n_pairs = 0
         self.hashed: _HashedPathCache | None = None
 
-    def _numbers(self, side: int, cats: np.ndarray) -> np.ndarray:
-        """Number of each distinct locator text (decoding the new ones)."""
-        ids = self.ids[side]
-        new = [c for c in cats if c not in ids]  # cats are distinct
+    def _numbers(self, side: int, cats: np.ndarray) -> np.ndarray | None:
+        """Number of each distinct locator text (decoding the new ones); None when the
+        numbers are the positions in ``cats`` (categories that extend the ones seen so
+        far, as an ingest's growing registry of locators gives: no lookup per text)."""
+        ids, known = self.ids[side], self.known[side]
+        m = known.size
+        if cats.size >= m and len(ids) == m and np.array_equal(cats[:m], known):
+            new = list(cats[m:])
+            same = True
+        else:
+            new = [c for c in cats if c not in ids]  # cats are distinct
+            same = False
         if new:
             first = len(ids)
             for k, c in enumerate(new):
@@ -85,6 +95,10 @@ class PathCache:
                 np.asarray(new, dtype=object), "coerce"))
             self.lat[side] = np.concatenate([self.lat[side], lat])
             self.lon[side] = np.concatenate([self.lon[side], lon])
+            if same:
+                self.known[side] = np.concatenate([known, np.asarray(new, dtype=object)])
+        if same:
+            return None
         return np.fromiter((ids[c] for c in cats), dtype=np.int64, count=len(cats))
 
     def _ensure_table(self, ntx: int, nrx: int) -> bool:
@@ -110,8 +124,9 @@ class PathCache:
             return self.hashed.lookup(tx, rx)
         tx_cats = np.asarray(tx.categories.astype("str"), dtype=object)
         rx_cats = np.asarray(rx.categories.astype("str"), dtype=object)
-        tg = np.take(self._numbers(0, tx_cats), np.asarray(tx.codes))
-        rg = np.take(self._numbers(1, rx_cats), np.asarray(rx.codes))
+        tg, rg = (np.asarray(c.codes, dtype=np.int64) if num is None else
+                  np.take(num, np.asarray(c.codes))
+                  for c, num in ((tx, self._numbers(0, tx_cats)), (rx, self._numbers(1, rx_cats))))
         if not self._ensure_table(len(self.ids[0]), len(self.ids[1])):
             self.hashed = _HashedPathCache()
             self.table, self.width, self.vals = np.full(0, -1, dtype=np.int32), 0, []

@@ -537,3 +537,28 @@ def test_pieces_cut_at_line_ends_give_the_same_table(tmp_path, monkeypatch, piec
     _same_from_pandas_reader(got, path, monkeypatch, chunk_rows=50)
     assert got.rejects[C.SOURCE_ROW].tolist() == [11, 201, 301]
     _balanced(got)
+
+
+def test_path_cache_numbers_categories_that_do_not_extend_the_ones_seen():
+    # the cache numbers growing registries by position; categories in another order, or
+    # with gaps, must still give each row its own locators' geometry (oracle: geo's
+    # add_path_columns, which solves every row with geopy's / PROJ's geodesic)
+    from spotkit.geo import add_path_columns
+    from spotkit.pathcache import PathCache
+
+    cache = PathCache()
+    batches = [  # (tx categories, rx categories): extend, extend, reorder, subset, extend
+        (["JN58td", "IO91lk"], ["FN31pr"]),
+        (["JN58td", "IO91lk", "JO62"], ["FN31pr", "RE78ir"]),
+        (["JO62", "JN58td", "IO91lk"], ["RE78ir", "FN31pr"]),
+        (["IO91lk"], ["RE78ir"]),
+        (["JN58td", "IO91lk", "JO62", "PM95"], ["FN31pr", "RE78ir", "GF15vc"]),
+    ]
+    rng = np.random.default_rng(3)
+    for tx_cats, rx_cats in batches:
+        tx = pd.Categorical.from_codes(rng.integers(0, len(tx_cats), 40), tx_cats)
+        rx = pd.Categorical.from_codes(rng.integers(0, len(rx_cats), 40), rx_cats)
+        got = cache.lookup(tx, rx)
+        ref = add_path_columns(pd.DataFrame({C.TX_LOCATOR: tx, C.RX_LOCATOR: rx}))
+        for name, values in zip(C.DERIVED, got):
+            np.testing.assert_array_equal(values, ref[name].to_numpy(), err_msg=name)
