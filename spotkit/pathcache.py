@@ -124,9 +124,10 @@ class PathCache:
             return self.hashed.lookup(tx, rx)
         tx_cats = np.asarray(tx.categories.astype("str"), dtype=object)
         rx_cats = np.asarray(rx.categories.astype("str"), dtype=object)
-        tg, rg = (np.asarray(c.codes, dtype=np.int64) if num is None else
-                  np.take(num, np.asarray(c.codes))
-                  for c, num in ((tx, self._numbers(0, tx_cats)), (rx, self._numbers(1, rx_cats))))
+        tg, rg = (np.asarray(cat.codes, dtype=np.int64) if num is None
+                  else np.take(num, np.asarray(cat.codes))
+                  for cat, num in ((tx, self._numbers(0, tx_cats)),
+                                   (rx, self._numbers(1, rx_cats))))
         if not self._ensure_table(len(self.ids[0]), len(self.ids[1])):
             self.hashed = _HashedPathCache()
             self.table, self.width, self.vals = np.full(0, -1, dtype=np.int32), 0, []
