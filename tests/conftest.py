@@ -32,6 +32,22 @@ def demo_dir() -> Path:
     return DEMO
 
 
+@pytest.fixture
+def square_groups():
+    """Per-square comparison results with one cell of each kind: B clearly better
+    (JN58), no clear difference (FN31), heard from A only (PM95), from B only (IO91)."""
+    import pandas as pd
+
+    from spotkit import columns as C
+
+    return pd.DataFrame({
+        C.SQUARE: ["JN58", "FN31", "PM95", "IO91"],
+        C.B_MINUS_A: [2.0, 0.5, np.nan, np.nan],
+        C.CI_LOW: [1.0, -0.5, np.nan, np.nan], C.CI_HIGH: [3.0, 1.5, np.nan, np.nan],
+        C.BOTH: [50, 40, 0, 0], C.ONLY_A: [3, 2, 5, 0], C.ONLY_B: [4, 1, 0, 6],
+    })
+
+
 class Experiment:
     """Spots of one A/B experiment and what to pass to compare."""
 

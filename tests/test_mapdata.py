@@ -5,20 +5,14 @@ import subprocess
 import sys
 
 import numpy as np
-import pandas as pd
 import pytest
 
 from spotkit import columns as C
 from spotkit import mapdata
 
 
-def test_difference_cells_flags_one_sided_and_significance():
-    groups = pd.DataFrame({
-        C.SQUARE: ["JN58", "FN31", "PM95", "IO91"],
-        C.B_MINUS_A: [2.0, 0.5, np.nan, np.nan],
-        C.CI_LOW: [1.0, -0.5, np.nan, np.nan], C.CI_HIGH: [3.0, 1.5, np.nan, np.nan],
-        C.BOTH: [50, 40, 0, 0], C.ONLY_A: [3, 2, 5, 0], C.ONLY_B: [4, 1, 0, 6],
-    })
+def test_difference_cells_flags_one_sided_and_significance(square_groups):
+    groups = square_groups
     cells = mapdata.difference_cells(groups)
     assert cells.attrs["level"] == "square"
     assert cells["significant"].tolist() == [True, False, False, False]

@@ -116,14 +116,9 @@ def test_difference_map_symmetric_scale_solid_only_where_ci_excludes_zero(result
     assert n_solid > 0
 
 
-def test_difference_map_marks_one_sided_cells():
+def test_difference_map_marks_one_sided_cells(square_groups):
     # the cells themselves (significance, one-sidedness, positions): test_mapdata.py
-    groups = pd.DataFrame({
-        C.SQUARE: ["JN58", "FN31", "PM95", "IO91"],
-        C.B_MINUS_A: [2.0, 0.5, np.nan, np.nan],
-        C.CI_LOW: [1.0, -0.5, np.nan, np.nan], C.CI_HIGH: [3.0, 1.5, np.nan, np.nan],
-        C.BOTH: [50, 40, 0, 0], C.ONLY_A: [3, 2, 5, 0], C.ONLY_B: [4, 1, 0, 6],
-    })
+    groups = square_groups
     fig = maps.difference_map(groups, home="JN58td")
     ax = fig.axes[0]
     assert len(_by_gid(ax, "only-a")[0].get_offsets()) == 1
