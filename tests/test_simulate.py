@@ -542,3 +542,15 @@ def test_vertical_pattern_over_real_ground():
     g0 = quarter_wave_vertical_gain(20.0, f, "average", loss_ohm=0.0)
     g1 = quarter_wave_vertical_gain(20.0, f, "average", loss_ohm=73.13 / 2)
     assert g0 - g1 == pytest.approx(3.01, abs=0.01)
+
+
+def test_gain_table_frame_is_the_table_gain_db_interpolates():
+    # the DataFrame view of a band's gain table holds the values gain_db returns at the
+    # table's own grid points (rows elevation, columns bearing)
+    ant = vertical_antenna(("20m",))
+    frame = ant.table_frame("20m")
+    el, br = np.meshgrid(frame.index.to_numpy(), frame.columns.to_numpy(), indexing="ij")
+    np.testing.assert_allclose(ant.gain_db("20m", el, br, np.full(el.shape, 1000.0)),
+                               frame.to_numpy(), atol=1e-9)
+    with pytest.raises(ValueError, match="no gain table"):
+        ant.table_frame("40m")
