@@ -41,7 +41,6 @@ def make_spots(n_pairs: int, n_rx: int = 3000, seed: int = 0) -> pd.DataFrame:
     n_paths = int(n_pairs * 1.1)
     rx = rng.integers(0, n_rx, n_paths)
     slot = rng.integers(0, 7 * 720, n_paths)
-    band_i = slot % len(BANDS)
     key = np.unique(rx.astype(np.int64) * 10_000 + slot)
     rx, slot = (key // 10_000).astype(np.int64), key % 10_000
     band = np.asarray(BANDS)[slot % len(BANDS)]

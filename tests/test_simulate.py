@@ -451,8 +451,6 @@ def test_ten_metres_opens_by_day_at_the_path_midpoint():
 def test_gain_tables_interpolate_the_patterns():
     # the tables (0.5 deg x 5 deg grid, bilinear) against the pattern functions at points
     # off the grid: within 0.3 dB where the gain is above -10 dBi (away from nulls)
-    from spotkit.antenna import GainTable  # noqa: F401
-
     rng = np.random.default_rng(2)
     el = rng.uniform(3.0, 80.0, 400)
     az = rng.uniform(0.0, 360.0, 400)
