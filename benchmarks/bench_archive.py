@@ -1,7 +1,7 @@
 """Benchmark: a large partitioned spot archive aggregated on Dask, and bounded-memory ingest.
 
 1. Writes an archive of ``--rows`` spots (default 100 million) in the layout of
-   :mod:`spotkit.store` (``band=/day=`` directories, a manifest) under ``--dir`` (outside the
+   :mod:`spotkit.io.store` (``band=/day=`` directories, a manifest) under ``--dir`` (outside the
    repository), straight from numpy to Parquet with dictionary-coded calls and locators and
    only the columns the coverage needs plus a few. An archive of the same size already
    there is reused.
@@ -14,7 +14,7 @@
 3. Writes a time-ordered spot CSV three times larger than a memory cap (``--memory-mb``,
    default 1500 MiB; rows from about one million distinct locator pairs, one day of slots per
    500,000 rows) and ingests it into an archive with
-   :func:`spotkit.archive.ingest_to_dataset` (``memory_mb`` = the cap: duplicate keys of
+   :func:`spotkit.io.archive.ingest_to_dataset` (``memory_mb`` = the cap: duplicate keys of
    the latest slot day only) in a child process; prints the cap and the child's peak
    resident memory (target: under the cap). A cap below what the memory model needs is
    refused; then the run is made with small chunks and the refusal printed beside it.
@@ -47,11 +47,11 @@ import pyarrow as pa
 import pyarrow.parquet as pq
 
 from spotkit import columns as C
-from spotkit import archive, store
 from spotkit import distributed as D
 from spotkit.bands import BEACON_DIAL_KHZ
 from spotkit.errors import UsageError
-from spotkit.locator import latlon_to_locator
+from spotkit.geo.locator import latlon_to_locator
+from spotkit.io import archive, store
 from spotkit.units import POWER_LADDER_DBM
 
 BANDS = ["160m", "80m", "40m", "30m", "20m", "17m", "15m", "12m", "10m", "6m"]

@@ -19,11 +19,11 @@ import numpy as np
 import pandas as pd
 
 from spotkit import columns as C
-from spotkit.compare import compare_antennas, estimate_groups
-from spotkit.geo import add_path_columns
-from spotkit.locator import latlon_to_locator
-from spotkit.grouping import summarise_pairs
-from spotkit.pairing import pair_spots
+from spotkit.compare.estimate import compare_antennas, estimate_groups
+from spotkit.compare.grouping import summarise_pairs
+from spotkit.compare.pairing import pair_spots
+from spotkit.geo.geodesic import add_path_columns
+from spotkit.geo.locator import latlon_to_locator
 
 BANDS = ("40m", "20m", "15m", "10m")
 FREQ = {"40m": 7.0401e6, "20m": 14.0971e6, "15m": 21.0961e6, "10m": 28.1261e6}

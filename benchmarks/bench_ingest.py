@@ -7,7 +7,7 @@ Then measures, each in its own subprocess so that peak memory (VmHWM of the
 process; ru_maxrss where /proc is missing) is per measurement:
 
 1. ``pandas.read_csv(path)`` with default settings (the baseline);
-2. ``spotkit.ingest.ingest_to_parquet(path, out, chunk_rows=...)`` (streamed, bounded memory);
+2. ``spotkit.io.ingest.ingest_to_parquet(path, out, chunk_rows=...)`` (streamed, bounded memory);
 3. optionally (``--read-spots``) ``spotkit.read_spots(path)`` in one go.
 
 Each is measured ``--repeat`` times (default 3), interleaved, and the fastest run of each is
@@ -140,13 +140,13 @@ def main(argv=None) -> int:
     runs = {
         "pandas.read_csv": f"import pandas as pd\ndf = pd.read_csv({str(csv_path)!r})\n"
                            "extra = len(df)",
-        "ingest_to_parquet": "from spotkit.ingest import ingest_to_parquet\n"
+        "ingest_to_parquet": "from spotkit.io.ingest import ingest_to_parquet\n"
                              f"s = ingest_to_parquet({str(csv_path)!r}, "
                              f"{str(tmp / 'out.parquet')!r}, chunk_rows={args.chunk_rows})\n"
                              "extra = [s.rows_read, s.accepted, s.rejected, s.duplicates]",
     }
     if args.read_spots:
-        runs["read_spots"] = ("from spotkit.ingest import read_spots\n"
+        runs["read_spots"] = ("from spotkit.io.ingest import read_spots\n"
                               f"r = read_spots({str(csv_path)!r})\n"
                               "s = r.summary\nextra = [s.rows_read, s.accepted, s.rejected, "
                               "s.duplicates]")

@@ -3,8 +3,8 @@
 1. A coverage map of 50,000 distinct receivers with their great-circle paths
    (target: render < 15 s on 2 cores).
 2. A difference map aggregated from 1 million pairs: compress the pairs per band and locator
-   square (spotkit.grouping.summarise_pairs), estimate B minus A per square
-   (spotkit.compare.estimate_groups) and draw it (target: render < 15 s; the aggregation
+   square (spotkit.compare.grouping.summarise_pairs), estimate B minus A per square
+   (spotkit.compare.estimate.estimate_groups) and draw it (target: render < 15 s; the aggregation
    time is printed beside it).
 
 The data are invented here (receivers at random places on land, Q-prefix calls). Run:
@@ -23,8 +23,8 @@ import numpy as np
 import pandas as pd
 
 from spotkit import columns as C
-from spotkit.basemap import is_land
-from spotkit.locator import latlon_to_locator, locator_to_latlon
+from spotkit.geo.locator import latlon_to_locator, locator_to_latlon
+from spotkit.viz.basemap import is_land
 
 HOME = "JN58td"
 TARGET_S = 15.0
@@ -42,7 +42,7 @@ def _places(n, rng):
 
 
 def coverage_spots(n_receivers: int, rng) -> pd.DataFrame:
-    from spotkit.geo import geodesic_inverse
+    from spotkit.geo.geodesic import geodesic_inverse
 
     lat, lon = _places(n_receivers, rng)
     loc = latlon_to_locator(lat, lon, 8)
@@ -90,9 +90,9 @@ def main(argv=None) -> int:
     args = ap.parse_args(argv)
     import matplotlib.pyplot as plt
 
-    from spotkit import maps
-    from spotkit.compare import estimate_groups
-    from spotkit.grouping import summarise_pairs
+    from spotkit.compare.estimate import estimate_groups
+    from spotkit.compare.grouping import summarise_pairs
+    from spotkit.viz import maps
 
     rng = np.random.default_rng(20261201)
     out = tempfile.mkdtemp(prefix="bench_maps_")

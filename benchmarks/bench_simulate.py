@@ -1,6 +1,6 @@
 """Benchmark: simulate a week of one station's beacons heard by 500 receivers.
 
-Runs :func:`spotkit.simulate.simulate_spots` (simultaneous design, two bands, 7 days,
+Runs :func:`spotkit.sim.simulate.simulate_spots` (simultaneous design, two bands, 7 days,
 500 far receivers, every slot on the air so the work is the largest the design allows)
 and, separately, the default 25 % transmit fraction; prints the wall time beside the
 target (a few seconds; the issue asks for "seconds"), spots and pairs produced, and the
@@ -24,7 +24,7 @@ from pathlib import Path
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
-from spotkit.simulate import DESIGNS, simulate_spots  # noqa: E402
+from spotkit.sim.simulate import DESIGNS, simulate_spots  # noqa: E402
 
 TARGET_S = 10.0
 

@@ -1,7 +1,7 @@
 """The glossary: every column name spotkit uses, with its unit and dtype.
 
 This module is the only place where column names are spelled out. Readers map a
-file's own headings onto these names at the boundary (:mod:`spotkit.ingest`);
+file's own headings onto these names at the boundary (:mod:`spotkit.io.ingest`);
 everything else imports the constants from here.
 
 Units are the house units: time in UTC, frequency in Hz, SNR in dB in a
@@ -36,7 +36,7 @@ REVERSE_BEARING = "reverse_bearing_deg"
 SOURCE_FILE = "source_file"
 SOURCE_ROW = "source_row"
 
-# --- optional path columns (spotkit.geo / spotkit.sun helpers) -------------------------
+# --- optional path columns (spotkit.geo.geodesic / spotkit.geo.sun helpers) -------------------------
 MID_LAT = "mid_lat"
 MID_LON = "mid_lon"
 HOPS = "hops"
@@ -44,12 +44,12 @@ ELEVATION = "elevation_deg"
 TX_SUN = "tx_sun_elevation_deg"
 RX_SUN = "rx_sun_elevation_deg"
 MID_SUN = "mid_sun_elevation_deg"
-PATH_LIGHT = "path_light"  # "day" | "night" | "greyline" | "mixed" (spotkit.sun.path_light)
+PATH_LIGHT = "path_light"  # "day" | "night" | "greyline" | "mixed" (spotkit.geo.sun.path_light)
 
 # --- derived analysis columns -----------------------------------------------------------
 SNR_PER_W = "snr_per_w_db"  # SNR normalised to 1 W (30 dBm) transmit power
 
-# --- A/B pairs (spotkit.pairing) -----------------------------------------------------------
+# --- A/B pairs (spotkit.compare.pairing) -----------------------------------------------------------
 ANTENNA = "antenna"  # "A" | "B": which antenna a spot belongs to
 CLUSTER = "cluster"  # bootstrap unit: receiver (transmit designs) or transmitter (receive design)
 SNR_A = "snr_a_db"  # A's SNR normalised to 1 W [dB]; NaN when A was not heard
@@ -69,7 +69,7 @@ PERIOD_KINDS = ("before", "after")
 #: was on the air but not heard (VALUE: upper bound of its target-minus-control SNR [dB])
 PERIOD_BOUND_KINDS = ("before_below", "after_below")
 #: compressed pair table: pairs in which A (B) was heard exactly at its receiver's decode
-#: threshold (VALUE 0); used for the threshold-density correction of spotkit.compare
+#: threshold (VALUE 0); used for the threshold-density correction of spotkit.compare.estimate
 EDGE_KINDS = ("edge_a", "edge_b")
 FAR_CALL = "far_call"  # the station at the other end of a pair: receiver (transmit designs)
 FAR_LOCATOR = "far_locator"  # or transmitter (receive design)
@@ -81,7 +81,7 @@ SLOT_B = "slot_b_utc"  # alternating design: slot of B's transmission paired wit
 SCHEDULE_START = "start"
 SCHEDULE_END = "end"
 
-# --- comparison results (spotkit.compare) -----------------------------------------------------
+# --- comparison results (spotkit.compare.estimate) -----------------------------------------------------
 B_MINUS_A = "b_minus_a_db"
 CI_LOW = "ci_low_db"
 CI_HIGH = "ci_high_db"
@@ -107,12 +107,12 @@ P_WILCOXON = "p_wilcoxon"  # Wilcoxon signed-rank p of the both-heard difference
 P_SIGN = "p_sign"  # sign-test p of the both-heard differences
 P_MCNEMAR = "p_mcnemar"  # McNemar exact p on only_a vs only_b
 SIGMA = "sigma_db"  # fitted spread of B-A per pair [dB]
-CORRECTION = "threshold_correction_db"  # added to the censored MLE (spotkit.compare) [dB]
+CORRECTION = "threshold_correction_db"  # added to the censored MLE (spotkit.compare.estimate) [dB]
 CLUSTERS = "clusters"  # number of bootstrap clusters (receivers / transmitters) in the group
 NOTE = "note"  # plain-language remark (too few pairs, no interval...)
 GROUP = "group"  # readable group label
 
-# --- reach (spotkit.reach) ------------------------------------------------------------------
+# --- reach (spotkit.compare.reach) ------------------------------------------------------------------
 STATIONS = "stations"  # distinct far stations reached
 STATIONS_ONLY = "stations_only"  # far stations reached by this antenna and never by the other
 HEARD = "heard"  # pairs in which this antenna was heard
@@ -123,7 +123,7 @@ DISTANCE_MEDIAN = "distance_median_km"  # over the distinct far stations reached
 DISTANCE_P90 = "distance_p90_km"
 DISTANCE_FARTHEST = "distance_farthest_km"
 
-# --- planning (spotkit.plan) and checks against a simulation's truth -------------------------
+# --- planning (spotkit.plan.duration) and checks against a simulation's truth -------------------------
 HOURS = "hours"  # run length [h]
 SE = "se_db"  # standard error of B minus A [dB]
 CI_WIDTH = "ci_width_db"  # width of the confidence interval of B minus A [dB]

@@ -21,10 +21,10 @@ from typing import Literal
 import numpy as np
 import pandas as pd
 
-from . import columns as C
-from . import store
-from .errors import InputError, UsageError
-from .units import snr_per_watt
+from spotkit import columns as C
+from spotkit.errors import InputError, UsageError
+from spotkit.io import store
+from spotkit.units import snr_per_watt
 
 # --- output columns of the coverage table -------------------------------------------------
 #: Distinct stations heard (receivers with ``side="rx"``, transmitters with ``side="tx"``).

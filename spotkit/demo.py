@@ -13,7 +13,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from . import columns as C
+from spotkit import columns as C
 
 #: The demo scenario's experiments: file stem -> (design, breakdown for the report).
 DEMO_EXPERIMENTS = {
@@ -38,9 +38,9 @@ def truth_check(result, truth, distance_edges=None) -> pd.DataFrame:
 
     Parameters
     ----------
-    result : spotkit.compare.ComparisonResult
+    result : spotkit.compare.estimate.ComparisonResult
         A comparison grouped by band and distance.
-    truth : spotkit.simulate.Truth
+    truth : spotkit.sim.truth.Truth
         The scenario's truth.
     distance_edges : sequence of float, optional
         Distance edges [km] (default: those of the result).
@@ -95,10 +95,10 @@ def run_demo(out_dir="out", *, data_dir=None, n_boot: int = 1000, progress: bool
     dict
         experiment -> {"result": ComparisonResult, "truth_check": DataFrame, "report": Path}
     """
-    from .ingest import read_spots
-    from .report import standard_comparisons, write_report
-    from .simulate import Truth
-    from .store import write_spots
+    from spotkit.io.ingest import read_spots
+    from spotkit.io.store import write_spots
+    from spotkit.report import standard_comparisons, write_report
+    from spotkit.sim.truth import Truth
 
     say = echo or (lambda *a, **k: None)
     data = Path(data_dir) if data_dir else demo_data_dir()
@@ -136,7 +136,7 @@ def run_demo(out_dir="out", *, data_dir=None, n_boot: int = 1000, progress: bool
         if stem == "simultaneous":
             import matplotlib.pyplot as plt
 
-            from . import maps
+            from spotkit.viz import maps
 
             for fname, fig in (("coverage.png", maps.coverage_map(ing.spots)),
                                ("difference.png", maps.difference_map(map_result))):

@@ -5,7 +5,7 @@ a small **mergeable partial** (a table of counts), a function that merges partia
 function that turns the merged partial into the answer. The pandas path runs the three on
 the whole table; the Dask path maps the first over the partitions of a
 :mod:`dask.dataframe` (one Parquet file of a partitioned archive per partition, see
-:mod:`spotkit.store`), merges the partials in a tree, and finishes on the client. There is
+:mod:`spotkit.io.store`), merges the partials in a tree, and finishes on the client. There is
 no second implementation of the maths, so the two paths give the same answers:
 
 * **coverage** (:func:`coverage_partials`, :func:`combine_coverage`,
@@ -50,14 +50,19 @@ from typing import Any, Literal
 import numpy as np
 import pandas as pd
 
-from . import columns as C
-from . import store
-from .coverage import (  # noqa: F401  (re-exported: the pandas path of the coverage table)
-    COVERAGE_COLUMNS, COVERAGE_KEYS, SIDES, SNR_MAX, SNR_MEAN, SNR_MEDIAN, STATIONS,
-    VALUE_DECIMALS, CoverageKey, CoveragePartials, Side, _check_choice, combine_coverage,
-    coverage_columns_needed, coverage_partials, coverage_table, finish_coverage,
+from spotkit import columns as C
+from spotkit.coverage import (
+    SIDES,
+    CoverageKey,
+    Side,
+    _check_choice,
+    combine_coverage,
+    coverage_columns_needed,
+    coverage_partials,
+    finish_coverage,
 )
-from .errors import InputError, UsageError
+from spotkit.errors import InputError, UsageError
+from spotkit.io import store
 
 # --- Dask ------------------------------------------------------------------------------------
 Scheduler = Any  # None | "threads" | "processes" | "sync" | "local" | "tcp://..." | Client
@@ -137,7 +142,7 @@ def read_archive_dask(root, *, columns: Sequence[str] | None = None, bands=None,
     (or the selection's) whole period at once.
 
     Partitions whose band/day directory cannot match the selection are not opened; inside a
-    file the selection is pushed down to Parquet (see :func:`spotkit.store.read_dataset`).
+    file the selection is pushed down to Parquet (see :func:`spotkit.io.store.read_dataset`).
 
     Returns
     -------
@@ -205,7 +210,7 @@ def coverage_dask(source, by: Sequence[CoverageKey] = ("band", "square"), *, sid
     Parameters
     ----------
     source : str, path-like or dask.dataframe.DataFrame
-        Archive directory (see :mod:`spotkit.store`) or a Dask DataFrame of spots.
+        Archive directory (see :mod:`spotkit.io.store`) or a Dask DataFrame of spots.
     by, side
         As :func:`coverage_partials`.
     scheduler
@@ -214,7 +219,7 @@ def coverage_dask(source, by: Sequence[CoverageKey] = ("band", "square"), *, sid
         Partials merged per tree node.
     bands, start, end, tx_calls, rx_calls, locator_prefix
         Selection pushed down to Parquet (archive paths only); see
-        :func:`spotkit.store.dataset_filter`.
+        :func:`spotkit.io.store.dataset_filter`.
 
     Returns
     -------
@@ -245,7 +250,7 @@ class ComparePartials:
     Attributes
     ----------
     overall, counts : pandas.DataFrame
-        Compressed pair tables (:func:`spotkit.grouping.summarise_pairs`) without and with
+        Compressed pair tables (:func:`spotkit.compare.grouping.summarise_pairs`) without and with
         the group keys.
     clusters : set of str
         Clusters (bootstrap units) that have pairs.
@@ -276,14 +281,14 @@ def combine_receivers(parts: Iterable[pd.DataFrame]) -> pd.DataFrame:
 
 
 def thresholds_from_partials(partials: pd.DataFrame, min_reports: int = 20) -> pd.Series:
-    """Receiver thresholds exactly as :func:`spotkit.pairing.receiver_thresholds` on the whole
+    """Receiver thresholds exactly as :func:`spotkit.compare.pairing.receiver_thresholds` on the whole
     table, from merged :func:`receiver_partials`.
 
     The pairing function needs only each receiver's minimum and whether it has at least
     ``min_reports`` reports, so it is run on a stand-in table of ``min(count, min_reports)``
     copies of each receiver's minimum.
     """
-    from .pairing import receiver_thresholds
+    from spotkit.compare.pairing import receiver_thresholds
 
     reps = np.minimum(partials["count"].to_numpy(dtype=np.int64), int(min_reports))
     stand_in = pd.DataFrame({
@@ -307,7 +312,7 @@ def compare_partials(df: pd.DataFrame, design: str, a: str, b: str | None = None
                      require_open_path: bool = True) -> ComparePartials:
     """Pair one partition and compress its pairs (the per-partition work of a comparison).
 
-    Runs :func:`spotkit.pairing.pair_spots` and :func:`spotkit.grouping.summarise_pairs`.
+    Runs :func:`spotkit.compare.pairing.pair_spots` and :func:`spotkit.compare.grouping.summarise_pairs`.
     A partition without the calls the design needs gives empty tables; so does one where
     nothing pairs. With ``thresholds`` (receiver thresholds over the whole data, see
     :func:`thresholds_from_partials`) the censoring limits are moved from the partition's
@@ -315,9 +320,9 @@ def compare_partials(df: pd.DataFrame, design: str, a: str, b: str | None = None
     the table it is given, and the limit is ``threshold - (power - 30)`` - so the pairs equal
     those of the whole table.
     """
-    from .errors import NoPairsError
-    from .grouping import summarise_pairs
-    from .pairing import pair_spots, receiver_thresholds
+    from spotkit.compare.grouping import summarise_pairs
+    from spotkit.compare.pairing import pair_spots, receiver_thresholds
+    from spotkit.errors import NoPairsError
 
     group_options = group_options or {}
     empty = _empty_compare(by, group_options)
@@ -360,13 +365,13 @@ def compare_partials(df: pd.DataFrame, design: str, a: str, b: str | None = None
 
 
 def _parse_by(by) -> tuple:
-    from .grouping import parse_by
+    from spotkit.compare.grouping import parse_by
 
     return parse_by(by)
 
 
 def _empty_compare(by, group_options) -> ComparePartials:
-    from .grouping import group_columns
+    from spotkit.compare.grouping import group_columns
 
     cols = list(group_columns(_parse_by(by))) + [C.CLUSTER, C.KIND, C.VALUE, C.COUNT]
     empty = pd.DataFrame({c: pd.Series(dtype=object) for c in cols})
@@ -374,8 +379,8 @@ def _empty_compare(by, group_options) -> ComparePartials:
 
 
 def combine_compare(partials: Iterable[ComparePartials]) -> ComparePartials:
-    """Merge comparison partials: sum counts (:func:`spotkit.grouping.merge_summaries`)."""
-    from .grouping import merge_summaries
+    """Merge comparison partials: sum counts (:func:`spotkit.compare.grouping.merge_summaries`)."""
+    from spotkit.compare.grouping import merge_summaries
 
     parts = list(partials)
     if not parts:
@@ -403,17 +408,17 @@ def finish_compare(merged: ComparePartials, design: str, a: str, b: str | None =
                    by=(), n_boot: int = 1000, seed: int = 0, min_pairs: int = 30,
                    confidence: float = 0.95, options: dict | None = None,
                    threshold_correction: str = "none", missed_reports: str = "fit"):
-    """Estimate B minus A from merged partials, as :func:`spotkit.compare.compare_antennas`.
+    """Estimate B minus A from merged partials, as :func:`spotkit.compare.estimate.compare_antennas`.
 
     Returns
     -------
-    spotkit.compare.ComparisonResult
+    spotkit.compare.estimate.ComparisonResult
         ``pairs`` is an empty table: the distributed path keeps only the compressed counts.
     """
-    from .compare import RESULT_COLUMNS, ComparisonResult, estimate_groups
-    from .errors import NoPairsError
-    from .grouping import group_columns
-    from .pairing import PAIR_COLUMNS
+    from spotkit.compare.estimate import RESULT_COLUMNS, ComparisonResult, estimate_groups
+    from spotkit.compare.grouping import group_columns
+    from spotkit.compare.pairing import PAIR_COLUMNS
+    from spotkit.errors import NoPairsError
 
     keys = _parse_by(by)
     if len(merged.overall) == 0:
@@ -458,11 +463,11 @@ def compare_dask(source, design: str, a: str, b: str | None = None, *, by=(), sc
     (:func:`receiver_partials`), merged into the receiver thresholds of the whole data;
     (2) :func:`compare_partials` per partition (pairing + compressed pair table), merged by
     summing counts (:func:`combine_compare`), then one
-    :func:`spotkit.compare.estimate_groups` (:func:`finish_compare`). Parameters are those
-    of :func:`spotkit.compare.compare_antennas` plus ``scheduler``, ``split_every`` and a
+    :func:`spotkit.compare.estimate.estimate_groups` (:func:`finish_compare`). Parameters are those
+    of :func:`spotkit.compare.estimate.compare_antennas` plus ``scheduler``, ``split_every`` and a
     selection pushed down to Parquet (``bands``, ``start``, ``end`` [UTC]).
 
-    From an archive the result equals :func:`~spotkit.compare.compare_antennas` on the
+    From an archive the result equals :func:`~spotkit.compare.estimate.compare_antennas` on the
     whole table (same seed, same bootstrap) for every design: the second pass reads only
     the reports of the calls under test (pushed down to Parquet), one partition per file for
     the simultaneous and receive designs; the alternating design's reports form a single
@@ -474,12 +479,12 @@ def compare_dask(source, design: str, a: str, b: str | None = None, *, by=(), sc
 
     Returns
     -------
-    spotkit.compare.ComparisonResult
+    spotkit.compare.estimate.ComparisonResult
         With an empty ``pairs`` table.
     """
     import dask
 
-    from .grouping import DEFAULT_DISTANCE_EDGES, DEFAULT_ELEVATION_EDGES
+    from spotkit.compare.grouping import DEFAULT_DISTANCE_EDGES, DEFAULT_ELEVATION_EDGES
 
     keys = _parse_by(by)
     group_options = dict(
@@ -548,24 +553,21 @@ def _union(sets) -> set:
 
 
 def enrich_dask(ddf):
-    """Add the path columns (:func:`spotkit.geo.add_path_columns`) to every partition.
+    """Add the path columns (:func:`spotkit.geo.geodesic.add_path_columns`) to every partition.
 
     Returns
     -------
     dask.dataframe.DataFrame
         Lazy; each partition solves its own distinct locator pairs once.
     """
-    from .geo import add_path_columns
+    from spotkit.geo.geodesic import add_path_columns
 
     meta = add_path_columns(ddf._meta)
     return ddf.map_partitions(add_path_columns, meta=meta)
 
 
 __all__ = [
-    "STATIONS", "SNR_MEAN", "SNR_MEDIAN", "SNR_MAX", "COVERAGE_COLUMNS", "COVERAGE_KEYS",
-    "CoveragePartials", "coverage_columns_needed", "coverage_partials", "combine_coverage",
-    "finish_coverage", "coverage_table", "dask_scheduler", "read_archive_dask", "coverage_dask",
-    "enrich_dask", "ComparePartials", "receiver_partials", "combine_receivers",
-    "thresholds_from_partials", "compare_partials", "combine_compare", "finish_compare",
-    "compare_dask",
+    "dask_scheduler", "read_archive_dask", "coverage_dask", "enrich_dask",
+    "ComparePartials", "receiver_partials", "combine_receivers", "thresholds_from_partials",
+    "compare_partials", "combine_compare", "finish_compare", "compare_dask",
 ]

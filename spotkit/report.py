@@ -16,8 +16,8 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from . import __version__
-from . import columns as C
+from spotkit import __version__
+from spotkit import columns as C
 
 #: One line that says what spotkit does (the first line of every report).
 JOB = ("spotkit compares two amateur-radio antennas with numbers, from weak-signal beacon "
@@ -120,7 +120,7 @@ def data_summary(spots: pd.DataFrame, ingest_summary=None) -> pd.DataFrame:
         ("receivers", f"{spots[C.RX_CALL].nunique():,}"),
     ]
     per_band = spots[C.BAND].astype(str).value_counts()
-    from .bands import sort_bands
+    from spotkit.bands import sort_bands
 
     rows.append(("spots per band", ", ".join(f"{b}: {per_band[b]:,}"
                                              for b in sort_bands(per_band.index))))
@@ -177,7 +177,7 @@ def _table_html(df: pd.DataFrame, left=("group", "item", "value", "verdict")) ->
 
 def _figures(spots, results, map_result, progress: bool):
     """(caption, data URI) for every figure of the report; failures are reported, not hidden."""
-    from . import maps, plots
+    from spotkit.viz import maps, plots
 
     def fig_of(obj):
         return obj if hasattr(obj, "savefig") else obj.figure
@@ -242,7 +242,7 @@ def build_report(spots: pd.DataFrame, results, *, ingest_summary=None, map_resul
         and distance, and by band, distance and bearing. The first gives the headline; each
         gets a verdict table (long ones folded); figures use the first that has the groups
         a figure needs.
-    ingest_summary : spotkit.ingest.IngestSummary, optional
+    ingest_summary : spotkit.io.ingest.IngestSummary, optional
         Adds rows read / set aside / duplicates to the data summary.
     map_result : ComparisonResult, optional
         A comparison grouped by locator square (or receiver) for the difference map.
@@ -317,7 +317,7 @@ def standard_comparisons(spots: pd.DataFrame, design: str, a: str, b: str | None
     Parameters
     ----------
     spots, design, a, b
-        As in :func:`spotkit.compare.compare_antennas`.
+        As in :func:`spotkit.compare.estimate.compare_antennas`.
     by : sequence of str, optional
         An extra, finer breakdown asked for by the user (shown last, folded when long).
     breakdowns : sequence of tuple of str
@@ -337,7 +337,7 @@ def standard_comparisons(spots: pd.DataFrame, design: str, a: str, b: str | None
     """
     from tqdm.auto import tqdm
 
-    from .compare import compare_antennas
+    from spotkit.compare.estimate import compare_antennas
 
     wanted = [tuple(x) for x in breakdowns]
     if by:

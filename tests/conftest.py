@@ -59,7 +59,7 @@ class Experiment:
 def sim():
     """The demo data's simultaneous-transmit experiment (demo_data/README.md): the invented
     station Q1ABC (antenna A) and Q1ABD (antenna B)."""
-    from spotkit.ingest import load_spots
+    from spotkit.io.ingest import load_spots
 
     spots = load_spots(DEMO / "simultaneous.csv.gz")
     return Experiment(spots, "simultaneous", "Q1ABC", "Q1ABD")

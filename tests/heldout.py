@@ -1,6 +1,6 @@
 """An independent, deliberately simple spot generator for held-out checks of the comparison.
 
-It shares no code with :mod:`spotkit.simulate`: a different model, written separately, so
+It shares no code with :mod:`spotkit.sim.simulate`: a different model, written separately, so
 that the estimator is not only checked against the simulator it was developed with.
 
 Model (all invented; test-only):
@@ -26,8 +26,8 @@ import numpy as np
 import pandas as pd
 
 from spotkit import columns as C
-from spotkit.geo import add_path_columns
-from spotkit.locator import latlon_to_locator
+from spotkit.geo.geodesic import add_path_columns
+from spotkit.geo.locator import latlon_to_locator
 
 HOME = "JN47ab"
 CALL_A, CALL_B = "Q1HOA", "Q1HOB"

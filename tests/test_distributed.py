@@ -1,7 +1,7 @@
 """Tests for spotkit.distributed: the same per-partition functions on pandas and on Dask.
 
 Oracles: plain pandas groupby aggregations (count, nunique, mean, median, max) computed
-directly on the whole table, and spotkit.geo on the whole table for the enrichment.
+directly on the whole table, and spotkit.geo.geodesic on the whole table for the enrichment.
 Dask runs on a distributed.LocalCluster with 2 in-process workers started by the tests.
 """
 from __future__ import annotations
@@ -9,14 +9,14 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 import pytest
+from factories import make_spots
 
 from spotkit import columns as C
+from spotkit import coverage as CV
 from spotkit import distributed as D
-from spotkit import store
 from spotkit.errors import UsageError
+from spotkit.io import store
 from spotkit.units import snr_per_watt
-
-from test_store import make_spots
 
 
 @pytest.fixture(scope="module")
@@ -48,10 +48,10 @@ def naive_coverage(df, keys, station):
     g = x.groupby(keys, observed=True)
     return pd.DataFrame({
         C.COUNT: g.size(),
-        D.STATIONS: g[station].nunique(),
-        D.SNR_MEAN: g[C.SNR_PER_W].mean(),
-        D.SNR_MEDIAN: g[C.SNR_PER_W].median(),
-        D.SNR_MAX: g[C.SNR_PER_W].max(),
+        CV.STATIONS: g[station].nunique(),
+        CV.SNR_MEAN: g[C.SNR_PER_W].mean(),
+        CV.SNR_MEDIAN: g[C.SNR_PER_W].median(),
+        CV.SNR_MAX: g[C.SNR_PER_W].max(),
     })
 
 
@@ -70,9 +70,9 @@ def with_keys(df):
     (("rx_call",), "tx", [C.RX_CALL], C.TX_CALL),
 ])
 def test_coverage_table_matches_pandas_groupby(spots, by, side, keys, station):
-    got = D.coverage_table(spots, by, side=side)
+    got = CV.coverage_table(spots, by, side=side)
     want = naive_coverage(with_keys(spots), keys, station)
-    assert list(got.columns) == keys + D.COVERAGE_COLUMNS
+    assert list(got.columns) == keys + CV.COVERAGE_COLUMNS
     got_i = got.assign(**{k: got[k].astype(object) if k != C.HOUR else got[k]
                           for k in keys}).set_index(keys)
     want = want.reset_index()
@@ -81,52 +81,52 @@ def test_coverage_table_matches_pandas_groupby(spots, by, side, keys, station):
     got_i = got_i.loc[want.index]
     assert len(got) == len(want)
     np.testing.assert_array_equal(got_i[C.COUNT], want[C.COUNT])  # counts exact
-    np.testing.assert_array_equal(got_i[D.STATIONS], want[D.STATIONS])
-    for col in (D.SNR_MEAN, D.SNR_MEDIAN, D.SNR_MAX):
+    np.testing.assert_array_equal(got_i[CV.STATIONS], want[CV.STATIONS])
+    for col in (CV.SNR_MEAN, CV.SNR_MEDIAN, CV.SNR_MAX):
         np.testing.assert_allclose(got_i[col], want[col], rtol=0, atol=1e-9)  # dB
 
 
 def test_coverage_whole_table_without_keys(spots):
-    got = D.coverage_table(spots, [])
+    got = CV.coverage_table(spots, [])
     v = snr_per_watt(spots[C.SNR], spots[C.POWER])
     assert got[C.COUNT].item() == len(spots)
-    assert got[D.STATIONS].item() == spots[C.RX_CALL].nunique()
-    assert got[D.SNR_MEDIAN].item() == pytest.approx(np.median(v), abs=1e-9)
+    assert got[CV.STATIONS].item() == spots[C.RX_CALL].nunique()
+    assert got[CV.SNR_MEDIAN].item() == pytest.approx(np.median(v), abs=1e-9)
 
 
 def test_partials_merge_in_any_split(spots, rng):
     by = ("band", "square", "hour")
-    want = D.coverage_table(spots, by)
+    want = CV.coverage_table(spots, by)
     for n_parts in (2, 7, 31):
         labels = rng.integers(0, n_parts, len(spots))
-        parts = [D.coverage_partials(p, by) for _, p in spots.groupby(labels)]
+        parts = [CV.coverage_partials(p, by) for _, p in spots.groupby(labels)]
         # merge in two stages, as a Dask tree does
         half = len(parts) // 2
-        merged = D.combine_coverage([D.combine_coverage(parts[:half] or parts[:1]),
-                                     D.combine_coverage(parts[half:])]) if half else \
-            D.combine_coverage(parts)
-        pd.testing.assert_frame_equal(D.finish_coverage(merged), want)
+        merged = CV.combine_coverage([CV.combine_coverage(parts[:half] or parts[:1]),
+                                     CV.combine_coverage(parts[half:])]) if half else \
+            CV.combine_coverage(parts)
+        pd.testing.assert_frame_equal(CV.finish_coverage(merged), want)
 
 
 def test_median_even_and_missing_values():
     df = make_spots(4, seed=2).assign(**{C.BAND: "20m", C.RX_LOCATOR: "JN58td"})
     df[C.POWER] = 30.0
     df[C.SNR] = [-20.0, -10.0, -13.0, np.nan]
-    got = D.coverage_table(C.apply_dtypes(df), ["band"])
+    got = CV.coverage_table(C.apply_dtypes(df), ["band"])
     assert got[C.COUNT].item() == 4  # a spot without SNR still counts as a spot
-    assert got[D.SNR_MEDIAN].item() == pytest.approx(-13.0, abs=1e-12)  # median of 3
+    assert got[CV.SNR_MEDIAN].item() == pytest.approx(-13.0, abs=1e-12)  # median of 3
     df[C.SNR] = [-20.0, -10.0, -13.0, -11.0]
-    got = D.coverage_table(C.apply_dtypes(df), ["band"])
-    assert got[D.SNR_MEDIAN].item() == pytest.approx(-12.0, abs=1e-12)  # (-13 + -11) / 2
+    got = CV.coverage_table(C.apply_dtypes(df), ["band"])
+    assert got[CV.SNR_MEDIAN].item() == pytest.approx(-12.0, abs=1e-12)  # (-13 + -11) / 2
 
 
 def test_coverage_bad_arguments(spots):
     with pytest.raises(ValueError, match="valid: band, square"):
-        D.coverage_table(spots, ["continent"])
+        CV.coverage_table(spots, ["continent"])
     with pytest.raises(ValueError, match="valid: rx, tx"):
-        D.coverage_table(spots, ["band"], side="both")
+        CV.coverage_table(spots, ["band"], side="both")
     with pytest.raises(UsageError, match="repeat"):
-        D.coverage_table(spots, ["band", "band"])
+        CV.coverage_table(spots, ["band", "band"])
     with pytest.raises(UsageError, match="scheduler"):
         with D.dask_scheduler(3.5):
             pass
@@ -134,7 +134,7 @@ def test_coverage_bad_arguments(spots):
 
 def test_coverage_dask_equals_pandas_on_local_cluster(archive, spots, client):
     for by, side in [(("band", "square"), "rx"), (("band", "field", "hour"), "tx")]:
-        want = D.coverage_table(spots, by, side=side)
+        want = CV.coverage_table(spots, by, side=side)
         got = D.coverage_dask(archive, by, side=side, scheduler=client, split_every=3)
         pd.testing.assert_frame_equal(got, want)  # exact: same partial maths, merged
 
@@ -142,16 +142,16 @@ def test_coverage_dask_equals_pandas_on_local_cluster(archive, spots, client):
 def test_coverage_dask_selection_equals_pandas(archive, spots, client):
     t0, t1 = pd.Timestamp("2026-11-30 23:00", tz="UTC"), pd.Timestamp("2026-12-01 05:00", tz="UTC")
     keep = (spots[C.BAND].isin(["20m", "10m"]) & (spots[C.SLOT] >= t0) & (spots[C.SLOT] < t1))
-    want = D.coverage_table(spots.loc[keep], ("band", "square"))
+    want = CV.coverage_table(spots.loc[keep], ("band", "square"))
     got = D.coverage_dask(archive, ("band", "square"), bands=["20m", "10m"], start=t0, end=t1,
                           scheduler=client)
     pd.testing.assert_frame_equal(got, want)
     got = D.coverage_dask(archive, ("band",), scheduler="sync")
-    pd.testing.assert_frame_equal(got, D.coverage_table(spots, ("band",)))
+    pd.testing.assert_frame_equal(got, CV.coverage_table(spots, ("band",)))
 
 
 def test_enrichment_on_dask_equals_pandas(archive, spots, client):
-    from spotkit.geo import add_path_columns
+    from spotkit.geo.geodesic import add_path_columns
 
     cols = [C.SOURCE_ROW, C.TX_LOCATOR, C.RX_LOCATOR]
     ddf = D.read_archive_dask(archive, columns=cols)
@@ -192,7 +192,7 @@ def assert_same_groups(got, want, keys):
 @pytest.fixture(scope="module")
 def sim_archive(tmp_path_factory):
     """Simulated simultaneous-transmit run over 2 days (crossing midnight), as an archive."""
-    from spotkit.simulate import simulate_spots
+    from spotkit.sim.simulate import simulate_spots
 
     sim = simulate_spots("simultaneous", days=2, seed=3, n_receivers=60, start="2026-03-02")
     root = tmp_path_factory.mktemp("sim") / "arch"
@@ -203,7 +203,7 @@ def sim_archive(tmp_path_factory):
 def test_partition_thresholds_differ_from_global(sim_archive):
     """The case the threshold correction is for: some receiver's lowest SNR differs
     between a partition and the whole run."""
-    from spotkit.pairing import receiver_thresholds
+    from spotkit.compare.pairing import receiver_thresholds
 
     sim, root = sim_archive
     glob = receiver_thresholds(sim.spots)
@@ -224,7 +224,7 @@ def test_partition_thresholds_differ_from_global(sim_archive):
 
 @pytest.mark.parametrize("by", [(), ("band", "distance")])
 def test_compare_dask_equals_pandas_simultaneous(sim_archive, client, by):
-    from spotkit.compare import compare_antennas
+    from spotkit.compare.estimate import compare_antennas
 
     sim, root = sim_archive
     want = compare_antennas(sim.spots, "simultaneous", sim.a, sim.b, by=by, n_boot=200, seed=1)
@@ -250,7 +250,7 @@ def test_compare_dask_bootstrap_seeds_agree_within_monte_carlo_error(sim_archive
     Allow 5 such SDs."""
     from scipy.stats import norm
 
-    from spotkit.compare import compare_antennas
+    from spotkit.compare.estimate import compare_antennas
 
     sim, root = sim_archive
     want = compare_antennas(sim.spots, "simultaneous", sim.a, sim.b, n_boot=200, seed=1)
@@ -282,8 +282,8 @@ def test_compare_dask_unknown_call_lists_calls(sim_archive):
 def test_compare_dask_equals_pandas_other_designs(tmp_path, design, options):
     """Receive pairs by (transmitter, slot); the alternating design's reports are read as
     one partition and before/after one partition per band: all exact."""
-    from spotkit.compare import compare_antennas
-    from spotkit.simulate import simulate_spots
+    from spotkit.compare.estimate import compare_antennas
+    from spotkit.sim.simulate import simulate_spots
 
     sim = simulate_spots(design, days=2, seed=3, n_receivers=40, n_transmitters=40,
                          start="2026-03-02")
@@ -307,9 +307,9 @@ def test_cli_archive_coverage_and_compare(sim_archive, tmp_path, capsys):
     assert main(["archive", "coverage", str(root), "--by", "band,hour", "--band", "20m",
                  "--scheduler", "sync", "-o", str(out)]) == 0
     got = pd.read_csv(out)
-    want = D.coverage_table(sim.spots[sim.spots[C.BAND] == "20m"], ("band", "hour"))
+    want = CV.coverage_table(sim.spots[sim.spots[C.BAND] == "20m"], ("band", "hour"))
     np.testing.assert_array_equal(got[C.COUNT], want[C.COUNT])
-    np.testing.assert_allclose(got[D.SNR_MEDIAN], want[D.SNR_MEDIAN], atol=1e-9)
+    np.testing.assert_allclose(got[CV.SNR_MEDIAN], want[CV.SNR_MEDIAN], atol=1e-9)
     assert main(["archive", "coverage", str(root), "--by", "continent"]) == 2
     js = tmp_path / "r.json"
     assert main(["archive", "compare", str(root), "--design", "simultaneous", "--a", sim.a,

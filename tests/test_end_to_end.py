@@ -11,7 +11,7 @@ import pytest
 
 from spotkit import columns as C
 from spotkit.cli import main
-from spotkit.simulate import Truth
+from spotkit.sim.truth import Truth
 
 
 @pytest.mark.slow

@@ -12,7 +12,7 @@ import pytest
 
 from spotkit import columns as C
 from spotkit.report import CAUTIONS, JOB, build_report, standard_comparisons, write_report
-from spotkit.simulate import simulate_spots
+from spotkit.sim.simulate import simulate_spots
 
 
 @pytest.fixture(scope="module")
@@ -70,7 +70,7 @@ def test_report_has_every_section_and_no_external_resources(small_experiment, re
 def test_report_without_figures_and_ingest_summary(small_experiment):
     sim, results, _ = small_experiment
 
-    class Summary:  # the fields of spotkit.ingest.IngestSummary the report shows
+    class Summary:  # the fields of spotkit.io.ingest.IngestSummary the report shows
         rows_read, accepted, rejected, duplicates = 105, 100, 3, 2
         rejected_by_reason = {"bad locator": 3}
 

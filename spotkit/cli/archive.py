@@ -1,0 +1,161 @@
+"""The ``spotkit archive`` subcommand and ``spotkit ingest --dataset/--memory-mb``: parser
+and runner for the partitioned Parquet archive (locally or on a Dask cluster).
+
+Part of the command line (:mod:`spotkit.cli`), kept apart for its size; a thin layer over
+:mod:`spotkit.io.archive`, :mod:`spotkit.io.store` and :mod:`spotkit.distributed`.
+"""
+from __future__ import annotations
+
+from spotkit.cli.app import EXIT_OK, _Parser, _progress, _write_result
+from spotkit.errors import InputError, UsageError
+
+
+def _archive_ingest(args):
+    """The ``ingest --dataset/--memory-mb`` branch; None when neither option is given."""
+    from pathlib import Path
+
+    from spotkit.io.archive import chunk_rows_for_memory, ingest_to_dataset
+
+    dataset, memory_mb = getattr(args, "dataset", None), getattr(args, "memory_mb", None)
+    if dataset and args.output:
+        raise UsageError("give either -o OUT.parquet or --dataset DIR, not both")
+    if not dataset and not args.output:
+        raise UsageError("give -o OUT.parquet or --dataset DIR")
+    if not dataset:
+        if memory_mb is not None:  # one Parquet file, chunk size from the memory cap
+            size = sum(Path(f).stat().st_size for f in args.files if Path(f).is_file())
+            by_mem = chunk_rows_for_memory(memory_mb, total_input_bytes=size)
+            args.chunk_rows = min(args.chunk_rows or by_mem, by_mem)
+        return None
+    if args.rejects:
+        raise UsageError("--rejects applies to -o; an archive keeps its rejects in "
+                         "DIR/_rejects/")
+    mapping, units = dict(args.map), dict(args.unit)
+    if len(mapping) != len(args.map) or len(units) != len(args.unit):
+        raise UsageError("each FIELD may be given only once in --map / --unit")
+    header = {"auto": "auto", "yes": True, "no": False}[getattr(args, "header", "auto")]
+    partition = [k for k in args.partition.replace(" ", "").split(",") if k]
+    try:
+        summary = ingest_to_dataset(
+            args.files, dataset, chunk_rows=args.chunk_rows, memory_mb=memory_mb,
+            partition_by=partition, mapping=mapping, units=units, delimiter=args.delimiter,
+            header=header, slot_minutes=args.slot_minutes, region=args.region,
+            progress=_progress(args))
+    except ValueError as exc:
+        if isinstance(exc, (InputError, UsageError)):
+            raise
+        raise UsageError(f"--partition: {exc}") from None
+    print(summary.text())
+    print(f"appended {summary.accepted:,} spots to the archive {dataset} "
+          f"({summary.rejected:,} rejects kept in {dataset}/_rejects/)")
+    return EXIT_OK
+
+
+def _add_archive(sub):
+    p = sub.add_parser(
+        "archive", help="work with a partitioned spot archive (coverage, compare, info)",
+        description="Analyse a partitioned Parquet archive written by 'spotkit ingest "
+        "--dataset DIR', partition by partition, locally or on a Dask cluster.")
+    asub = p.add_subparsers(dest="archive_command", metavar="ACTION", parser_class=_Parser)
+
+    def common(q):
+        q.add_argument("dataset", metavar="DIR", help="archive directory")
+        q.add_argument("--band", action="append", default=None, metavar="BAND",
+                       help="only this band (repeatable or comma-separated)")
+        q.add_argument("--start", metavar="TIME", help="first slot (UTC, inclusive)")
+        q.add_argument("--end", metavar="TIME", help="end of the period (UTC, exclusive)")
+        q.add_argument("--scheduler", default=None, metavar="ADDRESS",
+                       help="Dask scheduler: 'local' (a local cluster), 'threads', "
+                       "'processes', 'sync' or the address of a running scheduler "
+                       "(tcp://host:8786); default: threads")
+
+    info = asub.add_parser("info", help="what the archive holds (manifest)")
+    info.add_argument("dataset", metavar="DIR")
+    cov = asub.add_parser("coverage", help="spots, stations and SNR per W by group")
+    common(cov)
+    cov.add_argument("--by", default="band,square", metavar="KEYS",
+                     help="group keys from band, square, field, hour, tx_call, rx_call, day "
+                     "(default band,square)")
+    cov.add_argument("--side", choices=["rx", "tx"], default="rx",
+                     help="rx: where the transmitters were heard (receivers); tx: what the "
+                     "receivers heard (transmitters)")
+    cov.add_argument("-o", "--output", metavar="OUT.csv", help="write the table as CSV")
+    cmp = asub.add_parser("compare", help="compare two antennas over the archive")
+    common(cmp)
+    cmp.add_argument("--design", required=True,
+                     choices=["simultaneous", "alternating", "receive", "before-after"])
+    cmp.add_argument("--a", required=True, metavar="CALL")
+    cmp.add_argument("--b", metavar="CALL")
+    cmp.add_argument("--schedule", metavar="even-odd|odd-even|every-N|FILE")
+    cmp.add_argument("--change-at", metavar="TIME")
+    cmp.add_argument("--by", default="", metavar="KEY,KEY")
+    cmp.add_argument("--window", type=int, default=1, metavar="SLOTS")
+    cmp.add_argument("--boot", type=int, default=1000)
+    cmp.add_argument("--seed", type=int, default=0)
+    cmp.add_argument("--min-pairs", type=int, default=30)
+    cmp.add_argument("--confidence", type=float, default=0.95)
+    cmp.add_argument("--missed-reports", choices=["fit", "none"], default="fit")
+    cmp.add_argument("--threshold-correction", choices=["edge", "none"], default="none")
+    cmp.add_argument("--day-hours", type=float, default=24.0, metavar="HOURS")
+    cmp.add_argument("--json", metavar="OUT.json")
+    cmp.add_argument("--csv", metavar="OUT.csv")
+    p.set_defaults(func=_cmd_archive)
+
+
+def _archive_bands(args):
+    if not args.band:
+        return None
+    return [b.strip() for item in args.band for b in item.split(",") if b.strip()]
+
+
+def _cmd_archive(args) -> int:
+    from spotkit import distributed
+    from spotkit.io import store
+
+    action = getattr(args, "archive_command", None)
+    if action is None:
+        raise UsageError("spotkit archive: choose an action: info, coverage or compare")
+    if action == "info":
+        man = store.dataset_manifest(args.dataset)
+        if not man["batches"]:
+            raise InputError(f"{args.dataset}: not a spotkit archive (no manifest)")
+        rows = sum(int(b.get("rows") or 0) for b in man["batches"])
+        files = sum(len(b.get("files", [])) for b in man["batches"])
+        print(f"archive {args.dataset}: partitioned by {', '.join(man['partition_by'])}; "
+              f"{len(man['batches'])} batch(es), {rows:,} spots in {files:,} files")
+        for b in man["batches"]:
+            print(f"  {b.get('written_utc')}  {b.get('rows', 0):>12,} spots  "
+                  f"{b.get('rejected') or 0:>9,} rejected  {b.get('source')}")
+        return EXIT_OK
+    selection = dict(bands=_archive_bands(args), start=args.start, end=args.end)
+    if action == "coverage":
+        by = [k for k in args.by.replace(" ", "").split(",") if k]
+        try:
+            table = distributed.coverage_dask(args.dataset, by, side=args.side,
+                                              scheduler=args.scheduler, **selection)
+        except ValueError as exc:
+            if isinstance(exc, (InputError, UsageError)):
+                raise
+            raise UsageError(f"--by/--side: {exc}") from None
+        if args.output:
+            table.to_csv(args.output, index=False)
+            print(f"wrote {len(table):,} rows to {args.output}")
+        else:
+            print(table.to_string(index=False))
+        return EXIT_OK
+    by = [k for k in args.by.replace(" ", "").split(",") if k]
+    try:
+        from spotkit.compare.grouping import parse_by
+        parse_by(by)
+    except ValueError as exc:
+        if isinstance(exc, UsageError):
+            raise
+        raise UsageError(f"--by: {exc}") from None
+    result = distributed.compare_dask(
+        args.dataset, args.design, args.a, args.b, by=by, schedule=args.schedule,
+        change_at=args.change_at, window_slots=args.window, n_boot=args.boot, seed=args.seed,
+        min_pairs=args.min_pairs, confidence=args.confidence, scheduler=args.scheduler,
+        missed_reports=args.missed_reports, threshold_correction=args.threshold_correction,
+        day_hours=args.day_hours, **selection)
+    _write_result(result, args)
+    return EXIT_OK

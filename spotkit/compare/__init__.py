@@ -1,0 +1,60 @@
+"""From a spot table to B minus A: the designs' pairs, groups of pairs, the estimate per
+group, the before/after design's estimate and what each antenna reached.
+"""
+
+from spotkit.compare.beforeafter import (
+    DAY_SHARE,
+    FEW_DAYS,
+    WEAKER_DESIGN,
+    estimate_before_after,
+)
+from spotkit.compare.estimate import (
+    MISSED_REPORTS,
+    RESULT_COLUMNS,
+    THRESHOLD_CORRECTIONS,
+    ComparisonResult,
+    compare_antennas,
+    edge_correction,
+    estimate_groups,
+    group_label,
+    verdict,
+)
+from spotkit.compare.grouping import (
+    DEFAULT_DAY_HOURS,
+    DEFAULT_DISTANCE_EDGES,
+    DEFAULT_ELEVATION_EDGES,
+    GROUP_KEYS,
+    add_group_keys,
+    group_columns,
+    group_index,
+    merge_summaries,
+    parse_by,
+    summarise_pairs,
+)
+from spotkit.compare.pairing import (
+    DESIGNS,
+    PAIR_COLUMNS,
+    PERIOD_BOUND_KINDS,
+    pair_spots,
+    read_schedule,
+    receiver_thresholds,
+    schedule_antennas,
+)
+from spotkit.compare.reach import (
+    ReachResult,
+    compare_reach,
+    heard_by_distance,
+    reach_by_bearing,
+    reach_summary,
+)
+
+__all__ = [
+    "GROUP_KEYS", "DEFAULT_DISTANCE_EDGES", "DEFAULT_ELEVATION_EDGES", "DEFAULT_DAY_HOURS",
+    "parse_by", "group_columns", "add_group_keys", "summarise_pairs", "merge_summaries",
+    "group_index", "DESIGNS", "PAIR_COLUMNS", "PERIOD_BOUND_KINDS", "pair_spots",
+    "receiver_thresholds", "read_schedule", "schedule_antennas", "DAY_SHARE", "FEW_DAYS",
+    "WEAKER_DESIGN", "estimate_before_after", "RESULT_COLUMNS", "THRESHOLD_CORRECTIONS",
+    "MISSED_REPORTS", "ComparisonResult", "compare_antennas", "edge_correction",
+    "estimate_groups", "group_label", "verdict", "ReachResult", "compare_reach",
+    "reach_summary", "reach_by_bearing", "heard_by_distance",
+]

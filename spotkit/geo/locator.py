@@ -1,0 +1,220 @@
+"""Maidenhead locators: decode to cell-centre latitude/longitude and encode back.
+
+The Maidenhead system (IARU Region 1 VHF Managers Handbook; E. Tyson, "Conversion between
+geodetic and grid locator systems", QST, January 1989) divides the WGS-84 globe after adding
+180 deg to longitude and 90 deg to latitude. In every character pair the longitude comes first:
+
+=========  ============  ==============  ================
+length     characters    cell (lon)      cell (lat)
+=========  ============  ==============  ================
+2 field    A-R           20 deg          10 deg
+4 square   0-9           2 deg           1 deg
+6 subsq.   a-x           5 arc-minutes   2.5 arc-minutes
+8 ext.     0-9           30 arc-seconds  15 arc-seconds
+=========  ============  ==============  ================
+
+A locator names a cell, not a point: this module returns the cell centre, so a 4-character
+locator is uncertain by up to about +-56 km north-south and +-111 km east-west at the
+equator. Letters are accepted in any case. All functions are vectorised over numpy arrays
+and pandas Series.
+"""
+from __future__ import annotations
+
+from typing import Literal
+
+import numpy as np
+import pandas as pd
+
+from spotkit.errors import LocatorError
+
+#: Valid locator lengths.
+LOCATOR_LENGTHS = (2, 4, 6, 8)
+
+# per-position: base character, number of values, and cell size in degrees (lon, lat)
+_BASES = [("A", 18), ("A", 18), ("0", 10), ("0", 10), ("A", 24), ("A", 24), ("0", 10), ("0", 10)]
+_LON_STEP = np.array([20.0, 2.0, 5.0 / 60.0, 0.5 / 60.0])
+_LAT_STEP = np.array([10.0, 1.0, 2.5 / 60.0, 0.25 / 60.0])
+
+
+def _as_str_array(locators) -> np.ndarray:
+    arr = np.asarray(pd.Series(np.atleast_1d(np.asarray(locators, dtype=object)), dtype=object)
+                     .fillna("").astype(str).str.strip().str.upper(), dtype="U")
+    return arr
+
+
+def _distinct(locators):
+    """Row codes into the distinct values, and those values stripped and upper case.
+
+    Each distinct spelling is parsed once; missing values map to an empty string.
+    """
+    if isinstance(getattr(locators, "dtype", None), pd.CategoricalDtype):
+        cat = pd.Categorical(locators)
+        codes = np.asarray(cat.codes, dtype=np.int64)
+        uniq = np.asarray(cat.categories, dtype=object)
+    else:
+        codes, uniq = pd.factorize(np.atleast_1d(np.asarray(locators, dtype=object)),
+                                   use_na_sentinel=True)
+        codes = np.asarray(codes, dtype=np.int64)
+        uniq = np.asarray(uniq, dtype=object)
+    upper = np.append(_as_str_array(uniq) if uniq.size else np.zeros(0, dtype="U8"), "")
+    codes = np.where(codes < 0, upper.size - 1, codes)
+    return codes, upper
+
+
+def _decode_upper(arr: np.ndarray):
+    """Decode an array of upper-case strings; returns (lat, lon, valid)."""
+    n = arr.size
+    lengths = np.char.str_len(arr) if n else np.zeros(0, dtype=int)
+    padded = arr.astype("U8")
+    codes = padded.view(np.uint32).reshape(n, 8) if n else np.zeros((0, 8), np.uint32)
+    valid = np.isin(lengths, LOCATOR_LENGTHS)
+    digits = np.zeros((n, 8), dtype=np.int64)
+    for pos, (base, count) in enumerate(_BASES):
+        used = lengths > pos
+        d = codes[:, pos].astype(np.int64) - ord(base)
+        ok = (d >= 0) & (d < count)
+        valid &= ~used | ok
+        digits[:, pos] = np.where(used & ok, d, 0)
+    lon = np.full(n, -180.0)
+    lat = np.full(n, -90.0)
+    for k in range(4):
+        lon += digits[:, 2 * k] * _LON_STEP[k]
+        lat += digits[:, 2 * k + 1] * _LAT_STEP[k]
+    pairs = np.clip(lengths // 2, 1, 4) - 1
+    lon += _LON_STEP[pairs] / 2.0
+    lat += _LAT_STEP[pairs] / 2.0
+    lon[~valid] = np.nan
+    lat[~valid] = np.nan
+    return lat, lon, valid
+
+
+def is_valid_locator(locators) -> np.ndarray:
+    """Whether each value is a well-formed Maidenhead locator of 2, 4, 6 or 8 characters.
+
+    Parameters
+    ----------
+    locators : str or array-like of str
+        Locators in any letter case; surrounding blanks are ignored.
+
+    Returns
+    -------
+    numpy.ndarray of bool
+    """
+    codes, upper = _distinct(locators)
+    return _decode_upper(upper)[2][codes]
+
+
+def locator_to_latlon(locators, errors: Literal["raise", "coerce"] = "raise"):
+    """Centre of each locator's cell.
+
+    Parameters
+    ----------
+    locators : str or array-like of str
+        Maidenhead locators of 2, 4, 6 or 8 characters, any case.
+    errors : {"raise", "coerce"}
+        ``"raise"`` raises :class:`~spotkit.errors.LocatorError` naming the first bad value;
+        ``"coerce"`` returns NaN for it.
+
+    Returns
+    -------
+    lat, lon : float or numpy.ndarray
+        Latitude and longitude of the cell centre [deg, WGS-84]; scalars for scalar input.
+
+    References
+    ----------
+    E. Tyson, "Conversion between geodetic and grid locator systems", QST, Jan. 1989, pp. 29-30.
+    """
+    if errors not in ("raise", "coerce"):
+        raise ValueError(f"errors must be 'raise' or 'coerce', not {errors!r}")
+    scalar = np.ndim(locators) == 0
+    codes, upper = _distinct(locators)
+    lat, lon, valid = _decode_upper(upper)
+    lat, lon, valid = lat[codes], lon[codes], valid[codes]
+    if errors == "raise" and not valid.all():
+        bad = str(upper[codes[~valid][0]])
+        raise LocatorError(
+            f"not a Maidenhead locator: {bad!r} (expected 2, 4, 6 or 8 characters like "
+            "'JN58', 'JN58td' or 'JN58td25')"
+        )
+    if scalar:
+        return float(lat[0]), float(lon[0])
+    return lat, lon
+
+
+def latlon_to_locator(lat, lon, precision: int = 6):
+    """Maidenhead locator of the cell containing each point.
+
+    Parameters
+    ----------
+    lat, lon : float or array-like
+        Latitude [-90, 90] and longitude [deg]; longitudes are wrapped into [-180, 180).
+    precision : {2, 4, 6, 8}
+        Number of characters. The subsquare letters are lower case (common practice).
+
+    Returns
+    -------
+    str or numpy.ndarray of str
+
+    References
+    ----------
+    E. Tyson, "Conversion between geodetic and grid locator systems", QST, Jan. 1989, pp. 29-30.
+    """
+    if precision not in LOCATOR_LENGTHS:
+        raise ValueError(f"precision must be one of {LOCATOR_LENGTHS}, not {precision!r}")
+    scalar = np.ndim(lat) == 0 and np.ndim(lon) == 0
+    la = np.atleast_1d(np.asarray(lat, dtype=float))
+    lo = np.atleast_1d(np.asarray(lon, dtype=float))
+    la, lo = np.broadcast_arrays(la, lo)
+    if np.any(~np.isfinite(la)) or np.any(~np.isfinite(lo)):
+        raise LocatorError("latitude and longitude must be finite numbers")
+    if np.any(np.abs(la) > 90):
+        raise LocatorError("latitude must be within -90..90 deg")
+    # work in units of the finest cell used to avoid floating-point drift at boundaries
+    x = np.mod(lo + 180.0, 360.0)
+    y = np.clip(la + 90.0, 0.0, 180.0 - 1e-9)
+    out = np.full(la.shape, "", dtype="U8")
+    rem_x, rem_y = x, y
+    for k in range(precision // 2):
+        dx = np.minimum(np.floor(rem_x / _LON_STEP[k] + 1e-9), _BASES[2 * k][1] - 1)
+        dy = np.minimum(np.floor(rem_y / _LAT_STEP[k] + 1e-9), _BASES[2 * k + 1][1] - 1)
+        dx = np.maximum(dx, 0).astype(int)
+        dy = np.maximum(dy, 0).astype(int)
+        rem_x = rem_x - dx * _LON_STEP[k]
+        rem_y = rem_y - dy * _LAT_STEP[k]
+        base = _BASES[2 * k][0]
+        if k == 2:
+            base = "a"
+        cx = np.array([chr(ord(base) + v) for v in range(_BASES[2 * k][1])])[dx]
+        cy = np.array([chr(ord(base) + v) for v in range(_BASES[2 * k + 1][1])])[dy]
+        out = np.char.add(np.char.add(out, cx), cy)
+    if scalar:
+        return str(out[0])
+    return out
+
+
+def normalize_locator(locators):
+    """Canonical spelling: field letters upper case, subsquare letters lower case.
+
+    Invalid values become ``None``.
+    """
+    codes, upper = _distinct(locators)
+    valid = _decode_upper(upper)[2]
+    res = np.array(
+        [s[:4] + s[4:6].lower() + s[6:] if ok else None for s, ok in zip(upper, valid)],
+        dtype=object,
+    )
+    return res[codes]
+
+
+def locator_cell_size(locators):
+    """Cell size (dlon, dlat) [deg] of each locator, from its length."""
+    arr = _as_str_array(locators)
+    lengths = np.char.str_len(arr)
+    pairs = np.clip(lengths // 2, 1, 4) - 1
+    return _LON_STEP[pairs], _LAT_STEP[pairs]
+
+
+__all__ = [
+    "LOCATOR_LENGTHS", "is_valid_locator", "locator_to_latlon", "latlon_to_locator",
+    "normalize_locator", "locator_cell_size",
+]

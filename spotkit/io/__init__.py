@@ -1,0 +1,66 @@
+"""Spot files in and out: a file's layout, its cells chunk by chunk, the per-field checks,
+duplicates, path geometry per locator pair, the ingest that ties them together, the
+Parquet store and the partitioned archive.
+"""
+
+from spotkit.io.archive import (
+    BASE_MEMORY_MB,
+    CHUNK_BYTES_PER_ROW,
+    CSV_BYTES_PER_ROW,
+    DEDUPE_WINDOW_DAYS,
+    MIN_CHUNK_ROWS,
+    SEEN_BYTES_PER_ROW,
+    WINDOW_RESERVE_MB,
+    chunk_rows_for_memory,
+    ingest_to_dataset,
+)
+from spotkit.io.ingest import (
+    IngestResult,
+    IngestSummary,
+    ingest_to_parquet,
+    iter_spot_chunks,
+    load_spots,
+    read_spots,
+    write_rejects,
+)
+from spotkit.io.sniff import (
+    DELIMITERS,
+    MAX_WATTS,
+    SAMPLE_ROWS,
+    TIME_UNITS,
+    UNIT_CHOICES,
+    infer_columns,
+    infer_frequency_unit,
+    infer_power_unit,
+    match_headings,
+)
+from spotkit.io.store import (
+    DAY,
+    MANIFEST_NAME,
+    PARTITION_KEYS,
+    REJECTS_DIR,
+    ROW_GROUP_ROWS,
+    append_to_dataset,
+    archive_files,
+    dataset_filter,
+    dataset_manifest,
+    file_sha256,
+    normalise_categories,
+    read_archive_file,
+    read_dataset,
+    read_spots_parquet,
+    table_to_spots,
+    write_spots,
+)
+
+__all__ = [
+    "match_headings", "infer_columns", "infer_frequency_unit", "infer_power_unit",
+    "SAMPLE_ROWS", "TIME_UNITS", "UNIT_CHOICES", "DELIMITERS", "MAX_WATTS", "IngestSummary",
+    "IngestResult", "read_spots", "iter_spot_chunks", "ingest_to_parquet", "load_spots",
+    "write_rejects", "DAY", "PARTITION_KEYS", "MANIFEST_NAME", "REJECTS_DIR",
+    "ROW_GROUP_ROWS", "write_spots", "read_spots_parquet", "append_to_dataset",
+    "read_dataset", "dataset_manifest", "dataset_filter", "file_sha256", "table_to_spots",
+    "archive_files", "read_archive_file", "normalise_categories", "BASE_MEMORY_MB",
+    "CHUNK_BYTES_PER_ROW", "SEEN_BYTES_PER_ROW", "CSV_BYTES_PER_ROW", "MIN_CHUNK_ROWS",
+    "WINDOW_RESERVE_MB", "DEDUPE_WINDOW_DAYS", "chunk_rows_for_memory", "ingest_to_dataset",
+]

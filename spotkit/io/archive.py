@@ -1,0 +1,216 @@
+"""Archive ingest: spot CSV exports appended to a partitioned Parquet archive, chunk by chunk.
+
+The files are read by :func:`spotkit.io.ingest.iter_spot_chunks`, each chunk is split by
+partition and written at once through :mod:`spotkit.io.store`, so memory is bounded by the chunk
+size (``memory_mb`` picks it, see :func:`chunk_rows_for_memory`) plus what the reader keeps
+across chunks: its duplicate-key set (8 bytes per distinct report, briefly twice that while
+two sorted runs of it merge) and its locator-pair cache. Under a memory cap
+the reader keeps the keys of the latest slot days only (duplicates share their slot), so
+memory no longer grows with the input; the input must then be in time order.
+
+Known limits: see :mod:`spotkit.io.store` (one writer at a time; duplicates across two
+overlapping exports are removed on read with ``dedupe=True``, not on append).
+"""
+from __future__ import annotations
+
+import os
+import uuid
+from collections.abc import Sequence
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+
+from spotkit import columns as C
+from spotkit.errors import InputError, UsageError
+from spotkit.io.ingest import IngestSummary, iter_spot_chunks
+from spotkit.io.store import (
+    PARTITION_KEYS,
+    REJECTS_DIR,
+    _Appender,
+    _check_new_hash,
+    _now,
+    _prepare_root,
+    _to_arrow,
+    _write_manifest,
+    file_sha256,
+)
+
+#: Rough resident size of a Python process with spotkit, pandas and pyarrow loaded [MiB]
+#: (measured by benchmarks/bench_archive.py).
+BASE_MEMORY_MB = 200
+#: Peak memory per row of a chunk [bytes]: up to three chunks are alive at once (one read
+#: ahead by the reader's thread, one being cleaned and enriched, one being written) - measured
+#: by benchmarks/bench_archive.py (about 3.4 kB a row at 489,335-row chunks).
+CHUNK_BYTES_PER_ROW = 3500
+#: Memory per distinct report kept by the reader to find duplicates across chunks [bytes]:
+#: 8-byte hashes, twice that while its two largest sorted runs merge into one.
+SEEN_BYTES_PER_ROW = 16
+#: Bytes per CSV row assumed when estimating a file's row count for the duplicate keys.
+CSV_BYTES_PER_ROW = 60
+#: Under a memory cap the reader keeps duplicate keys of the latest slot days only
+#: (``dedupe_window_days``); room kept for them, the locator-pair table (up to 128 MB, twice
+#: that while it grows) and the Parquet writers' buffers [MiB] (measured by
+#: benchmarks/bench_archive.py).
+WINDOW_RESERVE_MB = 600
+#: Days of slots whose duplicate keys are kept under a memory cap.
+DEDUPE_WINDOW_DAYS = 1
+MIN_CHUNK_ROWS = 1000
+
+
+def chunk_rows_for_memory(memory_mb: float, *, total_input_bytes: int = 0) -> int:
+    """Chunk size [rows] that keeps an archive ingest under ``memory_mb`` [MiB].
+
+    Budget: ``memory_mb = BASE_MEMORY_MB + rows_estimate * SEEN_BYTES_PER_ROW / 2**20
+    + chunk_rows * CHUNK_BYTES_PER_ROW / 2**20``, with ``rows_estimate`` the input size over
+    :data:`CSV_BYTES_PER_ROW` (gzip files count 5x their size). The constants are
+    measurements on one machine, not guarantees; the benchmark checks them. Not modelled:
+    the reader's cache of locator-pair geometry (about 64 bytes per distinct pair, up to
+    three times that while it grows), small for the usual ~1 million pairs.
+
+    Because the reader keeps every report's key to find duplicates, the memory needed
+    grows with the input (about 16/60 of the CSV size at its peak): a cap far below the
+    input size cannot be honoured and is refused rather than exceeded silently.
+
+    Raises
+    ------
+    UsageError
+        When the cap leaves room for fewer than :data:`MIN_CHUNK_ROWS` rows per chunk.
+    """
+    if not np.isfinite(memory_mb) or memory_mb <= 0:
+        raise UsageError(f"memory_mb must be a positive number of MiB, not {memory_mb!r}")
+    seen_mb = total_input_bytes / CSV_BYTES_PER_ROW * SEEN_BYTES_PER_ROW / 2**20
+    room = (memory_mb - BASE_MEMORY_MB - seen_mb) * 2**20
+    rows = int(room // CHUNK_BYTES_PER_ROW)
+    if rows < MIN_CHUNK_ROWS:
+        need = BASE_MEMORY_MB + seen_mb + MIN_CHUNK_ROWS * CHUNK_BYTES_PER_ROW / 2**20
+        raise UsageError(f"a memory cap of {memory_mb:g} MiB is too small for this input; "
+                         f"it needs at least {need:.0f} MiB")
+    return rows
+
+
+def ingest_to_dataset(paths, root, *, chunk_rows: int | None = None,
+                      memory_mb: float | None = None,
+                      partition_by: Sequence[str] = PARTITION_KEYS, progress: bool = False,
+                      **read_kw):
+    """Read spot CSV files chunk by chunk and append them to a partitioned archive.
+
+    Every input file's SHA-256 is checked against the archive's manifest first: a file
+    already appended (or given twice) is refused with :class:`~spotkit.errors.InputError`
+    and nothing is written. The files are read by :func:`spotkit.io.ingest.iter_spot_chunks`
+    (duplicates removed across chunks and files of this call), each chunk is split by
+    partition and written as it comes, so peak memory is bounded by the chunk size. Rejected
+    rows are kept as ``<root>/_rejects/<token>.csv``. Files land in the archive only when all
+    inputs were read; on an error nothing is added.
+
+    Parameters
+    ----------
+    paths : str, path-like or sequence of them
+        Spot CSV files.
+    root : str or path-like
+        Archive directory (created if missing).
+    chunk_rows : int, optional
+        Rows per chunk.
+    memory_mb : float, optional
+        Memory cap [MiB]. The reader then keeps duplicate keys for the latest
+        :data:`DEDUPE_WINDOW_DAYS` slot days only, so memory does not grow with the input,
+        and the input must be in time order (a report older than that raises
+        :class:`~spotkit.errors.InputError`); ``chunk_rows`` comes from
+        :func:`chunk_rows_for_memory` of the cap less :data:`WINDOW_RESERVE_MB` (the smaller
+        of the two when both are given). Default without either: 500,000 rows, duplicate
+        keys of the whole input.
+    partition_by : sequence of {"band", "day"}
+        Partition keys (must match an existing archive).
+    progress : bool
+        Progress bar on stderr.
+    **read_kw
+        Keywords of :func:`spotkit.io.ingest.read_spots` (mapping, units, delimiter, header,
+        slot_minutes, region).
+
+    Returns
+    -------
+    spotkit.io.ingest.IngestSummary
+        Counts over all files; the manifest has one batch per file.
+    """
+    if isinstance(paths, (str, os.PathLike)):
+        paths = [paths]
+    paths = [Path(p) for p in paths]
+    if not paths:
+        raise UsageError("no input files given")
+    for p in paths:
+        if not p.is_file():
+            raise FileNotFoundError(f"{p}: no such file")
+    if memory_mb is not None:
+        # keys of the latest slot days only: memory no longer grows with the input, but the
+        # input must be in time order (the reader refuses a report older than the window)
+        read_kw.setdefault("dedupe_window_days", DEDUPE_WINDOW_DAYS)
+        least = BASE_MEMORY_MB + WINDOW_RESERVE_MB + MIN_CHUNK_ROWS * CHUNK_BYTES_PER_ROW / 2**20
+        if not memory_mb >= least:
+            raise UsageError(f"a memory cap of {memory_mb:g} MiB is too small for archive "
+                             f"ingest; it needs at least {least:.0f} MiB")
+        by_mem = chunk_rows_for_memory(memory_mb - WINDOW_RESERVE_MB)
+        chunk_rows = by_mem if chunk_rows is None else min(chunk_rows, by_mem)
+    elif chunk_rows is None:
+        chunk_rows = 500_000
+    root = Path(root)
+    manifest = _prepare_root(root, partition_by)
+    hashes = {}
+    for p in paths:
+        h = file_sha256(p)
+        _check_new_hash(root, manifest, h, str(p))
+        if h in hashes.values():
+            first = next(q for q, v in hashes.items() if v == h)
+            raise InputError(f"{p}: same content as {first} (SHA-256 {h[:12]}...); "
+                             "give each export once")
+        hashes[p] = h
+    summary = IngestSummary()
+    apps: dict[int, _Appender] = {}  # by position of the input file
+    rej_fhs: dict[int, Any] = {}
+    rej_counts: dict[int, int] = {}
+    try:
+        for spots, rejects in iter_spot_chunks(paths, chunk_rows=chunk_rows, summary=summary,
+                                               progress=progress, **read_kw):
+            i = len(summary.files) - 1
+            app = apps.get(i)
+            if app is None:
+                app = apps[i] = _Appender(root, partition_by, uuid.uuid4().hex[:12])
+            if len(spots):
+                app.write(_to_arrow(spots))
+            if len(rejects):
+                fh = rej_fhs.get(i)
+                if fh is None:
+                    (app.staging / REJECTS_DIR).mkdir(parents=True, exist_ok=True)
+                    fh = rej_fhs[i] = open(app.staging / REJECTS_DIR / f"{app.token}.csv", "w",
+                                           encoding="utf-8", newline="")
+                    rejects[C.REJECT_COLUMNS].iloc[:0].to_csv(fh, index=False)
+                rejects[C.REJECT_COLUMNS].to_csv(fh, index=False, header=False)
+                rej_counts[i] = rej_counts.get(i, 0) + len(rejects)
+        for fh in rej_fhs.values():
+            fh.close()
+        for app in apps.values():
+            app.close()
+    except BaseException:
+        for fh in rej_fhs.values():
+            fh.close()
+        for app in apps.values():
+            app.abort()
+        raise
+    for i, p in enumerate(paths):
+        app = apps.get(i) or _Appender(root, partition_by, uuid.uuid4().hex[:12])
+        rej_rel = None
+        if i in rej_fhs:
+            (root / REJECTS_DIR).mkdir(exist_ok=True)
+            rej_rel = f"{REJECTS_DIR}/{app.token}.csv"
+            os.replace(app.staging / rej_rel, root / rej_rel)
+        files = app.commit()
+        manifest["batches"].append({
+            "token": app.token, "sha256": hashes[p], "source": str(p), "rows": app.rows,
+            "rejected": rej_counts.get(i, 0), "rejects": rej_rel, "written_utc": _now(),
+            "files": files})
+    _write_manifest(root, manifest)
+    return summary
+
+
+__all__ = ["BASE_MEMORY_MB", "CHUNK_BYTES_PER_ROW", "SEEN_BYTES_PER_ROW", "CSV_BYTES_PER_ROW",
+           "MIN_CHUNK_ROWS", "WINDOW_RESERVE_MB", "DEDUPE_WINDOW_DAYS", "chunk_rows_for_memory",
+           "ingest_to_dataset"]

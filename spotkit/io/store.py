@@ -1,0 +1,655 @@
+"""Parquet storage of the canonical spot table: single files and partitioned archives.
+
+Two layouts:
+
+* a **single file** (``write_spots`` / ``read_spots_parquet``), what ``spotkit ingest -o``
+  writes;
+* a **partitioned archive**: a directory of Parquet files in hive layout
+  ``<root>/band=<band>/day=<YYYY-MM-DD>/part-<token>-<i>.parquet``, where ``day`` is the
+  UTC date of the slot start (:data:`spotkit.columns.SLOT`). New exports are appended as new
+  files; old files are never rewritten. A small JSON manifest (:data:`MANIFEST_NAME`) in the
+  root records every appended batch with the SHA-256 of the input file's bytes, so the same
+  export cannot be appended twice. Files and directories whose names start with ``_`` or
+  ``.`` (the manifest, the rejects, the staging area) are not part of the data.
+
+Reads push filters down to Parquet (pyarrow.dataset): a band or time-range query opens only
+the matching ``band=``/``day=`` directories and, inside the files, skips row groups whose
+statistics exclude the query. Tables come back with the glossary dtypes
+(:func:`spotkit.columns.apply_dtypes`): tz-aware UTC times, categoricals for callsigns,
+locators and bands.
+
+CSV exports go in with :func:`spotkit.io.archive.ingest_to_dataset`, which reads them chunk by
+chunk and appends each chunk through this module's writer.
+
+Known limits: partitioning by slot day keeps every spot of one slot in one partition, but a
+run of slots that crosses midnight UTC is split over two partitions (see
+:mod:`spotkit.distributed` for what that means for alternating designs). Duplicate reports
+*across* two different exports that overlap in time are not removed on append; use
+:func:`read_dataset` with ``dedupe=True`` to drop them on read. One writer at a time: two
+processes appending to the same archive at once can lose a manifest entry.
+"""
+from __future__ import annotations
+
+import datetime as _dt
+import hashlib
+import json
+import os
+import shutil
+import uuid
+from collections.abc import Sequence
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+import pandas as pd
+import pyarrow as pa
+import pyarrow.compute as pc
+import pyarrow.dataset as ds
+import pyarrow.parquet as pq
+
+from spotkit import columns as C
+from spotkit.bands import BAND_ORDER
+from spotkit.errors import InputError, UsageError
+
+#: Name of the partition key holding the UTC date of the slot start (not a glossary column:
+#: it exists only as a directory level of an archive).
+DAY = "day"
+#: Partition keys an archive may use.
+PARTITION_KEYS = (C.BAND, DAY)
+#: The manifest file in an archive's root.
+MANIFEST_NAME = "_spotkit_manifest.json"
+#: Folder (inside the root) where rejects of appended files are kept as CSV.
+REJECTS_DIR = "_rejects"
+_STAGING_PREFIX = "_staging-"
+_FORMAT_VERSION = 1
+#: Rows per Parquet row group written by spotkit.
+ROW_GROUP_ROWS = 256_000
+
+_CATEGORY_COLUMNS = [name for name, col in C.GLOSSARY.items() if str(col.dtype) == "category"]
+
+
+# --- single files --------------------------------------------------------------------------
+def write_spots(df: pd.DataFrame, path, *, row_group_rows: int = ROW_GROUP_ROWS) -> Path:
+    """Write a spot table to one Parquet file with the glossary dtypes.
+
+    Parameters
+    ----------
+    df : pandas.DataFrame
+        Spot table (canonical columns or a subset; extra columns are kept).
+    path : str or path-like
+        Output file; parent directories are created.
+    row_group_rows : int
+        Rows per Parquet row group [rows].
+
+    Returns
+    -------
+    pathlib.Path
+        The file written.
+    """
+    path = Path(path)
+    if path.is_dir():
+        raise UsageError(f"{path}: is a directory; write_spots writes one file "
+                         "(use append_to_dataset for an archive)")
+    path.parent.mkdir(parents=True, exist_ok=True)
+    table = _to_arrow(C.apply_dtypes(df))
+    pq.write_table(table, path, row_group_size=row_group_rows)
+    return path
+
+
+def read_spots_parquet(path, *, columns: Sequence[str] | None = None,
+                       filters: Any = None) -> pd.DataFrame:
+    """Read a spot table from a Parquet file or a partitioned archive.
+
+    Parameters
+    ----------
+    path : str or path-like
+        A Parquet file written by :func:`write_spots` (or any Parquet file with glossary
+        columns), or an archive directory written by :func:`append_to_dataset`.
+    columns : sequence of str, optional
+        Read only these columns.
+    filters : pyarrow.compute.Expression or list of tuples, optional
+        Row filter pushed down to Parquet, in pyarrow's forms: an expression such as
+        ``pc.field("band") == "20m"`` or DNF tuples ``[("band", "==", "20m")]``.
+
+    Returns
+    -------
+    pandas.DataFrame
+        The rows, with glossary dtypes; the archive's ``day`` partition key is dropped
+        unless it is asked for in ``columns``.
+    """
+    path = Path(path)
+    if not path.exists():
+        raise FileNotFoundError(f"{path}: no such file or directory")
+    if path.is_dir():
+        dataset = _open_dataset(path)
+    else:
+        try:
+            dataset = ds.dataset(path, format="parquet")
+        except (pa.ArrowInvalid, OSError) as exc:
+            raise InputError(f"{path}: not a Parquet file ({exc})") from None
+    expr = _as_expression(filters)
+    return _scan(dataset, columns=columns, expr=expr, source=path)
+
+
+# --- partitioned archives --------------------------------------------------------------------
+def _partitioning(partition_by: Sequence[str]) -> ds.Partitioning:
+    fields = []
+    for key in partition_by:
+        if key == C.BAND:
+            fields.append(pa.field(C.BAND, pa.string()))
+        elif key == DAY:
+            fields.append(pa.field(DAY, pa.date32()))
+        else:
+            raise ValueError(f"unknown partition key {key!r}; valid: {', '.join(PARTITION_KEYS)}")
+    return ds.partitioning(pa.schema(fields), flavor="hive")
+
+
+def _open_dataset(root: Path) -> ds.Dataset:
+    manifest = dataset_manifest(root)
+    partition_by = manifest.get("partition_by", list(PARTITION_KEYS))
+    files = [str(p) for p in sorted(root.rglob("*.parquet"))
+             if not any(part.startswith(("_", ".")) for part in p.relative_to(root).parts)]
+    if not files:
+        return None
+    return ds.dataset(files, format="parquet", partitioning=_partitioning(partition_by),
+                      partition_base_dir=str(root))
+
+
+def dataset_manifest(root) -> dict:
+    """The manifest of an archive: partition keys and one entry per appended batch.
+
+    Parameters
+    ----------
+    root : str or path-like
+        Archive directory.
+
+    Returns
+    -------
+    dict
+        ``{"format": 1, "partition_by": [...], "batches": [{"token", "sha256", "source",
+        "rows", "rejected", "written_utc", "files"}, ...]}``; an empty skeleton when the
+        directory has no manifest yet.
+    """
+    root = Path(root)
+    mpath = root / MANIFEST_NAME
+    if not mpath.exists():
+        return {"format": _FORMAT_VERSION, "partition_by": list(PARTITION_KEYS), "batches": []}
+    try:
+        return json.loads(mpath.read_text())
+    except (json.JSONDecodeError, UnicodeDecodeError) as exc:
+        raise InputError(f"{mpath}: archive manifest is not valid JSON ({exc})") from None
+
+
+def _write_manifest(root: Path, manifest: dict) -> None:
+    tmp = root / (MANIFEST_NAME + ".tmp")
+    tmp.write_text(json.dumps(manifest, indent=1, sort_keys=True))
+    os.replace(tmp, root / MANIFEST_NAME)
+
+
+def file_sha256(path, *, block_bytes: int = 1 << 22) -> str:
+    """SHA-256 of a file's bytes (hex), read in blocks of ``block_bytes`` [bytes]."""
+    h = hashlib.sha256()
+    with open(path, "rb") as fh:
+        while True:
+            block = fh.read(block_bytes)
+            if not block:
+                break
+            h.update(block)
+    return h.hexdigest()
+
+
+def _check_new_hash(root: Path, manifest: dict, source_hash: str | None, source: str) -> None:
+    if source_hash is None:
+        return
+    for batch in manifest["batches"]:
+        if batch.get("sha256") == source_hash:
+            raise InputError(
+                f"{source}: already in the archive {root} (same SHA-256 {source_hash[:12]}..., "
+                f"appended {batch.get('written_utc')} from {batch.get('source')}); not appended "
+                "again")
+
+
+def _with_day(table: pa.Table) -> pa.Table:
+    if C.SLOT in table.column_names:
+        t = table.column(C.SLOT)
+    elif C.TIME in table.column_names:
+        t = table.column(C.TIME)
+    else:
+        raise InputError(f"a spot table needs {C.SLOT} or {C.TIME} to be partitioned by day")
+    if not pa.types.is_timestamp(t.type):
+        raise InputError(f"time column of type {t.type} is not a timestamp")
+    # the UTC calendar date of the slot start
+    day = pc.cast(pc.cast(t, pa.timestamp(t.type.unit, tz="UTC")), pa.date32())
+    return table.append_column(DAY, day)
+
+
+def _arrow_type(name: str, series: pd.Series) -> pa.DataType:
+    col = C.GLOSSARY.get(name)
+    if col is None:
+        return pa.Schema.from_pandas(series.to_frame(), preserve_index=False).field(0).type
+    if col.dtype == C.UTC_DTYPE:
+        return pa.timestamp("ns", tz="UTC")
+    return {"category": pa.dictionary(pa.int32(), pa.string()), "float64": pa.float64(),
+            "int64": pa.int64()}[str(col.dtype)]
+
+
+def _to_arrow(df: pd.DataFrame) -> pa.Table:
+    """Arrow table with a fixed type per glossary column (dictionary<int32, string> for
+    categoricals, ns UTC timestamps), so tables of different chunks share one schema."""
+    schema = pa.schema([pa.field(str(n), _arrow_type(n, df[n])) for n in df.columns])
+    return pa.Table.from_pandas(df, schema=schema, preserve_index=False)
+
+
+class _Appender:
+    """Writes spot tables into ``<root>/_staging-<token>/`` split by partition - one row group
+    per written piece - and moves the files into the archive on :meth:`commit`. A partition's
+    file stays open only while the pieces written keep reaching it: a partition that a piece
+    does not reach is closed, and a later piece for it opens a new file (``part-<token>-<n>``).
+    Memory: the table being written plus the writers of the partitions it reaches, however
+    many partitions the input spans."""
+
+    def __init__(self, root: Path, partition_by: Sequence[str], token: str):
+        self.root = root
+        self.partition_by = list(partition_by)
+        self.token = token
+        self.staging = root / f"{_STAGING_PREFIX}{token}"
+        self.rows = 0
+        self.writers: dict[tuple, pq.ParquetWriter] = {}
+        self.files: list[str] = []
+
+    def _partition_values(self, table: pa.Table) -> pd.DataFrame:
+        cols = {}
+        for key in self.partition_by:
+            if key == C.BAND:
+                band = table.column(C.BAND)
+                if band.null_count:
+                    raise InputError(f"{band.null_count} spot(s) have no {C.BAND}; "
+                                     "cannot partition by band")
+                cols[key] = pd.Categorical(pc.cast(band, pa.string()).to_numpy(
+                    zero_copy_only=False))
+            else:
+                day = _day_of(table)
+                if day.null_count:
+                    raise InputError(f"{day.null_count} spot(s) have no slot time; "
+                                     "cannot partition by day")
+                cols[key] = day.cast(pa.int32()).to_numpy(zero_copy_only=False)
+        return pd.DataFrame(cols)
+
+    def write(self, table: pa.Table) -> None:
+        if table.num_rows == 0:
+            return
+        parts = self._partition_values(table)
+        data = table.drop_columns([k for k in self.partition_by if k in table.column_names])
+        groups = parts.groupby(self.partition_by, observed=True, sort=False).indices
+        reached = set()
+        for key, idx in groups.items():
+            key = key if isinstance(key, tuple) else (key,)
+            reached.add(key)
+            writer = self.writers.get(key)
+            if writer is None:
+                rel = "/".join(f"{k}={_format_key(k, v)}" for k, v in zip(self.partition_by, key))
+                n = sum(f.startswith(rel + "/") for f in self.files)
+                rel = f"{rel}/part-{self.token}{'' if n == 0 else f'-{n}'}.parquet"
+                path = self.staging / rel
+                path.parent.mkdir(parents=True, exist_ok=True)
+                writer = pq.ParquetWriter(path, data.schema)
+                self.writers[key] = writer
+                self.files.append(rel)
+            writer.write_table(data.take(pa.array(np.sort(idx))), row_group_size=ROW_GROUP_ROWS)
+        for key in [k for k in self.writers if k not in reached]:
+            self.writers.pop(key).close()
+        self.rows += table.num_rows
+
+    def close(self) -> None:
+        for w in self.writers.values():
+            w.close()
+        self.writers = {}
+
+    def commit(self) -> list[str]:
+        self.close()
+        moved = []
+        for rel in sorted(self.files):
+            dst = self.root / rel
+            dst.parent.mkdir(parents=True, exist_ok=True)
+            os.replace(self.staging / rel, dst)
+            moved.append(rel)
+        shutil.rmtree(self.staging, ignore_errors=True)
+        return moved
+
+    def abort(self) -> None:
+        try:
+            self.close()
+        finally:
+            shutil.rmtree(self.staging, ignore_errors=True)
+
+
+def _day_of(table: pa.Table) -> pa.ChunkedArray:
+    return _with_day(table.select([c for c in (C.SLOT, C.TIME) if c in table.column_names]
+                                  )).column(DAY)
+
+
+def _format_key(key: str, value) -> str:
+    if key == DAY:
+        return (_dt.date(1970, 1, 1) + _dt.timedelta(days=int(value))).isoformat()
+    return str(value)
+
+
+def append_to_dataset(df: pd.DataFrame, root, *, partition_by: Sequence[str] = PARTITION_KEYS,
+                      source_hash: str | None = None, source: str | None = None) -> dict:
+    """Append a spot table to a partitioned archive, without rewriting existing files.
+
+    Parameters
+    ----------
+    df : pandas.DataFrame
+        Spot table with the canonical columns (at least :data:`~spotkit.columns.SLOT` or
+        :data:`~spotkit.columns.TIME` for the ``day`` key, and :data:`~spotkit.columns.BAND`
+        when partitioning by band).
+    root : str or path-like
+        Archive directory (created if missing).
+    partition_by : sequence of {"band", "day"}
+        Partition keys, outermost first. Must match the archive's existing keys.
+    source_hash : str, optional
+        SHA-256 (hex) of the input the rows came from; if the manifest already holds it the
+        append is refused with :class:`~spotkit.errors.InputError`.
+    source : str, optional
+        Name of the input, recorded in the manifest.
+
+    Returns
+    -------
+    dict
+        The manifest entry of this batch (token, sha256, source, rows, files, ...).
+    """
+    root = Path(root)
+    manifest = _prepare_root(root, partition_by)
+    _check_new_hash(root, manifest, source_hash, source or "input")
+    _check_partition_columns(df.columns, partition_by)
+    token = uuid.uuid4().hex[:12]
+    app = _Appender(root, partition_by, token)
+    try:
+        app.write(_to_arrow(C.apply_dtypes(df)))
+        files = app.commit()
+    except BaseException:
+        app.abort()
+        raise
+    entry = {"token": token, "sha256": source_hash, "source": source, "rows": app.rows,
+             "rejected": None, "written_utc": _now(), "files": files}
+    manifest["batches"].append(entry)
+    _write_manifest(root, manifest)
+    return entry
+
+
+def _now() -> str:
+    return _dt.datetime.now(_dt.timezone.utc).isoformat(timespec="seconds")
+
+
+def _prepare_root(root: Path, partition_by: Sequence[str]) -> dict:
+    for key in partition_by:
+        if key not in PARTITION_KEYS:
+            raise ValueError(f"unknown partition key {key!r}; valid: {', '.join(PARTITION_KEYS)}")
+    if root.exists() and not root.is_dir():
+        raise UsageError(f"{root}: exists and is not a directory")
+    root.mkdir(parents=True, exist_ok=True)
+    manifest = dataset_manifest(root)
+    if not (root / MANIFEST_NAME).exists():
+        stray = [p for p in root.iterdir() if not p.name.startswith(("_", "."))]
+        if stray:
+            raise UsageError(f"{root}: not empty and not a spotkit archive (found {stray[0].name})")
+        manifest["partition_by"] = list(partition_by)
+    elif list(manifest["partition_by"]) != list(partition_by):
+        raise UsageError(f"{root}: archive is partitioned by {','.join(manifest['partition_by'])}, "
+                         f"not {','.join(partition_by)}")
+    return manifest
+
+
+def _check_partition_columns(names, partition_by) -> None:
+    if C.BAND in partition_by and C.BAND not in names:
+        raise InputError(f"spot table has no {C.BAND} column to partition by")
+    if DAY in partition_by and C.SLOT not in names and C.TIME not in names:
+        raise InputError(f"spot table has neither {C.SLOT} nor {C.TIME} to partition by day")
+
+
+def _as_timestamp(value, name: str) -> pd.Timestamp:
+    try:
+        ts = pd.Timestamp(value)
+    except (ValueError, TypeError) as exc:
+        raise UsageError(f"{name}={value!r}: not a date/time ({exc})") from None
+    return ts.tz_localize("UTC") if ts.tzinfo is None else ts.tz_convert("UTC")
+
+
+def dataset_filter(*, bands=None, start=None, end=None, tx_calls=None, rx_calls=None,
+                   locator_prefix=None, partition_by: Sequence[str] = PARTITION_KEYS
+                   ) -> pc.Expression | None:
+    """Build the pyarrow filter expression :func:`read_dataset` pushes down.
+
+    Parameters
+    ----------
+    bands : str or sequence of str, optional
+        Band names, e.g. ``"20m"``.
+    start, end : str or datetime-like, optional
+        Slot start range [UTC], ``start <= slot < end``; naive values are taken as UTC.
+    tx_calls, rx_calls : str or sequence of str, optional
+        Callsigns (upper case as stored).
+    locator_prefix : str, optional
+        Keep spots whose transmitter **or** receiver locator starts with this prefix
+        (case-insensitive), e.g. ``"JN"`` or ``"IO91"``.
+    partition_by : sequence of str
+        The archive's partition keys; the ``day`` key is filtered too so whole directories
+        are skipped.
+
+    Returns
+    -------
+    pyarrow.compute.Expression or None
+    """
+    terms = []
+    if bands is not None:
+        terms.append(pc.field(C.BAND).isin(_as_list(bands)))
+    if start is not None or end is not None:
+        t0 = _as_timestamp(start, "start") if start is not None else None
+        t1 = _as_timestamp(end, "end") if end is not None else None
+        if t0 is not None and t1 is not None and t1 <= t0:
+            raise UsageError(f"end {t1} is not after start {t0}")
+        if t0 is not None:
+            terms.append(pc.field(C.SLOT) >= pa.scalar(t0.to_pydatetime(), pa.timestamp("us", "UTC")))
+            if DAY in partition_by:
+                terms.append(pc.field(DAY) >= pa.scalar(t0.date(), pa.date32()))
+        if t1 is not None:
+            terms.append(pc.field(C.SLOT) < pa.scalar(t1.to_pydatetime(), pa.timestamp("us", "UTC")))
+            if DAY in partition_by:
+                terms.append(pc.field(DAY) <= pa.scalar(t1.date(), pa.date32()))
+    if tx_calls is not None:
+        terms.append(pc.field(C.TX_CALL).isin([s.upper() for s in _as_list(tx_calls)]))
+    if rx_calls is not None:
+        terms.append(pc.field(C.RX_CALL).isin([s.upper() for s in _as_list(rx_calls)]))
+    if locator_prefix:
+        prefix = str(locator_prefix).strip().upper()
+        terms.append(pc.starts_with(pc.utf8_upper(pc.field(C.TX_LOCATOR).cast(pa.string())),
+                                    prefix)
+                     | pc.starts_with(pc.utf8_upper(pc.field(C.RX_LOCATOR).cast(pa.string())),
+                                      prefix))
+    if not terms:
+        return None
+    expr = terms[0]
+    for t in terms[1:]:
+        expr = expr & t
+    return expr
+
+
+def _as_list(value) -> list[str]:
+    if isinstance(value, str):
+        return [v.strip() for v in value.split(",") if v.strip()]
+    return [str(v) for v in value]
+
+
+def read_dataset(root, *, bands=None, start=None, end=None, tx_calls=None, rx_calls=None,
+                 locator_prefix=None, columns: Sequence[str] | None = None,
+                 dedupe: bool = False) -> pd.DataFrame:
+    """Read spots from a partitioned archive, pushing the selection down to Parquet.
+
+    Parameters
+    ----------
+    root : str or path-like
+        Archive directory.
+    bands, start, end, tx_calls, rx_calls, locator_prefix
+        Selection; see :func:`dataset_filter`. ``start``/``end`` [UTC] apply to the slot
+        start, ``start <= slot < end``.
+    columns : sequence of str, optional
+        Read only these columns (the filter columns need not be among them).
+    dedupe : bool
+        Drop rows equal on :data:`~spotkit.columns.REPORT_KEY` (overlapping exports), keeping
+        the first. Needs the key columns to be read.
+
+    Returns
+    -------
+    pandas.DataFrame
+        Matching spots with the glossary dtypes, ordered by partition then file order.
+    """
+    root = Path(root)
+    if not root.is_dir():
+        raise FileNotFoundError(f"{root}: no such archive directory")
+    dataset = _open_dataset(root)
+    partition_by = dataset_manifest(root).get("partition_by", list(PARTITION_KEYS))
+    expr = dataset_filter(bands=bands, start=start, end=end, tx_calls=tx_calls,
+                          rx_calls=rx_calls, locator_prefix=locator_prefix,
+                          partition_by=partition_by)
+    read_cols = columns
+    if dedupe and columns is not None:
+        read_cols = list(dict.fromkeys([*columns, *C.REPORT_KEY]))
+    out = _scan(dataset, columns=read_cols, expr=expr, source=root)
+    if dedupe:
+        out = out.loc[~out.duplicated(C.REPORT_KEY)].reset_index(drop=True)
+        if columns is not None:
+            out = out[list(columns)]
+    return out
+
+
+def archive_files(root, *, bands=None, start=None, end=None, tx_calls=None, rx_calls=None,
+                  locator_prefix=None) -> list[str]:
+    """Data files of an archive whose partition (band, day) can match a selection.
+
+    Only the directory levels are looked at (no file is opened); the row-level part of the
+    selection is applied by :func:`read_archive_file`. Used to make one Dask partition per
+    file (:mod:`spotkit.distributed`).
+
+    Returns
+    -------
+    list of str
+        Paths relative to ``root`` (POSIX separators), sorted.
+    """
+    root = Path(root)
+    if not root.is_dir():
+        raise FileNotFoundError(f"{root}: no such archive directory")
+    dataset = _open_dataset(root)
+    if dataset is None:
+        return []
+    partition_by = dataset_manifest(root).get("partition_by", list(PARTITION_KEYS))
+    expr = dataset_filter(bands=bands, start=start, end=end, partition_by=partition_by)
+    parts = dataset.get_fragments(filter=expr) if expr is not None else dataset.get_fragments()
+    return sorted(Path(f.path).relative_to(root).as_posix() for f in parts)
+
+
+def read_archive_file(root, file, *, columns: Sequence[str] | None = None, bands=None,
+                      start=None, end=None, tx_calls=None, rx_calls=None,
+                      locator_prefix=None, partition_by: Sequence[str] | None = None
+                      ) -> pd.DataFrame:
+    """Read one data file of an archive (with its partition values) and filter its rows.
+
+    Parameters
+    ----------
+    root : str or path-like
+        Archive directory.
+    file : str or list of str
+        Path(s) relative to ``root``, as returned by :func:`archive_files`; several files
+        are read as one table.
+    columns, bands, start, end, tx_calls, rx_calls, locator_prefix
+        As :func:`read_dataset`.
+    partition_by : sequence of str, optional
+        The archive's partition keys (read from the manifest when not given).
+
+    Returns
+    -------
+    pandas.DataFrame
+        With the glossary dtypes.
+    """
+    root = Path(root)
+    files = [file] if isinstance(file, (str, os.PathLike)) else list(file)
+    if partition_by is None:
+        partition_by = dataset_manifest(root).get("partition_by", list(PARTITION_KEYS))
+    dataset = ds.dataset([str(root / f) for f in files], format="parquet",
+                         partitioning=_partitioning(partition_by), partition_base_dir=str(root))
+    expr = dataset_filter(bands=bands, start=start, end=end, tx_calls=tx_calls,
+                          rx_calls=rx_calls, locator_prefix=locator_prefix,
+                          partition_by=partition_by)
+    return _scan(dataset, columns=columns, expr=expr, source=root / files[0])
+
+
+def _as_expression(filters) -> pc.Expression | None:
+    if filters is None or isinstance(filters, pc.Expression):
+        return filters
+    return pq.filters_to_expression(filters)
+
+
+def _scan(dataset: ds.Dataset | None, *, columns, expr, source) -> pd.DataFrame:
+    if dataset is None:  # an archive with no data files yet
+        out = C.empty_spots()
+        return out if columns is None else out[[c for c in columns if c in out.columns]]
+    names = dataset.schema.names
+    if columns is None:
+        canonical = [n for n in C.CANONICAL if n in names]
+        cols = canonical + [n for n in names if n not in canonical and n != DAY]
+    else:
+        missing = [c for c in columns if c not in names]
+        if missing:
+            raise InputError(f"{source}: no column(s) {', '.join(missing)}; "
+                             f"has {', '.join(names)}")
+        cols = list(columns)
+    try:
+        table = dataset.to_table(columns=cols, filter=expr)
+    except pa.ArrowInvalid as exc:
+        raise InputError(f"{source}: cannot read ({exc})") from None
+    return table_to_spots(table)
+
+
+def table_to_spots(table: pa.Table) -> pd.DataFrame:
+    """Convert an Arrow table of spots to pandas with the glossary dtypes.
+
+    Band categories follow :data:`spotkit.bands.BAND_ORDER` (bands found outside it are
+    appended in sorted order); other categoricals take their distinct values, sorted.
+    """
+    df = table.to_pandas()
+    df = C.apply_dtypes(df)
+    for name in _CATEGORY_COLUMNS:
+        if name in df.columns:
+            df[name] = normalise_categories(df[name], band=(name == C.BAND))
+    if DAY in df.columns:
+        df[DAY] = pd.to_datetime(df[DAY]).dt.date if len(df) else df[DAY]
+    return df
+
+
+def normalise_categories(s: pd.Series, *, band: bool) -> pd.Series:
+    """Drop unused categories and order the rest (bands by band plan, others sorted)."""
+    codes = s.cat.codes.to_numpy()
+    cats = s.cat.categories
+    used = np.bincount(codes[codes >= 0], minlength=len(cats)) > 0
+    values = np.asarray(cats, dtype=object)[used].astype(str)
+    if band:
+        present = set(values)
+        known = [b for b in BAND_ORDER if b in present]
+        order = known + sorted(present - set(known))
+    else:
+        order = sorted(values)
+    if used.all() and list(values) == order:
+        return s
+    position = {v: i for i, v in enumerate(order)}
+    mapping = np.full(len(cats) + 1, -1, dtype=np.int64)
+    mapping[np.flatnonzero(used)] = [position[v] for v in values]
+    new_codes = mapping[np.where(codes < 0, len(cats), codes)]
+    cat = pd.Categorical.from_codes(new_codes, categories=pd.Index(order, dtype=cats.dtype))
+    return pd.Series(cat, index=s.index, name=s.name)
+
+
+__all__ = [
+    "DAY", "PARTITION_KEYS", "MANIFEST_NAME", "REJECTS_DIR", "ROW_GROUP_ROWS",
+    "write_spots", "read_spots_parquet", "append_to_dataset", "read_dataset",
+    "dataset_manifest", "dataset_filter", "file_sha256", "table_to_spots", "archive_files",
+    "read_archive_file", "normalise_categories",
+]

@@ -1,0 +1,50 @@
+"""A spot simulator with known truth: invented stations, antenna gain tables, foreign CSV
+layouts, the true B minus A of every pair, and the demo scenario.
+"""
+
+from spotkit.sim.antenna import (
+    GROUNDS,
+    Antenna,
+    GainTable,
+    band_frequency_hz,
+    constant_difference,
+    dipole_antenna,
+    fresnel_reflection,
+    horizontal_dipole_gain,
+    isotropic_antenna,
+    make_antenna,
+    quarter_wave_vertical_gain,
+    vertical_antenna,
+)
+from spotkit.sim.layouts import (
+    LAYOUTS,
+    write_foreign_csv,
+)
+from spotkit.sim.simulate import (
+    DEMO_CALL,
+    DEMO_LOCATOR,
+    DESIGNS,
+    Propagation,
+    Simulation,
+    make_demo_data,
+    simulate_spots,
+)
+from spotkit.sim.stations import (
+    STATION_REGIONS,
+    invent_calls,
+    place_stations,
+)
+from spotkit.sim.truth import (
+    DEFAULT_DISTANCE_EDGES,
+    TRUTH_COLUMNS,
+    Truth,
+)
+
+__all__ = [
+    "STATION_REGIONS", "place_stations", "invent_calls", "GROUNDS", "band_frequency_hz",
+    "fresnel_reflection", "quarter_wave_vertical_gain", "horizontal_dipole_gain",
+    "GainTable", "Antenna", "isotropic_antenna", "vertical_antenna", "dipole_antenna",
+    "constant_difference", "make_antenna", "LAYOUTS", "write_foreign_csv",
+    "DEFAULT_DISTANCE_EDGES", "TRUTH_COLUMNS", "Truth", "DESIGNS", "Propagation",
+    "Simulation", "simulate_spots", "DEMO_CALL", "DEMO_LOCATOR", "make_demo_data",
+]

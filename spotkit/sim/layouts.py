@@ -1,0 +1,130 @@
+"""Spot tables written as CSV in invented foreign layouts, for tests of the readers.
+
+:func:`write_foreign_csv` writes a canonical spot table with other headings (or none),
+delimiters, units (kHz / MHz, W / mW) and time formats (epoch seconds, ISO 8601, plain
+date and time), optionally with duplicate uploads and corrupted rows, and returns the
+mapping and units the ingest needs to read it back (:data:`LAYOUTS` lists the layouts).
+
+Known error: frequencies are written with the layout's decimals (1 Hz at worst) and powers
+in W or mW with 6 significant digits (within 1e-4 dB of the dBm value); nothing else is
+rounded beyond the canonical table's own whole-dB SNR.
+"""
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+
+from spotkit import columns as C
+
+#: Invented CSV layouts: delimiter, heading line (None: none), time format ("epoch" or a
+#: strftime format), frequency unit and decimals, power unit. Field order is always time,
+#: tx call, tx locator, rx call, rx locator, frequency, SNR, power, drift.
+LAYOUTS = {
+    "comma": dict(sep=",", time="%Y-%m-%d %H:%M", freq=("MHz", 6), power="dBm",
+                  headings=["Time UTC", "Tx Call", "Tx Grid", "Rx Call", "Rx Grid",
+                            "Freq MHz", "SNR dB", "Power dBm", "Drift"]),
+    "semicolon": dict(sep=";", time="epoch", freq=("kHz", 3), power="W",
+                      headings=["t_epoch", "origin", "origin_sq", "hearer", "hearer_sq",
+                                "khz", "s_n", "watts", "dr"]),
+    "tab": dict(sep="\t", time="%Y-%m-%dT%H:%M:%SZ", freq=("Hz", 0), power="mW",
+                headings=["timestamp", "sender callsign", "sender locator",
+                          "reporter callsign", "reporter locator", "frequency hz", "snr",
+                          "power mw", "drift"]),
+    "space": dict(sep=" ", time="epoch", freq=("MHz", 6), power="dBm", headings=None),
+    "canonical": dict(sep=",", time="%Y-%m-%dT%H:%M:%SZ", freq=("Hz", 0), power="dBm",
+                      headings=list(C.INPUT_FIELDS)),
+}
+_LAYOUT_FIELDS = ["time", "tx_call", "tx_locator", "rx_call", "rx_locator", "frequency",
+                  "snr", "power", "drift"]
+# (field position, junk) written into corrupted rows; each makes the row unusable
+_JUNK = [(0, "yesterday"), (1, ""), (2, "ZZ99"), (4, "AB1"), (5, "abc"), (6, "n/a"),
+         (7, "-5"), (5, "1.0")]
+
+
+def _fmt(values, spec):
+    return np.char.mod(spec, np.asarray(values, dtype=float)).astype(object)
+
+
+def write_foreign_csv(spots: pd.DataFrame, path, layout: str = "comma", *,
+                      duplicates: float = 0.0, corrupt: int = 0, seed: int = 0):
+    """Write a spot table as CSV in one of several invented layouts (:data:`LAYOUTS`).
+
+    Parameters
+    ----------
+    spots : pandas.DataFrame
+        Canonical spot table (as from :func:`simulate_spots`).
+    path : str or path-like
+        Output file; a ``.gz`` suffix compresses with gzip.
+    layout : {"comma", "semicolon", "tab", "space", "canonical"}
+        ``comma``: ``YYYY-MM-DD HH:MM`` times, MHz, dBm; ``semicolon``: epoch seconds, kHz,
+        W, headings the reader cannot guess; ``tab``: ISO 8601 with Z, Hz, mW; ``space``:
+        no heading line, epoch seconds, MHz, dBm; ``canonical``: glossary names.
+    duplicates : float
+        Fraction of rows uploaded twice (the copy follows a little later in the file).
+    corrupt : int
+        Number of rows with one field replaced by junk (bad time, empty call, bad locator,
+        non-numeric frequency or SNR, power out of range, frequency out of band); never
+        duplicated.
+    seed : int
+        Seed for choosing duplicated and corrupted rows.
+
+    Returns
+    -------
+    mapping : dict
+        Field (CLI name) -> heading or 1-based column position, for ``read_spots``.
+    units : dict
+        Field -> unit (``time``: iso|epoch, ``frequency``: Hz|kHz|MHz, ``power``:
+        dBm|W|mW), for ``read_spots``.
+    """
+    if layout not in LAYOUTS:
+        raise ValueError(f"unknown layout {layout!r}; valid: {', '.join(LAYOUTS)}")
+    lay = LAYOUTS[layout]
+    rng = np.random.default_rng(seed)
+    n = len(spots)
+    slot = pd.DatetimeIndex(spots[C.SLOT])
+    if lay["time"] == "epoch":
+        t = (slot.as_unit("ns").asi8 // 10**9).astype(str).astype(object)
+    else:
+        t = np.asarray(slot.strftime(lay["time"]), dtype=object)
+    funit, dec = lay["freq"]
+    f = spots[C.FREQ].to_numpy(float) / {"Hz": 1.0, "kHz": 1e3, "MHz": 1e6}[funit]
+    pw = spots[C.POWER].to_numpy(float)
+    if lay["power"] == "dBm":
+        p = _fmt(pw, "%.0f")
+    else:
+        p = _fmt(10.0 ** ((pw - 30.0) / 10.0) * (1.0 if lay["power"] == "W" else 1e3), "%.6g")
+    cols = [t, spots[C.TX_CALL].astype(str).to_numpy(object),
+            spots[C.TX_LOCATOR].astype(str).to_numpy(object),
+            spots[C.RX_CALL].astype(str).to_numpy(object),
+            spots[C.RX_LOCATOR].astype(str).to_numpy(object), _fmt(f, f"%.{dec}f"),
+            _fmt(spots[C.SNR], "%.0f"), p, _fmt(spots[C.DRIFT].fillna(0.0), "%.0f")]
+    table = np.column_stack(cols) if n else np.empty((0, 9), dtype=object)
+    if corrupt:
+        rows = rng.choice(n, size=min(int(corrupt), n), replace=False)
+        junk = rng.integers(0, len(_JUNK), rows.size)
+        for r, j in zip(rows, junk):
+            table[r, _JUNK[j][0]] = _JUNK[j][1]
+        clean = np.setdiff1d(np.arange(n), rows)
+    else:
+        clean = np.arange(n)
+    n_dup = int(round(duplicates * n))
+    if n_dup and clean.size:
+        src = rng.choice(clean, size=min(n_dup, clean.size), replace=False)
+        key = np.concatenate([np.arange(n), src + rng.integers(1, 30, src.size) + 0.5])
+        order = np.argsort(key, kind="stable")
+        table = np.concatenate([table, table[src]])[order]
+    out = pd.DataFrame(table, columns=lay["headings"] or list(range(9)))
+    gz = str(path).endswith(".gz")
+    out.to_csv(path, sep=lay["sep"], index=False, header=lay["headings"] is not None,
+               compression={"method": "gzip", "mtime": 0} if gz else None,
+               lineterminator="\n")
+    if lay["headings"] is None:
+        mapping = {k: i + 1 for i, k in enumerate(_LAYOUT_FIELDS)}
+    else:
+        mapping = dict(zip(_LAYOUT_FIELDS, lay["headings"]))
+    units = {"time": "epoch" if lay["time"] == "epoch" else "iso", "frequency": funit,
+             "power": lay["power"]}
+    return mapping, units
+
+
+__all__ = ["LAYOUTS", "write_foreign_csv"]

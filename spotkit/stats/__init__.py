@@ -1,0 +1,40 @@
+"""The statistics of paired reports: rank and sign tests, the censored-normal fit of
+B minus A, and the cluster bootstrap.
+"""
+
+from spotkit.stats.bootstrap import (
+    DRAWS,
+    INTERVAL_METHODS,
+    bootstrap_interval,
+    bootstrap_p_value,
+    cluster_bootstrap_weights,
+    stratified_bootstrap_weights,
+)
+from spotkit.stats.censored import (
+    SIGMA_FLOOR_DB,
+    CensoredFit,
+    censored_mixture_mle,
+    censored_mixture_mle_batch,
+    censored_normal_mle,
+    censored_normal_mle_batch,
+    normal_share,
+)
+from spotkit.stats.paired import (
+    TestResult,
+    benjamini_hochberg,
+    hodges_lehmann,
+    hodges_lehmann_ci,
+    mcnemar,
+    sign_test,
+    wilcoxon_signed_rank,
+    wilson_interval,
+)
+
+__all__ = [
+    "TestResult", "wilcoxon_signed_rank", "hodges_lehmann", "hodges_lehmann_ci",
+    "sign_test", "mcnemar", "benjamini_hochberg", "wilson_interval", "SIGMA_FLOOR_DB",
+    "CensoredFit", "censored_normal_mle", "censored_normal_mle_batch",
+    "censored_mixture_mle", "censored_mixture_mle_batch", "normal_share",
+    "INTERVAL_METHODS", "DRAWS", "cluster_bootstrap_weights",
+    "stratified_bootstrap_weights", "bootstrap_interval", "bootstrap_p_value",
+]

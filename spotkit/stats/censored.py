@@ -1,0 +1,578 @@
+"""The censored-normal maximum-likelihood fit of paired SNR differences (Tobit model).
+
+The data are paired SNR differences ``d = B - A`` [dB]: exact values where both antennas
+were heard, and one-sided bounds where only one was (the other was below its receiver's
+threshold). Values come as distinct ``values`` with ``kinds`` (0 exact, +1 upper bound,
+-1 lower bound) and optional ``counts`` (frequency weights), so a fit costs time in the
+number of distinct values, not pairs; :func:`censored_normal_mle_batch` runs many weighted
+fits at once (one per bootstrap resample).
+
+Known error:
+
+* The censored-normal maximum-likelihood fit (Tobin 1958): the headline estimator. It uses
+  the pairs where only one antenna was heard as bounds on ``d`` and returns a continuous
+  estimate. Its known error is the normal model itself: heavy tails or a mixture of paths
+  with different differences bias ``sigma`` and, when censoring is one-sided, ``mu``.
+  Whole-dB exact values are taken as exact; near the censoring limits this biases ``mu``
+  slightly (-0.006 dB with sigma 3 dB and limits at -+2.5 dB, by simulation of 2e6 pairs).
+  The fit floors ``sigma`` (default 0.3 dB, a choice well below the 1 dB resolution of
+  reports) because a normal fitted to identical whole-dB values would otherwise collapse to
+  zero width.
+
+References
+----------
+J. Tobin, "Estimation of relationships for limited dependent variables", Econometrica
+26(1):24-36, 1958. doi:10.2307/1907382
+R. J. Olsen, "Note on the uniqueness of the maximum likelihood estimator for the Tobit
+model", Econometrica 46(5):1211-1215, 1978. doi:10.2307/1911445
+"""
+from __future__ import annotations
+
+from dataclasses import asdict, dataclass
+
+import numpy as np
+from scipy import special
+
+from spotkit.errors import UsageError
+
+#: Default floor of the censored-normal sigma, dB (see the module docstring).
+SIGMA_FLOOR_DB = 0.3
+
+
+@dataclass(frozen=True)
+class CensoredFit:
+    """Result of :func:`censored_normal_mle`.
+
+    Attributes
+    ----------
+    mu : float
+        Fitted mean [dB]; NaN when the likelihood has no maximum.
+    sigma : float
+        Fitted standard deviation [dB], at least the sigma floor; NaN as ``mu``.
+    converged : bool
+        Whether the Newton iteration met its tolerance.
+    n_exact, n_upper, n_lower : float
+        Total weight of exact values, upper bounds and lower bounds.
+    loglik : float
+        Maximised log-likelihood (including the ``-log(2 pi)/2`` constants of exact values).
+    n_iter : int
+        Newton iterations used.
+    se_mu, se_sigma : float
+        Standard errors [dB] from the observed information (inverse Hessian, delta method).
+        They assume independent observations and an interior maximum: with ``sigma`` on its
+        floor ``se_sigma`` is not meaningful, and with clustered data use the cluster
+        bootstrap instead.
+    missed_a, missed_b : float
+        :func:`censored_mixture_mle` only: fitted shares ``pa``, ``pb`` of pairs with only
+        A (only B) heard for a reason that says nothing about ``d`` (0 for the plain fit).
+    """
+
+    mu: float
+    sigma: float
+    converged: bool
+    n_exact: float
+    n_upper: float
+    n_lower: float
+    loglik: float = float("nan")
+    n_iter: int = 0
+    se_mu: float = float("nan")
+    se_sigma: float = float("nan")
+    missed_a: float = 0.0
+    missed_b: float = 0.0
+
+    def to_dict(self) -> dict:
+        """The fields as a plain dict."""
+        return asdict(self)
+
+
+# --------------------------------------------------------------------------- censored normal MLE
+_LOG_SQRT_2PI = 0.5 * np.log(2 * np.pi)
+
+
+def _check_batch(values, kinds, weights, sigma_floor):
+    """Checked (values, kinds, weights) of a batch fit (weights shape (B, K))."""
+    if not sigma_floor > 0:
+        raise UsageError(f"sigma_floor must be positive, got {sigma_floor}")
+    v, k = _check_kinds(values, kinds)
+    w = np.asarray(weights, dtype=float)
+    if w.ndim != 2 or w.shape[1] != v.size:
+        raise UsageError(f"weights must have shape (B, {v.size}), got {w.shape}")
+    if np.any(~np.isfinite(w)) or np.any(w < 0):
+        raise UsageError("weights must be finite and non-negative")
+    return v, k, w
+
+
+def _check_kinds(values, kinds):
+    v = np.asarray(values, dtype=float).ravel()
+    k = np.asarray(kinds).ravel()
+    if k.shape != v.shape:
+        raise UsageError(f"kinds has {k.size} entries but values has {v.size}")
+    if not np.all(np.isin(k, (-1, 0, 1))):
+        raise UsageError("kinds must be 0 (exact), +1 (upper bound) or -1 (lower bound)")
+    if not np.all(np.isfinite(v)):
+        raise UsageError("values must be finite (no NaN or inf)")
+    return v, k.astype(int)
+
+
+def _tobit_parts(delta, gamma, v, sgn, exact, w):
+    """Log-likelihood, gradient and Hessian in Olsen's (delta, gamma) = (mu/s, 1/s).
+
+    ``w`` is (B, K); ``delta``, ``gamma`` are (B,). Exact values contribute
+    ``log gamma - r^2/2 - log sqrt(2 pi)`` with ``r = gamma v - delta``; bounds contribute
+    ``log Phi(u)`` with ``u = sgn r`` (sgn +1 for an upper bound, -1 for a lower bound).
+    """
+    r = gamma[:, None] * v[None, :] - delta[:, None]
+    u = sgn[None, :] * r
+    log_cdf = special.log_ndtr(u)
+    lam = np.exp(-0.5 * u * u - _LOG_SQRT_2PI - log_cdf)  # inverse Mills ratio phi/Phi
+    h = -lam * (u + lam)
+    lg = np.log(gamma)[:, None]
+    ll_e = lg - 0.5 * r * r - _LOG_SQRT_2PI
+    ex = exact[None, :]
+    ll = np.where(ex, ll_e, log_cdf)
+    ll = np.sum(np.where(w > 0, w * ll, 0.0), axis=1)
+    g_d = np.sum(w * np.where(ex, r, -sgn * lam), axis=1)
+    g_g = np.sum(w * np.where(ex, 1.0 / gamma[:, None] - r * v, sgn * v * lam), axis=1)
+    h_dd = np.sum(w * np.where(ex, -1.0, h), axis=1)
+    h_dg = np.sum(w * np.where(ex, v, -h * v), axis=1)
+    h_gg = np.sum(w * np.where(ex, -1.0 / gamma[:, None] ** 2 - v * v, h * v * v), axis=1)
+    return ll, g_d, g_g, h_dd, h_dg, h_gg
+
+
+def _tobit_batch(v, kind, w, sigma_floor, max_iter=100, tol=1e-10):
+    """Batch Newton fit; returns mu, sigma, converged, loglik, n_iter (arrays over rows)."""
+    b = w.shape[0]
+    exact = kind == 0
+    sgn = kind.astype(float)
+    w_e = w[:, exact].sum(axis=1)
+    w_u = w[:, kind == 1].sum(axis=1)
+    w_l = w[:, kind == -1].sum(axis=1)
+    mu = np.full(b, np.nan)
+    sigma = np.full(b, np.nan)
+    conv = np.zeros(b, dtype=bool)
+    n_iter = np.zeros(b, dtype=int)
+    gmax = 1.0 / sigma_floor
+
+    # starting values (and the answer, for rows without censoring): weighted mean / SD
+    with np.errstate(invalid="ignore", divide="ignore"):
+        we = np.where(exact[None, :], w, 0.0)
+        base_w = np.where((w_e > 0)[:, None], we, w)
+        tot = base_w.sum(axis=1)
+        m0 = (base_w * v).sum(axis=1) / tot
+        sd0 = np.sqrt((base_w * (v - m0[:, None]) ** 2).sum(axis=1) / tot)
+    closed = (w_e > 0) & (w_u + w_l == 0)
+    mu[closed] = m0[closed]
+    sigma[closed] = np.maximum(sd0[closed], sigma_floor)
+    conv[closed] = True
+    fit = (w_e > 0) & (w_u + w_l > 0) | (w_e == 0) & (w_u > 0) & (w_l > 0)
+    loglik = np.full(b, np.nan)
+    rows = np.nonzero(fit)[0]
+    if rows.size:
+        start_sd = np.where(w_e[rows] > 0, sd0[rows], np.maximum(sd0[rows], 1.0))
+        gamma = 1.0 / np.maximum(start_sd, sigma_floor)
+        delta = m0[rows] * gamma
+        active = np.ones(rows.size, dtype=bool)
+        done_ok = np.zeros(rows.size, dtype=bool)
+        it = np.zeros(rows.size, dtype=int)
+        for _ in range(max_iter):
+            idx = np.nonzero(active)[0]
+            if idx.size == 0:
+                break
+            wa = w[rows[idx]]
+            d0, g0 = delta[idx], gamma[idx]
+            ll, gd, gg, hdd, hdg, hgg = _tobit_parts(d0, g0, v, sgn, exact, wa)
+            det = hdd * hgg - hdg * hdg
+            with np.errstate(invalid="ignore", divide="ignore"):
+                step_d = -(hgg * gd - hdg * gg) / det
+                step_g = -(-hdg * gd + hdd * gg) / det
+            bad = ~((hdd < 0) & (det > 0) & np.isfinite(step_d) & np.isfinite(step_g))
+            if np.any(bad):  # gradient ascent scaled by the curvature
+                scale = 1.0 / np.maximum(np.maximum(np.abs(hdd), np.abs(hgg)), 1.0)
+                step_d = np.where(bad, gd * scale, step_d)
+                step_g = np.where(bad, gg * scale, step_g)
+            at_floor = (g0 >= gmax * (1 - 1e-12)) & (gg > 0)
+            if np.any(at_floor):  # sigma on its floor: maximise over delta alone
+                step_d = np.where(at_floor, -gd / np.where(hdd < 0, hdd, -1.0), step_d)
+                step_g = np.where(at_floor, 0.0, step_g)
+            t = np.ones(idx.size)
+            with np.errstate(invalid="ignore", divide="ignore"):
+                t = np.where(step_g > 0, np.minimum(t, (gmax - g0) / step_g), t)
+                t = np.where(step_g < 0, np.minimum(t, -0.9 * g0 / step_g), t)
+            accepted = np.zeros(idx.size, dtype=bool)
+            new_d, new_g = d0.copy(), g0.copy()
+            for _half in range(50):
+                todo = np.nonzero(~accepted)[0]
+                if todo.size == 0:
+                    break
+                cd = d0[todo] + t[todo] * step_d[todo]
+                cg = np.minimum(g0[todo] + t[todo] * step_g[todo], gmax)
+                ll_new = _tobit_parts(cd, cg, v, sgn, exact, wa[todo])[0]
+                ok = np.isfinite(ll_new) & (ll_new >= ll[todo] - 1e-12 * np.abs(ll[todo]))
+                new_d[todo[ok]] = cd[ok]
+                new_g[todo[ok]] = cg[ok]
+                accepted[todo[ok]] = True
+                t[todo[~ok]] *= 0.5
+            moved = np.maximum(np.abs(new_d - d0) / (1 + np.abs(d0)), np.abs(new_g - g0) / g0)
+            delta[idx], gamma[idx] = new_d, new_g
+            it[idx] += 1
+            small = (moved < tol) | ~accepted
+            diverged = (new_g < 1e-8) | (np.abs(new_d / new_g) > 1e8)
+            finished = small | diverged
+            done_ok[idx[small & ~diverged]] = True
+            active[idx[finished]] = False
+        ok = done_ok & (gamma >= 1e-8)
+        mu[rows] = np.where(np.isfinite(delta / gamma) & (gamma >= 1e-8), delta / gamma, np.nan)
+        sigma[rows] = np.where(gamma >= 1e-8, 1.0 / gamma, np.nan)
+        conv[rows] = ok
+        n_iter[rows] = it
+    have = np.isfinite(mu)
+    if np.any(have):
+        loglik[have] = _tobit_parts(mu[have] / sigma[have], 1.0 / sigma[have], v, sgn, exact,
+                                    w[have])[0]
+    return mu, sigma, conv, loglik, n_iter
+
+
+def censored_normal_mle(values, kinds, counts=None,
+                        sigma_floor: float = SIGMA_FLOOR_DB) -> CensoredFit:
+    """Maximum-likelihood fit of N(mu, sigma^2) to exact values and one-sided bounds.
+
+    The log-likelihood (weights ``c``) is the Tobit / censored-normal one: an exact value
+    ``v`` contributes ``log phi((v - mu)/sigma) - log sigma``; an upper bound (the true
+    value is ``<= v``) ``log Phi((v - mu)/sigma)``; a lower bound (``>= v``)
+    ``log Phi(-(v - mu)/sigma)`` (``scipy.special.log_ndtr`` keeps far tails finite).
+    It is maximised by Newton's method with step halving in Olsen's parameters
+    ``(mu/sigma, 1/sigma)``, where the log-likelihood is concave, so the iteration cannot
+    stall at a saddle; it starts from the mean and SD of the exact values. ``sigma`` is
+    held at or above ``sigma_floor``: when the unconstrained maximum lies below it (e.g.
+    all exact values equal) the fit maximises over ``mu`` with ``sigma = sigma_floor``.
+    With no bounds the answer is the weighted mean and the ``ddof=0`` SD (floored)
+    exactly. With no exact values and only one kind of bound there is no maximum
+    (``mu`` runs to infinity): ``mu`` and ``sigma`` are NaN and ``converged`` False; also
+    when ``sigma`` diverges (bounds that contradict each other).
+
+    Parameters
+    ----------
+    values : array_like
+        Differences or bounds [dB].
+    kinds : array_like of int
+        0 = exact value, +1 = upper bound (true <= value), -1 = lower bound (true >= value).
+    counts : array_like, optional
+        Non-negative frequency weights; default one each.
+    sigma_floor : float
+        Smallest allowed sigma [dB], default 0.3 dB.
+
+    Returns
+    -------
+    CensoredFit
+
+    References
+    ----------
+    .. [1] J. Tobin, "Estimation of relationships for limited dependent variables",
+       Econometrica 26(1):24-36, 1958. doi:10.2307/1907382
+    .. [2] R. J. Olsen, "Note on the uniqueness of the maximum likelihood estimator for the
+       Tobit model", Econometrica 46(5):1211-1215, 1978. doi:10.2307/1911445
+    """
+    if not sigma_floor > 0:
+        raise UsageError(f"sigma_floor must be positive, got {sigma_floor}")
+    v, k = _check_kinds(values, kinds)
+    if counts is None:
+        c = np.ones(v.shape)
+    else:
+        c = np.asarray(counts, dtype=float).ravel()
+        if c.shape != v.shape:
+            raise UsageError(f"counts has {c.size} entries but values has {v.size}")
+        if np.any(~np.isfinite(c)) or np.any(c < 0):
+            raise UsageError("counts must be finite and non-negative")
+    mu, sigma, conv, ll, it = _tobit_batch(v, k, c[None, :], sigma_floor)
+    se_mu = se_sigma = float("nan")
+    if np.isfinite(mu[0]):
+        gamma = 1.0 / sigma
+        _, _, _, hdd, hdg, hgg = _tobit_parts(mu * gamma, gamma, v, k.astype(float), k == 0,
+                                              c[None, :])
+        info = -np.array([[hdd[0], hdg[0]], [hdg[0], hgg[0]]])
+        if np.all(np.isfinite(info)) and np.linalg.det(info) > 0:
+            g = gamma[0]
+            jac = np.array([[g**-1, -mu[0] * g**-1], [0.0, -(g**-2)]])  # d(mu, s)/d(delta, gamma)
+            cov = jac @ np.linalg.inv(info) @ jac.T
+            se_mu, se_sigma = float(np.sqrt(cov[0, 0])), float(np.sqrt(cov[1, 1]))
+    return CensoredFit(float(mu[0]), float(sigma[0]), bool(conv[0]), float(c[k == 0].sum()),
+                       float(c[k == 1].sum()), float(c[k == -1].sum()), float(ll[0]),
+                       int(it[0]), se_mu, se_sigma)
+
+
+def censored_normal_mle_batch(values, kinds, weights,
+                              sigma_floor: float = SIGMA_FLOOR_DB):
+    """Many censored-normal fits at once, one per row of ``weights`` (for the bootstrap).
+
+    Same model and rules as :func:`censored_normal_mle`; all rows iterate together as
+    ``(B, K)`` arrays. Rows with zero total weight, or without a maximum, give NaN.
+
+    Parameters
+    ----------
+    values : array_like, shape (K,)
+        Differences or bounds [dB], shared by all rows.
+    kinds : array_like of int, shape (K,)
+        0 exact, +1 upper bound, -1 lower bound.
+    weights : array_like, shape (B, K)
+        Non-negative weights of each value in each fit.
+    sigma_floor : float
+        Smallest allowed sigma [dB].
+
+    Returns
+    -------
+    mu, sigma : numpy.ndarray, shape (B,)
+        Fitted mean and SD [dB].
+
+    References
+    ----------
+    .. [1] J. Tobin, Econometrica 26(1):24-36, 1958. doi:10.2307/1907382
+    """
+    v, k, w = _check_batch(values, kinds, weights, sigma_floor)
+    mu, sigma, _conv, _ll, _it = _tobit_batch(v, k, w, sigma_floor)
+    return mu, sigma
+
+
+# ------------------------------------------------------------- censored normal with missed reports
+def _mixture_parts(delta, gamma, pa, pb, v, sgn, exact, w, need_hess=True, ew=1.0):
+    """Log-likelihood, gradient (B, 4) and Hessian (B, 4, 4) of the missed-report mixture.
+
+    Parameters ``(delta, gamma, pa, pb)``, each (B,); ``w`` is (B, K). An exact value
+    contributes ``log(1 - pa) + log(1 - pb) + ew (log gamma - r^2/2 - log sqrt(2 pi))``;
+    an upper bound (only A heard) ``log(pa + (1 - pa) Phi(u))``, a lower bound (only B
+    heard) ``log(pb + (1 - pb) Phi(u))``, with ``u = sgn (gamma v - delta)``.
+    """
+    r = gamma[:, None] * v[None, :] - delta[:, None]
+    u = sgn[None, :] * r
+    log_cdf = special.log_ndtr(u)
+    up = sgn[None, :] > 0
+    own = np.where(up, pa[:, None], pb[:, None])     # the bound's own missing share
+    log_1mo = np.log1p(-own)
+    log_m = np.logaddexp(np.log(own), log_1mo + log_cdf)
+    ex = exact[None, :]
+    lg = np.log(gamma)[:, None]
+    l1a, l1b = np.log1p(-pa)[:, None], np.log1p(-pb)[:, None]
+    ll_e = l1a + l1b + ew * (lg - 0.5 * r * r - _LOG_SQRT_2PI)
+    ll = np.sum(np.where(w > 0, w * np.where(ex, ll_e, log_m), 0.0), axis=1)
+    if not need_hess:
+        return ll
+    log_pdf = -0.5 * u * u - _LOG_SQRT_2PI
+    q = np.exp(log_1mo + log_pdf - log_m)           # (1 - p) phi / M
+    h = -q * (u + q)
+    ncdf = np.exp(special.log_ndtr(-u) - log_m)     # (1 - Phi) / M
+    dq = -np.exp(log_pdf - 2.0 * log_m)             # d q / d own = -phi / M^2
+    sv = sgn[None, :] * v[None, :]
+    ia, ib = 1.0 / (1.0 - pa)[:, None], 1.0 / (1.0 - pb)[:, None]
+    g_d = np.sum(w * np.where(ex, ew * r, -sgn * q), axis=1)
+    g_g = np.sum(w * np.where(ex, ew * (1.0 / gamma[:, None] - r * v), sv * q), axis=1)
+    g_a = np.sum(w * np.where(ex, -ia, np.where(up, ncdf, 0.0)), axis=1)
+    g_b = np.sum(w * np.where(ex, -ib, np.where(up, 0.0, ncdf)), axis=1)
+    h_dd = np.sum(w * np.where(ex, -ew, h), axis=1)
+    h_dg = np.sum(w * np.where(ex, ew * v, -h * v), axis=1)
+    h_gg = np.sum(w * np.where(ex, -ew * (1.0 / gamma[:, None] ** 2 + v * v), h * v * v),
+                  axis=1)
+    h_da = np.sum(w * np.where(ex | ~up, 0.0, -sgn * dq), axis=1)
+    h_db = np.sum(w * np.where(ex | up, 0.0, -sgn * dq), axis=1)
+    h_ga = np.sum(w * np.where(ex | ~up, 0.0, sv * dq), axis=1)
+    h_gb = np.sum(w * np.where(ex | up, 0.0, sv * dq), axis=1)
+    h_aa = np.sum(w * np.where(ex, -ia * ia, np.where(up, -ncdf * ncdf, 0.0)), axis=1)
+    h_bb = np.sum(w * np.where(ex, -ib * ib, np.where(up, 0.0, -ncdf * ncdf)), axis=1)
+    h_ab = np.zeros_like(h_aa)
+    grad = np.stack([g_d, g_g, g_a, g_b], axis=1)
+    hess = np.stack([np.stack([h_dd, h_dg, h_da, h_db], 1),
+                     np.stack([h_dg, h_gg, h_ga, h_gb], 1),
+                     np.stack([h_da, h_ga, h_aa, h_ab], 1),
+                     np.stack([h_db, h_gb, h_ab, h_bb], 1)], axis=1)
+    return ll, grad, hess
+
+
+def _mixture_batch(v, kind, w, sigma_floor, max_iter=200, tol=1e-9, pi_min=1e-6,
+                   pi_max=0.95, ew=1.0):
+    """Batch fit of the missed-report mixture; returns mu, sigma, pa, pb, converged, loglik."""
+    b = w.shape[0]
+    exact = kind == 0
+    sgn = kind.astype(float)
+    w_e = w[:, exact].sum(axis=1)
+    mu, sigma, conv, loglik, _it = _tobit_batch(v, kind, np.where(exact[None, :], ew * w, w),
+                                                sigma_floor)
+    pa, pb = np.zeros(b), np.zeros(b)
+    # the mixture needs exact values (without them the missing shares explain every bound)
+    rows = np.nonzero((w_e > 0) & (w[:, ~exact].sum(axis=1) > 0))[0]
+    if rows.size == 0:
+        return mu, sigma, pa, pb, conv, loglik
+    gmax = 1.0 / sigma_floor
+    wr = w[rows]
+    with np.errstate(invalid="ignore", divide="ignore"):
+        we = np.where(exact[None, :], wr, 0.0)
+        m0 = (we * v).sum(axis=1) / w_e[rows]
+        sd0 = np.sqrt((we * (v - m0[:, None]) ** 2).sum(axis=1) / w_e[rows])
+    x = np.empty((rows.size, 4))
+    x[:, 1] = 1.0 / np.maximum(sd0, sigma_floor)
+    x[:, 0] = m0 * x[:, 1]
+    tot = wr.sum(axis=1)
+    x[:, 2] = np.clip(0.5 * wr[:, kind == 1].sum(axis=1) / tot, 0.01, 0.3)
+    x[:, 3] = np.clip(0.5 * wr[:, kind == -1].sum(axis=1) / tot, 0.01, 0.3)
+    active = np.ones(rows.size, bool)
+    done = np.zeros(rows.size, bool)
+    eye = np.eye(4)
+    for _ in range(max_iter):
+        idx = np.nonzero(active)[0]
+        if idx.size == 0:
+            break
+        wa = wr[idx]
+        x0 = x[idx]
+        with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
+            ll, grad, hess = _mixture_parts(x0[:, 0], x0[:, 1], x0[:, 2], x0[:, 3], v, sgn,
+                                            exact, wa, ew=ew)
+        # parameters held on a bound: a share at its floor pushing down, sigma at its floor
+        fixed = np.zeros((idx.size, 4), bool)
+        fixed[:, 1] = (x0[:, 1] >= gmax * (1 - 1e-12)) & (grad[:, 1] > 0)
+        for j in (2, 3):
+            fixed[:, j] = ((x0[:, j] <= pi_min) & (grad[:, j] <= 0.0)
+                           | (x0[:, j] >= pi_max) & (grad[:, j] >= 0.0))
+        gf = np.where(fixed, 0.0, grad)
+        hf = np.where(fixed[:, :, None] | fixed[:, None, :], 0.0, hess)
+        hf = hf - eye[None] * fixed[:, :, None]
+        finite = np.all(np.isfinite(hf), axis=(1, 2)) & np.all(np.isfinite(gf), axis=1)
+        hf[~finite] = -eye
+        gf[~finite] = 0.0
+        ok_h = finite & (np.linalg.eigvalsh(hf).max(axis=1) < 0)
+        step = np.zeros((idx.size, 4))
+        if ok_h.any():
+            step[ok_h] = -np.linalg.solve(hf[ok_h], gf[ok_h][:, :, None])[:, :, 0]
+        if (~ok_h).any():  # gradient ascent scaled by the curvature
+            diag = np.abs(np.diagonal(hf[~ok_h], axis1=1, axis2=2))
+            step[~ok_h] = gf[~ok_h] / np.maximum(diag, 1.0)
+        t = np.ones(idx.size)
+        with np.errstate(invalid="ignore", divide="ignore"):
+            sg = step[:, 1]
+            t = np.where(sg > 0, np.minimum(t, (gmax - x0[:, 1]) / sg), t)
+            t = np.where(sg < 0, np.minimum(t, -0.9 * x0[:, 1] / sg), t)
+            for j in (2, 3):
+                sp = step[:, j]
+                t = np.where(sp < 0, np.minimum(t, (pi_min - x0[:, j]) / sp), t)
+                t = np.where(sp > 0, np.minimum(t, (pi_max - x0[:, j]) / sp), t)
+        t = np.maximum(t, 0.0)
+        accepted = np.zeros(idx.size, bool)
+        xn = x0.copy()
+        for _half in range(50):
+            todo = np.nonzero(~accepted)[0]
+            if todo.size == 0:
+                break
+            c = x0[todo] + t[todo, None] * step[todo]
+            c[:, 1] = np.minimum(c[:, 1], gmax)
+            c[:, 2:] = np.clip(c[:, 2:], pi_min, pi_max)
+            with np.errstate(invalid="ignore", divide="ignore"):
+                ll_new = _mixture_parts(c[:, 0], c[:, 1], c[:, 2], c[:, 3], v, sgn, exact,
+                                        wa[todo], need_hess=False, ew=ew)
+            okk = np.isfinite(ll_new) & (ll_new >= ll[todo] - 1e-12 * np.abs(ll[todo]))
+            xn[todo[okk]] = c[okk]
+            accepted[todo[okk]] = True
+            t[todo[~okk]] *= 0.5
+        scale = np.c_[1 + np.abs(x0[:, :1]), x0[:, 1:2], np.ones((idx.size, 2))]
+        moved = np.max(np.abs(xn - x0) / scale, axis=1)
+        x[idx] = xn
+        small = (moved < tol) | ~accepted
+        diverged = (xn[:, 1] < 1e-8) | (np.abs(xn[:, 0] / xn[:, 1]) > 1e8)
+        done[idx[small & ~diverged]] = True
+        active[idx[small | diverged]] = False
+    with np.errstate(invalid="ignore", divide="ignore"):
+        m_new = np.where(x[:, 1] >= 1e-8, x[:, 0] / x[:, 1], np.nan)
+        ll_new = _mixture_parts(x[:, 0], x[:, 1], x[:, 2], x[:, 3], v, sgn, exact, wr,
+                                need_hess=False, ew=ew)
+    # keep the plain fit where the mixture did not do better (it nests it at pa = pb = 0)
+    better = done & np.isfinite(m_new) & ~(ll_new < np.nan_to_num(loglik[rows], nan=-np.inf))
+    r_b = rows[better]
+    mu[r_b], sigma[r_b] = m_new[better], 1.0 / x[better, 1]
+    pa[r_b], pb[r_b] = x[better, 2], x[better, 3]
+    conv[r_b] = True
+    loglik[r_b] = ll_new[better]
+    return mu, sigma, pa, pb, conv, loglik
+
+
+def censored_mixture_mle(values, kinds, counts=None, sigma_floor: float = SIGMA_FLOOR_DB,
+                         exact_weight: float = 1.0) -> CensoredFit:
+    """Censored-normal fit allowing for reports missing for reasons other than ``d``.
+
+    A one-sided observation (one antenna heard, the other not) is explained either by the
+    censored normal - the silent side was below its limit - or by something that does not
+    depend on ``d`` (the path closed or faded out between two slots, the receiver stopped
+    listening, a decode was lost to interference): with probability ``pa`` when only A
+    was heard (an upper bound), ``pb`` when only B was (a lower bound). An upper bound
+    contributes ``log(pa + (1 - pa) Phi(u))``, a lower bound ``log(pb + (1 - pb) Phi(u))``
+    and an exact value ``log(1 - pa) + log(1 - pb) + exact_weight * log(phi(r) / sigma)``:
+    the product of the two conditional likelihoods "B's outcome given A heard" and "A's
+    outcome given B heard" of paired reports (each with its own missing share) when
+    ``exact_weight`` is 2, a single mixture when it is 1. ``pa`` and ``pb`` are nuisance
+    parameters fitted with ``mu`` and ``sigma``; bounds the normal cannot explain (a
+    strong report on one side and nothing on the other) identify them. The model nests the
+    censored-normal fit (``pa = pb = 0``), which is returned where the mixture does not
+    fit better. ``pa`` and ``pb`` are held in ``[1e-6, 0.95]`` (the floor keeps the
+    derivatives finite for bounds far in the normal's tail); without exact values they are
+    0 (they would explain every bound). Maximised by Newton's method in
+    ``(mu/sigma, 1/sigma, pa, pb)`` with step halving, started from the mean and SD of the
+    exact values.
+
+    Parameters and returns as :func:`censored_normal_mle`, plus ``exact_weight`` (weight
+    of an exact value's normal density); ``CensoredFit.missed_a`` / ``missed_b`` hold
+    ``pa`` / ``pb``. Standard errors are not computed (NaN): use the bootstrap.
+
+    References
+    ----------
+    .. [1] J. Tobin, Econometrica 26(1):24-36, 1958. doi:10.2307/1907382
+    .. [2] G. J. McLachlan and D. Peel, Finite Mixture Models, Wiley, 2000 (mixture
+       likelihoods; citation from memory).
+    .. [3] C. Varin, N. Reid and D. Firth, "An overview of composite likelihood methods",
+       Statistica Sinica 21:5-42, 2011 (products of conditional likelihoods; citation
+       from memory).
+    """
+    if not sigma_floor > 0:
+        raise UsageError(f"sigma_floor must be positive, got {sigma_floor}")
+    v, k = _check_kinds(values, kinds)
+    c = np.ones(v.shape) if counts is None else np.asarray(counts, dtype=float).ravel()
+    if c.shape != v.shape:
+        raise UsageError(f"counts has {c.size} entries but values has {v.size}")
+    if np.any(~np.isfinite(c)) or np.any(c < 0):
+        raise UsageError("counts must be finite and non-negative")
+    mu, sigma, pa, pb, conv, ll = _mixture_batch(v, k, c[None, :], sigma_floor,
+                                                 ew=float(exact_weight))
+    return CensoredFit(float(mu[0]), float(sigma[0]), bool(conv[0]), float(c[k == 0].sum()),
+                       float(c[k == 1].sum()), float(c[k == -1].sum()), float(ll[0]), 0,
+                       missed_a=float(pa[0]), missed_b=float(pb[0]))
+
+
+def censored_mixture_mle_batch(values, kinds, weights, sigma_floor: float = SIGMA_FLOOR_DB,
+                               exact_weight: float = 1.0):
+    """Many :func:`censored_mixture_mle` fits at once, one per row of ``weights``.
+
+    Returns
+    -------
+    mu, sigma, missed_a, missed_b : numpy.ndarray, shape (B,)
+        Fitted mean and SD [dB] and the missing shares ``pa``, ``pb``.
+    """
+    v, k, w = _check_batch(values, kinds, weights, sigma_floor)
+    mu, sigma, pa, pb, _conv, _ll = _mixture_batch(v, k, w, sigma_floor,
+                                                   ew=float(exact_weight))
+    return mu, sigma, pa, pb
+
+
+def normal_share(values, kinds, mu, sigma, missed_a, missed_b):
+    """Posterior share of each observation explained by the censored normal.
+
+    1 for exact values; for a bound ``(1 - p) Phi(u) / (p + (1 - p) Phi(u))`` with ``p``
+    its side's missing share (``missed_a`` for upper bounds, ``missed_b`` for lower
+    bounds). Parameters are arrays of shape (B,); returns shape (B, K).
+    """
+    v, k = _check_kinds(values, kinds)
+    mu, sigma, pa, pb = (np.atleast_1d(np.asarray(x, dtype=float))
+                         for x in (mu, sigma, missed_a, missed_b))
+    u = k[None, :] * (v[None, :] - mu[:, None]) / sigma[:, None]
+    own = np.where(k[None, :] > 0, pa[:, None], pb[:, None])
+    with np.errstate(divide="ignore", invalid="ignore"):
+        a = np.log1p(-own) + special.log_ndtr(u)
+        share = np.exp(a - np.logaddexp(np.log(own), a))
+    return np.where(k[None, :] == 0, 1.0, share)
+
+
+__all__ = ["SIGMA_FLOOR_DB", "CensoredFit", "censored_normal_mle",
+           "censored_normal_mle_batch", "censored_mixture_mle", "censored_mixture_mle_batch",
+           "normal_share"]

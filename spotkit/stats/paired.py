@@ -1,0 +1,537 @@
+"""Statistics for paired A/B comparisons of SNR differences, on compressed data.
+
+The data are paired SNR differences ``d = B - A`` [dB]. Reports come in whole dB, so the
+differences take few distinct values; every function therefore takes the distinct
+``values`` and optional integer ``counts`` (frequency weights, one each by default) and
+works in time proportional to the number of distinct values, not the number of pairs.
+
+What is here, and its known error:
+
+* Rank and sign tests on the pairs where both antennas were heard: Wilcoxon's signed-rank
+  test (exact null distribution for small samples, normal approximation with tie and
+  continuity corrections otherwise - the approximation's error in the p-value is of order
+  ``1/n``), the exact sign test, the Hodges-Lehmann shift and its distribution-free interval.
+  On whole-dB data the Hodges-Lehmann estimate is always a multiple of 0.5 dB (Walsh
+  averages of integers are half-integers), so it is a check beside the headline, not the
+  headline itself.
+* McNemar's test on the discordant counts (only A heard / only B heard).
+* Benjamini-Hochberg adjustment across groups and Wilson intervals for proportions.
+
+The censored-normal maximum-likelihood fit (Tobin 1958), the headline estimator, lives in
+:mod:`spotkit.stats.censored` and the cluster bootstrap (resampling whole clusters, e.g.
+receivers or days, for intervals that respect correlation within clusters) in
+:mod:`spotkit.stats.bootstrap`, each with its known error; their public names are re-exported
+here (``stats.censored_normal_mle``, ``stats.bootstrap_interval``, ...).
+
+Everything is plain numpy/scipy on arrays.
+"""
+from __future__ import annotations
+
+from dataclasses import asdict, dataclass
+from typing import Literal
+
+import numpy as np
+from scipy import stats
+
+from spotkit.errors import UsageError
+
+Alternative = Literal["two-sided", "greater", "less"]
+WilcoxonMethod = Literal["auto", "exact", "normal"]
+McNemarMethod = Literal["exact", "chi2", "chi2-corrected"]
+
+ALTERNATIVES = ("two-sided", "greater", "less")
+WILCOXON_METHODS = ("auto", "exact", "normal")
+MCNEMAR_METHODS = ("exact", "chi2", "chi2-corrected")
+
+#: Largest sample for which ``method="auto"`` uses the exact signed-rank distribution.
+EXACT_MAX_N = 50
+
+#: Largest sample that ``method="exact"`` accepts (its cost grows as n**3).
+EXACT_LIMIT_N = 1000
+
+
+@dataclass(frozen=True)
+class TestResult:
+    """Result of a hypothesis test.
+
+    Attributes
+    ----------
+    statistic : float or numpy.ndarray
+        The test statistic (defined by each test).
+    p_value : float or numpy.ndarray
+        The p-value; NaN when there is nothing to test (no informative observations).
+    n : int or numpy.ndarray, optional
+        Number of informative observations (zeros and ties with the null value excluded).
+    method : str
+        How the p-value was computed.
+    alternative : str
+        The alternative hypothesis.
+    z : float, optional
+        The standardised statistic, when a normal approximation was used.
+    """
+
+    __test__ = False  # not a pytest test class
+
+    statistic: float
+    p_value: float
+    n: int | None = None
+    method: str = ""
+    alternative: str = "two-sided"
+    z: float | None = None
+
+    def to_dict(self) -> dict:
+        """The fields as a plain dict."""
+        return asdict(self)
+
+
+# --------------------------------------------------------------------------- helpers
+def _check_choice(value, valid, what):
+    if value not in valid:
+        raise ValueError(f"unknown {what} {value!r}; valid: {', '.join(valid)}")
+
+
+def _values_counts(values, counts=None, *, integer=True):
+    """Validate and return float values and counts (frequency weights) as 1-D arrays."""
+    v = np.asarray(values, dtype=float).ravel()
+    if counts is None:
+        c = np.ones(v.shape, dtype=float)
+    else:
+        c = np.asarray(counts, dtype=float).ravel()
+        if c.shape != v.shape:
+            raise UsageError(f"counts has {c.size} entries but values has {v.size}")
+    if not np.all(np.isfinite(v)):
+        raise UsageError("values must be finite (no NaN or inf)")
+    if np.any(~np.isfinite(c)) or np.any(c < 0):
+        raise UsageError("counts must be finite and non-negative")
+    if integer and np.any(c != np.round(c)):
+        raise UsageError("counts must be whole numbers (frequency weights)")
+    keep = c > 0
+    return v[keep], c[keep]
+
+
+def _collapse(v, c):
+    """Sum counts of equal values; returns sorted distinct values and their counts."""
+    u, inv = np.unique(v, return_inverse=True)
+    return u, np.bincount(inv, weights=c, minlength=u.size)
+
+
+def _signed_rank_parts(values, counts):
+    """Non-zero distinct |d|, mid-ranks, and the counts of positive and negative d."""
+    v, c = _values_counts(values, counts)
+    nz = v != 0
+    v, c = v[nz], c[nz]
+    a, inv = np.unique(np.abs(v), return_inverse=True)
+    pos = np.bincount(inv, weights=c * (v > 0), minlength=a.size)
+    neg = np.bincount(inv, weights=c * (v < 0), minlength=a.size)
+    t = pos + neg
+    before = np.cumsum(t) - t
+    midrank = before + (t + 1.0) / 2.0
+    return a, midrank, pos, neg, t
+
+
+def _signed_rank_null_counts(n: int) -> np.ndarray:
+    """Exact null probabilities of T+ = 0..n(n+1)/2 without ties.
+
+    The number of subsets of {1..n} with each sum, divided by 2**n as it is built up
+    (so that large n cannot overflow).
+    """
+    top = n * (n + 1) // 2
+    f = np.zeros(top + 1)
+    f[0] = 1.0
+    for k in range(1, n + 1):
+        f[k:] = f[k:] + f[:-k].copy()
+        f *= 0.5
+    return f
+
+
+def _signed_rank_null_ties(midrank2: np.ndarray, t: np.ndarray) -> np.ndarray:
+    """Exact conditional null distribution of 2*T+ given tie groups (probabilities).
+
+    Each tie group of size ``t`` with doubled mid-rank ``r2`` contributes ``j * r2`` with
+    probability ``C(t, j) / 2**t``, independently across groups.
+    """
+    top = int(np.sum(midrank2 * t))
+    f = np.zeros(top + 1)
+    f[0] = 1.0
+    for r2, tk in zip(midrank2.astype(int), t.astype(int)):
+        g = np.zeros_like(f)
+        pj = stats.binom.pmf(np.arange(tk + 1), tk, 0.5)
+        for j in range(tk + 1):
+            s = j * r2
+            g[s:] += pj[j] * f[: f.size - s]
+        f = g
+    return f
+
+
+def _p_from_null(f: np.ndarray, t_obs: int, alternative: str) -> float:
+    """p-value of an integer statistic ``t_obs`` from null weights ``f`` (any scale)."""
+    f = f / f.sum()
+    lower = f[: t_obs + 1].sum()  # P(T <= t)
+    upper = f[t_obs:].sum()  # P(T >= t)
+    if alternative == "greater":
+        return float(min(upper, 1.0))
+    if alternative == "less":
+        return float(min(lower, 1.0))
+    return float(min(1.0, 2.0 * min(lower, upper)))
+
+
+# --------------------------------------------------------------------------- rank tests
+def wilcoxon_signed_rank(values, counts=None, alternative: Alternative = "two-sided",
+                         method: WilcoxonMethod = "auto", correction: bool = True) -> TestResult:
+    """Wilcoxon signed-rank test that the differences are centred on zero.
+
+    Zero differences are dropped before ranking (Wilcoxon's own treatment of zeros);
+    tied absolute values get mid-ranks. The statistic is ``T+``, the sum of the ranks of
+    the positive differences.
+
+    Parameters
+    ----------
+    values : array_like
+        Distinct (or all) paired differences [dB].
+    counts : array_like of int, optional
+        Frequency weight of each value; default one each.
+    alternative : {"two-sided", "greater", "less"}
+        "greater": B - A tends to be positive.
+    method : {"auto", "exact", "normal"}
+        "exact" enumerates the null distribution of ``T+`` (with ties, the exact
+        conditional distribution given the tie pattern); "normal" uses the normal
+        approximation with the tie-corrected variance
+        ``n(n+1)(2n+1)/24 - sum(t^3 - t)/48`` and, if ``correction``, a continuity
+        correction of 0.5 towards the mean. "auto" is exact when ``n <= 50`` and there
+        are no ties, normal otherwise.
+    correction : bool
+        Continuity correction in the normal approximation (default True).
+
+    Returns
+    -------
+    TestResult
+        ``statistic`` = ``T+``, ``n`` = number of non-zero differences, ``z`` for the
+        normal approximation. With ``n = 0`` the p-value is NaN.
+
+    References
+    ----------
+    .. [1] F. Wilcoxon, "Individual comparisons by ranking methods", Biometrics Bulletin
+       1(6):80-83, 1945. doi:10.2307/3001968
+    .. [2] M. Hollander and D. A. Wolfe, Nonparametric Statistical Methods, Wiley, 1973,
+       ch. 3.
+    """
+    _check_choice(alternative, ALTERNATIVES, "alternative")
+    _check_choice(method, WILCOXON_METHODS, "method")
+    a, midrank, pos, neg, t = _signed_rank_parts(values, counts)
+    n = int(t.sum())
+    t_plus = float(np.sum(pos * midrank))
+    if n == 0:
+        return TestResult(0.0, float("nan"), 0, method, alternative)
+    has_ties = bool(np.any(t > 1))
+    if method == "auto":
+        method = "exact" if (n <= EXACT_MAX_N and not has_ties) else "normal"
+    if method == "exact":
+        if n > EXACT_LIMIT_N:
+            raise UsageError(f"exact signed-rank distribution for n = {n} > {EXACT_LIMIT_N}"
+                             " is too costly; use method='normal'")
+        if has_ties:
+            f = _signed_rank_null_ties(np.round(2 * midrank), t)
+            p = _p_from_null(f, int(round(2 * t_plus)), alternative)
+        else:
+            p = _p_from_null(_signed_rank_null_counts(n), int(round(t_plus)), alternative)
+        return TestResult(t_plus, p, n, "exact", alternative)
+    mean = n * (n + 1) / 4.0
+    var = n * (n + 1) * (2 * n + 1) / 24.0 - np.sum(t**3 - t) / 48.0
+    se = np.sqrt(var)
+    d = t_plus - mean
+    if correction:
+        sign = {"greater": 1.0, "less": -1.0}.get(alternative, np.sign(d))
+        d = d - sign * 0.5
+    z = d / se
+    if alternative == "greater":
+        p = stats.norm.sf(z)
+    elif alternative == "less":
+        p = stats.norm.cdf(z)
+    else:
+        p = min(1.0, 2.0 * stats.norm.sf(abs(z)))
+    return TestResult(t_plus, float(p), n, "normal", alternative, float(z))
+
+
+def _walsh(values, counts):
+    """Distinct Walsh averages and their weights from compressed data (O(K^2))."""
+    v, c = _values_counts(values, counts)
+    v, c = _collapse(v, c)
+    i, j = np.triu_indices(v.size)
+    avg = (v[i] + v[j]) / 2.0
+    w = np.where(i == j, c[i] * (c[i] + 1) / 2.0, c[i] * c[j])
+    order = np.argsort(avg, kind="stable")
+    return avg[order], w[order], float(c.sum())
+
+
+def _weighted_order_stat(sorted_vals, weights, k):
+    """The k-th smallest (1-based, may be an array) of a weighted sorted sample."""
+    cw = np.cumsum(weights)
+    idx = np.searchsorted(cw, np.asarray(k, dtype=float), side="left")
+    return sorted_vals[np.minimum(idx, sorted_vals.size - 1)]
+
+
+def hodges_lehmann(values, counts=None) -> float:
+    """Hodges-Lehmann one-sample shift: the median of the Walsh averages.
+
+    The Walsh averages are ``(d_i + d_j) / 2`` for all ``i <= j``, zeros included. From
+    ``K`` distinct values with counts ``c`` they are formed once per distinct pair, with
+    weight ``c_k c_l`` (``k < l``) or ``c_k (c_k + 1) / 2`` (``k = l``), so the cost is
+    ``O(K^2)`` whatever the number of pairs; the result equals the estimate on the
+    expanded data exactly. On whole-dB data it is a multiple of 0.5 dB.
+
+    Parameters
+    ----------
+    values : array_like
+        Paired differences [dB].
+    counts : array_like of int, optional
+        Frequency weights; default one each.
+
+    Returns
+    -------
+    float
+        The estimate [dB]; NaN for no data.
+
+    References
+    ----------
+    .. [1] J. L. Hodges and E. L. Lehmann, "Estimates of location based on rank tests",
+       Ann. Math. Statist. 34(2):598-611, 1963. doi:10.1214/aoms/1177704172
+    .. [2] M. Hollander and D. A. Wolfe, Nonparametric Statistical Methods, 1973, s. 3.2.
+    """
+    avg, w, n = _walsh(values, counts)
+    if n == 0:
+        return float("nan")
+    m = n * (n + 1) / 2.0
+    if m % 2 == 1:
+        return float(_weighted_order_stat(avg, w, (m + 1) / 2))
+    lo, hi = _weighted_order_stat(avg, w, [m / 2, m / 2 + 1])
+    return float((lo + hi) / 2.0)
+
+
+def hodges_lehmann_ci(values, counts=None, confidence: float = 0.95) -> tuple[float, float]:
+    """Distribution-free confidence interval for the Hodges-Lehmann shift.
+
+    The interval is ``[W_(C), W_(M+1-C)]`` of the ``M = n(n+1)/2`` ordered Walsh averages.
+    ``C - 1`` is the largest ``t`` with ``P(T+ <= t) <= (1 - confidence)/2`` under the
+    exact null when ``n <= 50`` and there are no ties; otherwise
+    ``C = floor(n(n+1)/4 + z_{(1-conf)/2} sd - 0.5) + 1`` with the tie-corrected sd
+    (normal approximation; with heavy ties, as in whole-dB data, coverage is approximate).
+    When the confidence cannot be reached (very small ``n``), returns ``(-inf, inf)``.
+
+    Parameters
+    ----------
+    values : array_like
+        Paired differences [dB].
+    counts : array_like of int, optional
+        Frequency weights.
+    confidence : float
+        Nominal coverage, in (0, 1).
+
+    Returns
+    -------
+    (float, float)
+        Lower and upper limits [dB].
+
+    References
+    ----------
+    .. [1] M. Hollander and D. A. Wolfe, Nonparametric Statistical Methods, 1973, s. 3.3.
+    """
+    if not 0 < confidence < 1:
+        raise UsageError(f"confidence must be in (0, 1), got {confidence}")
+    avg, w, n = _walsh(values, counts)
+    if n == 0:
+        return (float("nan"), float("nan"))
+    alpha2 = (1 - confidence) / 2
+    m = n * (n + 1) / 2.0
+    v, c = _collapse(*_values_counts(values, counts))
+    _, inv = np.unique(np.abs(v), return_inverse=True)
+    t = np.bincount(inv, weights=c)
+    if n <= EXACT_MAX_N and not np.any(t > 1):
+        f = _signed_rank_null_counts(int(n))
+        cdf = np.cumsum(f / f.sum())
+        ok = np.nonzero(cdf <= alpha2 + 1e-12)[0]
+        if ok.size == 0:
+            return (float("-inf"), float("inf"))
+        big_c = int(ok[-1]) + 1
+    else:
+        sd = np.sqrt(n * (n + 1) * (2 * n + 1) / 24.0 - np.sum(t**3 - t) / 48.0)
+        big_c = int(np.floor(n * (n + 1) / 4.0 + stats.norm.ppf(alpha2) * sd - 0.5)) + 1
+        if big_c < 1:
+            return (float("-inf"), float("inf"))
+    lo, hi = _weighted_order_stat(avg, w, [big_c, m + 1 - big_c])
+    return (float(lo), float(hi))
+
+
+def sign_test(values, counts=None, alternative: Alternative = "two-sided") -> TestResult:
+    """Exact sign test: are positive and negative differences equally likely?
+
+    Zeros are dropped. The statistic is the number of positive differences, referred to
+    Binomial(n, 1/2); the two-sided p-value doubles the smaller tail (capped at 1).
+
+    Parameters
+    ----------
+    values : array_like
+        Paired differences [dB].
+    counts : array_like of int, optional
+        Frequency weights.
+    alternative : {"two-sided", "greater", "less"}
+        "greater": positive differences more likely.
+
+    Returns
+    -------
+    TestResult
+        ``statistic`` = number of positive differences, ``n`` = number of non-zero ones.
+
+    References
+    ----------
+    .. [1] W. J. Dixon and A. M. Mood, "The statistical sign test", JASA 41(236):557-566,
+       1946. doi:10.1080/01621459.1946.10501898
+    """
+    _check_choice(alternative, ALTERNATIVES, "alternative")
+    v, c = _values_counts(values, counts)
+    k = int(c[v > 0].sum())
+    n = k + int(c[v < 0].sum())
+    if n == 0:
+        return TestResult(0.0, float("nan"), 0, "exact", alternative)
+    upper = stats.binom.sf(k - 1, n, 0.5)
+    lower = stats.binom.cdf(k, n, 0.5)
+    p = {"greater": upper, "less": lower}.get(alternative, min(1.0, 2 * min(upper, lower)))
+    return TestResult(float(k), float(min(p, 1.0)), n, "exact", alternative)
+
+
+def mcnemar(only_a, only_b, method: McNemarMethod = "exact") -> TestResult:
+    """McNemar's test on the discordant counts of a paired yes/no outcome.
+
+    ``only_a`` pairs were heard on A only, ``only_b`` on B only; under the null each
+    discordant pair is equally likely either way. Works element-wise on arrays.
+
+    Parameters
+    ----------
+    only_a, only_b : int or array_like of int
+        Discordant counts.
+    method : {"exact", "chi2", "chi2-corrected"}
+        "exact": two-sided binomial test, ``statistic = min(only_a, only_b)``.
+        "chi2": ``(b - c)^2 / (b + c)`` on 1 degree of freedom; "chi2-corrected" uses
+        ``max(|b - c| - 1, 0)^2 / (b + c)`` (Edwards' continuity correction).
+
+    Returns
+    -------
+    TestResult
+        p-value NaN where there are no discordant pairs.
+
+    References
+    ----------
+    .. [1] Q. McNemar, "Note on the sampling error of the difference between correlated
+       proportions or percentages", Psychometrika 12(2):153-157, 1947.
+       doi:10.1007/BF02295996
+    .. [2] A. Agresti, Categorical Data Analysis, Wiley, 1990, s. 10.1.
+    """
+    _check_choice(method, MCNEMAR_METHODS, "method")
+    b = np.asarray(only_a, dtype=float)
+    c = np.asarray(only_b, dtype=float)
+    if np.any(b < 0) or np.any(c < 0) or np.any(b != np.round(b)) or np.any(c != np.round(c)):
+        raise UsageError("discordant counts must be non-negative whole numbers")
+    n = b + c
+    with np.errstate(invalid="ignore", divide="ignore"):
+        if method == "exact":
+            stat = np.minimum(b, c)
+            p = np.minimum(1.0, 2.0 * stats.binom.cdf(stat, n, 0.5))
+        else:
+            diff = np.abs(b - c)
+            if method == "chi2-corrected":
+                diff = np.maximum(diff - 1.0, 0.0)
+            stat = diff**2 / n
+            p = stats.chi2.sf(stat, 1)
+    p = np.where(n > 0, p, np.nan)
+    if np.ndim(p) == 0:
+        return TestResult(float(stat), float(p), int(n), method, "two-sided")
+    return TestResult(stat, p, n.astype(int), method, "two-sided")
+
+
+# ----------------------------------------------------------------- multiplicity, proportions
+def benjamini_hochberg(p_values) -> np.ndarray:
+    """Benjamini-Hochberg step-up adjusted p-values (false discovery rate).
+
+    ``p_adj_(i) = min_{j >= i} min(1, m p_(j) / j)`` over the ``m`` non-NaN p-values;
+    NaN entries stay NaN and do not count in ``m``. Rejecting ``p_adj <= q`` controls the
+    FDR at ``q`` for independent (or positively dependent) tests.
+
+    Parameters
+    ----------
+    p_values : array_like
+        p-values in [0, 1] (NaN allowed), any shape.
+
+    Returns
+    -------
+    numpy.ndarray
+        Adjusted p-values, same shape.
+
+    References
+    ----------
+    .. [1] Y. Benjamini and Y. Hochberg, "Controlling the false discovery rate", JRSS-B
+       57(1):289-300, 1995. doi:10.1111/j.2517-6161.1995.tb02031.x
+    """
+    p = np.asarray(p_values, dtype=float)
+    flat = p.ravel()
+    ok = ~np.isnan(flat)
+    if np.any((flat[ok] < 0) | (flat[ok] > 1)):
+        raise UsageError("p-values must lie in [0, 1]")
+    out = np.full(flat.shape, np.nan)
+    q = flat[ok]
+    m = q.size
+    if m:
+        order = np.argsort(q, kind="stable")
+        scaled = q[order] * m / np.arange(1, m + 1)
+        adj = np.minimum.accumulate(scaled[::-1])[::-1]
+        res = np.empty(m)
+        res[order] = np.minimum(adj, 1.0)
+        out[ok] = res
+    return out.reshape(p.shape)
+
+
+def wilson_interval(successes, trials, confidence: float = 0.95):
+    """Wilson score interval for a binomial proportion, element-wise.
+
+    ``(k + z^2/2) / (n + z^2) +- z sqrt(n) / (n + z^2) sqrt(p(1-p) + z^2 / (4n))`` with
+    ``p = k / n`` and ``z`` the ``(1 + confidence)/2`` normal quantile. NaN where
+    ``trials == 0``.
+
+    Parameters
+    ----------
+    successes, trials : array_like of int
+        Counts, ``0 <= successes <= trials``.
+    confidence : float
+        Nominal coverage in (0, 1).
+
+    Returns
+    -------
+    (low, high) : float or numpy.ndarray
+        Limits, proportions in [0, 1].
+
+    References
+    ----------
+    .. [1] E. B. Wilson, "Probable inference, the law of succession, and statistical
+       inference", JASA 22(158):209-212, 1927. doi:10.1080/01621459.1927.10502953
+    """
+    if not 0 < confidence < 1:
+        raise UsageError(f"confidence must be in (0, 1), got {confidence}")
+    k = np.asarray(successes, dtype=float)
+    n = np.asarray(trials, dtype=float)
+    if np.any(k < 0) or np.any(k > n):
+        raise UsageError("need 0 <= successes <= trials")
+    z = stats.norm.ppf(0.5 + confidence / 2)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        p = k / n
+        denom = n + z**2
+        centre = (k + z**2 / 2) / denom
+        half = z * np.sqrt(n) / denom * np.sqrt(p * (1 - p) + z**2 / (4 * n))
+    low = np.where(n > 0, np.clip(centre - half, 0.0, 1.0), np.nan)
+    high = np.where(n > 0, np.clip(centre + half, 0.0, 1.0), np.nan)
+    if low.ndim == 0:
+        return float(low), float(high)
+    return low, high
+
+
+__all__ = [
+    "TestResult", "wilcoxon_signed_rank", "hodges_lehmann", "hodges_lehmann_ci",
+    "sign_test", "mcnemar", "benjamini_hochberg", "wilson_interval",
+]

@@ -1,0 +1,322 @@
+"""What the maps show, computed without drawing: far stations, comparison cells, reach.
+
+The data preparation behind :mod:`spotkit.viz.maps`, on DataFrames and arrays, importing neither
+matplotlib nor cartopy: the home station (from a locator, the spots or the pairs), one row per
+band and far station with its median SNR per watt (:func:`far_station_summary`), the groups of
+a comparison placed on the map and flagged (:func:`difference_cells`), what each antenna
+reached (:func:`reach_stations`), a symmetric colour limit and the radius of an azimuthal map
+(:func:`symmetric_limit`, :func:`auto_extent_km`). Geodesic sample points come from PROJ
+(pyproj, imported lazily).
+
+Known error: station positions are locator cell centres (see :mod:`spotkit.geo.locator`): a
+4-character locator puts a station up to about 111 km east-west from where it is. A far
+station's position and distance are the medians over its reports.
+"""
+from __future__ import annotations
+
+from typing import Literal
+
+import numpy as np
+import pandas as pd
+
+from spotkit import columns as C
+from spotkit.bands import sort_bands
+from spotkit.errors import UsageError
+from spotkit.geo.locator import locator_cell_size, locator_to_latlon
+from spotkit.units import snr_per_watt
+
+Side = Literal["auto", "transmit", "receive"]
+SIDES = ("auto", "transmit", "receive")
+Level = Literal["auto", "receiver", "square", "field"]
+LEVELS = ("auto", "receiver", "square", "field")
+
+#: Half the circumference of the Earth along the equator [km]: the edge of a full
+#: azimuthal-equidistant map.
+FULL_EXTENT_KM = 20037.5
+
+
+def _check(value, valid, what):
+    if value not in valid:
+        raise ValueError(f"unknown {what} {value!r}; valid: {', '.join(map(str, valid))}")
+
+
+# --- home ------------------------------------------------------------------------------
+def home_latlon(home) -> tuple[float, float]:
+    """Latitude and longitude [deg] of the home station.
+
+    Parameters
+    ----------
+    home : str or (float, float)
+        A Maidenhead locator (its cell centre is used) or ``(lat, lon)`` [deg].
+    """
+    if home is None:
+        raise UsageError("no home station given: pass a locator such as 'JN58td' or (lat, lon)")
+    if isinstance(home, str):
+        lat, lon = locator_to_latlon(home)
+        return float(lat), float(lon)
+    lat, lon = home
+    return float(lat), float(lon)
+
+
+def _geodesic_samples(lat1, lon1, lat2, lon2, n: int):
+    """n points along each WGS-84 geodesic from (lat1, lon1) to (lat2, lon2); arrays (k, n).
+
+    Uses PROJ's geodesic routines (Karney's algorithm, via pyproj, a dependency of the maps
+    extra): about ten times faster than :func:`spotkit.geo.geodesic.geodesic_direct` for the millions
+    of points of a big path map, and just as exact.
+    """
+    from pyproj import Geod
+
+    lat2 = np.atleast_1d(np.asarray(lat2, dtype=float))
+    lon2 = np.atleast_1d(np.asarray(lon2, dtype=float))
+    lat1 = np.broadcast_to(np.asarray(lat1, dtype=float), lat2.shape)
+    lon1 = np.broadcast_to(np.asarray(lon1, dtype=float), lat2.shape)
+    geod = Geod(ellps="WGS84")
+    azi, _, dist = geod.inv(lon1, lat1, lon2, lat2)
+    s = np.asarray(dist)[:, None] * np.linspace(0.0, 1.0, n)[None, :]
+    lo, la, _ = geod.fwd(np.repeat(lon1, n), np.repeat(lat1, n), np.repeat(azi, n), s.ravel())
+    return np.asarray(la).reshape(-1, n), np.asarray(lo).reshape(-1, n)
+
+
+# --- map extent --------------------------------------------------------------------------
+def _ring_step(extent_km: float) -> float:
+    return 1000.0 if extent_km <= 6000 else 2500.0
+
+
+def auto_extent_km(distances_km, step_km: float | None = None) -> float:
+    """Radius [km] of an azimuthal map that shows all ``distances_km``: the next ring
+    beyond the farthest station (whole globe past 15 000 km)."""
+    d = np.asarray(distances_km, dtype=float)
+    d = d[np.isfinite(d)]
+    far = float(d.max()) if d.size else FULL_EXTENT_KM
+    if far > 15000:
+        return FULL_EXTENT_KM
+    step = step_km or _ring_step(far * 1.05)
+    return float(min(FULL_EXTENT_KM, step * np.ceil((far * 1.05 + 1e-9) / step)))
+
+
+# --- coverage ----------------------------------------------------------------------------
+def _mode(series: pd.Series):
+    s = series.dropna().astype(str)
+    if s.empty:
+        return None
+    return s.value_counts().index[0]
+
+
+def resolve_side(spots: pd.DataFrame, side: Side = "auto") -> str:
+    """Which end of the spots is the home station: ``"transmit"`` (home transmits; far
+    stations are receivers) or ``"receive"``. ``"auto"`` picks the end with fewer distinct
+    locators."""
+    _check(side, SIDES, "side")
+    if side != "auto":
+        return side
+    n_tx = spots[C.TX_LOCATOR].nunique()
+    n_rx = spots[C.RX_LOCATOR].nunique()
+    return "transmit" if n_tx <= n_rx else "receive"
+
+
+def home_from_spots(spots: pd.DataFrame, side: Side = "auto") -> str:
+    """The home station's locator: the most common locator at the home end of the spots."""
+    side = resolve_side(spots, side)
+    loc = _mode(spots[C.TX_LOCATOR if side == "transmit" else C.RX_LOCATOR])
+    if loc is None:
+        raise UsageError("cannot tell the home station from an empty spot table; give --home")
+    return loc
+
+
+def far_station_summary(spots: pd.DataFrame, side: Side = "auto") -> pd.DataFrame:
+    """One row per band and far station: where it is and how well it heard (or was heard).
+
+    Parameters
+    ----------
+    spots : pandas.DataFrame
+        Canonical spot table (needs band, calls, locators, lat/lon, distance, SNR, power).
+    side : {"auto", "transmit", "receive"}
+        ``"transmit"``: the home station transmits, far stations are the receivers;
+        ``"receive"``: far stations are the transmitters; ``"auto"``: see :func:`resolve_side`.
+
+    Returns
+    -------
+    pandas.DataFrame
+        Columns band, far_call, far_locator, far_lat, far_lon [deg], distance_km [km],
+        bearing_deg [deg, from home], snr_per_w_db (median SNR normalised to 1 W [dB]),
+        count (spots).
+    """
+    side = resolve_side(spots, side)
+    if side == "transmit":
+        call, loc, lat, lon, brg = C.RX_CALL, C.RX_LOCATOR, C.RX_LAT, C.RX_LON, C.BEARING
+    else:
+        call, loc, lat, lon, brg = C.TX_CALL, C.TX_LOCATOR, C.TX_LAT, C.TX_LON, C.REVERSE_BEARING
+    df = pd.DataFrame({
+        C.BAND: spots[C.BAND].astype(str).to_numpy(),
+        C.FAR_CALL: spots[call].astype(str).to_numpy(),
+        C.FAR_LOCATOR: spots[loc].astype(str).to_numpy(),
+        C.FAR_LAT: spots[lat].to_numpy(dtype=float),
+        C.FAR_LON: spots[lon].to_numpy(dtype=float),
+        C.DISTANCE: spots[C.DISTANCE].to_numpy(dtype=float),
+        C.BEARING: spots[brg].to_numpy(dtype=float),
+        C.SNR_PER_W: snr_per_watt(spots[C.SNR].to_numpy(), spots[C.POWER].to_numpy()),
+    })
+    g = df.groupby([C.BAND, C.FAR_CALL], sort=False, observed=True)
+    out = g.agg(**{
+        C.FAR_LOCATOR: (C.FAR_LOCATOR, "first"),
+        C.FAR_LAT: (C.FAR_LAT, "median"),
+        C.FAR_LON: (C.FAR_LON, "median"),
+        C.DISTANCE: (C.DISTANCE, "median"),
+        C.BEARING: (C.BEARING, "median"),
+        C.SNR_PER_W: (C.SNR_PER_W, "median"),
+        C.COUNT: (C.SNR_PER_W, "size"),
+    }).reset_index()
+    return out
+
+
+def _select_bands(df: pd.DataFrame, bands) -> list[str]:
+    present = sort_bands(df[C.BAND].astype(str).unique()) if C.BAND in df else []
+    if bands is None:
+        return present
+    wanted = [bands] if isinstance(bands, str) else list(bands)
+    missing = [b for b in wanted if b not in present]
+    if missing:
+        raise UsageError(f"band(s) {', '.join(missing)} not in the data; present: "
+                         f"{', '.join(present) or 'none'}")
+    return sort_bands(wanted)
+
+
+# --- A/B difference ----------------------------------------------------------------------
+_LEVEL_KEY = {"receiver": C.FAR_CALL, "square": C.SQUARE, "field": C.FIELD}
+
+
+def home_from_pairs(pairs: pd.DataFrame) -> str:
+    """The locator of the station under test in a pairs table (the end that is not the far
+    station)."""
+    if not len(pairs):
+        raise UsageError("cannot tell the home station from an empty pairs table; give home")
+    far_is_rx = (pairs[C.RX_LOCATOR].astype(str) == pairs[C.FAR_LOCATOR].astype(str)).mean()
+    return _mode(pairs[C.TX_LOCATOR if far_is_rx >= 0.5 else C.RX_LOCATOR])
+
+
+def _groups_and_pairs(result, pairs):
+    groups = getattr(result, "groups", result)
+    if pairs is None:
+        pairs = getattr(result, "pairs", None)
+    if not isinstance(groups, pd.DataFrame):
+        raise UsageError("expected a ComparisonResult or its groups DataFrame")
+    return groups, pairs
+
+
+def difference_cells(result, *, level: Level = "auto", pairs: pd.DataFrame | None = None
+                     ) -> pd.DataFrame:
+    """Where each group of a comparison sits on the map and how it should be drawn.
+
+    Parameters
+    ----------
+    result : ComparisonResult or pandas.DataFrame
+        From ``compare_antennas(..., by=(..., "receiver" | "square" | "field"))`` or its
+        ``groups`` table (columns b_minus_a_db, ci_low_db, ci_high_db, both, only_a,
+        only_b and the level's key).
+    level : {"auto", "receiver", "square", "field"}
+        ``"auto"`` takes the finest key present.
+    pairs : pandas.DataFrame, optional
+        Pairs table for receiver positions (default ``result.pairs``).
+
+    Returns
+    -------
+    pandas.DataFrame
+        The groups with far_lat, far_lon [deg] (cell centre or receiver), cell_dlat,
+        cell_dlon [deg] (0 for receivers), ``significant`` (the CI excludes 0),
+        ``one_sided`` ("only_a" / "only_b" when just one antenna was heard there, else "").
+        Groups without an estimate (too few pairs) keep NaN and are drawn as grey rings.
+    """
+    _check(level, LEVELS, "level")
+    groups, pairs = _groups_and_pairs(result, pairs)
+    if level == "auto":
+        level = next((lv for lv in ("receiver", "square", "field")
+                      if _LEVEL_KEY[lv] in groups.columns), None)
+        if level is None:
+            raise UsageError("the comparison has no receiver, square or field groups; run it "
+                             "with by including 'receiver', 'square' or 'field'")
+    key = _LEVEL_KEY[level]
+    if key not in groups.columns:
+        raise UsageError(f"the comparison has no {level!r} groups (no column {key!r})")
+    g = groups.copy()
+    if level == "receiver":
+        if C.FAR_LAT in g.columns and C.FAR_LON in g.columns:
+            pass
+        elif pairs is not None and C.FAR_LAT in pairs.columns:
+            pos = (pairs.groupby(pairs[C.FAR_CALL].astype(str), observed=True)
+                   [[C.FAR_LAT, C.FAR_LON]].median())
+            k = g[key].astype(str)
+            g[C.FAR_LAT] = k.map(pos[C.FAR_LAT]).to_numpy(dtype=float)
+            g[C.FAR_LON] = k.map(pos[C.FAR_LON]).to_numpy(dtype=float)
+        else:
+            raise UsageError("receiver positions unknown: pass the pairs table")
+        g["cell_dlat"] = 0.0
+        g["cell_dlon"] = 0.0
+    else:
+        lat, lon = locator_to_latlon(g[key].astype(str).to_numpy(), errors="coerce")
+        dlon, dlat = locator_cell_size(g[key].astype(str).to_numpy())
+        g[C.FAR_LAT], g[C.FAR_LON] = lat, lon
+        g["cell_dlat"], g["cell_dlon"] = dlat, dlon
+    lo = g[C.CI_LOW].to_numpy(dtype=float)
+    hi = g[C.CI_HIGH].to_numpy(dtype=float)
+    g["significant"] = (lo > 0) | (hi < 0)
+    both = g[C.BOTH].to_numpy(dtype=float) if C.BOTH in g else np.ones(len(g))
+    oa = g[C.ONLY_A].to_numpy(dtype=float)
+    ob = g[C.ONLY_B].to_numpy(dtype=float)
+    g["one_sided"] = np.where((both == 0) & (oa > 0) & (ob == 0), "only_a",
+                              np.where((both == 0) & (ob > 0) & (oa == 0), "only_b", ""))
+    g.attrs["level"] = level
+    return g
+
+
+def symmetric_limit(values, *, percentile: float = 95.0, step: float = 0.5) -> float:
+    """Half-range [dB] of a colour scale centred on 0 that covers ``percentile`` % of
+    ``|values|``, rounded up to ``step`` (at least ``step``)."""
+    v = np.abs(np.asarray(values, dtype=float))
+    v = v[np.isfinite(v)]
+    if not v.size:
+        return step
+    return float(max(step, step * np.ceil(np.percentile(v, percentile) / step)))
+
+
+# --- reach -------------------------------------------------------------------------------
+def reach_stations(pairs: pd.DataFrame, band=None) -> pd.DataFrame:
+    """One row per far station (and band): whether A and B reached it.
+
+    Parameters
+    ----------
+    pairs : pandas.DataFrame
+        From :func:`spotkit.compare.pairing.pair_spots`.
+    band : str or list of str, optional
+
+    Returns
+    -------
+    pandas.DataFrame
+        Columns band, far_call, far_lat, far_lon [deg], distance_km [km], heard_a, heard_b
+        (bool: at least one pair where that antenna was heard).
+    """
+    df = pairs
+    if band is not None:
+        wanted = [band] if isinstance(band, str) else list(band)
+        df = df[df[C.BAND].astype(str).isin(wanted)]
+    ha = df[C.HEARD_A] if C.HEARD_A in df else df[C.SNR_A].notna()
+    hb = df[C.HEARD_B] if C.HEARD_B in df else df[C.SNR_B].notna()
+    frame = pd.DataFrame({
+        C.BAND: df[C.BAND].astype(str).to_numpy(),
+        C.FAR_CALL: df[C.FAR_CALL].astype(str).to_numpy(),
+        C.FAR_LAT: df[C.FAR_LAT].to_numpy(dtype=float),
+        C.FAR_LON: df[C.FAR_LON].to_numpy(dtype=float),
+        C.DISTANCE: df[C.DISTANCE].to_numpy(dtype=float),
+        C.HEARD_A: np.asarray(ha, dtype=bool),
+        C.HEARD_B: np.asarray(hb, dtype=bool),
+    })
+    return (frame.groupby([C.BAND, C.FAR_CALL], sort=False)
+            .agg(**{C.FAR_LAT: (C.FAR_LAT, "median"), C.FAR_LON: (C.FAR_LON, "median"),
+                    C.DISTANCE: (C.DISTANCE, "median"), C.HEARD_A: (C.HEARD_A, "any"),
+                    C.HEARD_B: (C.HEARD_B, "any")})
+            .reset_index())
+
+
+__all__ = ["SIDES", "LEVELS", "FULL_EXTENT_KM", "home_latlon", "auto_extent_km",
+           "resolve_side", "home_from_spots", "far_station_summary", "home_from_pairs",
+           "difference_cells", "symmetric_limit", "reach_stations"]

@@ -1,0 +1,643 @@
+"""Coverage, A/B difference and reach maps, drawn offline with cartopy.
+
+Two projections:
+
+``"azimuthal"``
+    Azimuthal equidistant on the WGS-84 ellipsoid, centred on the home station (PROJ
+    ``aeqd``). PROJ computes its ellipsoidal form from geodesics, so a straight line from the
+    centre *is* the geodesic (great-circle) path, its direction is the azimuth at home, and the
+    distance from the centre is the geodesic distance: rings of equal distance are circles.
+    Far from home shapes and areas are strongly distorted; the antipode is smeared round the
+    edge.
+``"world"``
+    Equal Earth, an equal-area world map (Savric, Patterson & Jenny 2019); paths are
+    sampled geodesics.
+
+The backdrop is the shipped Natural Earth 1:110m land layer (:mod:`spotkit.viz.basemap`), so no map
+needs a network connection; cartopy's own 1:50m and 1:10m features are used only when asked for
+(``resolution="50m"`` or ``"10m"``; cartopy downloads them once).
+
+Station positions are locator cell centres (see :mod:`spotkit.geo.locator`): a 4-character locator
+puts a station up to about 111 km east-west from where it is. Every map function takes
+``fig=None`` and returns the :class:`matplotlib.figure.Figure` it drew on; matplotlib and cartopy
+are imported only inside the functions. Artists that tests look for carry a ``gid``
+(``"stations"``, ``"paths"``, ``"ring-<km>"``, ``"cells-solid"``, ``"cells-faint"``,
+``"only-a"``, ``"only-b"``, ``"heard-a"``, ``"heard-b"``).
+
+What the maps show is computed in :mod:`spotkit.viz.mapdata`, which imports neither matplotlib
+nor cartopy; its public names are re-exported here (``maps.far_station_summary``,
+``maps.difference_cells``, ``maps.reach_stations``, ...).
+
+References
+----------
+J. P. Snyder, "Map Projections - A Working Manual", USGS Professional Paper 1395 (1987),
+ch. 25 (azimuthal equidistant).
+B. Savric, T. Patterson, B. Jenny, "The Equal Earth map projection", Int. J. Geographical
+Information Science 33(3):454-465 (2019), doi:10.1080/13658816.2018.1504949.
+"""
+from __future__ import annotations
+
+from typing import Literal
+
+import numpy as np
+import pandas as pd
+
+from spotkit import columns as C
+from spotkit.errors import UsageError
+from spotkit.viz.mapdata import (
+    FULL_EXTENT_KM,
+    Level,
+    Side,
+    _check,
+    _geodesic_samples,
+    _groups_and_pairs,
+    _ring_step,
+    _select_bands,
+    auto_extent_km,
+    difference_cells,
+    far_station_summary,
+    home_from_pairs,
+    home_from_spots,
+    home_latlon,
+    reach_stations,
+    resolve_side,
+    symmetric_limit,
+)
+
+Projection = Literal["azimuthal", "world"]
+PROJECTIONS = ("azimuthal", "world")
+Resolution = Literal["110m", "50m", "10m"]
+RESOLUTIONS = ("110m", "50m", "10m")
+ReachLayout = Literal["side", "overlay"]
+REACH_LAYOUTS = ("side", "overlay")
+
+LAND_COLOR = "#e6e4dc"
+COAST_COLOR = "#8d8a80"
+SEA_COLOR = "#fbfbf8"
+RING_COLOR = "#7a7a7a"
+
+
+# --- projections -------------------------------------------------------------------------
+def make_projection(projection: Projection = "azimuthal", home=None):
+    """The cartopy CRS for ``projection``.
+
+    Parameters
+    ----------
+    projection : {"azimuthal", "world"}
+        Azimuthal equidistant centred on ``home`` (WGS-84), or the Equal Earth world map
+        centred on ``home``'s longitude (0 deg when no home is given).
+    home : str or (float, float), optional
+        Home station locator or (lat, lon) [deg]; required for ``"azimuthal"``.
+    """
+    import cartopy.crs as ccrs
+
+    _check(projection, PROJECTIONS, "projection")
+    if projection == "azimuthal":
+        lat, lon = home_latlon(home)
+        return ccrs.AzimuthalEquidistant(central_longitude=lon, central_latitude=lat)
+    lon = home_latlon(home)[1] if home is not None else 0.0
+    return ccrs.EqualEarth(central_longitude=lon)
+
+
+def project_points(crs, lat, lon) -> tuple[np.ndarray, np.ndarray]:
+    """Project lat/lon [deg] into ``crs`` map coordinates [m]; vectorised."""
+    import cartopy.crs as ccrs
+
+    lat = np.asarray(lat, dtype=float)
+    lon = np.asarray(lon, dtype=float)
+    xy = crs.transform_points(ccrs.PlateCarree(), lon, lat)
+    return xy[..., 0], xy[..., 1]
+
+
+# --- base map ----------------------------------------------------------------------------
+def draw_land(ax, *, resolution: Resolution = "110m", land_color: str = LAND_COLOR,
+              coast_color: str = COAST_COLOR, linewidth: float = 0.4):
+    """Draw land and coastlines on a cartopy GeoAxes.
+
+    ``"110m"`` uses the shipped layer and never touches the network; ``"50m"`` and ``"10m"``
+    use cartopy's Natural Earth features, which cartopy downloads on first use.
+    """
+    import cartopy.crs as ccrs
+
+    _check(resolution, RESOLUTIONS, "resolution")
+    if resolution == "110m":
+        from spotkit.viz.basemap import land_geometry
+
+        return ax.add_geometries(list(land_geometry().geoms), crs=ccrs.PlateCarree(),
+                                 facecolor=land_color, edgecolor=coast_color,
+                                 linewidth=linewidth, zorder=0.5)
+    import cartopy.feature as cfeature
+
+    feature = cfeature.NaturalEarthFeature("physical", "land", resolution,
+                                           facecolor=land_color, edgecolor=coast_color)
+    return ax.add_feature(feature, linewidth=linewidth, zorder=0.5)
+
+
+def draw_rings(ax, crs, extent_km: float, step_km: float | None = None, *,
+               bearings: bool = True, label_bearing_deg: float = 22.5):
+    """Distance rings, bearing spokes and bearing labels on an azimuthal map.
+
+    Rings are circles of the given geodesic radius in map coordinates (exact for the
+    ellipsoidal azimuthal-equidistant projection). Each ring is a Line2D with
+    ``gid="ring-<km>"``.
+    """
+    step = step_km or _ring_step(extent_km)
+    theta = np.linspace(0.0, 2 * np.pi, 361)
+    radii = np.arange(step, extent_km + 1e-6, step)
+    lines = []
+    for r_km in radii:
+        r = r_km * 1e3
+        (ln,) = ax.plot(r * np.sin(theta), r * np.cos(theta), transform=crs, color=RING_COLOR,
+                        lw=0.5, ls=(0, (4, 3)), zorder=1.5, gid=f"ring-{r_km:.0f}")
+        lines.append(ln)
+        if len(radii) > 5 and (int(round(r_km / step)) % 2):
+            continue  # label every other ring when there are many
+        if r_km > 0.93 * extent_km:
+            continue  # the edge carries the bearing labels
+        a = np.radians(label_bearing_deg)
+        ax.text(r * np.sin(a), r * np.cos(a), f"{r_km:,.0f} km", transform=crs, fontsize=6,
+                color="#555555", ha="center", va="center", zorder=4,
+                bbox=dict(boxstyle="round,pad=0.1", fc="white", ec="none", alpha=0.6))
+    if bearings:
+        edge = extent_km * 1e3
+        names = {0: "N", 90: "E", 180: "S", 270: "W"}
+        for b in range(0, 360, 30):
+            a = np.radians(b)
+            ax.plot([0, edge * np.sin(a)], [0, edge * np.cos(a)], transform=crs,
+                    color=RING_COLOR, lw=0.3, alpha=0.6, zorder=1.4)
+            ax.text(1.07 * edge * np.sin(a), 1.07 * edge * np.cos(a), names.get(b, f"{b}°"),
+                    transform=crs, fontsize=7, ha="center", va="center", clip_on=False,
+                    color="#333333")
+    return lines
+
+
+def draw_geodesic_rings(ax, home, step_km: float = 5000.0, max_km: float = 20000.0):
+    """Rings of equal geodesic distance from home on any projection (sampled with
+    :func:`spotkit.geo.geodesic.geodesic_direct`, drawn as geodesic lines)."""
+    import cartopy.crs as ccrs
+
+    from spotkit.geo.geodesic import geodesic_direct
+
+    h_lat, h_lon = home_latlon(home)
+    az = np.linspace(0.0, 360.0, 181)
+    lines = []
+    for r_km in np.arange(step_km, max_km - 1e-6, step_km):
+        la, lo = geodesic_direct(np.full(az.size, h_lat), np.full(az.size, h_lon), az,
+                                 np.full(az.size, r_km * 1e3))
+        (ln,) = ax.plot(np.asarray(lo), np.asarray(la), transform=ccrs.Geodetic(),
+                        color=RING_COLOR, lw=0.5, ls=(0, (4, 3)), zorder=1.5,
+                        gid=f"ring-{r_km:.0f}")
+        lines.append(ln)
+    return lines
+
+
+def base_map(ax=None, *, projection: Projection = "azimuthal", home=None,
+             extent_km: float | None = None, ring_step_km: float | None = None,
+             resolution: Resolution = "110m", rings: bool = True, fig=None):
+    """A map with land, coastlines and (azimuthal) distance rings, ready for stations.
+
+    Parameters
+    ----------
+    ax : cartopy GeoAxes, optional
+        Draw here (it must already have the wanted projection); otherwise a new axes is made
+        in ``fig`` (or a new figure).
+    projection : {"azimuthal", "world"}
+    home : str or (float, float), optional
+        Home station locator or (lat, lon) [deg]; required for ``"azimuthal"``.
+    extent_km : float, optional
+        Radius of the azimuthal map [km]; default the whole globe.
+    ring_step_km : float, optional
+        Distance between rings [km]; default 1000 km up to 6000 km radius, else 2500 km.
+    resolution : {"110m", "50m", "10m"}
+        Land layer; only ``"110m"`` (the default, shipped) works offline.
+    rings : bool
+        Draw distance rings and bearings (azimuthal only).
+
+    Returns
+    -------
+    cartopy.mpl.geoaxes.GeoAxes
+    """
+    import matplotlib.pyplot as plt
+
+    _check(projection, PROJECTIONS, "projection")
+    _check(resolution, RESOLUTIONS, "resolution")
+    if ax is None:
+        crs = make_projection(projection, home)
+        fig = fig if fig is not None else plt.figure(figsize=(7, 7))
+        ax = fig.add_subplot(1, 1, 1, projection=crs)
+    crs = ax.projection
+    ax.set_facecolor(SEA_COLOR)
+    draw_land(ax, resolution=resolution)
+    if projection == "azimuthal":
+        extent = float(extent_km or FULL_EXTENT_KM)
+        if extent < FULL_EXTENT_KM:
+            import matplotlib.path as mpath
+
+            r = extent * 1e3
+            ax.set_extent([-r, r, -r, r], crs=crs)
+            t = np.linspace(0, 2 * np.pi, 361)
+            circle = mpath.Path(np.c_[r * np.sin(t), r * np.cos(t)])
+            ax.set_boundary(circle, transform=ax.transData)
+        else:
+            ax.set_global()
+        if rings:
+            draw_rings(ax, crs, min(extent, 20000.0), ring_step_km)
+        ax.plot([0], [0], marker="*", ms=9, color="black", mec="white", mew=0.6,
+                transform=crs, zorder=6, gid="home")
+    else:
+        ax.set_global()
+        if home is not None:
+            import cartopy.crs as ccrs
+
+            if rings:
+                draw_geodesic_rings(ax, home, ring_step_km or 5000.0)
+            lat, lon = home_latlon(home)
+            ax.plot([lon], [lat], marker="*", ms=9, color="black", mec="white", mew=0.6,
+                    transform=ccrs.PlateCarree(), zorder=6, gid="home")
+    return ax
+
+
+def draw_paths(ax, home, lat, lon, *, color="#4a4a4a", alpha=None, linewidth=0.4,
+               n_points: int | None = None):
+    """Great-circle (geodesic) paths from home to each station, as one LineCollection.
+
+    On an azimuthal map centred on home these are straight segments (exact); on other
+    projections each geodesic is sampled at ``n_points`` (default 48; 24 beyond 10 000
+    paths) and split where it crosses the map edge. The LineCollection has
+    ``gid="paths"``.
+    """
+    from matplotlib.collections import LineCollection
+
+    crs = ax.projection
+    lat = np.asarray(lat, dtype=float)
+    lon = np.asarray(lon, dtype=float)
+    h_lat, h_lon = home_latlon(home)
+    if crs.proj4_params.get("proj") == "aeqd":
+        x, y = project_points(crs, lat, lon)
+        segs = np.zeros((lat.size, 2, 2))
+        segs[:, 1, 0] = x
+        segs[:, 1, 1] = y
+    else:
+        if n_points is None:  # fewer points per path when there are very many
+            n_points = 48 if lat.size <= 10_000 else 24
+        la, lo = _geodesic_samples(h_lat, h_lon, lat, lon, n_points)
+        x, y = project_points(crs, la, lo)
+        width = crs.x_limits[1] - crs.x_limits[0]
+        jump = np.abs(np.diff(x, axis=1)) > width / 3
+        segs = np.stack([x, y], axis=-1)
+        if jump.any():  # split the few paths that cross the map edge
+            out = [s for s, j in zip(segs, jump) if not j.any()]
+            for s, j in zip(segs[jump.any(axis=1)], jump[jump.any(axis=1)]):
+                out.extend(np.split(s, np.flatnonzero(j) + 1))
+            segs = out
+    if alpha is None:  # fainter the more paths there are
+        alpha = float(np.clip(8.0 / np.sqrt(max(lat.size, 1)), 0.02, 0.6))
+    lc = LineCollection(segs, colors=color, alpha=alpha, linewidths=linewidth, zorder=2,
+                        gid="paths")
+    ax.add_collection(lc, autolim=False)
+    return lc
+
+
+# --- coverage ----------------------------------------------------------------------------
+def _panel_grid(n: int, ncols: int | None):
+    ncols = ncols or (1 if n == 1 else 2 if n <= 4 else 3)
+    nrows = int(np.ceil(n / ncols))
+    return nrows, ncols
+
+
+def _panels(items, progress: bool):
+    """Iterate over the panels to draw, with a progress bar when asked."""
+    from tqdm.auto import tqdm
+
+    return tqdm(items, desc="drawing", unit="panel", disable=not progress)
+
+
+def coverage_map(spots: pd.DataFrame, *, bands=None, home=None, side: Side = "auto",
+                 projection: Projection = "azimuthal", paths: bool = False,
+                 extent_km: float | None = None, ring_step_km: float | None = None,
+                 resolution: Resolution = "110m", cmap: str = "viridis",
+                 ncols: int | None = None, fig=None, progress: bool = False):
+    """Coverage by band: one panel per band, far stations coloured by SNR per watt.
+
+    Each far station (receiver, or transmitter on the receive side) is one marker per band at
+    its locator cell centre, coloured by its median SNR normalised to 1 W; all panels share
+    one colour scale. Optional geodesic paths from home.
+
+    Parameters
+    ----------
+    spots : pandas.DataFrame
+        Canonical spot table of one home station (see :func:`far_station_summary`).
+    bands : str or list of str, optional
+        Bands to draw (default every band present), in band-plan order.
+    home : str or (float, float), optional
+        Map centre; default the most common locator at the home end.
+    side : {"auto", "transmit", "receive"}
+    projection : {"azimuthal", "world"}
+    paths : bool
+        Draw the geodesic path from home to every far station.
+    extent_km, ring_step_km : float, optional
+        Azimuthal map radius and ring step [km]; default: just beyond the farthest station.
+    resolution : {"110m", "50m", "10m"}
+    cmap : str
+        A perceptually uniform matplotlib colour map.
+    ncols : int, optional
+    fig : matplotlib.figure.Figure, optional
+    progress : bool
+        Show a progress bar over the panels.
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+    """
+    import matplotlib.pyplot as plt
+    from matplotlib.colors import Normalize
+
+    _check(projection, PROJECTIONS, "projection")
+    if home is None:
+        home = home_from_spots(spots, side)
+    far = far_station_summary(spots, side)
+    chosen = _select_bands(far, bands)
+    if not chosen:
+        raise UsageError("no spots to map")
+    far = far[far[C.BAND].isin(chosen)]
+    v = far[C.SNR_PER_W].to_numpy()
+    lo, hi = np.nanpercentile(v, [2, 98]) if v.size else (0.0, 1.0)
+    norm = Normalize(vmin=np.floor(lo), vmax=max(np.ceil(hi), np.floor(lo) + 1))
+    if extent_km is None and projection == "azimuthal":
+        extent_km = auto_extent_km(far[C.DISTANCE], ring_step_km)
+    nrows, ncols = _panel_grid(len(chosen), ncols)
+    if fig is None:
+        w, h = (4.6, 4.9) if projection == "azimuthal" else (7.0, 3.9)
+        fig = plt.figure(figsize=(w * ncols, h * nrows + 0.6))
+    crs = make_projection(projection, home)
+    side_name = resolve_side(spots, side)
+    who = "receivers" if side_name == "transmit" else "transmitters"
+    sc = None
+    for i, band in enumerate(_panels(chosen, progress)):
+        ax = fig.add_subplot(nrows, ncols, i + 1, projection=crs)
+        base_map(ax, projection=projection, home=home, extent_km=extent_km,
+                 ring_step_km=ring_step_km, resolution=resolution)
+        sub = far[far[C.BAND] == band].sort_values(C.SNR_PER_W, na_position="first")
+        if paths:
+            draw_paths(ax, home, sub[C.FAR_LAT], sub[C.FAR_LON])
+        x, y = project_points(crs, sub[C.FAR_LAT], sub[C.FAR_LON])
+        many = len(sub) > 2000  # smaller markers without edges when there are many
+        sc = ax.scatter(x, y, c=sub[C.SNR_PER_W], cmap=cmap, norm=norm,
+                        s=float(np.clip(300.0 / np.sqrt(max(len(sub), 1)), 1.5, 14.0)),
+                        edgecolors="none" if many else "#202020", linewidths=0.25,
+                        transform=crs, zorder=5, gid="stations")
+        ax.set_title(f"{band}: {len(sub):,} {who}", fontsize=10, pad=16)
+    if sc is not None:
+        cb = fig.colorbar(sc, ax=fig.axes, orientation="horizontal", fraction=0.035,
+                          pad=0.04, shrink=0.7, extend="both")
+        cb.set_label("median SNR per watt [dB in 2500 Hz]")
+    fig.suptitle(f"Coverage from {home if isinstance(home, str) else 'home'}", fontsize=12)
+    return fig
+
+
+# --- A/B difference ----------------------------------------------------------------------
+def _cell_polygons(crs, lat, lon, dlat, dlon, n_edge: int = 6):
+    """Projected outlines (k, 4 n_edge, 2) of lat/lon rectangles, edges densified."""
+    t = np.linspace(-0.5, 0.5, n_edge, endpoint=False)
+    fx = np.concatenate([t, np.full(n_edge, 0.5), -t, np.full(n_edge, -0.5)])
+    fy = np.concatenate([np.full(n_edge, -0.5), t, np.full(n_edge, 0.5), -t])
+    la = lat[:, None] + dlat[:, None] * fy[None, :]
+    lo = lon[:, None] + dlon[:, None] * fx[None, :]
+    x, y = project_points(crs, np.clip(la, -89.999, 89.999), lo)
+    return np.stack([x, y], axis=-1)
+
+
+def difference_map(result, *, level: Level = "auto", band=None, pairs=None, home=None,
+                   projection: Projection = "azimuthal", extent_km: float | None = None,
+                   ring_step_km: float | None = None, vmax: float | None = None,
+                   cmap: str = "RdBu", resolution: Resolution = "110m",
+                   ncols: int | None = None, fig=None, progress: bool = False):
+    """Map of the B-minus-A estimate per receiver or per locator square / field.
+
+    Colours run on a diverging scale centred on 0 dB with symmetric limits (blue: B better,
+    red: A better with the default ``"RdBu"``). Receivers are dots and locator squares are
+    square markers at the cell centre (a 2 x 1 deg cell is too small to see on a world-wide
+    map); locator fields are drawn as their 20 x 10 deg cells. Groups whose confidence
+    interval excludes 0 dB are drawn solid; the rest (CI includes 0, or no CI, as for a
+    single receiver whose pairs form one bootstrap cluster) faint and hatched; groups with
+    too few pairs for an estimate are grey rings. Far stations heard by only one antenna
+    (no difference, only a bound) are marked apart: a downward triangle for "only A heard",
+    an upward triangle for "only B heard". One panel per band when the result is split by
+    band (unless ``band`` picks one).
+
+    Parameters
+    ----------
+    result : ComparisonResult or pandas.DataFrame
+        See :func:`difference_cells`.
+    level : {"auto", "receiver", "square", "field"}
+    band : str, optional
+        Draw only this band.
+    pairs : pandas.DataFrame, optional
+        Pairs table (receiver positions, home); default ``result.pairs``.
+    home : str or (float, float), optional
+        Map centre; default the station under test in ``pairs``.
+    projection : {"azimuthal", "world"}
+    extent_km, ring_step_km : float, optional
+    vmax : float, optional
+        Colour half-range [dB]; default :func:`symmetric_limit` of the estimates.
+    cmap : str
+        A diverging matplotlib colour map ("RdBu", "PuOr", ...).
+    resolution : {"110m", "50m", "10m"}
+    ncols : int, optional
+    fig : matplotlib.figure.Figure, optional
+    progress : bool
+        Show a progress bar over the panels.
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+    """
+    import matplotlib.pyplot as plt
+    from matplotlib.collections import PolyCollection
+    from matplotlib.colors import Normalize
+    from matplotlib.lines import Line2D
+
+    _check(projection, PROJECTIONS, "projection")
+    cells = difference_cells(result, level=level, pairs=pairs)
+    level = cells.attrs["level"]
+    _, pairs = _groups_and_pairs(result, pairs)
+    if home is None:
+        if pairs is None:
+            raise UsageError("no home station given and no pairs table to find it in")
+        home = home_from_pairs(pairs)
+    if C.BAND in cells.columns:
+        chosen = _select_bands(cells, band)
+    else:
+        chosen = [None]
+    est = cells[C.B_MINUS_A].to_numpy(dtype=float)
+    lim = float(vmax) if vmax else symmetric_limit(est)
+    norm = Normalize(vmin=-lim, vmax=lim)
+    cmap_obj = plt.get_cmap(cmap)
+    crs = make_projection(projection, home)
+    if extent_km is None and projection == "azimuthal":
+        from spotkit.geo.geodesic import geodesic_inverse
+
+        h_lat, h_lon = home_latlon(home)
+        ok = np.isfinite(cells[C.FAR_LAT].to_numpy())
+        d = geodesic_inverse(np.full(ok.sum(), h_lat), np.full(ok.sum(), h_lon),
+                             cells[C.FAR_LAT].to_numpy()[ok], cells[C.FAR_LON].to_numpy()[ok])[0]
+        extent_km = auto_extent_km(np.asarray(d) / 1e3, ring_step_km)
+    nrows, ncols = _panel_grid(len(chosen), ncols)
+    if fig is None:
+        w, h = (5.2, 5.4) if projection == "azimuthal" else (7.5, 4.2)
+        fig = plt.figure(figsize=(w * ncols, h * nrows + 0.8))
+    for i, bnd in enumerate(_panels(chosen, progress)):
+        ax = fig.add_subplot(nrows, ncols, i + 1, projection=crs)
+        base_map(ax, projection=projection, home=home, extent_km=extent_km,
+                 ring_step_km=ring_step_km, resolution=resolution)
+        sub = cells if bnd is None else cells[cells[C.BAND].astype(str) == bnd]
+        sub = sub[np.isfinite(sub[C.FAR_LAT].to_numpy(dtype=float))]
+        one = sub["one_sided"].to_numpy()
+        val = sub[C.B_MINUS_A].to_numpy(dtype=float)
+        drawable = (one == "") & np.isfinite(val)
+        sig = sub["significant"].to_numpy(dtype=bool)
+        for name, mask, alpha, hatch in (("faint", drawable & ~sig, 0.35, "////"),
+                                         ("solid", drawable & sig, 1.0, None)):
+            part = sub[mask]
+            v = part[C.B_MINUS_A].to_numpy(dtype=float)
+            if level in ("receiver", "square"):  # a square cell is too small to see
+                x, y = project_points(crs, part[C.FAR_LAT], part[C.FAR_LON])
+                ax.scatter(x, y, c=v, cmap=cmap_obj, norm=norm, s=26 if hatch is None else 18,
+                           marker="o" if level == "receiver" else "s",
+                           alpha=alpha, edgecolors="#303030" if hatch is None else "#909090",
+                           linewidths=0.4, hatch=hatch, transform=crs, zorder=5,
+                           gid=f"cells-{name}")
+            else:
+                polys = _cell_polygons(crs, part[C.FAR_LAT].to_numpy(dtype=float),
+                                       part[C.FAR_LON].to_numpy(dtype=float),
+                                       part["cell_dlat"].to_numpy(dtype=float),
+                                       part["cell_dlon"].to_numpy(dtype=float))
+                pc = PolyCollection(polys, array=v, cmap=cmap_obj, norm=norm, alpha=alpha,
+                                    edgecolors="#303030" if hatch is None else "#a0a0a0",
+                                    linewidths=0.3, hatch=hatch, zorder=4,
+                                    gid=f"cells-{name}")
+                ax.add_collection(pc, autolim=False)
+        none = sub[(one == "") & ~np.isfinite(val)]  # too few pairs: outline only
+        x, y = project_points(crs, none[C.FAR_LAT], none[C.FAR_LON])
+        ax.scatter(x, y, marker="o", s=8, facecolors="none", edgecolors="#8a8a8a",
+                   linewidths=0.4, alpha=0.6, transform=crs, zorder=4.5, gid="no-estimate")
+        for kind, marker in (("only_a", "v"), ("only_b", "^")):
+            part = sub[one == kind]
+            x, y = project_points(crs, part[C.FAR_LAT], part[C.FAR_LON])
+            ax.scatter(x, y, marker=marker, s=22, facecolors="white", edgecolors="black",
+                       linewidths=0.7, transform=crs, zorder=6, gid=kind.replace("_", "-"))
+        n_sig = int((drawable & sig).sum())
+        n_ci = int((drawable & np.isfinite(sub[C.CI_LOW].to_numpy(dtype=float))).sum())
+        what = {"receiver": "receivers", "square": "squares", "field": "fields"}[level]
+        title = f"{bnd}: " if bnd is not None else ""
+        ci_txt = (f"{n_sig} with CI excluding 0" if n_ci or not drawable.any()
+                  else "no CIs (one cluster per group)")
+        ax.set_title(f"{title}B - A by {level}: {int(drawable.sum())} {what}, {ci_txt}",
+                     fontsize=9, pad=16)
+    mappable = plt.cm.ScalarMappable(norm=norm, cmap=cmap_obj)
+    cb = fig.colorbar(mappable, ax=fig.axes, orientation="horizontal", fraction=0.035, pad=0.05,
+                      shrink=0.7, extend="both")
+    cb.set_label("B minus A [dB]  (positive: B better)")
+    handles = [
+        Line2D([], [], marker="s", ls="", color=cmap_obj(0.85), mec="#303030",
+               label="CI excludes 0 dB"),
+        Line2D([], [], marker="s", ls="", color=cmap_obj(0.85), alpha=0.35, mec="#a0a0a0",
+               label="CI includes 0 dB or no CI (faint)"),
+        Line2D([], [], marker="v", ls="", mfc="white", mec="black", label="heard by A only"),
+        Line2D([], [], marker="^", ls="", mfc="white", mec="black", label="heard by B only"),
+        Line2D([], [], marker="o", ls="", mfc="none", mec="#8a8a8a", label="too few pairs"),
+    ]
+    fig.legend(handles=handles, loc="upper center", bbox_to_anchor=(0.5, 0.95),
+               ncol=5 if ncols > 1 else 3, fontsize=8, frameon=False)
+    fig.suptitle(f"B minus A around {home if isinstance(home, str) else 'home'}", fontsize=12)
+    return fig
+
+
+# --- reach -------------------------------------------------------------------------------
+#: reach classes: label, colour position in viridis, marker
+_REACH_STYLE = {"both": ("heard by both", None, "o"),
+                "only_a": ("A only", 0.08, "v"),
+                "only_b": ("B only", 0.62, "^")}
+
+
+def reach_map(pairs: pd.DataFrame, *, band=None, layout: ReachLayout = "side", home=None,
+              projection: Projection = "azimuthal", extent_km: float | None = None,
+              ring_step_km: float | None = None, resolution: Resolution = "110m", fig=None,
+              progress: bool = False):
+    """What A and what B reached: far stations heard by each antenna, with distance rings.
+
+    ``layout="side"``: two panels, A's far stations on the left and B's on the right, each
+    marking the stations only that antenna reached; ``"overlay"``: one panel with three
+    classes (both, A only, B only). Counts and the farthest distance are in the titles /
+    legend.
+
+    Parameters
+    ----------
+    pairs : pandas.DataFrame
+        From :func:`spotkit.compare.pairing.pair_spots` (or ``ComparisonResult.pairs``).
+    band : str or list of str, optional
+        Restrict to these bands (a station counts once per band).
+    layout : {"side", "overlay"}
+    home, projection, extent_km, ring_step_km, resolution, fig, progress
+        As in :func:`coverage_map`.
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+    """
+    import matplotlib.pyplot as plt
+
+    _check(layout, REACH_LAYOUTS, "layout")
+    _check(projection, PROJECTIONS, "projection")
+    pairs = getattr(pairs, "pairs", pairs)
+    st = reach_stations(pairs, band)
+    if not len(st):
+        raise UsageError("no far stations to map")
+    if home is None:
+        home = home_from_pairs(pairs)
+    if extent_km is None and projection == "azimuthal":
+        extent_km = auto_extent_km(st[C.DISTANCE], ring_step_km)
+    crs = make_projection(projection, home)
+    cls = np.where(st[C.HEARD_A] & st[C.HEARD_B], "both",
+                   np.where(st[C.HEARD_A], "only_a", "only_b"))
+    cmap = plt.get_cmap("viridis")
+    panels = [("A", ("both", "only_a")), ("B", ("both", "only_b"))] if layout == "side" \
+        else [(None, ("both", "only_a", "only_b"))]
+    if fig is None:
+        w, h = (5.2, 5.8) if projection == "azimuthal" else (7.5, 4.6)
+        fig = plt.figure(figsize=(w * len(panels), h))
+    bands_txt = "" if band is None else f" ({band if isinstance(band, str) else ', '.join(band)})"
+    for i, (who, classes) in enumerate(_panels(panels, progress)):
+        ax = fig.add_subplot(1, len(panels), i + 1, projection=crs)
+        base_map(ax, projection=projection, home=home, extent_km=extent_km,
+                 ring_step_km=ring_step_km, resolution=resolution)
+        for c in classes:
+            label, pos, marker = _REACH_STYLE[c]
+            part = st[cls == c]
+            x, y = project_points(crs, part[C.FAR_LAT], part[C.FAR_LON])
+            color = "#9a9a9a" if pos is None else cmap(pos)
+            ax.scatter(x, y, s=16 if c == "both" else 24, marker=marker, color=color,
+                       edgecolors="#202020", linewidths=0.3, transform=crs,
+                       zorder=5 if c == "both" else 6,
+                       gid={"both": "heard-both", "only_a": "only-a", "only_b": "only-b"}[c]
+                       + ("" if who is None else f"-{who.lower()}"),
+                       label=f"{label}: {len(part):,}")
+        if who is None:
+            ax.set_title(f"Reach of A and B{bands_txt}", fontsize=10, pad=16)
+            ax.legend(loc="lower left", fontsize=7, framealpha=0.8)
+        else:
+            heard = st[C.HEARD_A] if who == "A" else st[C.HEARD_B]
+            far = st.loc[heard, C.DISTANCE].max() if heard.any() else float("nan")
+            n_far = st.loc[heard.to_numpy(), C.FAR_CALL].nunique()
+            ax.set_title(f"{who}{bands_txt}: {n_far:,} far stations, farthest "
+                         f"{far:,.0f} km", fontsize=10, pad=16)
+            ax.legend(loc="lower left", fontsize=7, framealpha=0.8)
+    fig.suptitle(f"Reach around {home if isinstance(home, str) else 'home'}", fontsize=12)
+    return fig
+
+
+__all__ = [
+    "PROJECTIONS", "RESOLUTIONS", "REACH_LAYOUTS", "make_projection", "project_points",
+    "draw_land", "draw_rings", "draw_geodesic_rings", "base_map", "draw_paths",
+    "coverage_map", "difference_map", "reach_map",
+]

@@ -1,0 +1,213 @@
+"""Maps (spotkit.viz.maps): drawn headless (Agg) with no network, checked on their content.
+
+Spots come from the demo data (demo_data/simultaneous.csv.gz, conftest.sim).
+"""
+from __future__ import annotations
+
+import matplotlib
+import matplotlib.pyplot as plt
+import numpy as np
+import pandas as pd
+import pytest
+
+from spotkit import columns as C
+from spotkit.viz import maps
+
+matplotlib.use("Agg")
+
+
+@pytest.fixture(autouse=True)
+def _no_network(offline):
+    """Every test here runs offline (see conftest.offline)."""
+
+
+@pytest.fixture(scope="module")
+def result_by_field(sim):
+    from spotkit.compare.estimate import compare_antennas
+
+    return compare_antennas(sim.spots, sim.design, sim.a, sim.b, by=("band", "field"),
+                            n_boot=100, seed=1)
+
+
+def _by_gid(ax, gid):
+    return [a for a in ax.get_children() if a.get_gid() == gid]
+
+
+def test_coverage_plots_one_marker_per_distinct_receiver_per_band(sim):
+    spots = sim.spots
+    fig = maps.coverage_map(spots, paths=True)
+    bands = sorted(spots[C.BAND].astype(str).unique(), key=lambda b: -int(b[:-1]))
+    geo_axes = [ax for ax in fig.axes if hasattr(ax, "projection")]
+    assert len(geo_axes) == len(bands)
+    for ax, band in zip(geo_axes, bands):
+        sub = spots[spots[C.BAND].astype(str) == band]
+        (stations,) = _by_gid(ax, "stations")
+        n = sub[C.RX_CALL].nunique()
+        assert len(stations.get_offsets()) == n
+        (paths,) = _by_gid(ax, "paths")
+        assert len(paths.get_segments()) == n
+        assert band in ax.get_title()
+    # colours: each marker's value is that receiver's median SNR per watt on that band
+    ax = geo_axes[0]
+    sub = spots[spots[C.BAND].astype(str) == bands[0]]
+    per_w = sub[C.SNR] - (sub[C.POWER] - 30.0)
+    by_rx = per_w.groupby(sub[C.RX_CALL].astype(str), observed=True)
+    expected = np.sort(by_rx.median().to_numpy())
+    (stations,) = _by_gid(ax, "stations")
+    np.testing.assert_allclose(np.sort(stations.get_array()), expected, atol=1e-9)
+
+
+def test_receiver_due_east_sits_on_the_90_degree_radial_at_its_ring():
+    """A receiver 5000 km due east of home (geographiclib Direct, Karney 2013, as the oracle)
+    must be drawn on the east radial of the azimuthal map, on the 5000 km ring, within one
+    pixel."""
+    from geographiclib.geodesic import Geodesic
+
+    home = "JN58td"
+    h_lat, h_lon = 48.145833, 11.625  # JN58td centre (recomputed, Tyson 1989 scheme)
+    p = Geodesic.WGS84.Direct(h_lat, h_lon, 90.0, 5_000_000.0)
+    q = Geodesic.WGS84.Direct(h_lat, h_lon, 0.0, 2_500_000.0)
+    spots = pd.DataFrame({
+        C.BAND: ["20m", "20m"], C.TX_CALL: ["Q1ABC"] * 2, C.TX_LOCATOR: [home] * 2,
+        C.RX_CALL: ["Q7EST", "Q7NTH"], C.RX_LOCATOR: ["MN00aa", "KP00aa"],
+        C.RX_LAT: [p["lat2"], q["lat2"]], C.RX_LON: [p["lon2"], q["lon2"]],
+        C.DISTANCE: [5000.0, 2500.0], C.BEARING: [90.0, 0.0], C.SNR: [-10.0, -12.0],
+        C.POWER: [30.0, 30.0],
+    })
+    fig = maps.coverage_map(spots, home=home, ring_step_km=1000, extent_km=6000)
+    fig.set_size_inches(8, 8)
+    fig.canvas.draw()
+    ax = fig.axes[0]
+    (stations,) = _by_gid(ax, "stations")
+    xy = ax.transData.transform(stations.get_offsets())
+    centre = ax.transData.transform([[0.0, 0.0]])[0]
+    (ring,) = _by_gid(ax, "ring-5000")
+    ring_xy = ax.transData.transform(np.c_[ring.get_xdata(), ring.get_ydata()])
+    east_on_ring = ring_xy[np.argmax(ring_xy[:, 0])]
+    order = np.argsort(stations.get_array())[::-1]  # Q7EST (-10 dB) first
+    east, north = xy[order[0]], xy[order[1]]
+    assert np.hypot(*(east - east_on_ring)) < 1.0  # pixels
+    assert abs(east[1] - centre[1]) < 1.0  # on the horizontal radial
+    (ring25,) = _by_gid(ax, "ring-2500") if _by_gid(ax, "ring-2500") else (None,)
+    # the northern station: straight up, 2500 km = half the 5000 km radius
+    assert abs(north[0] - centre[0]) < 1.0
+    assert abs((north[1] - centre[1]) - 0.5 * (east[0] - centre[0])) < 1.0
+
+
+@pytest.mark.slow
+def test_difference_map_symmetric_scale_solid_only_where_ci_excludes_zero(result_by_field):
+    fig = maps.difference_map(result_by_field)
+    g = result_by_field.groups
+    geo_axes = [ax for ax in fig.axes if hasattr(ax, "projection")]
+    assert len(geo_axes) == g[C.BAND].nunique()
+    n_solid = n_faint = 0
+    for ax in geo_axes:
+        for artist in _by_gid(ax, "cells-solid") + _by_gid(ax, "cells-faint"):
+            vmin, vmax = artist.get_clim()
+            assert vmin == pytest.approx(-vmax) and vmax > 0
+        n_solid += sum(len(a.get_paths()) for a in _by_gid(ax, "cells-solid"))
+        n_faint += sum(len(a.get_paths()) for a in _by_gid(ax, "cells-faint"))
+    est = g[C.B_MINUS_A].to_numpy(dtype=float)
+    sig = (g[C.CI_LOW] > 0) | (g[C.CI_HIGH] < 0)
+    one = (g[C.BOTH] == 0)
+    assert n_solid == int((np.isfinite(est) & sig & ~one).sum())
+    assert n_faint == int((np.isfinite(est) & ~sig & ~one).sum())
+    assert n_solid > 0
+
+
+def test_difference_map_marks_one_sided_cells(square_groups):
+    # the cells themselves (significance, one-sidedness, positions): test_mapdata.py
+    groups = square_groups
+    fig = maps.difference_map(groups, home="JN58td")
+    ax = fig.axes[0]
+    assert len(_by_gid(ax, "only-a")[0].get_offsets()) == 1
+    assert len(_by_gid(ax, "only-b")[0].get_offsets()) == 1
+
+
+@pytest.mark.slow
+def test_reach_map_marks_what_each_antenna_reached(result_by_field):
+    pairs = result_by_field.pairs
+    fig = maps.reach_map(pairs, band="10m")
+    ax_a, ax_b = [ax for ax in fig.axes if hasattr(ax, "projection")]
+    st = maps.reach_stations(pairs, "10m")
+    n_a = sum(len(a.get_offsets())
+              for a in _by_gid(ax_a, "heard-both-a") + _by_gid(ax_a, "only-a-a"))
+    n_b = sum(len(a.get_offsets())
+              for a in _by_gid(ax_b, "heard-both-b") + _by_gid(ax_b, "only-b-b"))
+    sub = pairs[pairs[C.BAND].astype(str) == "10m"]
+    assert n_a == sub.loc[sub[C.HEARD_A], C.FAR_CALL].nunique() == int(st[C.HEARD_A].sum())
+    assert n_b == sub.loc[sub[C.HEARD_B], C.FAR_CALL].nunique()
+    assert _by_gid(ax_a, "ring-2500") or _by_gid(ax_a, "ring-1000")
+    fig = maps.reach_map(pairs, layout="overlay", projection="world")
+    (ax,) = [ax for ax in fig.axes if hasattr(ax, "projection")]
+    total = sum(len(a.get_offsets()) for g in ("heard-both", "only-a", "only-b")
+                for a in _by_gid(ax, g))
+    assert total == len(maps.reach_stations(pairs))
+
+
+def test_world_paths_split_where_they_cross_the_map_edge():
+    """On a world map centred on 0 deg, the geodesic from (0, 170 E) to (0, 170 W) runs east
+    across the 180 deg line, i.e. the map edge: it must be split there, not drawn across the
+    whole map. (A path from home never crosses the edge of a map centred on home's
+    longitude: two great circles through home meet again only at the antipode.)"""
+    import cartopy.crs as ccrs
+
+    fig = plt.figure()
+    ax = fig.add_subplot(1, 1, 1, projection=ccrs.EqualEarth(central_longitude=0.0))
+    lc = maps.draw_paths(ax, (0.0, 170.0), [0.0, 10.0], [-170.0, 150.0])
+    segs = lc.get_segments()
+    assert len(segs) == 3
+    width = ax.projection.x_limits[1] - ax.projection.x_limits[0]
+    assert all(np.abs(np.diff(s[:, 0])).max() < width / 3 for s in segs)
+    ends = np.array([[s[0, 0], s[-1, 0]] for s in segs])
+    assert np.isclose(np.abs(ends).max(), width / 2, rtol=0.01)  # reaches the edge
+
+
+def test_bad_arguments():
+    with pytest.raises(ValueError, match="azimuthal, world"):
+        maps.make_projection("mercator", "JN58")
+    with pytest.raises(ValueError, match="110m"):
+        maps.base_map(projection="world", resolution="1m")
+    from spotkit.errors import UsageError
+
+    with pytest.raises(UsageError, match="home"):
+        maps.make_projection("azimuthal", None)
+
+
+def test_receive_side_maps_the_transmitters():
+    """Receive design: the home end is the two co-located receivers; the far stations are
+    the transmitters (demo_data/receive.csv.gz, or a simulator run)."""
+    from pathlib import Path
+
+    demo = Path(__file__).resolve().parents[2] / "demo_data" / "receive.csv.gz"
+    if demo.exists():
+        from spotkit.io.ingest import load_spots
+
+        spots = load_spots(demo)
+    else:
+        from spotkit.sim.simulate import simulate_spots
+
+        spots = simulate_spots("receive", days=1, seed=4, n_transmitters=60).spots
+    assert maps.resolve_side(spots) == "receive"
+    home = maps.home_from_spots(spots)
+    assert home == spots[C.RX_LOCATOR].astype(str).mode()[0]
+    band = spots[C.BAND].astype(str).mode()[0]
+    fig = maps.coverage_map(spots, bands=band)
+    (stations,) = _by_gid(fig.axes[0], "stations")
+    sub = spots[spots[C.BAND].astype(str) == band]
+    assert len(stations.get_offsets()) == sub[C.TX_CALL].nunique()
+    assert "transmitters" in fig.axes[0].get_title()
+
+
+def test_higher_resolution_only_when_asked():
+    """The default land layer is the shipped one; cartopy's 1:50m feature (downloaded on
+    first draw) is only set up when asked for, and nothing is fetched until drawn."""
+    import cartopy.feature as cfeature
+
+    ax = maps.base_map(projection="world", home="JN58td", fig=plt.figure())
+    assert not any(isinstance(getattr(a, "_feature", None), cfeature.NaturalEarthFeature)
+                   for a in ax.get_children())
+    art = maps.draw_land(ax, resolution="50m")
+    assert isinstance(art._feature, cfeature.NaturalEarthFeature)
+    assert art._feature.scale == "50m"
+    art.remove()
