@@ -17,6 +17,8 @@ from typing import Literal
 import numpy as np
 import pandas as pd
 
+from spotkit._validate import check_choice
+
 Region = Literal["1", "2", "3", "all"]
 REGIONS = ("1", "2", "3", "all")
 
@@ -63,8 +65,7 @@ def band_plan(region: Region = "all") -> pd.DataFrame:
     pandas.DataFrame
         Columns ``band``, ``low_hz``, ``high_hz`` [Hz], in increasing frequency.
     """
-    if region not in REGIONS:
-        raise ValueError(f"unknown IARU region {region!r}; valid: {', '.join(REGIONS)}")
+    check_choice(region, REGIONS, "IARU region")
     rows = []
     for band in BAND_ORDER:
         plan = _PLANS[band]

@@ -22,6 +22,7 @@ import numpy as np
 import pandas as pd
 
 from spotkit import columns as C
+from spotkit._validate import check_choice
 from spotkit.errors import InputError, UsageError
 from spotkit.io import store
 from spotkit.units import snr_per_watt
@@ -44,11 +45,6 @@ SIDES = ("rx", "tx")
 VALUE_DECIMALS = 6
 
 
-def _check_choice(value, valid, what):
-    if value not in valid:
-        raise ValueError(f"unknown {what} {value!r}; valid: {', '.join(valid)}")
-
-
 def _key_column(key: str, side: str) -> str:
     return {"band": C.BAND, "square": C.SQUARE, "field": C.FIELD, "hour": C.HOUR,
             "tx_call": C.TX_CALL, "rx_call": C.RX_CALL, "day": store.DAY}[key]
@@ -58,7 +54,7 @@ def coverage_columns_needed(by: Sequence[str], side: Side = "rx") -> list[str]:
     """Spot-table columns :func:`coverage_partials` reads for ``by`` and ``side``."""
     need = {C.SNR, C.POWER, C.RX_CALL if side == "rx" else C.TX_CALL}
     for key in by:
-        _check_choice(key, COVERAGE_KEYS, "coverage key")
+        check_choice(key, COVERAGE_KEYS, "coverage key")
         if key in ("square", "field"):
             need.add(C.RX_LOCATOR if side == "rx" else C.TX_LOCATOR)
         elif key in ("hour", "day"):
@@ -207,10 +203,10 @@ def coverage_partials(df: pd.DataFrame, by: Sequence[CoverageKey] = ("band", "sq
     CoveragePartials
         Key columns hold plain values (str, int), so partials of any partitions merge.
     """
-    _check_choice(side, SIDES, "side")
+    check_choice(side, SIDES, "side")
     by = list(by)
     for key in by:
-        _check_choice(key, COVERAGE_KEYS, "coverage key")
+        check_choice(key, COVERAGE_KEYS, "coverage key")
     if len(set(by)) != len(by):
         raise UsageError(f"coverage keys repeat: {', '.join(by)}")
     missing = [c for c in coverage_columns_needed(by, side) if c not in df.columns]

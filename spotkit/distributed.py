@@ -51,11 +51,11 @@ import numpy as np
 import pandas as pd
 
 from spotkit import columns as C
+from spotkit._validate import check_choice
 from spotkit.coverage import (
     SIDES,
     CoverageKey,
     Side,
-    _check_choice,
     combine_coverage,
     coverage_columns_needed,
     coverage_partials,
@@ -156,7 +156,7 @@ def read_archive_dask(root, *, columns: Sequence[str] | None = None, bands=None,
     files = store.archive_files(root, bands=bands, start=start, end=end)
     if not files:
         raise InputError(f"{root}: no spots in the archive match the selection")
-    _check_choice(group, ("file", "band", "all"), "partition grouping")
+    check_choice(group, ("file", "band", "all"), "partition grouping")
     if group == "band":
         groups: dict[str, list[str]] = {}
         for f in files:
@@ -228,7 +228,7 @@ def coverage_dask(source, by: Sequence[CoverageKey] = ("band", "square"), *, sid
     """
     import dask
 
-    _check_choice(side, SIDES, "side")
+    check_choice(side, SIDES, "side")
     by = list(by)
     cols = coverage_columns_needed(by, side)
     selection = dict(bands=bands, start=start, end=end, tx_calls=tx_calls, rx_calls=rx_calls,

@@ -18,6 +18,7 @@ import pandas as pd
 
 from spotkit import __version__
 from spotkit import columns as C
+from spotkit.errors import UsageError
 
 #: One line that says what spotkit does (the first line of every report).
 JOB = ("spotkit compares two amateur-radio antennas with numbers, from weak-signal beacon "
@@ -259,7 +260,7 @@ def build_report(spots: pd.DataFrame, results, *, ingest_summary=None, map_resul
     """
     results = [results] if hasattr(results, "overall") else list(results)
     if not results:
-        raise ValueError("build_report needs at least one comparison result")
+        raise UsageError("build_report needs at least one comparison result")
     result = results[0]
     title = title or f"Antenna comparison: A = {result.a}, B = {result.b}"
     parts = [f"<!DOCTYPE html><html lang='en'><head><meta charset='utf-8'>"

@@ -10,6 +10,8 @@ from typing import Literal
 
 import numpy as np
 
+from spotkit._validate import check_choice
+
 PowerUnit = Literal["dBm", "W", "mW"]
 FrequencyUnit = Literal["Hz", "kHz", "MHz"]
 
@@ -52,17 +54,12 @@ def power_to_dbm(values, unit: PowerUnit):
         return watts_to_dbm(values)
     if unit == "mW":
         return milliwatts_to_dbm(values)
-    raise ValueError(f"unknown power unit {unit!r}; valid: {', '.join(POWER_UNITS)}")
+    check_choice(unit, POWER_UNITS, "power unit")
 
 
 def frequency_to_hz(values, unit: FrequencyUnit):
     """Convert frequency in ``unit`` (one of ``Hz``, ``kHz``, ``MHz``) to Hz."""
-    try:
-        scale = _FREQ_SCALE[unit]
-    except KeyError:
-        raise ValueError(
-            f"unknown frequency unit {unit!r}; valid: {', '.join(FREQUENCY_UNITS)}"
-        ) from None
+    scale = _FREQ_SCALE[check_choice(unit, FREQUENCY_UNITS, "frequency unit")]
     return np.asarray(values, dtype=float) * scale
 
 

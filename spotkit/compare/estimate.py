@@ -107,6 +107,7 @@ from scipy import sparse
 
 from spotkit import columns as C
 from spotkit import stats
+from spotkit._validate import check_choice, check_confidence
 from spotkit.compare.beforeafter import WEAKER_DESIGN, estimate_before_after
 from spotkit.compare.grouping import (
     DEFAULT_DAY_HOURS,
@@ -253,14 +254,9 @@ def estimate_groups(counts: pd.DataFrame, *, n_boot: int = 1000, seed: int = 0,
     .. [2] A. C. Davison and D. V. Hinkley, Bootstrap Methods and their Application, 1997,
        s. 3.8.
     """
-    if not 0 < confidence < 1:
-        raise UsageError(f"confidence must be in (0, 1), got {confidence}")
-    if threshold_correction not in THRESHOLD_CORRECTIONS:
-        raise ValueError(f"unknown threshold correction {threshold_correction!r}; valid: "
-                         f"{', '.join(THRESHOLD_CORRECTIONS)}")
-    if missed_reports not in MISSED_REPORTS:
-        raise ValueError(f"unknown missed_reports {missed_reports!r}; valid: "
-                         f"{', '.join(MISSED_REPORTS)}")
+    check_confidence(confidence)
+    check_choice(threshold_correction, THRESHOLD_CORRECTIONS, "threshold correction")
+    check_choice(missed_reports, MISSED_REPORTS, "missed_reports")
     use_mix = missed_reports == "fit"
     if int(n_boot) < 2:
         raise UsageError(f"n_boot must be at least 2, got {n_boot}")

@@ -16,6 +16,7 @@ import numpy as np
 import pandas as pd
 
 from spotkit import columns as C
+from spotkit._validate import check_choice, check_choices
 from spotkit.errors import NoPairsError, UsageError
 
 #: Group keys accepted by :func:`add_group_keys` / :func:`summarise_pairs`.
@@ -75,10 +76,7 @@ def parse_by(by) -> tuple[str, ...]:
     if isinstance(by, str):
         by = [b for b in by.replace(" ", "").split(",") if b]
     keys = tuple(str(b).strip().lower() for b in by)
-    bad = [k for k in keys if k not in GROUP_KEYS]
-    if bad:
-        raise ValueError(f"unknown group key(s) {', '.join(map(repr, bad))}; valid: "
-                         f"{', '.join(GROUP_KEYS)}")
+    check_choices(keys, GROUP_KEYS, "group key")
     if len(set(keys)) != len(keys):
         raise UsageError(f"group keys repeat: {', '.join(keys)}")
     return keys
@@ -120,8 +118,7 @@ def add_group_keys(pairs: pd.DataFrame, by=(), *,
         there.
     """
     keys = parse_by(by)
-    if hour not in ("utc", "local"):
-        raise ValueError(f"unknown hour basis {hour!r}; valid: utc, local")
+    check_choice(hour, ("utc", "local"), "hour basis")
     out = pairs.copy()
     if "distance" in keys:
         lo, hi = _bin(out[C.DISTANCE].to_numpy(dtype=float), _edges(distance_edges,

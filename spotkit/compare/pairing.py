@@ -61,6 +61,7 @@ import numpy as np
 import pandas as pd
 
 from spotkit import columns as C
+from spotkit._validate import check_choice
 from spotkit.compare.grouping import _DAY_NS, _SLOT_NS, _ns, _to_utc
 from spotkit.errors import InputError, NoPairsError, SpotkitWarning, UsageError
 from spotkit.units import REFERENCE_POWER_DBM, snr_per_watt
@@ -85,9 +86,7 @@ PAIR_COLUMNS = [C.CLUSTER, C.BAND, C.SLOT, C.FAR_CALL, C.FAR_LOCATOR, C.FAR_LAT,
 
 # --- helpers -------------------------------------------------------------------------------
 def _check_design(design: str) -> str:
-    if design not in DESIGNS:
-        raise ValueError(f"unknown design {design!r}; valid: {', '.join(DESIGNS)}")
-    return design
+    return check_choice(design, DESIGNS, "design")
 
 
 def _as_category(s: pd.Series) -> pd.Series:

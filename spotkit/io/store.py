@@ -48,6 +48,7 @@ import pyarrow.dataset as ds
 import pyarrow.parquet as pq
 
 from spotkit import columns as C
+from spotkit._validate import check_choice
 from spotkit.bands import BAND_ORDER
 from spotkit.errors import InputError, UsageError
 
@@ -140,7 +141,7 @@ def _partitioning(partition_by: Sequence[str]) -> ds.Partitioning:
         elif key == DAY:
             fields.append(pa.field(DAY, pa.date32()))
         else:
-            raise ValueError(f"unknown partition key {key!r}; valid: {', '.join(PARTITION_KEYS)}")
+            check_choice(key, PARTITION_KEYS, "partition key")
     return ds.partitioning(pa.schema(fields), flavor="hive")
 
 
@@ -384,8 +385,7 @@ def _now() -> str:
 
 def _prepare_root(root: Path, partition_by: Sequence[str]) -> dict:
     for key in partition_by:
-        if key not in PARTITION_KEYS:
-            raise ValueError(f"unknown partition key {key!r}; valid: {', '.join(PARTITION_KEYS)}")
+        check_choice(key, PARTITION_KEYS, "partition key")
     if root.exists() and not root.is_dir():
         raise UsageError(f"{root}: exists and is not a directory")
     root.mkdir(parents=True, exist_ok=True)

@@ -25,6 +25,7 @@ import numpy as np
 import pandas as pd
 
 from spotkit import columns as C
+from spotkit._validate import check_choice
 from spotkit.bands import sort_bands
 from spotkit.errors import InputError
 from spotkit.plan.schedule import HOUR_UTC, expand_schedule
@@ -218,8 +219,7 @@ def audit_schedule(spots: pd.DataFrame, schedule: pd.DataFrame, call: str, *,
     usable when it has reports and (with markers) their most common power is that of the
     scheduled antenna. Effective pairs count slots, not reports.
     """
-    if marker not in MARKERS:
-        raise ValueError(f"unknown marker {marker!r}; valid: {', '.join(MARKERS)}")
+    check_choice(marker, MARKERS, "marker")
     for col in (C.SLOT, C.TX_CALL, C.BAND, C.POWER):
         if col not in spots.columns:
             raise InputError(f"spot table lacks column {col!r}; run it through ingest first")

@@ -68,6 +68,7 @@ import pandas as pd
 from scipy import stats as _st
 
 from spotkit import columns as C
+from spotkit._validate import check_choice
 from spotkit.bands import sort_bands
 from spotkit.errors import InputError, UsageError
 from spotkit.plan.schedule import (
@@ -602,8 +603,7 @@ def duration_by_simulation(effect_db: float, hours: Sequence[float], *, n_runs: 
     from spotkit.sim.simulate import simulate_spots
     from spotkit.stats.paired import wilson_interval
 
-    if design not in SIM_DESIGNS:
-        raise ValueError(f"unknown design {design!r}; valid: {', '.join(SIM_DESIGNS)}")
+    check_choice(design, SIM_DESIGNS, "design")
     alpha = _check_prob(alpha, "alpha")
     if int(n_runs) < 2:
         raise UsageError("n_runs must be at least 2")

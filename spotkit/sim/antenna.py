@@ -43,7 +43,9 @@ from typing import Literal, Mapping
 
 import numpy as np
 
+from spotkit._validate import check_choice
 from spotkit.bands import BEACON_DIAL_KHZ
+from spotkit.errors import UsageError
 
 #: Speed of light [m/s].
 SPEED_OF_LIGHT = 299_792_458.0
@@ -68,20 +70,12 @@ GROUNDS: dict[str, tuple[float, float]] = {
 
 def band_frequency_hz(band: str) -> float:
     """Centre of the customary beacon sub-band of ``band`` [Hz]: dial + 1500 Hz."""
-    try:
-        return BEACON_DIAL_KHZ[band] * 1e3 + 1500.0
-    except KeyError:
-        raise ValueError(
-            f"unknown band {band!r}; valid: {', '.join(BEACON_DIAL_KHZ)}") from None
+    return BEACON_DIAL_KHZ[check_choice(band, tuple(BEACON_DIAL_KHZ), "band")] * 1e3 + 1500.0
 
 
 def _ground(ground) -> tuple[float, float]:
     if isinstance(ground, str):
-        try:
-            return GROUNDS[ground]
-        except KeyError:
-            raise ValueError(
-                f"unknown ground {ground!r}; valid: {', '.join(GROUNDS)}") from None
+        return GROUNDS[check_choice(ground, tuple(GROUNDS), "ground")]
     eps, sigma = ground
     return float(eps), float(sigma)
 
@@ -316,7 +310,8 @@ class Antenna:
 
         t = self.tables.get(band)
         if t is None:
-            raise ValueError(f"{self.name} has no gain table for {band!r}")
+            raise UsageError(f"{self.name} has no gain table for {band!r}; it has "
+                             f"{', '.join(self.tables) or 'none'}")
         return pd.DataFrame(t.gain_db, index=pd.Index(t.elevation_deg, name="elevation_deg"),
                             columns=pd.Index(t.bearing_deg, name="bearing_deg"))
 
@@ -384,10 +379,10 @@ def constant_difference(base: Antenna, difference_db, distance_edges=None,
         else base.distance_edges
     for b, v in diff.items():
         if len(v) > 1 and len(v) != len(edges) - 1:
-            raise ValueError(f"band {b}: {len(v)} differences for {len(edges) - 1} "
+            raise UsageError(f"band {b}: {len(v)} differences for {len(edges) - 1} "
                              "distance cells")
         if b in base.offset_db:
-            raise ValueError("constant_difference of an antenna that already has offsets")
+            raise UsageError("constant_difference of an antenna that already has offsets")
     return Antenna(name=name or f"{base.name} + difference", tables=base.tables,
                    offset_db=diff, distance_edges=edges, default_db=base.default_db)
 
@@ -404,7 +399,7 @@ def make_antenna(kind: Literal["isotropic", "vertical", "dipole"], bands, **kw) 
         return vertical_antenna(bands, **kw)
     if kind == "dipole":
         return dipole_antenna(bands, **kw)
-    raise ValueError(f"unknown antenna {kind!r}; valid: isotropic, vertical, dipole")
+    check_choice(kind, ("isotropic", "vertical", "dipole"), "antenna")
 
 
 __all__ = [

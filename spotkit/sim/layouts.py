@@ -15,6 +15,7 @@ import numpy as np
 import pandas as pd
 
 from spotkit import columns as C
+from spotkit._validate import check_choice
 
 #: Invented CSV layouts: delimiter, heading line (None: none), time format ("epoch" or a
 #: strftime format), frequency unit and decimals, power unit. Field order is always time,
@@ -76,8 +77,7 @@ def write_foreign_csv(spots: pd.DataFrame, path, layout: str = "comma", *,
         Field -> unit (``time``: iso|epoch, ``frequency``: Hz|kHz|MHz, ``power``:
         dBm|W|mW), for ``read_spots``.
     """
-    if layout not in LAYOUTS:
-        raise ValueError(f"unknown layout {layout!r}; valid: {', '.join(LAYOUTS)}")
+    check_choice(layout, tuple(LAYOUTS), "layout")
     lay = LAYOUTS[layout]
     rng = np.random.default_rng(seed)
     n = len(spots)

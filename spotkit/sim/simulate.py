@@ -60,6 +60,7 @@ from scipy.signal import lfilter
 from tqdm.auto import tqdm
 
 from spotkit import columns as C
+from spotkit._validate import check_choice
 from spotkit.bands import BEACON_DIAL_KHZ
 from spotkit.errors import LocatorError, UsageError
 from spotkit.geo.geodesic import (
@@ -313,8 +314,7 @@ def simulate_spots(design: Design = "simultaneous", *, days: float = 3, seed: in
     UsageError
         Inconsistent arguments (power not on the ladder, unknown band, ...).
     """
-    if design not in DESIGNS:
-        raise ValueError(f"unknown design {design!r}; valid: {', '.join(DESIGNS)}")
+    check_choice(design, DESIGNS, "design")
     prop = propagation or Propagation()
     rng = np.random.default_rng(seed)
     bands = [str(x) for x in ([bands] if isinstance(bands, str) else bands)]

@@ -23,6 +23,7 @@ import pandas as pd
 
 from spotkit import columns as C
 from spotkit.bands import sort_bands
+from spotkit.errors import InputError
 
 #: Default distance cells of :meth:`Truth.cells` [km].
 DEFAULT_DISTANCE_EDGES = (0.0, 1000.0, 3000.0, 6000.0, 20000.0)
@@ -164,8 +165,10 @@ class Truth:
     @classmethod
     def from_json(cls, source) -> "Truth":
         """Read what :meth:`to_json` wrote: JSON text, or a path (.json or .json.gz)."""
+        name = "truth JSON"
         if isinstance(source, (str, Path)) and not str(source).lstrip().startswith("{"):
             path = Path(source)
+            name = str(path)
             opener = gzip.open if path.suffix == ".gz" else open
             with opener(path, "rt", encoding="utf-8") as fh:
                 doc = json.load(fh)
@@ -173,7 +176,8 @@ class Truth:
             doc = json.loads(source)
         pairs = doc.get("pairs")
         if pairs is None:
-            raise ValueError("this truth JSON was written without its pairs")
+            raise InputError(f"{name}: written without its pairs (write it with "
+                             "Truth.to_json(include_pairs=True))")
         paths = pd.DataFrame(pairs["paths"])
         idx = np.asarray(pairs["path"], dtype=np.int64)
         df = paths.iloc[idx].reset_index(drop=True) if len(paths) else pd.DataFrame(

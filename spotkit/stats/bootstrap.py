@@ -33,6 +33,7 @@ from typing import Literal
 import numpy as np
 from scipy import stats
 
+from spotkit._validate import check_choice, check_confidence
 from spotkit.errors import UsageError
 
 IntervalMethod = Literal["percentile", "basic", "normal"]
@@ -40,11 +41,6 @@ IntervalMethod = Literal["percentile", "basic", "normal"]
 INTERVAL_METHODS = ("percentile", "basic", "normal")
 Draws = Literal["n-1", "n"]
 DRAWS = ("n-1", "n")
-
-
-def _check_choice(value, valid, what):
-    if value not in valid:
-        raise ValueError(f"unknown {what} {value!r}; valid: {', '.join(valid)}")
 
 
 # --------------------------------------------------------------------------- bootstrap
@@ -121,7 +117,7 @@ def stratified_bootstrap_weights(strata, n_boot: int, rng=None, *,
     .. [2] P. J. McCarthy and C. B. Snowden, "The bootstrap and finite population
        sampling", Vital and Health Statistics 2(95), NCHS, 1985 (citation from memory).
     """
-    _check_choice(draws, DRAWS, "draws")
+    check_choice(draws, DRAWS, "draws")
     if int(n_boot) != n_boot or n_boot < 1:
         raise UsageError(f"n_boot must be a positive integer, got {n_boot}")
     gen = rng if isinstance(rng, np.random.Generator) else np.random.default_rng(rng)
@@ -176,9 +172,8 @@ def bootstrap_interval(replicates, estimate, confidence: float = 0.95,
     .. [1] A. C. Davison and D. V. Hinkley, Bootstrap Methods and their Application, 1997,
        s. 5.2-5.3.
     """
-    _check_choice(method, INTERVAL_METHODS, "method")
-    if not 0 < confidence < 1:
-        raise UsageError(f"confidence must be in (0, 1), got {confidence}")
+    check_choice(method, INTERVAL_METHODS, "method")
+    check_confidence(confidence)
     r = np.asarray(replicates, dtype=float)
     est = np.asarray(estimate, dtype=float)
     if r.ndim not in (1, 2) or r.shape[0] == 0:

@@ -33,6 +33,7 @@ from dataclasses import asdict, dataclass
 import numpy as np
 from scipy import special
 
+from spotkit._validate import check_positive
 from spotkit.errors import UsageError
 
 #: Default floor of the censored-normal sigma, dB (see the module docstring).
@@ -91,8 +92,7 @@ _LOG_SQRT_2PI = 0.5 * np.log(2 * np.pi)
 
 def _check_batch(values, kinds, weights, sigma_floor):
     """Checked (values, kinds, weights) of a batch fit (weights shape (B, K))."""
-    if not sigma_floor > 0:
-        raise UsageError(f"sigma_floor must be positive, got {sigma_floor}")
+    check_positive(sigma_floor, "sigma_floor")
     v, k = _check_kinds(values, kinds)
     w = np.asarray(weights, dtype=float)
     if w.ndim != 2 or w.shape[1] != v.size:
@@ -272,8 +272,7 @@ def censored_normal_mle(values, kinds, counts=None,
     .. [2] R. J. Olsen, "Note on the uniqueness of the maximum likelihood estimator for the
        Tobit model", Econometrica 46(5):1211-1215, 1978. doi:10.2307/1911445
     """
-    if not sigma_floor > 0:
-        raise UsageError(f"sigma_floor must be positive, got {sigma_floor}")
+    check_positive(sigma_floor, "sigma_floor")
     v, k = _check_kinds(values, kinds)
     if counts is None:
         c = np.ones(v.shape)
@@ -525,8 +524,7 @@ def censored_mixture_mle(values, kinds, counts=None, sigma_floor: float = SIGMA_
        Statistica Sinica 21:5-42, 2011 (products of conditional likelihoods; citation
        from memory).
     """
-    if not sigma_floor > 0:
-        raise UsageError(f"sigma_floor must be positive, got {sigma_floor}")
+    check_positive(sigma_floor, "sigma_floor")
     v, k = _check_kinds(values, kinds)
     c = np.ones(v.shape) if counts is None else np.asarray(counts, dtype=float).ravel()
     if c.shape != v.shape:

@@ -33,6 +33,7 @@ from typing import Literal
 import numpy as np
 from scipy import stats
 
+from spotkit._validate import check_choice, check_confidence
 from spotkit.errors import UsageError
 
 Alternative = Literal["two-sided", "greater", "less"]
@@ -85,11 +86,6 @@ class TestResult:
 
 
 # --------------------------------------------------------------------------- helpers
-def _check_choice(value, valid, what):
-    if value not in valid:
-        raise ValueError(f"unknown {what} {value!r}; valid: {', '.join(valid)}")
-
-
 def _values_counts(values, counts=None, *, integer=True):
     """Validate and return float values and counts (frequency weights) as 1-D arrays."""
     v = np.asarray(values, dtype=float).ravel()
@@ -215,8 +211,8 @@ def wilcoxon_signed_rank(values, counts=None, alternative: Alternative = "two-si
     .. [2] M. Hollander and D. A. Wolfe, Nonparametric Statistical Methods, Wiley, 1973,
        ch. 3.
     """
-    _check_choice(alternative, ALTERNATIVES, "alternative")
-    _check_choice(method, WILCOXON_METHODS, "method")
+    check_choice(alternative, ALTERNATIVES, "alternative")
+    check_choice(method, WILCOXON_METHODS, "method")
     a, midrank, pos, neg, t = _signed_rank_parts(values, counts)
     n = int(t.sum())
     t_plus = float(np.sum(pos * midrank))
@@ -335,8 +331,7 @@ def hodges_lehmann_ci(values, counts=None, confidence: float = 0.95) -> tuple[fl
     ----------
     .. [1] M. Hollander and D. A. Wolfe, Nonparametric Statistical Methods, 1973, s. 3.3.
     """
-    if not 0 < confidence < 1:
-        raise UsageError(f"confidence must be in (0, 1), got {confidence}")
+    check_confidence(confidence)
     avg, w, n = _walsh(values, counts)
     if n == 0:
         return (float("nan"), float("nan"))
@@ -386,7 +381,7 @@ def sign_test(values, counts=None, alternative: Alternative = "two-sided") -> Te
     .. [1] W. J. Dixon and A. M. Mood, "The statistical sign test", JASA 41(236):557-566,
        1946. doi:10.1080/01621459.1946.10501898
     """
-    _check_choice(alternative, ALTERNATIVES, "alternative")
+    check_choice(alternative, ALTERNATIVES, "alternative")
     v, c = _values_counts(values, counts)
     k = int(c[v > 0].sum())
     n = k + int(c[v < 0].sum())
@@ -425,7 +420,7 @@ def mcnemar(only_a, only_b, method: McNemarMethod = "exact") -> TestResult:
        doi:10.1007/BF02295996
     .. [2] A. Agresti, Categorical Data Analysis, Wiley, 1990, s. 10.1.
     """
-    _check_choice(method, MCNEMAR_METHODS, "method")
+    check_choice(method, MCNEMAR_METHODS, "method")
     b = np.asarray(only_a, dtype=float)
     c = np.asarray(only_b, dtype=float)
     if np.any(b < 0) or np.any(c < 0) or np.any(b != np.round(b)) or np.any(c != np.round(c)):
@@ -512,8 +507,7 @@ def wilson_interval(successes, trials, confidence: float = 0.95):
     .. [1] E. B. Wilson, "Probable inference, the law of succession, and statistical
        inference", JASA 22(158):209-212, 1927. doi:10.1080/01621459.1927.10502953
     """
-    if not 0 < confidence < 1:
-        raise UsageError(f"confidence must be in (0, 1), got {confidence}")
+    check_confidence(confidence)
     k = np.asarray(successes, dtype=float)
     n = np.asarray(trials, dtype=float)
     if np.any(k < 0) or np.any(k > n):

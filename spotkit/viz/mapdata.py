@@ -20,6 +20,7 @@ import numpy as np
 import pandas as pd
 
 from spotkit import columns as C
+from spotkit._validate import check_choice
 from spotkit.bands import sort_bands
 from spotkit.errors import UsageError
 from spotkit.geo.locator import locator_cell_size, locator_to_latlon
@@ -33,11 +34,6 @@ LEVELS = ("auto", "receiver", "square", "field")
 #: Half the circumference of the Earth along the equator [km]: the edge of a full
 #: azimuthal-equidistant map.
 FULL_EXTENT_KM = 20037.5
-
-
-def _check(value, valid, what):
-    if value not in valid:
-        raise ValueError(f"unknown {what} {value!r}; valid: {', '.join(map(str, valid))}")
 
 
 # --- home ------------------------------------------------------------------------------
@@ -107,7 +103,7 @@ def resolve_side(spots: pd.DataFrame, side: Side = "auto") -> str:
     """Which end of the spots is the home station: ``"transmit"`` (home transmits; far
     stations are receivers) or ``"receive"``. ``"auto"`` picks the end with fewer distinct
     locators."""
-    _check(side, SIDES, "side")
+    check_choice(side, SIDES, "side")
     if side != "auto":
         return side
     n_tx = spots[C.TX_LOCATOR].nunique()
@@ -227,7 +223,7 @@ def difference_cells(result, *, level: Level = "auto", pairs: pd.DataFrame | Non
         ``one_sided`` ("only_a" / "only_b" when just one antenna was heard there, else "").
         Groups without an estimate (too few pairs) keep NaN and are drawn as grey rings.
     """
-    _check(level, LEVELS, "level")
+    check_choice(level, LEVELS, "level")
     groups, pairs = _groups_and_pairs(result, pairs)
     if level == "auto":
         level = next((lv for lv in ("receiver", "square", "field")

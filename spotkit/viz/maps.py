@@ -43,12 +43,12 @@ import numpy as np
 import pandas as pd
 
 from spotkit import columns as C
+from spotkit._validate import check_choice
 from spotkit.errors import UsageError
 from spotkit.viz.mapdata import (
     FULL_EXTENT_KM,
     Level,
     Side,
-    _check,
     _geodesic_samples,
     _groups_and_pairs,
     _ring_step,
@@ -91,7 +91,7 @@ def make_projection(projection: Projection = "azimuthal", home=None):
     """
     import cartopy.crs as ccrs
 
-    _check(projection, PROJECTIONS, "projection")
+    check_choice(projection, PROJECTIONS, "projection")
     if projection == "azimuthal":
         lat, lon = home_latlon(home)
         return ccrs.AzimuthalEquidistant(central_longitude=lon, central_latitude=lat)
@@ -119,7 +119,7 @@ def draw_land(ax, *, resolution: Resolution = "110m", land_color: str = LAND_COL
     """
     import cartopy.crs as ccrs
 
-    _check(resolution, RESOLUTIONS, "resolution")
+    check_choice(resolution, RESOLUTIONS, "resolution")
     if resolution == "110m":
         from spotkit.viz.basemap import land_geometry
 
@@ -219,8 +219,8 @@ def base_map(ax=None, *, projection: Projection = "azimuthal", home=None,
     """
     import matplotlib.pyplot as plt
 
-    _check(projection, PROJECTIONS, "projection")
-    _check(resolution, RESOLUTIONS, "resolution")
+    check_choice(projection, PROJECTIONS, "projection")
+    check_choice(resolution, RESOLUTIONS, "resolution")
     if ax is None:
         crs = make_projection(projection, home)
         fig = fig if fig is not None else plt.figure(figsize=(7, 7))
@@ -352,7 +352,7 @@ def coverage_map(spots: pd.DataFrame, *, bands=None, home=None, side: Side = "au
     import matplotlib.pyplot as plt
     from matplotlib.colors import Normalize
 
-    _check(projection, PROJECTIONS, "projection")
+    check_choice(projection, PROJECTIONS, "projection")
     if home is None:
         home = home_from_spots(spots, side)
     far = far_station_summary(spots, side)
@@ -457,7 +457,7 @@ def difference_map(result, *, level: Level = "auto", band=None, pairs=None, home
     from matplotlib.colors import Normalize
     from matplotlib.lines import Line2D
 
-    _check(projection, PROJECTIONS, "projection")
+    check_choice(projection, PROJECTIONS, "projection")
     cells = difference_cells(result, level=level, pairs=pairs)
     level = cells.attrs["level"]
     _, pairs = _groups_and_pairs(result, pairs)
@@ -587,8 +587,8 @@ def reach_map(pairs: pd.DataFrame, *, band=None, layout: ReachLayout = "side", h
     """
     import matplotlib.pyplot as plt
 
-    _check(layout, REACH_LAYOUTS, "layout")
-    _check(projection, PROJECTIONS, "projection")
+    check_choice(layout, REACH_LAYOUTS, "layout")
+    check_choice(projection, PROJECTIONS, "projection")
     pairs = getattr(pairs, "pairs", pairs)
     st = reach_stations(pairs, band)
     if not len(st):
