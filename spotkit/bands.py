@@ -64,6 +64,20 @@ def band_plan(region: Region = "all") -> pd.DataFrame:
     -------
     pandas.DataFrame
         Columns ``band``, ``low_hz``, ``high_hz`` [Hz], in increasing frequency.
+
+    Examples
+    --------
+    In Region 1, 160 m starts at 1810 kHz (IARU Region 1 HF band plan, 2020); the Region 2
+    40 m band runs to 7300 kHz (IARU Region 2 band plan):
+
+    >>> print(band_plan("1").head(3).to_string(index=False))
+     band    low_hz   high_hz
+    2200m  135700.0  137800.0
+     630m  472000.0  479000.0
+     160m 1810000.0 2000000.0
+    >>> print(band_plan("2").query("band == '40m'").to_string(index=False))
+    band    low_hz   high_hz
+     40m 7000000.0 7300000.0
     """
     check_choice(region, REGIONS, "IARU region")
     rows = []
@@ -104,6 +118,16 @@ def freq_to_band(freq_hz, region: Region = "all") -> np.ndarray:
     References
     ----------
     IARU Region 1 HF Band Plan (2020); IARU Region 2 and Region 3 band plans.
+
+    Examples
+    --------
+    8 MHz is in no amateur band; 5288.7 kHz (a 60 m beacon signal) is in the widest union
+    but outside the Region 1 allocation of 5351.5-5366.5 kHz:
+
+    >>> freq_to_band([14097100, 7040100, 5288700, 8000000]).tolist()
+    ['20m', '40m', '60m', None]
+    >>> freq_to_band(5288700, region="1").tolist()
+    [None]
     """
     plan = band_plan(region)
     f = np.atleast_1d(np.asarray(freq_hz, dtype=float))
@@ -117,13 +141,25 @@ def freq_to_band(freq_hz, region: Region = "all") -> np.ndarray:
 
 
 def band_sort_key(bands) -> np.ndarray:
-    """Position of each band name in :data:`BAND_ORDER` (unknown names last)."""
+    """Position of each band name in :data:`BAND_ORDER` (unknown names last).
+
+    Examples
+    --------
+    >>> band_sort_key(["20m", "160m", "13cm"]).tolist()
+    [7, 2, 16]
+    """
     order = {b: i for i, b in enumerate(BAND_ORDER)}
     return np.array([order.get(b, len(BAND_ORDER)) for b in np.atleast_1d(bands)])
 
 
 def sort_bands(bands) -> list[str]:
-    """Distinct band names in band-plan order."""
+    """Distinct band names in band-plan order.
+
+    Examples
+    --------
+    >>> sort_bands(["20m", "40m", "20m", "10m", None])
+    ['40m', '20m', '10m']
+    """
     uniq = pd.unique(pd.Series(list(np.atleast_1d(bands))).dropna())
     return sorted(uniq, key=lambda b: band_sort_key([b])[0])
 

@@ -36,7 +36,7 @@ REVERSE_BEARING = "reverse_bearing_deg"
 SOURCE_FILE = "source_file"
 SOURCE_ROW = "source_row"
 
-# --- optional path columns (spotkit.geo.geodesic / spotkit.geo.sun helpers) -------------------------
+# --- optional path columns (spotkit.geo.geodesic / spotkit.geo.sun helpers) -------------
 MID_LAT = "mid_lat"
 MID_LON = "mid_lon"
 HOPS = "hops"
@@ -49,7 +49,7 @@ PATH_LIGHT = "path_light"  # "day" | "night" | "greyline" | "mixed" (spotkit.geo
 # --- derived analysis columns -----------------------------------------------------------
 SNR_PER_W = "snr_per_w_db"  # SNR normalised to 1 W (30 dBm) transmit power
 
-# --- A/B pairs (spotkit.compare.pairing) -----------------------------------------------------------
+# --- A/B pairs (spotkit.compare.pairing) ------------------------------------------------
 ANTENNA = "antenna"  # "A" | "B": which antenna a spot belongs to
 CLUSTER = "cluster"  # bootstrap unit: receiver (transmit designs) or transmitter (receive design)
 SNR_A = "snr_a_db"  # A's SNR normalised to 1 W [dB]; NaN when A was not heard
@@ -81,7 +81,7 @@ SLOT_B = "slot_b_utc"  # alternating design: slot of B's transmission paired wit
 SCHEDULE_START = "start"
 SCHEDULE_END = "end"
 
-# --- comparison results (spotkit.compare.estimate) -----------------------------------------------------
+# --- comparison results (spotkit.compare.estimate) --------------------------------------
 B_MINUS_A = "b_minus_a_db"
 CI_LOW = "ci_low_db"
 CI_HIGH = "ci_high_db"
@@ -112,7 +112,7 @@ CLUSTERS = "clusters"  # number of bootstrap clusters (receivers / transmitters)
 NOTE = "note"  # plain-language remark (too few pairs, no interval...)
 GROUP = "group"  # readable group label
 
-# --- reach (spotkit.compare.reach) ------------------------------------------------------------------
+# --- reach (spotkit.compare.reach) ------------------------------------------------------
 STATIONS = "stations"  # distinct far stations reached
 STATIONS_ONLY = "stations_only"  # far stations reached by this antenna and never by the other
 HEARD = "heard"  # pairs in which this antenna was heard
@@ -123,7 +123,7 @@ DISTANCE_MEDIAN = "distance_median_km"  # over the distinct far stations reached
 DISTANCE_P90 = "distance_p90_km"
 DISTANCE_FARTHEST = "distance_farthest_km"
 
-# --- planning (spotkit.plan.duration) and checks against a simulation's truth -------------------------
+# --- planning (spotkit.plan.duration) and checks against a simulation's truth -----------
 HOURS = "hours"  # run length [h]
 SE = "se_db"  # standard error of B minus A [dB]
 CI_WIDTH = "ci_width_db"  # width of the confidence interval of B minus A [dB]
@@ -147,7 +147,16 @@ UTC_DTYPE = pd.DatetimeTZDtype(unit="ns", tz="UTC")
 
 @dataclass(frozen=True)
 class Column:
-    """One glossary entry."""
+    """One glossary entry.
+
+    Examples
+    --------
+    >>> col = GLOSSARY[FREQ]
+    >>> col.name, col.dtype, col.unit
+    ('freq_hz', 'float64', 'Hz')
+    >>> col.description
+    'RF frequency of the received signal'
+    """
 
     name: str
     dtype: object
@@ -171,8 +180,10 @@ GLOSSARY: dict[str, Column] = {
         Column(SNR, "float64", "dB", "signal-to-noise ratio in a 2500 Hz bandwidth, whole dB"),
         Column(POWER, "float64", "dBm", "transmit power the spot reports"),
         Column(DRIFT, "float64", "Hz/min", "frequency drift reported by the decoder (optional)"),
-        Column(TX_LAT, "float64", "deg", "latitude of the centre of the transmitter's locator cell"),
-        Column(TX_LON, "float64", "deg", "longitude of the centre of the transmitter's locator cell"),
+        Column(TX_LAT, "float64", "deg",
+               "latitude of the centre of the transmitter's locator cell"),
+        Column(TX_LON, "float64", "deg",
+               "longitude of the centre of the transmitter's locator cell"),
         Column(RX_LAT, "float64", "deg", "latitude of the centre of the receiver's locator cell"),
         Column(RX_LON, "float64", "deg", "longitude of the centre of the receiver's locator cell"),
         Column(DISTANCE, "float64", "km", "geodesic distance on WGS-84"),
@@ -213,6 +224,16 @@ def apply_dtypes(df: pd.DataFrame) -> pd.DataFrame:
     """Return ``df`` with every glossary column it has cast to the glossary dtype.
 
     Columns not in the glossary are left as they are.
+
+    Examples
+    --------
+    >>> df = pd.DataFrame({"tx_call": ["Q1ABC", "Q2XY"], "snr_db": [-12, -20],
+    ...                    "comment": ["new wire", "old wire"]})
+    >>> out = apply_dtypes(df)
+    >>> str(out["tx_call"].dtype), str(out["snr_db"].dtype)
+    ('category', 'float64')
+    >>> out["comment"].dtype == df["comment"].dtype
+    True
     """
     out = df.copy()
     for name in out.columns:
@@ -226,14 +247,29 @@ def apply_dtypes(df: pd.DataFrame) -> pd.DataFrame:
 
 
 def empty_spots() -> pd.DataFrame:
-    """An empty canonical spot table with the glossary dtypes."""
+    """An empty canonical spot table with the glossary dtypes.
+
+    Examples
+    --------
+    >>> spots = empty_spots()
+    >>> len(spots), spots.columns[:4].tolist()
+    (0, ['time_utc', 'slot_utc', 'tx_call', 'tx_locator'])
+    >>> str(spots["time_utc"].dtype)
+    'datetime64[ns, UTC]'
+    """
     return pd.DataFrame(
         {name: pd.Series(dtype=GLOSSARY[name].dtype) for name in CANONICAL}
     )
 
 
 def empty_rejects() -> pd.DataFrame:
-    """An empty rejects table."""
+    """An empty rejects table.
+
+    Examples
+    --------
+    >>> empty_rejects().columns.tolist()
+    ['source_file', 'source_row', 'field', 'value', 'reason']
+    """
     return pd.DataFrame(
         {
             SOURCE_FILE: pd.Series(dtype="object"),
@@ -246,7 +282,16 @@ def empty_rejects() -> pd.DataFrame:
 
 
 def describe() -> pd.DataFrame:
-    """The glossary as a table (name, dtype, unit, description)."""
+    """The glossary as a table (name, dtype, unit, description).
+
+    Examples
+    --------
+    >>> table = describe()
+    >>> row = table.loc[table["name"] == "snr_db", ["name", "dtype", "unit"]]
+    >>> print(row.to_string(index=False))
+      name   dtype unit
+    snr_db float64   dB
+    """
     return pd.DataFrame(
         [(c.name, str(c.dtype), c.unit, c.description) for c in GLOSSARY.values()],
         columns=["name", "dtype", "unit", "description"],

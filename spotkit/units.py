@@ -30,24 +30,62 @@ POWER_LADDER_DBM = np.array(
 
 
 def dbm_to_watts(dbm):
-    """Convert power in dBm to watts: ``10 ** ((dbm - 30) / 10)``."""
+    """Convert power in dBm to watts: ``10 ** ((dbm - 30) / 10)``.
+
+    Examples
+    --------
+    30 dBm is 1 W and 0 dBm is 1 mW (definition of the dBm):
+
+    >>> float(dbm_to_watts(30))
+    1.0
+    >>> dbm_to_watts([0, 23, 37]).round(3).tolist()
+    [0.001, 0.2, 5.012]
+    """
     return np.power(10.0, (np.asarray(dbm, dtype=float) - 30.0) / 10.0)
 
 
 def watts_to_dbm(watts):
-    """Convert power in watts to dBm: ``10 log10(W) + 30``; 0 W gives -inf."""
+    """Convert power in watts to dBm: ``10 log10(W) + 30``; 0 W gives -inf.
+
+    Examples
+    --------
+    1 W is 30 dBm (definition of the dBm):
+
+    >>> watts_to_dbm([1, 5, 0]).round(2).tolist()
+    [30.0, 36.99, -inf]
+    """
     with np.errstate(divide="ignore"):
         return 10.0 * np.log10(np.asarray(watts, dtype=float)) + 30.0
 
 
 def milliwatts_to_dbm(mw):
-    """Convert power in milliwatts to dBm: ``10 log10(mW)``."""
+    """Convert power in milliwatts to dBm: ``10 log10(mW)``.
+
+    Examples
+    --------
+    1 mW is 0 dBm (definition of the dBm):
+
+    >>> milliwatts_to_dbm([1, 200]).round(2).tolist()
+    [0.0, 23.01]
+    """
     with np.errstate(divide="ignore"):
         return 10.0 * np.log10(np.asarray(mw, dtype=float))
 
 
 def power_to_dbm(values, unit: PowerUnit):
-    """Convert power in ``unit`` (one of ``dBm``, ``W``, ``mW``) to dBm."""
+    """Convert power in ``unit`` (one of ``dBm``, ``W``, ``mW``) to dBm.
+
+    Examples
+    --------
+    >>> power_to_dbm([0.2, 5], "W").round(2).tolist()
+    [23.01, 36.99]
+    >>> power_to_dbm([37], "dBm").tolist()
+    [37.0]
+    >>> power_to_dbm([1], "kW")
+    Traceback (most recent call last):
+    ...
+    spotkit.errors.UsageError: unknown power unit 'kW'; valid: dBm, W, mW
+    """
     if unit == "dBm":
         return np.asarray(values, dtype=float)
     if unit == "W":
@@ -58,7 +96,15 @@ def power_to_dbm(values, unit: PowerUnit):
 
 
 def frequency_to_hz(values, unit: FrequencyUnit):
-    """Convert frequency in ``unit`` (one of ``Hz``, ``kHz``, ``MHz``) to Hz."""
+    """Convert frequency in ``unit`` (one of ``Hz``, ``kHz``, ``MHz``) to Hz.
+
+    Examples
+    --------
+    >>> frequency_to_hz([14.0971, 7.0401], "MHz").tolist()
+    [14097100.0, 7040100.0]
+    >>> float(frequency_to_hz(1838.1, "kHz"))
+    1838100.0
+    """
     scale = _FREQ_SCALE[check_choice(unit, FREQUENCY_UNITS, "frequency unit")]
     return np.asarray(values, dtype=float) * scale
 
@@ -68,6 +114,15 @@ def snr_per_watt(snr_db, power_dbm):
 
     Valid where the receiver's noise is independent of the transmitter: every 10x
     in transmit power is +10 dB of SNR at the same receiver (common practice).
+
+    Examples
+    --------
+    A spot heard at -15 dB from a 5 W (37 dBm) transmitter is -22 dB per watt:
+
+    >>> float(snr_per_watt(-15, 37))
+    -22.0
+    >>> snr_per_watt([-20, -20], [30, 23]).tolist()
+    [-20.0, -13.0]
     """
     return np.asarray(snr_db, dtype=float) - (
         np.asarray(power_dbm, dtype=float) - REFERENCE_POWER_DBM
