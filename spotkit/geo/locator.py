@@ -99,6 +99,13 @@ def is_valid_locator(locators) -> np.ndarray:
     Returns
     -------
     numpy.ndarray of bool
+
+    Examples
+    --------
+    ``Z`` is past the last field letter ``R``; three characters is no valid length:
+
+    >>> is_valid_locator(["JN58td", "jn58", "JZ58", "JN58td25", "JN5", None]).tolist()
+    [True, True, False, True, False, False]
     """
     codes, upper = _distinct(locators)
     return _decode_upper(upper)[2][codes]
@@ -123,6 +130,26 @@ def locator_to_latlon(locators, errors: Literal["raise", "coerce"] = "raise"):
     References
     ----------
     E. Tyson, "Conversion between geodetic and grid locator systems", QST, Jan. 1989, pp. 29-30.
+
+    Examples
+    --------
+    Worked by hand from the table in the module docstring: JN58td starts at longitude
+    -180 + 9*20 + 5*2 + 19*5' = 11.5833 deg and latitude -90 + 13*10 + 8 + 3*2.5' = 48.125 deg;
+    the centre is half a subsquare (2.5' by 1.25') further:
+
+    >>> lat, lon = locator_to_latlon("JN58td")
+    >>> round(lat, 4), round(lon, 4)
+    (48.1458, 11.625)
+    >>> lat, lon = locator_to_latlon(["FN31pr", "IO91lk", "JO62"])
+    >>> lat.round(4).tolist(), lon.round(4).tolist()
+    ([41.7292, 51.4375, 52.5], [-72.7083, -1.0417, 13.0])
+    >>> lat, lon = locator_to_latlon(["JO62qm", "XX99"], errors="coerce")
+    >>> lat.round(4).tolist()
+    [52.5208, nan]
+    >>> locator_to_latlon("JZ58")
+    Traceback (most recent call last):
+    ...
+    spotkit.errors.LocatorError: not a Maidenhead locator: 'JZ58' (expected 2, 4, 6 or 8 ...)
     """
     if errors not in ("raise", "coerce"):
         raise ValueError(f"errors must be 'raise' or 'coerce', not {errors!r}")
@@ -158,6 +185,17 @@ def latlon_to_locator(lat, lon, precision: int = 6):
     References
     ----------
     E. Tyson, "Conversion between geodetic and grid locator systems", QST, Jan. 1989, pp. 29-30.
+
+    Examples
+    --------
+    The cell centres of :func:`locator_to_latlon` encode back to their locators:
+
+    >>> latlon_to_locator(52.5208, 13.375)
+    'JO62qm'
+    >>> latlon_to_locator(52.5208, 13.375, precision=4)
+    'JO62'
+    >>> latlon_to_locator([41.7292, 51.4375], [-72.7083, -1.0417]).tolist()
+    ['FN31pr', 'IO91lk']
     """
     if precision not in LOCATOR_LENGTHS:
         raise ValueError(f"precision must be one of {LOCATOR_LENGTHS}, not {precision!r}")
@@ -196,18 +234,34 @@ def normalize_locator(locators):
     """Canonical spelling: field letters upper case, subsquare letters lower case.
 
     Invalid values become ``None``.
+
+    Examples
+    --------
+    >>> normalize_locator([" jn58TD ", "FN31", "bad!"]).tolist()
+    ['JN58td', 'FN31', None]
     """
     codes, upper = _distinct(locators)
     valid = _decode_upper(upper)[2]
     res = np.array(
-        [s[:4] + s[4:6].lower() + s[6:] if ok else None for s, ok in zip(upper, valid)],
+        [s[:4] + s[4:6].lower() + s[6:] if ok else None
+         for s, ok in zip(upper, valid, strict=True)],
         dtype=object,
     )
     return res[codes]
 
 
 def locator_cell_size(locators):
-    """Cell size (dlon, dlat) [deg] of each locator, from its length."""
+    """Cell size (dlon, dlat) [deg] of each locator, from its length.
+
+    Examples
+    --------
+    In arc-minutes: a square is 2 by 1 deg, a subsquare 5 by 2.5 arc-minutes (the table in
+    the module docstring):
+
+    >>> dlon, dlat = locator_cell_size(["JO", "JO62", "JO62qm"])
+    >>> (dlon * 60).round(2).tolist(), (dlat * 60).round(2).tolist()
+    ([1200.0, 120.0, 5.0], [600.0, 60.0, 2.5])
+    """
     arr = _as_str_array(locators)
     lengths = np.char.str_len(arr)
     pairs = np.clip(lengths // 2, 1, 4) - 1
