@@ -69,6 +69,14 @@ class TestResult:
         The alternative hypothesis.
     z : float, optional
         The standardised statistic, when a normal approximation was used.
+
+    Examples
+    --------
+    >>> r = sign_test([2, 1, -1])
+    >>> r.statistic, r.p_value, r.n, r.method
+    (2.0, 1.0, 3, 'exact')
+    >>> sorted(r.to_dict())
+    ['alternative', 'method', 'n', 'p_value', 'statistic', 'z']
     """
 
     __test__ = False  # not a pytest test class
@@ -149,7 +157,7 @@ def _signed_rank_null_ties(midrank2: np.ndarray, t: np.ndarray) -> np.ndarray:
     top = int(np.sum(midrank2 * t))
     f = np.zeros(top + 1)
     f[0] = 1.0
-    for r2, tk in zip(midrank2.astype(int), t.astype(int)):
+    for r2, tk in zip(midrank2.astype(int), t.astype(int), strict=True):
         g = np.zeros_like(f)
         pj = stats.binom.pmf(np.arange(tk + 1), tk, 0.5)
         for j in range(tk + 1):
@@ -210,6 +218,24 @@ def wilcoxon_signed_rank(values, counts=None, alternative: Alternative = "two-si
        1(6):80-83, 1945. doi:10.2307/3001968
     .. [2] M. Hollander and D. A. Wolfe, Nonparametric Statistical Methods, Wiley, 1973,
        ch. 3.
+
+    Examples
+    --------
+    Six differences without ties: ``T+ = 2 + 3 + 4 + 5 + 6 = 20``. Of the 64 equally likely
+    sign patterns, two give ``T+ >= 20`` and two ``T+ <= 1``, so the exact two-sided p-value
+    is 4/64 (worked by hand; ``scipy.stats.wilcoxon`` gives the same):
+
+    >>> r = wilcoxon_signed_rank([-1, 2, 3, 4, 5, 7])
+    >>> r.statistic, r.p_value, r.n, r.method
+    (20.0, 0.0625, 6, 'exact')
+
+    Compressed whole-dB data (value, how many pairs): ties, so the normal approximation;
+    the 8 zeros are dropped. ``scipy.stats.wilcoxon`` on the 55 expanded differences gives
+    the same p-value:
+
+    >>> r = wilcoxon_signed_rank([-2, -1, 0, 1, 2, 3, 4], counts=[3, 10, 8, 14, 12, 6, 2])
+    >>> r.n, r.method, round(r.z, 3), f"{r.p_value:.2e}"
+    (47, 'normal', 3.7, '2.15e-04')
     """
     check_choice(alternative, ALTERNATIVES, "alternative")
     check_choice(method, WILCOXON_METHODS, "method")
@@ -292,6 +318,15 @@ def hodges_lehmann(values, counts=None) -> float:
     .. [1] J. L. Hodges and E. L. Lehmann, "Estimates of location based on rank tests",
        Ann. Math. Statist. 34(2):598-611, 1963. doi:10.1214/aoms/1177704172
     .. [2] M. Hollander and D. A. Wolfe, Nonparametric Statistical Methods, 1973, s. 3.2.
+
+    Examples
+    --------
+    The Walsh averages of -1, 2, 3 are -1, 0.5, 1, 2, 2.5, 3; their median is 1.5:
+
+    >>> hodges_lehmann([-1, 2, 3])
+    1.5
+    >>> hodges_lehmann([-2, -1, 0, 1, 2, 3, 4], counts=[3, 10, 8, 14, 12, 6, 2])
+    1.0
     """
     avg, w, n = _walsh(values, counts)
     if n == 0:
@@ -330,6 +365,18 @@ def hodges_lehmann_ci(values, counts=None, confidence: float = 0.95) -> tuple[fl
     References
     ----------
     .. [1] M. Hollander and D. A. Wolfe, Nonparametric Statistical Methods, 1973, s. 3.3.
+
+    Examples
+    --------
+    >>> hodges_lehmann_ci([-1, 2, 3, 4, 5, 7, 8, 10, -3, 6])
+    (1.0, 7.0)
+    >>> hodges_lehmann_ci([-2, -1, 0, 1, 2, 3, 4], counts=[3, 10, 8, 14, 12, 6, 2])
+    (0.5, 1.5)
+
+    Three pairs cannot reach 95 %:
+
+    >>> hodges_lehmann_ci([1, 2, 3])
+    (-inf, inf)
     """
     check_confidence(confidence)
     avg, w, n = _walsh(values, counts)
@@ -380,6 +427,15 @@ def sign_test(values, counts=None, alternative: Alternative = "two-sided") -> Te
     ----------
     .. [1] W. J. Dixon and A. M. Mood, "The statistical sign test", JASA 41(236):557-566,
        1946. doi:10.1080/01621459.1946.10501898
+
+    Examples
+    --------
+    9 positive and 1 negative difference (the 5 zeros are dropped): the two-sided p-value is
+    ``2 (1 + 10) / 2**10`` (binomial tail, worked by hand):
+
+    >>> r = sign_test([3, 1, 2, -1, 0], counts=[2, 4, 3, 1, 5])
+    >>> r.statistic, r.n, r.p_value
+    (9.0, 10, 0.021484375)
     """
     check_choice(alternative, ALTERNATIVES, "alternative")
     v, c = _values_counts(values, counts)
@@ -419,6 +475,24 @@ def mcnemar(only_a, only_b, method: McNemarMethod = "exact") -> TestResult:
        proportions or percentages", Psychometrika 12(2):153-157, 1947.
        doi:10.1007/BF02295996
     .. [2] A. Agresti, Categorical Data Analysis, Wiley, 1990, s. 10.1.
+
+    Examples
+    --------
+    3 pairs heard on A only and 12 on B only: the exact p-value is
+    ``2 (1 + 15 + 105 + 455) / 2**15`` and the chi-squared statistic ``9**2 / 15`` (worked by
+    hand):
+
+    >>> r = mcnemar(3, 12)
+    >>> r.statistic, r.n, r.p_value
+    (3.0, 15, 0.03515625)
+    >>> r = mcnemar(3, 12, method="chi2")
+    >>> round(r.statistic, 2), round(r.p_value, 4)
+    (5.4, 0.0201)
+
+    Element-wise, NaN where there is no discordant pair:
+
+    >>> mcnemar([3, 0], [12, 0]).p_value.tolist()
+    [0.03515625, nan]
     """
     check_choice(method, MCNEMAR_METHODS, "method")
     b = np.asarray(only_a, dtype=float)
@@ -464,6 +538,15 @@ def benjamini_hochberg(p_values) -> np.ndarray:
     ----------
     .. [1] Y. Benjamini and Y. Hochberg, "Controlling the false discovery rate", JRSS-B
        57(1):289-300, 1995. doi:10.1111/j.2517-6161.1995.tb02031.x
+
+    Examples
+    --------
+    Sorted, the four p-values scaled by ``m / j`` are 0.04, 0.06, 0.0533, 0.2; the running
+    minimum from the top, in the input order, is the result (``statsmodels``
+    ``multipletests(method="fdr_bh")`` agrees):
+
+    >>> benjamini_hochberg([0.01, 0.04, 0.03, 0.20, float("nan")]).round(4).tolist()
+    [0.04, 0.0533, 0.0533, 0.2, nan]
     """
     p = np.asarray(p_values, dtype=float)
     flat = p.ravel()
@@ -506,6 +589,17 @@ def wilson_interval(successes, trials, confidence: float = 0.95):
     ----------
     .. [1] E. B. Wilson, "Probable inference, the law of succession, and statistical
        inference", JASA 22(158):209-212, 1927. doi:10.1080/01621459.1927.10502953
+
+    Examples
+    --------
+    8 of 10 at 95 % (``statsmodels`` ``proportion_confint(8, 10, method="wilson")`` agrees):
+
+    >>> low, high = wilson_interval(8, 10)
+    >>> round(low, 3), round(high, 3)
+    (0.49, 0.943)
+    >>> low, high = wilson_interval([8, 0], [10, 0])
+    >>> low.round(3).tolist(), high.round(3).tolist()
+    ([0.49, nan], [0.943, nan])
     """
     check_confidence(confidence)
     k = np.asarray(successes, dtype=float)
