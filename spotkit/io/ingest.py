@@ -61,10 +61,10 @@ UTF-8 and Latin-1 is read as Latin-1. Times without a zone are taken as UTC.
 """
 from __future__ import annotations
 
+from collections.abc import Iterator
 from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Iterator
 
 import numpy as np
 import pandas as pd
@@ -106,6 +106,21 @@ class IngestSummary:
         Per file: glossary field -> the column(s) it was read from.
     units : dict of str to dict
         Per file: CLI field -> unit used, marked "(inferred)" when not given.
+
+    Examples
+    --------
+    >>> summary = IngestSummary(rows_read=5, accepted=3, rejected=1, duplicates=1,
+    ...                         rejected_by_reason={"bad locator": 1})
+    >>> summary.balanced
+    True
+    >>> print(summary.text())
+    files read:         0
+    rows read:          5
+    accepted:           3
+    rejected:           1
+      bad locator: 1
+    duplicates removed: 1
+    accepted + rejected + duplicates = rows read: yes (3 + 1 + 1 = 5)
     """
 
     rows_read: int = 0
@@ -159,7 +174,15 @@ class IngestSummary:
 
 @dataclass
 class IngestResult:
-    """What :func:`read_spots` returns: the canonical table, the rejects and the summary."""
+    """What :func:`read_spots` returns: the canonical table, the rejects and the summary.
+
+    Examples
+    --------
+    >>> from spotkit.columns import empty_rejects, empty_spots
+    >>> result = IngestResult(empty_spots(), empty_rejects(), IngestSummary())
+    >>> len(result.spots), result.summary_text().splitlines()[1]
+    (0, 'rows read:          0')
+    """
 
     spots: pd.DataFrame
     rejects: pd.DataFrame
@@ -249,6 +272,23 @@ def iter_spot_chunks(paths, *, mapping=None, units=None, delimiter: Delimiter = 
     ``dedupe_window_days``, per distinct report of the latest days only: the keys of slot
     days more than that many days before the latest day read are forgotten, and a report
     older than that raises :class:`~spotkit.errors.InputError` (time-ordered input only).
+
+    Examples
+    --------
+    A tiny file fits in one chunk (the fast reader parses pieces of at least 4 kB); the
+    summary counts all chunks:
+
+    >>> import pathlib, tempfile
+    >>> rows = ["time,tx call,tx locator,rx call,rx locator,frequency MHz,snr,power dBm",
+    ...         "2024-03-01 10:00:12,Q1ABC,JO62qm,Q2XY,JN58td,14.0971,-12,37",
+    ...         "2024-03-01 10:02:11,Q1ABC,JO62qm,Q3DEF,IO91lk,14.09712,-21,37"]
+    >>> summary = IngestSummary()
+    >>> with tempfile.TemporaryDirectory() as d:
+    ...     path = pathlib.Path(d) / "spots.csv"
+    ...     _ = path.write_text("\\n".join(rows) + "\\n")
+    ...     sizes = [(len(s), len(r)) for s, r in iter_spot_chunks(path, summary=summary)]
+    >>> sizes, summary.accepted
+    ([(2, 0)], 2)
     """
     for cols, rejects in _iter_chunk_columns(
             paths, mapping=mapping, units=units, delimiter=delimiter, header=header,
@@ -355,7 +395,8 @@ def _count(summary, n_read, spots, rejects, n_dup):
         band = spots[C.BAND]
         counts = np.bincount(np.asarray(band.codes)[np.asarray(band.codes) >= 0],
                              minlength=len(band.categories))
-        summary._add_counts({b: k for b, k in zip(band.categories, counts) if k > 0},
+        summary._add_counts({b: k for b, k in zip(band.categories, counts, strict=True)
+                             if k > 0},
                             summary.spots_per_band)
     summary.spots_per_band = {b: summary.spots_per_band[b]
                               for b in BAND_ORDER if b in summary.spots_per_band}
@@ -441,6 +482,40 @@ def read_spots(paths, *, mapping=None, units=None, delimiter: Delimiter = "auto"
         A unit cannot be inferred, or the heading and data rows disagree.
     UsageError
         Bad arguments.
+
+    Examples
+    --------
+    A tiny invented file: the second row repeats the first (a duplicate), ``XX99`` is no
+    locator (``X`` is past the last field letter ``R``). Units come from the headings (MHz,
+    dBm) or are inferred (ISO times); slots start at even minutes. The distances are WGS-84
+    geodesics between the locator cell centres (``geographiclib``'s
+    ``Geodesic.WGS84.Inverse`` gives the same, 502.3 km from JO62qm to JN58td):
+
+    >>> import pathlib, tempfile
+    >>> rows = ["time,tx call,tx locator,rx call,rx locator,frequency MHz,snr,power dBm",
+    ...         "2024-03-01 10:00:12,Q1ABC,JO62qm,Q2XY,JN58td,14.0971,-12,37",
+    ...         "2024-03-01 10:00:12,Q1ABC,JO62qm,Q2XY,JN58td,14.0971,-12,37",
+    ...         "2024-03-01 10:02:11,Q1ABC,JO62qm,Q3DEF,IO91lk,14.09712,-21,37",
+    ...         "2024-03-01 10:04:10,Q1ABC,JO62qm,Q4GH,FN31pr,7.04013,-25,37",
+    ...         "2024-03-01 10:06:00,Q1ABC,XX99,Q2XY,JN58td,14.0971,-12,37"]
+    >>> with tempfile.TemporaryDirectory() as d:
+    ...     path = pathlib.Path(d) / "spots.csv"
+    ...     _ = path.write_text("\\n".join(rows) + "\\n")
+    ...     result = read_spots(path)
+    >>> s = result.summary
+    >>> s.rows_read, s.accepted, s.rejected, s.duplicates, s.balanced
+    (5, 3, 1, 1, True)
+    >>> s.spots_per_band, s.rejected_by_reason
+    ({'40m': 1, '20m': 2}, {'bad locator': 1})
+    >>> table = result.spots[["slot_utc", "rx_call", "band", "snr_db", "distance_km"]]
+    >>> print(table.round({"distance_km": 1}).to_string(index=False))
+                     slot_utc rx_call band  snr_db  distance_km
+    2024-03-01 10:00:00+00:00    Q2XY  20m   -12.0        502.3
+    2024-03-01 10:02:00+00:00   Q3DEF  20m   -21.0        996.2
+    2024-03-01 10:04:00+00:00    Q4GH  40m   -25.0       6244.0
+    >>> print(result.rejects[["source_row", "field", "value", "reason"]].to_string(index=False))
+     source_row      field value      reason
+              5 tx_locator  XX99 bad locator
     """
     summary = IngestSummary()
     spots, rejects = [], []
@@ -488,6 +563,24 @@ def ingest_to_parquet(paths, out_path, *, chunk_rows: int = 1_000_000, rejects_p
     Returns
     -------
     IngestSummary
+
+    Examples
+    --------
+    >>> import pathlib, tempfile
+    >>> rows = ["time,tx call,tx locator,rx call,rx locator,frequency MHz,snr,power dBm",
+    ...         "2024-03-01 10:00:12,Q1ABC,JO62qm,Q2XY,JN58td,14.0971,-12,37",
+    ...         "2024-03-01 10:06:00,Q1ABC,XX99,Q2XY,JN58td,14.0971,-12,37"]
+    >>> with tempfile.TemporaryDirectory() as d:
+    ...     path = pathlib.Path(d) / "spots.csv"
+    ...     _ = path.write_text("\\n".join(rows) + "\\n")
+    ...     summary = ingest_to_parquet(path, pathlib.Path(d) / "out" / "spots.parquet",
+    ...                                 rejects_path=pathlib.Path(d) / "rejects.csv")
+    ...     written = sorted(p.name for p in pathlib.Path(d).rglob("*.*"))
+    ...     spots = load_spots(pathlib.Path(d) / "out" / "spots.parquet")
+    >>> summary.accepted, summary.rejected, written
+    (1, 1, ['rejects.csv', 'spots.csv', 'spots.parquet'])
+    >>> len(spots), spots["rx_call"].tolist()
+    (1, ['Q2XY'])
     """
     import pyarrow.parquet as pq
 
@@ -556,7 +649,22 @@ def _read_kw(kw: dict) -> dict:
 
 
 def write_rejects(rejects: pd.DataFrame, path) -> Path:
-    """Write a rejects table as CSV (UTF-8)."""
+    """Write a rejects table as CSV (UTF-8).
+
+    Examples
+    --------
+    >>> import pathlib, tempfile
+    >>> rejects = pd.DataFrame({"source_file": ["spots.csv"], "source_row": [5],
+    ...                         "field": ["tx_locator"], "value": ["XX99"],
+    ...                         "reason": ["bad locator"]})
+    >>> with tempfile.TemporaryDirectory() as d:
+    ...     path = write_rejects(rejects, pathlib.Path(d) / "rejects.csv")
+    ...     print(path.name)
+    ...     print(path.read_text(encoding="utf-8"), end="")
+    rejects.csv
+    source_file,source_row,field,value,reason
+    spots.csv,5,tx_locator,XX99,bad locator
+    """
     path = Path(path)
     path.parent.mkdir(parents=True, exist_ok=True)
     rejects[C.REJECT_COLUMNS].to_csv(path, index=False)
@@ -576,6 +684,25 @@ def load_spots(source, **kw) -> pd.DataFrame:
     ------
     InputError
         When a CSV gives no accepted row.
+
+    Examples
+    --------
+    A DataFrame comes back as it is; a CSV is read with :func:`read_spots` (a Parquet file
+    is shown under :func:`ingest_to_parquet`):
+
+    >>> from spotkit.columns import empty_spots
+    >>> frame = empty_spots()
+    >>> load_spots(frame) is frame
+    True
+    >>> import pathlib, tempfile
+    >>> rows = ["time,tx call,tx locator,rx call,rx locator,frequency MHz,snr,power dBm",
+    ...         "2024-03-01 10:00:12,Q1ABC,JO62qm,Q2XY,JN58td,14.0971,-12,37"]
+    >>> with tempfile.TemporaryDirectory() as d:
+    ...     path = pathlib.Path(d) / "spots.csv"
+    ...     _ = path.write_text("\\n".join(rows) + "\\n")
+    ...     spots = load_spots(path)
+    >>> spots[["tx_call", "rx_call", "band", "power_dbm"]].to_dict("records")
+    [{'tx_call': 'Q1ABC', 'rx_call': 'Q2XY', 'band': '20m', 'power_dbm': 37.0}]
     """
     if isinstance(source, pd.DataFrame):
         return source
