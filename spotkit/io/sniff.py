@@ -23,9 +23,10 @@ import gzip
 import re
 import unicodedata
 import warnings
+from collections.abc import Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Literal, Sequence
+from typing import Literal
 
 import numpy as np
 import pandas as pd
@@ -360,6 +361,34 @@ def match_headings(headings: Sequence[str]) -> tuple[dict, dict]:
         Glossary name -> list of column positions (0-based).
     problems : dict
         Glossary name -> text describing why it is missing or ambiguous.
+
+    Examples
+    --------
+    Separate date and time columns are joined; ``TxLoc`` splits into ``tx loc``:
+
+    >>> fields, problems = match_headings(
+    ...     ["Date", "Time", "Sender", "TxLoc", "Reporter", "RxGrid", "Freq (MHz)", "SNR dB",
+    ...      "Power dBm", "Drift"])
+    >>> fields
+    {'time_utc': [0, 1], 'tx_call': [2], 'tx_locator': [3], 'rx_call': [4],
+     'rx_locator': [5], 'freq_hz': [6], 'snr_db': [7], 'power_dbm': [8], 'drift_hz': [9]}
+    >>> problems
+    {}
+
+    A call heading without a role takes the one left over:
+
+    >>> fields, problems = match_headings(["time", "call", "locator", "rx call", "rx locator",
+    ...                                    "frequency", "snr", "power"])
+    >>> fields["tx_call"], fields["tx_locator"], problems
+    ([1], [2], {})
+
+    Two calls without roles, and no power column:
+
+    >>> fields, problems = match_headings(["time", "call", "call", "grid", "freq", "snr"])
+    >>> problems["tx_call"]
+    "no heading says transmitter or receiver: 'call', 'call'"
+    >>> problems["power_dbm"]
+    'no heading found'
     """
     cand: dict[str, list[int]] = {f: [] for f in _FIELD_ORDER}
     roleless: dict[str, list[int]] = {"call": [], "locator": []}
@@ -489,6 +518,24 @@ def infer_columns(sample: pd.DataFrame, known: dict | None = None) -> tuple[dict
     -------
     fields, problems : dict
         As :func:`match_headings`.
+
+    Examples
+    --------
+    >>> sample = pd.DataFrame(
+    ...     [["2024-03-01 10:00", "Q1ABC", "JO62qm", "Q2XY", "JN58td", "14.0971", "-12", "37"],
+    ...      ["2024-03-01 10:02", "Q1ABC", "JO62qm", "Q3DEF", "IO91lk", "14.0971", "-21", "37"]])
+    >>> fields, problems = infer_columns(sample)
+    >>> sorted(fields.items())
+    [('freq_hz', [5]), ('power_dbm', [7]), ('snr_db', [6]), ('time_utc', [0])]
+    >>> problems["tx_call"]
+    'calls found in column 2, column 4 but a file without headings does not say which is
+     the transmitter: map one, e.g. --map tx_call=N'
+
+    With the transmitter's call mapped, the rest follows:
+
+    >>> fields, problems = infer_columns(sample, known={"tx_call": [1]})
+    >>> fields["rx_call"], fields["tx_locator"], fields["rx_locator"], problems
+    ([3], [2], [4], {})
     """
     known = dict(known or {})
     used = {i for pos in known.values() for i in pos}
@@ -591,6 +638,19 @@ def infer_frequency_unit(values) -> str:
     ------
     InputError
         When no unit or more than one unit fits.
+
+    Examples
+    --------
+    >>> infer_frequency_unit([14097100, 7040100])
+    'Hz'
+    >>> infer_frequency_unit([14.0971, 10.1401])
+    'MHz'
+    >>> infer_frequency_unit([14097.1])
+    'kHz'
+    >>> infer_frequency_unit([5])
+    Traceback (most recent call last):
+    ...
+    spotkit.errors.InputError: cannot tell the frequency unit (Hz: 0 % in a band, ...
     """
     hits = _band_hits(np.asarray(values, dtype=float))
     best = max(hits, key=hits.get)
@@ -615,6 +675,15 @@ def infer_power_unit(values) -> str:
     ------
     InputError
         When the unit is ambiguous.
+
+    Examples
+    --------
+    >>> infer_power_unit([37, 23, 30]), infer_power_unit([0.2, 5, 1]), infer_power_unit([200, 5000])
+    ('dBm', 'W', 'mW')
+    >>> infer_power_unit([100, 200])
+    Traceback (most recent call last):
+    ...
+    spotkit.errors.InputError: cannot tell the power unit (values [100.0, 200.0]...): give it, ...
     """
     v = np.asarray(values, dtype=float)
     v = v[np.isfinite(v)]
