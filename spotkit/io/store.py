@@ -86,6 +86,23 @@ def write_spots(df: pd.DataFrame, path, *, row_group_rows: int = ROW_GROUP_ROWS)
     -------
     pathlib.Path
         The file written.
+
+    Examples
+    --------
+    >>> import pathlib, tempfile
+    >>> spots = pd.DataFrame({
+    ...     "slot_utc": pd.to_datetime(["2024-03-01 23:58", "2024-03-02 00:00",
+    ...                                 "2024-03-02 00:02"], utc=True),
+    ...     "tx_call": ["Q1ABC"] * 3, "rx_call": ["Q2XY", "Q2XY", "Q3DEF"],
+    ...     "band": ["20m", "20m", "40m"], "snr_db": [-12.0, -15.0, -20.0]})
+    >>> with tempfile.TemporaryDirectory() as d:
+    ...     path = write_spots(spots, pathlib.Path(d) / "out" / "spots.parquet")
+    ...     back = read_spots_parquet(path)
+    >>> path.name, len(back)
+    ('spots.parquet', 3)
+    >>> back.dtypes.astype(str).to_dict()
+    {'slot_utc': 'datetime64[ns, UTC]', 'tx_call': 'category', 'rx_call': 'category',
+     'band': 'category', 'snr_db': 'float64'}
     """
     path = Path(path)
     if path.is_dir():
@@ -117,6 +134,22 @@ def read_spots_parquet(path, *, columns: Sequence[str] | None = None,
     pandas.DataFrame
         The rows, with glossary dtypes; the archive's ``day`` partition key is dropped
         unless it is asked for in ``columns``.
+
+    Examples
+    --------
+    >>> import pathlib, tempfile
+    >>> spots = pd.DataFrame({
+    ...     "slot_utc": pd.to_datetime(["2024-03-01 23:58", "2024-03-02 00:00",
+    ...                                 "2024-03-02 00:02"], utc=True),
+    ...     "tx_call": ["Q1ABC"] * 3, "rx_call": ["Q2XY", "Q2XY", "Q3DEF"],
+    ...     "band": ["20m", "20m", "40m"], "snr_db": [-12.0, -15.0, -20.0]})
+    >>> with tempfile.TemporaryDirectory() as d:
+    ...     path = write_spots(spots, pathlib.Path(d) / "spots.parquet")
+    ...     forty = read_spots_parquet(path, columns=["rx_call", "snr_db"],
+    ...                                filters=[("band", "==", "40m")])
+    >>> print(forty.to_string(index=False))
+    rx_call  snr_db
+      Q3DEF   -20.0
     """
     path = Path(path)
     if not path.exists():
@@ -170,6 +203,23 @@ def dataset_manifest(root) -> dict:
         ``{"format": 1, "partition_by": [...], "batches": [{"token", "sha256", "source",
         "rows", "rejected", "written_utc", "files"}, ...]}``; an empty skeleton when the
         directory has no manifest yet.
+
+    Examples
+    --------
+    >>> import pathlib, tempfile
+    >>> spots = pd.DataFrame({
+    ...     "slot_utc": pd.to_datetime(["2024-03-01 23:58", "2024-03-02 00:00",
+    ...                                 "2024-03-02 00:02"], utc=True),
+    ...     "tx_call": ["Q1ABC"] * 3, "rx_call": ["Q2XY", "Q2XY", "Q3DEF"],
+    ...     "band": ["20m", "20m", "40m"], "snr_db": [-12.0, -15.0, -20.0]})
+    >>> with tempfile.TemporaryDirectory() as d:
+    ...     empty = dataset_manifest(d)
+    ...     _ = append_to_dataset(spots, pathlib.Path(d) / "archive", source="march.csv")
+    ...     manifest = dataset_manifest(pathlib.Path(d) / "archive")
+    >>> empty
+    {'format': 1, 'partition_by': ['band', 'day'], 'batches': []}
+    >>> [(b["source"], b["rows"]) for b in manifest["batches"]]
+    [('march.csv', 3)]
     """
     root = Path(root)
     mpath = root / MANIFEST_NAME
@@ -188,7 +238,19 @@ def _write_manifest(root: Path, manifest: dict) -> None:
 
 
 def file_sha256(path, *, block_bytes: int = 1 << 22) -> str:
-    """SHA-256 of a file's bytes (hex), read in blocks of ``block_bytes`` [bytes]."""
+    """SHA-256 of a file's bytes (hex), read in blocks of ``block_bytes`` [bytes].
+
+    Examples
+    --------
+    The SHA-256 of ``abc`` is the first test vector of FIPS 180-2:
+
+    >>> import pathlib, tempfile
+    >>> with tempfile.TemporaryDirectory() as d:
+    ...     path = pathlib.Path(d) / "abc.txt"
+    ...     _ = path.write_bytes(b"abc")
+    ...     print(file_sha256(path, block_bytes=2))
+    ba7816bf8f01cfea414140de5dae2223b00361a396177a9cb410ff61f20015ad
+    """
     h = hashlib.sha256()
     with open(path, "rb") as fh:
         while True:
@@ -288,7 +350,8 @@ class _Appender:
             reached.add(key)
             writer = self.writers.get(key)
             if writer is None:
-                rel = "/".join(f"{k}={_format_key(k, v)}" for k, v in zip(self.partition_by, key))
+                rel = "/".join(f"{k}={_format_key(k, v)}"
+                               for k, v in zip(self.partition_by, key, strict=True))
                 n = sum(f.startswith(rel + "/") for f in self.files)
                 rel = f"{rel}/part-{self.token}{'' if n == 0 else f'-{n}'}.parquet"
                 path = self.staging / rel
@@ -359,6 +422,28 @@ def append_to_dataset(df: pd.DataFrame, root, *, partition_by: Sequence[str] = P
     -------
     dict
         The manifest entry of this batch (token, sha256, source, rows, files, ...).
+
+    Examples
+    --------
+    The 23:58 slot goes to 1 March, the others to 2 March; each file name carries the
+    batch's random token:
+
+    >>> import pathlib, tempfile
+    >>> spots = pd.DataFrame({
+    ...     "slot_utc": pd.to_datetime(["2024-03-01 23:58", "2024-03-02 00:00",
+    ...                                 "2024-03-02 00:02"], utc=True),
+    ...     "tx_call": ["Q1ABC"] * 3, "rx_call": ["Q2XY", "Q2XY", "Q3DEF"],
+    ...     "band": ["20m", "20m", "40m"], "snr_db": [-12.0, -15.0, -20.0]})
+    >>> with tempfile.TemporaryDirectory() as d:
+    ...     entry = append_to_dataset(spots, pathlib.Path(d), source="march.csv",
+    ...                               source_hash="0123abcd")
+    ...     try:
+    ...         append_to_dataset(spots, pathlib.Path(d), source_hash="0123abcd")
+    ...     except InputError as exc:
+    ...         print("refused:", str(exc).split(";")[-1].strip())
+    refused: not appended again
+    >>> entry["rows"], [f.split("/part-")[0] for f in entry["files"]]
+    (3, ['band=20m/day=2024-03-01', 'band=20m/day=2024-03-02', 'band=40m/day=2024-03-02'])
     """
     root = Path(root)
     manifest = _prepare_root(root, partition_by)
@@ -380,7 +465,7 @@ def append_to_dataset(df: pd.DataFrame, root, *, partition_by: Sequence[str] = P
 
 
 def _now() -> str:
-    return _dt.datetime.now(_dt.timezone.utc).isoformat(timespec="seconds")
+    return _dt.datetime.now(_dt.UTC).isoformat(timespec="seconds")
 
 
 def _prepare_root(root: Path, partition_by: Sequence[str]) -> dict:
@@ -439,6 +524,19 @@ def dataset_filter(*, bands=None, start=None, end=None, tx_calls=None, rx_calls=
     Returns
     -------
     pyarrow.compute.Expression or None
+
+    Examples
+    --------
+    >>> dataset_filter() is None
+    True
+    >>> table = pa.table({"band": ["20m", "40m", "20m"], "rx_call": ["Q2XY", "Q2XY", "Q3DEF"],
+    ...                   "rx_locator": ["JN58td", "IO91lk", "FN31pr"],
+    ...                   "tx_locator": ["JO62qm", "JO62qm", "JO62qm"]})
+    >>> expr = dataset_filter(bands="20m,40m", rx_calls=["q2xy"], partition_by=["band"])
+    >>> table.filter(expr).column("band").to_pylist()
+    ['20m', '40m']
+    >>> table.filter(dataset_filter(locator_prefix="io")).column("rx_call").to_pylist()
+    ['Q2XY']
     """
     terms = []
     if bands is not None:
@@ -449,11 +547,13 @@ def dataset_filter(*, bands=None, start=None, end=None, tx_calls=None, rx_calls=
         if t0 is not None and t1 is not None and t1 <= t0:
             raise UsageError(f"end {t1} is not after start {t0}")
         if t0 is not None:
-            terms.append(pc.field(C.SLOT) >= pa.scalar(t0.to_pydatetime(), pa.timestamp("us", "UTC")))
+            terms.append(pc.field(C.SLOT) >= pa.scalar(t0.to_pydatetime(),
+                                                       pa.timestamp("us", "UTC")))
             if DAY in partition_by:
                 terms.append(pc.field(DAY) >= pa.scalar(t0.date(), pa.date32()))
         if t1 is not None:
-            terms.append(pc.field(C.SLOT) < pa.scalar(t1.to_pydatetime(), pa.timestamp("us", "UTC")))
+            terms.append(pc.field(C.SLOT) < pa.scalar(t1.to_pydatetime(),
+                                                      pa.timestamp("us", "UTC")))
             if DAY in partition_by:
                 terms.append(pc.field(DAY) <= pa.scalar(t1.date(), pa.date32()))
     if tx_calls is not None:
@@ -502,6 +602,24 @@ def read_dataset(root, *, bands=None, start=None, end=None, tx_calls=None, rx_ca
     -------
     pandas.DataFrame
         Matching spots with the glossary dtypes, ordered by partition then file order.
+
+    Examples
+    --------
+    >>> import pathlib, tempfile
+    >>> spots = pd.DataFrame({
+    ...     "slot_utc": pd.to_datetime(["2024-03-01 23:58", "2024-03-02 00:00",
+    ...                                 "2024-03-02 00:02"], utc=True),
+    ...     "tx_call": ["Q1ABC"] * 3, "rx_call": ["Q2XY", "Q2XY", "Q3DEF"],
+    ...     "band": ["20m", "20m", "40m"], "snr_db": [-12.0, -15.0, -20.0]})
+    >>> with tempfile.TemporaryDirectory() as d:
+    ...     _ = append_to_dataset(spots, d)
+    ...     everything = read_dataset(d)
+    ...     selected = read_dataset(d, bands="20m", start="2024-03-02")
+    >>> everything.shape
+    (3, 5)
+    >>> print(selected[["slot_utc", "rx_call", "snr_db"]].to_string(index=False))
+                     slot_utc rx_call  snr_db
+    2024-03-02 00:00:00+00:00    Q2XY   -15.0
     """
     root = Path(root)
     if not root.is_dir():
@@ -534,6 +652,23 @@ def archive_files(root, *, bands=None, start=None, end=None, tx_calls=None, rx_c
     -------
     list of str
         Paths relative to ``root`` (POSIX separators), sorted.
+
+    Examples
+    --------
+    >>> import pathlib, tempfile
+    >>> spots = pd.DataFrame({
+    ...     "slot_utc": pd.to_datetime(["2024-03-01 23:58", "2024-03-02 00:00",
+    ...                                 "2024-03-02 00:02"], utc=True),
+    ...     "tx_call": ["Q1ABC"] * 3, "rx_call": ["Q2XY", "Q2XY", "Q3DEF"],
+    ...     "band": ["20m", "20m", "40m"], "snr_db": [-12.0, -15.0, -20.0]})
+    >>> with tempfile.TemporaryDirectory() as d:
+    ...     _ = append_to_dataset(spots, d)
+    ...     files = archive_files(d)
+    ...     day2 = archive_files(d, start="2024-03-02")
+    >>> [f.split("/part-")[0] for f in files]
+    ['band=20m/day=2024-03-01', 'band=20m/day=2024-03-02', 'band=40m/day=2024-03-02']
+    >>> [f.split("/part-")[0] for f in day2]
+    ['band=20m/day=2024-03-02', 'band=40m/day=2024-03-02']
     """
     root = Path(root)
     if not root.is_dir():
@@ -569,6 +704,24 @@ def read_archive_file(root, file, *, columns: Sequence[str] | None = None, bands
     -------
     pandas.DataFrame
         With the glossary dtypes.
+
+    Examples
+    --------
+    The band comes from the file's directory:
+
+    >>> import pathlib, tempfile
+    >>> spots = pd.DataFrame({
+    ...     "slot_utc": pd.to_datetime(["2024-03-01 23:58", "2024-03-02 00:00",
+    ...                                 "2024-03-02 00:02"], utc=True),
+    ...     "tx_call": ["Q1ABC"] * 3, "rx_call": ["Q2XY", "Q2XY", "Q3DEF"],
+    ...     "band": ["20m", "20m", "40m"], "snr_db": [-12.0, -15.0, -20.0]})
+    >>> with tempfile.TemporaryDirectory() as d:
+    ...     _ = append_to_dataset(spots, d)
+    ...     first = archive_files(d)[0]
+    ...     part = read_archive_file(d, first, columns=["rx_call", "band", "snr_db"])
+    >>> print(part.to_string(index=False))
+    rx_call band  snr_db
+       Q2XY  20m   -12.0
     """
     root = Path(root)
     files = [file] if isinstance(file, (str, os.PathLike)) else list(file)
@@ -614,6 +767,14 @@ def table_to_spots(table: pa.Table) -> pd.DataFrame:
 
     Band categories follow :data:`spotkit.bands.BAND_ORDER` (bands found outside it are
     appended in sorted order); other categoricals take their distinct values, sorted.
+
+    Examples
+    --------
+    >>> table = pa.table({"band": pa.array(["40m", "20m", "160m"]).dictionary_encode(),
+    ...                   "rx_call": ["Q3DEF", "Q2XY", "Q2XY"]})
+    >>> spots = table_to_spots(table)
+    >>> spots["band"].cat.categories.tolist(), spots["rx_call"].cat.categories.tolist()
+    (['160m', '40m', '20m'], ['Q2XY', 'Q3DEF'])
     """
     df = table.to_pandas()
     df = C.apply_dtypes(df)
@@ -626,7 +787,19 @@ def table_to_spots(table: pa.Table) -> pd.DataFrame:
 
 
 def normalise_categories(s: pd.Series, *, band: bool) -> pd.Series:
-    """Drop unused categories and order the rest (bands by band plan, others sorted)."""
+    """Drop unused categories and order the rest (bands by band plan, others sorted).
+
+    Examples
+    --------
+    >>> bands = pd.Series(pd.Categorical(["20m", "160m"], categories=["20m", "40m", "160m"]))
+    >>> normalise_categories(bands, band=True).cat.categories.tolist()
+    ['160m', '20m']
+    >>> calls = pd.Series(pd.Categorical(["Q2XY", "Q1ABC"], categories=["Q2XY", "Q1ABC"]))
+    >>> normalise_categories(calls, band=False).tolist()
+    ['Q2XY', 'Q1ABC']
+    >>> normalise_categories(calls, band=False).cat.categories.tolist()
+    ['Q1ABC', 'Q2XY']
+    """
     codes = s.cat.codes.to_numpy()
     cats = s.cat.categories
     used = np.bincount(codes[codes >= 0], minlength=len(cats)) > 0
