@@ -3,7 +3,8 @@
 :func:`add_group_keys` adds the grouping columns asked for with ``by`` (band, distance
 band, bearing sector, hour of day in UTC or at the path midpoint, elevation angle band
 from the hop geometry, day/night/grey line at the path ends, far station's locator field
-or square, or the far station itself) to a pairs table of :func:`spotkit.compare.pairing.pair_spots`.
+or square, or the far station itself) to a pairs table of
+:func:`spotkit.compare.pairing.pair_spots`.
 :func:`summarise_pairs` compresses the pairs to (group keys, cluster, kind, value, count)
 rows: the statistics need only those, and tables of disjoint data merge by summing the
 counts (:func:`merge_summaries`), which is how the Dask path combines partitions.
@@ -70,7 +71,17 @@ def _positive_hours(hours) -> float:
 
 
 def parse_by(by) -> tuple[str, ...]:
-    """Normalise a ``by`` argument (``"band,distance"`` or a sequence) to a tuple of keys."""
+    """Normalise a ``by`` argument (``"band,distance"`` or a sequence) to a tuple of keys.
+
+    Examples
+    --------
+    >>> parse_by("band, distance"), parse_by(["Hour"]), parse_by(None)
+    (('band', 'distance'), ('hour',), ())
+    >>> parse_by("band,colour")
+    Traceback (most recent call last):
+    ...
+    spotkit.errors.UsageError: unknown group key(s) 'colour'; valid: band, distance, ...
+    """
     if by is None:
         return ()
     if isinstance(by, str):
@@ -83,7 +94,13 @@ def parse_by(by) -> tuple[str, ...]:
 
 
 def group_columns(by) -> list[str]:
-    """Columns that :func:`add_group_keys` adds for the keys in ``by``, in order."""
+    """Columns that :func:`add_group_keys` adds for the keys in ``by``, in order.
+
+    Examples
+    --------
+    >>> group_columns("band,distance,hour")
+    ['band', 'distance_min_km', 'distance_max_km', 'hour']
+    """
     cols = {"band": [C.BAND], "distance": [C.DISTANCE_MIN, C.DISTANCE_MAX],
             "bearing": [C.BEARING_MIN, C.BEARING_MAX], "hour": [C.HOUR],
             "elevation": [C.ELEVATION_MIN, C.ELEVATION_MAX], "light": [C.PATH_LIGHT],
@@ -116,6 +133,31 @@ def add_group_keys(pairs: pd.DataFrame, by=(), *,
     pandas.DataFrame
         A copy with the columns of :func:`group_columns`; rows outside every bin have NaN
         there.
+
+    Examples
+    --------
+    Four invented pairs of a station in JO62qm (bearings and distances towards the far
+    station's locator):
+
+    >>> nan = float("nan")
+    >>> pairs = pd.DataFrame({
+    ...     "cluster": ["Q2XY", "Q2XY", "Q3DEF", "Q4GH"],
+    ...     "band": ["20m", "20m", "20m", "40m"],
+    ...     "slot_utc": pd.to_datetime(["2024-03-01 10:00", "2024-03-01 10:02",
+    ...                                 "2024-03-01 10:00", "2024-03-01 22:04"], utc=True),
+    ...     "far_locator": ["JN58td", "JN58td", "IO91lk", "FN31pr"],
+    ...     "distance_km": [502.3, 502.3, 996.2, 6244.0],
+    ...     "bearing_deg": [195.0, 195.0, 268.8, 296.1],
+    ...     "snr_a_db": [-20.0, -26.0, nan, -27.0], "snr_b_db": [-17.0, -23.0, -25.0, nan],
+    ...     "limit_a_db": [-28.0, -28.0, -29.0, -27.0],
+    ...     "limit_b_db": [-28.0, -28.0, -29.0, -27.0]})
+    >>> keyed = add_group_keys(pairs, "distance,bearing,hour,square")
+    >>> print(keyed[group_columns("distance,bearing,hour,square")].to_string(index=False))
+     distance_min_km  distance_max_km  bearing_min_deg  bearing_max_deg  hour square_locator
+                 0.0           1000.0            180.0            225.0    10           JN58
+                 0.0           1000.0            180.0            225.0    10           JN58
+                 0.0           1000.0            225.0            270.0    10           IO91
+              6000.0          20100.0            270.0            315.0    22           FN31
     """
     keys = parse_by(by)
     check_choice(hour, ("utc", "local"), "hour basis")
@@ -189,6 +231,38 @@ def summarise_pairs(pairs: pd.DataFrame, by=(), *, day_hours: float = DEFAULT_DA
         Columns :func:`group_columns` ``(by)`` (+ ``C.SLOT`` [UTC], before/after) +
         ``C.CLUSTER``, ``C.KIND``, ``C.VALUE`` [dB], ``C.COUNT``. ``attrs["set_aside"]``
         counts pairs outside every group bin.
+
+    Examples
+    --------
+    The pairs of :func:`add_group_keys`: Q2XY heard B 3 dB above A twice; Q3DEF heard only
+    B, 4 dB above A's limit (B - A >= 4 dB); Q4GH heard only A, exactly at its threshold
+    (B - A <= 0 dB, and an ``edge_a`` row):
+
+    >>> nan = float("nan")
+    >>> pairs = pd.DataFrame({
+    ...     "cluster": ["Q2XY", "Q2XY", "Q3DEF", "Q4GH"],
+    ...     "band": ["20m", "20m", "20m", "40m"],
+    ...     "slot_utc": pd.to_datetime(["2024-03-01 10:00", "2024-03-01 10:02",
+    ...                                 "2024-03-01 10:00", "2024-03-01 22:04"], utc=True),
+    ...     "far_locator": ["JN58td", "JN58td", "IO91lk", "FN31pr"],
+    ...     "distance_km": [502.3, 502.3, 996.2, 6244.0],
+    ...     "bearing_deg": [195.0, 195.0, 268.8, 296.1],
+    ...     "snr_a_db": [-20.0, -26.0, nan, -27.0], "snr_b_db": [-17.0, -23.0, -25.0, nan],
+    ...     "limit_a_db": [-28.0, -28.0, -29.0, -27.0],
+    ...     "limit_b_db": [-28.0, -28.0, -29.0, -27.0]})
+    >>> print(summarise_pairs(pairs).to_string(index=False))
+    cluster   kind  value_db  count
+       Q2XY   both       3.0      2
+      Q3DEF only_b       4.0      1
+       Q4GH only_a       0.0      1
+       Q4GH edge_a       0.0      1
+    >>> summarise_pairs(pairs, "band")["band"].tolist()
+    ['20m', '20m', '40m', '40m']
+
+    A pair beyond the last distance edge is set aside:
+
+    >>> summarise_pairs(pairs, "distance", distance_edges=(0, 1000, 3000)).attrs
+    {'set_aside': {'outside the distance_min_km bins': 1}}
     """
     keys = parse_by(by)
     df = add_group_keys(pairs, keys, **group_options) if keys else pairs
@@ -260,7 +334,31 @@ def summarise_pairs(pairs: pd.DataFrame, by=(), *, day_hours: float = DEFAULT_DA
 
 
 def merge_summaries(tables) -> pd.DataFrame:
-    """Combine compressed pair tables of disjoint data by summing ``C.COUNT``."""
+    """Combine compressed pair tables of disjoint data by summing ``C.COUNT``.
+
+    Examples
+    --------
+    Two parts of the pairs of :func:`add_group_keys` give the table of the whole:
+
+    >>> nan = float("nan")
+    >>> pairs = pd.DataFrame({
+    ...     "cluster": ["Q2XY", "Q2XY", "Q3DEF", "Q4GH"],
+    ...     "band": ["20m", "20m", "20m", "40m"],
+    ...     "slot_utc": pd.to_datetime(["2024-03-01 10:00", "2024-03-01 10:02",
+    ...                                 "2024-03-01 10:00", "2024-03-01 22:04"], utc=True),
+    ...     "far_locator": ["JN58td", "JN58td", "IO91lk", "FN31pr"],
+    ...     "distance_km": [502.3, 502.3, 996.2, 6244.0],
+    ...     "bearing_deg": [195.0, 195.0, 268.8, 296.1],
+    ...     "snr_a_db": [-20.0, -26.0, nan, -27.0], "snr_b_db": [-17.0, -23.0, -25.0, nan],
+    ...     "limit_a_db": [-28.0, -28.0, -29.0, -27.0],
+    ...     "limit_b_db": [-28.0, -28.0, -29.0, -27.0]})
+    >>> merged = merge_summaries([summarise_pairs(pairs.iloc[:1]),
+    ...                           summarise_pairs(pairs.iloc[1:])])
+    >>> merged.equals(summarise_pairs(pairs))
+    True
+    >>> merged["count"].tolist()
+    [2, 1, 1, 1]
+    """
     tables = [t for t in tables if len(t)]
     if not tables:
         raise NoPairsError("no pairs in any part of the data")
@@ -271,7 +369,19 @@ def merge_summaries(tables) -> pd.DataFrame:
 
 def group_index(counts: pd.DataFrame, keys: list[str]):
     """(group code of each row, one row per group with its key values, sorted); one
-    group when ``keys`` is empty."""
+    group when ``keys`` is empty.
+
+    Examples
+    --------
+    >>> counts = pd.DataFrame({"band": ["40m", "20m", "40m"], "cluster": ["Q2XY"] * 3,
+    ...                        "kind": ["both"] * 3, "value_db": [1.0, 2.0, 3.0],
+    ...                        "count": [1, 1, 1]})
+    >>> codes, groups = group_index(counts, ["band"])
+    >>> codes.tolist(), groups["band"].tolist()
+    ([1, 0, 1], ['20m', '40m'])
+    >>> group_index(counts, [])[0].tolist()
+    [0, 0, 0]
+    """
     if not keys:
         return np.zeros(len(counts), dtype=np.int64), pd.DataFrame(index=[0])
     codes, uniq = pd.factorize(pd.MultiIndex.from_frame(counts[keys]), sort=True)
