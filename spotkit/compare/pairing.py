@@ -167,6 +167,18 @@ def receiver_thresholds(spots: pd.DataFrame, min_reports: int = 20) -> pd.Series
     -------
     pandas.Series
         Threshold [dB, raw SNR in 2500 Hz] indexed by receiver call.
+
+    Examples
+    --------
+    Q2XY sent 25 reports down to -27 dB; Q3DEF only 3, the lowest -20 dB, so it gets the
+    median threshold of the well-observed receivers unless ``min_reports`` is lowered:
+
+    >>> spots = pd.DataFrame({"rx_call": ["Q2XY"] * 25 + ["Q3DEF"] * 3,
+    ...                       "snr_db": list(range(-27, -2)) + [-20, -15, -10]})
+    >>> receiver_thresholds(spots).to_dict()
+    {'Q2XY': -27.0, 'Q3DEF': -27.0}
+    >>> receiver_thresholds(spots, min_reports=3).to_dict()
+    {'Q2XY': -27.0, 'Q3DEF': -20.0}
     """
     g = spots.groupby(C.RX_CALL, observed=True)[C.SNR].agg(["min", "count"])
     thr = g["min"].astype(float)
@@ -223,7 +235,7 @@ def _finish(merged: pd.DataFrame, set_aside: dict, design: str, cats: dict,
         out[C.SLOT_B] = _to_utc(m["_slot_b"].to_numpy(dtype=np.int64) * _SLOT_NS)
     far_cols = ((C.RX_CALL, C.RX_LOCATOR) if far_side == "rx" else
                 (C.TX_CALL, C.TX_LOCATOR))
-    for col, src in zip([C.FAR_CALL, C.FAR_LOCATOR], far_cols):
+    for col, src in zip([C.FAR_CALL, C.FAR_LOCATOR], far_cols, strict=True):
         out[col] = _decode(m[col], cats[src])
     for col in [C.FAR_LAT, C.FAR_LON]:
         out[col] = m[col].to_numpy(dtype=float)
@@ -260,7 +272,7 @@ def _far_from(df: pd.DataFrame, side: Literal["rx", "tx"]) -> pd.DataFrame:
     else:
         src = [C.TX_CALL, C.TX_LOCATOR, C.TX_LAT, C.TX_LON, C.REVERSE_BEARING]
     dst = [C.FAR_CALL, C.FAR_LOCATOR, C.FAR_LAT, C.FAR_LON, "_bearing"]
-    for s_, d in zip(src, dst):  # in place: ``df`` is the working copy
+    for s_, d in zip(src, dst, strict=True):  # in place: ``df`` is the working copy
         df[d] = df[s_].to_numpy()
     return df
 
@@ -275,7 +287,7 @@ def _combine(arrays, dims=None):
     if dims is None:
         dims = [int(x.max()) + 1 if x.size else 1 for x in arrays]
     key = np.zeros(arrays[0].size, dtype=np.int64)
-    for x, d in zip(arrays, dims):
+    for x, d in zip(arrays, dims, strict=True):
         key = key * d + x
     return key, dims
 
@@ -335,10 +347,10 @@ def _outer(df: pd.DataFrame, ia: np.ndarray, ib: np.ndarray, keys: list[str]) ->
     allk = np.concatenate([parts[0][1], parts[1][1]])
     allk.sort()
     allk = allk[np.r_[True, allk[1:] != allk[:-1]]] if allk.size else allk
-    for k, col in zip(keys, _split(allk, dims)):
+    for k, col in zip(keys, _split(allk, dims), strict=True):
         res[k] = col
     pos = [np.searchsorted(allk, part[1]) for part in parts]
-    for (x, uniq, mean, rows), at in zip(parts, pos):
+    for (x, _uniq, mean, rows), at in zip(parts, pos, strict=True):
         v = np.full(allk.size, np.nan)
         v[at] = mean
         res[f"_snrw_{x}"] = v
@@ -348,7 +360,7 @@ def _outer(df: pd.DataFrame, ia: np.ndarray, ib: np.ndarray, keys: list[str]) ->
     for c in _CARRY:
         col = df[c].to_numpy()
         v = np.full(allk.size, np.nan)
-        for (x, uniq, mean, rows), at in list(zip(parts, pos))[::-1]:  # A over B
+        for (*_, rows), at in list(zip(parts, pos, strict=True))[::-1]:  # A over B
             v[at] = col[rows]
         res[c] = v
     return pd.DataFrame(res, copy=False)
@@ -429,6 +441,16 @@ def read_schedule(source) -> pd.DataFrame:
     pandas.DataFrame
         Columns ``C.SCHEDULE_START``, ``C.SCHEDULE_END`` (UTC), ``C.ANTENNA`` and, when
         given, ``C.BAND``; sorted by start.
+
+    Examples
+    --------
+    >>> table = pd.DataFrame({"start": ["2024-03-01 12:00", "2024-03-01 10:00"],
+    ...                       "end": ["2024-03-01 14:00", "2024-03-01 12:00"],
+    ...                       "antenna": ["b", "A"]})
+    >>> print(read_schedule(table).to_string(index=False))
+                        start                       end antenna
+    2024-03-01 10:00:00+00:00 2024-03-01 12:00:00+00:00       A
+    2024-03-01 12:00:00+00:00 2024-03-01 14:00:00+00:00       B
     """
     name = "schedule"
     if isinstance(source, pd.DataFrame):
@@ -493,6 +515,23 @@ def schedule_antennas(slots, bands, schedule) -> np.ndarray:
     -------
     numpy.ndarray of int8
         0 for A, 1 for B, -1 where the schedule does not cover the slot.
+
+    Examples
+    --------
+    10:00 UTC is slot 300 of the day (even), 10:04 slot 302:
+
+    >>> slots = pd.to_datetime(["2024-03-01 10:00", "2024-03-01 10:02", "2024-03-01 10:04",
+    ...                         "2024-03-01 13:00", "2024-03-01 15:00"], utc=True)
+    >>> bands = ["20m"] * 5
+    >>> schedule_antennas(slots, bands, "even-odd").tolist()
+    [0, 1, 0, 0, 0]
+    >>> schedule_antennas(slots, bands, "every-2").tolist()
+    [0, 0, 1, 1, 1]
+    >>> table = pd.DataFrame({"start": ["2024-03-01 10:00", "2024-03-01 12:00"],
+    ...                       "end": ["2024-03-01 12:00", "2024-03-01 14:00"],
+    ...                       "antenna": ["A", "B"]})
+    >>> schedule_antennas(slots, bands, table).tolist()
+    [0, 0, 0, 1, -1]
     """
     ns = _ns(pd.Series(slots))
     if isinstance(schedule, str) and not Path(schedule).suffix:
@@ -540,7 +579,8 @@ def _match_slots(a_slots: np.ndarray, b_slots: np.ndarray, window: int):
     order = np.lexsort((kind, ev))
     queues = (deque(), deque())
     pa, pb = [], []
-    for t, k in zip(ev[order].tolist(), kind[order].tolist()):  # loop over slots, not spots
+    # loop over slots, not spots
+    for t, k in zip(ev[order].tolist(), kind[order].tolist(), strict=True):
         other = queues[1 - k]
         while other and t - other[0] > limit:
             other.popleft()
@@ -750,6 +790,27 @@ def pair_spots(spots: pd.DataFrame, design: Design, a: str, b: str | None = None
     InputError
         Unknown call (the message lists the calls present), a schedule that covers none of
         the data, missing columns; :class:`~spotkit.errors.NoPairsError` if nothing pairs.
+
+    Examples
+    --------
+    A short simulated run (2.4 hours, one band) with B 3 dB better than A, both at 37 dBm:
+    the limits are each receiver's lowest report minus 7 dB (per-W scale):
+
+    >>> from spotkit.sim.simulate import simulate_spots
+    >>> sim = simulate_spots(days=0.1, n_receivers=30, bands=("20m",), difference_db=3.0,
+    ...                      seed=1)
+    >>> pairs = pair_spots(sim.spots, "simultaneous", "Q1ABC", "Q1ABD")
+    >>> len(pairs), int(pairs["heard_a"].sum()), int(pairs["heard_b"].sum())
+    (42, 41, 42)
+    >>> cols = ["cluster", "far_locator", "snr_a_db", "snr_b_db", "limit_a_db", "limit_b_db"]
+    >>> print(pairs[cols].head(2).to_string(index=False))
+    cluster far_locator  snr_a_db  snr_b_db  limit_a_db  limit_b_db
+      Q0JAS        JN05      -5.0      -2.0       -23.0       -23.0
+      Q0JAS        JN05      -7.0      -2.0       -23.0       -23.0
+    >>> pair_spots(sim.spots, "simultaneous", "Q1ABC", "Q9ZZZ")
+    Traceback (most recent call last):
+    ...
+    spotkit.errors.InputError: B call 'Q9ZZZ' is not a transmitter call in the data; ...
     """
     _check_design(design)
     spots = _validate(spots)
