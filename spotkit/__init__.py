@@ -40,6 +40,7 @@ _LAZY = {
     "locator_to_latlon": "spotkit.geo.locator",
     "latlon_to_locator": "spotkit.geo.locator",
     "geodesic_inverse": "spotkit.geo.geodesic",
+    "geodesic_path": "spotkit.geo.geodesic",
     "freq_to_band": "spotkit.bands",
     # comparing antennas
     "pair_spots": "spotkit.compare.pairing",

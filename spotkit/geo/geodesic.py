@@ -1,25 +1,31 @@
 """Geodesy on the WGS-84 ellipsoid and ionospheric hop geometry of a path.
 
 Distances and azimuths are geodesics on the WGS-84 ellipsoid (a = 6 378 137 m,
-f = 1/298.257223563). Two interchangeable engines compute the inverse problem:
+f = 1/298.257223563), solved with Karney's (2013) algorithms from two libraries:
 
-``"numpy"``
-    A vectorised form of Vincenty's (1975) iteration. Pairs for which it is unreliable -
-    nearly antipodal ones (within about 0.5 deg of arc of the antipode, where the iteration
-    converges slowly or not at all), lines shorter than about 60 m (where round-off spoils
-    the azimuth) including coincident points, points at a pole, and any pair that has not
-    converged after 40 iterations - are handed one by one to geographiclib's
-    implementation of Karney's (2013) algorithm, which is exact to round-off. There are few
-    of them in real data. Away from them, Vincenty's series errs by about 0.1 mm (Karney
-    2013, sec. 1); measured against geographiclib on random and near-antipodal lines, at
-    most 0.08 mm in distance and 4e-8 deg in azimuth - inside the 1 mm and 1e-6 deg to
-    which this module promises to agree with Karney's method.
-``"pyproj"``
-    ``pyproj.Geod.inv`` (PROJ's C implementation of Karney's algorithm), used by ``"auto"``
-    when pyproj is installed (it is an optional dependency). Lines under 100 m also go to
-    geographiclib: PROJ's azimuth on sub-metre lines is off by up to ~1e-3 deg.
+pyproj (``pyproj.Geod(ellps="WGS84")``, PROJ's C implementation)
+    Everything vectorised: :func:`geodesic_inverse`, :func:`geodesic_direct`,
+    :func:`path_midpoint`, :func:`add_path_columns` and :func:`add_path_geometry` (one call
+    per batch of distinct locator pairs), and through them the ingest's pair cache. PROJ
+    releases the GIL while it computes, so big batches can be split over threads.
+geopy (``geopy.distance.geodesic``) and geographiclib (the library geopy calls)
+    One path at a time: :func:`geodesic_path` takes geopy points, (lat, lon) pairs or
+    locators; geopy gives its distance, geographiclib its azimuths (geopy gives none).
+    geographiclib also re-solves the few lines shorter than 1 m in a batch (see below).
 
-The direct problem uses Vincenty's direct series (error about 0.1 mm up to half the globe).
+Known error
+-----------
+Karney's algorithm is accurate to round-off, about 15 nm in distance (Karney 2013, from
+memory). PROJ and geographiclib agree to 1e-8 m in distance on random, near-antipodal,
+polar and +-180-crossing lines (measured with pyproj 3.7.2 / PROJ 9.5.1 against
+geographiclib 2.1). PROJ's azimuth on very short lines is spoilt by round-off: off the
+equator and the poles it errs by about 4e-8 deg m / s, measured at mid-latitudes as
+4e-4 deg at s = 0.1 mm, 4e-6 deg at 1 cm, 9e-8 deg at 1 m, 1e-8 deg at 10 m and 1.4e-9 deg
+at 50 m. Lines with 0 < s < 1 m therefore get their azimuths from geographiclib, one by
+one; with that, azimuths agree with Karney's to 1e-7 deg. Distinct locator cell centres are
+never that close except within about 1.5 deg of a pole (10-character locators), so in spot
+tables this set is empty or tiny. Coincident points (s = 0) need no correction: PROJ
+gives geographiclib's azimuths for them (180 deg north of the equator, 0 deg south of it).
 
 Hop geometry (:func:`hop_count`, :func:`elevation_angle`) uses the textbook mirror model: a
 spherical Earth of radius R0 = 6371 km, reflection at one virtual height h, n equal hops.
@@ -27,18 +33,24 @@ Its error is the model's, not the arithmetic's: real paths have tilted layers, d
 heights per hop and refraction below the reflection point, so an elevation from this model
 is an indication within a few degrees, not a measurement.
 
-Everything is vectorised; geodesics for a spot table are computed once per distinct
-(tx_locator, rx_locator) pair and taken back to rows by integer indexing.
+Everything on arrays is vectorised; geodesics for a spot table are computed once per
+distinct (tx_locator, rx_locator) pair and taken back to rows by integer indexing.
+
+References
+----------
+C. F. F. Karney, "Algorithms for geodesics", J. Geodesy 87:43-55, 2013,
+doi:10.1007/s00190-012-0578-z.
 """
 from __future__ import annotations
 
-from typing import Literal
+import functools
+from typing import NamedTuple
 
 import numpy as np
 import pandas as pd
-from geographiclib.geodesic import Geodesic
 
 from spotkit import columns as C
+from spotkit.errors import UsageError
 from spotkit.geo.locator import locator_to_latlon
 
 #: WGS-84 semi-major axis [m].
@@ -52,34 +64,24 @@ EARTH_RADIUS_KM = 6371.0
 #: Default virtual reflection height [km] (an F2-layer value; common practice).
 DEFAULT_LAYER_HEIGHT_KM = 300.0
 
-GeodesicMethod = Literal["auto", "numpy", "pyproj"]
-GEODESIC_METHODS = ("auto", "numpy", "pyproj")
-
-_EXACT = Geodesic.WGS84
-_MAX_ITER = 40
-_TOL = 1e-13  # relative change of lambda at convergence (absolute for lambda > 1 rad)
-# pairs within this many radians of arc from the antipode go to the exact algorithm
-_ANTIPODAL_MARGIN = np.deg2rad(0.5)
+# lines shorter than this [m] (and not of zero length) get their azimuths from
+# geographiclib instead of PROJ (see the module docstring)
+_SHORT_LINE_M = 1.0
 
 
-def _check_method(method: str) -> str:
-    if method not in GEODESIC_METHODS:
-        raise ValueError(
-            f"unknown geodesic method {method!r}; valid: {', '.join(GEODESIC_METHODS)}"
-        )
-    if method == "auto":
-        try:
-            import pyproj  # noqa: F401
-        except ImportError:  # pragma: no cover - pyproj is installed in the test environment
-            return "numpy"
-        return "pyproj"
-    return method
+@functools.cache
+def _geod():
+    """The WGS-84 ``pyproj.Geod``, made on first use and shared by threads (PROJ's geodesic
+    routines only read it, and pyproj runs them with the GIL released)."""
+    from pyproj import Geod
+
+    return Geod(ellps="WGS84")
 
 
 def _prepare(*args):
     scalar = all(np.ndim(a) == 0 for a in args)
     arrs = np.broadcast_arrays(*[np.atleast_1d(np.asarray(a, dtype=float)) for a in args])
-    return scalar, [np.ascontiguousarray(a, dtype=float) for a in arrs]
+    return scalar, [np.ascontiguousarray(a, dtype=float).ravel() for a in arrs], arrs[0].shape
 
 
 def _wrap180(x):
@@ -94,128 +96,23 @@ def _wrap360(x):
     return np.where(y >= 360.0, 0.0, y)
 
 
-def _exact_inverse(lat1, lon1, lat2, lon2):
-    """geographiclib (Karney) one pair at a time; for the few hard pairs."""
-    n = lat1.size
-    s = np.full(n, np.nan)
-    a1 = np.full(n, np.nan)
-    a2 = np.full(n, np.nan)
-    for i in range(n):
-        if not (np.isfinite(lat1[i]) and np.isfinite(lon1[i])
-                and np.isfinite(lat2[i]) and np.isfinite(lon2[i])):
-            continue
-        r = _EXACT.Inverse(lat1[i], lon1[i], lat2[i], lon2[i])
-        s[i], a1[i], a2[i] = r["s12"], r["azi1"], r["azi2"]
-    return s, a1, a2
+def _karney_azimuths(lat1, lon1, lat2, lon2):
+    """Azimuths at both ends [deg] from geographiclib, pair by pair (for the few short lines)."""
+    from geographiclib.geodesic import Geodesic
+
+    wgs84 = Geodesic.WGS84
+    out = [wgs84.Inverse(*p, Geodesic.AZIMUTH)
+           for p in zip(lat1, lon1, lat2, lon2, strict=True)]
+    return (np.array([r["azi1"] for r in out], dtype=float),
+            np.array([r["azi2"] for r in out], dtype=float))
 
 
-def _vincenty_inverse(lat1, lon1, lat2, lon2):
-    """Vectorised Vincenty inverse; returns (s [m], azi1, azi2 [deg], ok)."""
-    a, b, f = WGS84_A, WGS84_B, WGS84_F
-    L = np.deg2rad(_wrap180(lon2 - lon1))
-    tanU1 = (1.0 - f) * np.tan(np.deg2rad(lat1))
-    tanU2 = (1.0 - f) * np.tan(np.deg2rad(lat2))
-    cosU1 = 1.0 / np.sqrt(1.0 + tanU1 * tanU1)
-    sinU1 = tanU1 * cosU1
-    cosU2 = 1.0 / np.sqrt(1.0 + tanU2 * tanU2)
-    sinU2 = tanU2 * cosU2
-    n = L.size
-    lam = L.copy()
-    sin_sigma = np.zeros(n)
-    cos_sigma = np.ones(n)
-    sigma = np.zeros(n)
-    cos2_alpha = np.ones(n)
-    cos_2sm = np.zeros(n)
-    sin_lam = np.zeros(n)
-    cos_lam = np.ones(n)
-    converged = np.zeros(n, dtype=bool)
-    active = np.flatnonzero(np.isfinite(L) & np.isfinite(tanU1) & np.isfinite(tanU2))
-    with np.errstate(invalid="ignore", divide="ignore"):
-        for _ in range(_MAX_ITER):
-            if active.size == 0:
-                break
-            lm = lam[active]
-            sl, cl = np.sin(lm), np.cos(lm)
-            cu1, su1, cu2, su2 = cosU1[active], sinU1[active], cosU2[active], sinU2[active]
-            t1 = cu2 * sl
-            t2 = cu1 * su2 - su1 * cu2 * cl
-            ss = np.sqrt(t1 * t1 + t2 * t2)
-            cs = su1 * su2 + cu1 * cu2 * cl
-            sg = np.arctan2(ss, cs)
-            sa = cu1 * cu2 * sl / ss
-            c2a = 1.0 - sa * sa
-            c2sm = np.where(c2a != 0.0, cs - 2.0 * su1 * su2 / c2a, 0.0)
-            cc = f / 16.0 * c2a * (4.0 + f * (4.0 - 3.0 * c2a))
-            lam_new = L[active] + (1.0 - cc) * f * sa * (
-                sg + cc * ss * (c2sm + cc * cs * (-1.0 + 2.0 * c2sm * c2sm))
-            )
-            sin_lam[active], cos_lam[active] = sl, cl
-            sin_sigma[active], cos_sigma[active], sigma[active] = ss, cs, sg
-            cos2_alpha[active], cos_2sm[active] = c2a, c2sm
-            lam[active] = lam_new
-            # relative test: on short lines lambda itself is tiny
-            done = np.abs(lam_new - lm) <= _TOL * np.minimum(1.0, np.abs(lam_new))
-            converged[active[done]] = True
-            active = active[~done & np.isfinite(lam_new)]
-        u2 = cos2_alpha * (a * a - b * b) / (b * b)
-        A = 1.0 + u2 / 16384.0 * (4096.0 + u2 * (-768.0 + u2 * (320.0 - 175.0 * u2)))
-        B = u2 / 1024.0 * (256.0 + u2 * (-128.0 + u2 * (74.0 - 47.0 * u2)))
-        d_sigma = B * sin_sigma * (
-            cos_2sm + B / 4.0 * (
-                cos_sigma * (-1.0 + 2.0 * cos_2sm * cos_2sm)
-                - B / 6.0 * cos_2sm * (-3.0 + 4.0 * sin_sigma * sin_sigma)
-                * (-3.0 + 4.0 * cos_2sm * cos_2sm)
-            )
-        )
-        s = b * A * (sigma - d_sigma)
-        azi1 = np.rad2deg(np.arctan2(cosU2 * sin_lam, cosU1 * sinU2 - sinU1 * cosU2 * cos_lam))
-        azi2 = np.rad2deg(np.arctan2(cosU1 * sin_lam, -sinU1 * cosU2 + cosU1 * sinU2 * cos_lam))
-    ok = (
-        converged
-        & (sigma < np.pi - _ANTIPODAL_MARGIN)
-        # lines under ~60 m (and coincident points): round-off in the positions makes
-        # Vincenty's azimuth err by ~1e-6 deg at 1 m; Karney's differencing does not
-        & (sigma > 1e-5)
-        & (np.abs(lat1) < 90.0 - 1e-9) & (np.abs(lat2) < 90.0 - 1e-9)
-        & np.isfinite(s)
-    )
-    return s, azi1, azi2, ok
-
-
-def _numpy_inverse(lat1, lon1, lat2, lon2):
-    s, azi1, azi2, ok = _vincenty_inverse(lat1, lon1, lat2, lon2)
-    hard = np.flatnonzero(~ok)
-    if hard.size:
-        s[hard], azi1[hard], azi2[hard] = _exact_inverse(
-            lat1[hard], lon1[hard], lat2[hard], lon2[hard]
-        )
-    return s, azi1, azi2
-
-
-def _pyproj_inverse(lat1, lon1, lat2, lon2):
-    import pyproj
-
-    geod = pyproj.Geod(ellps="WGS84")
-    bad = ~(np.isfinite(lat1) & np.isfinite(lon1) & np.isfinite(lat2) & np.isfinite(lon2))
-    if bad.any():
-        lat1, lon1, lat2, lon2 = (np.where(bad, 0.0, x) for x in (lat1, lon1, lat2, lon2))
-    az12, az21, s = geod.inv(lon1, lat1, lon2, lat2)
-    az12 = np.asarray(az12, dtype=float)
-    azi2 = np.asarray(az21, dtype=float) + 180.0  # pyproj gives the back azimuth
-    s = np.asarray(s, dtype=float)
-    if bad.any():
-        s[bad] = az12[bad] = azi2[bad] = np.nan
-    # PROJ's azimuth on lines under a metre errs by up to ~1e-3 deg (round-off); such
-    # lines go to geographiclib, as in the numpy path
-    short = np.flatnonzero(s < 100.0)
-    if short.size:
-        s[short], az12[short], azi2[short] = _exact_inverse(
-            lat1[short], lon1[short], lat2[short], lon2[short])
-    return s, az12, azi2
-
-
-def geodesic_inverse(lat1, lon1, lat2, lon2, method: GeodesicMethod = "auto"):
+def geodesic_inverse(lat1, lon1, lat2, lon2):
     """Distance and azimuths of the geodesic between two points on WGS-84.
+
+    Solved by PROJ (``pyproj.Geod.inv``, Karney's algorithm) for all pairs in one call;
+    lines shorter than 1 m get their azimuths from geographiclib (see the module docstring
+    for why).
 
     Parameters
     ----------
@@ -223,9 +120,6 @@ def geodesic_inverse(lat1, lon1, lat2, lon2, method: GeodesicMethod = "auto"):
         First point (latitude, longitude) [deg]; broadcast against the second.
     lat2, lon2 : float or array-like
         Second point [deg].
-    method : {"auto", "numpy", "pyproj"}
-        ``"numpy"``: vectorised Vincenty with hard pairs handed to geographiclib;
-        ``"pyproj"``: PROJ's geodesic; ``"auto"``: pyproj if installed, else numpy.
 
     Returns
     -------
@@ -236,82 +130,41 @@ def geodesic_inverse(lat1, lon1, lat2, lon2, method: GeodesicMethod = "auto"):
     reverse_azimuth_deg : float or numpy.ndarray
         Azimuth at point 2 towards point 1 [deg, 0-360).
 
-    Scalars in give floats out; anything else gives 1-d or broadcast numpy arrays. NaN in
-    gives NaN out. Where the azimuth is not unique (coincident or exactly antipodal points)
-    it is geographiclib's choice (coincident points: 180 deg, reverse 0 deg).
+    Scalars in give floats out; anything else gives 1-d or broadcast numpy arrays. NaN in,
+    or a latitude beyond +-90 deg, gives NaN out. Where the azimuth is not unique
+    (coincident or exactly antipodal points) it is Karney's algorithm's choice (coincident
+    points: 180 deg, reverse 0 deg, north of the equator).
 
     References
     ----------
-    T. Vincenty, "Direct and inverse solutions of geodesics on the ellipsoid with application
-    of nested equations", Survey Review 23(176):88-93, 1975.
     C. F. F. Karney, "Algorithms for geodesics", J. Geodesy 87:43-55, 2013,
     doi:10.1007/s00190-012-0578-z.
     """
-    engine = _check_method(method)
-    scalar, (la1, lo1, la2, lo2) = _prepare(lat1, lon1, lat2, lon2)
-    shape = la1.shape
-    args = [x.ravel() for x in (la1, lo1, la2, lo2)]
+    scalar, (la1, lo1, la2, lo2), shape = _prepare(lat1, lon1, lat2, lon2)
     with np.errstate(invalid="ignore"):
-        off = (np.abs(args[0]) > 90.0) | (np.abs(args[2]) > 90.0)
-    if off.any():  # latitudes beyond the poles give NaN, as in geographiclib
-        args = [np.where(off, np.nan, x) for x in args]
-    if engine == "pyproj":
-        s, azi1, azi2 = _pyproj_inverse(*args)
-    else:
-        s, azi1, azi2 = _numpy_inverse(*args)
-    azi1 = _wrap360(azi1)
-    rev = _wrap360(azi2 + 180.0)
-    out = [np.where(np.isnan(x), np.nan, x).reshape(shape) for x in (s, azi1, rev)]
+        bad = ~(np.isfinite(la1) & np.isfinite(lo1) & np.isfinite(la2) & np.isfinite(lo2)
+                & (np.abs(la1) <= 90.0) & (np.abs(la2) <= 90.0))
+    any_bad = bool(bad.any())
+    if any_bad:  # PROJ gets harmless numbers; the results are NaN-ed afterwards
+        la1, lo1, la2, lo2 = (np.where(bad, 0.0, x) for x in (la1, lo1, la2, lo2))
+    azi, back, s = (np.asarray(x, dtype=float) for x in _geod().inv(lo1, la1, lo2, la2))
+    azi, rev = _wrap360(azi), _wrap360(back)
+    short = np.flatnonzero((s > 0.0) & (s < _SHORT_LINE_M))
+    if short.size:
+        a1, a2 = _karney_azimuths(la1[short], lo1[short], la2[short], lo2[short])
+        azi[short], rev[short] = _wrap360(a1), _wrap360(a2 + 180.0)
+    if any_bad:
+        s[bad] = azi[bad] = rev[bad] = np.nan
+    out = [x.reshape(shape) for x in (s, azi, rev)]
     if scalar:
         return tuple(float(x[0]) for x in out)
     return tuple(out)
 
 
-def _vincenty_direct(lat1, lon1, azi1, dist):
-    a, b, f = WGS84_A, WGS84_B, WGS84_F
-    al1 = np.deg2rad(azi1)
-    sa1, ca1 = np.sin(al1), np.cos(al1)
-    tanU1 = (1.0 - f) * np.tan(np.deg2rad(lat1))
-    cosU1 = 1.0 / np.sqrt(1.0 + tanU1 * tanU1)
-    sinU1 = tanU1 * cosU1
-    sigma1 = np.arctan2(tanU1, ca1)
-    sin_alpha = cosU1 * sa1
-    cos2_alpha = 1.0 - sin_alpha * sin_alpha
-    u2 = cos2_alpha * (a * a - b * b) / (b * b)
-    A = 1.0 + u2 / 16384.0 * (4096.0 + u2 * (-768.0 + u2 * (320.0 - 175.0 * u2)))
-    B = u2 / 1024.0 * (256.0 + u2 * (-128.0 + u2 * (74.0 - 47.0 * u2)))
-    sigma0 = dist / (b * A)
-    sigma = sigma0.copy()
-    for _ in range(_MAX_ITER):
-        c2sm = np.cos(2.0 * sigma1 + sigma)
-        ss, cs = np.sin(sigma), np.cos(sigma)
-        d_sigma = B * ss * (
-            c2sm + B / 4.0 * (
-                cs * (-1.0 + 2.0 * c2sm * c2sm)
-                - B / 6.0 * c2sm * (-3.0 + 4.0 * ss * ss) * (-3.0 + 4.0 * c2sm * c2sm)
-            )
-        )
-        new = sigma0 + d_sigma
-        delta = np.abs(new - sigma)
-        sigma = new
-        if not np.any(delta > 1e-13):
-            break
-    c2sm = np.cos(2.0 * sigma1 + sigma)
-    ss, cs = np.sin(sigma), np.cos(sigma)
-    t = sinU1 * ss - cosU1 * cs * ca1
-    lat2 = np.arctan2(sinU1 * cs + cosU1 * ss * ca1,
-                      (1.0 - f) * np.sqrt(sin_alpha * sin_alpha + t * t))
-    lam = np.arctan2(ss * sa1, cosU1 * cs - sinU1 * ss * ca1)
-    cc = f / 16.0 * cos2_alpha * (4.0 + f * (4.0 - 3.0 * cos2_alpha))
-    L = lam - (1.0 - cc) * f * sin_alpha * (
-        sigma + cc * ss * (c2sm + cc * cs * (-1.0 + 2.0 * c2sm * c2sm))
-    )
-    lon2 = _wrap180(lon1 + np.rad2deg(L))
-    return np.rad2deg(lat2), lon2
-
-
 def geodesic_direct(lat1, lon1, azimuth_deg, distance_m):
     """End point of a geodesic of given start, azimuth and length on WGS-84.
+
+    Solved by PROJ (``pyproj.Geod.fwd``, Karney's algorithm), all points in one call.
 
     Parameters
     ----------
@@ -325,31 +178,29 @@ def geodesic_direct(lat1, lon1, azimuth_deg, distance_m):
     Returns
     -------
     lat2, lon2 : float or numpy.ndarray
-        End point [deg]; longitude wrapped into [-180, 180).
+        End point [deg]; longitude wrapped into [-180, 180). NaN in, or a start latitude
+        beyond +-90 deg, gives NaN out.
 
     References
     ----------
-    T. Vincenty, Survey Review 23(176):88-93, 1975 (direct formulae).
+    C. F. F. Karney, "Algorithms for geodesics", J. Geodesy 87:43-55, 2013 (direct problem).
     """
-    scalar, (la1, lo1, az, d) = _prepare(lat1, lon1, azimuth_deg, distance_m)
-    shape = la1.shape
-    with np.errstate(invalid="ignore"):
-        lat2, lon2 = _vincenty_direct(la1.ravel(), lo1.ravel(), az.ravel(), d.ravel())
-    lat2, lon2 = lat2.reshape(shape), lon2.reshape(shape)
+    scalar, (la1, lo1, az, d), shape = _prepare(lat1, lon1, azimuth_deg, distance_m)
+    lon2, lat2, _ = _geod().fwd(lo1, la1, az, d)
+    lat2 = np.asarray(lat2, dtype=float).reshape(shape)
+    lon2 = _wrap180(np.asarray(lon2, dtype=float)).reshape(shape)
     if scalar:
         return float(lat2[0]), float(lon2[0])
     return lat2, lon2
 
 
-def path_midpoint(lat1, lon1, lat2, lon2, method: GeodesicMethod = "auto"):
+def path_midpoint(lat1, lon1, lat2, lon2):
     """The point halfway along the geodesic between two points on WGS-84.
 
     Parameters
     ----------
     lat1, lon1, lat2, lon2 : float or array-like
         End points [deg].
-    method : {"auto", "numpy", "pyproj"}
-        Engine for the inverse problem (see :func:`geodesic_inverse`).
 
     Returns
     -------
@@ -359,10 +210,105 @@ def path_midpoint(lat1, lon1, lat2, lon2, method: GeodesicMethod = "auto"):
 
     References
     ----------
-    C. F. F. Karney, J. Geodesy 87:43-55, 2013; T. Vincenty, Survey Review 23(176), 1975.
+    C. F. F. Karney, "Algorithms for geodesics", J. Geodesy 87:43-55, 2013 (the inverse
+    problem, then the direct one for half the distance).
     """
-    s, azi1, _ = geodesic_inverse(lat1, lon1, lat2, lon2, method=method)
+    s, azi1, _ = geodesic_inverse(lat1, lon1, lat2, lon2)
     return geodesic_direct(lat1, lon1, azi1, np.multiply(s, 0.5))
+
+
+# --- one path ------------------------------------------------------------------------------
+
+
+class GeodesicPath(NamedTuple):
+    """Distance and bearings of one path (see :func:`geodesic_path`)."""
+
+    #: Geodesic distance [km].
+    distance_km: float
+    #: Azimuth at the start towards the end [deg clockwise from true north, 0-360).
+    bearing_deg: float
+    #: Azimuth at the end towards the start [deg, 0-360).
+    reverse_bearing_deg: float
+
+
+def _endpoint(value, name: str) -> tuple[float, float]:
+    """(lat, lon) [deg] of a geopy point, a (lat, lon) pair or a Maidenhead locator."""
+    from geopy.point import Point
+
+    if isinstance(value, Point):
+        lat, lon = value.latitude, value.longitude
+    elif isinstance(value, str):
+        lat, lon = locator_to_latlon(value)  # LocatorError if malformed
+    else:
+        try:
+            lat, lon = (float(x) for x in value)
+        except (TypeError, ValueError):
+            raise UsageError(
+                f"{name} must be a geopy Point, a (lat, lon) pair in degrees or a Maidenhead "
+                f"locator, not {value!r}") from None
+    lat, lon = float(lat), float(lon)
+    if not (np.isfinite(lat) and np.isfinite(lon)):
+        raise UsageError(f"{name}: latitude and longitude must be finite, got ({lat}, {lon})")
+    if abs(lat) > 90.0:
+        raise UsageError(f"{name}: latitude {lat} deg is outside -90..90 deg")
+    return lat, lon
+
+
+def geodesic_path(start, end) -> GeodesicPath:
+    """Distance and both bearings of the geodesic between two places on WGS-84.
+
+    For one path at a time, with the places in whatever form is at hand; for many paths use
+    the vectorised :func:`geodesic_inverse`.
+
+    Parameters
+    ----------
+    start, end : geopy.point.Point, (float, float) or str
+        A geopy point (its altitude is ignored: the geodesic runs on the ellipsoid), a
+        ``(lat, lon)`` pair [deg], or a Maidenhead locator (the centre of its cell, see
+        :func:`spotkit.geo.locator.locator_to_latlon`). Longitudes may be given in any
+        range.
+
+    Returns
+    -------
+    GeodesicPath
+        ``distance_km`` [km] from ``geopy.distance.geodesic``; ``bearing_deg``, the azimuth
+        at ``start`` towards ``end``, and ``reverse_bearing_deg``, the azimuth at ``end``
+        towards ``start`` [deg clockwise from true north, 0-360), from geographiclib's
+        ``Geodesic.WGS84.Inverse`` (geopy gives no azimuths). For coincident places the
+        distance is 0 and the bearings are Karney's algorithm's choice.
+
+    Raises
+    ------
+    spotkit.errors.LocatorError
+        A string is not a valid Maidenhead locator.
+    spotkit.errors.UsageError
+        A place is neither of the accepted forms, or its latitude is outside -90..90 deg or
+        not finite. (These are bad arguments, not bad data: the CLI maps them to exit code
+        2.)
+
+    References
+    ----------
+    C. F. F. Karney, "Algorithms for geodesics", J. Geodesy 87:43-55, 2013,
+    doi:10.1007/s00190-012-0578-z.
+
+    Examples
+    --------
+    >>> from spotkit.geo import geodesic_path
+    >>> path = geodesic_path("JN58td", "FN31pr")
+    >>> round(path.distance_km, 1), round(path.bearing_deg, 1), round(path.reverse_bearing_deg, 1)
+    (6353.1, 297.7, 52.4)
+    >>> round(geodesic_path((0.0, 0.0), (0.0, 1.0)).distance_km, 4)  # a * pi / 180
+    111.3195
+    """
+    from geographiclib.geodesic import Geodesic
+    from geopy.distance import geodesic
+
+    lat1, lon1 = _endpoint(start, "start")
+    lat2, lon2 = _endpoint(end, "end")
+    dist_km = geodesic((lat1, lon1), (lat2, lon2), ellipsoid="WGS-84").km
+    r = Geodesic.WGS84.Inverse(lat1, lon1, lat2, lon2, Geodesic.AZIMUTH)
+    return GeodesicPath(float(dist_km), float(_wrap360(r["azi1"])),
+                        float(_wrap360(r["azi2"] + 180.0)))
 
 
 # --- hop geometry ---------------------------------------------------------------------
@@ -512,10 +458,9 @@ def _with_columns(df: pd.DataFrame, new: dict) -> pd.DataFrame:
     return pd.concat([df, pd.DataFrame(new, index=df.index, copy=False)], axis=1)
 
 
-def _path_columns(pairs: _Pairs, method):
+def _path_columns(pairs: _Pairs):
     """Row columns of :func:`add_path_columns`, and the per-pair distance and azimuth."""
-    s, azi, rev = geodesic_inverse(pairs.lat1, pairs.lon1, pairs.lat2, pairs.lon2,
-                                   method=method)
+    s, azi, rev = geodesic_inverse(pairs.lat1, pairs.lon1, pairs.lat2, pairs.lon2)
     cols = {
         C.TX_LAT: pairs.tx_lat[pairs.tx_codes],
         C.TX_LON: pairs.tx_lon[pairs.tx_codes],
@@ -528,7 +473,7 @@ def _path_columns(pairs: _Pairs, method):
     return cols, s, azi
 
 
-def add_path_columns(df: pd.DataFrame, method: GeodesicMethod = "auto") -> pd.DataFrame:
+def add_path_columns(df: pd.DataFrame) -> pd.DataFrame:
     """Add locator positions, distance and bearings to a spot table.
 
     Each distinct locator is decoded once and each distinct (tx, rx) locator pair is solved
@@ -538,8 +483,6 @@ def add_path_columns(df: pd.DataFrame, method: GeodesicMethod = "auto") -> pd.Da
     ----------
     df : pandas.DataFrame
         Has ``C.TX_LOCATOR`` and ``C.RX_LOCATOR`` (categorical or string).
-    method : {"auto", "numpy", "pyproj"}
-        Geodesic engine (see :func:`geodesic_inverse`).
 
     Returns
     -------
@@ -554,12 +497,12 @@ def add_path_columns(df: pd.DataFrame, method: GeodesicMethod = "auto") -> pd.Da
     ----------
     C. F. F. Karney, "Algorithms for geodesics", J. Geodesy 87:43-55, 2013.
     """
-    cols, _, _ = _path_columns(_Pairs(df), method)
+    cols, _, _ = _path_columns(_Pairs(df))
     return _with_columns(df, cols)
 
 
-def add_path_geometry(df: pd.DataFrame, layer_height_km=DEFAULT_LAYER_HEIGHT_KM,
-                      method: GeodesicMethod = "auto") -> pd.DataFrame:
+def add_path_geometry(df: pd.DataFrame,
+                      layer_height_km=DEFAULT_LAYER_HEIGHT_KM) -> pd.DataFrame:
     """Add path midpoint, hop count and elevation angle to a spot table.
 
     Computed once per distinct (tx_locator, rx_locator) pair. The columns of
@@ -572,8 +515,6 @@ def add_path_geometry(df: pd.DataFrame, layer_height_km=DEFAULT_LAYER_HEIGHT_KM,
         Has ``C.TX_LOCATOR`` and ``C.RX_LOCATOR``, and optionally the path columns.
     layer_height_km : float
         Virtual reflection height h [km] of the hop model.
-    method : {"auto", "numpy", "pyproj"}
-        Geodesic engine, if the path columns must be computed.
 
     Returns
     -------
@@ -583,8 +524,8 @@ def add_path_geometry(df: pd.DataFrame, layer_height_km=DEFAULT_LAYER_HEIGHT_KM,
 
     References
     ----------
-    Spherical-Earth mirror hop model (see :func:`elevation_angle`); Vincenty (1975) direct
-    problem for the midpoint.
+    Spherical-Earth mirror hop model (see :func:`elevation_angle`); C. F. F. Karney,
+    J. Geodesy 87:43-55, 2013, direct problem for the midpoint.
     """
     pairs = _Pairs(df)
     have = [C.TX_LAT, C.TX_LON, C.RX_LAT, C.RX_LON, C.DISTANCE, C.BEARING]
@@ -594,7 +535,7 @@ def add_path_geometry(df: pd.DataFrame, layer_height_km=DEFAULT_LAYER_HEIGHT_KM,
         s = df[C.DISTANCE].to_numpy(dtype=float)[first] * 1000.0
         azi = df[C.BEARING].to_numpy(dtype=float)[first]
     else:
-        cols, s, azi = _path_columns(pairs, method)
+        cols, s, azi = _path_columns(pairs)
     mlat, mlon = geodesic_direct(pairs.lat1, pairs.lon1, azi, s / 2.0)
     dist_km = s / 1000.0
     hops = hop_count(dist_km, layer_height_km)
@@ -610,7 +551,7 @@ def add_path_geometry(df: pd.DataFrame, layer_height_km=DEFAULT_LAYER_HEIGHT_KM,
 
 __all__ = [
     "WGS84_A", "WGS84_F", "WGS84_B", "EARTH_RADIUS_KM", "DEFAULT_LAYER_HEIGHT_KM",
-    "GEODESIC_METHODS", "geodesic_inverse", "geodesic_direct", "path_midpoint",
+    "geodesic_inverse", "geodesic_direct", "path_midpoint", "GeodesicPath", "geodesic_path",
     "max_hop_distance", "hop_count", "elevation_angle", "add_path_columns",
     "add_path_geometry",
 ]
