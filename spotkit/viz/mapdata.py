@@ -57,9 +57,9 @@ def home_latlon(home) -> tuple[float, float]:
 def _geodesic_samples(lat1, lon1, lat2, lon2, n: int):
     """n points along each WGS-84 geodesic from (lat1, lon1) to (lat2, lon2); arrays (k, n).
 
-    Uses PROJ's geodesic routines (Karney's algorithm, via pyproj, a dependency of the maps
-    extra): about ten times faster than :func:`spotkit.geo.geodesic.geodesic_direct` for the millions
-    of points of a big path map, and just as exact.
+    Uses PROJ's geodesic routines (Karney's algorithm, via pyproj) directly, as
+    :mod:`spotkit.geo.geodesic` does, without its checks of the input and short-line azimuths,
+    which a drawing does not need.
     """
     from pyproj import Geod
 
