@@ -35,7 +35,7 @@ def test_tyson_encode_examples(lat, lon, loc):
 
 
 def test_tyson_examples_vectorised_and_inside_their_cell():
-    lat, lon, locs = (np.array(x) for x in zip(*TYSON))
+    lat, lon, locs = (np.array(x) for x in zip(*TYSON, strict=True))
     assert list(latlon_to_locator(lat, lon)) == list(locs)
     clat, clon = locator_to_latlon(locs)
     # a 6-character cell is 5' x 2.5' (IARU Region 1 definition): the point lies within
