@@ -64,6 +64,20 @@ def place_stations(n: int, rng: np.random.Generator, regions: pd.DataFrame | Non
     -------
     lat, lon : numpy.ndarray
         [deg].
+
+    Examples
+    --------
+    With one box of 1 by 1 deg, every station lands in it (where exactly depends on the
+    generator):
+
+    >>> box = pd.DataFrame({"lat_min": [52.0], "lat_max": [53.0], "lon_min": [13.0],
+    ...                     "lon_max": [14.0], "weight": [1.0]})
+    >>> lat, lon = place_stations(200, np.random.default_rng(1), box)
+    >>> lat.shape, bool((lat >= 52).all() and (lat < 53).all() and (lon >= 13).all())
+    ((200,), True)
+    >>> lat, lon = place_stations(1000, np.random.default_rng(1))
+    >>> bool((lat >= STATION_REGIONS["lat_min"].min()).all())
+    True
     """
     reg = STATION_REGIONS if regions is None else regions
     w = reg["weight"].to_numpy(float)
@@ -74,7 +88,16 @@ def place_stations(n: int, rng: np.random.Generator, regions: pd.DataFrame | Non
 
 
 def invent_calls(n: int, rng: np.random.Generator, exclude=()) -> np.ndarray:
-    """``n`` distinct invented callsigns with the Q prefix (never issued to amateurs)."""
+    """``n`` distinct invented callsigns with the Q prefix (never issued to amateurs).
+
+    Examples
+    --------
+    >>> calls = invent_calls(500, np.random.default_rng(2), exclude=["Q1ABC"])
+    >>> len(set(calls)), "Q1ABC" in set(calls)
+    (500, False)
+    >>> all(c.startswith("Q") and c[1].isdigit() for c in calls), sorted({len(c) for c in calls})
+    (True, [4, 5])
+    """
     letters = np.array(list("ABCDEFGHIJKLMNOPQRSTUVWXYZ"))
     taken = {str(c).upper() for c in exclude}
     out: list[str] = []
@@ -82,7 +105,8 @@ def invent_calls(n: int, rng: np.random.Generator, exclude=()) -> np.ndarray:
         m = 2 * (n - len(out)) + 10
         digit = rng.integers(0, 10, m).astype(str)
         k = rng.integers(2, 4, m)
-        suffix = ["".join(s[:j]) for s, j in zip(letters[rng.integers(0, 26, (m, 3))], k)]
+        suffix = ["".join(s[:j])
+                  for s, j in zip(letters[rng.integers(0, 26, (m, 3))], k, strict=True)]
         for c in np.char.add(np.char.add("Q", digit), np.array(suffix)):
             if c not in taken:
                 taken.add(c)
