@@ -24,9 +24,9 @@ Run length (:func:`duration_closed_form`, :func:`duration_by_simulation`,
       it.
 
     The simulation runs :func:`spotkit.sim.simulate.simulate_spots` and
-    :func:`spotkit.compare.estimate.compare_antennas` for a few run lengths and many seeds and counts how
-    often the confidence interval excludes zero (empirical power, with a Wilson interval) and
-    how wide it is. Its Monte-Carlo error is reported beside it.
+    :func:`spotkit.compare.estimate.compare_antennas` for a few run lengths and many seeds and
+    counts how often the confidence interval excludes zero (empirical power, with a Wilson
+    interval) and how wide it is. Its Monte-Carlo error is reported beside it.
 
 Switching schedules live in :mod:`spotkit.plan.schedule` and the audit of a finished run in
 :mod:`spotkit.plan.audit`; their public names are re-exported here (``plan.make_schedule``,
@@ -60,8 +60,9 @@ JASA 22:209-212, 1927.
 from __future__ import annotations
 
 import math
+from collections.abc import Sequence
 from dataclasses import dataclass
-from typing import Literal, Sequence
+from typing import Literal
 
 import numpy as np
 import pandas as pd
@@ -117,6 +118,16 @@ def pairs_needed(effect_db: float, *, sigma_db: float, alpha: float = 0.05,
     ----------
     Chow, Shao & Wang, *Sample Size Calculations in Clinical Research*, 2nd ed., 2008,
     sec. 3.1 [from memory].
+
+    Examples
+    --------
+    With the standard normal quantiles ``z_0.975 = 1.960`` and ``z_0.8 = 0.842``,
+    ``(2.802 * 3 / 1)^2 = 70.6`` pairs; half the effect needs four times the pairs:
+
+    >>> round(pairs_needed(1.0, sigma_db=3.0), 1)
+    70.6
+    >>> round(pairs_needed(2.0, sigma_db=3.0), 2), round(pairs_needed(0.5, sigma_db=3.0), 1)
+    (17.66, 282.6)
     """
     alpha = _check_prob(alpha, "alpha")
     power = _check_prob(power, "power")
@@ -166,6 +177,15 @@ def censoring_information(censored_fraction, *, only_b_share: float = 0.5) -> np
     References
     ----------
     J. Tobin, Econometrica 26:24-36 (1958).
+
+    Examples
+    --------
+    The three cases named above:
+
+    >>> censoring_information([0.0, 0.5]).round(3).tolist()
+    [1.0, 0.879]
+    >>> censoring_information(0.5, only_b_share=1.0).round(3).tolist()
+    0.659
     """
     p = np.asarray(censored_fraction, dtype=float)
     if np.any(~np.isfinite(p)) or np.any(p < 0) or np.any(p >= 1):
@@ -220,7 +240,16 @@ def _variance_terms(sigma_db, icc, clusters, censored_fraction, censoring_factor
 
 @dataclass(frozen=True)
 class DurationEstimate:
-    """Closed-form run length; see :func:`duration_closed_form`."""
+    """Closed-form run length; see :func:`duration_closed_form`.
+
+    Examples
+    --------
+    >>> est = duration_closed_form(1.0, sigma_db=3.0, pairs_per_hour=100)
+    >>> est.feasible, round(float(est.hours), 2), round(float(est.ci_width_db), 2)
+    (True, 0.71, 1.4)
+    >>> sorted(est.to_dict())[:4]
+    ['alpha', 'censored_fraction', 'censoring_factor', 'ci_width_db']
+    """
 
     effect_db: float
     hours: float
@@ -305,6 +334,28 @@ def duration_closed_form(effect_db: float, *, sigma_db: float, pairs_per_hour: f
     ----------
     Chow, Shao & Wang (2008), sec. 3.1 [from memory]; Kish, *Survey Sampling* (1965)
     [from memory]; Tobin, Econometrica 26:24-36 (1958).
+
+    Examples
+    --------
+    Without clustering or censoring the answer is :func:`pairs_needed` over the rate:
+
+    >>> print(duration_closed_form(1.0, sigma_db=3.0, pairs_per_hour=100))
+    0.7 h (71 pairs at 100 pairs/h) to detect 1 dB with power 0.8 at alpha 0.05; 70.6 pairs
+    without clustering or censoring, x1.00 for clustering, /1.000 for censoring; expected CI
+    width 1.40 dB.
+
+    With 40 receivers, a small intraclass correlation and 30 % one-sided pairs:
+
+    >>> est = duration_closed_form(1.0, sigma_db=3.0, pairs_per_hour=100, icc=0.02,
+    ...                            clusters=40, censored_fraction=0.3)
+    >>> [round(float(x), 3) for x in (est.pairs, est.design_effect, est.censoring_factor)]
+    [76.218, 1.018, 0.942]
+
+    Five receivers that disagree a lot: no run length is enough:
+
+    >>> est = duration_closed_form(1.0, sigma_db=3.0, pairs_per_hour=100, icc=0.5, clusters=5)
+    >>> float(est.hours), est.feasible
+    (inf, False)
     """
     n0 = pairs_needed(effect_db, sigma_db=sigma_db, alpha=alpha, power=power)
     if not pairs_per_hour > 0:
@@ -351,6 +402,18 @@ censoring_factor
         ``hours`` [h], ``pairs``, ``se_db`` (standard error of the estimate) [dB],
         ``ci_width_db`` (expected width of the ``1 - alpha`` interval) [dB], ``power``
         (two-sided, both tails).
+
+    Examples
+    --------
+    1 hour of 100 pairs: SE ``3 / sqrt(100) = 0.3`` dB:
+
+    >>> table = power_closed_form([0.5, 1, 2, 4], 1.0, sigma_db=3.0, pairs_per_hour=100)
+    >>> print(table.round(3).to_string(index=False))
+     hours  pairs  se_db  ci_width_db  power
+       0.5   50.0  0.424        1.663  0.654
+       1.0  100.0  0.300        1.176  0.915
+       2.0  200.0  0.212        0.832  0.997
+       4.0  400.0  0.150        0.588  1.000
     """
     _check_prob(alpha, "alpha")
     h = np.atleast_1d(np.asarray(hours, dtype=float))
@@ -405,6 +468,18 @@ class PilotParameters:
         Receivers (clusters) with at least one pair.
     se_db : float
         The pilot's own cluster-bootstrap standard error [dB].
+
+    Examples
+    --------
+    See :func:`pilot_parameters` for a pilot measured from spots; by hand:
+
+    >>> pilot = PilotParameters(band="20m", hours=24.0, pairs=2400, pairs_per_hour=100.0,
+    ...                         mean_db=1.2, sigma_db=3.0, censored_fraction=0.3,
+    ...                         censoring_factor=0.94, design_effect=2.0, icc=0.02,
+    ...                         clusters=40.0, receivers=55, se_db=0.1)
+    >>> pilot.closed_form_inputs()
+    {'sigma_db': 3.0, 'pairs_per_hour': 100.0, 'icc': 0.02, 'clusters': 40.0,
+     'censored_fraction': 0.3, 'censoring_factor': 0.94}
     """
 
     band: str | None
@@ -486,6 +561,22 @@ def pilot_parameters(spots: pd.DataFrame, design: str, a: str, b: str | None = N
     ----------
     Kish, *Survey Sampling* (1965) [from memory]; Tobin, Econometrica 26:24-36 (1958);
     Davison & Hinkley, *Bootstrap Methods and their Application* (1997), sec. 3.8.
+
+    Examples
+    --------
+    A simulated 2.4-hour pilot (B 3 dB better than A; only 42 pairs, so the measured
+    design effect is itself uncertain):
+
+    >>> from spotkit.sim.simulate import simulate_spots
+    >>> sim = simulate_spots(days=0.1, n_receivers=30, bands=("20m",), difference_db=3.0,
+    ...                      seed=1)
+    >>> pilot = pilot_parameters(sim.spots, "simultaneous", "Q1ABC", "Q1ABD", n_boot=50)
+    >>> print(pilot)
+    pilot: 2.0 h, 42 pairs (20.7/h) from 10 receivers (effective 6.9); B-A +3.23 dB (SE 0.259
+    dB), spread 2.37 dB; 2.4 % one-sided (information x0.996); design effect 0.48 (icc 0.0000)
+    >>> est = duration_closed_form(1.0, **pilot.closed_form_inputs())
+    >>> round(float(est.hours), 1)
+    2.1
     """
     from spotkit.compare.estimate import compare_antennas
     from spotkit.stats.censored import censored_normal_mle
@@ -597,6 +688,17 @@ def duration_by_simulation(effect_db: float, hours: Sequence[float], *, n_runs: 
     References
     ----------
     Wilson, JASA 22:209-212 (1927) (interval of the empirical power).
+
+    Examples
+    --------
+    Two runs only, to keep the example fast (use 50 or more): both detect a 3 dB
+    difference in half an hour; the Wilson interval of 2 out of 2 is wide:
+
+    >>> table = duration_by_simulation(3.0, [0.5], n_runs=2, n_boot=20, design="simultaneous",
+    ...                                band="20m", n_receivers=30)
+    >>> row = table.iloc[0]
+    >>> int(row["runs"]), float(row["power_sim"]), round(float(row["power_sim_low"]), 3)
+    (2, 1.0, 0.342)
     """
     from spotkit.compare.estimate import compare_antennas
     from spotkit.errors import NoPairsError
@@ -702,6 +804,17 @@ def duration_table(effect_db: float, hours: Sequence[float] = (3, 6, 12, 24, 48,
         ``power``), then the simulation's columns when given. ``attrs["needed"]`` is the
         :class:`DurationEstimate` (as a dict), ``attrs["effect_db"]`` the effect and
         ``attrs["inputs"]`` the closed-form inputs.
+
+    Examples
+    --------
+    >>> table = duration_table(1.0, [1, 2, 4], sigma_db=3.0, pairs_per_hour=100)
+    >>> print(table[["hours", "se_db", "power"]].round(3).to_string(index=False))
+     hours  se_db  power
+       1.0  0.300  0.915
+       2.0  0.212  0.997
+       4.0  0.150  1.000
+    >>> round(float(table.attrs["needed"]["hours"]), 2)
+    0.71
     """
     table = power_closed_form(hours, effect_db, sigma_db=sigma_db,
                               pairs_per_hour=pairs_per_hour, alpha=alpha, icc=icc,
