@@ -30,8 +30,8 @@ Springer, 2010, ch. 6 (blocked randomisation) [from memory].
 """
 from __future__ import annotations
 
+from collections.abc import Sequence
 from pathlib import Path
-from typing import Sequence
 
 import numpy as np
 import pandas as pd
@@ -79,6 +79,16 @@ def slots_per_hour(slot_minutes: int) -> int:
     """Number of slots in a clock hour; raises UsageError unless it is a whole even number.
 
     An even number of slots per hour is what lets A and B share every hour exactly.
+
+    Examples
+    --------
+    >>> slots_per_hour(2), slots_per_hour(10)
+    (30, 6)
+    >>> slots_per_hour(4)
+    Traceback (most recent call last):
+    ...
+    spotkit.errors.UsageError: slot length 4 min does not split an hour into an even number of
+    slots; valid: 1, 2, 3, 5, 6, 10, 15, 30
     """
     valid = [m for m in range(1, 61) if 60 % m == 0 and (60 // m) % 2 == 0]
     if slot_minutes not in valid:
@@ -143,6 +153,28 @@ def make_schedule(start, days: float, bands: Sequence[str] | str, *, slot_minute
     ----------
     Friedman, Furberg & DeMets, *Fundamentals of Clinical Trials*, 4th ed., 2010, ch. 6
     (permuted-block randomisation) [from memory].
+
+    Examples
+    --------
+    One hour on two bands: 30 slots of 2 minutes, each band in every slot, A and B in
+    random order within each block of 2 slots:
+
+    >>> schedule = make_schedule("2024-03-01 10:00", days=1 / 24, bands="20m,10m", seed=1)
+    >>> len(schedule)
+    60
+    >>> print(schedule.head(4).to_string(index=False))
+                        start                       end band antenna
+    2024-03-01 10:00:00+00:00 2024-03-01 10:02:00+00:00  20m       A
+    2024-03-01 10:00:00+00:00 2024-03-01 10:02:00+00:00  10m       A
+    2024-03-01 10:02:00+00:00 2024-03-01 10:04:00+00:00  20m       B
+    2024-03-01 10:02:00+00:00 2024-03-01 10:04:00+00:00  10m       B
+
+    With band hopping one transmitter visits the bands block by block:
+
+    >>> hop = make_schedule("2024-03-01 10:00", days=2 / 24, bands=["20m", "10m"],
+    ...                     band_hop=True, seed=1)
+    >>> hop["band"].head(6).tolist(), hop["antenna"].head(6).tolist()
+    (['10m', '10m', '20m', '20m', '10m', '10m'], ['A', 'B', 'A', 'B', 'A', 'B'])
     """
     t0 = _as_utc(start, "start")
     if t0 != t0.floor("h"):
@@ -193,6 +225,17 @@ def write_schedule(schedule: pd.DataFrame, path) -> Path:
     """Write a schedule as CSV: ``start,end,band,antenna`` with ISO 8601 UTC times ("...Z").
 
     This is the file ``spotkit compare --schedule FILE`` and ``spotkit plan audit`` read.
+
+    Examples
+    --------
+    >>> import pathlib, tempfile
+    >>> schedule = make_schedule("2024-03-01 10:00", days=1 / 24, bands="20m", seed=1)
+    >>> with tempfile.TemporaryDirectory() as d:
+    ...     path = write_schedule(schedule.head(2), pathlib.Path(d) / "schedule.csv")
+    ...     print(path.read_text(), end="")
+    start,end,band,antenna
+    2024-03-01T10:00:00Z,2024-03-01T10:02:00Z,20m,A
+    2024-03-01T10:02:00Z,2024-03-01T10:04:00Z,20m,B
     """
     path = Path(path)
     out = pd.DataFrame({
@@ -219,6 +262,17 @@ def schedule_balance(schedule: pd.DataFrame) -> pd.DataFrame:
     pandas.DataFrame
         Index (``hour_utc``: start of the clock hour [UTC], ``band``), columns ``A`` and
         ``B`` [slots].
+
+    Examples
+    --------
+    Two hours of band hopping: each band gets as many A as B slots in every hour:
+
+    >>> hop = make_schedule("2024-03-01 10:00", days=2 / 24, bands=["20m", "10m"],
+    ...                     band_hop=True, seed=1)
+    >>> balance = schedule_balance(hop)
+    >>> [(str(h.time()), band) for h, band in balance.index], balance.to_numpy().tolist()
+    ([('10:00:00', '10m'), ('10:00:00', '20m'), ('11:00:00', '10m'), ('11:00:00', '20m')],
+     [[8, 8], [7, 7], [7, 7], [8, 8]])
     """
     hour = pd.to_datetime(schedule[C.SCHEDULE_START], utc=True).dt.floor("h")
     keys = [hour.rename(HOUR_UTC)]
@@ -243,6 +297,18 @@ def expand_schedule(schedule: pd.DataFrame, slot_minutes: int = C.SLOT_MINUTES) 
     -------
     pandas.DataFrame
         ``slot_utc``, ``antenna`` and ``band`` when the schedule has one.
+
+    Examples
+    --------
+    >>> rows = pd.DataFrame({"start": ["2024-03-01 10:00", "2024-03-01 10:06"],
+    ...                      "end": ["2024-03-01 10:06", "2024-03-01 10:08"],
+    ...                      "antenna": ["A", "B"]})
+    >>> print(expand_schedule(rows).to_string(index=False))
+                     slot_utc antenna
+    2024-03-01 10:00:00+00:00       A
+    2024-03-01 10:02:00+00:00       A
+    2024-03-01 10:04:00+00:00       A
+    2024-03-01 10:06:00+00:00       B
     """
     schedule = read_schedule(schedule)  # validates columns, times, antennas, overlaps
     start = schedule[C.SCHEDULE_START]
