@@ -51,7 +51,15 @@ def _key_column(key: str, side: str) -> str:
 
 
 def coverage_columns_needed(by: Sequence[str], side: Side = "rx") -> list[str]:
-    """Spot-table columns :func:`coverage_partials` reads for ``by`` and ``side``."""
+    """Spot-table columns :func:`coverage_partials` reads for ``by`` and ``side``.
+
+    Examples
+    --------
+    >>> coverage_columns_needed(["band", "square"])
+    ['rx_call', 'rx_locator', 'band', 'snr_db', 'power_dbm']
+    >>> coverage_columns_needed(["hour"], side="tx")
+    ['slot_utc', 'tx_call', 'snr_db', 'power_dbm']
+    """
     need = {C.SNR, C.POWER, C.RX_CALL if side == "rx" else C.TX_CALL}
     for key in by:
         check_choice(key, COVERAGE_KEYS, "coverage key")
@@ -153,7 +161,7 @@ def _count_combos(cols: dict, weights: np.ndarray | None = None) -> pd.DataFrame
     w = np.ones(n, dtype=np.int64) if weights is None else np.asarray(weights, dtype=np.int64)
     counts = np.bincount(inv, weights=w, minlength=len(first_codes[0])).astype(np.int64)
     out = pd.DataFrame({nm: _decode(fc, u) for nm, fc, (_, u) in
-                        zip(names, first_codes, cols.values())})
+                        zip(names, first_codes, cols.values(), strict=True)})
     out[C.COUNT] = counts
     return out
 
@@ -202,6 +210,32 @@ def coverage_partials(df: pd.DataFrame, by: Sequence[CoverageKey] = ("band", "sq
     -------
     CoveragePartials
         Key columns hold plain values (str, int), so partials of any partitions merge.
+
+    Examples
+    --------
+    Five invented spots of Q1ABC; SNR per W is ``snr - (power - 30)``:
+
+    >>> spots = pd.DataFrame({
+    ...     "slot_utc": pd.to_datetime(["2024-03-01 10:00", "2024-03-01 10:02",
+    ...                                 "2024-03-01 10:02", "2024-03-01 22:04",
+    ...                                 "2024-03-01 22:06"], utc=True),
+    ...     "tx_call": ["Q1ABC"] * 5, "rx_call": ["Q2XY", "Q2XY", "Q3DEF", "Q4GH", "Q5JK"],
+    ...     "rx_locator": ["JN58td", "JN58td", "JN58sc", "FN31pr", "IO91lk"],
+    ...     "band": ["20m", "20m", "20m", "40m", "40m"],
+    ...     "snr_db": [-12.0, -15.0, -20.0, -25.0, -18.0],
+    ...     "power_dbm": [37.0, 37.0, 37.0, 37.0, 30.0]})
+    >>> part = coverage_partials(spots, ["band"])
+    >>> part.keys, part.station
+    (['band'], 'rx_call')
+    >>> print(part.values.to_string(index=False))
+    band  snr_per_w_db  count
+     20m         -19.0      1
+     20m         -22.0      1
+     20m         -27.0      1
+     40m         -32.0      1
+     40m         -18.0      1
+    >>> part.stations["rx_call"].tolist()
+    ['Q2XY', 'Q3DEF', 'Q4GH', 'Q5JK']
     """
     check_choice(side, SIDES, "side")
     by = list(by)
@@ -237,7 +271,7 @@ def _recode(frames: list[pd.DataFrame], names: list[str]) -> dict:
             cats = [np.asarray(c.cat.categories, dtype=object) for c in cols]
             union = pd.Index(np.concatenate(cats) if cats else np.zeros(0, object)).unique()
             codes = []
-            for c, k in zip(cols, cats):
+            for c, k in zip(cols, cats, strict=True):
                 m = np.append(union.get_indexer(k).astype(np.int64), -1)
                 cc = c.cat.codes.to_numpy().astype(np.int64)
                 codes.append(m[np.where(cc < 0, len(k), cc)])
@@ -261,6 +295,27 @@ def combine_coverage(partials: Iterable[CoveragePartials]) -> CoveragePartials:
     Returns
     -------
     CoveragePartials
+
+    Examples
+    --------
+    The spots of :func:`coverage_partials` in two pieces give the table of the whole (Q2XY
+    is in both pieces but counted once):
+
+    >>> spots = pd.DataFrame({
+    ...     "slot_utc": pd.to_datetime(["2024-03-01 10:00", "2024-03-01 10:02",
+    ...                                 "2024-03-01 10:02", "2024-03-01 22:04",
+    ...                                 "2024-03-01 22:06"], utc=True),
+    ...     "tx_call": ["Q1ABC"] * 5, "rx_call": ["Q2XY", "Q2XY", "Q3DEF", "Q4GH", "Q5JK"],
+    ...     "rx_locator": ["JN58td", "JN58td", "JN58sc", "FN31pr", "IO91lk"],
+    ...     "band": ["20m", "20m", "20m", "40m", "40m"],
+    ...     "snr_db": [-12.0, -15.0, -20.0, -25.0, -18.0],
+    ...     "power_dbm": [37.0, 37.0, 37.0, 37.0, 30.0]})
+    >>> merged = combine_coverage([coverage_partials(spots.iloc[:1], ["band"]),
+    ...                            coverage_partials(spots.iloc[1:], ["band"])])
+    >>> finish_coverage(merged)[["count", "stations"]].to_numpy().tolist()
+    [[2, 2], [3, 2]]
+    >>> finish_coverage(merged).equals(coverage_table(spots, ["band"]))
+    True
     """
     parts = list(partials)
     if not parts:
@@ -288,6 +343,23 @@ def finish_coverage(partials: CoveragePartials) -> pd.DataFrame:
         values, as :meth:`pandas.Series.median`) and :data:`SNR_MAX` [dB]; SNR statistics
         ignore spots without SNR or power and are NaN for a group with none. Sorted by the
         keys, bands in band-plan order; categorical key columns (band, square, field, calls).
+
+    Examples
+    --------
+    Without keys, one row for everything:
+
+    >>> spots = pd.DataFrame({
+    ...     "slot_utc": pd.to_datetime(["2024-03-01 10:00", "2024-03-01 10:02",
+    ...                                 "2024-03-01 10:02", "2024-03-01 22:04",
+    ...                                 "2024-03-01 22:06"], utc=True),
+    ...     "tx_call": ["Q1ABC"] * 5, "rx_call": ["Q2XY", "Q2XY", "Q3DEF", "Q4GH", "Q5JK"],
+    ...     "rx_locator": ["JN58td", "JN58td", "JN58sc", "FN31pr", "IO91lk"],
+    ...     "band": ["20m", "20m", "20m", "40m", "40m"],
+    ...     "snr_db": [-12.0, -15.0, -20.0, -25.0, -18.0],
+    ...     "power_dbm": [37.0, 37.0, 37.0, 37.0, 30.0]})
+    >>> print(finish_coverage(coverage_partials(spots, [])).to_string(index=False))
+     count  stations  snr_per_w_mean_db  snr_per_w_median_db  snr_per_w_max_db
+         5         4              -23.6                -22.0             -18.0
     """
     keys, station = partials.keys, partials.station
     v = partials.values
@@ -296,7 +368,7 @@ def finish_coverage(partials: CoveragePartials) -> pd.DataFrame:
         inv, first_codes = _combo_ids(cols)
         gid, st_gid = inv[:len(v)], inv[len(v):]
         uniq = pd.DataFrame({nm: _decode(fc, u) for nm, fc, (_, u) in
-                             zip(keys, first_codes, cols.values())})
+                             zip(keys, first_codes, cols.values(), strict=True)})
     else:
         gid, uniq = np.zeros(len(v), np.int64), pd.DataFrame(index=[0])
     n_groups = len(uniq)
@@ -356,6 +428,29 @@ def coverage_table(df: pd.DataFrame, by: Sequence[CoverageKey] = ("band", "squar
 
     ``finish_coverage(coverage_partials(df, by, side=side))``; see
     :func:`coverage_partials` for the keys and :func:`finish_coverage` for the columns.
+
+    Examples
+    --------
+    The spots of :func:`coverage_partials` by band and receiver square (40 m before 20 m:
+    band-plan order), then by UTC hour:
+
+    >>> spots = pd.DataFrame({
+    ...     "slot_utc": pd.to_datetime(["2024-03-01 10:00", "2024-03-01 10:02",
+    ...                                 "2024-03-01 10:02", "2024-03-01 22:04",
+    ...                                 "2024-03-01 22:06"], utc=True),
+    ...     "tx_call": ["Q1ABC"] * 5, "rx_call": ["Q2XY", "Q2XY", "Q3DEF", "Q4GH", "Q5JK"],
+    ...     "rx_locator": ["JN58td", "JN58td", "JN58sc", "FN31pr", "IO91lk"],
+    ...     "band": ["20m", "20m", "20m", "40m", "40m"],
+    ...     "snr_db": [-12.0, -15.0, -20.0, -25.0, -18.0],
+    ...     "power_dbm": [37.0, 37.0, 37.0, 37.0, 30.0]})
+    >>> print(coverage_table(spots).round(2).to_string(index=False))
+    band square_locator  count  stations  snr_per_w_mean_db  snr_per_w_median_db  snr_per_w_max_db
+     40m           FN31      1         1             -32.00                -32.0             -32.0
+     40m           IO91      1         1             -18.00                -18.0             -18.0
+     20m           JN58      3         2             -22.67                -22.0             -19.0
+    >>> table = coverage_table(spots, ["hour"])
+    >>> table[["hour", "count", "stations"]].to_numpy().tolist()
+    [[10, 3, 2], [22, 2, 2]]
     """
     return finish_coverage(coverage_partials(df, by, side=side))
 
