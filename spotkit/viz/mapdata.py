@@ -44,6 +44,14 @@ def home_latlon(home) -> tuple[float, float]:
     ----------
     home : str or (float, float)
         A Maidenhead locator (its cell centre is used) or ``(lat, lon)`` [deg].
+
+    Examples
+    --------
+    >>> lat, lon = home_latlon("JO62qm")
+    >>> round(lat, 4), round(lon, 4)
+    (52.5208, 13.375)
+    >>> home_latlon((52.5, 13.4))
+    (52.5, 13.4)
     """
     if home is None:
         raise UsageError("no home station given: pass a locator such as 'JN58td' or (lat, lon)")
@@ -81,7 +89,17 @@ def _ring_step(extent_km: float) -> float:
 
 def auto_extent_km(distances_km, step_km: float | None = None) -> float:
     """Radius [km] of an azimuthal map that shows all ``distances_km``: the next ring
-    beyond the farthest station (whole globe past 15 000 km)."""
+    beyond the farthest station (whole globe past 15 000 km).
+
+    Examples
+    --------
+    Rings every 1,000 km up to 6,000 km, every 2,500 km beyond; 5 % margin:
+
+    >>> auto_extent_km([502.3]), auto_extent_km([502.3, 996.2, 6244.0])
+    (1000.0, 7500.0)
+    >>> auto_extent_km([16000.0]) == FULL_EXTENT_KM
+    True
+    """
     d = np.asarray(distances_km, dtype=float)
     d = d[np.isfinite(d)]
     far = float(d.max()) if d.size else FULL_EXTENT_KM
@@ -102,7 +120,15 @@ def _mode(series: pd.Series):
 def resolve_side(spots: pd.DataFrame, side: Side = "auto") -> str:
     """Which end of the spots is the home station: ``"transmit"`` (home transmits; far
     stations are receivers) or ``"receive"``. ``"auto"`` picks the end with fewer distinct
-    locators."""
+    locators.
+
+    Examples
+    --------
+    >>> spots = pd.DataFrame({"tx_locator": ["JO62qm"] * 3,
+    ...                       "rx_locator": ["JN58td", "IO91lk", "FN31pr"]})
+    >>> resolve_side(spots), resolve_side(spots, "receive")
+    ('transmit', 'receive')
+    """
     check_choice(side, SIDES, "side")
     if side != "auto":
         return side
@@ -112,7 +138,15 @@ def resolve_side(spots: pd.DataFrame, side: Side = "auto") -> str:
 
 
 def home_from_spots(spots: pd.DataFrame, side: Side = "auto") -> str:
-    """The home station's locator: the most common locator at the home end of the spots."""
+    """The home station's locator: the most common locator at the home end of the spots.
+
+    Examples
+    --------
+    >>> spots = pd.DataFrame({"tx_locator": ["JO62qm", "JO62qm", "JO62qn"],
+    ...                       "rx_locator": ["JN58td", "IO91lk", "FN31pr"]})
+    >>> home_from_spots(spots)
+    'JO62qm'
+    """
     side = resolve_side(spots, side)
     loc = _mode(spots[C.TX_LOCATOR if side == "transmit" else C.RX_LOCATOR])
     if loc is None:
@@ -137,6 +171,24 @@ def far_station_summary(spots: pd.DataFrame, side: Side = "auto") -> pd.DataFram
         Columns band, far_call, far_locator, far_lat, far_lon [deg], distance_km [km],
         bearing_deg [deg, from home], snr_per_w_db (median SNR normalised to 1 W [dB]),
         count (spots).
+
+    Examples
+    --------
+    The receivers of one transmitter of a short simulated run:
+
+    >>> from spotkit.sim.simulate import simulate_spots
+    >>> sim = simulate_spots(days=0.1, n_receivers=30, bands=("20m",), difference_db=3.0,
+    ...                      seed=1)
+    >>> spots = sim.spots[sim.spots["tx_call"] == "Q1ABC"]
+    >>> summary = far_station_summary(spots)
+    >>> len(summary)
+    10
+    >>> cols = ["far_call", "far_locator", "distance_km", "bearing_deg", "snr_per_w_db", "count"]
+    >>> print(summary[cols].head(3).round(1).to_string(index=False))
+    far_call far_locator  distance_km  bearing_deg  snr_per_w_db  count
+       Q2DJT      JN77vt        313.2         95.2         -10.0      3
+       Q3FTZ      EM74sr       7637.1        298.6         -21.0      3
+       Q8NRE      KO54ce       1457.2         55.6         -16.5     10
     """
     side = resolve_side(spots, side)
     if side == "transmit":
@@ -184,7 +236,16 @@ _LEVEL_KEY = {"receiver": C.FAR_CALL, "square": C.SQUARE, "field": C.FIELD}
 
 def home_from_pairs(pairs: pd.DataFrame) -> str:
     """The locator of the station under test in a pairs table (the end that is not the far
-    station)."""
+    station).
+
+    Examples
+    --------
+    >>> pairs = pd.DataFrame({"tx_locator": ["JO62qm", "JO62qm"],
+    ...                       "rx_locator": ["JN58td", "IO91lk"],
+    ...                       "far_locator": ["JN58td", "IO91lk"]})
+    >>> home_from_pairs(pairs)
+    'JO62qm'
+    """
     if not len(pairs):
         raise UsageError("cannot tell the home station from an empty pairs table; give home")
     far_is_rx = (pairs[C.RX_LOCATOR].astype(str) == pairs[C.FAR_LOCATOR].astype(str)).mean()
@@ -222,6 +283,28 @@ def difference_cells(result, *, level: Level = "auto", pairs: pd.DataFrame | Non
         cell_dlon [deg] (0 for receivers), ``significant`` (the CI excludes 0),
         ``one_sided`` ("only_a" / "only_b" when just one antenna was heard there, else "").
         Groups without an estimate (too few pairs) keep NaN and are drawn as grey rings.
+
+    Examples
+    --------
+    A short simulated run compared by locator field of the receiver; fields are placed at
+    their centres, 10 by 20 deg:
+
+    >>> from spotkit.sim.simulate import simulate_spots
+    >>> sim = simulate_spots(days=0.1, n_receivers=30, bands=("20m",), difference_db=3.0,
+    ...                      seed=1)
+    >>> from spotkit.compare.estimate import compare_antennas
+    >>> result = compare_antennas(sim.spots, "simultaneous", "Q1ABC", "Q1ABD", n_boot=50,
+    ...                           by="field", min_pairs=5)
+    >>> cells = difference_cells(result)
+    >>> cols = ["field_locator", "b_minus_a_db", "far_lat", "far_lon", "cell_dlat",
+    ...         "significant"]
+    >>> print(cells[cols].head(3).round(2).to_string(index=False))
+    field_locator  b_minus_a_db  far_lat  far_lon  cell_dlat  significant
+               EM           3.0     35.0    -90.0       10.0         True
+               JN           2.9     45.0     10.0       10.0         True
+               JO           NaN     55.0     10.0       10.0        False
+    >>> cells.attrs["level"]
+    'field'
     """
     check_choice(level, LEVELS, "level")
     groups, pairs = _groups_and_pairs(result, pairs)
@@ -267,7 +350,15 @@ def difference_cells(result, *, level: Level = "auto", pairs: pd.DataFrame | Non
 
 def symmetric_limit(values, *, percentile: float = 95.0, step: float = 0.5) -> float:
     """Half-range [dB] of a colour scale centred on 0 that covers ``percentile`` % of
-    ``|values|``, rounded up to ``step`` (at least ``step``)."""
+    ``|values|``, rounded up to ``step`` (at least ``step``).
+
+    Examples
+    --------
+    >>> symmetric_limit([0.3, -1.2, 2.6, -0.8]), symmetric_limit([-4.2, 1.0], percentile=100)
+    (2.5, 4.5)
+    >>> symmetric_limit([0.1]), symmetric_limit([])
+    (0.5, 0.5)
+    """
     v = np.abs(np.asarray(values, dtype=float))
     v = v[np.isfinite(v)]
     if not v.size:
@@ -290,6 +381,22 @@ def reach_stations(pairs: pd.DataFrame, band=None) -> pd.DataFrame:
     pandas.DataFrame
         Columns band, far_call, far_lat, far_lon [deg], distance_km [km], heard_a, heard_b
         (bool: at least one pair where that antenna was heard).
+
+    Examples
+    --------
+    >>> nan = float("nan")
+    >>> pairs = pd.DataFrame({
+    ...     "band": ["20m", "20m", "20m", "40m"], "far_call": ["Q2XY", "Q2XY", "Q3DEF", "Q2XY"],
+    ...     "far_lat": [48.15, 48.15, 51.44, 48.15], "far_lon": [11.62, 11.62, -1.04, 11.62],
+    ...     "distance_km": [502.3, 502.3, 996.2, 502.3],
+    ...     "snr_a_db": [-20.0, nan, nan, -22.0], "snr_b_db": [-17.0, -21.0, -25.0, nan]})
+    >>> print(reach_stations(pairs).to_string(index=False))
+    band far_call  far_lat  far_lon  distance_km  heard_a  heard_b
+     20m     Q2XY    48.15    11.62        502.3     True     True
+     20m    Q3DEF    51.44    -1.04        996.2    False     True
+     40m     Q2XY    48.15    11.62        502.3     True    False
+    >>> len(reach_stations(pairs, band="40m"))
+    1
     """
     df = pairs
     if band is not None:
