@@ -1,62 +1,21 @@
-"""The ``spotkit archive`` subcommand and ``spotkit ingest --dataset/--memory-mb``: parser
-and runner for the partitioned Parquet archive (locally or on a Dask cluster).
+"""``spotkit archive``: analyse a partitioned Parquet archive (info, coverage, compare),
+locally or on a Dask cluster.
 
-Part of the command line (:mod:`spotkit.cli`), kept apart for its size; a thin layer over
-:mod:`spotkit.io.archive`, :mod:`spotkit.io.store` and :mod:`spotkit.distributed`.
+A thin layer over :mod:`spotkit.io.store` and :mod:`spotkit.distributed`. Archives are
+written by ``spotkit ingest --dataset`` (:mod:`spotkit.cli.ingest`).
 """
 from __future__ import annotations
 
-from spotkit.cli.app import EXIT_OK, _Parser, _progress, _write_result
+from spotkit.cli._common import DESIGNS, EXIT_OK, Parser, write_result
 from spotkit.errors import InputError, UsageError
 
 
-def _archive_ingest(args):
-    """The ``ingest --dataset/--memory-mb`` branch; None when neither option is given."""
-    from pathlib import Path
-
-    from spotkit.io.archive import chunk_rows_for_memory, ingest_to_dataset
-
-    dataset, memory_mb = getattr(args, "dataset", None), getattr(args, "memory_mb", None)
-    if dataset and args.output:
-        raise UsageError("give either -o OUT.parquet or --dataset DIR, not both")
-    if not dataset and not args.output:
-        raise UsageError("give -o OUT.parquet or --dataset DIR")
-    if not dataset:
-        if memory_mb is not None:  # one Parquet file, chunk size from the memory cap
-            size = sum(Path(f).stat().st_size for f in args.files if Path(f).is_file())
-            by_mem = chunk_rows_for_memory(memory_mb, total_input_bytes=size)
-            args.chunk_rows = min(args.chunk_rows or by_mem, by_mem)
-        return None
-    if args.rejects:
-        raise UsageError("--rejects applies to -o; an archive keeps its rejects in "
-                         "DIR/_rejects/")
-    mapping, units = dict(args.map), dict(args.unit)
-    if len(mapping) != len(args.map) or len(units) != len(args.unit):
-        raise UsageError("each FIELD may be given only once in --map / --unit")
-    header = {"auto": "auto", "yes": True, "no": False}[getattr(args, "header", "auto")]
-    partition = [k for k in args.partition.replace(" ", "").split(",") if k]
-    try:
-        summary = ingest_to_dataset(
-            args.files, dataset, chunk_rows=args.chunk_rows, memory_mb=memory_mb,
-            partition_by=partition, mapping=mapping, units=units, delimiter=args.delimiter,
-            header=header, slot_minutes=args.slot_minutes, region=args.region,
-            progress=_progress(args))
-    except ValueError as exc:
-        if isinstance(exc, (InputError, UsageError)):
-            raise
-        raise UsageError(f"--partition: {exc}") from None
-    print(summary.text())
-    print(f"appended {summary.accepted:,} spots to the archive {dataset} "
-          f"({summary.rejected:,} rejects kept in {dataset}/_rejects/)")
-    return EXIT_OK
-
-
-def _add_archive(sub):
+def add_archive(sub) -> None:
     p = sub.add_parser(
         "archive", help="work with a partitioned spot archive (coverage, compare, info)",
         description="Analyse a partitioned Parquet archive written by 'spotkit ingest "
         "--dataset DIR', partition by partition, locally or on a Dask cluster.")
-    asub = p.add_subparsers(dest="archive_command", metavar="ACTION", parser_class=_Parser)
+    asub = p.add_subparsers(dest="archive_command", metavar="ACTION", parser_class=Parser)
 
     def common(q):
         q.add_argument("dataset", metavar="DIR", help="archive directory")
@@ -82,8 +41,7 @@ def _add_archive(sub):
     cov.add_argument("-o", "--output", metavar="OUT.csv", help="write the table as CSV")
     cmp = asub.add_parser("compare", help="compare two antennas over the archive")
     common(cmp)
-    cmp.add_argument("--design", required=True,
-                     choices=["simultaneous", "alternating", "receive", "before-after"])
+    cmp.add_argument("--design", required=True, choices=DESIGNS)
     cmp.add_argument("--a", required=True, metavar="CALL")
     cmp.add_argument("--b", metavar="CALL")
     cmp.add_argument("--schedule", metavar="even-odd|odd-even|every-N|FILE")
@@ -99,7 +57,7 @@ def _add_archive(sub):
     cmp.add_argument("--day-hours", type=float, default=24.0, metavar="HOURS")
     cmp.add_argument("--json", metavar="OUT.json")
     cmp.add_argument("--csv", metavar="OUT.csv")
-    p.set_defaults(func=_cmd_archive)
+    p.set_defaults(func=cmd_archive)
 
 
 def _archive_bands(args):
@@ -108,7 +66,7 @@ def _archive_bands(args):
     return [b.strip() for item in args.band for b in item.split(",") if b.strip()]
 
 
-def _cmd_archive(args) -> int:
+def cmd_archive(args) -> int:
     from spotkit import distributed
     from spotkit.io import store
 
@@ -157,5 +115,5 @@ def _cmd_archive(args) -> int:
         min_pairs=args.min_pairs, confidence=args.confidence, scheduler=args.scheduler,
         missed_reports=args.missed_reports, threshold_correction=args.threshold_correction,
         day_hours=args.day_hours, **selection)
-    _write_result(result, args)
+    write_result(result, args)
     return EXIT_OK

@@ -1,24 +1,24 @@
 """The ``spotkit plan`` subcommand (schedule, duration, audit): parser and runner.
 
-Part of the command line (:mod:`spotkit.cli`), kept apart for its size; a thin layer over
-:mod:`spotkit.plan.schedule`, :mod:`spotkit.plan.duration` and :mod:`spotkit.plan.audit`.
+A thin layer over :mod:`spotkit.plan.schedule`, :mod:`spotkit.plan.duration` and
+:mod:`spotkit.plan.audit`.
 """
 from __future__ import annotations
 
 import sys
 
-from spotkit.cli.app import EXIT_OK, _Parser
+from spotkit.cli._common import EXIT_OK, Parser
 from spotkit.errors import UsageError
 
 
-def _add_plan(sub):
+def add_plan(sub) -> None:
     p = sub.add_parser(
         "plan", help="plan an experiment: schedule, duration, audit",
         description="Plan an antenna comparison before it runs and check it afterwards: "
         "'schedule' writes a balanced, randomised switching schedule for the alternating "
         "design; 'duration' estimates the hours needed to detect a difference; 'audit' "
         "checks that a finished run followed its schedule.")
-    psub = p.add_subparsers(dest="plan_action", metavar="ACTION", parser_class=_Parser)
+    psub = p.add_subparsers(dest="plan_action", metavar="ACTION", parser_class=Parser)
 
     s = psub.add_parser(
         "schedule", help="write a balanced, randomised antenna-switching schedule (CSV)",
@@ -100,10 +100,10 @@ def _add_plan(sub):
     a.add_argument("--csv", metavar="OUT.csv", help="write every finding")
     a.add_argument("--corrected", metavar="OUT.csv",
                    help="write the schedule as the power markers say it ran")
-    p.set_defaults(func=_cmd_plan)
+    p.set_defaults(func=cmd_plan)
 
 
-def _cmd_plan(args) -> int:
+def cmd_plan(args) -> int:
     from spotkit.plan import audit, schedule
     from spotkit.plan import duration as plan
 

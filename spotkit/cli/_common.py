@@ -1,0 +1,152 @@
+"""What the subcommands of :mod:`spotkit.cli` share: the parser class, the exit codes, option
+helpers (progress, the A/B comparison options, ``--by``) and the writing of results.
+
+This module sits below every command module and imports none of them (nor
+:mod:`spotkit.cli.app`), so the command line has no import cycle.
+"""
+from __future__ import annotations
+
+import argparse
+import sys
+
+from spotkit.errors import UsageError
+
+EXIT_OK, EXIT_INPUT, EXIT_USAGE = 0, 1, 2
+
+#: the experiment designs, as the A/B options spell them
+DESIGNS = ("simultaneous", "alternating", "receive", "before-after")
+
+
+class Parser(argparse.ArgumentParser):
+    """ArgumentParser that raises instead of exiting, so ``main`` controls exit codes."""
+
+    def error(self, message):  # pragma: no cover - exercised through main()
+        raise UsageError(f"{self.prog}: {message}")
+
+
+def key_value(text: str) -> tuple[str, str]:
+    """``FIELD=VALUE`` as a (field, value) pair: an argparse ``type``."""
+    if "=" not in text:
+        raise argparse.ArgumentTypeError(f"expected FIELD=VALUE, got {text!r}")
+    k, v = text.split("=", 1)
+    return k.strip(), v.strip()
+
+
+def add_progress_option(p) -> None:
+    p.add_argument("--progress", action=argparse.BooleanOptionalAction, default=None,
+                   help="show progress bars on stderr (default: when it is a terminal)")
+
+
+def progress(args) -> bool:
+    """Whether to show progress bars: as asked, else when stderr is a terminal."""
+    asked = getattr(args, "progress", None)
+    return sys.stderr.isatty() if asked is None else bool(asked)
+
+
+def add_ab_options(p, *, required: bool = True, title: str = "A/B comparison") -> None:
+    """The A/B comparison options: the same names and meaning in compare, map, plot and
+    report. ``required=False`` where only some kinds of output compare two antennas."""
+    g = p.add_argument_group(title)
+    g.add_argument("--design", required=required, choices=DESIGNS,
+                   help="how reports are assigned to A and B")
+    g.add_argument("--a", required=required, metavar="CALL",
+                   help="call of A (transmitter; receiver in the receive design)")
+    g.add_argument("--b", metavar="CALL", help="call of B (alternating and before-after: "
+                   "the same call as --a, may be left out)")
+    g.add_argument("--schedule", metavar="even-odd|odd-even|every-N|FILE",
+                   help="alternating design: antenna schedule (CSV: start,end,antenna[,band])")
+    g.add_argument("--change-at", metavar="TIME", help="before-after design: when the "
+                   "antenna changed (UTC, e.g. 2026-03-04T00:00Z)")
+    g.add_argument("--distance-edges", metavar="KM,KM,...",
+                   help="distance bin edges [km] (default 0,1000,3000,6000,20100)")
+    g.add_argument("--elevation-edges", metavar="DEG,DEG,...",
+                   help="elevation bin edges [deg] (default 0,5,10,20,40,90)")
+    g.add_argument("--bearing-width", type=float, default=45.0,
+                   help="bearing sector width [deg] (default 45)")
+    g.add_argument("--hour-basis", choices=["utc", "local"], default="utc",
+                   help="hour of day in UTC or local solar time at the path midpoint")
+    g.add_argument("--layer-height", type=float, default=300.0,
+                   help="reflection height for elevation angles [km] (default 300)")
+    g.add_argument("--window", type=int, default=1, metavar="SLOTS",
+                   help="alternating design: largest distance of paired slots (default 1)")
+    g.add_argument("--no-open-path-check", action="store_true",
+                   help="alternating design: keep pairs even without reports of the call in "
+                   "the slots around them")
+    g.add_argument("--threshold-correction", choices=["edge", "none"], default="none",
+                   help="first-order correction for reports at the decode threshold "
+                   "(default none: the paired likelihood no longer needs it)")
+    g.add_argument("--missed-reports", choices=["fit", "none"], default="fit",
+                   help="allow a fitted share of one-sided pairs to be missing for reasons "
+                   "other than the antenna, e.g. a path closing between slots (default fit)")
+    g.add_argument("--day-hours", type=float, default=24.0, metavar="HOURS",
+                   help="before-after design: length of the blocks of time resampled as "
+                   "days for the interval (default 24: UTC dates)")
+    g.add_argument("--boot", type=int, default=1000, help="bootstrap resamples (default 1000)")
+    g.add_argument("--seed", type=int, default=0, help="bootstrap seed (default 0)")
+    g.add_argument("--min-pairs", type=int, default=30,
+                   help="fewest pairs for a group estimate (default 30)")
+    g.add_argument("--confidence", type=float, default=0.95,
+                   help="confidence level of the intervals (default 0.95)")
+
+
+def float_list(text: str, option: str) -> list[float]:
+    """Numbers separated by commas; a :class:`UsageError` naming ``option`` otherwise."""
+    try:
+        return [float(x) for x in text.split(",") if x.strip()]
+    except ValueError:
+        raise UsageError(f"{option} must be numbers separated by commas, got {text!r}") from None
+
+
+def by_keys(text: str) -> list[str]:
+    """The ``--by`` keys of compare and report, checked (a :class:`UsageError` if unknown)."""
+    from spotkit.compare.grouping import parse_by
+
+    by = [k for k in (text or "").replace(" ", "").split(",") if k]
+    try:
+        parse_by(by)
+    except ValueError as exc:
+        raise UsageError(f"--by: {exc}") from None
+    return by
+
+
+def compare_kwargs(args) -> dict:
+    """Keyword arguments of :func:`spotkit.compare.estimate.compare_antennas` from the A/B
+    options (see :func:`add_ab_options`)."""
+    kw = dict(schedule=args.schedule, change_at=args.change_at,
+              bearing_width_deg=args.bearing_width, hour=args.hour_basis,
+              layer_height_km=args.layer_height, window_slots=args.window,
+              n_boot=args.boot, seed=args.seed, min_pairs=args.min_pairs,
+              confidence=args.confidence, threshold_correction=args.threshold_correction,
+              missed_reports=args.missed_reports, day_hours=args.day_hours,
+              require_open_path=not args.no_open_path_check)
+    if args.distance_edges:
+        kw["distance_edges"] = float_list(args.distance_edges, "--distance-edges")
+    if args.elevation_edges:
+        kw["elevation_edges"] = float_list(args.elevation_edges, "--elevation-edges")
+    return kw
+
+
+def write_result(result, args) -> None:
+    """Print a comparison and write it as JSON / CSV when asked (--json, --csv)."""
+    print(result)
+    if args.json:
+        result.to_json(args.json)
+        print(f"wrote {args.json}")
+    if args.csv:
+        result.to_frame().to_csv(args.csv, index=False)
+        print(f"wrote {args.csv}")
+
+
+def save_figure(fig, path, dpi) -> int:
+    """Save a figure as PNG or SVG (by the suffix of ``path``), close it and say so."""
+    from pathlib import Path
+
+    suffix = Path(path).suffix.lower()
+    if suffix not in (".png", ".svg"):
+        raise UsageError(f"output must end in .png or .svg, got {path!r}")
+    fig.savefig(path, dpi=dpi, format=suffix[1:])
+    import matplotlib.pyplot as plt
+
+    plt.close(fig)
+    print(f"wrote {path}")
+    return EXIT_OK

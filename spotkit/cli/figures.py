@@ -1,0 +1,137 @@
+"""``spotkit map`` and ``spotkit plot``: pictures of coverage and of B minus A.
+
+A thin layer over :mod:`spotkit.viz.maps` and :mod:`spotkit.viz.plots`. The two commands
+share their input, output and band options and the A/B options (needed only by the kinds
+that compare two antennas); matplotlib is imported only when a figure is drawn.
+"""
+from __future__ import annotations
+
+from spotkit.cli._common import (
+    add_ab_options,
+    add_progress_option,
+    compare_kwargs,
+    progress,
+    save_figure,
+)
+from spotkit.errors import UsageError
+
+
+def _add_figure_options(p, kinds, help_kind):
+    """Options shared by ``map`` and ``plot``: input, kind, output, bands and the A/B design
+    (the same meaning as in ``spotkit compare``)."""
+    p.add_argument("spots", metavar="SPOTS", help="spot table: Parquet from 'spotkit ingest' "
+                   "or a spot CSV")
+    p.add_argument("--kind", required=True, choices=kinds, help=help_kind)
+    p.add_argument("-o", "--output", required=True, metavar="OUT.png",
+                   help="picture to write; PNG or SVG by the suffix")
+    p.add_argument("--band", action="append", default=[], metavar="BAND",
+                   help="only this band, e.g. 10m (repeat or comma-separate for several)")
+    p.add_argument("--dpi", type=int, default=150, help="resolution of a PNG (default 150)")
+    add_ab_options(p, required=False,
+                   title="A/B comparison (kinds that compare two antennas)")
+
+
+def _figure_bands(args):
+    bands = [b.strip() for text in args.band for b in text.split(",") if b.strip()]
+    return bands or None
+
+
+def _figure_compare(args, spots, by):
+    """Run compare_antennas for a figure that needs it (the A/B options are checked here)."""
+    from spotkit.compare.estimate import compare_antennas
+
+    if not args.design or not args.a:
+        raise UsageError(f"--kind {args.kind} compares two antennas: give --design and --a "
+                         "(and --b, --schedule or --change-at as the design needs)")
+    return compare_antennas(spots, args.design, args.a, args.b, by=by,
+                            progress=progress(args), **compare_kwargs(args))
+
+
+def add_map(sub) -> None:
+    p = sub.add_parser(
+        "map", help="draw coverage, difference or reach maps",
+        description="Draw a map, offline: coverage (far stations by band coloured by SNR per "
+        "watt), difference (B minus A per receiver / locator square / field, solid where the "
+        "95 % CI excludes 0) or reach (what A and B reached). Difference and reach need the "
+        "A/B options.")
+    _add_figure_options(p, ["coverage", "difference", "reach"], "which map")
+    p.add_argument("--home", metavar="LOCATOR", help="map centre (default: the station "
+                   "under test)")
+    p.add_argument("--projection", choices=["azimuthal", "world"], default="azimuthal",
+                   help="azimuthal equidistant on home (default) or an Equal Earth world map")
+    p.add_argument("--paths", action="store_true", help="coverage: draw great-circle paths")
+    p.add_argument("--level", choices=["receiver", "square", "field"], default="field",
+                   help="difference: one estimate per receiver, locator square or field "
+                   "(default field)")
+    p.add_argument("--layout", choices=["side", "overlay"], default="side",
+                   help="reach: A and B side by side (default) or overlaid")
+    p.add_argument("--resolution", choices=["110m", "50m", "10m"], default="110m",
+                   help="land layer: 110m is shipped; 50m/10m are downloaded by cartopy once")
+    add_progress_option(p)
+    p.set_defaults(func=cmd_map)
+
+
+def cmd_map(args) -> int:
+    from spotkit.io.ingest import load_spots
+    from spotkit.viz import maps
+
+    spots = load_spots(args.spots)
+    bands = _figure_bands(args)
+    common = dict(home=args.home, projection=args.projection, resolution=args.resolution,
+                  progress=progress(args))
+    if args.kind == "coverage":
+        fig = maps.coverage_map(spots, bands=bands, paths=args.paths, **common)
+    elif args.kind == "difference":
+        result = _figure_compare(args, spots, ("band", args.level))
+        if bands and len(bands) == 1:
+            bands = bands[0]
+        fig = maps.difference_map(result, band=bands, **common)
+    else:
+        from spotkit.compare.pairing import pair_spots
+
+        if not args.design or not args.a:
+            raise UsageError("--kind reach compares two antennas: give --design and --a")
+        pairs = pair_spots(spots, args.design, args.a, args.b, schedule=args.schedule,
+                           change_at=args.change_at)
+        fig = maps.reach_map(pairs, band=bands, layout=args.layout, **common)
+    return save_figure(fig, args.output, args.dpi)
+
+
+def add_plot(sub) -> None:
+    p = sub.add_parser(
+        "plot", help="draw comparison and coverage plots",
+        description="Draw a plot: B minus A by bearing (polar), distance, elevation or hour "
+        "with 95 % CIs (need the A/B options); P(heard) against distance for A and B (needs "
+        "the A/B options); SNR per watt against distance; spots per hour by band.")
+    _add_figure_options(p, ["bearing", "distance", "elevation", "hour", "heard",
+                            "snr-distance", "spots-per-hour"], "which plot")
+    p.set_defaults(func=cmd_plot)
+
+
+def cmd_plot(args) -> int:
+    from spotkit.io.ingest import load_spots
+    from spotkit.viz import plots
+
+    spots = load_spots(args.spots)
+    bands = _figure_bands(args)
+    if args.kind in ("bearing", "distance", "elevation", "hour"):
+        result = _figure_compare(args, spots, ("band", args.kind))
+        draw = {"bearing": plots.bearing_plot, "distance": plots.distance_plot,
+                "elevation": plots.elevation_plot, "hour": plots.hour_plot}[args.kind]
+        ax = draw(result, band=bands)
+    elif args.kind == "heard":
+        from spotkit.compare.pairing import pair_spots
+
+        if not args.design or not args.a:
+            raise UsageError("--kind heard compares two antennas: give --design and --a")
+        pairs = pair_spots(spots, args.design, args.a, args.b, schedule=args.schedule,
+                           change_at=args.change_at)
+        if bands and len(bands) > 1:
+            raise UsageError("--kind heard draws one band at a time")
+        ax = plots.heard_plot(pairs, band=bands[0] if bands else None)
+    elif args.kind == "snr-distance":
+        ax = plots.snr_distance_plot(spots, band=bands)
+    else:
+        ax = plots.spots_per_hour_plot(spots, band=bands)
+    ax.figure.tight_layout()
+    return save_figure(ax.figure, args.output, args.dpi)

@@ -1,0 +1,113 @@
+"""``spotkit ingest``: spot CSV files in, one Parquet file (``-o``) or a partitioned archive
+(``--dataset``) out.
+
+A thin layer over :func:`spotkit.io.ingest.ingest_to_parquet` and
+:func:`spotkit.io.archive.ingest_to_dataset`. Both branches live here, beside the parser
+that defines their options: writing an archive is one way of ingesting, while
+:mod:`spotkit.cli.archive` reads archives that are already written.
+"""
+from __future__ import annotations
+
+from spotkit.cli._common import EXIT_OK, add_progress_option, key_value, progress
+from spotkit.errors import InputError, UsageError
+
+
+def add_ingest(sub) -> None:
+    p = sub.add_parser(
+        "ingest",
+        help="read spot CSV files, validate and enrich them, write Parquet",
+        description="Read one or more spot-report CSV files (any delimiter, with or without "
+        "a header, plain or gzip), set aside unusable rows with a reason, add distance, "
+        "bearings and band, and write the canonical table as Parquet.",
+    )
+    p.add_argument("files", nargs="+", metavar="FILE", help="spot CSV files (.csv, .csv.gz)")
+    p.add_argument("-o", "--output", metavar="OUT.parquet",
+                   help="Parquet file to write (or give --dataset)")
+    p.add_argument("--rejects", metavar="REJECTS.csv", help="write set-aside rows here")
+    p.add_argument("--map", action="append", type=key_value, default=[],
+                   metavar="FIELD=COLUMN", help="say which column holds FIELD")
+    p.add_argument("--unit", action="append", type=key_value, default=[],
+                   metavar="FIELD=UNIT", help="say the unit of FIELD (iso, epoch, Hz, kHz, "
+                   "MHz, dBm, W, mW)")
+    p.add_argument("--delimiter", default="auto", help="auto, ',', ';', tab or space")
+    p.add_argument("--region", default="all", choices=["1", "2", "3", "all"],
+                   help="IARU region whose band plan applies (default: union of all)")
+    p.add_argument("--slot-minutes", type=int, default=2, help="slot length (default 2)")
+    p.add_argument("--header", default="auto", choices=["auto", "yes", "no"],
+                   help="whether the first line holds headings (default: auto-detect)")
+    # archive options (spotkit.io.archive)
+    p.add_argument("--dataset", metavar="DIR", help="append to a partitioned Parquet archive "
+                   "instead of writing one file; a file already in it is refused")
+    p.add_argument("--partition", default="band,day", metavar="KEYS",
+                   help="archive partition keys, from band and day (default band,day)")
+    p.add_argument("--chunk-rows", type=int, metavar="N", help="read N rows at a time")
+    p.add_argument("--memory-mb", type=float, metavar="M",
+                   help="keep memory under about M MiB (sets the chunk size)")
+    add_progress_option(p)
+    p.set_defaults(func=cmd_ingest)
+
+
+def cmd_ingest(args) -> int:
+    if args.dataset and args.output:
+        raise UsageError("give either -o OUT.parquet or --dataset DIR, not both")
+    if not args.dataset and not args.output:
+        raise UsageError("give -o OUT.parquet or --dataset DIR")
+    if args.dataset:
+        return _ingest_to_archive(args)
+    return _ingest_to_file(args)
+
+
+def _reading_options(args) -> dict:
+    """The keyword arguments both branches pass on about reading the CSV files."""
+    mapping, units = dict(args.map), dict(args.unit)
+    if len(mapping) != len(args.map) or len(units) != len(args.unit):
+        raise UsageError("each FIELD may be given only once in --map / --unit")
+    header = {"auto": "auto", "yes": True, "no": False}[args.header]
+    return dict(mapping=mapping, units=units, delimiter=args.delimiter, header=header,
+                slot_minutes=args.slot_minutes, region=args.region)
+
+
+def _ingest_to_file(args) -> int:
+    """``-o OUT.parquet``: one Parquet file (chunk size from --memory-mb when given)."""
+    from spotkit.io.ingest import ingest_to_parquet
+
+    chunk_rows = args.chunk_rows
+    if args.memory_mb is not None:
+        from pathlib import Path
+
+        from spotkit.io.archive import chunk_rows_for_memory
+
+        size = sum(Path(f).stat().st_size for f in args.files if Path(f).is_file())
+        by_mem = chunk_rows_for_memory(args.memory_mb, total_input_bytes=size)
+        chunk_rows = min(chunk_rows or by_mem, by_mem)
+    reading = _reading_options(args)
+    kw = {"chunk_rows": chunk_rows} if chunk_rows else {}
+    summary = ingest_to_parquet(args.files, args.output, rejects_path=args.rejects,
+                                progress=progress(args), **reading, **kw)
+    print(summary.text())
+    print(f"wrote {summary.accepted:,} spots to {args.output}"
+          + (f" and {summary.rejected:,} rejects to {args.rejects}" if args.rejects else ""))
+    return EXIT_OK
+
+
+def _ingest_to_archive(args) -> int:
+    """``--dataset DIR``: append to a partitioned archive (rejects kept inside it)."""
+    from spotkit.io.archive import ingest_to_dataset
+
+    if args.rejects:
+        raise UsageError("--rejects applies to -o; an archive keeps its rejects in "
+                         "DIR/_rejects/")
+    reading = _reading_options(args)
+    partition = [k for k in args.partition.replace(" ", "").split(",") if k]
+    try:
+        summary = ingest_to_dataset(
+            args.files, args.dataset, chunk_rows=args.chunk_rows, memory_mb=args.memory_mb,
+            partition_by=partition, progress=progress(args), **reading)
+    except ValueError as exc:
+        if isinstance(exc, (InputError, UsageError)):
+            raise
+        raise UsageError(f"--partition: {exc}") from None
+    print(summary.text())
+    print(f"appended {summary.accepted:,} spots to the archive {args.dataset} "
+          f"({summary.rejected:,} rejects kept in {args.dataset}/_rejects/)")
+    return EXIT_OK
