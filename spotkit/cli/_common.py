@@ -7,9 +7,10 @@ This module sits below every command module and imports none of them (nor
 from __future__ import annotations
 
 import argparse
+import contextlib
 import sys
 
-from spotkit.errors import UsageError
+from spotkit.errors import InputError, LocatorError, UsageError
 
 EXIT_OK, EXIT_INPUT, EXIT_USAGE = 0, 1, 2
 
@@ -135,6 +136,25 @@ def write_result(result, args) -> None:
     if args.csv:
         result.to_frame().to_csv(args.csv, index=False)
         print(f"wrote {args.csv}")
+
+
+@contextlib.contextmanager
+def locators_from_data(applies: bool = True):
+    """Within this block a :class:`~spotkit.errors.LocatorError` comes from the spot table,
+    not from an argument: re-raise it as an :class:`~spotkit.errors.InputError` (exit 1,
+    the same message) instead of letting ``main`` treat it as bad usage (exit 2).
+
+    For ``spotkit map`` without ``--home``, whose map centre is the home station's locator
+    in the data: a Parquet table not written by ``spotkit ingest`` may hold a malformed
+    locator there (a spot CSV cannot: its rows with bad locators are set aside).
+    ``applies=False`` leaves the error as it is.
+    """
+    try:
+        yield
+    except LocatorError as exc:
+        if not applies:
+            raise
+        raise InputError(str(exc)) from exc
 
 
 def save_figure(fig, path, dpi) -> int:

@@ -21,7 +21,7 @@ from collections.abc import Sequence
 from spotkit import __version__
 from spotkit.cli import archive, compare, figures, ingest, plan, simulate
 from spotkit.cli._common import EXIT_INPUT, EXIT_OK, EXIT_USAGE, Parser
-from spotkit.errors import InputError, SpotkitError, UsageError
+from spotkit.errors import InputError, LocatorError, SpotkitError, UsageError
 
 
 def build_parser() -> argparse.ArgumentParser:
@@ -50,7 +50,15 @@ and field), 2 usage.""",
 
 
 def main(argv: Sequence[str] | None = None) -> int:
-    """Run the command line; returns the exit code (0 ok, 1 bad input, 2 usage)."""
+    """Run the command line; returns the exit code (0 ok, 1 bad input, 2 usage).
+
+    Every :class:`~spotkit.errors.SpotkitError` becomes one line on stderr and its exit
+    code, never a traceback: :class:`~spotkit.errors.UsageError` 2;
+    :class:`~spotkit.errors.LocatorError` 2 (a locator that escapes to here was given as an
+    argument, e.g. ``--home``: the readers set aside rows with bad locators instead of
+    raising); :class:`~spotkit.errors.InputError`, a missing file and any other spotkit
+    error 1. Other exceptions are bugs and keep their traceback.
+    """
     parser = build_parser()
     try:
         args = parser.parse_args(argv)
@@ -62,6 +70,9 @@ def main(argv: Sequence[str] | None = None) -> int:
         return int(exc.code or 0)
     except UsageError as exc:
         print(f"spotkit: {exc}", file=sys.stderr)
+        return EXIT_USAGE
+    except LocatorError as exc:
+        print(f"spotkit: error: {exc}", file=sys.stderr)
         return EXIT_USAGE
     except (InputError, FileNotFoundError, IsADirectoryError) as exc:
         print(f"spotkit: error: {exc}", file=sys.stderr)

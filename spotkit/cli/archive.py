@@ -7,7 +7,7 @@ written by ``spotkit ingest --dataset`` (:mod:`spotkit.cli.ingest`).
 from __future__ import annotations
 
 from spotkit.cli._common import DESIGNS, EXIT_OK, Parser, write_result
-from spotkit.errors import InputError, UsageError
+from spotkit.errors import InputError, SpotkitError, UsageError
 
 
 def add_archive(sub) -> None:
@@ -92,7 +92,7 @@ def cmd_archive(args) -> int:
             table = distributed.coverage_dask(args.dataset, by, side=args.side,
                                               scheduler=args.scheduler, **selection)
         except ValueError as exc:
-            if isinstance(exc, (InputError, UsageError)):
+            if isinstance(exc, SpotkitError):
                 raise
             raise UsageError(f"--by/--side: {exc}") from None
         if args.output:

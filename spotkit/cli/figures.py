@@ -10,6 +10,7 @@ from spotkit.cli._common import (
     add_ab_options,
     add_progress_option,
     compare_kwargs,
+    locators_from_data,
     progress,
     save_figure,
 )
@@ -79,21 +80,23 @@ def cmd_map(args) -> int:
     bands = _figure_bands(args)
     common = dict(home=args.home, projection=args.projection, resolution=args.resolution,
                   progress=progress(args))
-    if args.kind == "coverage":
-        fig = maps.coverage_map(spots, bands=bands, paths=args.paths, **common)
-    elif args.kind == "difference":
-        result = _figure_compare(args, spots, ("band", args.level))
-        if bands and len(bands) == 1:
-            bands = bands[0]
-        fig = maps.difference_map(result, band=bands, **common)
-    else:
-        from spotkit.compare.pairing import pair_spots
+    # without --home the map centre is a locator from the data
+    with locators_from_data(applies=args.home is None):
+        if args.kind == "coverage":
+            fig = maps.coverage_map(spots, bands=bands, paths=args.paths, **common)
+        elif args.kind == "difference":
+            result = _figure_compare(args, spots, ("band", args.level))
+            if bands and len(bands) == 1:
+                bands = bands[0]
+            fig = maps.difference_map(result, band=bands, **common)
+        else:
+            from spotkit.compare.pairing import pair_spots
 
-        if not args.design or not args.a:
-            raise UsageError("--kind reach compares two antennas: give --design and --a")
-        pairs = pair_spots(spots, args.design, args.a, args.b, schedule=args.schedule,
-                           change_at=args.change_at)
-        fig = maps.reach_map(pairs, band=bands, layout=args.layout, **common)
+            if not args.design or not args.a:
+                raise UsageError("--kind reach compares two antennas: give --design and --a")
+            pairs = pair_spots(spots, args.design, args.a, args.b, schedule=args.schedule,
+                               change_at=args.change_at)
+            fig = maps.reach_map(pairs, band=bands, layout=args.layout, **common)
     return save_figure(fig, args.output, args.dpi)
 
 

@@ -9,7 +9,7 @@ that defines their options: writing an archive is one way of ingesting, while
 from __future__ import annotations
 
 from spotkit.cli._common import EXIT_OK, add_progress_option, key_value, progress
-from spotkit.errors import InputError, UsageError
+from spotkit.errors import SpotkitError, UsageError
 
 
 def add_ingest(sub) -> None:
@@ -104,7 +104,7 @@ def _ingest_to_archive(args) -> int:
             args.files, args.dataset, chunk_rows=args.chunk_rows, memory_mb=args.memory_mb,
             partition_by=partition, progress=progress(args), **reading)
     except ValueError as exc:
-        if isinstance(exc, (InputError, UsageError)):
+        if isinstance(exc, SpotkitError):
             raise
         raise UsageError(f"--partition: {exc}") from None
     print(summary.text())

@@ -1,10 +1,12 @@
-"""The command line's help and exit codes; the layout of the ``spotkit.cli`` modules."""
+"""The command line's help, exit codes and error messages; the layout of the ``spotkit.cli``
+modules."""
 import ast
 from pathlib import Path
 
 import pytest
 
 import spotkit
+from spotkit import errors
 from spotkit.cli import main
 
 CLI = Path(spotkit.__file__).parent / "cli"
@@ -22,6 +24,85 @@ def test_unknown_command_is_usage_error(capsys):
 
 def test_no_command_is_usage_error():
     assert main([]) == 2
+
+
+# --- every SpotkitError: its exit code, one line on stderr, no traceback ---------------------
+EXIT_CODES = {
+    errors.SpotkitError: 1,
+    errors.InputError: 1,
+    errors.NotASpotTableError: 1,
+    errors.MappingError: 1,
+    errors.NoPairsError: 1,
+    errors.LocatorError: 2,  # escapes only from an argument (see test_figures_command.py)
+    errors.UsageError: 2,
+}
+
+# a command line of each command, and a library function it calls that is made to raise
+COMMANDS = {
+    "ingest": (["ingest", "x.csv", "-o", "x.parquet"], "spotkit.io.ingest.ingest_to_parquet"),
+    "ingest --dataset": (["ingest", "x.csv", "--dataset", "arch"],
+                         "spotkit.io.archive.ingest_to_dataset"),
+    "simulate": (["simulate", "-o", "x.csv"], "spotkit.sim.simulate.simulate_spots"),
+    "compare": (["compare", "x.csv", "--design", "simultaneous", "--a", "Q1ABC"],
+                "spotkit.io.ingest.load_spots"),
+    "map": (["map", "x.csv", "--kind", "coverage", "-o", "m.png", "--home", "JN58"],
+            "spotkit.io.ingest.load_spots"),
+    "plot": (["plot", "x.csv", "--kind", "snr-distance", "-o", "p.png"],
+             "spotkit.io.ingest.load_spots"),
+    "plan": (["plan", "schedule", "--start", "2026-12-01T00:00Z", "-o", "s.csv"],
+             "spotkit.plan.schedule.make_schedule"),
+    "report": (["report", "x.csv", "--design", "simultaneous", "--a", "Q1ABC", "-o", "r.html"],
+               "spotkit.io.ingest.load_spots"),
+    "demo": (["demo", "-o", "out"], "spotkit.demo.run_demo"),
+    "archive info": (["archive", "info", "arch"], "spotkit.io.store.dataset_manifest"),
+    "archive coverage": (["archive", "coverage", "arch"], "spotkit.distributed.coverage_dask"),
+    "archive compare": (["archive", "compare", "arch", "--design", "simultaneous", "--a",
+                         "Q1ABC"], "spotkit.distributed.compare_dask"),
+}
+
+
+def test_every_spotkit_error_has_an_expected_exit_code():
+    """A new error class must be given its exit code here (and in ``main``)."""
+    classes = {obj for name in errors.__all__ if isinstance(obj := getattr(errors, name), type)
+               and issubclass(obj, errors.SpotkitError)}
+    assert classes == set(EXIT_CODES)
+
+
+@pytest.mark.parametrize("error", list(EXIT_CODES), ids=lambda c: c.__name__)
+@pytest.mark.parametrize("command", list(COMMANDS))
+def test_a_spotkit_error_in_a_command_gives_its_exit_code(command, error, monkeypatch, tmp_path,
+                                                          capsys):
+    argv, target = COMMANDS[command]
+    message = f"{error.__name__} raised by {target.rsplit('.', 1)[1]}"
+
+    def fail(*args, **kwargs):
+        raise error(message)
+
+    monkeypatch.setattr(target, fail)
+    monkeypatch.chdir(tmp_path)
+    assert main(argv) == EXIT_CODES[error]  # returns: no exception (traceback) escapes
+    out, err = capsys.readouterr()
+    prefix = "spotkit: " if error is errors.UsageError else "spotkit: error: "
+    assert err == f"{prefix}{message}\n"  # one line, nothing else
+    assert "Traceback" not in out
+
+
+def test_missing_file_is_bad_input(tmp_path, capsys):
+    missing = tmp_path / "missing.csv"
+    assert main(["compare", str(missing), "--design", "simultaneous", "--a", "Q1ABC"]) == 1
+    err = capsys.readouterr().err
+    assert err.startswith("spotkit: error: ") and "missing.csv" in err
+    assert len(err.splitlines()) == 1
+
+
+def test_a_bug_keeps_its_traceback(monkeypatch):
+    """Exceptions that are not spotkit's (bugs) are not turned into an exit code."""
+    def broken(*args, **kwargs):
+        raise KeyError("a bug")
+
+    monkeypatch.setattr("spotkit.io.ingest.load_spots", broken)
+    with pytest.raises(KeyError, match="a bug"):
+        main(["compare", "x.csv", "--design", "simultaneous", "--a", "Q1ABC"])
 
 
 # --- layout: the command modules import _common and the library, never each other ------------
