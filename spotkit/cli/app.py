@@ -23,6 +23,40 @@ from spotkit.cli import archive, compare, figures, ingest, plan, simulate
 from spotkit.cli._common import EXIT_INPUT, EXIT_OK, EXIT_USAGE, Parser
 from spotkit.errors import InputError, LocatorError, SpotkitError, UsageError
 
+#: distributions whose versions ``spotkit --version`` reports (the PyPI names)
+VERSION_DEPENDENCIES = ("numpy", "pandas", "pyarrow", "pyproj", "geopy", "scipy", "cartopy",
+                        "matplotlib", "dask")
+
+
+def version_text() -> str:
+    """spotkit's version, then Python's and the dependencies' ("not installed" if missing).
+
+    The versions are read from the installed packages' metadata; nothing is imported.
+    """
+    import platform
+    from importlib.metadata import PackageNotFoundError, version
+
+    lines = [f"spotkit {__version__}", f"  {'Python':<11} {platform.python_version()}"]
+    for name in VERSION_DEPENDENCIES:
+        try:
+            found = version(name)
+        except PackageNotFoundError:
+            found = "not installed"
+        lines.append(f"  {name:<11} {found}")
+    return "\n".join(lines)
+
+
+class _VersionAction(argparse.Action):
+    """``--version``: print :func:`version_text` and exit (computed only when asked)."""
+
+    def __init__(self, option_strings, dest=argparse.SUPPRESS, default=argparse.SUPPRESS,
+                 help="show program's version number and exit"):
+        super().__init__(option_strings, dest=dest, default=default, nargs=0, help=help)
+
+    def __call__(self, parser, namespace, values, option_string=None):
+        print(version_text())
+        parser.exit()
+
 
 def build_parser() -> argparse.ArgumentParser:
     parser = Parser(
@@ -40,7 +74,7 @@ def build_parser() -> argparse.ArgumentParser:
 Each command has --help. Exit codes: 0 ok, 1 bad input (the message names the file, row
 and field), 2 usage.""",
     )
-    parser.add_argument("--version", action="version", version=f"spotkit {__version__}")
+    parser.add_argument("--version", action=_VersionAction)
     sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=Parser)
     for add in (ingest.add_ingest, simulate.add_simulate, compare.add_compare,
                 figures.add_map, figures.add_plot, plan.add_plan, compare.add_report,

@@ -1,6 +1,8 @@
-"""The command line's help, exit codes and error messages; the layout of the ``spotkit.cli``
-modules."""
+"""The command line's help, exit codes, error messages and ``--version``; the layout of the
+``spotkit.cli`` modules."""
 import ast
+import subprocess
+import sys
 from pathlib import Path
 
 import pytest
@@ -103,6 +105,73 @@ def test_a_bug_keeps_its_traceback(monkeypatch):
     monkeypatch.setattr("spotkit.io.ingest.load_spots", broken)
     with pytest.raises(KeyError, match="a bug"):
         main(["compare", "x.csv", "--design", "simultaneous", "--a", "Q1ABC"])
+
+
+# --- --version and python -m spotkit -------------------------------------------------------------
+DEPENDENCIES = ("numpy", "pandas", "pyarrow", "pyproj", "geopy", "scipy", "cartopy",
+                "matplotlib", "dask")
+
+
+def _run_module(*args):
+    return subprocess.run([sys.executable, "-m", "spotkit", *args], capture_output=True,
+                          text=True, timeout=120)
+
+
+def test_python_m_spotkit_version_lists_the_dependencies():
+    import platform
+
+    import numpy
+    import pandas
+
+    run = _run_module("--version")
+    assert run.returncode == 0, run.stderr
+    lines = run.stdout.splitlines()
+    assert lines[0] == f"spotkit {spotkit.__version__}"
+    found = dict(line.split(None, 1) for line in lines[1:])
+    assert list(found) == ["Python", *DEPENDENCIES]
+    assert found["Python"] == platform.python_version()
+    assert found["numpy"] == numpy.__version__
+    assert found["pandas"] == pandas.__version__
+    assert all(v.strip() for v in found.values())
+
+
+def test_version_says_not_installed_for_a_missing_package(monkeypatch, capsys):
+    import importlib.metadata
+
+    real = importlib.metadata.version
+
+    def version(name):
+        if name == "cartopy":
+            raise importlib.metadata.PackageNotFoundError(name)
+        return real(name)
+
+    monkeypatch.setattr(importlib.metadata, "version", version)
+    assert main(["--version"]) == 0
+    lines = capsys.readouterr().out.splitlines()
+    assert [ln.split(None, 1) for ln in lines if ln.split()[0] == "cartopy"] == [
+        ["cartopy", "not installed"]]
+    assert sum("not installed" in ln for ln in lines) == 1
+
+
+def test_version_imports_none_of_the_dependencies():
+    code = ("import sys; from spotkit.cli import main; main(['--version']); "
+            f"print(sorted(m for m in {DEPENDENCIES!r} if m in sys.modules))")
+    run = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
+                         timeout=120, check=True)
+    assert run.stdout.splitlines()[-1] == "[]"
+
+
+def test_python_m_spotkit_help_exits_zero():
+    run = _run_module("--help")
+    assert run.returncode == 0, run.stderr
+    assert run.stdout.startswith("usage: spotkit ")
+    assert "Exit codes: 0 ok, 1 bad input" in run.stdout
+
+
+def test_python_m_spotkit_runs_a_subcommand():
+    run = _run_module("plan")
+    assert run.returncode == 2
+    assert run.stderr == "spotkit: spotkit plan needs an action: schedule, duration or audit\n"
 
 
 # --- layout: the command modules import _common and the library, never each other ------------
