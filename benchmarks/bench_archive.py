@@ -302,7 +302,8 @@ def main(argv=None) -> int:
         csv = base / "ingest_input.csv"
         target = int(3 * args.memory_mb * 2**20)
         stamp = base / "ingest_input.made"
-        if not csv.exists() or not stamp.exists() or abs(csv.stat().st_size - target) > 0.1 * target:
+        stale = not csv.exists() or not stamp.exists()
+        if stale or abs(csv.stat().st_size - target) > 0.1 * target:
             t0 = time.perf_counter()
             n = make_csv(csv, target)
             stamp.write_text("1M pairs\n")

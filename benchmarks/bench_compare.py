@@ -36,7 +36,7 @@ def make_spots(n_pairs: int, n_rx: int = 3000, seed: int = 0) -> pd.DataFrame:
     loc = latlon_to_locator(lat, lon, 6)
     calls = np.array([f"Q{d}{a}{b}{c}" for d, a, b, c in zip(
         rng.integers(0, 10, n_rx), *(np.array(list("ABCDEFGHIJKLMNOPQRSTUVWXYZ"))[
-            rng.integers(0, 26, n_rx)] for _ in range(3)))])
+            rng.integers(0, 26, n_rx)] for _ in range(3)), strict=True)])
     calls = calls + np.char.mod("%d", np.arange(n_rx))  # unique
     n_paths = int(n_pairs * 1.1)
     rx = rng.integers(0, n_rx, n_paths)

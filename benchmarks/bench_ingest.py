@@ -45,7 +45,8 @@ def _locators(rng, n):
     a = rng.integers(0, 18, (n, 2))
     d = rng.integers(0, 10, (n, 2))
     s = rng.integers(0, 24, (n, 2))
-    chars = [np.array(list("ABCDEFGHIJKLMNOPQR"))[a[:, 0]], np.array(list("ABCDEFGHIJKLMNOPQR"))[a[:, 1]],
+    field = np.array(list("ABCDEFGHIJKLMNOPQR"))
+    chars = [field[a[:, 0]], field[a[:, 1]],
              d[:, 0].astype(str), d[:, 1].astype(str),
              np.array(list("abcdefghijklmnopqrstuvwx"))[s[:, 0]],
              np.array(list("abcdefghijklmnopqrstuvwx"))[s[:, 1]]]

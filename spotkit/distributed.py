@@ -281,8 +281,8 @@ def combine_receivers(parts: Iterable[pd.DataFrame]) -> pd.DataFrame:
 
 
 def thresholds_from_partials(partials: pd.DataFrame, min_reports: int = 20) -> pd.Series:
-    """Receiver thresholds exactly as :func:`spotkit.compare.pairing.receiver_thresholds` on the whole
-    table, from merged :func:`receiver_partials`.
+    """Receiver thresholds exactly as :func:`spotkit.compare.pairing.receiver_thresholds` on
+    the whole table, from merged :func:`receiver_partials`.
 
     The pairing function needs only each receiver's minimum and whether it has at least
     ``min_reports`` reports, so it is run on a stand-in table of ``min(count, min_reports)``
@@ -312,7 +312,8 @@ def compare_partials(df: pd.DataFrame, design: str, a: str, b: str | None = None
                      require_open_path: bool = True) -> ComparePartials:
     """Pair one partition and compress its pairs (the per-partition work of a comparison).
 
-    Runs :func:`spotkit.compare.pairing.pair_spots` and :func:`spotkit.compare.grouping.summarise_pairs`.
+    Runs :func:`spotkit.compare.pairing.pair_spots` and
+    :func:`spotkit.compare.grouping.summarise_pairs`.
     A partition without the calls the design needs gives empty tables; so does one where
     nothing pairs. With ``thresholds`` (receiver thresholds over the whole data, see
     :func:`thresholds_from_partials`) the censoring limits are moved from the partition's
@@ -408,7 +409,8 @@ def finish_compare(merged: ComparePartials, design: str, a: str, b: str | None =
                    by=(), n_boot: int = 1000, seed: int = 0, min_pairs: int = 30,
                    confidence: float = 0.95, options: dict | None = None,
                    threshold_correction: str = "none", missed_reports: str = "fit"):
-    """Estimate B minus A from merged partials, as :func:`spotkit.compare.estimate.compare_antennas`.
+    """Estimate B minus A from merged partials, as
+    :func:`spotkit.compare.estimate.compare_antennas`.
 
     Returns
     -------

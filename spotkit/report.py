@@ -10,7 +10,7 @@ from __future__ import annotations
 import base64
 import html
 import io
-from datetime import datetime, timezone
+from datetime import UTC, datetime
 from pathlib import Path
 
 import numpy as np
@@ -152,7 +152,7 @@ def verdict_table(result, overall: bool = True) -> pd.DataFrame:
     out["B - A (dB)"] = [f(x, "+.2f") for x in frame[C.B_MINUS_A]]
     out[f"{result.confidence:.0%} CI (dB)"] = [
         "" if pd.isna(lo) else f"{lo:+.2f} to {hi:+.2f}"
-        for lo, hi in zip(frame[C.CI_LOW], frame[C.CI_HIGH])]
+        for lo, hi in zip(frame[C.CI_LOW], frame[C.CI_HIGH], strict=True)]
     out["pairs"] = [f(x, ",.0f") for x in frame[C.PAIRS]]
     out["only A"] = [f(x, ",.0f") for x in frame[C.ONLY_A]]
     out["only B"] = [f(x, ",.0f") for x in frame[C.ONLY_B]]
@@ -171,7 +171,7 @@ def _table_html(df: pd.DataFrame, left=("group", "item", "value", "verdict")) ->
     for row in df.itertuples(index=False):
         cells = "".join(
             f'<td class="{"l" if c in left else ""}">{html.escape(str(v))}</td>'
-            for c, v in zip(df.columns, row))
+            for c, v in zip(df.columns, row, strict=True))
         body.append(f"<tr>{cells}</tr>")
     return f"<table><thead><tr>{head}</tr></thead><tbody>{''.join(body)}</tbody></table>"
 
@@ -298,7 +298,7 @@ def build_report(spots: pd.DataFrame, results, *, ingest_summary=None, map_resul
                  "</p>")
     parts.append("<h2>Cautions</h2><div class='caution'><ul>"
                  + "".join(f"<li>{html.escape(c)}</li>" for c in CAUTIONS) + "</ul></div>")
-    stamp = datetime.now(timezone.utc).strftime("%Y-%m-%d %H:%M UTC")
+    stamp = datetime.now(UTC).strftime("%Y-%m-%d %H:%M UTC")
     parts.append(f"<p class='small'>Made with spotkit {__version__} on {stamp}.</p>")
     parts.append("</body></html>")
     return "\n".join(parts)

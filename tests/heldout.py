@@ -46,7 +46,8 @@ def default_truth(bands=("20m", "10m")) -> pd.DataFrame:
     vals = {"20m": (0.4, -0.6, 1.1), "10m": (1.7, 0.2, -1.3), "40m": (-0.8, 0.9, 0.0)}
     rows = []
     for band in bands:
-        for (lo, hi), v in zip(zip(DISTANCE_EDGES[:-1], DISTANCE_EDGES[1:]), vals[band]):
+        cells = zip(DISTANCE_EDGES[:-1], DISTANCE_EDGES[1:], strict=True)
+        for (lo, hi), v in zip(cells, vals[band], strict=True):
             rows.append({C.BAND: band, C.DISTANCE_MIN: lo, C.DISTANCE_MAX: hi,
                          C.B_MINUS_A: v})
     return pd.DataFrame(rows)

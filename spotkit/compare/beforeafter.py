@@ -219,8 +219,8 @@ def estimate_before_after(counts, keys, n_boot, seed, confidence, min_pairs, clu
                         np.random.default_rng([int(seed), g, int(period)]))
                     cw = cw * V[:, dpos]
                 wb = np.asarray(S @ cw.T).T
-                reps.append((stats.censored_mixture_mle_batch(v, k, wb)[0] if use_mix
-                             else stats.censored_normal_mle_batch(v, k, wb)[0]))
+                reps.append(stats.censored_mixture_mle_batch(v, k, wb)[0] if use_mix
+                             else stats.censored_normal_mle_batch(v, k, wb)[0])
         if not (np.isfinite(fits[0].mu) and np.isfinite(fits[1].mu)):
             notes[g] = f"no estimate: the censored fit has no maximum in a period ({base})"
             continue

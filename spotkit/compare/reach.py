@@ -109,7 +109,7 @@ def reach_summary(pairs: pd.DataFrame, *, by_band: bool = True,
             d = reached[C.DISTANCE].to_numpy(dtype=float)
             heard = int(p[col].sum())
             lo, hi = wilson_interval(heard, n, confidence)
-            rows.append({**dict(zip(keys, key)), C.ANTENNA: name,
+            rows.append({**dict(zip(keys, key, strict=True)), C.ANTENNA: name,
                          C.STATIONS: int(len(reached)),
                          C.STATIONS_ONLY: int((s[col] & ~s[other]).sum()),
                          C.PAIRS: n, C.HEARD: heard, C.P_HEARD: heard / n if n else np.nan,
@@ -231,7 +231,7 @@ class ReachResult:
         show["stations"] = s[C.STATIONS].map("{:,}".format)
         show["only"] = s[C.STATIONS_ONLY].map("{:,}".format)
         show["P(heard)"] = [f"{p:.2f} ({lo:.2f}-{hi:.2f})" for p, lo, hi in
-                            zip(s[C.P_HEARD], s[C.P_HEARD_LOW], s[C.P_HEARD_HIGH])]
+                            zip(s[C.P_HEARD], s[C.P_HEARD_LOW], s[C.P_HEARD_HIGH], strict=True)]
         for col, name in ((C.DISTANCE_MEDIAN, "median km"), (C.DISTANCE_P90, "90 % km"),
                           (C.DISTANCE_FARTHEST, "farthest km")):
             show[name] = s[col].map(lambda x: "" if pd.isna(x) else f"{x:,.0f}")

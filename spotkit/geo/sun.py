@@ -313,9 +313,9 @@ def add_sun_columns(df: pd.DataFrame, twilight_deg: float = CIVIL_TWILIGHT_DEG) 
     Returns
     -------
     pandas.DataFrame
-        A new frame: ``df``'s columns and float64 ``C.TX_SUN``, ``C.RX_SUN``, ``C.MID_SUN`` [deg, geometric
-        elevation] and categorical ``C.PATH_LIGHT`` (day / greyline / mixed / night; NaN
-        where a position or time is missing).
+        A new frame: ``df``'s columns and float64 ``C.TX_SUN``, ``C.RX_SUN``, ``C.MID_SUN``
+        [deg, geometric elevation] and categorical ``C.PATH_LIGHT`` (day / greyline / mixed /
+        night; NaN where a position or time is missing).
 
     References
     ----------

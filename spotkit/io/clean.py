@@ -80,7 +80,7 @@ class Distinct:
         if new.size:
             texts = values[new]
             first = len(self.texts)
-            for k, (t, v) in zip(new, zip(texts, self.fn(texts))):
+            for k, (t, v) in zip(new, zip(texts, self.fn(texts), strict=True), strict=True):
                 if v is None:
                     c = -2
                 else:
@@ -118,7 +118,8 @@ def _time_codes(cols: list[TextColumn]) -> tuple[np.ndarray, np.ndarray]:
     codes, uniq = pd.factorize(np.where(empty, -1, c0 * max(cols[1].values.size, 1) + c1))
     keys = np.asarray(uniq, dtype=np.int64)
     k0, k1 = np.divmod(np.maximum(keys, 0), max(cols[1].values.size, 1))
-    texts = np.array([f"{cols[0].values[a]} {cols[1].values[b]}" for a, b in zip(k0, k1)],
+    first, second = cols[0].values, cols[1].values
+    texts = np.array([f"{first[a]} {second[b]}" for a, b in zip(k0, k1, strict=True)],
                      dtype=object)
     codes = np.asarray(codes, dtype=np.int64)
     if (keys < 0).any():  # the empty combination: code -1
@@ -198,8 +199,8 @@ def _cell_text(column, idx: np.ndarray, decimal: str, numeric: bool) -> np.ndarr
     if not numeric:
         return text
     nums = _to_number(pd.Series(text, dtype="str"), decimal).to_numpy(dtype=float)
-    return np.array([_fmt_number(x) if np.isfinite(x) else t for t, x in zip(text, nums)],
-                    dtype=object)
+    return np.array([_fmt_number(x) if np.isfinite(x) else t
+                     for t, x in zip(text, nums, strict=True)], dtype=object)
 
 
 def _fmt_number(x: float) -> str:

@@ -27,9 +27,9 @@ from __future__ import annotations
 import re
 import warnings
 from collections import deque
+from collections.abc import Iterator
 from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass
-from typing import Iterator
 
 import numpy as np
 import pandas as pd
@@ -59,7 +59,7 @@ class TextColumn:
         return out
 
     @classmethod
-    def from_text(cls, series: pd.Series) -> "TextColumn":
+    def from_text(cls, series: pd.Series) -> TextColumn:
         """Dictionary-encode a text column (missing values: empty cells)."""
         import pyarrow as pa
         import pyarrow.compute as pc

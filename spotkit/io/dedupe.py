@@ -28,6 +28,8 @@ References
 """
 from __future__ import annotations
 
+from itertools import pairwise
+
 import numpy as np
 import pandas as pd
 
@@ -137,7 +139,7 @@ class SeenKeys:
         self.runs.append(hs)
         self.size += hs.size
         if len(self.runs) > self.MAX_RUNS:  # merge the two smallest neighbours
-            k = int(np.argmin([a.size + b.size for a, b in zip(self.runs, self.runs[1:])]))
+            k = int(np.argmin([a.size + b.size for a, b in pairwise(self.runs)]))
             merged = np.concatenate(self.runs[k:k + 2])
             merged.sort(kind="stable")  # two sorted runs: a merge
             self.runs[k:k + 2] = [merged]

@@ -42,7 +42,7 @@ def _solve(tlat, tlon, rlat, rlon) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
         first = pool.submit(one, slice(None, half))
         second = one(slice(half, None))
         first = first.result()
-    return tuple(np.concatenate([a, b]) for a, b in zip(first, second))
+    return tuple(np.concatenate([a, b]) for a, b in zip(first, second, strict=True))
 
 
 def _grown(a: np.ndarray, size: int) -> np.ndarray:

@@ -102,7 +102,7 @@ def write_foreign_csv(spots: pd.DataFrame, path, layout: str = "comma", *,
     if corrupt:
         rows = rng.choice(n, size=min(int(corrupt), n), replace=False)
         junk = rng.integers(0, len(_JUNK), rows.size)
-        for r, j in zip(rows, junk):
+        for r, j in zip(rows, junk, strict=True):
             table[r, _JUNK[j][0]] = _JUNK[j][1]
         clean = np.setdiff1d(np.arange(n), rows)
     else:
@@ -121,7 +121,7 @@ def write_foreign_csv(spots: pd.DataFrame, path, layout: str = "comma", *,
     if lay["headings"] is None:
         mapping = {k: i + 1 for i, k in enumerate(_LAYOUT_FIELDS)}
     else:
-        mapping = dict(zip(_LAYOUT_FIELDS, lay["headings"]))
+        mapping = dict(zip(_LAYOUT_FIELDS, lay["headings"], strict=True))
     units = {"time": "epoch" if lay["time"] == "epoch" else "iso", "frequency": funit,
              "power": lay["power"]}
     return mapping, units

@@ -163,7 +163,7 @@ class Truth:
         return text
 
     @classmethod
-    def from_json(cls, source) -> "Truth":
+    def from_json(cls, source) -> Truth:
         """Read what :meth:`to_json` wrote: JSON text, or a path (.json or .json.gz)."""
         name = "truth JSON"
         if isinstance(source, (str, Path)) and not str(source).lstrip().startswith("{"):

@@ -286,8 +286,8 @@ def draw_paths(ax, home, lat, lon, *, color="#4a4a4a", alpha=None, linewidth=0.4
         jump = np.abs(np.diff(x, axis=1)) > width / 3
         segs = np.stack([x, y], axis=-1)
         if jump.any():  # split the few paths that cross the map edge
-            out = [s for s, j in zip(segs, jump) if not j.any()]
-            for s, j in zip(segs[jump.any(axis=1)], jump[jump.any(axis=1)]):
+            out = [s for s, j in zip(segs, jump, strict=True) if not j.any()]
+            for s, j in zip(segs[jump.any(axis=1)], jump[jump.any(axis=1)], strict=True):
                 out.extend(np.split(s, np.flatnonzero(j) + 1))
             segs = out
     if alpha is None:  # fainter the more paths there are

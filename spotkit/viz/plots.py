@@ -61,7 +61,7 @@ def band_colors(bands=None) -> dict:
 
     cmap = matplotlib.colormaps[BAND_CMAP]
     pos = np.linspace(*_BAND_SPAN, len(BAND_ORDER))
-    table = {b: cmap(p) for b, p in zip(BAND_ORDER, pos)}
+    table = {b: cmap(p) for b, p in zip(BAND_ORDER, pos, strict=True)}
     names = BAND_ORDER if bands is None else list(bands)
     return {b: table.get(b, (0.5, 0.5, 0.5, 1.0)) for b in names}
 
@@ -122,7 +122,8 @@ def _interval_plot(result, lo_col, hi_col, key, xlabel, *, band=None, ax=None,
                     color=colors.get(b, "#333333") if b else "#333333",
                     label=b if b else "B - A", gid=f"estimate-{b or 'all'}")
         empty = ~np.isfinite(est)
-        for xi, n in zip(x[empty], sub[C.PAIRS].to_numpy()[empty] if C.PAIRS in sub else []):
+        counts = sub[C.PAIRS].to_numpy()[empty] if C.PAIRS in sub else ()
+        for xi, n in zip(x[empty][:len(counts)], counts, strict=True):
             ax.annotate(f"{int(n)} pairs:\nno estimate", (xi, 0), fontsize=6, ha="center",
                         va="bottom", color="#777777")
     ax.axhline(0.0, color="#444444", lw=0.8, zorder=0)
@@ -418,8 +419,8 @@ def duration_tradeoff_plot(table: pd.DataFrame, ax=None):
     Parameters
     ----------
     table : pandas.DataFrame
-        From :func:`spotkit.plan.duration.duration_table` (closed-form lines; simulated points with their
-        Monte-Carlo error bars when present).
+        From :func:`spotkit.plan.duration.duration_table` (closed-form lines; simulated points
+        with their Monte-Carlo error bars when present).
     ax : matplotlib.axes.Axes, optional
         Axes to draw on; a new figure when None.
 

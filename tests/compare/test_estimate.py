@@ -7,8 +7,6 @@ independent held-out generator (``tests/heldout.py``) with known truth.
 from __future__ import annotations
 
 import json
-import sys
-from pathlib import Path
 
 import heldout
 import numpy as np
@@ -88,7 +86,7 @@ def _coverage_of_200_runs(design, **kw):
                          difference_db=1.0, **kw)
     p = pair_spots(sim.spots, **sim.compare_kwargs())
     rx = np.sort(p[C.CLUSTER].astype(str).unique())
-    run_of = dict(zip(rx, np.random.default_rng(0).permutation(rx.size) % 200))
+    run_of = dict(zip(rx, np.random.default_rng(0).permutation(rx.size) % 200, strict=True))
     counts = summarise_pairs(p, ())
     counts.insert(0, "run", counts[C.CLUSTER].map(run_of))
     res = estimate_groups(counts, n_boot=200, seed=1, min_pairs=10)
@@ -117,7 +115,7 @@ def _plain_difference_tobit(counts, keys):
         agg = g.groupby([C.KIND, C.VALUE], observed=True)[C.COUNT].sum().reset_index()
         fit = stats.censored_normal_mle(agg[C.VALUE], agg[C.KIND].astype(str).map(code),
                                         agg[C.COUNT])
-        rows.append(dict(zip(keys, key), plain=fit.mu))
+        rows.append(dict(zip(keys, key, strict=True), plain=fit.mu))
     return pd.DataFrame(rows)
 
 
@@ -309,7 +307,7 @@ def test_groups_table_verdicts_and_too_few(small_result):
     assert "too few pairs" in text and "B-A dB" in text
     v = small_result.verdicts()
     assert all(isinstance(s, str) and s for s in v)
-    for s, (_, row) in zip(v[1:], g.iterrows()):
+    for s, (_, row) in zip(v[1:], g.iterrows(), strict=True):
         if pd.isna(row[C.B_MINUS_A]):
             assert "too few pairs" in s
         elif row[C.CI_LOW] <= 0 <= row[C.CI_HIGH]:
@@ -403,7 +401,7 @@ def test_cli_bad_call_and_bad_option(small_sim, tmp_path, capsys):
 
 
 def test_cli_alternating_reads_a_planned_schedule(tmp_path, capsys):
-    """The schedule CSV written by spotkit.plan.duration (start, end, band, antenna) is read back."""
+    """The schedule CSV written by spotkit.plan (start, end, band, antenna) is read back."""
     from spotkit.plan.schedule import make_schedule
     sched = make_schedule("2026-03-02", 1, ["20m"], seed=1)
     sched_csv = tmp_path / "schedule.csv"

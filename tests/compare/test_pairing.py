@@ -236,7 +236,7 @@ def test_before_after_target_on_the_air_but_not_heard_is_a_bound():
     assert p[C.LIMIT_B].iloc[2] == -16.0 and np.isnan(p[C.SNR_B].iloc[2])
     assert p[C.DISTANCE].nunique() == 1  # geometry of the censored rows from Q2RX's path
     counts = summarise_pairs(p, ())
-    got = dict(zip(counts[C.KIND].astype(str), counts[C.VALUE]))
+    got = dict(zip(counts[C.KIND].astype(str), counts[C.VALUE], strict=True))
     # heard: -17 - (-16) = -1 dB before; -14 + 16 = +2 dB after
     assert got == {"before": -1.0, "after": 2.0, "before_below": -16.0,
                    "after_below": -16.0}

@@ -1,4 +1,5 @@
-"""Tests of spotkit.compare.reach: stations reached, distance quantiles, bearing sectors, P(heard)."""
+"""Tests of spotkit.compare.reach: stations reached, distance quantiles, bearing sectors,
+P(heard)."""
 from __future__ import annotations
 
 import json

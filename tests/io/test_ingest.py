@@ -57,7 +57,7 @@ def _same_from_pandas_reader(res, path, monkeypatch, **kw):
     assert res.summary == ref.summary
 
 
-# --- layouts -----------------------------------------------------------------------------------
+# --- layouts --------------------------------------------------------------------------------------
 def test_basic_file_gives_canonical_table(data_dir):
     res = read_spots(data_dir / "ingest_basic.csv")
     df = res.spots
@@ -172,12 +172,12 @@ def test_headerless_all_positions_mapped(tmp_path):
     assert res.spots[C.SOURCE_ROW].tolist() == [1, 2, 3, 4]
 
 
-# --- time and slots ---------------------------------------------------------------------------
+# --- time and slots -------------------------------------------------------------------------------
 def test_times_snap_to_even_minute_slots(tmp_path):
     # slots start on even UTC minutes (common practice): 10:01:30 -> 10:00, 10:03:59 -> 10:02
     times = ["2026-03-01 10:00", "2026-03-01 10:01:30", "2026-03-01T10:03:59Z",
              "2026-03-01 10:04:00"]
-    rows = [t + r[r.index(","):] for t, r in zip(times, ROWS)]
+    rows = [t + r[r.index(","):] for t, r in zip(times, ROWS, strict=True)]
     res = read_spots(_write(tmp_path, "t.csv", HEAD + "\n".join(rows) + "\n"))
     slots = res.spots[C.SLOT].dt.strftime("%H:%M").tolist()
     assert slots == ["10:00", "10:00", "10:02", "10:04"]
@@ -195,7 +195,7 @@ def test_split_date_and_time_headings_are_joined(tmp_path):
     assert res.spots[C.SLOT].iloc[0] == pd.Timestamp("2026-03-01 10:02", tz="UTC")
 
 
-# --- units ------------------------------------------------------------------------------------
+# --- units ----------------------------------------------------------------------------------------
 def test_explicit_units_win_and_ambiguous_file_is_refused(tmp_path):
     text = HEAD.replace("frequency mhz", "frequency").replace("power dbm", "power")
     text += "2026-03-01 10:00,Q1ABC,JN58td,Q7XYZ,IO91lk,14097.1,-12,100,0\n"
@@ -226,7 +226,7 @@ def test_epoch_given_explicitly(tmp_path):
     assert res.spots[C.TIME].iloc[0] == pd.Timestamp("2026-03-01 10:00", tz="UTC")
 
 
-# --- mapping ----------------------------------------------------------------------------------
+# --- mapping --------------------------------------------------------------------------------------
 def test_ambiguous_headings_raise_mapping_error_listing_them(data_dir):
     with pytest.raises(MappingError) as exc:
         read_spots(data_dir / "ingest_ambiguous.csv")
@@ -305,7 +305,7 @@ def test_duplicates_across_files_and_chunks(tmp_path):
     _balanced(res)
 
 
-# --- files that are not spot tables -----------------------------------------------------------------
+# --- files that are not spot tables ---------------------------------------------------------------
 @pytest.mark.parametrize("content,what", [
     (b"", "empty"), (b"   \n\n", "empty"), (b"\x89PNG\r\n\x1a\n\x00\x00\x00\rIHDR" * 20, "binary"),
     (b"<!DOCTYPE html>\n<html><body><table><tr><td>x</td></tr></table></body></html>", "HTML"),
@@ -382,7 +382,7 @@ def test_cli_usage_and_input_errors(data_dir, tmp_path, capsys):
     assert "not a spot table" in capsys.readouterr().err
 
 
-# --- property: nothing is lost ---------------------------------------------------------------------
+# --- property: nothing is lost --------------------------------------------------------------------
 # junk without the delimiter: a stray comma moves the columns (covered by the rejects fixture)
 _JUNK = st.one_of(st.just(""), st.text(alphabet="abcXYZ019 -.:/#;é", max_size=8),
                   st.integers(-1000, 100000).map(str), st.floats(allow_nan=True).map(str))
@@ -560,5 +560,5 @@ def test_path_cache_numbers_categories_that_do_not_extend_the_ones_seen():
         rx = pd.Categorical.from_codes(rng.integers(0, len(rx_cats), 40), rx_cats)
         got = cache.lookup(tx, rx)
         ref = add_path_columns(pd.DataFrame({C.TX_LOCATOR: tx, C.RX_LOCATOR: rx}))
-        for name, values in zip(C.DERIVED, got):
+        for name, values in zip(C.DERIVED, got, strict=True):
             np.testing.assert_array_equal(values, ref[name].to_numpy(), err_msg=name)

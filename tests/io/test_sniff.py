@@ -58,9 +58,9 @@ def test_power_unit_refused_when_ambiguous():
 
 @pytest.mark.parametrize("gz", [False, True])
 @pytest.mark.parametrize("tail, expected", [
-    ("Zürich".encode("utf-8"), "utf-8"),      # valid UTF-8 after the first 8 MB block
+    ("Zürich".encode(), "utf-8"),      # valid UTF-8 after the first 8 MB block
     ("Zürich".encode("latin-1"), "latin-1"),  # a byte that is not UTF-8 there
-    ("ü".encode("utf-8")[:1], "latin-1"),     # a sequence cut off by the end of the file
+    ("ü".encode()[:1], "latin-1"),     # a sequence cut off by the end of the file
 ])
 def test_encoding_found_beyond_the_first_block(tmp_path, gz, tail, expected):
     # the whole file is checked, not just its head: an ASCII first block (8 MB) and then
@@ -72,7 +72,7 @@ def test_encoding_found_beyond_the_first_block(tmp_path, gz, tail, expected):
     block = 1 << 23
     line = b"2026-03-01 10:00,Q1ABC,JN58td,Q2XYZ,IO91lk,14.0971,-12,23,0\n"
     body = line * (block // len(line)) + b"x" * (block % len(line) - 1)
-    body += "é".encode("utf-8") + b"\n" + tail + b"\n"  # the "é" starts at block - 1
+    body += "é".encode() + b"\n" + tail + b"\n"  # the "é" starts at block - 1
     path = tmp_path / ("s.csv.gz" if gz else "s.csv")
     with (gzip.open(path, "wb") if gz else open(path, "wb")) as fh:
         fh.write(body)

@@ -75,7 +75,8 @@ def test_append_read_back_and_layout(tmp_path):
     assert_same_spots(got, df)
     # one directory per band x slot day; midnight UTC splits the slots (20:00 -> 08:00)
     days = df[C.SLOT].dt.strftime("%Y-%m-%d")
-    want_dirs = {f"{C.BAND}={b}/{store.DAY}={d}" for b, d in zip(df[C.BAND].astype(str), days)}
+    want_dirs = {f"{C.BAND}={b}/{store.DAY}={d}"
+                 for b, d in zip(df[C.BAND].astype(str), days, strict=True)}
     got_dirs = {str(p.parent.relative_to(root)) for p in root.rglob("*.parquet")}
     assert got_dirs == want_dirs and len(want_dirs) == 6
     man = store.dataset_manifest(root)
@@ -284,7 +285,7 @@ def test_partition_filters_skip_other_directories(tmp_path):
     assert_same_spots(got, want)
     assert all(f.startswith(f"{C.BAND}=20m/{store.DAY}=2026-12-01")
                for f in store.archive_files(root, bands="20m", start="2026-12-01"))
-    with pytest.raises(Exception):
+    with pytest.raises(InputError, match="cannot read"):
         store.read_dataset(root, bands="40m")
 
 

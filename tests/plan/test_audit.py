@@ -62,14 +62,14 @@ def test_audit_finds_every_deliberately_broken_slot(rng, tmp_path):
     gap_i, wrong_i, ghost_i = pick[:8], pick[8:16], pick[16:]
     # 1. gaps: all reports of 8 slots removed
     SB = [C.SLOT, C.BAND]
-    gap_slots = set(zip(s[C.SCHEDULE_START].iloc[gap_i], s[C.BAND].iloc[gap_i]))
+    gap_slots = set(zip(s[C.SCHEDULE_START].iloc[gap_i], s[C.BAND].iloc[gap_i], strict=True))
     spots = spots[~_in(spots, SB, gap_slots)].reset_index(drop=True)
     # 2. wrong antenna: 8 slots run at the other antenna's power
-    wrong_slots = set(zip(s[C.SCHEDULE_START].iloc[wrong_i], s[C.BAND].iloc[wrong_i]))
+    wrong_slots = set(zip(s[C.SCHEDULE_START].iloc[wrong_i], s[C.BAND].iloc[wrong_i], strict=True))
     hit = _in(spots, SB, wrong_slots)
     spots.loc[hit, C.POWER] = np.where(spots.loc[hit, C.POWER] == P_A, P_B, P_A)
     # 3. off schedule: the station heard on the band it was not scheduled on (band hop)
-    ghost_slots = set(zip(s[C.SCHEDULE_START].iloc[ghost_i], s[C.BAND].iloc[ghost_i]))
+    ghost_slots = set(zip(s[C.SCHEDULE_START].iloc[ghost_i], s[C.BAND].iloc[ghost_i], strict=True))
     ghost = spots[_in(spots, SB, ghost_slots)].copy()
     ghost[C.BAND] = np.where(ghost[C.BAND] == "20m", "10m", "20m")
     #    and after the schedule ended
@@ -78,7 +78,7 @@ def test_audit_finds_every_deliberately_broken_slot(rng, tmp_path):
     # 4. one clock hour x band in which every B slot is silent
     h5 = hour.iloc[0] + pd.Timedelta(hours=5)
     b5 = s[(hour == h5) & (s[C.BAND] == "10m") & (s[C.ANTENNA] == "B")]
-    silent = set(zip(b5[C.SCHEDULE_START], b5[C.BAND]))
+    silent = set(zip(b5[C.SCHEDULE_START], b5[C.BAND], strict=True))
     spots = spots[~_in(spots, SB, silent)]
     spots = pd.concat([spots, ghost, late], ignore_index=True)
     spots = spots.sample(frac=1.0, random_state=1).reset_index(drop=True)
@@ -88,7 +88,7 @@ def test_audit_finds_every_deliberately_broken_slot(rng, tmp_path):
     r = audit_schedule(spots, path, "Q1ABC")
     sl = r.slots
     found = lambda status: set(zip(sl.loc[sl["status"] == status, C.SLOT],  # noqa: E731
-                                   sl.loc[sl["status"] == status, C.BAND]))
+                                   sl.loc[sl["status"] == status, C.BAND], strict=True))
     assert found("gap") == gap_slots | silent
     assert found("wrong_antenna") == wrong_slots
     assert found("unknown_power") == set()
@@ -97,10 +97,10 @@ def test_audit_finds_every_deliberately_broken_slot(rng, tmp_path):
     assert set(off.loc[off[C.REJECT_REASON] == "not scheduled", C.SLOT]) == {
         pd.Timestamp("2026-12-02T00:10Z")}
     assert set(zip(off.loc[off[C.REJECT_REASON] != "not scheduled", C.SLOT],
-                   off.loc[off[C.REJECT_REASON] != "not scheduled", C.BAND])) == set(
-        zip(ghost[C.SLOT], ghost[C.BAND].astype(str)))
+                   off.loc[off[C.REJECT_REASON] != "not scheduled", C.BAND], strict=True)) == set(
+        zip(ghost[C.SLOT], ghost[C.BAND].astype(str), strict=True))
     one = r.hours[r.hours["one_antenna"]]
-    assert list(zip(one["hour_utc"], one[C.BAND])) == [(h5, "10m")]
+    assert list(zip(one["hour_utc"], one[C.BAND], strict=True)) == [(h5, "10m")]
     # the findings table lists each problem once
     f = r.to_frame()
     assert (f[C.KIND] == "gap").sum() == len(gap_slots | silent)
@@ -117,7 +117,7 @@ def test_audit_finds_every_deliberately_broken_slot(rng, tmp_path):
     cs = r.corrected_schedule()
     fixed = cs[_in(cs, [C.SCHEDULE_START, C.BAND], wrong_slots)]
     orig = s.set_index([C.SCHEDULE_START, C.BAND]).loc[list(
-        zip(fixed[C.SCHEDULE_START], fixed[C.BAND])), C.ANTENNA].to_numpy()
+        zip(fixed[C.SCHEDULE_START], fixed[C.BAND], strict=True)), C.ANTENNA].to_numpy()
     assert (fixed[C.ANTENNA].to_numpy() != orig).all()
     assert "wrong antenna" in r.text
 
@@ -160,16 +160,17 @@ def test_audit_finds_mistakes_in_a_simulated_run(rng):
     sim = _simulate(ran, 0.5, 5, bands=("20m", "10m"), power_a_dbm=37.0, power_b_dbm=30.0)
     spots = sim.spots
     SB = [C.SLOT, C.BAND]
-    heard = set(zip(spots[C.SLOT], spots[C.BAND].astype(str)))
-    flipped = set(zip(ran[C.SCHEDULE_START].iloc[flip], ran[C.BAND].iloc[flip]))
-    all_slots = set(zip(planned[C.SCHEDULE_START], planned[C.BAND]))
+    heard = set(zip(spots[C.SLOT], spots[C.BAND].astype(str), strict=True))
+    flipped = set(zip(ran[C.SCHEDULE_START].iloc[flip], ran[C.BAND].iloc[flip], strict=True))
+    all_slots = set(zip(planned[C.SCHEDULE_START], planned[C.BAND], strict=True))
     heard_ok = sorted((heard & all_slots) - flipped)
     lose = {heard_ok[i] for i in rng.choice(len(heard_ok), size=6, replace=False)}
     spots = spots[~_in(spots.assign(**{C.BAND: spots[C.BAND].astype(str)}), SB, lose)]
-    heard = set(zip(spots[C.SLOT], spots[C.BAND].astype(str)))
+    heard = set(zip(spots[C.SLOT], spots[C.BAND].astype(str), strict=True))
     r = audit_schedule(spots, planned, sim.a)
     sl = r.slots
-    found = {st: set(zip(sl.loc[sl["status"] == st, C.SLOT], sl.loc[sl["status"] == st, C.BAND]))
+    found = {st: set(zip(sl.loc[sl["status"] == st, C.SLOT], sl.loc[sl["status"] == st, C.BAND],
+                         strict=True))
              for st in ("gap", "wrong_antenna", "unknown_power")}
     assert r.markers == {"A": 37.0, "B": 30.0}
     assert found["wrong_antenna"] == flipped & heard  # every flipped slot that was heard

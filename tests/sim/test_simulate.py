@@ -206,9 +206,9 @@ def test_truth_matches_the_spots(sims):
     tr = sim.truth.pairs
     sp = sim.spots
     a_keys = set(zip(sp.loc[sp[C.TX_CALL] == sim.a, C.RX_CALL].astype(str),
-                     sp.loc[sp[C.TX_CALL] == sim.a, C.SLOT]))
+                     sp.loc[sp[C.TX_CALL] == sim.a, C.SLOT], strict=True))
     t_keys = set(zip(tr.loc[tr[C.HEARD_A], C.RX_CALL].astype(str),
-                     tr.loc[tr[C.HEARD_A], C.SLOT]))
+                     tr.loc[tr[C.HEARD_A], C.SLOT], strict=True))
     assert a_keys == t_keys
     d = sp.groupby(C.RX_CALL, observed=True)[C.DISTANCE].first()
     td = tr.groupby(C.RX_CALL)[C.DISTANCE].first()
@@ -347,7 +347,7 @@ def test_cli_simulate_writes_spots_truth_and_prints_compare(tmp_path, capsys):
     assert "spotkit compare" in text and "--a Q1ABC --b Q1ABD" in text
     truth = Truth.from_json(tmp_path / "run.truth.json")
     cells = truth.cells(distance_edges=(0, 20000))
-    assert dict(zip(cells[C.BAND], cells[C.B_MINUS_A])) == pytest.approx({"10m": 1.5,
+    assert dict(zip(cells[C.BAND], cells[C.B_MINUS_A], strict=True)) == pytest.approx({"10m": 1.5,
                                                                           "20m": 0.0})
     ingest = pytest.importorskip("spotkit.io.ingest")
     assert ingest.read_spots(out).summary.accepted > 100

@@ -39,7 +39,7 @@ def test_coverage_plots_one_marker_per_distinct_receiver_per_band(sim):
     bands = sorted(spots[C.BAND].astype(str).unique(), key=lambda b: -int(b[:-1]))
     geo_axes = [ax for ax in fig.axes if hasattr(ax, "projection")]
     assert len(geo_axes) == len(bands)
-    for ax, band in zip(geo_axes, bands):
+    for ax, band in zip(geo_axes, bands, strict=True):
         sub = spots[spots[C.BAND].astype(str) == band]
         (stations,) = _by_gid(ax, "stations")
         n = sub[C.RX_CALL].nunique()

@@ -75,7 +75,7 @@ def test_running_median_is_the_bin_median():
     y = -x / 100 + rng.normal(0, 3, x.size)
     m = plots.running_median(x, y, bin_km=500)
     assert m["x"].tolist() == [250.0, 750.0, 1250.0, 1750.0]
-    for xm, med in zip(m["x"], m["median"]):
+    for xm, med in zip(m["x"], m["median"], strict=True):
         sel = (x >= xm - 250) & (x < xm + 250)
         assert med == pytest.approx(np.median(y[sel]))
 
@@ -106,7 +106,7 @@ def test_bearing_plot_is_a_compass_with_ci_bands():
     assert ax.get_theta_offset() == pytest.approx(np.pi / 2)  # 0 deg at the top (north)
     est = [ln for ln in ax.lines if ln.get_gid() == "estimate-all"]
     assert len(est) == 4
-    for ln, (lo, value) in zip(est, [(0, 1.0), (90, -0.5), (180, 2.0), (270, 0.0)]):
+    for ln, (lo, value) in zip(est, [(0, 1.0), (90, -0.5), (180, 2.0), (270, 0.0)], strict=True):
         assert np.allclose(ln.get_ydata(), value)
         assert np.degrees(ln.get_xdata()[0]) == pytest.approx(lo)
     assert len([c for c in ax.collections if c.get_gid() == "ci-all"]) == 4
