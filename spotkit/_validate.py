@@ -17,6 +17,8 @@ from __future__ import annotations
 
 from collections.abc import Iterable, Sequence
 
+import pandas as pd
+
 from spotkit.errors import UsageError
 
 
@@ -121,4 +123,40 @@ def check_positive(value: float, what: str) -> float:
     return float(value)
 
 
-__all__ = ["check_choice", "check_choices", "check_confidence", "check_positive"]
+def check_time(value, what: str) -> pd.Timestamp:
+    """Read a time argument as a UTC timestamp; a time without a zone is taken as UTC.
+
+    Parameters
+    ----------
+    value : str, datetime-like
+        ISO 8601 text, ``datetime``, ``numpy.datetime64`` or ``pandas.Timestamp``.
+    what : str
+        The argument's name, for the message (``"start"``, ``"change_at"``).
+
+    Returns
+    -------
+    pandas.Timestamp
+        In UTC.
+
+    Raises
+    ------
+    UsageError
+        ``<what>: cannot read <value> as a time (...)`` or ``<what>: no time given``.
+
+    Examples
+    --------
+    >>> check_time("2026-03-02 12:00", "start")
+    Timestamp('2026-03-02 12:00:00+0000', tz='UTC')
+    >>> check_time("2026-03-02T12:00+01:00", "start")
+    Timestamp('2026-03-02 11:00:00+0000', tz='UTC')
+    """
+    try:
+        ts = pd.Timestamp(value)
+    except (ValueError, TypeError) as exc:
+        raise UsageError(f"{what}: cannot read {value!r} as a time ({exc})") from None
+    if ts is pd.NaT:
+        raise UsageError(f"{what}: no time given")
+    return ts.tz_localize("UTC") if ts.tzinfo is None else ts.tz_convert("UTC")
+
+
+__all__ = ["check_choice", "check_choices", "check_confidence", "check_positive", "check_time"]

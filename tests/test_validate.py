@@ -78,6 +78,41 @@ def _calls():
     }
 
 
+def test_time_arguments_are_read_as_utc_or_refused():
+    from spotkit._validate import check_time
+
+    assert str(check_time("2026-03-02", "start")) == "2026-03-02 00:00:00+00:00"
+    with pytest.raises(UsageError, match="start: cannot read 'notadate' as a time"):
+        check_time("notadate", "start")
+    with pytest.raises(UsageError, match="end: no time given"):
+        check_time(None, "end")
+
+
+# what `spotkit simulate --start notadate`, `--change-at garbage`, `--corrupt -3` and
+# `--duplicates 2` hand the library: the first three were bare ValueErrors (a traceback on
+# the command line), the last was silently capped
+SIMULATOR_CALLS = {
+    "start": ("simulate_spots", {"start": "notadate"}),
+    "change_at": ("simulate_spots", {"design": "before-after", "change_at": "garbage",
+                                     "days": 1, "n_receivers": 5}),
+    "corrupt": ("write_foreign_csv", {"spots": pd.DataFrame(), "path": "out.csv",
+                                      "corrupt": -3}),
+    "duplicates": ("write_foreign_csv", {"spots": pd.DataFrame(), "path": "out.csv",
+                                         "duplicates": 2}),
+}
+
+
+@pytest.mark.parametrize("argument", sorted(SIMULATOR_CALLS))
+def test_simulator_arguments_raise_usage_errors(argument, tmp_path, monkeypatch):
+    from spotkit import sim
+
+    name, kwargs = SIMULATOR_CALLS[argument]
+    monkeypatch.chdir(tmp_path)
+    with pytest.raises(UsageError, match=argument):
+        getattr(sim, name)(**kwargs)
+    assert not list(tmp_path.iterdir())
+
+
 @pytest.mark.parametrize("name", sorted(_calls()))
 def test_bad_choices_raise_usage_errors_listing_the_valid_ones(name):
     with pytest.raises(UsageError, match="valid: "):

@@ -61,7 +61,7 @@ import numpy as np
 import pandas as pd
 
 from spotkit import columns as C
-from spotkit._validate import check_choice
+from spotkit._validate import check_choice, check_time
 from spotkit.compare.grouping import _DAY_NS, _SLOT_NS, _ns, _to_utc
 from spotkit.errors import InputError, NoPairsError, SpotkitWarning, UsageError
 from spotkit.units import REFERENCE_POWER_DBM, snr_per_watt
@@ -682,12 +682,7 @@ def _pair_before_after(spots, a, b, change_at, set_aside, cats, thr):
     if change_at is None:
         raise UsageError("the before-after design needs change_at (the moment the antenna "
                          "changed, UTC)")
-    try:
-        t_change = pd.Timestamp(change_at)
-    except (ValueError, TypeError):
-        raise UsageError(f"change_at {change_at!r} is not a time") from None
-    t_change = t_change.tz_localize("UTC") if t_change.tz is None else t_change.tz_convert(
-        "UTC")
+    t_change = check_time(change_at, "change_at")
     df = _add(spots, _slot=_ns(spots[C.SLOT]) // _SLOT_NS, _band=spots[C.BAND],
               _cluster=spots[C.RX_CALL],
               _snrw=snr_per_watt(spots[C.SNR], spots[C.POWER]))

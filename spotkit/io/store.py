@@ -48,7 +48,7 @@ import pyarrow.dataset as ds
 import pyarrow.parquet as pq
 
 from spotkit import columns as C
-from spotkit._validate import check_choice
+from spotkit._validate import check_choice, check_time
 from spotkit.bands import BAND_ORDER
 from spotkit.errors import InputError, UsageError
 
@@ -493,14 +493,6 @@ def _check_partition_columns(names, partition_by) -> None:
         raise InputError(f"spot table has neither {C.SLOT} nor {C.TIME} to partition by day")
 
 
-def _as_timestamp(value, name: str) -> pd.Timestamp:
-    try:
-        ts = pd.Timestamp(value)
-    except (ValueError, TypeError) as exc:
-        raise UsageError(f"{name}={value!r}: not a date/time ({exc})") from None
-    return ts.tz_localize("UTC") if ts.tzinfo is None else ts.tz_convert("UTC")
-
-
 def dataset_filter(*, bands=None, start=None, end=None, tx_calls=None, rx_calls=None,
                    locator_prefix=None, partition_by: Sequence[str] = PARTITION_KEYS
                    ) -> pc.Expression | None:
@@ -542,8 +534,8 @@ def dataset_filter(*, bands=None, start=None, end=None, tx_calls=None, rx_calls=
     if bands is not None:
         terms.append(pc.field(C.BAND).isin(_as_list(bands)))
     if start is not None or end is not None:
-        t0 = _as_timestamp(start, "start") if start is not None else None
-        t1 = _as_timestamp(end, "end") if end is not None else None
+        t0 = check_time(start, "start") if start is not None else None
+        t1 = check_time(end, "end") if end is not None else None
         if t0 is not None and t1 is not None and t1 <= t0:
             raise UsageError(f"end {t1} is not after start {t0}")
         if t0 is not None:

@@ -69,11 +69,10 @@ import pandas as pd
 from scipy import stats as _st
 
 from spotkit import columns as C
-from spotkit._validate import check_choice
+from spotkit._validate import check_choice, check_time
 from spotkit.bands import sort_bands
 from spotkit.errors import InputError, UsageError
 from spotkit.plan.schedule import (
-    _as_utc,
     _check_bands,
     make_schedule,
 )
@@ -713,7 +712,7 @@ def duration_by_simulation(effect_db: float, hours: Sequence[float], *, n_runs: 
     if any(not h > 0 for h in hours):
         raise UsageError("run lengths must be positive hours")
     band = _check_bands([band])[0]
-    t0 = _as_utc(start, "start").floor("D")
+    t0 = check_time(start, "start").floor("D")
     seeds = np.random.SeedSequence(seed).generate_state(len(hours) * int(n_runs))
     seeds = seeds.reshape(len(hours), int(n_runs))
     todo = [(i, j) for i in range(len(hours)) for j in range(int(n_runs))]

@@ -37,6 +37,7 @@ import numpy as np
 import pandas as pd
 
 from spotkit import columns as C
+from spotkit._validate import check_time
 from spotkit.bands import BAND_ORDER
 from spotkit.compare.pairing import read_schedule
 from spotkit.errors import InputError, UsageError
@@ -51,16 +52,6 @@ HOUR_UTC = "hour_utc"  # start of a clock hour [UTC]
 # ---------------------------------------------------------------------------------------------
 # schedules
 # ---------------------------------------------------------------------------------------------
-def _as_utc(value, name: str) -> pd.Timestamp:
-    try:
-        ts = pd.Timestamp(value)
-    except (ValueError, TypeError) as exc:
-        raise UsageError(f"{name}: cannot read {value!r} as a time ({exc})") from None
-    if ts is pd.NaT:
-        raise UsageError(f"{name}: no time given")
-    return ts.tz_localize("UTC") if ts.tzinfo is None else ts.tz_convert("UTC")
-
-
 def _check_bands(bands) -> list[str]:
     if isinstance(bands, str):
         bands = [b for b in bands.split(",") if b.strip()]
@@ -176,7 +167,7 @@ def make_schedule(start, days: float, bands: Sequence[str] | str, *, slot_minute
     >>> hop["band"].head(6).tolist(), hop["antenna"].head(6).tolist()
     (['10m', '10m', '20m', '20m', '10m', '10m'], ['A', 'B', 'A', 'B', 'A', 'B'])
     """
-    t0 = _as_utc(start, "start")
+    t0 = check_time(start, "start")
     if t0 != t0.floor("h"):
         raise UsageError(f"start {t0.isoformat()} is not on a whole UTC hour; schedules are "
                          "balanced hour by hour, so start on the hour")

@@ -16,6 +16,7 @@ import pandas as pd
 
 from spotkit import columns as C
 from spotkit._validate import check_choice
+from spotkit.errors import UsageError
 
 #: Invented CSV layouts: delimiter, heading line (None: none), time format ("epoch" or a
 #: strftime format), frequency unit and decimals, power unit. Field order is always time,
@@ -61,11 +62,12 @@ def write_foreign_csv(spots: pd.DataFrame, path, layout: str = "comma", *,
         W, headings the reader cannot guess; ``tab``: ISO 8601 with Z, Hz, mW; ``space``:
         no heading line, epoch seconds, MHz, dBm; ``canonical``: glossary names.
     duplicates : float
-        Fraction of rows uploaded twice (the copy follows a little later in the file).
+        Fraction of rows uploaded twice, 0 to 1 (the copy follows a little later in the
+        file).
     corrupt : int
-        Number of rows with one field replaced by junk (bad time, empty call, bad locator,
-        non-numeric frequency or SNR, power out of range, frequency out of band); never
-        duplicated.
+        Number of rows (0 or more) with one field replaced by junk (bad time, empty call,
+        bad locator, non-numeric frequency or SNR, power out of range, frequency out of
+        band); never duplicated.
     seed : int
         Seed for choosing duplicated and corrupted rows.
 
@@ -78,6 +80,10 @@ def write_foreign_csv(spots: pd.DataFrame, path, layout: str = "comma", *,
         dBm|W|mW), for ``read_spots``.
     """
     check_choice(layout, tuple(LAYOUTS), "layout")
+    if not 0.0 <= duplicates <= 1.0:
+        raise UsageError(f"duplicates must be a fraction from 0 to 1, got {duplicates}")
+    if int(corrupt) != corrupt or corrupt < 0:
+        raise UsageError(f"corrupt must be a whole number of rows, 0 or more, got {corrupt}")
     lay = LAYOUTS[layout]
     rng = np.random.default_rng(seed)
     n = len(spots)

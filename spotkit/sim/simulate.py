@@ -60,7 +60,7 @@ from scipy.signal import lfilter
 from tqdm.auto import tqdm
 
 from spotkit import columns as C
-from spotkit._validate import check_choice
+from spotkit._validate import check_choice, check_time
 from spotkit.bands import BEACON_DIAL_KHZ
 from spotkit.errors import LocatorError, UsageError
 from spotkit.geo.geodesic import (
@@ -323,8 +323,7 @@ def simulate_spots(design: Design = "simultaneous", *, days: float = 3, seed: in
             raise UsageError(f"unknown band {band!r}; valid: {', '.join(_BAND_MODEL)}")
     if days <= 0:
         raise UsageError("days must be positive")
-    t0 = pd.Timestamp(start)
-    t0 = (t0.tz_localize("UTC") if t0.tz is None else t0.tz_convert("UTC")).normalize()
+    t0 = check_time(start, "start").normalize()
     slot_ns = C.SLOT_MINUTES * 60 * 10**9
     n_slots = int(round(days * 24 * 60 / C.SLOT_MINUTES))
     if n_slots < 1:
@@ -353,9 +352,7 @@ def simulate_spots(design: Design = "simultaneous", *, days: float = 3, seed: in
         if change_at is None:
             change_at = t0 + pd.Timedelta(days=max(1, int(days // 2))) if days >= 2 \
                 else t0 + pd.Timedelta(minutes=C.SLOT_MINUTES * (n_slots // 2))
-        change_at = pd.Timestamp(change_at)
-        change_at = change_at.tz_localize("UTC") if change_at.tz is None \
-            else change_at.tz_convert("UTC")
+        change_at = check_time(change_at, "change_at")
     else:
         change_at = None
 
