@@ -5,7 +5,7 @@ PY     := $(VENV)/bin/python
 STAMP  := $(VENV)/.installed
 OUT    ?= out
 
-.PHONY: setup demo test test-fast browser bench clean
+.PHONY: setup demo lint test test-fast browser bench clean
 
 setup: $(STAMP)
 
@@ -26,8 +26,12 @@ browser:
 	    DEBIAN_FRONTEND=noninteractive apt-get install -y -qq chromium >/dev/null 2>&1) ) || \
 	  echo "note: chromium not installed; the browser test will be skipped"
 
-## Set up and run the whole test suite
-test: setup browser
+## ruff over the package, the tests and the benchmarks (settings in pyproject.toml)
+lint: setup
+	$(PY) -m ruff check spotkit tests benchmarks
+
+## Set up, lint, and run the whole test suite (with the docstrings' examples)
+test: setup browser lint
 	$(PY) -m pytest -n 2 --dist loadgroup
 
 test-fast: setup
