@@ -24,7 +24,7 @@ from pathlib import Path
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
-from spotkit.sim.simulate import DESIGNS, simulate_spots  # noqa: E402
+from spotkit.sim.simulate import DESIGNS, simulate_spots
 
 TARGET_S = 10.0
 

@@ -461,7 +461,7 @@ def read_schedule(source) -> pd.DataFrame:
             df = pd.read_csv(source, dtype=str, skipinitialspace=True)
         except FileNotFoundError:
             raise
-        except Exception as exc:  # noqa: BLE001 - any parse failure is bad input
+        except Exception as exc:  # any parse failure is bad input
             raise InputError(f"{name}: cannot read the schedule CSV ({exc})") from None
     df.columns = [str(c).strip().lower() for c in df.columns]
     need = [C.SCHEDULE_START, C.SCHEDULE_END, C.ANTENNA]
