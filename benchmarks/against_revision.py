@@ -5,7 +5,8 @@ chosen ``bench_*.py`` runs on both trees, alternately and ``--repeat`` times (ru
 shared VM vary by 20 % even when it is idle, so the fastest of each is compared). The old
 revision is checked out with ``git worktree`` into a temporary folder and run with its own
 benchmark script on ``PYTHONPATH``, in the same virtual environment. Every figure the
-scripts print in seconds or MB is lined up with its counterpart:
+scripts print in seconds or MB (or as a decimal number in a table) is lined up with its
+counterpart:
 
     .venv/bin/python benchmarks/against_revision.py --rev 1e348bd \\
         --bench compare="--pairs 200000 --boot 100" --bench simulate="--days 1"
@@ -25,6 +26,8 @@ from pathlib import Path
 
 REPO = Path(__file__).resolve().parents[1]
 NUMBER = re.compile(r"(?<![\w.])(\d[\d,]*(?:\.\d+)?)\s*(s|MB|MiB|GB|GiB)\b")
+# a table cell: a decimal number standing alone (the column heading says its unit)
+CELL = re.compile(r"(?<![\w.,])(\d+\.\d+)(?![\w.,])")
 
 
 def figures(text: str) -> dict[str, tuple[float, str]]:
@@ -35,8 +38,10 @@ def figures(text: str) -> dict[str, tuple[float, str]]:
         found = [m.groups() for m in NUMBER.finditer(line)
                  if not re.search(r"(target|<|<=|>=)\s*$", line[:m.start()])]
         if not found:
+            found = [(m.group(1), "") for m in CELL.finditer(line)]
+        if not found:
             continue
-        label = NUMBER.sub(lambda m: "#" + m.group(2), line).strip()
+        label = CELL.sub("#", NUMBER.sub(lambda m: "#" + m.group(2), line)).strip()
         label = re.sub(r"\d[\d,.]*", "#", label)
         for i, (value, unit) in enumerate(found):
             key = label if len(found) == 1 else f"{label} [{i + 1}]"
