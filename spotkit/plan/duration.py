@@ -29,8 +29,8 @@ Run length (:func:`duration_closed_form`, :func:`duration_by_simulation`,
     interval) and how wide it is. Its Monte-Carlo error is reported beside it.
 
 Switching schedules live in :mod:`spotkit.plan.schedule` and the audit of a finished run in
-:mod:`spotkit.plan.audit`; their public names are re-exported here (``plan.make_schedule``,
-``plan.audit_schedule``, ...).
+:mod:`spotkit.plan.audit`; the subpackage :mod:`spotkit.plan` offers all three modules' names
+(``plan.make_schedule``, ``plan.duration_table``, ``plan.audit_schedule``, ...).
 
 Known error: the closed form is a planning figure. Its inputs (spread, report rate,
 correlation, censored fraction) come from a pilot day or from defaults, and propagation on the

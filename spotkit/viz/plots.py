@@ -122,10 +122,10 @@ def _interval_plot(result, lo_col, hi_col, key, xlabel, *, band=None, ax=None,
                     color=colors.get(b, "#333333") if b else "#333333",
                     label=b if b else "B - A", gid=f"estimate-{b or 'all'}")
         empty = ~np.isfinite(est)
-        counts = sub[C.PAIRS].to_numpy()[empty] if C.PAIRS in sub else ()
-        for xi, n in zip(x[empty][:len(counts)], counts, strict=True):
-            ax.annotate(f"{int(n)} pairs:\nno estimate", (xi, 0), fontsize=6, ha="center",
-                        va="bottom", color="#777777")
+        if C.PAIRS in sub:
+            for xi, n in zip(x[empty], sub[C.PAIRS].to_numpy()[empty], strict=True):
+                ax.annotate(f"{int(n)} pairs:\nno estimate", (xi, 0), fontsize=6,
+                            ha="center", va="bottom", color="#777777")
     ax.axhline(0.0, color="#444444", lw=0.8, zorder=0)
     ax.set_xlabel(xlabel)
     ax.set_ylabel("B minus A [dB]  (95 % CI)")
