@@ -102,13 +102,9 @@ def cmd_archive(args) -> int:
             print(table.to_string(index=False))
         return EXIT_OK
     by = [k for k in args.by.replace(" ", "").split(",") if k]
-    try:
-        from spotkit.compare.grouping import parse_by
-        parse_by(by)
-    except ValueError as exc:
-        if isinstance(exc, UsageError):
-            raise
-        raise UsageError(f"--by: {exc}") from None
+    from spotkit.compare.grouping import parse_by
+
+    parse_by(by)  # a bad key is a UsageError naming the valid ones, before Dask starts
     result = distributed.compare_dask(
         args.dataset, args.design, args.a, args.b, by=by, schedule=args.schedule,
         change_at=args.change_at, window_slots=args.window, n_boot=args.boot, seed=args.seed,
