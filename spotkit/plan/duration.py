@@ -132,7 +132,7 @@ def pairs_needed(effect_db: float, *, sigma_db: float, alpha: float = 0.05,
     power = _check_prob(power, "power")
     if not np.isfinite(effect_db) or effect_db == 0:
         raise UsageError(f"effect_db={effect_db} must be a non-zero number of dB")
-    if not sigma_db > 0:
+    if not 0 < sigma_db < math.inf:
         raise UsageError(f"sigma_db={sigma_db} must be positive")
     z = _st.norm.ppf(1 - alpha / 2) + _st.norm.ppf(power)
     return float((z * sigma_db / effect_db) ** 2)
@@ -224,7 +224,7 @@ def _censoring_factor(censored_fraction, censoring_factor) -> float:
 
 def _variance_terms(sigma_db, icc, clusters, censored_fraction, censoring_factor=None):
     """(within, floor): Var(mean of N pairs) = within / N + floor [dB^2]."""
-    if not sigma_db > 0:
+    if not 0 < sigma_db < math.inf:
         raise UsageError(f"sigma_db={sigma_db} must be positive")
     icc = float(icc)
     if not 0.0 <= icc < 1.0:
@@ -239,12 +239,19 @@ def _variance_terms(sigma_db, icc, clusters, censored_fraction, censoring_factor
 
 @dataclass(frozen=True)
 class DurationEstimate:
-    """Closed-form run length; see :func:`duration_closed_form`.
+    """Run length needed, with what it assumed; see :func:`duration_closed_form` and
+    :func:`duration_from_pilot`.
+
+    ``design_effect`` is the one factor applied: the variance of the estimate at the answer
+    divided by ``sigma^2 / pairs`` (the variance of the mean of that many independent,
+    uncensored pairs with the per-pair spread ``sigma``). It carries everything that makes
+    spot pairs worth less than independent ones - receivers that disagree about B-minus-A
+    (clustering) and pairs in which only one antenna was heard (censoring).
 
     Examples
     --------
     >>> est = duration_closed_form(1.0, sigma_db=3.0, pairs_per_hour=100)
-    >>> est.feasible, round(float(est.hours), 2), round(float(est.ci_width_db), 2)
+    >>> est.feasible, round(est.hours, 2), round(est.ci_width_db, 2)
     (True, 0.71, 1.4)
     >>> sorted(est.to_dict())[:4]
     ['alpha', 'censored_fraction', 'censoring_factor', 'ci_width_db']
@@ -264,6 +271,14 @@ class DurationEstimate:
     icc: float
     clusters: float | None
     censored_fraction: float
+    design: str | None = None
+    source: str = "closed form"
+
+    def __post_init__(self):
+        # plain Python numbers, so that the repr and to_dict() read as numbers
+        for name, value in self.__dict__.items():
+            if isinstance(value, (np.floating, np.integer)):
+                object.__setattr__(self, name, float(value))
 
     @property
     def feasible(self) -> bool:
@@ -275,30 +290,45 @@ class DurationEstimate:
         d["feasible"] = self.feasible
         return d
 
+    def _design_text(self) -> str:
+        return f"the {self.design} design" if self.design else "a paired design"
+
     def __str__(self) -> str:
         if not self.feasible:
             return (f"No run length is enough to detect {self.effect_db:g} dB with power "
-                    f"{self.power:g}: with icc {self.icc:g} and {self.clusters:g} receivers the "
-                    "between-receiver spread alone exceeds what the test allows; more "
-                    "receivers are needed, not more hours.")
-        return (f"{self.hours:.1f} h ({self.pairs:.0f} pairs at {self.pairs_per_hour:g} pairs/h) "
-                f"to detect {self.effect_db:g} dB with power {self.power:g} at alpha "
-                f"{self.alpha:g}; {self.pairs_simple:.1f} pairs without clustering or censoring, "
-                f"x{self.design_effect:.2f} for clustering, /{self.censoring_factor:.3f} for "
-                f"censoring; expected CI width {self.ci_width_db:.2f} dB.")
+                    f"{self.power:g} ({self._design_text()}, {self.source}): receivers that "
+                    "disagree about B-A leave more uncertainty than the test allows however "
+                    f"long the run ({self.clusters:.0f} effective receivers); more receivers "
+                    "are needed, or a larger effect, not more hours.")
+        d = self.design_effect
+        d = f"{d:.2f}" if d < 100 else f"{d:,.0f}"
+        return (f"{self.hours:.1f} h ({self.pairs:,.0f} pairs at {self.pairs_per_hour:.4g} "
+                f"pairs/h) to detect {self.effect_db:g} dB with power {self.power:g} at alpha "
+                f"{self.alpha:g}, assuming {self._design_text()} ({self.source}); design "
+                f"effect {d}: the estimate's variance is {d} times that of as many "
+                f"independent, uncensored pairs with spread {self.sigma_db:.2f} dB (which would "
+                f"need only {self.pairs_simple:,.1f} pairs); expected CI width "
+                f"{self.ci_width_db:.2f} dB.")
+
+    def __repr__(self) -> str:
+        return f"DurationEstimate({self})"
 
 
 def duration_closed_form(effect_db: float, *, sigma_db: float, pairs_per_hour: float,
                          alpha: float = 0.05, power: float = 0.8, icc: float = 0.0,
                          clusters: float | None = None,
                          censored_fraction: float = 0.0,
-                         censoring_factor: float | None = None) -> DurationEstimate:
-    """Hours of alternating or simultaneous beacons needed to detect a B-minus-A difference.
+                         censoring_factor: float | None = None,
+                         design: str | None = None) -> DurationEstimate:
+    """Hours of a paired design (simultaneous, alternating or receive) needed to detect a
+    B-minus-A difference, from given inputs.
 
     Solves ``Var(N) = sigma^2 (1 - icc) / (N r) + sigma^2 icc / clusters`` equal to
     ``(effect / (z_(1-alpha/2) + z_(power)))^2`` for the number of pairs N, then divides by
     the report rate. ``r`` is :func:`censoring_information` of the censored fraction. With
-    ``icc = 0`` and no censoring N equals :func:`pairs_needed`.
+    ``icc = 0`` and no censoring N equals :func:`pairs_needed`. The design effect reported
+    is the factor applied, ``Var(N) N / sigma^2`` (Kish's ``1 + (m - 1) icc`` without
+    censoring). The inputs are the user's; :func:`duration_from_pilot` measures them.
 
     Parameters
     ----------
@@ -318,14 +348,17 @@ def duration_closed_form(effect_db: float, *, sigma_db: float, pairs_per_hour: f
     censored_fraction : float
         Fraction of pairs in which only one antenna was heard.
     censoring_factor : float, optional
-        Measured information per pair relative to an uncensored pair (e.g. from a pilot,
-        :class:`PilotParameters`); overrides the value computed from ``censored_fraction``.
+        Information per pair relative to an uncensored pair; overrides the value computed
+        from ``censored_fraction``.
+    design : {"simultaneous", "alternating", "receive"}, optional
+        The paired design the inputs describe (stated in the answer; the formula is the
+        same for all three).
 
     Returns
     -------
     DurationEstimate
         ``hours`` [h] (``inf`` when no run length suffices), ``pairs``, ``pairs_simple``
-        (no clustering, no censoring), ``design_effect`` (``1 + (m - 1) icc`` at the answer),
+        (no clustering, no censoring), ``design_effect`` (the variance factor applied),
         ``censoring_factor`` r, ``ci_width_db`` (expected width of the ``1 - alpha``
         confidence interval at that run length) [dB].
 
@@ -339,16 +372,17 @@ def duration_closed_form(effect_db: float, *, sigma_db: float, pairs_per_hour: f
     Without clustering or censoring the answer is :func:`pairs_needed` over the rate:
 
     >>> print(duration_closed_form(1.0, sigma_db=3.0, pairs_per_hour=100))
-    0.7 h (71 pairs at 100 pairs/h) to detect 1 dB with power 0.8 at alpha 0.05; 70.6 pairs
-    without clustering or censoring, x1.00 for clustering, /1.000 for censoring; expected CI
-    width 1.40 dB.
+    0.7 h (71 pairs at 100 pairs/h) to detect 1 dB with power 0.8 at alpha 0.05, assuming a
+    paired design (closed form); design effect 1.00: the estimate's variance is 1.00 times
+    that of as many independent, uncensored pairs with spread 3.00 dB (which would need only
+    70.6 pairs); expected CI width 1.40 dB.
 
     With 40 receivers, a small intraclass correlation and 30 % one-sided pairs:
 
     >>> est = duration_closed_form(1.0, sigma_db=3.0, pairs_per_hour=100, icc=0.02,
     ...                            clusters=40, censored_fraction=0.3)
     >>> [round(float(x), 3) for x in (est.pairs, est.design_effect, est.censoring_factor)]
-    [76.218, 1.018, 0.942]
+    [76.218, 1.079, 0.942]
 
     Five receivers that disagree a lot: no run length is enough:
 
@@ -357,7 +391,7 @@ def duration_closed_form(effect_db: float, *, sigma_db: float, pairs_per_hour: f
     (inf, False)
     """
     n0 = pairs_needed(effect_db, sigma_db=sigma_db, alpha=alpha, power=power)
-    if not pairs_per_hour > 0:
+    if not 0 < pairs_per_hour < math.inf:
         raise UsageError(f"pairs_per_hour={pairs_per_hour} must be positive")
     within, floor = _variance_terms(sigma_db, icc, clusters, censored_fraction,
                                     censoring_factor)
@@ -368,16 +402,18 @@ def duration_closed_form(effect_db: float, *, sigma_db: float, pairs_per_hour: f
     else:
         n = within / (target - floor)
     r = _censoring_factor(censored_fraction, censoring_factor)
-    m = n / clusters if clusters else 1.0
-    deff = 1.0 + (m - 1.0) * icc if np.isfinite(n) else math.inf
+    # the one design effect: the variance applied over sigma^2 / N (clustering and censoring)
+    deff = (within + floor * n) / sigma_db ** 2 if np.isfinite(n) else math.inf
     width = 2 * z_a * math.sqrt(within / n + floor) if np.isfinite(n) else math.nan
+    if design is not None:
+        check_choice(design, PAIRED_DESIGNS, "design of the closed form (a paired design)")
     return DurationEstimate(
         effect_db=float(effect_db), hours=n / pairs_per_hour, pairs=n, pairs_simple=n0,
         design_effect=deff, censoring_factor=r, ci_width_db=width,
         pairs_per_hour=float(pairs_per_hour), sigma_db=float(sigma_db), alpha=float(alpha),
         power=float(power), icc=float(icc),
         clusters=None if clusters is None else float(clusters),
-        censored_fraction=float(censored_fraction))
+        censored_fraction=float(censored_fraction), design=design)
 
 
 def power_closed_form(hours, effect_db: float, *, sigma_db: float, pairs_per_hour: float,
@@ -400,7 +436,7 @@ censoring_factor
     pandas.DataFrame
         ``hours`` [h], ``pairs``, ``se_db`` (standard error of the estimate) [dB],
         ``ci_width_db`` (expected width of the ``1 - alpha`` interval) [dB], ``power``
-        (two-sided, both tails).
+        (two-sided, both tails), ``design_effect`` (see :class:`DurationEstimate`).
 
     Examples
     --------
@@ -408,17 +444,17 @@ censoring_factor
 
     >>> table = power_closed_form([0.5, 1, 2, 4], 1.0, sigma_db=3.0, pairs_per_hour=100)
     >>> print(table.round(3).to_string(index=False))
-     hours  pairs  se_db  ci_width_db  power
-       0.5   50.0  0.424        1.663  0.654
-       1.0  100.0  0.300        1.176  0.915
-       2.0  200.0  0.212        0.832  0.997
-       4.0  400.0  0.150        0.588  1.000
+     hours  pairs  se_db  ci_width_db  power  design_effect
+       0.5   50.0  0.424        1.663  0.654            1.0
+       1.0  100.0  0.300        1.176  0.915            1.0
+       2.0  200.0  0.212        0.832  0.997            1.0
+       4.0  400.0  0.150        0.588  1.000            1.0
     """
     _check_prob(alpha, "alpha")
     h = np.atleast_1d(np.asarray(hours, dtype=float))
-    if np.any(~(h > 0)):
-        raise UsageError("run lengths must be positive hours")
-    if not pairs_per_hour > 0:
+    if np.any(~np.isfinite(h)) or np.any(h <= 0):
+        raise UsageError("run lengths must be positive, finite hours")
+    if not 0 < pairs_per_hour < math.inf:
         raise UsageError(f"pairs_per_hour={pairs_per_hour} must be positive")
     within, floor = _variance_terms(sigma_db, icc, clusters, censored_fraction,
                                     censoring_factor)
@@ -427,60 +463,86 @@ censoring_factor
     z_a = _st.norm.ppf(1 - alpha / 2)
     pw = _st.norm.cdf(abs(effect_db) / se - z_a) + _st.norm.cdf(-abs(effect_db) / se - z_a)
     return pd.DataFrame({C.HOURS: h, C.PAIRS: n, C.SE: se, C.CI_WIDTH: 2 * z_a * se,
-                         "power": pw})
+                         "power": pw, "design_effect": se ** 2 * n / sigma_db ** 2})
 
 
 # ---------------------------------------------------------------------------------------------
-# run length: inputs from a pilot run
+# run length: from a pilot run (measured, or the simulated default)
 # ---------------------------------------------------------------------------------------------
+#: designs whose pairs the closed form describes
+PAIRED_DESIGNS = ("simultaneous", "alternating", "receive")
+#: every design the planner handles (before-after through a pilot only)
+PLAN_DESIGNS = ("simultaneous", "alternating", "receive", "before-after")
+#: the simulated default pilot, when there is no real one: two antennas whose difference
+#: depends on the path (so receivers genuinely disagree), unequal powers, the simulator's
+#: heterogeneous receivers (noise floors, thresholds, uptimes)
+DEFAULT_PILOT = dict(antenna_a="vertical", antenna_b="dipole", power_a_dbm=37.0,
+                     power_b_dbm=33.0)
+_WINDOWS_H = (1.0, 2.0, 3.0, 4.0, 6.0, 8.0, 12.0, 16.0, 20.0)
+
+
 @dataclass(frozen=True)
 class PilotParameters:
-    """What a pilot run says about the inputs of :func:`duration_closed_form`.
+    """What a pilot run says about a longer run of the same set-up.
+
+    The pilot is compared as the real run would be
+    (:func:`spotkit.compare.estimate.compare_antennas`); its interval is the anchor, and the
+    planner scales it to other run lengths (:meth:`se_at`). For a paired design the
+    variance of the estimate has two parts (Kish 1965; Davison & Hinkley 1997, sec. 3.8):
+
+    * within receivers, falling as ``1 / pairs``;
+    * between receivers - their true B-minus-A differ (the antennas' patterns differ by
+      direction and elevation) - falling as ``1 / clusters``, the effective number of
+      receivers ``(sum m_i)^2 / sum m_i^2``, which stops growing once every receiver that
+      can hear the station has been heard.
+
+    The split comes from the pilot: the independent-pairs variance ``se_iid^2`` (a plain
+    censored-normal fit, Tobin 1958) is the within part, the rest of the cluster bootstrap's
+    ``se^2`` the between part. For the before-after design the day-to-day change of
+    propagation dominates (:mod:`spotkit.compare.beforeafter`), so the variance is scaled by
+    the days per period.
 
     Attributes
     ----------
+    design : str
+        Design of the pilot (and of the planned run).
     band : str or None
         Band used (None: all bands).
     hours : float
         Span of the pilot [h].
     pairs : int
-        Pairs in the pilot.
+        Pairs (before-after: observations) in the pilot.
     pairs_per_hour : float
         Report rate [1/h].
     mean_db, sigma_db : float
-        B-minus-A as the comparison reports it (the censored-normal fit with its threshold
-        correction) and the fit's per-pair spread [dB].
+        B-minus-A as the comparison reports it, and the per-pair spread [dB].
     censored_fraction : float
-        Fraction of one-sided pairs.
+        Fraction of one-sided pairs (observations where the target was not heard).
+    se_db : float
+        The pilot's own standard error, its interval width over ``2 z`` [dB].
+    se_iid_db : float
+        Standard error if the pairs were independent [dB] (NaN for before-after).
+    between_share : float
+        Share of ``se_db^2`` due to receivers that disagree, ``1 - se_iid^2 / se^2``
+        clipped to [0, 1] (NaN for before-after).
     censoring_factor : float
-        Measured information per pair relative to an uncensored pair,
-        ``sigma^2 / (N se_iid^2)``.
-    design_effect : float
-        Cluster-bootstrap variance over the independent-pairs variance of the estimate,
-        ``se_boot^2 / se_iid^2``, at the pilot's size.
-    icc : float
-        Intraclass correlation implied by it, ``(deff - 1) / (m - 1)`` with
-        ``m = pairs / clusters`` (0 when deff <= 1).
+        Information per pair relative to an uncensored pair, ``sigma^2 / (N se_iid^2)``
+        (for comparison with :func:`censoring_information`; it is part of ``se_iid`` and
+        not applied again; NaN for before-after).
     clusters : float
-        Effective number of receivers ``(sum m_i)^2 / sum m_i^2``.
+        Effective number of receivers (transmitters in the receive design).
     receivers : int
         Receivers (clusters) with at least one pair.
-    se_db : float
-        The pilot's own cluster-bootstrap standard error [dB].
-
-    Examples
-    --------
-    See :func:`pilot_parameters` for a pilot measured from spots; by hand:
-
-    >>> pilot = PilotParameters(band="20m", hours=24.0, pairs=2400, pairs_per_hour=100.0,
-    ...                         mean_db=1.2, sigma_db=3.0, censored_fraction=0.3,
-    ...                         censoring_factor=0.94, design_effect=2.0, icc=0.02,
-    ...                         clusters=40.0, receivers=55, se_db=0.1)
-    >>> pilot.closed_form_inputs()
-    {'sigma_db': 3.0, 'pairs_per_hour': 100.0, 'icc': 0.02, 'clusters': 40.0,
-     'censored_fraction': 0.3, 'censoring_factor': 0.94}
+    cluster_curve : tuple of (float, float)
+        (run length [h], effective clusters) for runs shorter than the pilot, averaged over
+        the runs of that length that fit in the pilot (start on every whole hour).
+    days_per_period : tuple of (int, int)
+        Before-after: days before and after the change (else (0, 0)).
+    confidence : float
+        Coverage of the pilot's interval.
     """
 
+    design: str
     band: str | None
     hours: float
     pairs: int
@@ -488,69 +550,133 @@ class PilotParameters:
     mean_db: float
     sigma_db: float
     censored_fraction: float
+    se_db: float
+    se_iid_db: float
+    between_share: float
     censoring_factor: float
-    design_effect: float
-    icc: float
     clusters: float
     receivers: int
-    se_db: float
+    cluster_curve: tuple = ()
+    days_per_period: tuple = (0, 0)
+    confidence: float = 0.95
+
+    def __post_init__(self):
+        for name, value in self.__dict__.items():
+            if isinstance(value, (np.floating, np.integer)):
+                object.__setattr__(self, name, value.item())
 
     def to_dict(self) -> dict:
         return dict(self.__dict__)
 
-    def closed_form_inputs(self) -> dict:
-        """Keyword arguments for :func:`duration_closed_form` / :func:`duration_table`."""
-        return dict(sigma_db=self.sigma_db, pairs_per_hour=self.pairs_per_hour,
-                    icc=self.icc, clusters=self.clusters,
-                    censored_fraction=self.censored_fraction,
-                    censoring_factor=self.censoring_factor)
+    @property
+    def design_effect(self) -> float:
+        """The pilot's variance over ``sigma^2 / pairs`` (see :class:`DurationEstimate`)."""
+        return self.se_db ** 2 * self.pairs / self.sigma_db ** 2
+
+    @property
+    def between_sd_db(self) -> float:
+        """Spread of the receivers' own B-minus-A implied by the between part [dB]."""
+        return math.sqrt(self.between_share * self.se_db ** 2 * self.clusters)
+
+    def clusters_at(self, hours) -> np.ndarray:
+        """Effective clusters of a run of ``hours`` [h] (the pilot's beyond its length)."""
+        h = np.asarray(hours, dtype=float)
+        if not self.cluster_curve:
+            return np.full(h.shape, self.clusters)
+        ch, cr = np.array(self.cluster_curve, dtype=float).T
+        # never more than the whole pilot's, never fewer for a longer run
+        cr = np.maximum.accumulate(np.minimum(np.r_[cr, self.clusters], self.clusters))
+        ch = np.r_[ch, self.hours]
+        return np.interp(np.log(h), np.log(ch), cr, left=cr[0], right=self.clusters)
+
+    def se_at(self, hours) -> np.ndarray:
+        """Predicted standard error of a run of ``hours`` [h] with this set-up [dB].
+
+        Paired designs: ``se^2 [(1 - f) H / h + f R / R(h)]`` with ``H``, ``R`` the pilot's
+        hours and effective clusters, ``f`` the between share. Before-after (the change in
+        the middle of the run): ``se^2 (2 / D) / (1 / D_before + 1 / D_after)`` with
+        ``D = floor(h / 48)`` days per period; NaN below two days per period (the
+        comparison then gives no interval).
+        """
+        h = np.asarray(hours, dtype=float)
+        if self.design == "before-after":
+            d = np.floor(h / 48.0 + 1e-9)
+            db, da = self.days_per_period
+            with np.errstate(divide="ignore", invalid="ignore"):
+                var = self.se_db ** 2 * (2.0 / d) / (1.0 / db + 1.0 / da)
+            return np.where(d >= 2, np.sqrt(var), np.nan)
+        f = self.between_share
+        var = self.se_db ** 2 * ((1 - f) * self.hours / h
+                                 + f * self.clusters / self.clusters_at(h))
+        return np.sqrt(var)
 
     def __str__(self) -> str:
         where = f" on {self.band}" if self.band else ""
-        return (f"pilot{where}: {self.hours:.1f} h, {self.pairs:,} pairs "
-                f"({self.pairs_per_hour:.1f}/h) from {self.receivers} receivers "
-                f"(effective {self.clusters:.1f}); B-A {self.mean_db:+.2f} dB "
-                f"(SE {self.se_db:.3f} dB), spread {self.sigma_db:.2f} dB; "
-                f"{100 * self.censored_fraction:.1f} % one-sided (information x"
-                f"{self.censoring_factor:.3f}); design effect {self.design_effect:.2f} "
-                f"(icc {self.icc:.4f})")
+        z = _st.norm.ppf(0.5 + self.confidence / 2)
+        text = (f"pilot ({self.design}{where}): {self.hours:.1f} h, {self.pairs:,} pairs "
+                f"({self.pairs_per_hour:.1f}/h) from {self.receivers} receivers (effective "
+                f"{self.clusters:.1f}); B-A {self.mean_db:+.2f} dB, "
+                f"{100 * self.confidence:g} % CI width {2 * z * self.se_db:.2f} dB "
+                f"(SE {self.se_db:.3f} dB); spread {self.sigma_db:.2f} dB; "
+                f"{100 * self.censored_fraction:.1f} % one-sided")
+        if self.design == "before-after":
+            db, da = self.days_per_period
+            return text + f"; {db} days before and {da} after the change"
+        return text + (f"; receivers disagree: {100 * self.between_share:.0f} % of the "
+                       f"variance (their own B-A spread {self.between_sd_db:.2f} dB)")
+
+
+def _cluster_curve(pairs: pd.DataFrame, hours: float) -> tuple:
+    """(h, effective clusters) averaged over the windows of ``h`` hours inside the pilot."""
+    t = pd.to_datetime(pairs[C.SLOT], utc=True)
+    hour = ((t - t.min()) // _HOUR).to_numpy(dtype=np.int64)
+    code = pd.factorize(pairs[C.CLUSTER].astype(str))[0]
+    m = np.zeros((code.max() + 1, hour.max() + 1))
+    np.add.at(m, (code, hour), 1.0)
+    cum = np.concatenate([np.zeros((m.shape[0], 1)), np.cumsum(m, axis=1)], axis=1)
+    out = []
+    for w in _WINDOWS_H:
+        k = int(w)
+        if k >= hours or k >= cum.shape[1]:
+            break
+        per = cum[:, k:] - cum[:, :-k]  # clusters x window starts
+        tot = per.sum(axis=0)
+        ok = tot > 0
+        if not ok.any():
+            continue
+        share2 = (per[:, ok] ** 2).sum(axis=0) / tot[ok] ** 2
+        out.append((float(w), float(1.0 / share2.mean())))
+    return tuple(out)
 
 
 def pilot_parameters(spots: pd.DataFrame, design: str, a: str, b: str | None = None, *,
-                     band: str | None = None, schedule=None, window_slots: int = 1,
-                     n_boot: int = 400, seed: int = 0) -> PilotParameters:
-    """Spread, report rate, censoring and clustering of B-minus-A from a pilot run.
+                     band: str | None = None, schedule=None, change_at=None,
+                     window_slots: int = 1, n_boot: int = 400, seed: int = 0,
+                     confidence: float = 0.95) -> PilotParameters:
+    """Report rate, spread, censoring and clustering of B-minus-A from a pilot run.
 
-    The pilot (e.g. a day of reports with the real set-up) is compared as the real run
-    would be (:func:`spotkit.compare.estimate.compare_antennas`). From it:
-
-    * ``sigma_db`` and ``mean_db``: the comparison's fitted spread and headline
-      B-minus-A; a plain censored-normal (Tobit) fit to all pairs, so one-sided pairs
-      count, gives the independent-pairs standard error ``se_iid`` (observed information)
-      and its own ``sigma`` for the two ratios below;
-    * the report rate: pairs per hour of the pilot's span (first to last slot of the band,
-      plus one slot);
-    * censoring, measured rather than modelled: ``censoring_factor = sigma^2 / (N se_iid^2)``;
-    * clustering, measured: ``design_effect = se_boot^2 / se_iid^2`` with ``se_boot`` the
-      cluster-bootstrap standard error (the interval width over ``2 z_0.975``); it is
-      turned into an ICC for :func:`duration_closed_form` by Kish's
-      ``deff = 1 + (m - 1) icc``. An ANOVA ICC of the both-heard differences would be
-      biased upwards here: near threshold the both-heard set of each receiver is selected
-      differently, which looks like between-receiver spread.
+    The pilot (a day of reports with the real set-up; for the before-after design at least
+    two days on each side of the change) is compared as the real run would be
+    (:func:`spotkit.compare.estimate.compare_antennas`): its interval width gives ``se_db``.
+    A plain censored-normal (Tobit) fit to all pairs, one-sided ones included, gives the
+    independent-pairs standard error (observed information); what the cluster bootstrap
+    adds to it is the between-receiver part (:class:`PilotParameters`). The report rate is
+    pairs per hour of the pilot's span (first to last slot of the band, plus one slot).
 
     Parameters
     ----------
     spots : pandas.DataFrame
         Canonical spot table of the pilot.
-    design, a, b, schedule, window_slots
-        As for :func:`spotkit.compare.estimate.compare_antennas` (a paired design: simultaneous,
-        alternating or receive).
+    design, a, b, schedule, change_at, window_slots
+        As for :func:`spotkit.compare.estimate.compare_antennas`.
     band : str, optional
         Use only this band's pairs (e.g. "10m").
     n_boot : int
-        Bootstrap resamples for the design effect.
+        Bootstrap resamples of the comparison.
     seed : int
         Seed of the bootstrap.
+    confidence : float
+        Coverage of the comparison's interval.
 
     Returns
     -------
@@ -563,31 +689,25 @@ def pilot_parameters(spots: pd.DataFrame, design: str, a: str, b: str | None = N
 
     Examples
     --------
-    A simulated 2.4-hour pilot (B 3 dB better than A; only 42 pairs, so the measured
-    design effect is itself uncertain):
+    A simulated half-day pilot, B 3 dB better than A on every path:
 
     >>> from spotkit.sim.simulate import simulate_spots
-    >>> sim = simulate_spots(days=0.1, n_receivers=30, bands=("20m",), difference_db=3.0,
+    >>> sim = simulate_spots(days=0.5, n_receivers=30, bands=("20m",), difference_db=3.0,
     ...                      seed=1)
     >>> pilot = pilot_parameters(sim.spots, "simultaneous", "Q1ABC", "Q1ABD", n_boot=50)
-    >>> print(pilot)
-    pilot: 2.0 h, 42 pairs (20.7/h) from 10 receivers (effective 6.9); B-A +3.23 dB (SE 0.259
-    dB), spread 2.37 dB; 2.4 % one-sided (information x0.996); design effect 0.48 (icc 0.0000)
-    >>> est = duration_closed_form(1.0, **pilot.closed_form_inputs())
-    >>> round(float(est.hours), 1)
-    2.1
+    >>> pilot.design, pilot.receivers, round(pilot.pairs_per_hour)
+    ('simultaneous', 16, 26)
     """
+    from spotkit.compare.beforeafter import DAY_SHARE
     from spotkit.compare.estimate import compare_antennas
     from spotkit.stats.censored import censored_normal_mle
 
-    if design not in SIM_DESIGNS:
-        raise UsageError(f"a pilot needs a paired design; valid: {', '.join(SIM_DESIGNS)}")
+    check_choice(design, PLAN_DESIGNS, "design")
     by = ("band",) if band is not None else ()
-    res = compare_antennas(spots, design, a, b, schedule=schedule, window_slots=window_slots,
-                           by=by, n_boot=n_boot, seed=seed, min_pairs=2)
-    counts = res.counts
-    span_spots = spots
-    row = res.overall
+    res = compare_antennas(spots, design, a, b, schedule=schedule, change_at=change_at,
+                           window_slots=window_slots, by=by, n_boot=n_boot, seed=seed,
+                           min_pairs=2, confidence=confidence)
+    counts, pairs, row, span_spots = res.counts, res.pairs, res.overall, spots
     if band is not None:
         band = str(band).strip().lower()
         bands = counts[C.BAND].astype(str)
@@ -595,11 +715,44 @@ def pilot_parameters(spots: pd.DataFrame, design: str, a: str, b: str | None = N
             raise InputError(f"the pilot has no pairs on {band}; bands with pairs: "
                              f"{', '.join(sort_bands(bands.unique().tolist()))}")
         counts = counts[(bands == band).to_numpy()]
+        pairs = pairs[(pairs[C.BAND].astype(str) == band).to_numpy()]
         span_spots = spots[(spots[C.BAND].astype(str) == band).to_numpy()]
         g = res.groups
         row = g[(g[C.BAND].astype(str) == band).to_numpy()].iloc[0].to_dict()
+    z = _st.norm.ppf(0.5 + confidence / 2)
+    se = (row[C.CI_HIGH] - row[C.CI_LOW]) / (2 * z)
+    if not np.isfinite(se) or se <= 0:
+        raise InputError(f"the pilot's comparison gives no interval ({row.get(C.NOTE, '')}); "
+                         "a pilot needs more reports"
+                         + (" and at least two days on each side of the change"
+                            if design == "before-after" else ""))
+    slots = pd.to_datetime(span_spots[C.SLOT], utc=True)
+    hours = ((slots.max() - slots.min()) + pd.Timedelta(minutes=C.SLOT_MINUTES)) / _HOUR
+    n = float(row[C.PAIRS])
+    per_cluster = pairs.groupby(C.CLUSTER, observed=True).size().to_numpy(float)
+    per_cluster = per_cluster[per_cluster > 0]
+    clusters = per_cluster.sum() ** 2 / (per_cluster ** 2).sum()
+    common = dict(design=design, band=band, hours=float(hours), pairs=int(n),
+                  pairs_per_hour=n / float(hours), mean_db=float(row[C.B_MINUS_A]),
+                  sigma_db=float(row[C.SIGMA]),
+                  censored_fraction=float((row[C.ONLY_A] + row[C.ONLY_B]) / n)
+                  if design != "before-after"
+                  else float(1 - (pairs[C.HEARD_A] | pairs[C.HEARD_B]).mean()),
+                  se_db=float(se), clusters=float(clusters),
+                  receivers=int(per_cluster.size), confidence=float(confidence))
+    if design == "before-after":
+        day = pd.to_datetime(pairs[C.SLOT], utc=True).dt.floor("D")
+        per_day = pairs.groupby([pairs[C.KIND].astype(str).to_numpy(), day.to_numpy()]).size()
+        days = []
+        for period in ("before", "after"):
+            sizes = per_day[period] if period in per_day.index.get_level_values(0) else []
+            sizes = np.asarray(sizes, dtype=float)
+            days.append(int((sizes >= DAY_SHARE * sizes.max()).sum()) if sizes.size else 0)
+        return PilotParameters(se_iid_db=math.nan, between_share=math.nan,
+                               censoring_factor=math.nan, days_per_period=tuple(days),
+                               **common)
     # the fit uses the pairs themselves; compare's extra threshold-edge rows only feed its
-    # correction of the estimate, which the headline below already carries
+    # correction of the estimate
     counts = counts[counts[C.KIND].astype(str).isin(C.KINDS).to_numpy()]
     kinds = counts[C.KIND].astype(str).map({"both": 0, "only_a": 1, "only_b": -1}).to_numpy()
     w = counts[C.COUNT].to_numpy(dtype=float)
@@ -607,33 +760,169 @@ def pilot_parameters(spots: pd.DataFrame, design: str, a: str, b: str | None = N
     if not (np.isfinite(fit.mu) and np.isfinite(fit.se_mu)):
         raise InputError("the pilot's pairs do not determine a spread (too few pairs in "
                          "which both antennas were heard)")
-    n = float(w.sum())
-    slots = pd.to_datetime(span_spots[C.SLOT], utc=True)
-    hours = ((slots.max() - slots.min()) + pd.Timedelta(minutes=C.SLOT_MINUTES)) / _HOUR
-    per_cluster = counts.groupby(C.CLUSTER, observed=True)[C.COUNT].sum().to_numpy(float)
-    clusters = n ** 2 / (per_cluster ** 2).sum()
-    z = _st.norm.ppf(0.5 + res.confidence / 2)
-    se_boot = (row[C.CI_HIGH] - row[C.CI_LOW]) / (2 * z)
-    r = min(1.0, fit.sigma ** 2 / (n * fit.se_mu ** 2))
-    deff = se_boot ** 2 / fit.se_mu ** 2
-    m = n / clusters
-    icc = min(0.99, max(0.0, (deff - 1.0) / (m - 1.0))) if m > 1 else 0.0
-    return PilotParameters(
-        band=band, hours=float(hours), pairs=int(n), pairs_per_hour=n / float(hours),
-        mean_db=float(row[C.B_MINUS_A]), sigma_db=float(row[C.SIGMA]),
-        censored_fraction=float(w[kinds != 0].sum() / n), censoring_factor=float(r),
-        design_effect=float(deff), icc=float(icc), clusters=float(clusters),
-        receivers=int(per_cluster.size), se_db=float(se_boot))
+    share = min(1.0, max(0.0, 1.0 - fit.se_mu ** 2 / se ** 2))
+    return PilotParameters(se_iid_db=float(fit.se_mu), between_share=float(share),
+                           censoring_factor=float(fit.sigma ** 2 / (n * fit.se_mu ** 2)),
+                           cluster_curve=_cluster_curve(pairs, float(hours)), **common)
+
+
+def simulate_default_pilot(design: str = "simultaneous", band: str = "10m", *,
+                           n_receivers: int = 300, seed: int = 0, start="2026-03-02",
+                           n_boot: int = 400) -> PilotParameters:
+    """The planner's stand-in for a pilot: a simulated run with realistic disagreement.
+
+    A ground-mounted vertical (A, 37 dBm) against a horizontal dipole 10 m high (B, 33 dBm;
+    :mod:`spotkit.sim.antenna`), so B-minus-A depends on the direction and elevation of each
+    path and receivers genuinely disagree, heard by the simulator's heterogeneous receivers
+    (noise floors, decode thresholds, uptimes; :func:`spotkit.sim.simulate.simulate_spots`).
+    One day for the paired designs; four days with the change after the second for the
+    before-after design (the comparison needs two days per period for an interval). It is
+    deliberately not optimistic, and it is not your station: a 24-hour pilot with your own
+    antennas gives a real answer.
+
+    Parameters
+    ----------
+    design : {"simultaneous", "alternating", "receive", "before-after"}
+        Design of the planned run.
+    band : str
+        Band.
+    n_receivers : int
+        Far stations simulated (receivers; transmitters in the receive design).
+    seed : int
+        Seed of the simulation and of the bootstrap.
+    start : str
+        First day simulated (UTC).
+    n_boot : int
+        Bootstrap resamples of the pilot's comparison.
+
+    Returns
+    -------
+    PilotParameters
+    """
+    from spotkit.sim.simulate import simulate_spots
+
+    check_choice(design, PLAN_DESIGNS, "design")
+    band = _check_bands([band])[0]
+    days = 4 if design == "before-after" else 1
+    kw = dict(DEFAULT_PILOT)
+    if design == "alternating":
+        kw["schedule"] = make_schedule(start, days, [band], seed=seed)
+    sim = simulate_spots(design, days=days, seed=seed, start=start, bands=(band,),
+                         n_receivers=int(n_receivers), n_transmitters=int(n_receivers), **kw)
+    return pilot_parameters(sim.spots, sim.design, sim.a, sim.b, band=band,
+                            schedule=sim.schedule, change_at=sim.change_at, n_boot=n_boot,
+                            seed=seed)
+
+
+def power_from_pilot(hours, effect_db: float, pilot: PilotParameters, *,
+                     alpha: float = 0.05) -> pd.DataFrame:
+    """Expected CI width and power after given run lengths, scaled from a pilot.
+
+    Parameters
+    ----------
+    hours : array-like
+        Run lengths [h].
+    effect_db : float
+        B-minus-A to detect [dB].
+    pilot : PilotParameters
+        From :func:`pilot_parameters` or :func:`simulate_default_pilot`.
+    alpha : float
+        Two-sided level.
+
+    Returns
+    -------
+    pandas.DataFrame
+        As :func:`power_closed_form`: ``hours``, ``pairs``, ``se_db``, ``ci_width_db``,
+        ``power``, plus ``design_effect`` (see :class:`DurationEstimate`); NaN where the
+        design gives no interval (before-after with fewer than two days per period).
+    """
+    _check_prob(alpha, "alpha")
+    h = np.atleast_1d(np.asarray(hours, dtype=float))
+    if np.any(~np.isfinite(h)) or np.any(h <= 0):
+        raise UsageError("run lengths must be positive, finite hours")
+    se = pilot.se_at(h)
+    n = h * pilot.pairs_per_hour
+    z_a = _st.norm.ppf(1 - alpha / 2)
+    e = abs(float(effect_db))
+    pw = _st.norm.cdf(e / se - z_a) + _st.norm.cdf(-e / se - z_a)
+    return pd.DataFrame({C.HOURS: h, C.PAIRS: n, C.SE: se, C.CI_WIDTH: 2 * z_a * se,
+                         "power": pw, "design_effect": se ** 2 * n / pilot.sigma_db ** 2})
+
+
+def duration_from_pilot(effect_db: float, pilot: PilotParameters, *, alpha: float = 0.05,
+                        power: float = 0.8, source: str = "pilot") -> DurationEstimate:
+    """Hours needed to detect a B-minus-A difference, scaled from a pilot.
+
+    The shortest run whose predicted standard error (:meth:`PilotParameters.se_at`) is at
+    most ``effect / (z_(1-alpha/2) + z_(power))``: below the pilot's length on a grid of
+    1-minute steps, beyond it in closed form (paired designs) or in whole days per period
+    (before-after, the change in the middle).
+
+    Parameters
+    ----------
+    effect_db : float
+        B-minus-A to detect [dB], non-zero.
+    pilot : PilotParameters
+        From :func:`pilot_parameters` or :func:`simulate_default_pilot`.
+    alpha, power : float
+        Two-sided level and power.
+    source : str
+        Where the pilot came from, for the answer's text.
+
+    Returns
+    -------
+    DurationEstimate
+        Its ``design_effect`` is the pilot-scaled variance at the answer over
+        ``sigma^2 / pairs``; ``icc`` the between-receiver share of the per-pair variance
+        this implies, ``clusters`` the effective receivers at the answer.
+    """
+    alpha = _check_prob(alpha, "alpha")
+    power = _check_prob(power, "power")
+    n0 = pairs_needed(effect_db, sigma_db=pilot.sigma_db, alpha=alpha, power=power)
+    z_a = _st.norm.ppf(1 - alpha / 2)
+    target = (abs(effect_db) / (z_a + _st.norm.ppf(power))) ** 2
+    var_p = pilot.se_db ** 2
+    if pilot.design == "before-after":
+        db, da = pilot.days_per_period
+        d = max(2.0, math.ceil(2.0 * var_p / (target * (1.0 / db + 1.0 / da)) - 1e-9))
+        hours = 48.0 * d
+    else:
+        f = pilot.between_share
+        floor = f * var_p  # between part once every receiver has been heard
+        if floor >= target:
+            hours = math.inf
+        else:
+            grid = np.arange(1, int(round(pilot.hours * 60)) + 1) / 60.0
+            ok = pilot.se_at(grid) ** 2 <= target
+            hours = (float(grid[np.argmax(ok)]) if ok.any()
+                     else (1 - f) * var_p * pilot.hours / (target - floor))
+    if np.isfinite(hours):
+        se = float(pilot.se_at(hours))
+        pairs = hours * pilot.pairs_per_hour
+        deff = se ** 2 * pairs / pilot.sigma_db ** 2
+        clusters = float(pilot.clusters_at(hours))
+    else:
+        se, pairs, deff, clusters = math.nan, math.inf, math.inf, pilot.clusters
+    icc = (min(1.0, pilot.between_sd_db ** 2 / pilot.sigma_db ** 2)
+           if pilot.design != "before-after" else math.nan)
+    return DurationEstimate(
+        effect_db=float(effect_db), hours=float(hours), pairs=float(pairs), pairs_simple=n0,
+        design_effect=float(deff), censoring_factor=pilot.censoring_factor,
+        ci_width_db=2 * z_a * se, pairs_per_hour=pilot.pairs_per_hour,
+        sigma_db=pilot.sigma_db, alpha=alpha, power=power, icc=float(icc),
+        clusters=clusters, censored_fraction=pilot.censored_fraction,
+        design=pilot.design, source=source)
 
 
 # ---------------------------------------------------------------------------------------------
 # run length: simulation, table, plot
 # ---------------------------------------------------------------------------------------------
-SimDesign = Literal["alternating", "simultaneous", "receive"]
-SIM_DESIGNS = ("alternating", "simultaneous", "receive")
+SimDesign = Literal["alternating", "simultaneous", "receive", "before-after"]
+SIM_DESIGNS = ("alternating", "simultaneous", "receive", "before-after")
 
 
-def duration_by_simulation(effect_db: float, hours: Sequence[float], *, n_runs: int = 50,
+def duration_by_simulation(effect_db: float | None, hours: Sequence[float], *,
+                           n_runs: int = 50,
                            n_boot: int = 100, alpha: float = 0.05, seed: int = 0,
                            design: SimDesign = "alternating", band: str = "10m",
                            block_slots: int = 2, start="2026-03-02", progress: bool = False,
@@ -645,12 +934,14 @@ def duration_by_simulation(effect_db: float, hours: Sequence[float], *, n_runs: 
     :func:`make_schedule` per run) and compared (:func:`spotkit.compare.estimate.compare_antennas`
     with ``n_boot`` resamples and confidence ``1 - alpha``). A run detects the difference
     when its interval excludes zero. Runs in which nothing could be paired count as not
-    detected.
+    detected. With ``effect_db=None`` the antennas of ``simulate_options`` keep their own,
+    path-dependent difference (e.g. :data:`DEFAULT_PILOT`): the widths are then those of
+    that set-up, and the power columns are NaN (there is no single effect to detect).
 
     Parameters
     ----------
-    effect_db : float
-        True B-minus-A [dB].
+    effect_db : float or None
+        True B-minus-A [dB], the same on every path; None: the antennas' own difference.
     hours : sequence of float
         Run lengths [h]; whole hours for the alternating design.
     n_runs : int
@@ -661,8 +952,8 @@ def duration_by_simulation(effect_db: float, hours: Sequence[float], *, n_runs: 
         Two-sided level; the intervals have confidence ``1 - alpha``.
     seed : int
         Seed; the same seed gives the same table.
-    design : {"alternating", "simultaneous", "receive"}
-        Experiment design.
+    design : {"alternating", "simultaneous", "receive", "before-after"}
+        Experiment design (before-after: the change in the middle of each run).
     band : str
         Band simulated.
     block_slots : int
@@ -709,8 +1000,8 @@ def duration_by_simulation(effect_db: float, hours: Sequence[float], *, n_runs: 
     if int(n_runs) < 2:
         raise UsageError("n_runs must be at least 2")
     hours = [float(h) for h in np.atleast_1d(hours)]
-    if any(not h > 0 for h in hours):
-        raise UsageError("run lengths must be positive hours")
+    if not hours or any(not 0 < h < math.inf for h in hours):
+        raise UsageError("run lengths must be positive, finite hours")
     band = _check_bands([band])[0]
     t0 = check_time(start, "start").floor("D")
     seeds = np.random.SeedSequence(seed).generate_state(len(hours) * int(n_runs))
@@ -730,20 +1021,28 @@ def duration_by_simulation(effect_db: float, hours: Sequence[float], *, n_runs: 
         if design == "alternating":
             opts["schedule"] = make_schedule(t0, hours[i] / 24.0, [band],
                                              block_slots=block_slots, seed=s)
+        if effect_db is not None:
+            opts["difference_db"] = effect_db
         sim = simulate_spots(design, days=hours[i] / 24.0, seed=s, start=t0,
-                             bands=(band,), difference_db=effect_db, **opts)
+                             bands=(band,), **opts)
         try:
-            res = compare_antennas(sim.spots, sim.design, sim.a, sim.b, schedule=sim.schedule,
-                                   n_boot=n_boot, seed=s, confidence=1 - alpha, min_pairs=2)
+            res = compare_antennas(sim.spots, **sim.compare_kwargs(), n_boot=n_boot, seed=s,
+                                   confidence=1 - alpha, min_pairs=2)
         except NoPairsError:
             continue
         o = res.overall
         est[i, j], lo[i, j], hi[i, j] = o[C.B_MINUS_A], o[C.CI_LOW], o[C.CI_HIGH]
-        npairs[i, j] = o[C.PAIRS]
-        ncens[i, j] = o[C.ONLY_A] + o[C.ONLY_B]
+        if design == "before-after":  # observations with the target on the air
+            npairs[i, j] = len(res.pairs)
+            ncens[i, j] = (~(res.pairs[C.HEARD_A] | res.pairs[C.HEARD_B])).sum()
+        else:
+            npairs[i, j] = o[C.PAIRS]
+            ncens[i, j] = o[C.ONLY_A] + o[C.ONLY_B]
     detected = (lo > 0) | (hi < 0)
-    k = detected.sum(axis=1)
+    k = detected.sum(axis=1).astype(float)
     w_lo, w_hi = wilson_interval(k, np.full(len(hours), int(n_runs)), 1 - alpha)
+    if effect_db is None:
+        k, w_lo, w_hi = (np.full(len(hours), np.nan) for _ in range(3))
     width = hi - lo
     n_ok = np.isfinite(width).sum(axis=1)
     return pd.DataFrame({
@@ -776,11 +1075,16 @@ def _nanstd(x: np.ndarray) -> np.ndarray:
 
 
 def duration_table(effect_db: float, hours: Sequence[float] = (3, 6, 12, 24, 48, 96, 168), *,
-                   sigma_db: float, pairs_per_hour: float, alpha: float = 0.05,
-                   power: float = 0.8, icc: float = 0.0, clusters: float | None = None,
-                   censored_fraction: float = 0.0, censoring_factor: float | None = None,
+                   sigma_db: float | None = None, pairs_per_hour: float | None = None,
+                   alpha: float = 0.05, power: float = 0.8, icc: float = 0.0,
+                   clusters: float | None = None, censored_fraction: float = 0.0,
+                   censoring_factor: float | None = None, design: str | None = None,
+                   pilot: PilotParameters | None = None, source: str = "pilot",
                    simulation: pd.DataFrame | None = None) -> pd.DataFrame:
     """The trade-off between run length, CI width and power, as a table.
+
+    Either from given inputs (closed form, :func:`power_closed_form`) or scaled from a
+    pilot (:func:`power_from_pilot`; real or :func:`simulate_default_pilot`).
 
     Parameters
     ----------
@@ -788,21 +1092,27 @@ def duration_table(effect_db: float, hours: Sequence[float] = (3, 6, 12, 24, 48,
         B-minus-A to detect [dB].
     hours : sequence of float
         Run lengths [h].
-    sigma_db, pairs_per_hour, alpha, icc, clusters, censored_fraction, censoring_factor
-        As in :func:`duration_closed_form` (e.g. from
-        :meth:`PilotParameters.closed_form_inputs`).
+    sigma_db, pairs_per_hour, icc, clusters, censored_fraction, censoring_factor, design
+        As in :func:`duration_closed_form` (without a pilot; ``sigma_db`` and
+        ``pairs_per_hour`` are then needed).
+    alpha : float
+        Two-sided level.
     power : float
         Target power; the run length that reaches it is in ``attrs["needed"]``.
+    pilot : PilotParameters, optional
+        Scale this pilot instead of the closed form.
+    source : str
+        Where the pilot came from (for the answer's text).
     simulation : pandas.DataFrame, optional
         From :func:`duration_by_simulation`; its columns are joined on ``hours``.
 
     Returns
     -------
     pandas.DataFrame
-        :func:`power_closed_form` columns (``hours``, ``pairs``, ``se_db``, ``ci_width_db``,
-        ``power``), then the simulation's columns when given. ``attrs["needed"]`` is the
+        ``hours``, ``pairs``, ``se_db``, ``ci_width_db``, ``power``, ``design_effect``, then
+        the simulation's columns when given. ``attrs["needed"]`` is the
         :class:`DurationEstimate` (as a dict), ``attrs["effect_db"]`` the effect and
-        ``attrs["inputs"]`` the closed-form inputs.
+        ``attrs["inputs"]`` the inputs (the pilot's parameters when scaled from a pilot).
 
     Examples
     --------
@@ -812,33 +1122,44 @@ def duration_table(effect_db: float, hours: Sequence[float] = (3, 6, 12, 24, 48,
        1.0  0.300  0.915
        2.0  0.212  0.997
        4.0  0.150  1.000
-    >>> round(float(table.attrs["needed"]["hours"]), 2)
+    >>> round(table.attrs["needed"]["hours"], 2)
     0.71
     """
-    table = power_closed_form(hours, effect_db, sigma_db=sigma_db,
-                              pairs_per_hour=pairs_per_hour, alpha=alpha, icc=icc,
-                              clusters=clusters, censored_fraction=censored_fraction,
-                              censoring_factor=censoring_factor)
+    if not len(np.atleast_1d(hours)):
+        raise UsageError("duration_table needs at least one run length")
+    if pilot is not None:
+        table = power_from_pilot(hours, effect_db, pilot, alpha=alpha)
+        need = duration_from_pilot(effect_db, pilot, alpha=alpha, power=power, source=source)
+        inputs = pilot.to_dict()
+    else:
+        if sigma_db is None or pairs_per_hour is None:
+            raise UsageError("duration_table needs sigma_db and pairs_per_hour, or a pilot")
+        table = power_closed_form(hours, effect_db, sigma_db=sigma_db,
+                                  pairs_per_hour=pairs_per_hour, alpha=alpha, icc=icc,
+                                  clusters=clusters, censored_fraction=censored_fraction,
+                                  censoring_factor=censoring_factor)
+        need = duration_closed_form(effect_db, sigma_db=sigma_db,
+                                    pairs_per_hour=pairs_per_hour, alpha=alpha, power=power,
+                                    icc=icc, clusters=clusters,
+                                    censored_fraction=censored_fraction,
+                                    censoring_factor=censoring_factor, design=design)
+        inputs = dict(sigma_db=sigma_db, pairs_per_hour=pairs_per_hour, alpha=alpha, icc=icc,
+                      clusters=clusters, censored_fraction=censored_fraction,
+                      censoring_factor=censoring_factor)
     if simulation is not None:
         sim = simulation.drop(columns=[c for c in simulation.columns
                                        if c in table.columns and c != C.HOURS])
         table = table.merge(sim, on=C.HOURS, how="outer").sort_values(C.HOURS)
         table = table.reset_index(drop=True)
-    need = duration_closed_form(effect_db, sigma_db=sigma_db, pairs_per_hour=pairs_per_hour,
-                                alpha=alpha, power=power, icc=icc, clusters=clusters,
-                                censored_fraction=censored_fraction,
-                                censoring_factor=censoring_factor)
     table.attrs["needed"] = need.to_dict()
     table.attrs["effect_db"] = float(effect_db)
-    table.attrs["inputs"] = dict(sigma_db=sigma_db, pairs_per_hour=pairs_per_hour, alpha=alpha,
-                                 icc=icc, clusters=clusters,
-                                 censored_fraction=censored_fraction,
-                                 censoring_factor=censoring_factor)
+    table.attrs["inputs"] = inputs
     return table
 
 
 __all__ = [
     "SIM_DESIGNS", "pairs_needed", "censoring_information", "DurationEstimate",
-    "duration_closed_form", "power_closed_form", "PilotParameters", "pilot_parameters",
-    "duration_by_simulation", "duration_table",
+    "duration_closed_form", "power_closed_form", "PAIRED_DESIGNS", "PLAN_DESIGNS",
+    "DEFAULT_PILOT", "PilotParameters", "pilot_parameters", "simulate_default_pilot",
+    "power_from_pilot", "duration_from_pilot", "duration_by_simulation", "duration_table",
 ]

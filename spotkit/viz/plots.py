@@ -419,8 +419,9 @@ def duration_tradeoff_plot(table: pd.DataFrame, ax=None):
     Parameters
     ----------
     table : pandas.DataFrame
-        From :func:`spotkit.plan.duration.duration_table` (closed-form lines; simulated points
-        with their Monte-Carlo error bars when present).
+        From :func:`spotkit.plan.duration.duration_table` (predicted lines, closed form or
+        scaled from a pilot; simulated points with their Monte-Carlo error bars when
+        present).
     ax : matplotlib.axes.Axes, optional
         Axes to draw on; a new figure when None.
 
@@ -441,14 +442,18 @@ def duration_tradeoff_plot(table: pd.DataFrame, ax=None):
         lo = float(t[C.HOURS].min())
         if need and np.isfinite(need.get(C.HOURS, np.nan)):
             lo = min(lo, need[C.HOURS])
-        from spotkit.plan.duration import power_closed_form
+        from spotkit.plan.duration import PilotParameters, power_closed_form, power_from_pilot
 
-        curve = power_closed_form(np.geomspace(lo / 1.5, float(t[C.HOURS].max()), 200), eff,
-                                  **inputs)
+        grid = np.geomspace(lo / 1.5, float(t[C.HOURS].max()), 200)
+        if "se_db" in inputs:  # scaled from a pilot
+            curve = power_from_pilot(grid, eff, PilotParameters(**inputs),
+                                     alpha=(need or {}).get("alpha", 0.05))
+        else:
+            curve = power_closed_form(grid, eff, **inputs)
     else:
         curve = t
     ax.plot(curve[C.HOURS], curve[C.CI_WIDTH], "-", color="C0",
-            label="CI width, closed form")
+            label="CI width, predicted")
     if C.CI_WIDTH_SIM in t:
         ax.errorbar(t[C.HOURS], t[C.CI_WIDTH_SIM], yerr=2 * t[C.CI_WIDTH_SIM_SE],
                     fmt="o", color="C0", capsize=3, label="CI width, simulated")
@@ -458,7 +463,7 @@ def duration_tradeoff_plot(table: pd.DataFrame, ax=None):
     ax.set_xlabel("run length [h]")
     ax.set_ylabel("expected confidence-interval width [dB]", color="C0")
     right = ax.twinx()
-    right.plot(curve[C.HOURS], curve["power"], "--", color="C3", label="power, closed form")
+    right.plot(curve[C.HOURS], curve["power"], "--", color="C3", label="power, predicted")
     if "power_sim" in t:
         err = np.vstack([t["power_sim"] - t["power_sim_low"],
                          t["power_sim_high"] - t["power_sim"]])
