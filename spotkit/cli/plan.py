@@ -5,9 +5,8 @@ A thin layer over :mod:`spotkit.plan.schedule`, :mod:`spotkit.plan.duration` and
 """
 from __future__ import annotations
 
-import sys
-
 import math
+import sys
 from pathlib import Path
 
 from spotkit.cli._common import EXIT_OK, Parser

@@ -579,7 +579,9 @@ class PilotParameters:
         return math.sqrt(self.between_share * self.se_db ** 2 * self.clusters)
 
     def clusters_at(self, hours) -> np.ndarray:
-        """Effective clusters of a run of ``hours`` [h] (the pilot's beyond its length)."""
+        """Effective clusters of a run of ``hours`` [h]: from :attr:`cluster_curve`
+        (interpolated in log hours), the pilot's beyond its length, in proportion to the run
+        length below the shortest window."""
         h = np.asarray(hours, dtype=float)
         if not self.cluster_curve:
             return np.full(h.shape, self.clusters)
@@ -587,7 +589,10 @@ class PilotParameters:
         # never more than the whole pilot's, never fewer for a longer run
         cr = np.maximum.accumulate(np.minimum(np.r_[cr, self.clusters], self.clusters))
         ch = np.r_[ch, self.hours]
-        return np.interp(np.log(h), np.log(ch), cr, left=cr[0], right=self.clusters)
+        r = np.interp(np.log(h), np.log(ch), cr, left=cr[0], right=self.clusters)
+        # below the shortest window measured: in proportion to the run length (fewer
+        # receivers are heard in a shorter run), at least one
+        return np.where(h < ch[0], np.maximum(1.0, cr[0] * h / ch[0]), r)
 
     def se_at(self, hours) -> np.ndarray:
         """Predicted standard error of a run of ``hours`` [h] with this set-up [dB].
