@@ -112,3 +112,24 @@ def test_bad_values_are_usage_errors(extra, capsys):
     assert main(argv + extra) == 2
     err = capsys.readouterr().err
     assert err.strip()
+
+
+def test_before_after_plan_from_a_pilot_file(tmp_path, capsys):
+    from spotkit.io.store import write_spots
+    from spotkit.plan.duration import DEFAULT_PILOT
+    from spotkit.sim.simulate import simulate_spots
+
+    sim = simulate_spots("before-after", days=4, seed=2, bands=("20m",), n_receivers=40,
+                         **DEFAULT_PILOT)
+    path = write_spots(sim.spots, tmp_path / "pilot.parquet")
+    assert main(["plan", "duration", "--effect", "6", "--design", "before-after", "--pilot",
+                 str(path), "--a", sim.a, "--change-at", str(sim.change_at), "--band", "20m",
+                 "--hours", "48,96,192"]) == 0
+    out = capsys.readouterr().out
+    assert not out.startswith("No pilot") and "design assumed: before-after" in out
+    assert "2 days before and 2 after" in out and "scaled from the pilot" in out
+    answer = next(line for line in out.splitlines() if "to detect 6 dB" in line)
+    hours = float(answer.split(" h ")[0])
+    assert hours % 48 == 0 and hours >= 96  # whole days, two or more on each side
+    # 48 h is one day per period: no interval, and the table says so with NaN
+    assert "NaN" in out and "at least two whole days on each side" in out
