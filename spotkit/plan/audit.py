@@ -27,8 +27,9 @@ import pandas as pd
 from spotkit import columns as C
 from spotkit._validate import check_choice
 from spotkit.bands import sort_bands
-from spotkit.errors import InputError
+from spotkit.errors import InputError, UsageError
 from spotkit.plan.schedule import HOUR_UTC, expand_schedule
+from spotkit.units import POWER_LADDER_DBM
 
 Marker = Literal["power", "none"]
 MARKERS = ("power", "none")
@@ -220,6 +221,11 @@ def audit_schedule(spots: pd.DataFrame, schedule: pd.DataFrame, call: str, *,
     scheduled antenna. Effective pairs count slots, not reports.
     """
     check_choice(marker, MARKERS, "marker")
+    for name, value in (("power_a_dbm", power_a_dbm), ("power_b_dbm", power_b_dbm)):
+        # a report's power is on the customary ladder; any other value can never match one
+        if value is not None and not np.any(np.isclose(POWER_LADDER_DBM, float(value))):
+            raise UsageError(f"{name}={value} dBm is not a reportable power (0-60 dBm "
+                             "ending in 0, 3 or 7)")
     for col in (C.SLOT, C.TX_CALL, C.BAND, C.POWER):
         if col not in spots.columns:
             raise InputError(f"spot table lacks column {col!r}; run it through ingest first")

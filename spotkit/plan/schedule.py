@@ -30,6 +30,7 @@ Springer, 2010, ch. 6 (blocked randomisation) [from memory].
 """
 from __future__ import annotations
 
+import math
 from collections.abc import Sequence
 from pathlib import Path
 
@@ -172,6 +173,8 @@ def make_schedule(start, days: float, bands: Sequence[str] | str, *, slot_minute
         raise UsageError(f"start {t0.isoformat()} is not on a whole UTC hour; schedules are "
                          "balanced hour by hour, so start on the hour")
     hours_f = float(days) * 24.0
+    if not math.isfinite(hours_f):
+        raise UsageError(f"days={days} is not a positive whole number of hours")
     n_hours = int(round(hours_f))
     if n_hours < 1 or abs(hours_f - n_hours) > 1e-9:
         raise UsageError(f"days={days} is not a positive whole number of hours")

@@ -133,3 +133,33 @@ def test_before_after_plan_from_a_pilot_file(tmp_path, capsys):
     assert hours % 48 == 0 and hours >= 96  # whole days, two or more on each side
     # 48 h is one day per period: no interval, and the table says so with NaN
     assert "NaN" in out and "at least two whole days on each side" in out
+
+
+@pytest.mark.parametrize("extra", [["--days", "nan"], ["--days", "inf"], ["--days", "0"],
+                                   ["--bands", ","], ["--block-slots", "3"]])
+def test_bad_schedule_values_are_usage_errors(extra, tmp_path, capsys):
+    # --days nan / inf used to end in a bare ValueError / OverflowError (exit 1)
+    argv = ["plan", "schedule", "--start", "2026-12-01T00:00Z", "-o", str(tmp_path / "s.csv")]
+    assert main(argv + extra) == 2
+    assert "spotkit" in capsys.readouterr().err
+
+
+@pytest.mark.parametrize("power", ["nan", "inf", "36"])
+def test_audit_refuses_powers_no_report_can_carry(power, tmp_path, capsys):
+    # reports carry powers from the customary ladder (0-60 dBm ending in 0, 3 or 7; common
+    # practice); any other value silently matched nothing (nan, inf: "same power" note;
+    # 36: every slot "power matches neither")
+    from spotkit.io.store import write_spots
+    from spotkit.plan.schedule import make_schedule, write_schedule
+    from spotkit.sim.simulate import simulate_spots
+
+    s = make_schedule("2026-03-02", 0.125, ["20m"], seed=1)
+    sched = write_schedule(s, tmp_path / "s.csv")
+    sim = simulate_spots("alternating", days=0.125, bands=("20m",), n_receivers=15,
+                         schedule=s, power_a_dbm=37, power_b_dbm=30, seed=1)
+    spots = write_spots(sim.spots, tmp_path / "spots.parquet")
+    argv = ["plan", "audit", str(spots), "--schedule", str(sched), "--call", sim.a]
+    assert main(argv + ["--power-a", "37", "--power-b", "30"]) == 0
+    capsys.readouterr()
+    assert main(argv + ["--power-a", power, "--power-b", "30"]) == 2
+    assert "not a reportable power" in capsys.readouterr().err
