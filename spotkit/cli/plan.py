@@ -261,7 +261,7 @@ def cmd_plan(args) -> int:
     need = plan.DurationEstimate(**{k: v for k, v in table.attrs["needed"].items()
                                     if k != "feasible"})
     print(need)
-    if min(hours) < 24 and args.design != "before-after":
+    if min(min(hours), need.hours) < 24 and args.design != "before-after":
         print("runs shorter than a day: the table averages over the time of day; which hours "
               "you run matters (a band that is open only by day gives little at night)")
     if args.design == "before-after":
