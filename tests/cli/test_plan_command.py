@@ -163,3 +163,14 @@ def test_audit_refuses_powers_no_report_can_carry(power, tmp_path, capsys):
     capsys.readouterr()
     assert main(argv + ["--power-a", power, "--power-b", "30"]) == 2
     assert "not a reportable power" in capsys.readouterr().err
+
+
+def test_simulate_runs_the_default_set_up(tmp_path, capsys):
+    csv = tmp_path / "t.csv"
+    assert main(["plan", "duration", "--effect", "3", "--design", "simultaneous", "--band",
+                 "20m", "--sim-receivers", "20", "--hours", "6", "--simulate", "--runs", "2",
+                 "--boot", "20", "--csv", str(csv)]) == 0
+    t = pd.read_csv(csv)
+    assert t["ci_width_sim_db"].iloc[0] > 0 and t["pairs_sim"].iloc[0] > 0
+    # a vertical against a dipole has no single difference to detect: no simulated power
+    assert t["power_sim"].isna().all()
