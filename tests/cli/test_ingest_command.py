@@ -50,7 +50,7 @@ def test_file_branch_passes_the_reading_options(to_file, tmp_path, capsys):
     assert files == [str(src)] and output == out
     assert kw == dict(rejects_path="r.csv", mapping={"snr": "S"}, units={"power": "W"},
                       delimiter=";", header=False, slot_minutes=10, region="2",
-                      progress=False)
+                      progress=False, max_reject_share=0.5)
     assert capsys.readouterr().out == (f"summary text\nwrote 7 spots to {out} and 2 rejects "
                                        "to r.csv\n")
 

@@ -338,7 +338,13 @@ def test_chunked_equals_one_go_and_parquet_round_trip(data_dir, tmp_path):
     back = pd.read_parquet(out)
     pdt.assert_frame_equal(back.astype(str), one.spots.astype(str))
     rej = pd.read_csv(tmp_path / "rej.csv", keep_default_na=False)
-    assert len(rej) == one.summary.rejected and list(rej.columns) == C.REJECT_COLUMNS
+    # the rejects file lists the removed duplicates too: rejected + duplicates rows
+    assert list(rej.columns) == C.REJECT_COLUMNS
+    is_dup = rej["reason"] == "exact duplicate"
+    assert (~is_dup).sum() == one.summary.rejected and is_dup.sum() == one.summary.duplicates
+    assert one.summary.duplicates == len(one.duplicates) > 0
+    pdt.assert_frame_equal(rej[is_dup].reset_index(drop=True),
+                           one.duplicates.astype({"source_row": "int64"}), check_dtype=False)
 
 
 def test_load_spots_passthrough_parquet_and_csv(data_dir, tmp_path):
