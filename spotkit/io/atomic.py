@@ -494,6 +494,6 @@ def staged(targets: Sequence) -> Iterator[list[Path]]:
 
 
 __all__ = [
-    "TEMP_SUFFIX", "RECORD_SUFFIX", "Interrupted", "host_tag", "staging_path",
-    "check_outputs", "writer_is_dead", "signals_raise", "recover_folder", "commit", "staged",
+    "Interrupted", "staging_path", "check_outputs", "writer_is_dead", "signals_raise",
+    "recover_folder", "commit", "staged",
 ]

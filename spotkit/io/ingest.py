@@ -959,5 +959,6 @@ def _read_parquet(path: Path) -> pd.DataFrame:
 
 __all__ = [
     "IngestSummary", "IngestResult", "read_spots", "iter_spot_chunks", "ingest_to_parquet",
-    "load_spots", "write_rejects",
+    "load_spots", "write_rejects", "DUPLICATE_REASON", "MAX_REJECT_SHARE",
+    "check_reject_share", "reject_hint",
 ]
