@@ -23,7 +23,19 @@ Each data row is one report. The reader
    :data:`spotkit.columns.REPORT_KEY`, across chunks and files; the first is kept) and adds
    band, locator positions, distance and bearings (:func:`spotkit.geo.geodesic.add_path_columns`).
 
-``rows read = accepted + rejected + duplicates`` holds for every call. A *row* is one line
+``rows read = accepted + rejected + duplicates`` holds for every call. Every removed
+duplicate is traceable: :func:`read_spots` returns them (``.duplicates``) and the rejects
+file of :func:`ingest_to_parquet` lists them, reason :data:`DUPLICATE_REASON`, with the
+file and row of the report each repeats.
+
+A run is not a success when it accepts no row of a non-empty input, or sets aside more
+than :data:`MAX_REJECT_SHARE` of a file's rows for one reason
+(:func:`check_reject_share`, which names the reason and its likely fix):
+:func:`ingest_to_parquet` then raises :class:`~spotkit.errors.MostlyRejectedError` and
+writes nothing; :func:`read_spots` does so when asked (``max_reject_share``).
+:func:`ingest_to_parquet` writes its outputs as one transaction (:mod:`spotkit.io.atomic`):
+they appear together when the run succeeds, and a failed or interrupted run leaves the
+earlier files as they were. A *row* is one line
 after the heading line, blank lines included (they are rejected as blank), and
 ``source_row`` is its 1-based number counted from the first line after the heading (the
 heading line is not counted; quoted fields spanning lines are not supported).

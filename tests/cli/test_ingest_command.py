@@ -196,8 +196,12 @@ def test_ctrl_c_gives_one_line_and_leaves_earlier_files(export, monkeypatch, cap
 
     monkeypatch.setattr("spotkit.io.ingest._table", interrupted)
     capsys.readouterr()
-    assert main(["ingest", "export.csv", "-o", "o.parquet", "--rejects", "r.csv",
-                 "--no-progress"]) == 130
+    try:
+        code = main(["ingest", "export.csv", "-o", "o.parquet", "--rejects", "r.csv",
+                     "--no-progress"])
+    except KeyboardInterrupt:
+        pytest.fail("Ctrl-C reached the user as a traceback")
+    assert code == 130
     assert capsys.readouterr().err == ("spotkit: interrupted (Ctrl-C); nothing written, "
                                        "earlier files unchanged\n")
     assert _state(export.parent) == before
