@@ -18,7 +18,7 @@ import signal
 import sys
 
 from spotkit.cli._common import EXIT_OK, add_progress_option, key_value, progress
-from spotkit.errors import InputError, MostlyRejectedError, SpotkitError, UsageError
+from spotkit.errors import MostlyRejectedError, SpotkitError, UsageError
 
 
 def add_ingest(sub) -> None:
@@ -121,7 +121,7 @@ def _ingest_to_file(args) -> int:
     except MostlyRejectedError as exc:
         if exc.summary is not None:
             print(exc.summary.text())
-        raise InputError(f"{exc}; nothing written, earlier files unchanged") from None
+        raise
     except KeyboardInterrupt as exc:
         signum = getattr(exc, "signum", 2)
         how = "SIGTERM" if signum == signal.SIGTERM else "Ctrl-C"

@@ -826,7 +826,11 @@ def ingest_to_parquet(paths, out_path, *, chunk_rows: int = 1_000_000, rejects_p
     with signals_raise(), staged(outputs) as temps:
         _write_staged(inputs, temps[0], temps[1] if rejects_path is not None else None,
                       summary, chunk_rows, kw)
-        check_reject_share(summary, max_reject_share)
+        try:
+            check_reject_share(summary, max_reject_share)
+        except MostlyRejectedError as exc:
+            raise MostlyRejectedError(f"{exc}; nothing written, earlier files unchanged",
+                                      summary) from None
         _pause_point("staged")
     return summary
 
