@@ -125,8 +125,9 @@ def _ingest_to_file(args) -> int:
     except KeyboardInterrupt as exc:
         signum = getattr(exc, "signum", 2)
         how = "SIGTERM" if signum == signal.SIGTERM else "Ctrl-C"
-        print(f"spotkit: interrupted ({how}); nothing written, earlier files unchanged",
-              file=sys.stderr)
+        done = ("the outputs were already written in full" if getattr(exc, "committed", False)
+                else "nothing written, earlier files unchanged")
+        print(f"spotkit: interrupted ({how}); {done}", file=sys.stderr)
         return 128 + signum
     print(summary.text())
     dups = getattr(summary, "duplicates", 0)

@@ -424,6 +424,8 @@ def staged(targets: Sequence) -> Iterator[list[Path]]:
     Yields one temporary path per target (created empty, in the target's folder); when the
     block ends normally they are committed together (:func:`commit`); when it raises
     (including :class:`KeyboardInterrupt`) they are removed and the targets are untouched.
+    A signal that arrives during the commit raises its exception after the commit, with
+    the attribute ``committed = True``.
     On entry, what dead runs left in the folders is recovered (:func:`recover_folder`);
     missing folders are created (and removed again if the block fails and they are empty).
 
@@ -480,9 +482,15 @@ def staged(targets: Sequence) -> Iterator[list[Path]]:
                 temps.append(tmp)
         yield list(temps)
         try:
-            commit(list(zip(temps, targets, strict=True)))
+            # a signal during the commit is delivered after it: the exception it raises
+            # says so (``committed``), as the outputs are then in place
+            with _signals_held():
+                commit(list(zip(temps, targets, strict=True)))
         except OSError as exc:
             raise OutputError(f"could not put the outputs in place: {exc}") from None
+        except KeyboardInterrupt as exc:
+            exc.committed = True
+            raise
     finally:
         with _signals_held():
             for tmp in temps:

@@ -794,6 +794,10 @@ def ingest_to_parquet(paths, out_path, *, chunk_rows: int = 1_000_000, rejects_p
         An output folder cannot be written in.
     MostlyRejectedError
         See ``max_reject_share``.
+    KeyboardInterrupt
+        Ctrl-C, or SIGTERM (:class:`spotkit.io.atomic.Interrupted`): nothing is written,
+        unless it came during the commit, when the outputs are in place and the exception's
+        ``committed`` is True.
 
     Examples
     --------
@@ -823,15 +827,21 @@ def ingest_to_parquet(paths, out_path, *, chunk_rows: int = 1_000_000, rejects_p
     out_path = outputs[0]
     rejects_path = outputs[1] if rejects_path is not None else None
     summary = IngestSummary()
-    with signals_raise(), staged(outputs) as temps:
-        _write_staged(inputs, temps[0], temps[1] if rejects_path is not None else None,
-                      summary, chunk_rows, kw)
-        try:
-            check_reject_share(summary, max_reject_share)
-        except MostlyRejectedError as exc:
-            raise MostlyRejectedError(f"{exc}; nothing written, earlier files unchanged",
-                                      summary) from None
-        _pause_point("staged")
+    committed = False
+    try:
+        with signals_raise(), staged(outputs) as temps:
+            _write_staged(inputs, temps[0], temps[1] if rejects_path is not None else None,
+                          summary, chunk_rows, kw)
+            try:
+                check_reject_share(summary, max_reject_share)
+            except MostlyRejectedError as exc:
+                raise MostlyRejectedError(f"{exc}; nothing written, earlier files unchanged",
+                                          summary) from None
+            _pause_point("staged")
+        committed = True
+    except KeyboardInterrupt as exc:  # (SIGTERM too, as atomic.Interrupted)
+        exc.committed = committed or getattr(exc, "committed", False)
+        raise
     return summary
 
 

@@ -269,3 +269,17 @@ def test_duplicates_are_listed_in_the_rejects_file(export, capsys):
         ["more.csv", 3, "report", "export.csv row 3", "exact duplicate"],
         ["more.csv", 4, "report", "export.csv row 1", "exact duplicate"],
     ]
+
+
+def test_ctrl_c_during_the_commit_says_the_outputs_are_written(export, monkeypatch, capsys):
+    import os
+    import signal
+
+    monkeypatch.setattr("spotkit.io.atomic._before_rename_hook",
+                        lambda: os.kill(os.getpid(), signal.SIGINT))
+    assert main(["ingest", "export.csv", "-o", "o.parquet", "--rejects", "r.csv",
+                 "--no-progress"]) == 130
+    assert capsys.readouterr().err == ("spotkit: interrupted (Ctrl-C); the outputs were "
+                                       "already written in full\n")
+    assert sorted(p.name for p in export.parent.iterdir()) == ["export.csv", "o.parquet",
+                                                                "r.csv"]

@@ -223,3 +223,16 @@ def test_staged_recovers_what_a_dead_run_left(tmp_path):
         assert not stale.exists()
         t.write_bytes(b"new")
     assert _files(tmp_path) == ["o.parquet"]
+
+
+def test_ctrl_c_during_the_commit_arrives_after_it(tmp_path, monkeypatch):
+    a, b = tmp_path / "a", tmp_path / "b"
+    monkeypatch.setattr(atomic, "_before_rename_hook",
+                        lambda: os.kill(os.getpid(), signal.SIGINT))
+    with pytest.raises(KeyboardInterrupt) as info:
+        with atomic.staged([a, b]) as (ta, tb):
+            ta.write_bytes(b"new a")
+            tb.write_bytes(b"new b")
+    assert info.value.committed
+    assert a.read_bytes() == b"new a" and b.read_bytes() == b"new b"
+    assert _files(tmp_path) == ["a", "b"]
