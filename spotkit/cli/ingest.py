@@ -35,7 +35,7 @@ def add_ingest(sub) -> None:
     p.add_argument("--rejects", metavar="REJECTS.csv", help="write set-aside rows here "
                    "(and the removed exact duplicates, each with the file and row of the "
                    "report it repeats)")
-    p.add_argument("--max-reject-share", type=_share, default=0.5, metavar="SHARE",
+    p.add_argument("--max-reject-share", type=_share, metavar="SHARE",
                    help="-o: refuse the run (exit 1, nothing written) when one reason sets "
                    "aside more than this share of a file's rows, as 0.5 or 50%% (default "
                    "50%%; 100%% still refuses a run that accepts no row)")
@@ -80,6 +80,8 @@ def _share(text: str) -> float:
 def cmd_ingest(args) -> int:
     if args.chunk_rows is not None and args.chunk_rows < 1:
         raise UsageError(f"--chunk-rows must be 1 or more, not {args.chunk_rows}")
+    if args.dataset and args.max_reject_share is not None:
+        raise UsageError("--max-reject-share applies to -o, not to --dataset")
     if args.dataset and args.output:
         raise UsageError("give either -o OUT.parquet or --dataset DIR, not both")
     if not args.dataset and not args.output:
@@ -101,7 +103,7 @@ def _reading_options(args) -> dict:
 
 def _ingest_to_file(args) -> int:
     """``-o OUT.parquet``: one Parquet file (chunk size from --memory-mb when given)."""
-    from spotkit.io.ingest import ingest_to_parquet
+    from spotkit.io.ingest import MAX_REJECT_SHARE, ingest_to_parquet
 
     chunk_rows = args.chunk_rows
     if args.memory_mb is not None:
@@ -116,7 +118,9 @@ def _ingest_to_file(args) -> int:
     kw = {"chunk_rows": chunk_rows} if chunk_rows else {}
     try:
         summary = ingest_to_parquet(args.files, args.output, rejects_path=args.rejects,
-                                    max_reject_share=args.max_reject_share,
+                                    max_reject_share=(MAX_REJECT_SHARE
+                                                      if args.max_reject_share is None
+                                                      else args.max_reject_share),
                                     progress=progress(args), **reading, **kw)
     except MostlyRejectedError as exc:
         if exc.summary is not None:

@@ -909,7 +909,8 @@ def _read_kw(kw: dict) -> dict:
 
 
 def write_rejects(rejects: pd.DataFrame, path) -> Path:
-    """Write a rejects table as CSV (UTF-8).
+    """Write a rejects table as CSV (UTF-8), in full or not at all
+    (:func:`spotkit.io.atomic.staged`).
 
     Examples
     --------
@@ -925,9 +926,11 @@ def write_rejects(rejects: pd.DataFrame, path) -> Path:
     source_file,source_row,field,value,reason
     spots.csv,5,tx_locator,XX99,bad locator
     """
+    from spotkit.io.atomic import staged
+
     path = Path(path)
-    path.parent.mkdir(parents=True, exist_ok=True)
-    rejects[C.REJECT_COLUMNS].to_csv(path, index=False)
+    with staged([path]) as (tmp,):
+        rejects[C.REJECT_COLUMNS].to_csv(tmp, index=False)
     return path
 
 

@@ -95,6 +95,8 @@ def test_archive_branch_passes_partition_and_memory(to_archive, to_file, capsys)
     ([], "give -o OUT.parquet or --dataset DIR"),
     (["--dataset", "arch", "--rejects", "r.csv"],
      "--rejects applies to -o; an archive keeps its rejects in DIR/_rejects/"),
+    (["--dataset", "arch", "--max-reject-share", "0.9"],
+     "--max-reject-share applies to -o, not to --dataset"),
     (["--dataset", "arch", "--map", "snr=A", "--map", "snr=B"],
      "each FIELD may be given only once in --map / --unit"),
     (["-o", "o.parquet", "--unit", "power=W", "--unit", "power=mW"],
