@@ -32,7 +32,8 @@ Hand-written on the standard library (``os.replace``, ``os.fsync``, ``fcntl.floc
 packages for atomic writes handle one file at a time, not several files committed together.
 
 Known limits: on systems without ``fcntl`` (Windows) the folders are not locked, so two
-runs committing at the same instant may mix their files. Between two renames of a commit
+runs committing at the same instant may mix their files, and leftovers of a killed run are
+never proven dead there (they stay until removed by hand). Between two renames of a commit
 a reader may briefly see the new file beside the old one (the commit record makes the
 next writer complete the commit after a crash). A network file system without working
 ``flock`` gives the same weaker guarantee as Windows.
@@ -185,8 +186,8 @@ def writer_is_dead(path) -> bool:
     """
     path = Path(path)
     m = _NAME.match(path.name)
-    if m is None or m["host"] != host_tag():
-        return False
+    if m is None or m["host"] != host_tag() or os.name != "posix":
+        return False  # (on Windows os.kill(pid, 0) would stop the process, not probe it)
     pid = int(m["pid"])
     if pid == os.getpid():
         return False
