@@ -17,8 +17,9 @@ for all its files together, never a mix of the two.
 A run that fails or is interrupted before its commit removes its temporary files
 (:func:`staged`); earlier files are left byte for byte as they were. A run killed outright
 (SIGKILL, power loss) cannot clean up; the next run that writes into the same folder
-(:func:`recover_folder`) finishes a commit whose record is complete (every temporary was
-on disk before the first rename, so the commit is completed, never half undone), then
+(:func:`recover_folder`) finishes a commit whose record is complete in every folder (every
+temporary was on disk before the first rename, so the commit is completed, never half
+undone; a commit whose record copies were not all written is rolled back), then
 removes temporary files whose writer is provably dead: written on this host (the host tag
 in the name) by a process id that no longer exists, or that now belongs to a process
 started after the file was last written (Linux ``/proc``). A temporary file of another host
@@ -282,8 +283,9 @@ def _fsync_dir(folder: Path) -> None:
 
 
 def _finish_record(record: Path) -> list[Path]:
-    """Complete the commit described by ``record`` (renames whose temporary still exists);
-    remove every copy of the record. Returns the targets renamed."""
+    """Complete the commit described by ``record`` (renames whose temporary still exists)
+    when every copy of the record was written, else roll it back; remove every copy of the
+    record. Returns the targets renamed."""
     try:
         data = json.loads(record.read_text(encoding="utf-8"))
         pairs = [(Path(t), Path(d)) for t, d in data["pairs"]]
@@ -295,6 +297,12 @@ def _finish_record(record: Path) -> list[Path]:
             record.unlink()
         return []
     done = []
+    if not all(c.exists() for c in copies):
+        # the writer died while writing the copies, before any rename (copies are removed
+        # only after the last rename): the commit was not decided, so it is rolled back
+        for tmp, _ in pairs:
+            with contextlib.suppress(FileNotFoundError):
+                tmp.unlink()
     for tmp, target in pairs:
         if tmp.exists():
             os.replace(tmp, target)
@@ -471,9 +479,12 @@ def staged(targets: Sequence) -> Iterator[list[Path]]:
                     raise OutputError(_describe(exc, p)) from None
                 made += reversed(missing)
             folders = sorted({t.parent for t in targets})
-            with _locked(folders):
-                for f in folders:
-                    recover_folder(f)
+            try:
+                with _locked(folders):
+                    for f in folders:
+                        recover_folder(f)
+            except OSError as exc:
+                raise OutputError(_describe(exc, Path(exc.filename or folders[0]))) from None
             for t in targets:
                 tmp = staging_path(t, token)
                 try:

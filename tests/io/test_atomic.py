@@ -236,3 +236,21 @@ def test_ctrl_c_during_the_commit_arrives_after_it(tmp_path, monkeypatch):
     assert info.value.committed
     assert a.read_bytes() == b"new a" and b.read_bytes() == b"new b"
     assert _files(tmp_path) == ["a", "b"]
+
+
+def test_a_commit_with_a_record_copy_missing_is_rolled_back(tmp_path):
+    """Killed while writing the record's copies (before any rename): not decided."""
+    other = tmp_path / "other"
+    other.mkdir()
+    a, b = tmp_path / "a.parquet", other / "b.csv"
+    a.write_bytes(b"old a")
+    pid = _dead_pid()
+    ta = _leftover(tmp_path, "a.parquet", pid, body=b"new a")
+    tb = _leftover(other, "b.csv", pid, body=b"new b")
+    rec = _leftover(tmp_path, "a.parquet", pid, suffix=".spotkit-commit")
+    missing = other / rec.name
+    rec.write_text(json.dumps({"pairs": [[str(ta), str(a)], [str(tb), str(b)]],
+                               "records": [str(rec), str(missing)]}))
+    atomic.recover_folder(tmp_path)
+    assert a.read_bytes() == b"old a" and not b.exists()
+    assert _files(tmp_path) == ["a.parquet", "other"] and _files(other) == []
