@@ -420,9 +420,11 @@ def _pause_point(name: str) -> None:
 
 
 def _describe(exc: OSError, folder: Path) -> str:
-    reason = {errno.EACCES: "permission denied", errno.EPERM: "permission denied",
-              errno.EROFS: "read-only file system", errno.ENOSPC: "no space left",
-              errno.ENOENT: "no such folder"}.get(exc.errno, exc.strerror or str(exc))
+    reasons = {errno.EACCES: "permission denied", errno.EPERM: "permission denied",
+               errno.EROFS: "read-only file system", errno.ENOSPC: "no space left",
+               errno.ENOENT: "no such folder", errno.EEXIST: "it is a file, not a folder",
+               errno.ENOTDIR: "a file is in the way of that folder"}
+    reason = reasons.get(exc.errno, exc.strerror or str(exc))
     return f"cannot write in folder {folder}: {reason}"
 
 

@@ -285,3 +285,9 @@ def test_ctrl_c_during_the_commit_says_the_outputs_are_written(export, monkeypat
                                        "already written in full\n")
     assert sorted(p.name for p in export.parent.iterdir()) == ["export.csv", "o.parquet",
                                                                 "r.csv"]
+
+
+def test_an_output_under_a_file_is_one_clear_error(export, capsys):
+    assert main(["ingest", "export.csv", "-o", "export.csv/o.parquet", "--no-progress"]) == 1
+    assert capsys.readouterr().err == (f"spotkit: error: cannot write in folder {export}: it "
+                                       "is a file, not a folder\n")
