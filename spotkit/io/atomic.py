@@ -184,6 +184,11 @@ def writer_is_dead(path) -> bool:
 
     Returns False for names not made by :func:`staging_path`, other hosts, live writers and
     whenever it cannot tell.
+
+    Examples
+    --------
+    >>> writer_is_dead("spots.parquet"), writer_is_dead(staging_path("spots.parquet"))
+    (False, False)
     """
     path = Path(path)
     m = _NAME.match(path.name)
@@ -253,7 +258,17 @@ def _signals_held() -> Iterator[None]:
 def signals_raise() -> Iterator[None]:
     """Inside the block SIGTERM raises :class:`Interrupted` (as Ctrl-C raises
     :class:`KeyboardInterrupt`), so ``finally`` clauses clean up; the old handler comes back
-    afterwards. Does nothing outside the main thread."""
+    afterwards. Does nothing outside the main thread.
+
+    Examples
+    --------
+    >>> import signal
+    >>> before = signal.getsignal(signal.SIGTERM)
+    >>> with signals_raise():
+    ...     inside = signal.getsignal(signal.SIGTERM)
+    >>> inside is not before, signal.getsignal(signal.SIGTERM) is before
+    (True, True)
+    """
     if threading.current_thread() is not threading.main_thread():
         yield
         return
@@ -331,6 +346,13 @@ def recover_folder(folder) -> list[Path]:
     -------
     list of pathlib.Path
         The files removed or renamed into place.
+
+    Examples
+    --------
+    >>> import tempfile
+    >>> with tempfile.TemporaryDirectory() as d:
+    ...     print(recover_folder(d))
+    []
     """
     folder = Path(folder)
     try:
@@ -373,6 +395,17 @@ def commit(pairs: Sequence[tuple]) -> None:
     Every temporary is flushed to disk first; the record goes into each folder involved;
     the renames run with the folders locked and SIGINT / SIGTERM held back, so a signal
     arrives after the commit, never in the middle.
+
+    Examples
+    --------
+    >>> import pathlib, tempfile
+    >>> with tempfile.TemporaryDirectory() as d:
+    ...     target = pathlib.Path(d) / "a.txt"
+    ...     tmp = staging_path(target)
+    ...     _ = tmp.write_text("new")
+    ...     commit([(tmp, target)])
+    ...     print(sorted(p.name for p in pathlib.Path(d).iterdir()), target.read_text())
+    ['a.txt'] new
     """
     pairs = [(Path(t), Path(d)) for t, d in pairs]
     if not pairs:
