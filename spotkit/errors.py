@@ -27,6 +27,28 @@ class MappingError(InputError):
     """Column headings could not be matched onto the glossary unambiguously."""
 
 
+class MostlyRejectedError(InputError):
+    """A run accepted no row, or set aside more than the allowed share of a file's rows
+    for one reason; nothing was written.
+
+    Attributes
+    ----------
+    summary : spotkit.io.ingest.IngestSummary
+        The counts of the run.
+    result : spotkit.io.ingest.IngestResult or None
+        What :func:`spotkit.io.ingest.read_spots` read (None from a streamed ingest).
+    """
+
+    def __init__(self, message: str, summary=None, result=None):
+        super().__init__(message)
+        self.summary = summary
+        self.result = result
+
+
+class OutputError(SpotkitError, OSError):
+    """An output cannot be written (folder missing rights, read-only, full; CLI exit 1)."""
+
+
 class LocatorError(SpotkitError, ValueError):
     """A Maidenhead locator is malformed."""
 
@@ -44,6 +66,7 @@ class SpotkitWarning(UserWarning):
 
 
 __all__ = [
-    "SpotkitError", "InputError", "NotASpotTableError", "MappingError", "LocatorError",
+    "SpotkitError", "InputError", "NotASpotTableError", "MappingError", "MostlyRejectedError",
+    "OutputError", "LocatorError",
     "UsageError", "NoPairsError", "SpotkitWarning",
 ]

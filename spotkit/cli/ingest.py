@@ -5,11 +5,20 @@ A thin layer over :func:`spotkit.io.ingest.ingest_to_parquet` and
 :func:`spotkit.io.archive.ingest_to_dataset`. Both branches live here, beside the parser
 that defines their options: writing an archive is one way of ingesting, while
 :mod:`spotkit.cli.archive` reads archives that are already written.
+
+``-o``: the Parquet file and the rejects file appear together when the run succeeds, or
+not at all (:mod:`spotkit.io.atomic`). A run refused for its rejects
+(:func:`spotkit.io.ingest.check_reject_share`) prints its summary and exits 1; Ctrl-C
+(SIGINT) exits 130 and SIGTERM 143 (128 + the signal number, the shells' convention), each
+with one line and the earlier files unchanged.
 """
 from __future__ import annotations
 
+import signal
+import sys
+
 from spotkit.cli._common import EXIT_OK, add_progress_option, key_value, progress
-from spotkit.errors import SpotkitError, UsageError
+from spotkit.errors import MostlyRejectedError, SpotkitError, UsageError
 
 
 def add_ingest(sub) -> None:
@@ -23,7 +32,13 @@ def add_ingest(sub) -> None:
     p.add_argument("files", nargs="+", metavar="FILE", help="spot CSV files (.csv, .csv.gz)")
     p.add_argument("-o", "--output", metavar="OUT.parquet",
                    help="Parquet file to write (or give --dataset)")
-    p.add_argument("--rejects", metavar="REJECTS.csv", help="write set-aside rows here")
+    p.add_argument("--rejects", metavar="REJECTS.csv", help="write set-aside rows here "
+                   "(and the removed exact duplicates, each with the file and row of the "
+                   "report it repeats)")
+    p.add_argument("--max-reject-share", type=_share, metavar="SHARE",
+                   help="-o: refuse the run (exit 1, nothing written) when one reason sets "
+                   "aside more than this share of a file's rows, as 0.5 or 50%% (default "
+                   "50%%; 100%% still refuses a run that accepts no row)")
     p.add_argument("--map", action="append", type=key_value, default=[],
                    metavar="FIELD=COLUMN", help="say which column holds FIELD")
     p.add_argument("--unit", action="append", type=key_value, default=[],
@@ -47,7 +62,26 @@ def add_ingest(sub) -> None:
     p.set_defaults(func=cmd_ingest)
 
 
+def _share(text: str) -> float:
+    """``0.5`` or ``50%`` as a share from 0 to 1: an argparse ``type``."""
+    import argparse
+
+    t = text.strip()
+    try:
+        value = float(t[:-1]) / 100 if t.endswith("%") else float(t)
+    except ValueError:
+        value = float("nan")
+    if not 0 <= value <= 1:
+        raise argparse.ArgumentTypeError(f"expected a share from 0 to 1 or 0% to 100%, "
+                                         f"got {text!r}")
+    return value
+
+
 def cmd_ingest(args) -> int:
+    if args.chunk_rows is not None and args.chunk_rows < 1:
+        raise UsageError(f"--chunk-rows must be 1 or more, not {args.chunk_rows}")
+    if args.dataset and args.max_reject_share is not None:
+        raise UsageError("--max-reject-share applies to -o, not to --dataset")
     if args.dataset and args.output:
         raise UsageError("give either -o OUT.parquet or --dataset DIR, not both")
     if not args.dataset and not args.output:
@@ -69,7 +103,7 @@ def _reading_options(args) -> dict:
 
 def _ingest_to_file(args) -> int:
     """``-o OUT.parquet``: one Parquet file (chunk size from --memory-mb when given)."""
-    from spotkit.io.ingest import ingest_to_parquet
+    from spotkit.io.ingest import MAX_REJECT_SHARE, ingest_to_parquet
 
     chunk_rows = args.chunk_rows
     if args.memory_mb is not None:
@@ -82,11 +116,29 @@ def _ingest_to_file(args) -> int:
         chunk_rows = min(chunk_rows or by_mem, by_mem)
     reading = _reading_options(args)
     kw = {"chunk_rows": chunk_rows} if chunk_rows else {}
-    summary = ingest_to_parquet(args.files, args.output, rejects_path=args.rejects,
-                                progress=progress(args), **reading, **kw)
+    try:
+        summary = ingest_to_parquet(args.files, args.output, rejects_path=args.rejects,
+                                    max_reject_share=(MAX_REJECT_SHARE
+                                                      if args.max_reject_share is None
+                                                      else args.max_reject_share),
+                                    progress=progress(args), **reading, **kw)
+    except MostlyRejectedError as exc:
+        if exc.summary is not None:
+            print(exc.summary.text())
+        raise
+    except KeyboardInterrupt as exc:
+        signum = getattr(exc, "signum", 2)
+        how = "SIGTERM" if signum == signal.SIGTERM else "Ctrl-C"
+        done = ("the outputs were already written in full" if getattr(exc, "committed", False)
+                else "nothing written, earlier files unchanged")
+        print(f"spotkit: interrupted ({how}); {done}", file=sys.stderr)
+        return 128 + signum
     print(summary.text())
+    dups = getattr(summary, "duplicates", 0)
     print(f"wrote {summary.accepted:,} spots to {args.output}"
-          + (f" and {summary.rejected:,} rejects to {args.rejects}" if args.rejects else ""))
+          + (f" and {summary.rejected:,} rejects" + (f" and {dups:,} duplicates" if dups
+                                                      else "") + f" to {args.rejects}"
+             if args.rejects else ""))
     return EXIT_OK
 
 

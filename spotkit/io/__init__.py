@@ -14,13 +14,27 @@ from spotkit.io.archive import (
     chunk_rows_for_memory,
     ingest_to_dataset,
 )
+from spotkit.io.atomic import (
+    Interrupted,
+    check_outputs,
+    commit,
+    recover_folder,
+    signals_raise,
+    staged,
+    staging_path,
+    writer_is_dead,
+)
 from spotkit.io.ingest import (
+    DUPLICATE_REASON,
+    MAX_REJECT_SHARE,
     IngestResult,
     IngestSummary,
+    check_reject_share,
     ingest_to_parquet,
     iter_spot_chunks,
     load_spots,
     read_spots,
+    reject_hint,
     write_rejects,
 )
 from spotkit.io.sniff import (
@@ -63,4 +77,10 @@ __all__ = [
     "archive_files", "read_archive_file", "normalise_categories", "BASE_MEMORY_MB",
     "CHUNK_BYTES_PER_ROW", "SEEN_BYTES_PER_ROW", "CSV_BYTES_PER_ROW", "MIN_CHUNK_ROWS",
     "WINDOW_RESERVE_MB", "DEDUPE_WINDOW_DAYS", "chunk_rows_for_memory", "ingest_to_dataset",
+]
+# outputs as transactions (atomic) and the refusal of mostly rejected runs (ingest)
+__all__ += [
+    "Interrupted", "staging_path", "check_outputs", "writer_is_dead", "signals_raise",
+    "recover_folder", "commit", "staged", "DUPLICATE_REASON", "MAX_REJECT_SHARE",
+    "check_reject_share", "reject_hint",
 ]

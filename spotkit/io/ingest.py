@@ -23,7 +23,19 @@ Each data row is one report. The reader
    :data:`spotkit.columns.REPORT_KEY`, across chunks and files; the first is kept) and adds
    band, locator positions, distance and bearings (:func:`spotkit.geo.geodesic.add_path_columns`).
 
-``rows read = accepted + rejected + duplicates`` holds for every call. A *row* is one line
+``rows read = accepted + rejected + duplicates`` holds for every call. Every removed
+duplicate is traceable: :func:`read_spots` returns them (``.duplicates``) and the rejects
+file of :func:`ingest_to_parquet` lists them, reason :data:`DUPLICATE_REASON`, with the
+file and row of the report each repeats.
+
+A run is not a success when it accepts no row of a non-empty input, or sets aside more
+than :data:`MAX_REJECT_SHARE` of a file's rows for one reason
+(:func:`check_reject_share`, which names the reason and its likely fix):
+:func:`ingest_to_parquet` then raises :class:`~spotkit.errors.MostlyRejectedError` and
+writes nothing; :func:`read_spots` does so when asked (``max_reject_share``).
+:func:`ingest_to_parquet` writes its outputs as one transaction (:mod:`spotkit.io.atomic`):
+they appear together when the run succeeds, and a failed or interrupted run leaves the
+earlier files as they were. A *row* is one line
 after the heading line, blank lines included (they are rejected as blank), and
 ``source_row`` is its 1-based number counted from the first line after the heading (the
 heading line is not counted; quoted fields spanning lines are not supported).
@@ -56,11 +68,15 @@ million rows per chunk (target < 6 GB).
 
 Known limits: duplicates are found by a 64-bit hash of the report key, so two different
 reports are wrongly taken as duplicates with probability about ``n**2 / 2**65`` (3e-6 for
-10 million rows). Units are inferred once per file from its first rows. A file that mixes
+10 million rows); the duplicate then names a report that is not its twin. Tracing the
+duplicates (:func:`read_spots`, :func:`ingest_to_parquet`) costs 8 more bytes per distinct
+report and about 0.2 CPU-s per 10 million rows. Units are inferred once per file from its
+first rows. A file that mixes
 UTF-8 and Latin-1 is read as Latin-1. Times without a zone are taken as UTC.
 """
 from __future__ import annotations
 
+import contextlib
 from collections.abc import Iterator
 from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass, field
@@ -71,7 +87,7 @@ import pandas as pd
 
 from spotkit import columns as C
 from spotkit.bands import BAND_ORDER, REGIONS
-from spotkit.errors import InputError, UsageError
+from spotkit.errors import InputError, MostlyRejectedError, UsageError
 from spotkit.io import clean, csvread
 from spotkit.io.dedupe import DayKeys, SeenKeys, report_hashes
 from spotkit.io.pathcache import PathCache
@@ -106,6 +122,10 @@ class IngestSummary:
         Per file: glossary field -> the column(s) it was read from.
     units : dict of str to dict
         Per file: CLI field -> unit used, marked "(inferred)" when not given.
+    file_rows : dict of str to int
+        Per file: data rows read.
+    file_rejects : dict of str to dict
+        Per file: rejected rows per reason.
 
     Examples
     --------
@@ -132,6 +152,8 @@ class IngestSummary:
     files: list = field(default_factory=list)
     columns: dict = field(default_factory=dict)
     units: dict = field(default_factory=dict)
+    file_rows: dict = field(default_factory=dict)
+    file_rejects: dict = field(default_factory=dict)
 
     @property
     def balanced(self) -> bool:
@@ -174,7 +196,9 @@ class IngestSummary:
 
 @dataclass
 class IngestResult:
-    """What :func:`read_spots` returns: the canonical table, the rejects and the summary.
+    """What :func:`read_spots` returns: the canonical table, the rejects, the summary and
+    the removed duplicates (as rejects: reason :data:`DUPLICATE_REASON`, value the file and
+    row of the report each repeats).
 
     Examples
     --------
@@ -187,10 +211,134 @@ class IngestResult:
     spots: pd.DataFrame
     rejects: pd.DataFrame
     summary: IngestSummary
+    duplicates: pd.DataFrame = field(default_factory=C.empty_rejects)
 
     def summary_text(self) -> str:
         """The summary as plain text."""
         return self.summary.text()
+
+
+# --- when a run is not a success -------------------------------------------------------------
+#: Reason given to a removed exact duplicate in the rejects output.
+DUPLICATE_REASON = "exact duplicate"
+#: Default largest share of a file's rows that may be set aside for one reason.
+MAX_REJECT_SHARE = 0.5
+
+# reason (its start) -> what would most likely fix it; the first match wins
+_HINTS = (
+    ("unparseable time", "check the time column (--map time=COLUMN), its unit "
+     "(--unit time=epoch or epoch-ms for numbers) or the order of day and month"),
+    ("time out of range", "numbers may be epoch milliseconds (--unit time=epoch-ms) or "
+     "another column (--map time=COLUMN)"),
+    ("time in the future", "numbers may be epoch milliseconds (--unit time=epoch-ms) or "
+     "another column (--map time=COLUMN)"),
+    ("frequency not in an amateur band", "the values may be kHz or Hz rather than MHz "
+     "(--unit frequency=Hz|kHz|MHz), another column (--map frequency=COLUMN) or outside "
+     "the --region band plan"),
+    ("frequency not a number", "check --map frequency=COLUMN and --delimiter"),
+    ("SNR outside", "the column may not hold SNR (--map snr=COLUMN)"),
+    ("SNR not a number", "the SNR column may use another minus sign or not hold SNR "
+     "(--map snr=COLUMN)"),
+    ("power outside", "check the power unit (--unit power=dBm|W|mW) or --map power=COLUMN"),
+    ("power not a number", "check --map power=COLUMN"),
+    ("bad locator", "check --map tx_locator=COLUMN / rx_locator=COLUMN"),
+    ("bad call", "check --map tx_call=COLUMN / rx_call=COLUMN"),
+    ("wrong number of fields", "check the delimiter (--delimiter) and quoting"),
+    ("empty ", "the column may be missing or mapped wrongly (--map FIELD=COLUMN)"),
+)
+
+
+def reject_hint(reason: str) -> str | None:
+    """What would most likely fix rows set aside for ``reason`` (None when nothing is
+    known).
+
+    Examples
+    --------
+    >>> reject_hint("frequency not in an amateur band")[:37]
+    'the values may be kHz or Hz rather th'
+    >>> reject_hint("blank line") is None
+    True
+    """
+    for start, hint in _HINTS:
+        if reason.startswith(start):
+            return hint
+    return None
+
+
+def _share_text(share: float) -> str:
+    return f"{100 * share:.0f} %" if share >= 0.01 else f"{100 * share:.2g} %"
+
+
+def check_reject_share(summary: IngestSummary,
+                       max_share: float | None = MAX_REJECT_SHARE) -> None:
+    """Refuse a run that accepted nothing or set aside too much of a file for one reason.
+
+    Parameters
+    ----------
+    summary : IngestSummary
+        The counts of a finished run.
+    max_share : float or None
+        Largest share (0..1) of one file's rows that may be set aside for any one reason;
+        1 allows any share but still refuses a run that accepted no row; None checks
+        nothing.
+
+    Raises
+    ------
+    MostlyRejectedError
+        No row accepted from a non-empty input, a file whose every row was set aside, or a
+        reason with more than ``max_share`` of a file's rows; the message names the file,
+        the reason, its share and, where known, the likely fix (:func:`reject_hint`).
+
+    Examples
+    --------
+    >>> s = IngestSummary(rows_read=10, accepted=4, rejected=6,
+    ...                   rejected_by_reason={"unparseable time": 6}, files=["a.csv"],
+    ...                   file_rows={"a.csv": 10}, file_rejects={"a.csv": {"unparseable time": 6}})
+    >>> check_reject_share(s, 0.7)
+    >>> check_reject_share(s)
+    Traceback (most recent call last):
+    ...
+    spotkit.errors.MostlyRejectedError: a.csv: 6 of 10 rows (60 %) set aside as 'unparseable \
+time', more than the 50 % allowed (--max-reject-share); check the time column (--map \
+time=COLUMN), its unit (--unit time=epoch or epoch-ms for numbers) or the order of day and month
+    """
+    if max_share is None:
+        return
+    max_share = _check_share(max_share)
+
+    def fail(text: str, reason: str | None) -> None:
+        hint = reject_hint(reason) if reason else None
+        raise MostlyRejectedError(text + (f"; {hint}" if hint else ""), summary)
+
+    top = max(summary.rejected_by_reason.items(), key=lambda kv: kv[1], default=(None, 0))
+    if summary.rows_read and not summary.accepted:
+        reasons = ", ".join(f"{k}: {v:,}" for k, v in sorted(
+            summary.rejected_by_reason.items(), key=lambda kv: -kv[1]))
+        where = summary.files[0] if len(summary.files) == 1 else "the input"
+        fail(f"{where}: no row accepted ({summary.rows_read:,} read; set aside: "
+             f"{reasons or 'none'})", top[0])
+    for name in summary.files:
+        rows = summary.file_rows.get(name, 0)
+        counts = summary.file_rejects.get(name, {})
+        if not rows or not counts:
+            continue
+        reason, n = max(counts.items(), key=lambda kv: kv[1])
+        if sum(counts.values()) == rows and len(summary.files) > 1:
+            fail(f"{name}: every row ({rows:,}) set aside, most as {reason!r} ({n:,})",
+                 reason)
+        if n > max_share * rows:
+            fail(f"{name}: {n:,} of {rows:,} rows ({_share_text(n / rows)}) set aside as "
+                 f"{reason!r}, more than the {_share_text(max_share)} allowed "
+                 "(--max-reject-share)", reason)
+
+
+def _check_share(share) -> float:
+    ok = isinstance(share, (int, float, np.integer, np.floating)) and \
+        not isinstance(share, bool) and 0 <= share <= 1
+    if not ok:
+        raise UsageError(f"the largest share of rejects must be a number from 0 to 1, "
+                         f"not {share!r}")
+    return float(share)
 
 
 # --- drivers ---------------------------------------------------------------------------------
@@ -298,9 +446,12 @@ def iter_spot_chunks(paths, *, mapping=None, units=None, delimiter: Delimiter = 
 
 
 def _iter_chunk_columns(paths, *, mapping, units, delimiter, header, slot_minutes, region,
-                        chunk_rows, progress, summary, dedupe_window_days=None):
+                        chunk_rows, progress, summary, dedupe_window_days=None,
+                        trace_duplicates=False):
     """As :func:`iter_spot_chunks`, yielding the spots as a dict of columns (times as int64
-    ns; None for no spots) for :func:`_frame` or :func:`_table`."""
+    ns; None for no spots) for :func:`_frame` or :func:`_table`. ``trace_duplicates``: the
+    removed duplicates are among the rejects too, reason :data:`DUPLICATE_REASON`, value
+    the file and row of the report each repeats (counted as duplicates, not rejects)."""
     _check_args(region, slot_minutes, chunk_rows)
     mapping = _check_mapping(mapping)
     units = _check_units(units)
@@ -308,7 +459,11 @@ def _iter_chunk_columns(paths, *, mapping, units, delimiter, header, slot_minute
     paths = _as_paths(paths)
     summary = summary if summary is not None else IngestSummary()
     layouts = [_prepare_layout(p, mapping, units, delimiter, header) for p in paths]
-    seen = SeenKeys() if dedupe_window_days is None else DayKeys(dedupe_window_days)
+    if trace_duplicates and dedupe_window_days is not None:
+        raise UsageError("duplicates are traced only without a dedupe window")
+    seen = SeenKeys(track_first=trace_duplicates) if dedupe_window_days is None \
+        else DayKeys(dedupe_window_days)
+    names = np.array([layout.name for layout in layouts], dtype=object)
     cache = PathCache()
     distinct = clean.new_distinct()
     bar = None
@@ -317,7 +472,7 @@ def _iter_chunk_columns(paths, *, mapping, units, delimiter, header, slot_minute
 
         bar = tqdm(unit=" rows", desc="ingest")
     try:
-        for layout in layouts:
+        for file_no, layout in enumerate(layouts):
             summary.files.append(layout.name)
             summary.columns[layout.name] = layout.describe_columns()
             summary.units[layout.name] = {
@@ -346,10 +501,20 @@ def _iter_chunk_columns(paths, *, mapping, units, delimiter, header, slot_minute
                     rejects = pd.concat([rejects, extra], ignore_index=True)
                 h = report_hashes(key_parts) if key_parts[0][0].size \
                     else np.zeros(0, dtype=np.uint64)
-                dup = (seen.duplicates(h) if isinstance(seen, SeenKeys) else seen.duplicates(
-                    h, spots[C.SLOT], spots[C.SOURCE_ROW], layout.name))
+                if trace_duplicates:
+                    dup, first = seen.duplicates_of(h, (np.int64(file_no) << _ROW_BITS)
+                                                    + spots[C.SOURCE_ROW])
+                else:
+                    dup = (seen.duplicates(h) if isinstance(seen, SeenKeys) else
+                           seen.duplicates(h, spots[C.SLOT], spots[C.SOURCE_ROW],
+                                           layout.name))
+                dup_rows = spots[C.SOURCE_ROW][dup] if trace_duplicates else None
                 spots = _enrich(spots, ~dup, layout.name, cache)
-                _count(summary, raw.n + len(done), spots, rejects, int(dup.sum()))
+                _count(summary, raw.n + len(done), spots, rejects, int(dup.sum()),
+                       layout.name)
+                if dup_rows is not None and dup_rows.size:
+                    rejects = pd.concat([rejects, _duplicate_rejects(
+                        layout.name, dup_rows, first[dup], names)], ignore_index=True)
                 if bar is not None:
                     bar.update(raw.n + len(done))
                 yield spots, _tidy_rejects(rejects)
@@ -359,7 +524,7 @@ def _iter_chunk_columns(paths, *, mapping, units, delimiter, header, slot_minute
                     C.SOURCE_FILE: layout.name, C.SOURCE_ROW: np.array(rows_left, dtype="int64"),
                     C.REJECT_FIELD: "row", C.REJECT_VALUE: [skipped_all[r] for r in rows_left],
                     C.REJECT_REASON: "wrong number of fields"})
-                _count(summary, len(rows_left), None, rejects, 0)
+                _count(summary, len(rows_left), None, rejects, 0, layout.name)
                 yield None, _tidy_rejects(rejects)
     finally:
         if bar is not None:
@@ -383,12 +548,30 @@ def _row_numbers(n: int, start: int, skipped: dict) -> tuple[np.ndarray, int]:
     return rows, (int(rows[-1]) + 1 if n else start)
 
 
-def _count(summary, n_read, spots, rejects, n_dup):
+# a duplicate's label of where its report was first read: file number << _ROW_BITS | row
+_ROW_BITS = 40
+
+
+def _duplicate_rejects(name: str, rows: np.ndarray, first: np.ndarray,
+                       names: np.ndarray) -> pd.DataFrame:
+    """Rejects rows for removed duplicates: value ``"FILE row N"`` of the report each
+    repeats (``first``: file number << _ROW_BITS | row)."""
+    first = np.asarray(first, dtype=np.int64)
+    where = pd.Series(names[first >> _ROW_BITS], dtype=object) + " row " + \
+        pd.Series(first & ((1 << _ROW_BITS) - 1)).astype(str)
+    return pd.DataFrame({C.SOURCE_FILE: name, C.SOURCE_ROW: np.asarray(rows, dtype=np.int64),
+                         C.REJECT_FIELD: "report", C.REJECT_VALUE: where.to_numpy(),
+                         C.REJECT_REASON: DUPLICATE_REASON})
+
+
+def _count(summary, n_read, spots, rejects, n_dup, name):
     summary.rows_read += n_read
     summary.rejected += len(rejects)
     summary.duplicates += n_dup
-    summary._add_counts(rejects[C.REJECT_REASON].value_counts().to_dict(),
-                        summary.rejected_by_reason)
+    by_reason = rejects[C.REJECT_REASON].value_counts().to_dict()
+    summary._add_counts(by_reason, summary.rejected_by_reason)
+    summary.file_rows[name] = summary.file_rows.get(name, 0) + int(n_read)
+    summary._add_counts(by_reason, summary.file_rejects.setdefault(name, {}))
     n = 0 if spots is None else len(spots[C.SOURCE_ROW])
     summary.accepted += n
     if n:
@@ -435,7 +618,8 @@ def _compact_categories(cat: pd.Categorical, band: bool) -> pd.Categorical:
 
 def read_spots(paths, *, mapping=None, units=None, delimiter: Delimiter = "auto",
                header: Header = "auto", slot_minutes: int = C.SLOT_MINUTES, region="all",
-               chunk_rows: int | None = None, progress: bool = False) -> IngestResult:
+               chunk_rows: int | None = None, progress: bool = False,
+               max_reject_share: float | None = None) -> IngestResult:
     """Read spot-report CSV files into the canonical table.
 
     Parameters
@@ -463,6 +647,12 @@ def read_spots(paths, *, mapping=None, units=None, delimiter: Delimiter = "auto"
         Read this many rows at a time (bounded memory); the result is the same.
     progress : bool
         Show a progress bar on stderr.
+    max_reject_share : float or None
+        Largest share (0..1) of a file's rows that may be set aside for one reason; more,
+        or no row accepted at all, raises :class:`~spotkit.errors.MostlyRejectedError`
+        (see :func:`check_reject_share`; :data:`MAX_REJECT_SHARE` is what
+        :func:`ingest_to_parquet` and ``spotkit ingest`` use). Default None: the table and
+        its rejects are returned whatever their shares (the caller sees the rejects).
 
     Returns
     -------
@@ -470,7 +660,9 @@ def read_spots(paths, *, mapping=None, units=None, delimiter: Delimiter = "auto"
         ``.spots``: canonical table (:data:`spotkit.columns.CANONICAL`, glossary dtypes;
         frequency [Hz], SNR [dB], power [dBm], drift [Hz/min], distance [km], bearings
         [deg]); ``.rejects``: :data:`spotkit.columns.REJECT_COLUMNS`, one row per rejected
-        input row with its first failing field; ``.summary``: :class:`IngestSummary`.
+        input row with its first failing field; ``.summary``: :class:`IngestSummary`;
+        ``.duplicates``: one row per removed duplicate, as the rejects (field ``report``,
+        value the file and row of the report it repeats, reason :data:`DUPLICATE_REASON`).
 
     Raises
     ------
@@ -480,6 +672,9 @@ def read_spots(paths, *, mapping=None, units=None, delimiter: Delimiter = "auto"
         The columns cannot be matched onto the glossary unambiguously.
     InputError
         A unit cannot be inferred, or the heading and data rows disagree.
+    MostlyRejectedError
+        No row accepted, or more than ``max_reject_share`` of a file set aside for one
+        reason (its ``.result`` holds what was read).
     UsageError
         Bad arguments.
 
@@ -516,16 +711,31 @@ def read_spots(paths, *, mapping=None, units=None, delimiter: Delimiter = "auto"
     >>> print(result.rejects[["source_row", "field", "value", "reason"]].to_string(index=False))
      source_row      field value      reason
               5 tx_locator  XX99 bad locator
+    >>> dup = result.duplicates
+    >>> dup["source_row"].tolist(), dup["value"].str.endswith("spots.csv row 1").tolist()
+    ([2], [True])
     """
+    if max_reject_share is not None:
+        _check_share(max_reject_share)
     summary = IngestSummary()
     spots, rejects = [], []
-    for s, r in iter_spot_chunks(paths, mapping=mapping, units=units, delimiter=delimiter,
-                                 header=header, slot_minutes=slot_minutes, region=region,
-                                 chunk_rows=chunk_rows, progress=progress, summary=summary):
-        spots.append(s)
+    for cols, r in _iter_chunk_columns(
+            paths, mapping=mapping, units=units, delimiter=delimiter, header=header,
+            slot_minutes=slot_minutes, region=region, chunk_rows=chunk_rows,
+            progress=progress, summary=summary, trace_duplicates=True):
+        spots.append(_frame(cols))
         rejects.append(r)
     rej = pd.concat([r for r in rejects if len(r)] or [C.empty_rejects()], ignore_index=True)
-    return IngestResult(_concat_spots(spots), rej[C.REJECT_COLUMNS], summary)
+    is_dup = (rej[C.REJECT_REASON] == DUPLICATE_REASON).to_numpy()
+    result = IngestResult(_concat_spots(spots), rej.loc[~is_dup, C.REJECT_COLUMNS]
+                          .reset_index(drop=True), summary,
+                          rej.loc[is_dup, C.REJECT_COLUMNS].reset_index(drop=True))
+    try:
+        check_reject_share(summary, max_reject_share)
+    except MostlyRejectedError as exc:
+        exc.result = result
+        raise
+    return result
 
 
 def _arrow_schema():
@@ -542,8 +752,15 @@ def _arrow_schema():
 
 
 def ingest_to_parquet(paths, out_path, *, chunk_rows: int = 1_000_000, rejects_path=None,
+                      max_reject_share: float | None = MAX_REJECT_SHARE,
                       **kw) -> IngestSummary:
-    """Stream spot files to one Parquet file chunk by chunk (bounded memory).
+    """Stream spot files to one Parquet file chunk by chunk (bounded memory), as one
+    transaction.
+
+    The Parquet file and the rejects file are written under temporary names beside their
+    targets and renamed into place together only when the run has succeeded
+    (:func:`spotkit.io.atomic.staged`): after a failed or interrupted run the files that
+    were there before are unchanged and no temporary file is left.
 
     Parameters
     ----------
@@ -553,9 +770,18 @@ def ingest_to_parquet(paths, out_path, *, chunk_rows: int = 1_000_000, rejects_p
         Parquet file to write (the canonical table, glossary dtypes).
     chunk_rows : int
         Rows per chunk; peak memory grows with it (roughly 1 kB per row: two chunks are in
-        flight, one being read while the one before is cleaned and written).
+        flight, one being read while the one before is cleaned and written), plus 16
+        bytes per distinct report (its key hash, and where it was first read so that each
+        duplicate can name it).
     rejects_path : str or path-like, optional
-        CSV file for the rejects table.
+        CSV file for the rejects table; removed duplicates are listed in it too (reason
+        :data:`DUPLICATE_REASON`, field ``report``, value the file and row of the report
+        each repeats), so its rows are ``rejected + duplicates`` of the summary.
+    max_reject_share : float or None
+        Largest share (0..1) of a file's rows that may be set aside for one reason
+        (default :data:`MAX_REJECT_SHARE`, a half); a run refused by
+        :func:`check_reject_share` (also: no row accepted) raises
+        :class:`~spotkit.errors.MostlyRejectedError` and writes nothing; None: no check.
     **kw
         Further keywords of :func:`read_spots` (mapping, units, delimiter, header,
         slot_minutes, region, progress).
@@ -564,36 +790,81 @@ def ingest_to_parquet(paths, out_path, *, chunk_rows: int = 1_000_000, rejects_p
     -------
     IngestSummary
 
+    Raises
+    ------
+    UsageError
+        An output is also an input, the two outputs are the same file, or an output is a
+        folder (raised before anything is read or written).
+    OutputError
+        An output folder cannot be written in.
+    MostlyRejectedError
+        See ``max_reject_share``.
+    KeyboardInterrupt
+        Ctrl-C, or SIGTERM (:class:`spotkit.io.atomic.Interrupted`): nothing is written,
+        unless it came during the commit, when the outputs are in place and the exception's
+        ``committed`` is True.
+
     Examples
     --------
     >>> import pathlib, tempfile
     >>> rows = ["time,tx call,tx locator,rx call,rx locator,frequency MHz,snr,power dBm",
     ...         "2024-03-01 10:00:12,Q1ABC,JO62qm,Q2XY,JN58td,14.0971,-12,37",
+    ...         "2024-03-01 10:04:00,Q1ABC,JO62qm,Q3XY,JN58td,14.0971,-15,37",
     ...         "2024-03-01 10:06:00,Q1ABC,XX99,Q2XY,JN58td,14.0971,-12,37"]
     >>> with tempfile.TemporaryDirectory() as d:
     ...     path = pathlib.Path(d) / "spots.csv"
     ...     _ = path.write_text("\\n".join(rows) + "\\n")
     ...     summary = ingest_to_parquet(path, pathlib.Path(d) / "out" / "spots.parquet",
     ...                                 rejects_path=pathlib.Path(d) / "rejects.csv")
-    ...     written = sorted(p.name for p in pathlib.Path(d).rglob("*.*"))
+    ...     written = sorted(p.name for p in pathlib.Path(d).rglob("*"))
     ...     spots = load_spots(pathlib.Path(d) / "out" / "spots.parquet")
     >>> summary.accepted, summary.rejected, written
-    (1, 1, ['rejects.csv', 'spots.csv', 'spots.parquet'])
+    (2, 1, ['out', 'rejects.csv', 'spots.csv', 'spots.parquet'])
     >>> len(spots), spots["rx_call"].tolist()
-    (1, ['Q2XY'])
+    (2, ['Q2XY', 'Q3XY'])
     """
+    from spotkit.io.atomic import check_outputs, signals_raise, staged
+
+    inputs = _as_paths(paths)
+    if max_reject_share is not None:
+        _check_share(max_reject_share)
+    outputs = check_outputs([out_path, rejects_path], inputs=inputs)
+    out_path = outputs[0]
+    rejects_path = outputs[1] if rejects_path is not None else None
+    summary = IngestSummary()
+    committed = False
+    try:
+        with signals_raise(), staged(outputs) as temps:
+            _write_staged(inputs, temps[0], temps[1] if rejects_path is not None else None,
+                          summary, chunk_rows, kw)
+            try:
+                check_reject_share(summary, max_reject_share)
+            except MostlyRejectedError as exc:
+                raise MostlyRejectedError(f"{exc}; nothing written, earlier files unchanged",
+                                          summary) from None
+            _pause_point("staged")
+        committed = True
+    except KeyboardInterrupt as exc:  # (SIGTERM too, as atomic.Interrupted)
+        exc.committed = committed or getattr(exc, "committed", False)
+        raise
+    return summary
+
+
+def _pause_point(name: str) -> None:
+    from spotkit.io.atomic import _pause_point as pause
+
+    pause(name)
+
+
+def _write_staged(paths, tmp, rejects_tmp, summary, chunk_rows, kw) -> None:
+    """Write the Parquet file ``tmp`` and the rejects CSV ``rejects_tmp`` (or none)."""
     import pyarrow.parquet as pq
 
-    out_path = Path(out_path)
-    out_path.parent.mkdir(parents=True, exist_ok=True)
     schema = _arrow_schema()
-    summary = IngestSummary()
-    tmp = out_path.with_name(out_path.name + ".partial")
-    rej_fh = None
-    try:
-        if rejects_path is not None:
-            Path(rejects_path).parent.mkdir(parents=True, exist_ok=True)
-            rej_fh = open(rejects_path, "w", encoding="utf-8", newline="")
+    with contextlib.ExitStack() as stack:
+        rej_fh = None
+        if rejects_tmp is not None:
+            rej_fh = stack.enter_context(open(rejects_tmp, "w", encoding="utf-8", newline=""))
             C.empty_rejects().to_csv(rej_fh, index=False)
         dict_cols = [n for n in C.CANONICAL if str(C.GLOSSARY[n].dtype) == "category"]
         # statistics for the plain columns only: min/max of the text columns cost a third
@@ -609,33 +880,27 @@ def ingest_to_parquet(paths, out_path, *, chunk_rows: int = 1_000_000, rejects_p
         few = [C.TIME, C.SLOT, C.TX_LAT, C.TX_LON, C.RX_LAT, C.RX_LON, C.FREQ, C.SNR,
                C.POWER, C.DRIFT]
         raw = [C.DISTANCE, C.BEARING, C.REVERSE_BEARING]
-        with pq.ParquetWriter(tmp, schema, use_dictionary=dict_cols + few,
-                              compression={n: "none" if n in raw else "snappy"
-                                           for n in C.CANONICAL},
-                              column_encoding={C.SOURCE_ROW: "DELTA_BINARY_PACKED"},
-                              write_statistics=plain,
-                              write_batch_size=1 << 16) as writer, \
-                ThreadPoolExecutor(max_workers=1) as pool:
-            wrote, pending = False, None
-            for spots, rejects in _iter_chunk_columns(paths, chunk_rows=chunk_rows,
-                                                      summary=summary, **_read_kw(kw)):
-                if (spots is not None and len(spots[C.SOURCE_ROW])) or not wrote:
-                    table = _table(spots, schema)
-                    if pending is not None:
-                        pending.result()
-                    pending = pool.submit(writer.write_table, table)
-                    wrote = True
-                if rej_fh is not None and len(rejects):
-                    rejects[C.REJECT_COLUMNS].to_csv(rej_fh, index=False, header=False)
-            if pending is not None:
-                pending.result()
-        tmp.replace(out_path)
-    finally:
-        if rej_fh is not None:
-            rej_fh.close()
-        if tmp.exists():
-            tmp.unlink()
-    return summary
+        writer = stack.enter_context(pq.ParquetWriter(
+            tmp, schema, use_dictionary=dict_cols + few,
+            compression={n: "none" if n in raw else "snappy" for n in C.CANONICAL},
+            column_encoding={C.SOURCE_ROW: "DELTA_BINARY_PACKED"},
+            write_statistics=plain, write_batch_size=1 << 16))
+        pool = stack.enter_context(ThreadPoolExecutor(max_workers=1))
+        wrote, pending = False, None
+        for spots, rejects in _iter_chunk_columns(paths, chunk_rows=chunk_rows,
+                                                  summary=summary, trace_duplicates=True,
+                                                  **_read_kw(kw)):
+            if (spots is not None and len(spots[C.SOURCE_ROW])) or not wrote:
+                table = _table(spots, schema)
+                if pending is not None:
+                    pending.result()
+                pending = pool.submit(writer.write_table, table)
+                wrote = True
+            if rej_fh is not None and len(rejects):
+                rejects[C.REJECT_COLUMNS].to_csv(rej_fh, index=False, header=False)
+            _pause_point("chunk")
+        if pending is not None:
+            pending.result()
 
 
 def _read_kw(kw: dict) -> dict:
@@ -649,7 +914,8 @@ def _read_kw(kw: dict) -> dict:
 
 
 def write_rejects(rejects: pd.DataFrame, path) -> Path:
-    """Write a rejects table as CSV (UTF-8).
+    """Write a rejects table as CSV (UTF-8), in full or not at all
+    (:func:`spotkit.io.atomic.staged`).
 
     Examples
     --------
@@ -665,9 +931,11 @@ def write_rejects(rejects: pd.DataFrame, path) -> Path:
     source_file,source_row,field,value,reason
     spots.csv,5,tx_locator,XX99,bad locator
     """
+    from spotkit.io.atomic import staged
+
     path = Path(path)
-    path.parent.mkdir(parents=True, exist_ok=True)
-    rejects[C.REJECT_COLUMNS].to_csv(path, index=False)
+    with staged([path]) as (tmp,):
+        rejects[C.REJECT_COLUMNS].to_csv(tmp, index=False)
     return path
 
 
@@ -725,5 +993,6 @@ def _read_parquet(path: Path) -> pd.DataFrame:
 
 __all__ = [
     "IngestSummary", "IngestResult", "read_spots", "iter_spot_chunks", "ingest_to_parquet",
-    "load_spots", "write_rejects",
+    "load_spots", "write_rejects", "DUPLICATE_REASON", "MAX_REJECT_SHARE",
+    "check_reject_share", "reject_hint",
 ]

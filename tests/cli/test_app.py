@@ -35,6 +35,8 @@ EXIT_CODES = {
     errors.NotASpotTableError: 1,
     errors.MappingError: 1,
     errors.NoPairsError: 1,
+    errors.MostlyRejectedError: 1,
+    errors.OutputError: 1,
     errors.LocatorError: 2,  # escapes only from an argument (see test_figures_command.py)
     errors.UsageError: 2,
 }

@@ -78,3 +78,39 @@ def test_sort_hashes_equals_numpy_sort():
         h = rng.integers(0, 2**63, n, dtype=np.int64).astype(np.uint64) * np.uint64(2)
         h[: n // 10] = h[-(n // 10):]  # repeats
         np.testing.assert_array_equal(dedupe.sort_hashes(h), np.sort(h))
+
+
+@pytest.mark.parametrize("max_runs, batch", [(24, 1_500), (2, 700), (24, 70_000)])
+def test_duplicates_of_names_the_first_report_as_pandas(monkeypatch, max_runs, batch):
+    # oracle: pandas' duplicated (keep the first) and, per key, the first row's label;
+    # max_runs 2 merges runs (with their labels) as batches arrive; a batch of 70,000 takes
+    # the counting-sort path of argsort_hashes
+    monkeypatch.setattr(dedupe.SeenKeys, "MAX_RUNS", max_runs)
+    monkeypatch.setattr(dedupe.SeenKeys, "MIN_BITS", 4)
+    rng = np.random.default_rng(11)
+    df = _keys(rng, 20_000 if batch < 70_000 else 140_000, 30)
+    h = _hashes(df)
+    where = rng.permutation(h.size).astype(np.int64) + 10  # arbitrary distinct labels
+    seen = dedupe.SeenKeys(track_first=True)
+    parts = [seen.duplicates_of(h[i:i + batch], where[i:i + batch])
+             for i in range(0, h.size, batch)]
+    dup = np.concatenate([p[0] for p in parts])
+    first = np.concatenate([p[1] for p in parts])
+    np.testing.assert_array_equal(dup, df.duplicated(keep="first").to_numpy())
+    key = df.groupby(list(df.columns), sort=False).ngroup().to_numpy()
+    first_label = pd.Series(where).groupby(key).transform("first").to_numpy()
+    np.testing.assert_array_equal(first, first_label)
+    assert dup.sum() > 1_000 and len(seen.runs) <= max_runs
+
+
+def test_argsort_hashes_is_a_stable_sort():
+    rng = np.random.default_rng(6)
+    for n in (10, 70_000):
+        h = rng.integers(0, 2**63, n, dtype=np.int64).astype(np.uint64)
+        h[: n // 5] = h[-(n // 5):]  # repeats: their order must be kept
+        np.testing.assert_array_equal(dedupe.argsort_hashes(h), np.argsort(h, kind="stable"))
+
+
+def test_duplicates_of_needs_a_set_that_tracks_first_reads():
+    with pytest.raises(TypeError, match="does not track"):
+        dedupe.SeenKeys().duplicates_of(np.zeros(1, dtype=np.uint64), np.zeros(1))

@@ -16,8 +16,21 @@ from hypothesis import strategies as st
 
 from spotkit import columns as C
 from spotkit.cli import main
-from spotkit.errors import InputError, MappingError, NotASpotTableError, UsageError
-from spotkit.io.ingest import ingest_to_parquet, load_spots, read_spots
+from spotkit.errors import (
+    InputError,
+    MappingError,
+    MostlyRejectedError,
+    NotASpotTableError,
+    UsageError,
+)
+from spotkit.io.ingest import (
+    IngestSummary,
+    check_reject_share,
+    ingest_to_parquet,
+    load_spots,
+    read_spots,
+    reject_hint,
+)
 
 HEAD = "time,tx call,tx locator,rx call,rx locator,frequency mhz,snr,power dbm,drift\n"
 ROWS = [
@@ -338,7 +351,13 @@ def test_chunked_equals_one_go_and_parquet_round_trip(data_dir, tmp_path):
     back = pd.read_parquet(out)
     pdt.assert_frame_equal(back.astype(str), one.spots.astype(str))
     rej = pd.read_csv(tmp_path / "rej.csv", keep_default_na=False)
-    assert len(rej) == one.summary.rejected and list(rej.columns) == C.REJECT_COLUMNS
+    # the rejects file lists the removed duplicates too: rejected + duplicates rows
+    assert list(rej.columns) == C.REJECT_COLUMNS
+    is_dup = rej["reason"] == "exact duplicate"
+    assert (~is_dup).sum() == one.summary.rejected and is_dup.sum() == one.summary.duplicates
+    assert one.summary.duplicates == len(one.duplicates) > 0
+    pdt.assert_frame_equal(rej[is_dup].reset_index(drop=True),
+                           one.duplicates.astype({"source_row": "int64"}), check_dtype=False)
 
 
 def test_load_spots_passthrough_parquet_and_csv(data_dir, tmp_path):
@@ -411,8 +430,20 @@ def test_property_nothing_is_lost(data, tmp_path_factory):
     got = set(res.spots[C.SOURCE_ROW]) | set(res.rejects[C.SOURCE_ROW])
     assert len(got) == res.summary.accepted + res.summary.rejected  # no row in both
     assert got <= set(range(1, len(lines) + 1))
+    # every row is in exactly one of spots, rejects and duplicates; each duplicate names an
+    # earlier accepted row of the same file
+    dup = res.duplicates
+    assert len(dup) == res.summary.duplicates
+    every = [*res.spots[C.SOURCE_ROW], *res.rejects[C.SOURCE_ROW], *dup[C.SOURCE_ROW]]
+    assert sorted(every) == list(range(1, len(lines) + 1))
+    first = dup[C.REJECT_VALUE].str.rsplit(" row ", n=1)
+    assert (first.str[0] == str(path)).all()
+    first_row = first.str[1].astype(int)
+    assert set(first_row) <= set(res.spots[C.SOURCE_ROW])
+    assert (first_row < dup[C.SOURCE_ROW]).all()
     chunked = read_spots(path, chunk_rows=data.draw(st.integers(1, 5)), **kw)
     pdt.assert_frame_equal(res.spots, chunked.spots)
+    pdt.assert_frame_equal(res.duplicates, chunked.duplicates)
     assert res.summary == chunked.summary
 
 
@@ -562,3 +593,98 @@ def test_path_cache_numbers_categories_that_do_not_extend_the_ones_seen():
         ref = add_path_columns(pd.DataFrame({C.TX_LOCATOR: tx, C.RX_LOCATOR: rx}))
         for name, values in zip(C.DERIVED, got, strict=True):
             np.testing.assert_array_equal(values, ref[name].to_numpy(), err_msg=name)
+
+
+# --- duplicates are traceable ---------------------------------------------------------------------
+@pytest.mark.parametrize("chunk_rows", [None, 1, 3, 7])
+def test_every_duplicate_names_the_report_it_repeats(tmp_path, chunk_rows):
+    # the oracle: the first earlier line (in file order, across files) with the same text;
+    # lines with a bad locator are rejected, never duplicates or originals
+    good = _many_rows(12)
+    bad = ROWS[0].replace("IO91lk", "XX99")
+    files = {"a.csv": [good[0], good[1], good[0], bad, good[2], bad, good[1]],
+             "b.csv": [good[2], good[3], good[3], good[0], good[4]]}
+    paths = [_write(tmp_path, name, HEAD + "\n".join(rows) + "\n")
+             for name, rows in files.items()]
+    res = read_spots(paths, chunk_rows=chunk_rows)
+    _balanced(res)
+    seen, want = {}, []
+    for path, rows in zip(paths, files.values(), strict=True):
+        for i, line in enumerate(rows, start=1):
+            if line == bad:
+                continue
+            if line in seen:
+                want.append([str(path), i, "report", f"{seen[line][0]} row {seen[line][1]}",
+                             "exact duplicate"])
+            else:
+                seen[line] = (str(path), i)
+    assert res.duplicates.values.tolist() == want
+    assert res.summary.duplicates == len(want) == 5
+    assert res.summary.rows_read == 12 == res.summary.accepted + res.summary.rejected + 5
+    # the rejects file of the streamed ingest lists them in the same way
+    rej_path = tmp_path / "r.csv"
+    summary = ingest_to_parquet(paths, tmp_path / "o.parquet", rejects_path=rej_path,
+                                chunk_rows=chunk_rows or 1_000_000)
+    rej = pd.read_csv(rej_path, keep_default_na=False)
+    assert len(rej) == summary.rejected + summary.duplicates
+    assert rej[rej["reason"] == "exact duplicate"].values.tolist() == want
+
+
+# --- runs that are not a success ------------------------------------------------------------------
+def _summary(**file_rejects):
+    """A summary of files with 10 rows each and the given rejects per reason."""
+    names = list(file_rejects)
+    rejected = sum(sum(v.values()) for v in file_rejects.values())
+    by_reason = {}
+    for counts in file_rejects.values():
+        for k, v in counts.items():
+            by_reason[k] = by_reason.get(k, 0) + v
+    return IngestSummary(rows_read=10 * len(names), accepted=10 * len(names) - rejected,
+                         rejected=rejected, rejected_by_reason=by_reason, files=names,
+                         file_rows=dict.fromkeys(names, 10), file_rejects=file_rejects)
+
+
+def test_reject_share_is_checked_per_file_and_per_reason():
+    # 6 of 10 rows of b for one reason: refused at 0.5, not at 0.6; two reasons of 4 each
+    # stay under 0.5
+    ok = _summary(a={"bad call": 4, "bad locator": 4}, b={})
+    check_reject_share(ok)
+    s = _summary(a={}, b={"unparseable time": 6, "bad call": 1})
+    with pytest.raises(MostlyRejectedError, match=r"^b: 6 of 10 rows \(60 %\) set aside as "
+                       r"'unparseable time', more than the 50 % allowed") as info:
+        check_reject_share(s)
+    assert info.value.summary is s and "epoch-ms" in str(info.value)
+    check_reject_share(s, 0.6)
+    check_reject_share(s, None)
+    # a file whose every row is set aside is refused whatever the share, with two files
+    s = _summary(a={}, b={"bad call": 5, "bad locator": 5})
+    with pytest.raises(MostlyRejectedError, match="b: every row .10. set aside"):
+        check_reject_share(s, 1.0)
+    with pytest.raises(UsageError, match="from 0 to 1"):
+        check_reject_share(s, 1.5)
+
+
+def test_no_row_accepted_is_refused_and_names_the_likely_fix():
+    s = _summary(x={"frequency not in an amateur band": 10})
+    with pytest.raises(MostlyRejectedError, match=r"x: no row accepted \(10 read; set aside: "
+                       r"frequency not in an amateur band: 10\); the values may be kHz or Hz"):
+        check_reject_share(s, 1.0)
+    assert reject_hint("SNR not a number").startswith("the SNR column may use another minus")
+    assert reject_hint("blank line") is None
+
+
+def test_read_spots_and_ingest_to_parquet_share_the_policy(tmp_path):
+    rows = [r.replace("14.0971", "14097.1").replace("7.03865", "7038.65")
+            for r in ROWS[:3]] + ROWS[3:]  # kHz under a MHz heading
+    path = _write(tmp_path, "k.csv", HEAD + "\n".join(rows) + "\n")
+    assert read_spots(path).summary.accepted == 1  # no policy by default: all returned
+    with pytest.raises(MostlyRejectedError, match="'frequency not in an amateur band'") as info:
+        read_spots(path, max_reject_share=0.5)
+    assert info.value.result.summary.rejected == 3 and len(info.value.result.spots) == 1
+    out = tmp_path / "o.parquet"
+    out.write_bytes(b"earlier")
+    with pytest.raises(MostlyRejectedError):
+        ingest_to_parquet(path, out)
+    assert out.read_bytes() == b"earlier"
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["k.csv", "o.parquet"]
+    assert ingest_to_parquet(path, out, max_reject_share=0.9).accepted == 1
