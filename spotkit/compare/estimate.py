@@ -562,10 +562,27 @@ def group_label(row, hour_basis: str = "utc", *, sentence: bool = False) -> str:
     return ", ".join(parts) if parts else "overall"
 
 
-def _too_little(row, cluster_label: str) -> str:
-    """Why a row's numbers cannot carry a verdict ("" when they can)."""
+def too_little_data(row, cluster_label: str = "receivers") -> str:
+    """Why a result row's numbers cannot carry a verdict; ``""`` when they can.
+
+    Reasons: fewer than :data:`MIN_CLUSTERS` clusters (when the row has a ``clusters``
+    count), more than :data:`MAX_FAILED_SHARE` of the bootstrap resamples without an
+    estimate (as the row's note reports them), or an estimate outside its own interval.
+
+    Examples
+    --------
+    >>> too_little_data({"clusters": 3, "note": ""})
+    'only 3 receivers (at least 5 needed)'
+    >>> too_little_data({"clusters": 40, "note": "12% of the bootstrap resamples had no "
+    ...                  "estimate: interval unreliable"})
+    '12% of the bootstrap resamples had no estimate (at most 10% allowed)'
+    >>> too_little_data({"clusters": 40, "b_minus_a_db": 1.0, "ci_low_db": 0.2,
+    ...                  "ci_high_db": 1.9, "note": ""})
+    ''
+    """
     why = []
-    n_cl = row.get(C.CLUSTERS)
+    get = row.get
+    n_cl = get(C.CLUSTERS)
     if n_cl is not None and not pd.isna(n_cl) and int(n_cl) < MIN_CLUSTERS:
         one = cluster_label[:-1] if cluster_label.endswith("s") else cluster_label
         why.append(f"only {int(n_cl)} {one if int(n_cl) == 1 else cluster_label} "
@@ -574,6 +591,9 @@ def _too_little(row, cluster_label: str) -> str:
     if bad > MAX_FAILED_SHARE:
         why.append(f"{bad:.0%} of the bootstrap resamples had no estimate (at most "
                    f"{MAX_FAILED_SHARE:.0%} allowed)")
+    est, lo, hi = (float(get(c, np.nan)) for c in (C.B_MINUS_A, C.CI_LOW, C.CI_HIGH))
+    if not why and (lo > 0 > est or hi < 0 < est):
+        why.append("the estimate lies outside its own interval")
     return " and ".join(why)
 
 
@@ -633,9 +653,7 @@ def verdict(row, confidence: float = 0.95, hour_basis: str = "utc",
     if pd.isna(lo) or pd.isna(hi):
         return (f"B minus A is {est:+.1f} dB{where} but without an interval ({note}, "
                 f"{pairs:,} {what}){tail}")
-    why = _too_little(row, cluster_label)
-    if not why and (lo > 0 > est or hi < 0 < est):
-        why = "the estimate lies outside its own interval"
+    why = too_little_data(row, cluster_label)
     if why:
         return (f"too little data{where} to name a better antenna: {why}; B minus A "
                 f"{est:+.1f} dB from {pairs:,} {what}{tail}")
@@ -924,5 +942,5 @@ def compare_antennas(spots: pd.DataFrame, design: Design, a: str, b: str | None 
 __all__ = [
     "RESULT_COLUMNS", "THRESHOLD_CORRECTIONS", "MISSED_REPORTS", "ComparisonResult",
     "compare_antennas", "edge_correction", "estimate_groups", "group_label", "verdict",
-    "format_p_value", "MIN_CLUSTERS", "MAX_FAILED_SHARE", "P_FLOOR",
+    "format_p_value", "too_little_data", "MIN_CLUSTERS", "MAX_FAILED_SHARE", "P_FLOOR",
 ]
