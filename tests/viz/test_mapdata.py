@@ -99,19 +99,19 @@ def test_per_receiver_cells_resample_time_blocks_not_pairs(drifting_receivers):
     bootstrap with 12 clusters somewhat less) and is about three times wider."""
     res = drifting_receivers
     old = res.groups
-    assert (old[C.CLUSTERS] == 1).all()
     cells = mapdata.difference_cells(res, level="receiver")
+    w_old = (old[C.CI_HIGH] - old[C.CI_LOW]).to_numpy()
+    w_new = (cells[C.CI_HIGH] - cells[C.CI_LOW]).to_numpy()
+    cover_old = np.mean((old[C.CI_LOW] <= 1.0) & (1.0 <= old[C.CI_HIGH]))
+    cover_new = np.mean((cells[C.CI_LOW] <= 1.0) & (1.0 <= cells[C.CI_HIGH]))
+    assert cover_new >= 0.82, cover_new
+    assert np.median(w_new / w_old) > 2.0
+    assert cover_old < 0.70
+    assert (old[C.CLUSTERS] == 1).all()
     assert cells.attrs["block_hours"] == 6.0
     assert (cells[C.CLUSTERS] == 12).all()
     assert cells[C.B_MINUS_A].to_numpy() == pytest.approx(old[C.B_MINUS_A].to_numpy(),
                                                           abs=1e-9)
-    w_old = (old[C.CI_HIGH] - old[C.CI_LOW]).to_numpy()
-    w_new = (cells[C.CI_HIGH] - cells[C.CI_LOW]).to_numpy()
-    assert np.median(w_new / w_old) > 2.0
-    cover_old = np.mean((old[C.CI_LOW] <= 1.0) & (1.0 <= old[C.CI_HIGH]))
-    cover_new = np.mean((cells[C.CI_LOW] <= 1.0) & (1.0 <= cells[C.CI_HIGH]))
-    assert cover_old < 0.70
-    assert cover_new >= 0.82
     # the cells' method says what was resampled
     assert "6-h blocks of a receiver" in cells[C.METHOD].iloc[0]
 
