@@ -85,7 +85,9 @@ Before/after design: :mod:`spotkit.compare.beforeafter` (a censored fit per peri
 before, with a two-way bootstrap over receivers and days).
 
 Groups with a single cluster (e.g. ``by="receiver"``) get an interval from resampling
-their pairs as if independent, which is too narrow.
+their pairs as if independent, which is too narrow: their verdict says "too little data"
+(fewer than :data:`MIN_CLUSTERS` clusters), and the maps re-estimate such cells with
+blocks of hours within each receiver as the clusters (:mod:`spotkit.compare.cells`).
 
 References
 ----------
