@@ -72,9 +72,20 @@ _METHOD_WORDS = [
     "The 95 % confidence interval comes from a cluster bootstrap that resamples whole "
     "receivers (transmitters in the receive design), because one receiver's reports share "
     "its location, antenna and noise and are not independent.",
-    "Beside the headline: the Hodges-Lehmann estimate with a Wilcoxon signed-rank test on "
-    "pairs heard by both, a sign test, and a McNemar test on the pairs heard by one antenna "
-    "only. p-values across groups are adjusted with the Benjamini-Hochberg procedure.",
+    "Beside the headline (in the CSV and JSON output): the Hodges-Lehmann estimate of the "
+    "pairs heard by both, and side tests that count receivers, not pairs, as the "
+    "independent units - a Wilcoxon signed-rank test and a sign test on each receiver's "
+    "median difference, and a sign test over receivers of whether B was heard alone more "
+    "often than A. Tests that count every pair overstate the evidence many times over. "
+    "p-values across groups are adjusted with the Benjamini-Hochberg procedure; p-values "
+    "below 1e-16 are shown as '< 1e-16'.",
+    "A verdict names a better antenna only when the interval excludes 0, at least 5 "
+    "receivers (transmitters in the receive design) carry the group and no more than 10 % of "
+    "the bootstrap resamples failed; otherwise it says 'too little data' and why. When A is "
+    "better its interval is given as A minus B.",
+    "Maps per receiver or locator square resample blocks of hours within each receiver "
+    "(the cell's few receivers cannot be resampled), and P(heard) intervals resample whole "
+    "far stations.",
     "Assumptions: the fast fading of the two antennas is independent and normal in dB with "
     "one spread per group; the antennas' difference is constant within a group; the decode "
     "threshold of a receiver does not change during the run.",
@@ -138,8 +149,13 @@ def data_summary(spots: pd.DataFrame, ingest_summary=None) -> pd.DataFrame:
 def verdict_table(result, overall: bool = True) -> pd.DataFrame:
     """The verdict table of a comparison: one row per group with estimate, CI and counts.
 
-    ``overall=False`` leaves out the overall row (shown once per report).
+    ``overall=False`` leaves out the overall row (shown once per report). p-values below
+    the floating-point floor show as ``"< 1e-16"``
+    (:func:`spotkit.compare.estimate.format_p_value`); the side tests (rank, sign) are not
+    in this table: they are in the CSV/JSON output, counted over receivers.
     """
+    from spotkit.compare.estimate import format_p_value
+
     frame = result.to_frame()
     verdicts = result.verdicts()
     if not overall:
@@ -159,7 +175,7 @@ def verdict_table(result, overall: bool = True) -> pd.DataFrame:
     if C.BOTH_HEARD in frame:
         out["both-heard only (dB)"] = [f(x, "+.2f") for x in frame[C.BOTH_HEARD]]
     if C.P_ADJUSTED in frame:
-        out["p (adjusted)"] = [f(x, ".3g") for x in frame[C.P_ADJUSTED]]
+        out["p (adjusted)"] = [format_p_value(x) for x in frame[C.P_ADJUSTED]]
     out["verdict"] = verdicts
     return out
 

@@ -129,3 +129,25 @@ def test_report_renders_with_its_images_in_headless_chromium(report_html, tmp_pa
     img = imread(shot)
     assert img.shape[0] >= 1000 and img[..., :3].std() > 0.05
     Path(shot).unlink()
+
+
+def test_verdict_table_prints_p_floor_and_refuses_thin_verdicts():
+    """p below double precision's floor shows as "< 1e-16", never "0"; a group carried by
+    one receiver gets "too little data", not "B is N dB better" (issue 15, item 6)."""
+    import pandas as pd
+
+    from spotkit.compare.estimate import ComparisonResult
+    from spotkit.report import verdict_table
+
+    base = {C.B_MINUS_A: 8.0, C.CI_LOW: 7.1, C.CI_HIGH: 8.9, C.PAIRS: 900, C.BOTH: 800,
+            C.ONLY_A: 40, C.ONLY_B: 60, C.BOTH_HEARD: 7.5, C.P_ADJUSTED: 0.0,
+            C.CLUSTERS: 30, C.NOTE: "", C.METHOD: "m"}
+    groups = pd.DataFrame([dict(base, **{C.BAND: "20m"}),
+                           dict(base, **{C.BAND: "10m", C.CLUSTERS: 1, C.P_ADJUSTED: 3e-4})])
+    res = ComparisonResult(overall=base, groups=groups, pairs=pd.DataFrame([]),
+                           design="simultaneous", a="Q1ABC", b="Q1ABD", by=("band",))
+    t = verdict_table(res)
+    assert t["p (adjusted)"].tolist() == ["< 1e-16", "< 1e-16", "0.0003"]
+    assert t["verdict"].iloc[1].startswith("B is 8.0 dB better than A on 20 m")
+    assert t["verdict"].iloc[2].startswith("too little data on 10 m")
+    assert "only 1 receiver" in t["verdict"].iloc[2]

@@ -8,15 +8,21 @@ from spotkit.compare.beforeafter import (
     WEAKER_DESIGN,
     estimate_before_after,
 )
+from spotkit.compare.cells import DEFAULT_BLOCK_HOURS, block_clusters, estimate_cells
 from spotkit.compare.estimate import (
+    MAX_FAILED_SHARE,
+    MIN_CLUSTERS,
     MISSED_REPORTS,
+    P_FLOOR,
     RESULT_COLUMNS,
     THRESHOLD_CORRECTIONS,
     ComparisonResult,
     compare_antennas,
     edge_correction,
     estimate_groups,
+    format_p_value,
     group_label,
+    too_little_data,
     verdict,
 )
 from spotkit.compare.grouping import (
@@ -31,6 +37,7 @@ from spotkit.compare.grouping import (
     parse_by,
     summarise_pairs,
 )
+from spotkit.compare.heard import heard_probability
 from spotkit.compare.pairing import (
     DESIGNS,
     PAIR_COLUMNS,
@@ -56,5 +63,7 @@ __all__ = [
     "WEAKER_DESIGN", "estimate_before_after", "RESULT_COLUMNS", "THRESHOLD_CORRECTIONS",
     "MISSED_REPORTS", "ComparisonResult", "compare_antennas", "edge_correction",
     "estimate_groups", "group_label", "verdict", "ReachResult", "compare_reach",
-    "reach_summary", "reach_by_bearing", "heard_by_distance",
+    "reach_summary", "reach_by_bearing", "heard_by_distance", "MIN_CLUSTERS",
+    "MAX_FAILED_SHARE", "P_FLOOR", "format_p_value", "too_little_data",
+    "DEFAULT_BLOCK_HOURS", "block_clusters", "estimate_cells", "heard_probability",
 ]

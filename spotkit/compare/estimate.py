@@ -23,9 +23,18 @@ bootstrap resampling whole clusters. The cluster weights are drawn once, shape
 ``(n_boot, n_clusters)``, and shared by every group; each group's bootstrap weights are
 ``W @ M`` (M: per-cluster counts of its distinct (kind, value) rows), fitted in one batch.
 ``p_value`` is two-sided from the bootstrap SE (normal approximation); ``p_adjusted`` is
-Benjamini-Hochberg over the groups. Beside them, on the both-heard differences: the
-Hodges-Lehmann shift, Wilcoxon's signed-rank and the sign test; on the discordant counts
-(only A / only B): McNemar's exact test.
+Benjamini-Hochberg over the groups. Beside them: the Hodges-Lehmann shift of the
+both-heard differences, and side tests with receivers (the clusters) as the units -
+Wilcoxon's signed-rank and the sign test on each cluster's median both-heard difference,
+and a sign test over clusters of only-B minus only-A counts (the cluster-level version of
+McNemar's test). Pair-level versions of these tests count one receiver's pairs as
+independent and gave p = 1e-29 where the cluster bootstrap gave 0.45.
+
+Verdicts (:func:`verdict`) name a better antenna only where the numbers support one: the
+interval excludes 0, at least :data:`MIN_CLUSTERS` clusters carry the group, and no more
+than :data:`MAX_FAILED_SHARE` of the bootstrap resamples failed; otherwise they say "too
+little data" and why. p-values below :data:`P_FLOOR` print as ``< 1e-16``
+(:func:`format_p_value`).
 
 Threshold correction (optional, off by default). :func:`edge_correction` adds a
 first-order Tweedie term for reports piling up at the decode threshold
@@ -76,7 +85,9 @@ Before/after design: :mod:`spotkit.compare.beforeafter` (a censored fit per peri
 before, with a two-way bootstrap over receivers and days).
 
 Groups with a single cluster (e.g. ``by="receiver"``) get an interval from resampling
-their pairs as if independent, which is too narrow.
+their pairs as if independent, which is too narrow: their verdict says "too little data"
+(fewer than :data:`MIN_CLUSTERS` clusters), and the maps re-estimate such cells with
+blocks of hours within each receiver as the clusters (:mod:`spotkit.compare.cells`).
 
 References
 ----------
@@ -97,6 +108,7 @@ from __future__ import annotations
 
 import json
 import math
+import re
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Literal
@@ -121,6 +133,7 @@ from spotkit.compare.grouping import (
 )
 from spotkit.compare.pairing import Design, pair_spots
 from spotkit.errors import NoPairsError, UsageError
+from spotkit.stats.paired import cluster_medians
 
 _KIND_CODE = {"both": 0, "only_a": 1, "only_b": -1, "edge_a": 2, "edge_b": -2}
 ThresholdCorrection = Literal["edge", "none"]
@@ -198,13 +211,33 @@ def _explained(v, k, w, mu, sigma, missed_a, missed_b):
     return ws[:, k == 1].sum(1), ws[:, k == -1].sum(1)
 
 
-def _tests_on_both(vals, cnts, out, g):
-    if cnts.sum() == 0:
-        return
-    out[C.BOTH_HEARD][g] = float(np.average(vals, weights=cnts))
-    out[C.HODGES_LEHMANN][g] = float(stats.hodges_lehmann(vals, cnts))
-    out[C.P_WILCOXON][g] = _nan_if_none(stats.wilcoxon_signed_rank(vals, cnts).p_value)
-    out[C.P_SIGN][g] = _nan_if_none(stats.sign_test(vals, cnts).p_value)
+def _tests_on_both(v, k, t, per_cluster, out, g):
+    """The side tests of one group, with clusters (receivers) as the independent units.
+
+    ``v``, ``k``, ``t``: the group's distinct pair items (value [dB], kind code, count);
+    ``per_cluster``: their counts per cluster (sparse, items x clusters). The both-heard
+    mean and the Hodges-Lehmann shift are point estimates over the pairs; the signed-rank
+    and sign tests run on each cluster's median both-heard difference
+    (:func:`spotkit.stats.paired.cluster_medians`), and the McNemar-type test is a sign
+    test over clusters of "B heard alone more often than A alone" (only-B minus only-A
+    count per cluster): a pair-level test treats one receiver's hundreds of pairs as
+    independent and overstates the evidence (module docstring)."""
+    coo = sparse.coo_matrix(per_cluster)
+    kind = k[coo.row]
+    both = kind == 0
+    if t[k == 0].sum() > 0:
+        vals, cnts = v[k == 0], t[k == 0]
+        out[C.BOTH_HEARD][g] = float(np.average(vals, weights=cnts))
+        out[C.HODGES_LEHMANN][g] = float(stats.hodges_lehmann(vals, cnts))
+        _, med = cluster_medians(v[coo.row[both]], coo.col[both], coo.data[both])
+        out[C.P_WILCOXON][g] = _nan_if_none(stats.wilcoxon_signed_rank(med).p_value)
+        out[C.P_SIGN][g] = _nan_if_none(stats.sign_test(med).p_value)
+    one = kind != 0
+    if one.any():
+        bal = np.bincount(coo.col[one], weights=np.where(kind[one] == -1, 1.0, -1.0)
+                          * coo.data[one], minlength=coo.shape[1])
+        bal = bal[np.bincount(coo.col[one], minlength=coo.shape[1]) > 0]
+        out[C.P_MCNEMAR][g] = _nan_if_none(stats.sign_test(np.sign(bal)).p_value)
 
 
 def estimate_groups(counts: pd.DataFrame, *, n_boot: int = 1000, seed: int = 0,
@@ -348,9 +381,7 @@ def estimate_groups(counts: pd.DataFrame, *, n_boot: int = 1000, seed: int = 0,
         n_a[g] = int(t[k == 1].sum())
         n_b[g] = int(t[k == -1].sum())
         pairs = n_both[g] + n_a[g] + n_b[g]
-        if n_a[g] + n_b[g] > 0:
-            out[C.P_MCNEMAR][g] = _nan_if_none(stats.mcnemar(n_a[g], n_b[g]).p_value)
-        _tests_on_both(v[k == 0], t[k == 0], out, g)
+        _tests_on_both(v, k, t, S[sl][np.flatnonzero(pm)], out, g)
         if pairs < min_pairs:
             notes[g] = f"too few pairs ({pairs:,} < {min_pairs:,}): no estimate"
             continue
@@ -431,17 +462,61 @@ def estimate_groups(counts: pd.DataFrame, *, n_boot: int = 1000, seed: int = 0,
 
 
 # --- labels and verdicts ----------------------------------------------------------------------
+#: fewest clusters (receivers; transmitters in the receive design) that must carry a group
+#: before a verdict names a better antenna (with fewer the cluster bootstrap has too few
+#: units to resample: its interval is too narrow, see :mod:`spotkit.stats.bootstrap`)
+MIN_CLUSTERS = 5
+#: largest share of bootstrap resamples without an estimate for which a verdict is given
+#: (failures are left out of the interval, which biases it when they depend on the data)
+MAX_FAILED_SHARE = 0.10
+#: p-values below this are printed as "< 1e-16": double precision (machine epsilon
+#: 2.2e-16) cannot tell them from 0 when they come as 1 - (something close to 1)
+P_FLOOR = 1e-16
+
+_FAILED = re.compile(r"(\d+(?:\.\d+)?)\s*% of the bootstrap resamples had no estimate")
+
+
 def _fmt_num(x: float) -> str:
     return f"{x:,.0f}" if float(x).is_integer() else f"{x:,.1f}"
 
 
-def group_label(row, hour_basis: str = "utc") -> str:
+def format_p_value(p, digits: int = 3) -> str:
+    """A p-value as text: ``digits`` significant figures, ``"< 1e-16"`` below
+    :data:`P_FLOOR` (never ``"0"``), ``""`` when missing.
+
+    Examples
+    --------
+    >>> format_p_value(0.04567), format_p_value(3.2e-9), format_p_value(0.0)
+    ('0.0457', '3.2e-09', '< 1e-16')
+    >>> format_p_value(float("nan"))
+    ''
+    """
+    if p is None or pd.isna(p):
+        return ""
+    p = float(p)
+    return f"< {P_FLOOR:.0e}" if p < P_FLOOR else f"{p:.{digits}g}"
+
+
+def _failed_share(row) -> float:
+    """Share of the bootstrap resamples without an estimate, from the row's note (0 when
+    the note does not mention any)."""
+    note = row.get(C.NOTE, "") or ""
+    m = _FAILED.search(str(note))
+    return float(m.group(1)) / 100 if m else 0.0
+
+
+def group_label(row, hour_basis: str = "utc", *, sentence: bool = False) -> str:
     """Readable description of one group, e.g. ``"on 10 m, beyond 3,000 km"``.
+
+    ``sentence=True`` words it for the middle of a sentence: a distance range gets "at"
+    (``"B is 1.0 dB better than A at 1,000-3,000 km"``).
 
     Examples
     --------
     >>> group_label({"band": "10m", "distance_min_km": 3000.0, "distance_max_km": 6000.0})
     'on 10 m, 3,000-6,000 km'
+    >>> group_label({"distance_min_km": 1000.0, "distance_max_km": 3000.0}, sentence=True)
+    'at 1,000-3,000 km'
     >>> group_label({"distance_min_km": 6000.0, "distance_max_km": 20100.0,
     ...              "bearing_min_deg": 270.0, "bearing_max_deg": 315.0})
     'beyond 6,000 km, towards 270-315 deg'
@@ -464,7 +539,8 @@ def group_label(row, hour_basis: str = "utc") -> str:
         elif dmax >= 20000:
             parts.append(f"beyond {_fmt_num(dmin)} km")
         else:
-            parts.append(f"{_fmt_num(dmin)}-{_fmt_num(dmax)} km")
+            parts.append(("at " if sentence else "")
+                         + f"{_fmt_num(dmin)}-{_fmt_num(dmax)} km")
     bmin, bmax = get(C.BEARING_MIN), get(C.BEARING_MAX)
     if bmin is not None and not pd.isna(bmin):
         parts.append(f"towards {_fmt_num(bmin)}-{_fmt_num(bmax)} deg")
@@ -488,40 +564,111 @@ def group_label(row, hour_basis: str = "utc") -> str:
     return ", ".join(parts) if parts else "overall"
 
 
+def too_little_data(row, cluster_label: str = "receivers") -> str:
+    """Why a result row's numbers cannot carry a verdict; ``""`` when they can.
+
+    Reasons: fewer than :data:`MIN_CLUSTERS` clusters (when the row has a ``clusters``
+    count), more than :data:`MAX_FAILED_SHARE` of the bootstrap resamples without an
+    estimate (as the row's note reports them), or an estimate outside its own interval.
+
+    Examples
+    --------
+    >>> too_little_data({"clusters": 3, "note": ""})
+    'only 3 receivers (at least 5 needed)'
+    >>> too_little_data({"clusters": 40, "note": "12% of the bootstrap resamples had no "
+    ...                  "estimate: interval unreliable"})
+    '12% of the bootstrap resamples had no estimate (at most 10% allowed)'
+    >>> too_little_data({"clusters": 40, "b_minus_a_db": 1.0, "ci_low_db": 0.2,
+    ...                  "ci_high_db": 1.9, "note": ""})
+    ''
+    """
+    why = []
+    get = row.get
+    n_cl = get(C.CLUSTERS)
+    if n_cl is not None and not pd.isna(n_cl) and int(n_cl) < MIN_CLUSTERS:
+        one = cluster_label[:-1] if cluster_label.endswith("s") else cluster_label
+        why.append(f"only {int(n_cl)} {one if int(n_cl) == 1 else cluster_label} "
+                   f"(at least {MIN_CLUSTERS} needed)")
+    bad = _failed_share(row)
+    if bad > MAX_FAILED_SHARE:
+        why.append(f"{bad:.0%} of the bootstrap resamples had no estimate (at most "
+                   f"{MAX_FAILED_SHARE:.0%} allowed)")
+    est, lo, hi = (float(get(c, np.nan)) for c in (C.B_MINUS_A, C.CI_LOW, C.CI_HIGH))
+    if not why and (lo > 0 > est or hi < 0 < est):
+        why.append("the estimate lies outside its own interval")
+    return " and ".join(why)
+
+
 def verdict(row, confidence: float = 0.95, hour_basis: str = "utc",
-            design: str = "") -> str:
+            design: str = "", cluster_label: str | None = None) -> str:
     """One plain-language sentence about one result row.
+
+    A better antenna is named only when the interval excludes 0, at least
+    :data:`MIN_CLUSTERS` clusters (receivers; transmitters in the receive design) carry the
+    row (when it has a ``clusters`` count) and no more than :data:`MAX_FAILED_SHARE` of the
+    bootstrap resamples failed (as its note reports); otherwise the sentence says "too
+    little data" and why. An A-favoured verdict gives its interval as A minus B.
+
+    Parameters
+    ----------
+    row : dict-like
+        One row of a comparison's results (:data:`RESULT_COLUMNS` and group keys).
+    confidence : float
+        Coverage of the row's interval.
+    hour_basis : {"utc", "local"}
+        How an hour group is worded.
+    design : str
+        The comparison's design ("before-after" words it as reports of a weaker design).
+    cluster_label : str, optional
+        What the clusters are, plural ("receivers"); default "transmitters" in the receive
+        design, else "receivers".
 
     Examples
     --------
     >>> row = {"band": "20m", "b_minus_a_db": 2.4, "ci_low_db": 1.1, "ci_high_db": 3.6,
-    ...        "pairs": 1234, "note": ""}
+    ...        "pairs": 1234, "clusters": 40, "note": ""}
     >>> verdict(row)
     'B is 2.4 dB better than A on 20 m (95 % CI 1.1 to 3.6 dB, 1,234 pairs)'
     >>> verdict(dict(row, ci_low_db=-0.4))
     'no difference shown on 20 m (B minus A +2.4 dB, 95 % CI -0.4 to 3.6 dB, 1,234 pairs)'
+    >>> verdict(dict(row, b_minus_a_db=-2.4, ci_low_db=-3.6, ci_high_db=-1.1))
+    'A is 2.4 dB better than B on 20 m (95 % CI 1.1 to 3.6 dB, 1,234 pairs)'
+    >>> verdict(dict(row, clusters=1))  # doctest: +NORMALIZE_WHITESPACE
+    'too little data on 20 m to name a better antenna: only 1 receiver (at least 5
+    needed); B minus A +2.4 dB from 1,234 pairs'
     """
-    where = group_label(row, hour_basis)
+    if cluster_label is None:
+        cluster_label = "transmitters" if design == "receive" else "receivers"
+    where = group_label(row, hour_basis, sentence=True)
     where = "" if where == "overall" else f" {where}"
     pct = f"{confidence * 100:g} %"
     pairs = int(row[C.PAIRS])
     what = "reports" if design == "before-after" else "pairs"
     est, lo, hi = row[C.B_MINUS_A], row[C.CI_LOW], row[C.CI_HIGH]
-    note = row.get(C.NOTE, "") or ""
+    note = str(row.get(C.NOTE, "") or "")
     tail = f" ({WEAKER_DESIGN})" if design == "before-after" else ""
     if pd.isna(est):
-        return f"no estimate{where}: {note}{tail}"
+        why = re.sub(r"^no estimate(: |$)|: no estimate$", "", note) or "no estimate"
+        return f"no estimate{where}: {why}{tail}"
     if design == "before-after":  # its note starts with the days and what the interval holds
         note = note.split("; ")[0]
     if pd.isna(lo) or pd.isna(hi):
         return (f"B minus A is {est:+.1f} dB{where} but without an interval ({note}, "
                 f"{pairs:,} {what}){tail}")
-    ci = f"{pct} CI {lo:.1f} to {hi:.1f} dB, {pairs:,} {what}"
+    why = too_little_data(row, cluster_label)
+    if why:
+        return (f"too little data{where} to name a better antenna: {why}; B minus A "
+                f"{est:+.1f} dB from {pairs:,} {what}{tail}")
     extra = f"; {note}" if note else ""
     if lo <= 0 <= hi:
+        ci = f"{pct} CI {lo:.1f} to {hi:.1f} dB, {pairs:,} {what}"
         return f"no difference shown{where} (B minus A {est:+.1f} dB, {ci}{extra}){tail}"
-    better, worse = ("B", "A") if est > 0 else ("A", "B")
-    return f"{better} is {abs(est):.1f} dB better than {worse}{where} ({ci}{extra}){tail}"
+    if est > 0:
+        better, worse, size, ci_lo, ci_hi = "B", "A", est, lo, hi
+    else:  # state A's advantage and its interval as A minus B
+        better, worse, size, ci_lo, ci_hi = "A", "B", -est, -hi, -lo
+    ci = f"{pct} CI {ci_lo:.1f} to {ci_hi:.1f} dB, {pairs:,} {what}"
+    return f"{better} is {size:.1f} dB better than {worse}{where} ({ci}{extra}){tail}"
 
 
 # --- the result object ------------------------------------------------------------------------
@@ -627,7 +774,7 @@ class ComparisonResult:
         for col, name in ((C.BOTH, "both"), (C.ONLY_A, "only A"), (C.ONLY_B, "only B")):
             show[name] = frame[col].map(lambda x: "" if pd.isna(x) else f"{int(x):,}")
         show["both-heard dB"] = frame[C.BOTH_HEARD].map(fmt)
-        show["p adj"] = frame[C.P_ADJUSTED].map(lambda x: "" if pd.isna(x) else f"{x:.3g}")
+        show["p adj"] = frame[C.P_ADJUSTED].map(format_p_value)
         show["note"] = frame[C.NOTE].fillna("")
         head = (f"{self.design} comparison, A = {self.a}, B = {self.b}"
                 f"{'; by ' + ', '.join(self.by) if self.by else ''}\n"
@@ -744,7 +891,7 @@ def compare_antennas(spots: pd.DataFrame, design: Design, a: str, b: str | None 
      3,000-6,000 km           3.3        2.9         5.0     11
     beyond 6,000 km           NaN        NaN         NaN      8
     >>> result.verdicts()[-1]
-    'no estimate beyond 6,000 km: too few pairs (8 < 10): no estimate'
+    'no estimate beyond 6,000 km: too few pairs (8 < 10)'
     """
     keys = parse_by(by)
     pairs = pair_spots(spots, design, a, b, schedule=schedule, change_at=change_at,
@@ -797,4 +944,5 @@ def compare_antennas(spots: pd.DataFrame, design: Design, a: str, b: str | None 
 __all__ = [
     "RESULT_COLUMNS", "THRESHOLD_CORRECTIONS", "MISSED_REPORTS", "ComparisonResult",
     "compare_antennas", "edge_correction", "estimate_groups", "group_label", "verdict",
+    "format_p_value", "too_little_data", "MIN_CLUSTERS", "MAX_FAILED_SHARE", "P_FLOOR",
 ]

@@ -22,6 +22,7 @@ from spotkit.stats.censored import (
 from spotkit.stats.paired import (
     TestResult,
     benjamini_hochberg,
+    cluster_medians,
     hodges_lehmann,
     hodges_lehmann_ci,
     mcnemar,
@@ -32,7 +33,8 @@ from spotkit.stats.paired import (
 
 __all__ = [
     "TestResult", "wilcoxon_signed_rank", "hodges_lehmann", "hodges_lehmann_ci",
-    "sign_test", "mcnemar", "benjamini_hochberg", "wilson_interval", "SIGMA_FLOOR_DB",
+    "sign_test", "mcnemar", "benjamini_hochberg", "wilson_interval", "cluster_medians",
+    "SIGMA_FLOOR_DB",
     "CensoredFit", "censored_normal_mle", "censored_normal_mle_batch",
     "censored_mixture_mle", "censored_mixture_mle_batch", "normal_share",
     "INTERVAL_METHODS", "DRAWS", "cluster_bootstrap_weights",

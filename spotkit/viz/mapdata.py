@@ -22,6 +22,8 @@ import pandas as pd
 from spotkit import columns as C
 from spotkit._validate import check_choice
 from spotkit.bands import sort_bands
+from spotkit.compare.cells import DEFAULT_BLOCK_HOURS, estimate_cells
+from spotkit.compare.estimate import too_little_data
 from spotkit.errors import UsageError
 from spotkit.geo.locator import locator_cell_size, locator_to_latlon
 from spotkit.units import snr_per_watt
@@ -261,48 +263,66 @@ def _groups_and_pairs(result, pairs):
     return groups, pairs
 
 
-def difference_cells(result, *, level: Level = "auto", pairs: pd.DataFrame | None = None
-                     ) -> pd.DataFrame:
+def difference_cells(result, *, level: Level = "auto", pairs: pd.DataFrame | None = None,
+                     block_hours: float | None = DEFAULT_BLOCK_HOURS) -> pd.DataFrame:
     """Where each group of a comparison sits on the map and how it should be drawn.
+
+    A cell held by one receiver (or a square with a few) is one or a few bootstrap
+    clusters: resampling its pairs as if independent made every receiver of a three-day run
+    "significant". Given a ComparisonResult, such cells are re-estimated with blocks of
+    ``block_hours`` within each receiver as the clusters
+    (:func:`spotkit.compare.cells.estimate_cells`), and a cell counts as significant only
+    when its interval excludes 0 and its numbers could carry a verdict
+    (:func:`spotkit.compare.estimate.too_little_data`: at least 5 clusters, at most 10 %
+    failed resamples).
 
     Parameters
     ----------
     result : ComparisonResult or pandas.DataFrame
         From ``compare_antennas(..., by=(..., "receiver" | "square" | "field"))`` or its
         ``groups`` table (columns b_minus_a_db, ci_low_db, ci_high_db, both, only_a,
-        only_b and the level's key).
+        only_b and the level's key; a bare table is taken as it is).
     level : {"auto", "receiver", "square", "field"}
         ``"auto"`` takes the finest key present.
     pairs : pandas.DataFrame, optional
         Pairs table for receiver positions (default ``result.pairs``).
+    block_hours : float or None
+        Length of the time blocks resampled within a receiver [h]; None keeps the
+        result's intervals as they are.
 
     Returns
     -------
     pandas.DataFrame
         The groups with far_lat, far_lon [deg] (cell centre or receiver), cell_dlat,
-        cell_dlon [deg] (0 for receivers), ``significant`` (the CI excludes 0),
-        ``one_sided`` ("only_a" / "only_b" when just one antenna was heard there, else "").
-        Groups without an estimate (too few pairs) keep NaN and are drawn as grey rings.
+        cell_dlon [deg] (0 for receivers), ``significant`` (the CI excludes 0 and the
+        numbers carry a verdict), ``one_sided`` ("only_a" / "only_b" when just one antenna
+        was heard there, else ""). Groups without an estimate (too few pairs) keep NaN and
+        are drawn as grey rings. ``attrs["level"]``; ``attrs["block_hours"]`` (None when
+        the intervals were taken as given).
 
     Examples
     --------
-    A short simulated run compared by locator field of the receiver; fields are placed at
-    their centres, 10 by 20 deg:
+    A simulated day compared by locator field of the receiver; fields are placed at their
+    centres, 10 by 20 deg. Fields with fewer than 5 receivers are re-estimated with 6-hour
+    blocks of each receiver as the clusters; those with fewer than 5 clusters in all are
+    not marked significant, however narrow their interval:
 
     >>> from spotkit.sim.simulate import simulate_spots
-    >>> sim = simulate_spots(days=0.1, n_receivers=30, bands=("20m",), difference_db=3.0,
+    >>> sim = simulate_spots(days=1, n_receivers=30, bands=("20m",), difference_db=3.0,
     ...                      seed=1)
     >>> from spotkit.compare.estimate import compare_antennas
     >>> result = compare_antennas(sim.spots, "simultaneous", "Q1ABC", "Q1ABD", n_boot=50,
     ...                           by="field", min_pairs=5)
+    >>> result.groups["clusters"].head(3).tolist()
+    [1, 2, 4]
     >>> cells = difference_cells(result)
-    >>> cols = ["field_locator", "b_minus_a_db", "far_lat", "far_lon", "cell_dlat",
+    >>> cols = ["field_locator", "b_minus_a_db", "far_lat", "far_lon", "clusters",
     ...         "significant"]
     >>> print(cells[cols].head(3).round(2).to_string(index=False))
-    field_locator  b_minus_a_db  far_lat  far_lon  cell_dlat  significant
-               EM           3.0     35.0    -90.0       10.0         True
-               JN           2.9     45.0     10.0       10.0         True
-               JO           NaN     55.0     10.0       10.0        False
+    field_locator  b_minus_a_db  far_lat  far_lon  clusters  significant
+               DN          3.04     45.0   -110.0         4        False
+               EM          2.92     35.0    -90.0         8         True
+               JN          3.26     45.0     10.0        15         True
     >>> cells.attrs["level"]
     'field'
     """
@@ -317,6 +337,10 @@ def difference_cells(result, *, level: Level = "auto", pairs: pd.DataFrame | Non
     key = _LEVEL_KEY[level]
     if key not in groups.columns:
         raise UsageError(f"the comparison has no {level!r} groups (no column {key!r})")
+    hours = None
+    if block_hours is not None and hasattr(result, "pairs") and hasattr(result, "by"):
+        groups = estimate_cells(result, block_hours=block_hours)
+        hours = groups.attrs.get("block_hours")
     g = groups.copy()
     if level == "receiver":
         if C.FAR_LAT in g.columns and C.FAR_LON in g.columns:
@@ -338,13 +362,15 @@ def difference_cells(result, *, level: Level = "auto", pairs: pd.DataFrame | Non
         g["cell_dlat"], g["cell_dlon"] = dlat, dlon
     lo = g[C.CI_LOW].to_numpy(dtype=float)
     hi = g[C.CI_HIGH].to_numpy(dtype=float)
-    g["significant"] = (lo > 0) | (hi < 0)
+    thin = np.array([bool(too_little_data(r)) for r in g.to_dict("records")], dtype=bool)
+    g["significant"] = ((lo > 0) | (hi < 0)) & ~thin
     both = g[C.BOTH].to_numpy(dtype=float) if C.BOTH in g else np.ones(len(g))
     oa = g[C.ONLY_A].to_numpy(dtype=float)
     ob = g[C.ONLY_B].to_numpy(dtype=float)
     g["one_sided"] = np.where((both == 0) & (oa > 0) & (ob == 0), "only_a",
                               np.where((both == 0) & (ob > 0) & (oa == 0), "only_b", ""))
     g.attrs["level"] = level
+    g.attrs["block_hours"] = hours
     return g
 
 

@@ -418,8 +418,10 @@ def difference_map(result, *, level: Level = "auto", band=None, pairs=None, home
     red: A better with the default ``"RdBu"``). Receivers are dots and locator squares are
     square markers at the cell centre (a 2 x 1 deg cell is too small to see on a world-wide
     map); locator fields are drawn as their 20 x 10 deg cells. Groups whose confidence
-    interval excludes 0 dB are drawn solid; the rest (CI includes 0, or no CI, as for a
-    single receiver whose pairs form one bootstrap cluster) faint and hatched; groups with
+    interval excludes 0 dB and whose numbers carry a verdict are drawn solid (cells of
+    fewer than 5 receivers get their interval from 6-hour blocks within each receiver, see
+    :func:`difference_cells`); the rest (CI includes 0, no CI, or too few clusters)
+    faint and hatched; groups with
     too few pairs for an estimate are grey rings. Far stations heard by only one antenna
     (no difference, only a bound) are marked apart: a downward triangle for "only A heard",
     an upward triangle for "only B heard". One panel per band when the result is split by

@@ -269,8 +269,14 @@ def heard_by_distance(pairs: pd.DataFrame, *, distance_edges=None, bin_km: float
     return out.reset_index()
 
 
-def heard_plot(pairs, *, band=None, distance_edges=None, bin_km: float = 1000.0, ax=None):
-    """Probability of being heard against distance, A beside B, with Wilson intervals.
+def heard_plot(pairs, *, band=None, distance_edges=None, bin_km: float = 1000.0, ax=None,
+               n_boot: int = 1000, seed: int = 0):
+    """Probability of being heard against distance, A beside B, with cluster-bootstrap
+    intervals.
+
+    The bars resample whole far stations (:func:`spotkit.compare.heard.heard_probability`):
+    one station's pairs are not independent trials, so a Wilson interval over pairs would
+    be too narrow. Bins with a single far station get no bar.
 
     Parameters
     ----------
@@ -279,31 +285,41 @@ def heard_plot(pairs, *, band=None, distance_edges=None, bin_km: float = 1000.0,
     band : str, optional
         Only this band.
     distance_edges, bin_km
-        See :func:`heard_by_distance`.
+        Bin edges [km]; default every ``bin_km`` up to the farthest pair.
     ax : matplotlib.axes.Axes, optional
+    n_boot, seed : int
+        Bootstrap resamples of the far stations and their seed.
 
     Returns
     -------
     matplotlib.axes.Axes
     """
+    from spotkit.compare.heard import heard_probability
+
     pairs = getattr(pairs, "pairs", pairs)
     if band is not None:
         pairs = pairs[pairs[C.BAND].astype(str) == band]
         if not len(pairs):
             raise UsageError(f"no pairs on {band}")
-    t = heard_by_distance(pairs, distance_edges=distance_edges, bin_km=bin_km)
+    if distance_edges is None:
+        d = pairs[C.DISTANCE].to_numpy(dtype=float)
+        top = bin_km * np.ceil(np.nanmax(d) / bin_km) if len(d) else bin_km
+        distance_edges = np.arange(0.0, top + bin_km / 2, bin_km)
+    long = heard_probability(pairs, distance_edges=distance_edges, n_boot=n_boot, seed=seed)
     ax = _new_ax(ax)
-    mid = (t[C.DISTANCE_MIN] + t[C.DISTANCE_MAX]) / 2.0
-    w = float((t[C.DISTANCE_MAX] - t[C.DISTANCE_MIN]).min()) if len(t) else 1.0
-    for who, col, dx, marker in (("a", COLOR_A, -0.08, "v"), ("b", COLOR_B, 0.08, "^")):
-        p = t[f"p_{who}"].to_numpy()
-        yerr = np.clip(np.vstack([p - t[f"p_{who}_low"].to_numpy(),
-                                  t[f"p_{who}_high"].to_numpy() - p]), 0.0, None)
+    for who, col, dx, marker in (("A", COLOR_A, -0.08, "v"), ("B", COLOR_B, 0.08, "^")):
+        t = long[long[C.ANTENNA] == who]
+        mid = ((t[C.DISTANCE_MIN] + t[C.DISTANCE_MAX]) / 2.0).to_numpy()
+        w = float((t[C.DISTANCE_MAX] - t[C.DISTANCE_MIN]).min()) if len(t) else 1.0
+        p = t[C.P_HEARD].to_numpy(dtype=float)
+        yerr = np.vstack([p - t[C.P_HEARD_LOW].to_numpy(dtype=float),
+                          t[C.P_HEARD_HIGH].to_numpy(dtype=float) - p])
+        yerr = np.clip(np.nan_to_num(yerr, nan=0.0), 0.0, None)
         ax.errorbar(mid + dx * w, p, yerr=yerr, fmt=marker + "-", ms=5, capsize=3, color=col,
-                    label=who.upper(), gid=f"heard-{who}")
+                    label=who, gid=f"heard-{who.lower()}")
     ax.set_ylim(-0.02, 1.02)
     ax.set_xlabel("distance [km]")
-    ax.set_ylabel("P(heard) among pairs  (95 % Wilson CI)")
+    ax.set_ylabel("P(heard) among pairs  (95 % CI, far stations resampled)")
     ax.set_title("Probability of being heard" + (f" on {band}" if band else ""))
     ax.grid(alpha=0.3)
     ax.legend(fontsize=8)

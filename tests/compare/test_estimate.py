@@ -445,10 +445,16 @@ def test_estimate_groups_without_censoring_is_least_squares():
     assert r[C.SIGMA] == pytest.approx(d.std(), abs=1e-9)
     assert r[C.CORRECTION] == 0.0 and r[C.ONLY_A] == 0 and np.isnan(r[C.P_MCNEMAR])
     assert r[C.CI_LOW] < d.mean() < r[C.CI_HIGH]
-    # oracle: scipy.stats.wilcoxon (zeros dropped, normal approximation with tie
-    # correction and continuity correction), tolerance 1e-9
-    w = sps.wilcoxon(d, zero_method="wilcox", correction=True, method="approx")
+    # the side tests take receivers as the units: oracle scipy.stats.wilcoxon and
+    # scipy.stats.binomtest on the per-receiver medians (numpy.median), zeros dropped,
+    # normal approximation with tie and continuity corrections (the medians tie),
+    # tolerance 1e-9
+    med = np.median(d.reshape(20, 20), axis=1)
+    w = sps.wilcoxon(med, zero_method="wilcox", correction=True, method="approx")
     assert r[C.P_WILCOXON] == pytest.approx(w.pvalue, rel=1e-9)
+    nz = med[med != 0]
+    assert r[C.P_SIGN] == pytest.approx(
+        sps.binomtest(int((nz > 0).sum()), nz.size).pvalue, rel=1e-9)
 
 
 # --- before/after: days resampled with the receivers --------------------------------------

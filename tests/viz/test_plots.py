@@ -60,13 +60,24 @@ def test_heard_by_distance_matches_statsmodels_wilson(pairs):
 
 
 def test_heard_plot_draws_a_and_b(pairs):
+    """The bars are the far-station bootstrap intervals of spotkit.compare.heard (at
+    least as wide as the pairs' Wilson intervals)."""
+    from spotkit.compare.heard import heard_probability
+
     ax = plots.heard_plot(pairs, band="20m")
     bars = {c.get_label(): c for c in ax.containers}
-    t = plots.heard_by_distance(pairs[pairs[C.BAND].astype(str) == "20m"])
+    sub = pairs[pairs[C.BAND].astype(str) == "20m"]
+    t = plots.heard_by_distance(sub)
     np.testing.assert_allclose(bars["A"].lines[0].get_ydata(), t["p_a"])
     np.testing.assert_allclose(bars["B"].lines[0].get_ydata(), t["p_b"])
+    edges = np.r_[t[C.DISTANCE_MIN].to_numpy(), t[C.DISTANCE_MAX].to_numpy()[-1]]
+    h = heard_probability(sub, distance_edges=edges)
+    hb = h[h[C.ANTENNA] == "B"]
     tops = [s[:, 1].max() for s in bars["B"].lines[2][0].get_segments()]
-    np.testing.assert_allclose(tops, t["p_b_high"])
+    want = np.where(np.isnan(hb[C.P_HEARD_HIGH]), hb[C.P_HEARD], hb[C.P_HEARD_HIGH])
+    np.testing.assert_allclose(tops, want)
+    ok = hb[C.P_HEARD_HIGH].notna().to_numpy()
+    assert np.all(want[ok] >= t["p_b_high"].to_numpy()[ok] - 1e-12)
 
 
 def test_running_median_is_the_bin_median():
