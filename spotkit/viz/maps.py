@@ -353,7 +353,7 @@ def coverage_map(spots: pd.DataFrame, *, bands=None, home=None, side: Side = "au
     from matplotlib.colors import Normalize
 
     check_choice(projection, PROJECTIONS, "projection")
-    check_columns(spots, [C.TX_LOCATOR, C.RX_LOCATOR, C.BAND], "a coverage map")
+    check_columns(spots, [C.TX_LOCATOR, C.RX_LOCATOR], "a coverage map")
     if spots.empty:
         raise InputError("no spots to map: the spot table has no rows")
     if home is None:
