@@ -121,12 +121,11 @@ def main(argv: Sequence[str] | None = None) -> int:
     A :class:`~spotkit.errors.SpotkitWarning` is shown as ``spotkit: note: ...``. Other
     exceptions are bugs and keep their traceback.
     """
-    parser = build_parser()
     with warnings.catch_warnings():
         warnings.simplefilter("default", SpotkitWarning)
         warnings.showwarning = functools.partial(_show_note, fallback=warnings.showwarning)
         try:
-            return _run(parser, argv)
+            return _run(build_parser(), argv)
         except KeyboardInterrupt:
             print("spotkit: interrupted", file=sys.stderr)
             return EXIT_INTERRUPTED
