@@ -249,7 +249,11 @@ def good(tmp_path):
     append_to_dataset(spots, tmp_path / "archive")
     schedule = tmp_path / "schedule.csv"
     schedule.write_text("start,end,antenna\n2026-11-30 20:00,2026-12-01 08:00,A\n")
-    return dict(data=path, archive=tmp_path / "archive", schedule=schedule)
+    csv = tmp_path / "good.csv"
+    csv.write_text("time,tx call,tx locator,rx call,rx locator,frequency MHz,snr,power dBm\n"
+                   "2026-11-30 20:00:12,Q1ABC,JO62qm,Q2AA,JN58td,14.0971,-12,37\n"
+                   "2026-11-30 20:02:11,Q1ABC,JO62qm,Q4BB,IO91lk,14.0972,-20,37\n")
+    return dict(data=path, archive=tmp_path / "archive", schedule=schedule, csv=csv)
 
 
 #: commands that draw or write a whole report when a value is accepted (seconds each)
@@ -270,7 +274,11 @@ for _cid, _path, _kind, _parser in COMMANDS:
 @pytest.mark.parametrize(("path", "kind", "parser", "flag", "value"), OPTION_CASES)
 def test_bad_option_value_is_a_usage_error(path, kind, parser, flag, value, tmp_path, capsys,
                                            good):
-    argv = _argv(path, kind, parser, tmp_path, skip=(flag,), **good) + [flag, value]
+    inputs = dict(good)
+    csv = inputs.pop("csv")
+    if path == ("ingest",):  # ingest reads text files
+        inputs["data"] = csv
+    argv = _argv(path, kind, parser, tmp_path, skip=(flag,), **inputs) + [flag, value]
     code, err = _run(argv, capsys)
     if value in NEVER:
         assert code == 2, err
