@@ -25,7 +25,7 @@ from collections.abc import Sequence
 from spotkit import __version__
 from spotkit.cli import archive, compare, figures, ingest, plan, simulate
 from spotkit.cli._common import EXIT_INPUT, EXIT_OK, EXIT_USAGE, Parser
-from spotkit.errors import InputError, LocatorError, SpotkitError, SpotkitWarning, UsageError
+from spotkit.errors import LocatorError, SpotkitError, SpotkitWarning, UsageError
 
 #: distributions whose versions ``spotkit --version`` reports (the PyPI names)
 VERSION_DEPENDENCIES = ("numpy", "pandas", "pyarrow", "pyproj", "geopy", "scipy", "cartopy",
@@ -146,9 +146,6 @@ def _run(parser, argv) -> int:
     except LocatorError as exc:
         print(f"spotkit: error: {exc}", file=sys.stderr)
         return EXIT_USAGE
-    except (InputError, FileNotFoundError, IsADirectoryError) as exc:
-        print(f"spotkit: error: {exc}", file=sys.stderr)
-        return EXIT_INPUT
     except SpotkitError as exc:
         print(f"spotkit: error: {exc}", file=sys.stderr)
         return EXIT_INPUT
@@ -158,7 +155,7 @@ def _run(parser, argv) -> int:
         with contextlib.suppress(OSError):
             os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
         return EXIT_INPUT
-    except OSError as exc:
+    except OSError as exc:  # a missing input, a full disk...: not a bug
         print(f"spotkit: error: {_os_error_text(exc)}", file=sys.stderr)
         return EXIT_INPUT
 

@@ -147,6 +147,16 @@ def test_error_of_the_operating_system_is_one_line(error, message, monkeypatch, 
     assert capsys.readouterr().err == f"spotkit: error: {message}\n"
 
 
+def test_reader_gone_away_is_no_traceback(monkeypatch, capsys):
+    # spotkit compare ... | head: the pipe closes while the result is printed
+    def gone(*args, **kwargs):
+        raise BrokenPipeError(32, "Broken pipe")
+
+    monkeypatch.setattr("spotkit.io.ingest.load_spots", gone)
+    assert main(COMPARE) == 1
+    assert capsys.readouterr().err == ""
+
+
 def test_spotkit_warning_is_shown_as_a_note(monkeypatch, capsys):
     import warnings
 
