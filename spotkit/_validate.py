@@ -1,8 +1,10 @@
 """Checks of arguments at the boundary, shared by the whole package.
 
-Each check raises :class:`spotkit.errors.UsageError` (exit code 2 on the command line; also a
-``ValueError`` for callers who do not know spotkit) with a message that names the argument
-and, for a choice, lists the valid values. Internal code trusts what passed these checks.
+Each check of an argument raises :class:`spotkit.errors.UsageError` (exit code 2 on the
+command line; also a ``ValueError`` for callers who do not know spotkit) with a message that
+names the argument and, for a choice, lists the valid values. :func:`check_columns` checks a
+table, not an argument: it raises :class:`spotkit.errors.InputError` (exit code 1). Internal
+code trusts what passed these checks.
 
 Examples
 --------
@@ -17,9 +19,10 @@ from __future__ import annotations
 
 from collections.abc import Iterable, Sequence
 
+import numpy as np
 import pandas as pd
 
-from spotkit.errors import UsageError
+from spotkit.errors import InputError, UsageError
 
 
 def check_choice(value, valid: Sequence, what: str):
@@ -123,6 +126,157 @@ def check_positive(value: float, what: str) -> float:
     return float(value)
 
 
+def check_finite(value: float, what: str) -> float:
+    """Return ``value`` as a float if it is a finite number (not NaN, not infinite).
+
+    Raises
+    ------
+    UsageError
+        ``<what> must be a finite number, got <value>``.
+
+    Examples
+    --------
+    >>> check_finite("-3.5", "power_dbm")
+    -3.5
+    >>> check_finite(float("nan"), "threshold_db")
+    Traceback (most recent call last):
+    ...
+    spotkit.errors.UsageError: threshold_db must be a finite number, got nan
+    """
+    try:
+        number = float(value)
+    except (TypeError, ValueError):
+        number = float("nan")
+    if not np.isfinite(number):
+        raise UsageError(f"{what} must be a finite number, got {value}")
+    return number
+
+
+def check_at_least(value: int, minimum: int, what: str) -> int:
+    """Return ``value`` as an int if it is a whole number of at least ``minimum``.
+
+    Raises
+    ------
+    UsageError
+        ``<what> must be a whole number of at least <minimum>, got <value>``.
+
+    Examples
+    --------
+    >>> check_at_least(3, 1, "window_slots")
+    3
+    >>> check_at_least(-1, 0, "min_pairs")
+    Traceback (most recent call last):
+    ...
+    spotkit.errors.UsageError: min_pairs must be a whole number of at least 0, got -1
+    """
+    try:
+        number = float(value)
+        ok = number.is_integer() and number >= minimum
+    except (TypeError, ValueError, OverflowError):
+        ok = False
+    if not ok:
+        raise UsageError(f"{what} must be a whole number of at least {minimum}, got {value}")
+    return int(number)
+
+
+def check_divides(value: float, whole: float, what: str) -> float:
+    """Return ``value`` as a float if it is above 0 and ``whole`` holds a whole number of it
+    (a bearing sector width that divides 360 deg).
+
+    Raises
+    ------
+    UsageError
+        ``<what> must divide <whole> into whole parts, got <value>``.
+
+    Examples
+    --------
+    >>> check_divides(45, 360, "bearing width [deg]")
+    45.0
+    >>> check_divides(50, 360, "bearing width [deg]")
+    Traceback (most recent call last):
+    ...
+    spotkit.errors.UsageError: bearing width [deg] must divide 360 into whole parts (e.g. 180, \
+120, 90, 72), got 50
+    """
+    try:
+        number = float(value)
+        parts = whole / number
+        ok = 0 < number <= whole and abs(parts - round(parts)) <= 1e-9
+    except (TypeError, ValueError, ZeroDivisionError, OverflowError):
+        ok = False
+    if not ok:
+        examples = ", ".join(f"{whole / n:g}" for n in (2, 3, 4, 5))
+        raise UsageError(f"{what} must divide {whole:g} into whole parts (e.g. {examples}), "
+                         f"got {value}")
+    return number
+
+
+def check_increasing(values, what: str) -> list[float]:
+    """Return ``values`` as a list of floats if they are at least two finite numbers, each
+    larger than the one before (bin edges).
+
+    Raises
+    ------
+    UsageError
+        ``<what> must be at least two finite numbers in increasing order, got [...]``.
+
+    Examples
+    --------
+    >>> check_increasing([0, 1000, 3000], "distance edges")
+    [0.0, 1000.0, 3000.0]
+    >>> check_increasing([5, 1], "distance edges")
+    Traceback (most recent call last):
+    ...
+    spotkit.errors.UsageError: distance edges must be at least two finite numbers in ...
+    """
+    try:
+        numbers = np.asarray(values, dtype=float)
+    except (TypeError, ValueError):
+        raise UsageError(f"{what} must be numbers, got {values!r}") from None
+    if (numbers.ndim != 1 or numbers.size < 2 or not np.all(np.isfinite(numbers))
+            or np.any(np.diff(numbers) <= 0)):
+        raise UsageError(f"{what} must be at least two finite numbers in increasing order, "
+                         f"got {np.atleast_1d(numbers).tolist()}")
+    return numbers.tolist()
+
+
+def check_columns(table: pd.DataFrame, columns: Iterable[str], what: str) -> pd.DataFrame:
+    """Return ``table`` if it has every one of ``columns``, else say which are missing.
+
+    A check of data, not of an argument: it raises :class:`~spotkit.errors.InputError`
+    (exit code 1 on the command line).
+
+    Parameters
+    ----------
+    table : pandas.DataFrame
+    columns : iterable of str
+        Glossary names the caller needs.
+    what : str
+        What needs them, for the message (``"a coverage map"``).
+
+    Raises
+    ------
+    InputError
+        ``<what> needs column(s) ...; the table has ...``.
+
+    Examples
+    --------
+    >>> table = pd.DataFrame({"a": [1], "b": [2]})
+    >>> check_columns(table, ["snr_db", "a"], "an SNR plot")
+    Traceback (most recent call last):
+    ...
+    spotkit.errors.InputError: an SNR plot needs column(s) snr_db, which the table does not have ...
+    """
+    missing = [c for c in columns if c not in table.columns]
+    if missing:
+        has = ", ".join(map(str, table.columns[:12])) or "no columns"
+        more = ", ..." if len(table.columns) > 12 else ""
+        raise InputError(f"{what} needs column(s) {', '.join(missing)}, which the table does "
+                         f"not have (it has {has}{more}): is it a spot table from "
+                         "'spotkit ingest'?")
+    return table
+
+
 def check_time(value, what: str) -> pd.Timestamp:
     """Read a time argument as a UTC timestamp; a time without a zone is taken as UTC.
 
@@ -159,4 +313,5 @@ def check_time(value, what: str) -> pd.Timestamp:
     return ts.tz_localize("UTC") if ts.tzinfo is None else ts.tz_convert("UTC")
 
 
-__all__ = ["check_choice", "check_choices", "check_confidence", "check_positive", "check_time"]
+__all__ = ["check_choice", "check_choices", "check_confidence", "check_positive", "check_finite",
+           "check_at_least", "check_divides", "check_increasing", "check_columns", "check_time"]

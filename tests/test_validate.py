@@ -5,8 +5,18 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from spotkit._validate import check_choice, check_choices, check_confidence, check_positive
-from spotkit.errors import SpotkitError, UsageError
+from spotkit._validate import (
+    check_at_least,
+    check_choice,
+    check_choices,
+    check_columns,
+    check_confidence,
+    check_divides,
+    check_finite,
+    check_increasing,
+    check_positive,
+)
+from spotkit.errors import InputError, SpotkitError, UsageError
 
 
 def test_check_choice_returns_the_value_or_lists_the_valid_ones():
@@ -117,3 +127,57 @@ def test_simulator_arguments_raise_usage_errors(argument, tmp_path, monkeypatch)
 def test_bad_choices_raise_usage_errors_listing_the_valid_ones(name):
     with pytest.raises(UsageError, match="valid: "):
         _calls()[name]()
+
+
+# --- numbers, bin edges, divisors, table columns (issue 14: options silently accepted) -------
+@pytest.mark.parametrize("bad", [np.nan, np.inf, -np.inf, "abc", None])
+def test_check_finite_refuses_what_is_not_a_finite_number(bad):
+    with pytest.raises(UsageError, match=r"^threshold_db must be a finite number"):
+        check_finite(bad, "threshold_db")
+
+
+def test_check_finite_returns_a_float():
+    assert check_finite("-3.5", "x") == -3.5 and check_finite(0, "x") == 0.0
+
+
+@pytest.mark.parametrize(("value", "minimum"), [(0, 1), (-1, 0), (1.5, 1), (np.nan, 0),
+                                                (np.inf, 0), ("two", 0)])
+def test_check_at_least_refuses_small_or_fractional_numbers(value, minimum):
+    with pytest.raises(UsageError, match=rf"^window must be a whole number of at least "
+                                          rf"{minimum}, got"):
+        check_at_least(value, minimum, "window")
+
+
+def test_check_at_least_returns_an_int():
+    assert check_at_least(3.0, 1, "window") == 3 and isinstance(check_at_least(3.0, 1, "w"), int)
+
+
+@pytest.mark.parametrize("bad", [[5, 1], [1, 1], [0], [], [0, np.nan, 90], [0, np.inf],
+                                 [[0, 1], [2, 3]], ["a", "b"]])
+def test_check_increasing_refuses_edges_that_make_no_bins(bad):
+    with pytest.raises(UsageError, match=r"^distance edges must"):
+        check_increasing(bad, "distance edges")
+
+
+def test_check_increasing_returns_floats():
+    assert check_increasing((0, 1000, 20100), "edges") == [0.0, 1000.0, 20100.0]
+
+
+@pytest.mark.parametrize("width", [1, 7.5, 30, 45, 90, 360])
+def test_check_divides_accepts_whole_sectors(width):
+    assert check_divides(width, 360, "bearing width") == float(width)
+
+
+@pytest.mark.parametrize("bad", [0, -45, 50, 361, np.nan, np.inf, "wide"])
+def test_check_divides_refuses_partial_sectors(bad):
+    with pytest.raises(UsageError, match=r"^bearing width must divide 360 into whole parts"):
+        check_divides(bad, 360, "bearing width")
+
+
+def test_check_columns_is_an_input_error_naming_what_is_missing():
+    table = pd.DataFrame({"a": [1], "snr_db": [-3.0]})
+    assert check_columns(table, ["snr_db"], "a plot") is table
+    with pytest.raises(InputError, match=r"^a plot needs column\(s\) distance_km, power_dbm, "
+                                         r"which the table does not have \(it has a, snr_db\)"):
+        check_columns(table, ["distance_km", "snr_db", "power_dbm"], "a plot")
+    assert not issubclass(InputError, UsageError)  # bad data, exit 1, not bad usage

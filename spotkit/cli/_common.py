@@ -8,7 +8,10 @@ from __future__ import annotations
 
 import argparse
 import contextlib
+import errno
+import os
 import sys
+from pathlib import Path
 
 from spotkit.errors import InputError, LocatorError, UsageError
 
@@ -23,6 +26,83 @@ class Parser(argparse.ArgumentParser):
 
     def error(self, message):  # pragma: no cover - exercised through main()
         raise UsageError(f"{self.prog}: {message}")
+
+
+# --- option types: a bad value is a usage error that names the option ----------------------
+def _option_type(convert, check, name: str):
+    """An argparse ``type``: ``convert`` the text, then ``check`` the value with a
+    :mod:`spotkit._validate` helper. argparse turns the :class:`argparse.ArgumentTypeError`
+    into ``argument --option: must be ...``, which :class:`Parser` raises as a
+    :class:`UsageError` (exit 2)."""
+    def parse(text: str):
+        try:
+            value = convert(text)
+        except (TypeError, ValueError, OverflowError):
+            kind = "a whole number" if convert is int else "a number"
+            raise argparse.ArgumentTypeError(f"expected {kind}, got {text!r}") from None
+        try:
+            return check(value)
+        except UsageError as exc:
+            message = str(exc)  # "<what> must be ...": the option's name says what
+            message = message[message.find(" must ") + 1:] if " must " in message else message
+            raise argparse.ArgumentTypeError(message) from None
+
+    parse.__name__ = name
+    parse.numeric = True  # a number, checked (tests/cli/test_hostile_inputs.py)
+    return parse
+
+
+def _check(name: str, *args):
+    """The :mod:`spotkit._validate` check ``name`` with ``args`` after the value, imported
+    when an option is read (``spotkit --version`` imports no numpy)."""
+    def check(value):
+        import spotkit._validate
+
+        return getattr(spotkit._validate, name)(value, *args)
+
+    return check
+
+
+def _dpi(value):
+    _check("check_at_least", 1, "dpi")(value)
+    if value > MAX_DPI:
+        raise UsageError(f"dpi must be at most {MAX_DPI}, got {value}")
+    return value
+
+
+#: figures at more dots per inch than this would need gigabytes of memory
+MAX_DPI = 1200
+
+#: argparse ``type`` of a finite number above 0
+positive_float = _option_type(float, _check("check_positive", "value"), "positive number")
+#: argparse ``type`` of a finite number (not NaN, not infinite)
+finite_float = _option_type(float, _check("check_finite", "value"), "finite number")
+#: argparse ``type`` of a confidence level in (0, 1)
+confidence_level = _option_type(float, _check("check_confidence"), "confidence level")
+#: argparse ``type`` of a bearing sector width that divides 360 [deg]
+bearing_width = _option_type(float, _check("check_divides", 360.0, "value"), "bearing width")
+#: argparse ``type`` of a PNG resolution, 1 to MAX_DPI dots per inch
+figure_dpi = _option_type(int, _dpi, "dpi")
+
+
+def int_at_least(minimum: int):
+    """argparse ``type`` of a whole number of at least ``minimum``."""
+    return _option_type(int, _check("check_at_least", minimum, "value"),
+                        f"whole number >= {minimum}")
+
+
+def bin_edges(text: str) -> list[float]:
+    """argparse ``type`` of bin edges ``A,B,C``: at least two finite numbers, increasing."""
+    try:
+        values = [float(x) for x in text.split(",") if x.strip()]
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"expected numbers separated by commas, got "
+                                         f"{text!r}") from None
+    try:
+        return _check("check_increasing", "edges")(values)
+    except UsageError as exc:
+        message = str(exc)
+        raise argparse.ArgumentTypeError(message[message.find(" must ") + 1:]) from None
 
 
 def key_value(text: str) -> tuple[str, str]:
@@ -58,17 +138,17 @@ def add_ab_options(p, *, required: bool = True, title: str = "A/B comparison") -
                    help="alternating design: antenna schedule (CSV: start,end,antenna[,band])")
     g.add_argument("--change-at", metavar="TIME", help="before-after design: when the "
                    "antenna changed (UTC, e.g. 2026-03-04T00:00Z)")
-    g.add_argument("--distance-edges", metavar="KM,KM,...",
+    g.add_argument("--distance-edges", metavar="KM,KM,...", type=bin_edges,
                    help="distance bin edges [km] (default 0,1000,3000,6000,20100)")
-    g.add_argument("--elevation-edges", metavar="DEG,DEG,...",
+    g.add_argument("--elevation-edges", metavar="DEG,DEG,...", type=bin_edges,
                    help="elevation bin edges [deg] (default 0,5,10,20,40,90)")
-    g.add_argument("--bearing-width", type=float, default=45.0,
+    g.add_argument("--bearing-width", type=bearing_width, default=45.0,
                    help="bearing sector width [deg] (default 45)")
     g.add_argument("--hour-basis", choices=["utc", "local"], default="utc",
                    help="hour of day in UTC or local solar time at the path midpoint")
-    g.add_argument("--layer-height", type=float, default=300.0,
+    g.add_argument("--layer-height", type=positive_float, default=300.0,
                    help="reflection height for elevation angles [km] (default 300)")
-    g.add_argument("--window", type=int, default=1, metavar="SLOTS",
+    g.add_argument("--window", type=int_at_least(1), default=1, metavar="SLOTS",
                    help="alternating design: largest distance of paired slots (default 1)")
     g.add_argument("--no-open-path-check", action="store_true",
                    help="alternating design: keep pairs even without reports of the call in "
@@ -79,14 +159,15 @@ def add_ab_options(p, *, required: bool = True, title: str = "A/B comparison") -
     g.add_argument("--missed-reports", choices=["fit", "none"], default="fit",
                    help="allow a fitted share of one-sided pairs to be missing for reasons "
                    "other than the antenna, e.g. a path closing between slots (default fit)")
-    g.add_argument("--day-hours", type=float, default=24.0, metavar="HOURS",
+    g.add_argument("--day-hours", type=positive_float, default=24.0, metavar="HOURS",
                    help="before-after design: length of the blocks of time resampled as "
                    "days for the interval (default 24: UTC dates)")
-    g.add_argument("--boot", type=int, default=1000, help="bootstrap resamples (default 1000)")
-    g.add_argument("--seed", type=int, default=0, help="bootstrap seed (default 0)")
-    g.add_argument("--min-pairs", type=int, default=30,
+    g.add_argument("--boot", type=int_at_least(2), default=1000,
+                   help="bootstrap resamples (default 1000)")
+    g.add_argument("--seed", type=int_at_least(0), default=0, help="bootstrap seed (default 0)")
+    g.add_argument("--min-pairs", type=int_at_least(1), default=30,
                    help="fewest pairs for a group estimate (default 30)")
-    g.add_argument("--confidence", type=float, default=0.95,
+    g.add_argument("--confidence", type=confidence_level, default=0.95,
                    help="confidence level of the intervals (default 0.95)")
 
 
@@ -121,9 +202,9 @@ def compare_kwargs(args) -> dict:
               missed_reports=args.missed_reports, day_hours=args.day_hours,
               require_open_path=not args.no_open_path_check)
     if args.distance_edges:
-        kw["distance_edges"] = float_list(args.distance_edges, "--distance-edges")
+        kw["distance_edges"] = args.distance_edges
     if args.elevation_edges:
-        kw["elevation_edges"] = float_list(args.elevation_edges, "--elevation-edges")
+        kw["elevation_edges"] = args.elevation_edges
     return kw
 
 
@@ -157,16 +238,68 @@ def locators_from_data(applies: bool = True):
         raise InputError(str(exc)) from exc
 
 
-def save_figure(fig, path, dpi) -> int:
-    """Save a figure as PNG or SVG (by the suffix of ``path``), close it and say so."""
-    from pathlib import Path
+def check_output(path, option: str, suffixes: tuple[str, ...] = ()) -> Path:
+    """Check an output path before any work is done; a :class:`UsageError` (exit 2) naming
+    ``option`` when it cannot be written: a wrong suffix, a folder, a folder that does not
+    exist or that cannot be written in.
 
-    suffix = Path(path).suffix.lower()
-    if suffix not in (".png", ".svg"):
-        raise UsageError(f"output must end in .png or .svg, got {path!r}")
-    fig.savefig(path, dpi=dpi, format=suffix[1:])
+    Parameters
+    ----------
+    path : str or path-like
+    option : str
+        The option that gave it (``"-o"``, ``"--json"``), for the message.
+    suffixes : tuple of str
+        Allowed suffixes in lower case (``(".png", ".svg")``); empty: any.
+
+    Returns
+    -------
+    pathlib.Path
+    """
+    out = Path(path)
+    if suffixes and out.suffix.lower() not in suffixes:
+        raise UsageError(f"{option} must end in {' or '.join(suffixes)}, got {str(path)!r}")
+    if out.is_dir():
+        raise UsageError(f"{option} {path}: is a folder; give a file name in it")
+    folder = out.parent
+    if not folder.is_dir():
+        raise UsageError(f"{option} {path}: the folder {folder} does not exist")
+    if not os.access(folder, os.W_OK | os.X_OK) or (out.exists()
+                                                    and not os.access(out, os.W_OK)):
+        raise UsageError(f"{option} {path}: cannot write there (permission denied)")
+    return out
+
+
+#: errors of writing a file that mean "choose another path", not "the disk failed"
+_CANNOT_WRITE_HERE = {errno.EACCES, errno.EPERM, errno.EROFS, errno.EISDIR, errno.ENOTDIR,
+                      errno.ENOENT}
+
+
+def save_figure(fig, path, dpi, option: str = "-o") -> int:
+    """Save a figure as PNG or SVG (by the suffix of ``path``), close it and say so.
+
+    The picture is written under a temporary name in the same folder and renamed into place
+    when complete, so a failed or interrupted run leaves an earlier file as it was. A path
+    that cannot be written is a :class:`UsageError` naming ``option``.
+    """
+    import secrets
+
     import matplotlib.pyplot as plt
 
-    plt.close(fig)
+    out = check_output(path, option, (".png", ".svg"))
+    tmp = out.parent / f".{out.name}.{os.getpid()}-{secrets.token_hex(4)}.partial"
+    try:
+        # created here, so the picture gets the usual permissions (umask), not 0600
+        os.close(os.open(tmp, os.O_WRONLY | os.O_CREAT | os.O_EXCL, 0o666))
+        fig.savefig(tmp, dpi=dpi, format=out.suffix.lower()[1:])
+        os.replace(tmp, out)
+    except OSError as exc:
+        if exc.errno in _CANNOT_WRITE_HERE:
+            raise UsageError(f"{option} {path}: cannot write there "
+                             f"({exc.strerror or exc})") from None
+        raise
+    finally:
+        plt.close(fig)
+        with contextlib.suppress(OSError):
+            os.unlink(tmp)
     print(f"wrote {path}")
     return EXIT_OK

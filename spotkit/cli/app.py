@@ -15,13 +15,17 @@ which imports none of them; this module assembles them and imports nothing back.
 from __future__ import annotations
 
 import argparse
+import contextlib
+import functools
+import os
 import sys
+import warnings
 from collections.abc import Sequence
 
 from spotkit import __version__
 from spotkit.cli import archive, compare, figures, ingest, plan, simulate
 from spotkit.cli._common import EXIT_INPUT, EXIT_OK, EXIT_USAGE, Parser
-from spotkit.errors import InputError, LocatorError, SpotkitError, UsageError
+from spotkit.errors import LocatorError, SpotkitError, SpotkitWarning, UsageError
 
 #: distributions whose versions ``spotkit --version`` reports (the PyPI names)
 VERSION_DEPENDENCIES = ("numpy", "pandas", "pyarrow", "pyproj", "geopy", "scipy", "cartopy",
@@ -83,17 +87,51 @@ and field), 2 usage.""",
     return parser
 
 
+#: exit code after Ctrl-C (128 + SIGINT, as shells report it)
+EXIT_INTERRUPTED = 130
+
+
+def _os_error_text(exc: OSError) -> str:
+    """``<file>: <reason>`` of an operating-system error, without the ``[Errno n]``."""
+    if exc.strerror and exc.filename:
+        return f"{exc.filename}: {exc.strerror}"
+    return exc.strerror or str(exc)
+
+
+def _show_note(message, category, filename, lineno, file=None, line=None, *, fallback):
+    """Show a :class:`~spotkit.errors.SpotkitWarning` as one line ``spotkit: note: ...``;
+    other warnings as Python shows them."""
+    if issubclass(category, SpotkitWarning):
+        print(f"spotkit: note: {message}", file=sys.stderr)
+    else:
+        fallback(message, category, filename, lineno, file, line)
+
+
 def main(argv: Sequence[str] | None = None) -> int:
-    """Run the command line; returns the exit code (0 ok, 1 bad input, 2 usage).
+    """Run the command line; returns the exit code (0 ok, 1 bad input, 2 usage, 130
+    interrupted).
 
     Every :class:`~spotkit.errors.SpotkitError` becomes one line on stderr and its exit
     code, never a traceback: :class:`~spotkit.errors.UsageError` 2;
     :class:`~spotkit.errors.LocatorError` 2 (a locator that escapes to here was given as an
     argument, e.g. ``--home``: the readers set aside rows with bad locators instead of
     raising); :class:`~spotkit.errors.InputError`, a missing file and any other spotkit
-    error 1. Other exceptions are bugs and keep their traceback.
+    error 1. An error of the operating system (a file that cannot be read or written, a
+    full disk) is one line and exit 1; Ctrl-C is ``spotkit: interrupted`` and exit 130.
+    A :class:`~spotkit.errors.SpotkitWarning` is shown as ``spotkit: note: ...``. Other
+    exceptions are bugs and keep their traceback.
     """
-    parser = build_parser()
+    with warnings.catch_warnings():
+        warnings.simplefilter("default", SpotkitWarning)
+        warnings.showwarning = functools.partial(_show_note, fallback=warnings.showwarning)
+        try:
+            return _run(build_parser(), argv)
+        except KeyboardInterrupt:
+            print("spotkit: interrupted", file=sys.stderr)
+            return EXIT_INTERRUPTED
+
+
+def _run(parser, argv) -> int:
     try:
         args = parser.parse_args(argv)
         if not getattr(args, "func", None):
@@ -108,11 +146,17 @@ def main(argv: Sequence[str] | None = None) -> int:
     except LocatorError as exc:
         print(f"spotkit: error: {exc}", file=sys.stderr)
         return EXIT_USAGE
-    except (InputError, FileNotFoundError, IsADirectoryError) as exc:
-        print(f"spotkit: error: {exc}", file=sys.stderr)
-        return EXIT_INPUT
     except SpotkitError as exc:
         print(f"spotkit: error: {exc}", file=sys.stderr)
+        return EXIT_INPUT
+    except BrokenPipeError:
+        # the reader of our output went away (``spotkit compare ... | head``): nothing more
+        # to say, and nothing more to flush at exit
+        with contextlib.suppress(OSError):
+            os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
+        return EXIT_INPUT
+    except OSError as exc:  # a missing input, a full disk...: not a bug
+        print(f"spotkit: error: {_os_error_text(exc)}", file=sys.stderr)
         return EXIT_INPUT
 
 

@@ -11,6 +11,7 @@ from spotkit.cli._common import (
     add_ab_options,
     add_progress_option,
     by_keys,
+    check_output,
     compare_kwargs,
     progress,
     write_result,
@@ -41,6 +42,9 @@ def cmd_compare(args) -> int:
 
     by = by_keys(args.by)
     kw = compare_kwargs(args)
+    for option, path in (("--json", args.json), ("--csv", args.csv)):
+        if path:
+            check_output(path, option)
     spots = load_spots(args.spots)
     result = compare_antennas(spots, args.design, args.a, args.b, by=by,
                               progress=progress(args), **kw)
@@ -71,6 +75,7 @@ def cmd_report(args) -> int:
     from spotkit.report import standard_comparisons, write_report
 
     by = by_keys(args.by)
+    check_output(args.output, "-o")
     spots = load_spots(args.spots)
     show_progress = progress(args)
     results, map_result = standard_comparisons(

@@ -9,7 +9,9 @@ from __future__ import annotations
 from spotkit.cli._common import (
     add_ab_options,
     add_progress_option,
+    check_output,
     compare_kwargs,
+    figure_dpi,
     locators_from_data,
     progress,
     save_figure,
@@ -27,7 +29,8 @@ def _add_figure_options(p, kinds, help_kind):
                    help="picture to write; PNG or SVG by the suffix")
     p.add_argument("--band", action="append", default=[], metavar="BAND",
                    help="only this band, e.g. 10m (repeat or comma-separate for several)")
-    p.add_argument("--dpi", type=int, default=150, help="resolution of a PNG (default 150)")
+    p.add_argument("--dpi", type=figure_dpi, default=150,
+                   help="resolution of a PNG [dots per inch] (default 150)")
     add_ab_options(p, required=False,
                    title="A/B comparison (kinds that compare two antennas)")
 
@@ -76,6 +79,7 @@ def cmd_map(args) -> int:
     from spotkit.io.ingest import load_spots
     from spotkit.viz import maps
 
+    check_output(args.output, "-o", (".png", ".svg"))  # before the work, not after
     spots = load_spots(args.spots)
     bands = _figure_bands(args)
     common = dict(home=args.home, projection=args.projection, resolution=args.resolution,
@@ -115,6 +119,7 @@ def cmd_plot(args) -> int:
     from spotkit.io.ingest import load_spots
     from spotkit.viz import plots
 
+    check_output(args.output, "-o", (".png", ".svg"))  # before the work, not after
     spots = load_spots(args.spots)
     bands = _figure_bands(args)
     if args.kind in ("bearing", "distance", "elevation", "hour"):

@@ -17,7 +17,13 @@ import numpy as np
 import pandas as pd
 
 from spotkit import columns as C
-from spotkit._validate import check_choice, check_choices
+from spotkit._validate import (
+    check_choice,
+    check_choices,
+    check_divides,
+    check_increasing,
+    check_positive,
+)
 from spotkit.errors import NoPairsError, UsageError
 
 #: Group keys accepted by :func:`add_group_keys` / :func:`summarise_pairs`.
@@ -45,11 +51,7 @@ def _to_utc(ns: np.ndarray) -> pd.Series:
 
 
 def _edges(edges, what) -> np.ndarray:
-    e = np.asarray(edges, dtype=float)
-    if e.ndim != 1 or e.size < 2 or np.any(np.diff(e) <= 0) or not np.all(np.isfinite(e)):
-        raise UsageError(f"{what} edges must be at least two increasing finite numbers, got "
-                         f"{list(np.atleast_1d(e))}")
-    return e
+    return np.asarray(check_increasing(edges, f"{what} edges"), dtype=float)
 
 
 def _bin(x: np.ndarray, edges: np.ndarray):
@@ -161,15 +163,17 @@ def add_group_keys(pairs: pd.DataFrame, by=(), *,
     """
     keys = parse_by(by)
     check_choice(hour, ("utc", "local"), "hour basis")
+    # every option is checked, used or not: a bad one is a mistake even where it does not
+    # matter yet (a negative layer height would put every pair outside the elevation bins)
+    d_edges = _edges(distance_edges, "distance")
+    e_edges = _edges(elevation_edges, "elevation")
+    w = check_divides(bearing_width_deg, 360.0, "bearing width [deg]")
+    check_positive(layer_height_km, "layer_height_km")
     out = pairs.copy()
     if "distance" in keys:
-        lo, hi = _bin(out[C.DISTANCE].to_numpy(dtype=float), _edges(distance_edges,
-                                                                    "distance"))
+        lo, hi = _bin(out[C.DISTANCE].to_numpy(dtype=float), d_edges)
         out[C.DISTANCE_MIN], out[C.DISTANCE_MAX] = lo, hi
     if "bearing" in keys:
-        w = float(bearing_width_deg)
-        if not (0 < w <= 360) or abs(360.0 / w - round(360.0 / w)) > 1e-9:
-            raise UsageError(f"bearing width must divide 360 deg, got {bearing_width_deg}")
         brg = np.mod(out[C.BEARING].to_numpy(dtype=float), 360.0)
         lo = np.floor(brg / w + 1e-9) * w
         lo = np.where(lo >= 360.0 - 1e-9, 0.0, lo)
@@ -179,8 +183,7 @@ def add_group_keys(pairs: pd.DataFrame, by=(), *,
         from spotkit.geo.geodesic import add_path_geometry
         out = add_path_geometry(out, layer_height_km=layer_height_km)
     if "elevation" in keys:
-        lo, hi = _bin(out[C.ELEVATION].to_numpy(dtype=float), _edges(elevation_edges,
-                                                                     "elevation"))
+        lo, hi = _bin(out[C.ELEVATION].to_numpy(dtype=float), e_edges)
         out[C.ELEVATION_MIN], out[C.ELEVATION_MAX] = lo, hi
     if "hour" in keys:
         ns = _ns(out[C.SLOT]) + _SLOT_NS // 2  # middle of the slot

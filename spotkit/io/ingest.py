@@ -951,7 +951,15 @@ def load_spots(source, **kw) -> pd.DataFrame:
     Raises
     ------
     InputError
-        When a CSV gives no accepted row.
+        When a CSV gives no accepted row; when a Parquet file holds no spot column at all
+        (:class:`~spotkit.errors.NotASpotTableError`) or a spot column of the wrong type
+        (e.g. SNR as text).
+
+    Warns
+    -----
+    SpotkitWarning
+        When a Parquet file's times carry no time zone: they are read as UTC, the time of
+        every spot report.
 
     Examples
     --------
@@ -986,9 +994,65 @@ def load_spots(source, **kw) -> pd.DataFrame:
 
 
 def _read_parquet(path: Path) -> pd.DataFrame:
+    """A Parquet spot table (a file, or an archive folder through :mod:`spotkit.io.store`).
+
+    A file's schema is checked before its rows are read: it must hold at least one glossary
+    column, times must be timestamps and numbers numbers (an :class:`InputError` naming the
+    column otherwise). Times without a time zone are read as UTC, with a
+    :class:`~spotkit.errors.SpotkitWarning` that says so.
+    """
+    import warnings
+
+    import pyarrow as pa
+    import pyarrow.parquet as pq
+
+    from spotkit.errors import NotASpotTableError, SpotkitError, SpotkitWarning
     from spotkit.io import store
 
-    return store.read_spots_parquet(path)
+    if not path.is_file():  # an archive folder, or nothing: the store says which
+        return store.read_spots_parquet(path)
+    try:
+        schema = pq.read_schema(path)
+    except (pa.ArrowException, OSError):  # not Parquet: the store's message says so
+        return store.read_spots_parquet(path)
+    names = list(schema.names)
+    if not any(n in C.GLOSSARY for n in names):
+        shown = ", ".join(names[:8]) + (", ..." if len(names) > 8 else "")
+        raise NotASpotTableError(
+            f"{path}: not a spot table: none of its columns ({shown or 'none'}) is a spot "
+            f"column such as {C.TIME}, {C.TX_CALL} or {C.SNR}; make one with 'spotkit ingest'")
+    naive, wrong = [], []
+    for f in schema:
+        col = C.GLOSSARY.get(f.name)
+        if col is None or pa.types.is_null(f.type):
+            continue
+        if col.dtype == C.UTC_DTYPE:
+            if not pa.types.is_timestamp(f.type):
+                wrong.append(f"{f.name} holds {f.type}, not times")
+            elif f.type.tz is None:
+                naive.append(f.name)
+        elif str(col.dtype) in ("float64", "int64") and not (
+                pa.types.is_integer(f.type) or pa.types.is_floating(f.type)):
+            wrong.append(f"{f.name} holds {f.type}, not numbers")
+    if wrong:
+        raise InputError(f"{path}: {'; '.join(wrong)}")
+    try:
+        if not naive:
+            return store.read_spots_parquet(path)
+        table = pq.read_table(path)
+        for name in naive:
+            i = table.schema.get_field_index(name)
+            utc = pa.timestamp(table.schema.field(i).type.unit, tz="UTC")
+            table = table.set_column(i, name, table.column(i).cast(utc))
+        spots = store.table_to_spots(table)
+    except SpotkitError:
+        raise
+    except (pa.ArrowException, ValueError, TypeError) as exc:
+        raise InputError(f"{path}: cannot read as a spot table ({exc})") from None
+    warnings.warn(f"{path}: the times in {', '.join(naive)} carry no time zone; read as UTC",
+                  SpotkitWarning, stacklevel=3)
+    first = [n for n in C.CANONICAL if n in spots.columns]
+    return spots[first + [n for n in spots.columns if n not in first]]
 
 
 __all__ = [

@@ -20,7 +20,7 @@ import numpy as np
 import pandas as pd
 
 from spotkit import columns as C
-from spotkit._validate import check_choice
+from spotkit._validate import check_choice, check_columns
 from spotkit.bands import sort_bands
 from spotkit.compare.cells import DEFAULT_BLOCK_HOURS, estimate_cells
 from spotkit.compare.estimate import too_little_data
@@ -197,6 +197,8 @@ def far_station_summary(spots: pd.DataFrame, side: Side = "auto") -> pd.DataFram
         call, loc, lat, lon, brg = C.RX_CALL, C.RX_LOCATOR, C.RX_LAT, C.RX_LON, C.BEARING
     else:
         call, loc, lat, lon, brg = C.TX_CALL, C.TX_LOCATOR, C.TX_LAT, C.TX_LON, C.REVERSE_BEARING
+    check_columns(spots, [C.BAND, call, loc, lat, lon, C.DISTANCE, brg, C.SNR, C.POWER],
+                  "the far stations of a map")
     df = pd.DataFrame({
         C.BAND: spots[C.BAND].astype(str).to_numpy(),
         C.FAR_CALL: spots[call].astype(str).to_numpy(),

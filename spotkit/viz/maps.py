@@ -43,8 +43,8 @@ import numpy as np
 import pandas as pd
 
 from spotkit import columns as C
-from spotkit._validate import check_choice
-from spotkit.errors import UsageError
+from spotkit._validate import check_choice, check_columns
+from spotkit.errors import InputError, UsageError
 from spotkit.viz.mapdata import (
     FULL_EXTENT_KM,
     Level,
@@ -353,6 +353,9 @@ def coverage_map(spots: pd.DataFrame, *, bands=None, home=None, side: Side = "au
     from matplotlib.colors import Normalize
 
     check_choice(projection, PROJECTIONS, "projection")
+    check_columns(spots, [C.TX_LOCATOR, C.RX_LOCATOR], "a coverage map")
+    if spots.empty:
+        raise InputError("no spots to map: the spot table has no rows")
     if home is None:
         home = home_from_spots(spots, side)
     far = far_station_summary(spots, side)

@@ -29,8 +29,9 @@ import numpy as np
 import pandas as pd
 
 from spotkit import columns as C
+from spotkit._validate import check_columns
 from spotkit.bands import BAND_ORDER, sort_bands
-from spotkit.errors import UsageError
+from spotkit.errors import InputError, UsageError
 from spotkit.units import snr_per_watt
 
 PlotKind = Literal["bearing", "distance", "elevation", "hour", "heard", "snr-distance",
@@ -92,6 +93,16 @@ def _by_band(df: pd.DataFrame, band):
         raise UsageError(f"band(s) {', '.join(missing)} not in the data; present: "
                          f"{', '.join(present) or 'none'}")
     return [(b, df[df[C.BAND].astype(str) == b]) for b in sort_bands(wanted)]
+
+
+def _spots_to_draw(spots: pd.DataFrame, cols, what: str) -> None:
+    """A spot table with the columns ``what`` draws, and at least one row; an
+    :class:`~spotkit.errors.InputError` otherwise (a bad table, not a bad argument)."""
+    if not isinstance(spots, pd.DataFrame):
+        raise UsageError(f"{what} takes a spot table (a pandas DataFrame)")
+    check_columns(spots, cols, what)
+    if spots.empty:
+        raise InputError(f"no spots to draw: the table for {what} has no rows")
 
 
 def _need(df: pd.DataFrame, cols, key: str):
@@ -359,6 +370,7 @@ def snr_distance_plot(spots: pd.DataFrame, *, band=None, bin_km: float = 250.0,
     -------
     matplotlib.axes.Axes
     """
+    _spots_to_draw(spots, [C.DISTANCE, C.SNR, C.POWER], "an SNR-against-distance plot")
     ax = _new_ax(ax)
     colors = band_colors()
     rng = np.random.default_rng(seed)
@@ -407,6 +419,8 @@ def spots_per_hour_plot(spots: pd.DataFrame, *, band=None, ax=None):
     -------
     matplotlib.axes.Axes
     """
+    _spots_to_draw(spots, [C.SLOT if C.SLOT in spots else C.TIME, C.BAND],
+                   "a spots-per-hour plot")
     ax = _new_ax(ax, figsize=(8, 3.6))
     tab = spots_per_hour(spots)
     if band is not None:

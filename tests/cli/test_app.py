@@ -109,6 +109,69 @@ def test_a_bug_keeps_its_traceback(monkeypatch):
         main(["compare", "x.csv", "--design", "simultaneous", "--a", "Q1ABC"])
 
 
+# --- issue 14: Ctrl-C, errors of the operating system, notes ------------------------------------
+COMPARE = ["compare", "x.parquet", "--design", "simultaneous", "--a", "Q1ABC"]
+
+
+def test_ctrl_c_is_one_line_and_exit_130(monkeypatch, capsys):
+    def interrupted(*args, **kwargs):
+        raise KeyboardInterrupt
+
+    monkeypatch.setattr("spotkit.io.ingest.load_spots", interrupted)
+    assert main(COMPARE) == 130
+    assert capsys.readouterr().err == "spotkit: interrupted\n"
+
+
+def test_ctrl_c_through_a_real_signal(tmp_path):
+    # SIGINT sent to the process while a command runs, as Ctrl-C in a terminal does
+    code = ("import os, signal, sys\n"
+            "import spotkit.io.ingest as ingest\n"
+            "ingest.load_spots = lambda *a, **k: os.kill(os.getpid(), signal.SIGINT)\n"
+            "from spotkit.cli.app import main\n"
+            f"sys.exit(main({COMPARE!r}))\n")
+    run = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
+                         timeout=120, cwd=tmp_path)
+    assert run.returncode == 130
+    assert run.stderr == "spotkit: interrupted\n"
+
+
+@pytest.mark.parametrize(("error", "message"), [
+    (OSError(5, "Input/output error", "x.parquet"), "x.parquet: Input/output error"),
+    (PermissionError(13, "Permission denied", "x.parquet"), "x.parquet: Permission denied"),
+    (OSError("disk went away"), "disk went away"),
+])
+def test_error_of_the_operating_system_is_one_line(error, message, monkeypatch, capsys):
+    def fail(*args, **kwargs):
+        raise error
+
+    monkeypatch.setattr("spotkit.io.ingest.load_spots", fail)
+    assert main(COMPARE) == 1
+    assert capsys.readouterr().err == f"spotkit: error: {message}\n"
+
+
+def test_reader_gone_away_is_no_traceback(monkeypatch, capsys):
+    # spotkit compare ... | head: the pipe closes while the result is printed
+    def gone(*args, **kwargs):
+        raise BrokenPipeError(32, "Broken pipe")
+
+    monkeypatch.setattr("spotkit.io.ingest.load_spots", gone)
+    assert main(COMPARE) == 1
+    assert capsys.readouterr().err == ""
+
+
+def test_spotkit_warning_is_shown_as_a_note(monkeypatch, capsys):
+    import warnings
+
+    def suspicious(*args, **kwargs):
+        warnings.warn("something to know", errors.SpotkitWarning, stacklevel=2)
+        raise errors.InputError("and then it stopped")
+
+    monkeypatch.setattr("spotkit.io.ingest.load_spots", suspicious)
+    assert main(COMPARE) == 1
+    assert capsys.readouterr().err == ("spotkit: note: something to know\n"
+                                       "spotkit: error: and then it stopped\n")
+
+
 # --- --version and python -m spotkit -------------------------------------------------------------
 DEPENDENCIES = ("numpy", "pandas", "pyarrow", "pyproj", "geopy", "scipy", "cartopy",
                 "matplotlib", "dask")

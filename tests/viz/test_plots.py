@@ -167,3 +167,23 @@ def test_cli_map_and_plot_write_pictures(sim, tmp_path):
     assert b"<svg" in svg.read_bytes()[:500]
     assert main(["plot", str(src), "--kind", "bearing", "-o", str(svg)]) == 2  # needs --a
     assert main(["map", str(src), "--kind", "coverage", "-o", str(tmp_path / "x.jpg")]) == 2
+
+
+# --- issue 14: a table the plot cannot draw is bad input, with the reason --------------------
+@pytest.mark.parametrize("draw", [plots.snr_distance_plot, plots.spots_per_hour_plot])
+def test_plot_of_no_spots_is_bad_input(draw, sim):
+    from spotkit.errors import InputError
+
+    with pytest.raises(InputError, match="no spots to draw: the table for .* has no rows"):
+        draw(sim.spots.iloc[:0])
+
+
+@pytest.mark.parametrize(("draw", "missing"), [
+    (plots.snr_distance_plot, "distance_km, snr_db, power_dbm"),
+    (plots.spots_per_hour_plot, "time_utc, band")])
+def test_plot_of_a_table_without_its_columns_names_them(draw, missing):
+    from spotkit.errors import InputError
+
+    with pytest.raises(InputError, match=rf"needs column\(s\) {missing}, which the table does "
+                                         r"not have \(it has rx_call\)"):
+        draw(pd.DataFrame({C.RX_CALL: ["Q2AA"]}))
