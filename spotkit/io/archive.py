@@ -8,13 +8,16 @@ two sorted runs of it merge) and its locator-pair cache. Under a memory cap
 the reader keeps the keys of the latest slot days only (duplicates share their slot), so
 memory no longer grows with the input; the input must then be in time order.
 
-Known limits: see :mod:`spotkit.io.store` (one writer at a time; duplicates across two
-overlapping exports are removed on read with ``dedupe=True``, not on append).
+Crash safety: the files of one call are staged, then committed together by one atomic
+manifest update under the archive's lock (:mod:`spotkit.io.manifest`); a killed run adds
+nothing, and what it left is removed by the next append or ``spotkit archive repair``.
+
+Known limits: see :mod:`spotkit.io.store` (duplicates across two overlapping exports are
+removed on read with ``dedupe=True``, not on append).
 """
 from __future__ import annotations
 
 import os
-import uuid
 from collections.abc import Sequence
 from pathlib import Path
 from typing import Any
@@ -24,16 +27,20 @@ import numpy as np
 from spotkit import columns as C
 from spotkit.errors import InputError, UsageError
 from spotkit.io.ingest import IngestSummary, iter_spot_chunks
+from spotkit.io.manifest import (
+    REJECTS_DIR,
+    check_not_taken,
+    dataset_manifest,
+    fault_point,
+    file_hashes,
+    fsync_file,
+)
 from spotkit.io.store import (
     PARTITION_KEYS,
-    REJECTS_DIR,
     _Appender,
-    _check_new_hash,
-    _now,
-    _prepare_root,
+    _commit,
+    _open_for_append,
     _to_arrow,
-    _write_manifest,
-    file_sha256,
 )
 
 #: Rough resident size of a Python process with spotkit, pandas and pyarrow loaded [MiB]
@@ -92,16 +99,20 @@ def chunk_rows_for_memory(memory_mb: float, *, total_input_bytes: int = 0) -> in
 def ingest_to_dataset(paths, root, *, chunk_rows: int | None = None,
                       memory_mb: float | None = None,
                       partition_by: Sequence[str] = PARTITION_KEYS, progress: bool = False,
-                      **read_kw):
+                      lock_timeout: float | None = None, **read_kw):
     """Read spot CSV files chunk by chunk and append them to a partitioned archive.
 
-    Every input file's SHA-256 is checked against the archive's manifest first: a file
-    already appended (or given twice) is refused with :class:`~spotkit.errors.InputError`
-    and nothing is written. The files are read by :func:`spotkit.io.ingest.iter_spot_chunks`
+    Every input file's SHA-256, of its bytes and of its content (decompressed, so a gzip or
+    renamed copy counts as the same file), is checked against the archive's manifest first:
+    a file already appended (or given twice) is refused with
+    :class:`~spotkit.errors.InputError` and nothing is written. The check is made again
+    under the archive's lock just before the commit, so of two runs appending the same file
+    at once exactly one succeeds. The files are read by :func:`spotkit.io.ingest.iter_spot_chunks`
     (duplicates removed across chunks and files of this call), each chunk is split by
     partition and written as it comes, so peak memory is bounded by the chunk size. Rejected
-    rows are kept as ``<root>/_rejects/<token>.csv``. Files land in the archive only when all
-    inputs were read; on an error nothing is added.
+    rows are kept as ``<root>/_rejects/<token>.csv``. The files of all inputs become part of
+    the archive together, in one atomic manifest update, only when all inputs were read; on
+    an error or a kill nothing is added (:mod:`spotkit.io.manifest`).
 
     Parameters
     ----------
@@ -123,6 +134,9 @@ def ingest_to_dataset(paths, root, *, chunk_rows: int | None = None,
         Partition keys (must match an existing archive).
     progress : bool
         Progress bar on stderr.
+    lock_timeout : float, optional
+        Seconds to wait while another process commits to the archive [s] (default
+        :data:`spotkit.io.manifest.LOCK_TIMEOUT_S`); then :class:`~spotkit.errors.UsageError`.
     **read_kw
         Keywords of :func:`spotkit.io.ingest.read_spots` (mapping, units, delimiter, header,
         slot_minutes, region).
@@ -153,16 +167,17 @@ def ingest_to_dataset(paths, root, *, chunk_rows: int | None = None,
     elif chunk_rows is None:
         chunk_rows = 500_000
     root = Path(root)
-    manifest = _prepare_root(root, partition_by)
-    hashes = {}
+    _open_for_append(root, partition_by, lock_timeout=lock_timeout)
+    manifest = dataset_manifest(root)
+    hashes: dict[Path, tuple[str, str]] = {}
     for p in paths:
-        h = file_sha256(p)
-        _check_new_hash(root, manifest, h, str(p))
-        if h in hashes.values():
-            first = next(q for q, v in hashes.items() if v == h)
-            raise InputError(f"{p}: same content as {first} (SHA-256 {h[:12]}...); "
+        raw, content = file_hashes(p)
+        check_not_taken(manifest, str(p), raw, content, root)  # early; again at the commit
+        first = next((q for q, (_r, c) in hashes.items() if c == content), None)
+        if first is not None:
+            raise InputError(f"{p}: same content as {first} (SHA-256 {content[:12]}...); "
                              "give each export once")
-        hashes[p] = h
+        hashes[p] = (raw, content)
     summary = IngestSummary()
     apps: dict[int, _Appender] = {}  # by position of the input file
     rej_fhs: dict[int, Any] = {}
@@ -170,10 +185,11 @@ def ingest_to_dataset(paths, root, *, chunk_rows: int | None = None,
     try:
         for spots, rejects in iter_spot_chunks(paths, chunk_rows=chunk_rows, summary=summary,
                                                progress=progress, **read_kw):
+            fault_point("read")
             i = len(summary.files) - 1
             app = apps.get(i)
             if app is None:
-                app = apps[i] = _Appender(root, partition_by, uuid.uuid4().hex[:12])
+                app = apps[i] = _Appender(root, partition_by)
             if len(spots):
                 app.write(_to_arrow(spots))
             if len(rejects):
@@ -185,29 +201,26 @@ def ingest_to_dataset(paths, root, *, chunk_rows: int | None = None,
                     rejects[C.REJECT_COLUMNS].iloc[:0].to_csv(fh, index=False)
                 rejects[C.REJECT_COLUMNS].to_csv(fh, index=False, header=False)
                 rej_counts[i] = rej_counts.get(i, 0) + len(rejects)
-        for fh in rej_fhs.values():
+        for i, fh in rej_fhs.items():
             fh.close()
-        for app in apps.values():
+            fsync_file(apps[i].staging / REJECTS_DIR / f"{apps[i].token}.csv")
+        staged = []
+        for i, p in enumerate(paths):
+            app = apps.get(i)
+            if app is None:
+                app = apps[i] = _Appender(root, partition_by)
             app.close()
+            staged.append((app, {
+                "token": app.token, "sha256": hashes[p][0], "content_sha256": hashes[p][1],
+                "source": str(p), "rejected": rej_counts.get(i, 0),
+                "rejects": f"{REJECTS_DIR}/{app.token}.csv" if i in rej_fhs else None}))
     except BaseException:
         for fh in rej_fhs.values():
             fh.close()
         for app in apps.values():
             app.abort()
         raise
-    for i, p in enumerate(paths):
-        app = apps.get(i) or _Appender(root, partition_by, uuid.uuid4().hex[:12])
-        rej_rel = None
-        if i in rej_fhs:
-            (root / REJECTS_DIR).mkdir(exist_ok=True)
-            rej_rel = f"{REJECTS_DIR}/{app.token}.csv"
-            os.replace(app.staging / rej_rel, root / rej_rel)
-        files = app.commit()
-        manifest["batches"].append({
-            "token": app.token, "sha256": hashes[p], "source": str(p), "rows": app.rows,
-            "rejected": rej_counts.get(i, 0), "rejects": rej_rel, "written_utc": _now(),
-            "files": files})
-    _write_manifest(root, manifest)
+    _commit(root, partition_by, staged, lock_timeout=lock_timeout)
     return summary
 
 
