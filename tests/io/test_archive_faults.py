@@ -120,7 +120,7 @@ def assert_readers_agree(root: Path, want: int, capsys=None) -> None:
 def leftovers_on_disk(root: Path) -> list[str]:
     """Anything in the root an append may leave: staging folders and locks, temporary
     manifests, data files the manifest does not name."""
-    committed = set(manifest.committed_files(store.dataset_manifest(root)))
+    committed = {f for b in store.dataset_manifest(root)["batches"] for f in b["files"]}
     found = [p.name for p in root.iterdir()
              if p.name.startswith("_staging-") or p.name.endswith(".tmp")]
     found += [p.relative_to(root).as_posix() for p in root.rglob("*.parquet")
@@ -149,7 +149,7 @@ def test_files_the_manifest_does_not_list_are_invisible_and_rolled_back(tmp_path
     archive.ingest_to_dataset(b, root, chunk_rows=400)
     stray = manifest.committed_files(store.dataset_manifest(root))[len(
         manifest.committed_files(man)):]
-    (root / manifest.MANIFEST_NAME).write_text(json.dumps(man))  # b's entry "not written"
+    (root / store.MANIFEST_NAME).write_text(json.dumps(man))  # b's entry "not written"
     assert stray and all((root / f).exists() for f in stray)
     assert_readers_agree(root, na, capsys)
     check = manifest.check_archive(root)
@@ -172,13 +172,13 @@ def test_kill_at_each_point_leaves_a_consistent_archive(tmp_path, two_exports, p
     a, b, na, nb = two_exports
     root = tmp_path / "arch"
     archive.ingest_to_dataset(a, root, chunk_rows=400)
-    before = (root / manifest.MANIFEST_NAME).read_bytes()
+    before = (root / store.MANIFEST_NAME).read_bytes()
     code, err = run_child(["ingest", b, "--dataset", root, "--chunk-rows", 400], fault=point,
                           tmp=tmp_path)
     assert code == -signal.SIGKILL, (code, err[-2000:])
     committed = point == "committed"
     if not committed:  # nothing of b is visible; the manifest is byte-identical
-        assert (root / manifest.MANIFEST_NAME).read_bytes() == before
+        assert (root / store.MANIFEST_NAME).read_bytes() == before
     assert_readers_agree(root, na + nb if committed else na, capsys)
     # archive info names what was left, repair removes it and nothing else
     check = manifest.check_archive(root)
@@ -266,7 +266,7 @@ def test_manifest_without_content_hashes_still_refuses_a_gzip_copy(tmp_path, two
     man = store.dataset_manifest(root)
     for batch in man["batches"]:
         del batch["content_sha256"]
-    (root / manifest.MANIFEST_NAME).write_text(json.dumps(man))
+    (root / store.MANIFEST_NAME).write_text(json.dumps(man))
     packed = tmp_path / "a.csv.gz"
     packed.write_bytes(gzip.compress(a.read_bytes()))
     with pytest.raises(InputError, match="already in the archive"):
