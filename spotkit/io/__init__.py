@@ -10,7 +10,6 @@ from spotkit.io.archive import (
     DEDUPE_WINDOW_DAYS,
     MIN_CHUNK_ROWS,
     SEEN_BYTES_PER_ROW,
-    WINDOW_RESERVE_MB,
     chunk_rows_for_memory,
     ingest_to_dataset,
 )
@@ -74,7 +73,7 @@ __all__ = [
     "read_dataset", "dataset_manifest", "dataset_filter", "file_sha256", "table_to_spots",
     "archive_files", "read_archive_file", "normalise_categories", "BASE_MEMORY_MB",
     "CHUNK_BYTES_PER_ROW", "SEEN_BYTES_PER_ROW", "CSV_BYTES_PER_ROW", "MIN_CHUNK_ROWS",
-    "WINDOW_RESERVE_MB", "DEDUPE_WINDOW_DAYS", "chunk_rows_for_memory", "ingest_to_dataset",
+    "DEDUPE_WINDOW_DAYS", "chunk_rows_for_memory", "ingest_to_dataset",
     "LOCK_NAME", "LOCK_TIMEOUT_S", "FAULT_POINTS", "ArchiveCheck", "content_sha256",
     "file_hashes", "check_not_taken", "archive_lock", "check_archive", "repair_archive",
 ]

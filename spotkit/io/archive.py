@@ -43,46 +43,59 @@ from spotkit.io.store import (
     _to_arrow,
 )
 
-#: Rough resident size of a Python process with spotkit, pandas and pyarrow loaded [MiB]
-#: (measured by benchmarks/bench_archive.py).
-BASE_MEMORY_MB = 200
-#: Peak memory per row of a chunk [bytes]: up to three chunks are alive at once (one read
-#: ahead by the reader's thread, one being cleaned and enriched, one being written) - measured
-#: by benchmarks/bench_archive.py (about 3.4 kB a row at 489,335-row chunks).
-CHUNK_BYTES_PER_ROW = 3500
+#: Resident memory of an ingest besides its chunk [MiB]: the process with pandas and pyarrow
+#: loaded (about 120), the reader's pieces of the file, the duplicate keys of the latest slot
+#: day under a cap, a locator-pair table of about a million pairs and the Parquet writers.
+#: Measured by benchmarks/bench_archive_memory.py (2 million time-ordered rows from a million
+#: locator pairs: peak 328 MiB at 5,000-row chunks, 296 MiB with 20,000 pairs).
+BASE_MEMORY_MB = 320
+#: Peak memory per row of a chunk [bytes]: the chunk read ahead, the one being cleaned and
+#: enriched and the one being written are alive at once. Measured by
+#: benchmarks/bench_archive_memory.py: peaks of 328, 349, 379, 432 and 613 MiB at chunks of
+#: 5, 20, 50, 100 and 200 thousand rows, i.e. 1.1 to 1.9 kB per row above the fixed part;
+#: the larger slope is used.
+CHUNK_BYTES_PER_ROW = 2000
 #: Memory per distinct report kept by the reader to find duplicates across chunks [bytes]:
 #: 8-byte hashes, twice that while its two largest sorted runs merge into one.
 SEEN_BYTES_PER_ROW = 16
 #: Bytes per CSV row assumed when estimating a file's row count for the duplicate keys.
 CSV_BYTES_PER_ROW = 60
-#: Under a memory cap the reader keeps duplicate keys of the latest slot days only
-#: (``dedupe_window_days``); room kept for them, the locator-pair table (up to 128 MB, twice
-#: that while it grows) and the Parquet writers' buffers [MiB] (measured by
-#: benchmarks/bench_archive.py).
-WINDOW_RESERVE_MB = 600
 #: Days of slots whose duplicate keys are kept under a memory cap.
 DEDUPE_WINDOW_DAYS = 1
 MIN_CHUNK_ROWS = 1000
 
 
 def chunk_rows_for_memory(memory_mb: float, *, total_input_bytes: int = 0) -> int:
-    """Chunk size [rows] that keeps an archive ingest under ``memory_mb`` [MiB].
+    """Chunk size [rows] that keeps an ingest under ``memory_mb`` [MiB].
 
     Budget: ``memory_mb = BASE_MEMORY_MB + rows_estimate * SEEN_BYTES_PER_ROW / 2**20
     + chunk_rows * CHUNK_BYTES_PER_ROW / 2**20``, with ``rows_estimate`` the input size over
-    :data:`CSV_BYTES_PER_ROW` (gzip files count 5x their size). The constants are
-    measurements on one machine, not guarantees; the benchmark checks them. Not modelled:
-    the reader's cache of locator-pair geometry (about 64 bytes per distinct pair, up to
-    three times that while it grows), small for the usual ~1 million pairs.
+    :data:`CSV_BYTES_PER_ROW` (0 for an archive ingest under a cap, which keeps the keys of
+    the latest slot day only). The constants are measurements on one machine
+    (benchmarks/bench_archive_memory.py), not guarantees. Not modelled: a locator-pair table
+    much larger than a million pairs (the dense table grows to 128 MiB with the number of
+    distinct transmitter x receiver locators, and is briefly held twice while it grows), and
+    the duplicate keys of a slot day of more than about two million reports (16 bytes each).
 
-    Because the reader keeps every report's key to find duplicates, the memory needed
-    grows with the input (about 16/60 of the CSV size at its peak): a cap far below the
-    input size cannot be honoured and is refused rather than exceeded silently.
+    Because the reader of ``spotkit ingest -o`` keeps every report's key to find
+    duplicates, the memory it needs grows with the input (about 16/60 of the CSV size at
+    its peak): a cap far below the input size cannot be honoured and is refused rather than
+    exceeded silently.
 
     Raises
     ------
     UsageError
-        When the cap leaves room for fewer than :data:`MIN_CHUNK_ROWS` rows per chunk.
+        When the cap leaves room for fewer than :data:`MIN_CHUNK_ROWS` rows per chunk; the
+        message gives the least cap that would do.
+
+    Examples
+    --------
+    >>> chunk_rows_for_memory(400)
+    41943
+    >>> chunk_rows_for_memory(300)
+    Traceback (most recent call last):
+    ...
+    spotkit.errors.UsageError: a memory cap of 300 MiB ... it needs at least 322 MiB
     """
     if not np.isfinite(memory_mb) or memory_mb <= 0:
         raise UsageError(f"memory_mb must be a positive number of MiB, not {memory_mb!r}")
@@ -92,7 +105,7 @@ def chunk_rows_for_memory(memory_mb: float, *, total_input_bytes: int = 0) -> in
     if rows < MIN_CHUNK_ROWS:
         need = BASE_MEMORY_MB + seen_mb + MIN_CHUNK_ROWS * CHUNK_BYTES_PER_ROW / 2**20
         raise UsageError(f"a memory cap of {memory_mb:g} MiB is too small for this input; "
-                         f"it needs at least {need:.0f} MiB")
+                         f"it needs at least {np.ceil(need):.0f} MiB")
     return rows
 
 
@@ -127,9 +140,9 @@ def ingest_to_dataset(paths, root, *, chunk_rows: int | None = None,
         :data:`DEDUPE_WINDOW_DAYS` slot days only, so memory does not grow with the input,
         and the input must be in time order (a report older than that raises
         :class:`~spotkit.errors.InputError`); ``chunk_rows`` comes from
-        :func:`chunk_rows_for_memory` of the cap less :data:`WINDOW_RESERVE_MB` (the smaller
-        of the two when both are given). Default without either: 500,000 rows, duplicate
-        keys of the whole input.
+        :func:`chunk_rows_for_memory` of the cap (the smaller of the two when both are
+        given). The least cap is about 322 MiB (the message of a refusal says it). Default
+        without either: 500,000 rows, duplicate keys of the whole input.
     partition_by : sequence of {"band", "day"}
         Partition keys (must match an existing archive).
     progress : bool
@@ -158,11 +171,7 @@ def ingest_to_dataset(paths, root, *, chunk_rows: int | None = None,
         # keys of the latest slot days only: memory no longer grows with the input, but the
         # input must be in time order (the reader refuses a report older than the window)
         read_kw.setdefault("dedupe_window_days", DEDUPE_WINDOW_DAYS)
-        least = BASE_MEMORY_MB + WINDOW_RESERVE_MB + MIN_CHUNK_ROWS * CHUNK_BYTES_PER_ROW / 2**20
-        if not memory_mb >= least:
-            raise UsageError(f"a memory cap of {memory_mb:g} MiB is too small for archive "
-                             f"ingest; it needs at least {least:.0f} MiB")
-        by_mem = chunk_rows_for_memory(memory_mb - WINDOW_RESERVE_MB)
+        by_mem = chunk_rows_for_memory(memory_mb)
         chunk_rows = by_mem if chunk_rows is None else min(chunk_rows, by_mem)
     elif chunk_rows is None:
         chunk_rows = 500_000
@@ -225,5 +234,4 @@ def ingest_to_dataset(paths, root, *, chunk_rows: int | None = None,
 
 
 __all__ = ["BASE_MEMORY_MB", "CHUNK_BYTES_PER_ROW", "SEEN_BYTES_PER_ROW", "CSV_BYTES_PER_ROW",
-           "MIN_CHUNK_ROWS", "WINDOW_RESERVE_MB", "DEDUPE_WINDOW_DAYS", "chunk_rows_for_memory",
-           "ingest_to_dataset"]
+           "MIN_CHUNK_ROWS", "DEDUPE_WINDOW_DAYS", "chunk_rows_for_memory", "ingest_to_dataset"]
