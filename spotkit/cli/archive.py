@@ -85,8 +85,8 @@ def cmd_archive(args) -> int:
     if action == "info":
         from spotkit.io import manifest
 
-        check = manifest.check_archive(args.dataset)
         man = store.dataset_manifest(args.dataset)
+        check = manifest.check_archive(args.dataset)
         print(f"archive {args.dataset}: partitioned by {', '.join(check.partition_by)}; "
               f"{check.batches} batch(es), {check.rows:,} spots in {check.files:,} files")
         for b in man["batches"]:

@@ -415,7 +415,7 @@ def test_ingest_refuses_a_gzip_copy_of_a_file_already_taken(tmp_path):
 
 def test_archive_memory_cap_works_from_the_measured_minimum(tmp_path):
     """The cap's model (constants measured by benchmarks/bench_archive_memory.py: peak 328 MiB
-    at 5,000-row chunks, 432 MiB at 100,000) accepts caps from about 322 MiB and names the
+    at 5,000-row chunks, 432 MiB at 100,000) accepts caps from about 330 MiB and names the
     true minimum when it refuses one."""
     path = spots_csv(make_spots(300, seed=18), tmp_path / "b.csv")
     summary = archive.ingest_to_dataset(path, tmp_path / "arch", memory_mb=340)
