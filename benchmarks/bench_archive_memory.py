@@ -55,8 +55,11 @@ def run(csv: Path, root: Path, how: str, value) -> tuple[str, float, float]:
     if root.exists():
         shutil.rmtree(root)
     t0 = time.perf_counter()
+    # run in the work folder: "python -c" puts the current folder first on sys.path, and
+    # spotkit must come from PYTHONPATH (the revision measured), not from a checkout there
     proc = subprocess.Popen([sys.executable, "-c", CHILD, str(csv), str(root), how, str(value)],
-                            stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)
+                            stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True,
+                            cwd=root.parent)
     with TreeMemory(proc.pid, every_s=0.02) as mem:
         out, err = proc.communicate()
     if proc.returncode:

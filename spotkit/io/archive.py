@@ -194,9 +194,10 @@ def ingest_to_dataset(paths, root, *, chunk_rows: int | None = None,
     rej_fhs: dict[int, Any] = {}
     rej_counts: dict[int, int] = {}
     try:
-        for spots, rejects in iter_spot_chunks(paths, chunk_rows=chunk_rows, summary=summary,
-                                               progress=progress, **read_kw):
-            fault_point("read")
+        for n_chunk, (spots, rejects) in enumerate(iter_spot_chunks(
+                paths, chunk_rows=chunk_rows, summary=summary, progress=progress, **read_kw)):
+            if n_chunk == 1:
+                fault_point("read")  # a kill while reading, with the first chunk staged
             i = len(summary.files) - 1
             app = apps.get(i)
             if app is None:
