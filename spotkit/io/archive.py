@@ -46,17 +46,16 @@ from spotkit.io.store import (
 #: Resident memory of an ingest besides its chunk [MiB]: the process with pandas and pyarrow
 #: loaded (about 120), the reader's pieces of the file, the duplicate keys of the latest slot
 #: day under a cap, a locator-pair table of about a million pairs and the Parquet writers.
-#: Measured by benchmarks/bench_archive_memory.py (2 million time-ordered rows from a million
-#: locator pairs: peak 328 MiB at 5,000-row chunks, 296 MiB with 20,000 pairs), plus a
-#: little room.
-BASE_MEMORY_MB = 325
+#: Measured by benchmarks/bench_archive_memory.py on 2 million time-ordered rows from a
+#: million locator pairs (2-core VM, Dec 2026): peaks of 328 to 353 MiB at chunks of 2,400 to
+#: 10,000 rows (296 MiB with 20,000 pairs); the runs of one setting vary by about 40 MiB.
+BASE_MEMORY_MB = 360
 #: Peak memory per row of a chunk [bytes]: the chunk read ahead, the one being cleaned and
-#: enriched and the one being written are alive at once. Measured by
-#: benchmarks/bench_archive_memory.py: peaks of 328, 349, 379, 432 and 613 MiB at chunks of
-#: 5, 20, 50, 100 and 200 thousand rows, i.e. 1.1 to 1.9 kB per row above the fixed part;
-#: the larger slope and a little room (under caps of 340, 400 and 600 MiB the peaks were
-#: 336, 354 and 588 MiB with 2,000 bytes a row).
-CHUNK_BYTES_PER_ROW = 2200
+#: enriched and the one being written are alive at once. Measured as above: peaks of 349 to
+#: 385 MiB at 20,000 to 42,000 rows, 432 MiB at 100,000, 588 to 633 MiB at 131,000 to
+#: 147,000, 613 MiB at 200,000 and 696 MiB at 274,000 rows; with :data:`BASE_MEMORY_MB` this
+#: slope bounds them all.
+CHUNK_BYTES_PER_ROW = 2600
 #: Memory per distinct report kept by the reader to find duplicates across chunks [bytes]:
 #: 8-byte hashes, twice that while its two largest sorted runs merge into one.
 SEEN_BYTES_PER_ROW = 16
@@ -93,11 +92,11 @@ def chunk_rows_for_memory(memory_mb: float, *, total_input_bytes: int = 0) -> in
     Examples
     --------
     >>> chunk_rows_for_memory(400)
-    35746
+    16131
     >>> chunk_rows_for_memory(300)
     Traceback (most recent call last):
     ...
-    spotkit.errors.UsageError: a memory cap of 300 MiB ... it needs at least 328 MiB
+    spotkit.errors.UsageError: a memory cap of 300 MiB ... it needs at least 363 MiB
     """
     if not np.isfinite(memory_mb) or memory_mb <= 0:
         raise UsageError(f"memory_mb must be a positive number of MiB, not {memory_mb!r}")
@@ -143,7 +142,7 @@ def ingest_to_dataset(paths, root, *, chunk_rows: int | None = None,
         and the input must be in time order (a report older than that raises
         :class:`~spotkit.errors.InputError`); ``chunk_rows`` comes from
         :func:`chunk_rows_for_memory` of the cap (the smaller of the two when both are
-        given). The least cap is about 328 MiB (the message of a refusal says it). Default
+        given). The least cap is about 363 MiB (the message of a refusal says it). Default
         without either: 500,000 rows, duplicate keys of the whole input.
     partition_by : sequence of {"band", "day"}
         Partition keys (must match an existing archive).
