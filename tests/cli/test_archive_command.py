@@ -5,6 +5,7 @@ protocol itself is tested in tests/io/test_archive_faults.py."""
 import pytest
 from factories import make_spots
 
+from spotkit import columns as C
 from spotkit.cli import main
 from spotkit.io import manifest, store
 
@@ -86,3 +87,18 @@ def test_info_and_repair_on_something_that_is_not_an_archive(tmp_path, capsys):
     assert main(["archive", "repair", str(tmp_path / "empty")]) == 1
     assert main(["archive", "info", str(tmp_path / "nowhere")]) == 1
     assert "no such archive directory" in capsys.readouterr().err
+
+
+def test_coverage_counts_only_what_info_reports(small_archive, tmp_path, capsys):
+    """A data file left by a killed append is read by no command: the coverage counts add up
+    to the spots 'archive info' reports."""
+    import pandas as pd
+
+    first = small_archive / store.archive_files(small_archive)[0]
+    (first.parent / "part-0123456789ab.parquet").write_bytes(first.read_bytes())
+    out = tmp_path / "cov.csv"
+    assert main(["archive", "coverage", str(small_archive), "--by", "band", "-o", str(out),
+                 "--scheduler", "sync"]) == 0
+    assert main(["archive", "info", str(small_archive)]) == 0
+    assert "200 spots in" in capsys.readouterr().out
+    assert int(pd.read_csv(out)[C.COUNT].sum()) == 200
