@@ -106,6 +106,13 @@ def _ingest_to_archive(args) -> int:
         raise UsageError(f"--partition: give at least one key from {', '.join(PARTITION_KEYS)}")
     for key in partition:  # checked here so that only a bad key is called a --partition error
         check_choice(key, PARTITION_KEYS, "--partition key")
+    if args.memory_mb is not None:  # the same check ingest_to_dataset makes, named for the CLI
+        from spotkit.io.archive import chunk_rows_for_memory
+
+        try:
+            chunk_rows_for_memory(args.memory_mb)
+        except UsageError as exc:
+            raise UsageError(f"--memory-mb: {exc}") from None
     summary = ingest_to_dataset(
         args.files, args.dataset, chunk_rows=args.chunk_rows, memory_mb=args.memory_mb,
         partition_by=partition, progress=progress(args), **reading)

@@ -102,3 +102,13 @@ def test_coverage_counts_only_what_info_reports(small_archive, tmp_path, capsys)
     assert main(["archive", "info", str(small_archive)]) == 0
     assert "200 spots in" in capsys.readouterr().out
     assert int(pd.read_csv(out)[C.COUNT].sum()) == 200
+
+
+def test_a_memory_cap_below_the_minimum_names_memory_mb_and_the_minimum(tmp_path, capsys):
+    src = tmp_path / "a.csv"
+    src.write_text("x\n")
+    assert main(["ingest", str(src), "--dataset", str(tmp_path / "arch"),
+                 "--memory-mb", "300"]) == 2
+    err = capsys.readouterr().err
+    assert err.startswith("spotkit: --memory-mb: a memory cap of 300 MiB is too small")
+    assert "needs at least 363 MiB" in err
