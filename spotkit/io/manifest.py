@@ -344,6 +344,11 @@ def archive_lock(root, *, timeout: float | None = None) -> Iterator[None]:
         lock.release()
 
 
+#: Staging folders of this process that are alive (never taken for leftovers, whatever a
+#: lock library does about two locks of one process on one file).
+_LIVE_STAGING: set[Path] = set()
+
+
 class StagingArea:
     """One append's staging folder ``<root>/_staging-<token>/``, locked while it lives.
 
@@ -359,6 +364,7 @@ class StagingArea:
         self._lock_path = self.root / f"{STAGING_PREFIX}{token}.lock"
         self._lock = FileLock(str(self._lock_path), timeout=0)
         self._lock.acquire()
+        _LIVE_STAGING.add(self.path.resolve())
         self.path.mkdir()
 
     def remove(self) -> None:
@@ -369,6 +375,7 @@ class StagingArea:
             self._lock.release()
         with contextlib.suppress(OSError):
             self._lock_path.unlink()
+        _LIVE_STAGING.discard(self.path.resolve())
 
 
 def _staging_is_dead(lock_path: Path) -> bool:
@@ -462,9 +469,12 @@ def _scan_leftovers(root: Path, manifest: dict) -> tuple[list, list, list, list]
     staging_dirs = {p.name for p in root.glob(f"{STAGING_PREFIX}*") if p.is_dir()}
     for name in sorted(staging_dirs):
         lock = root / f"{name}.lock"
-        (leftovers if _staging_is_dead(lock) else busy).append(root / name)
+        live = (root / name).resolve() in _LIVE_STAGING or not _staging_is_dead(lock)
+        (busy if live else leftovers).append(root / name)
     for lock in sorted(root.glob(f"{STAGING_PREFIX}*.lock")):
-        if lock.name[:-len(".lock")] not in staging_dirs and _staging_is_dead(lock):
+        name = lock.name[:-len(".lock")]
+        if (name not in staging_dirs and (root / name).resolve() not in _LIVE_STAGING
+                and _staging_is_dead(lock)):
             leftovers.append(lock)
     leftovers += [p for p in sorted(root.iterdir()) if _TMP_MANIFEST.fullmatch(p.name)]
     rejects = root / REJECTS_DIR

@@ -427,3 +427,14 @@ def test_archive_memory_cap_works_from_the_measured_minimum(tmp_path):
     with pytest.raises(UsageError, match=f"needs at least {int(np.ceil(least))} MiB"):
         archive.ingest_to_dataset(spots_csv(make_spots(50), tmp_path / "a.csv"),
                                   tmp_path / "arch2", memory_mb=350)
+
+
+def test_an_append_never_rolls_back_its_own_staging(tmp_path, monkeypatch):
+    """Even if the lock library let one process take its own staging lock twice (so that the
+    staging looked abandoned), the commit's roll back leaves this process's staging alone."""
+    from spotkit.io import manifest
+
+    monkeypatch.setattr(manifest, "_staging_is_dead", lambda lock: True)
+    root = tmp_path / "arch"
+    store.append_to_dataset(make_spots(80, seed=19), root)
+    assert len(store.read_dataset(root)) == 80 and manifest.check_archive(root).clean
