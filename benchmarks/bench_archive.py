@@ -312,8 +312,8 @@ def main(argv=None) -> int:
         size = csv.stat().st_size
         try:
             # what ingest_to_dataset does under a cap: duplicate keys of the latest slot day
-            # only, chunk rows from the cap less the reserve
-            chunk = archive.chunk_rows_for_memory(args.memory_mb - archive.WINDOW_RESERVE_MB)
+            # only, chunk rows from the cap
+            chunk = archive.chunk_rows_for_memory(args.memory_mb)
             how, mem_arg, chunk_arg = (
                 f"memory_mb={args.memory_mb:.0f} -> chunk {chunk:,} rows, duplicate keys of "
                 f"the latest {archive.DEDUPE_WINDOW_DAYS} slot day(s)", args.memory_mb, None)

@@ -115,6 +115,10 @@ def dask_scheduler(scheduler: Scheduler = None, *, n_workers: int = 2,
         client = Client(scheduler, timeout="10s")
     except (OSError, TimeoutError) as exc:
         raise UsageError(f"cannot reach the Dask scheduler at {scheduler}: {exc}") from None
+    except ValueError as exc:  # not an address at all, e.g. "bogus" (missing port number)
+        raise UsageError(f"scheduler {scheduler!r}: not a scheduler address ({exc}); expected "
+                         f"{', '.join(_LOCAL_SCHEDULERS)}, 'local' or an address such as "
+                         "tcp://host:8786") from None
     with client:
         yield {"scheduler": client}
 

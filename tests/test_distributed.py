@@ -318,3 +318,20 @@ def test_cli_archive_coverage_and_compare(sim_archive, tmp_path, capsys):
     assert main(["archive", "compare", str(root), "--design", "simultaneous", "--a", sim.a,
                  "--b", "Q9NOPE", "--boot", "50", "--scheduler", "sync"]) == 1
     assert main(["archive"]) == 2
+
+
+def test_dask_path_reads_only_committed_files(tmp_path, spots):
+    """A data file left in a partition folder by a killed append (not in the manifest) is not
+    read by the Dask path: the counts add up to the manifest's rows."""
+    root = tmp_path / "arch"
+    store.append_to_dataset(spots.iloc[:500], root)
+    first = root / store.archive_files(root)[0]
+    (first.parent / "part-0123456789ab.parquet").write_bytes(first.read_bytes())
+    table = D.coverage_dask(root, ("band",), scheduler="sync")
+    assert int(table[C.COUNT].sum()) == 500
+    assert len(D.read_archive_dask(root, columns=[C.SNR]).compute(scheduler="sync")) == 500
+
+
+def test_bad_scheduler_is_a_usage_error_naming_the_scheduler(archive):
+    with pytest.raises(UsageError, match=r"scheduler 'bogus': not a scheduler address"):
+        D.coverage_dask(archive, ("band",), scheduler="bogus")

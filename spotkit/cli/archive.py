@@ -1,18 +1,20 @@
 """``spotkit archive``: analyse a partitioned Parquet archive (info, coverage, compare),
-locally or on a Dask cluster.
+locally or on a Dask cluster, and repair one after an interrupted append.
 
-A thin layer over :mod:`spotkit.io.store` and :mod:`spotkit.distributed`. Archives are
-written by ``spotkit ingest --dataset`` (:mod:`spotkit.cli.ingest`).
+A thin layer over :mod:`spotkit.io.store`, :mod:`spotkit.io.manifest` and
+:mod:`spotkit.distributed`. Archives are written by ``spotkit ingest --dataset``
+(:mod:`spotkit.cli.ingest`).
 """
 from __future__ import annotations
 
 from spotkit.cli._common import DESIGNS, EXIT_OK, Parser, write_result
-from spotkit.errors import InputError, SpotkitError, UsageError
+from spotkit.errors import UsageError
 
 
 def add_archive(sub) -> None:
     p = sub.add_parser(
-        "archive", help="work with a partitioned spot archive (coverage, compare, info)",
+        "archive", help="work with a partitioned spot archive (info, coverage, compare, "
+        "repair)",
         description="Analyse a partitioned Parquet archive written by 'spotkit ingest "
         "--dataset DIR', partition by partition, locally or on a Dask cluster.")
     asub = p.add_subparsers(dest="archive_command", metavar="ACTION", parser_class=Parser)
@@ -28,8 +30,15 @@ def add_archive(sub) -> None:
                        "'processes', 'sync' or the address of a running scheduler "
                        "(tcp://host:8786); default: threads")
 
-    info = asub.add_parser("info", help="what the archive holds (manifest)")
+    info = asub.add_parser("info", help="what the archive holds (manifest) and anything "
+                           "interrupted appends left")
     info.add_argument("dataset", metavar="DIR")
+    rep = asub.add_parser("repair", help="remove what interrupted appends left",
+                          description="Remove the files and folders that killed or failed "
+                          "appends left in the archive (never part of it: readers do not see "
+                          "them). Committed data, appends still running and files spotkit "
+                          "did not write are left alone.")
+    rep.add_argument("dataset", metavar="DIR")
     cov = asub.add_parser("coverage", help="spots, stations and SNR per W by group")
     common(cov)
     cov.add_argument("--by", default="band,square", metavar="KEYS",
@@ -72,29 +81,33 @@ def cmd_archive(args) -> int:
 
     action = getattr(args, "archive_command", None)
     if action is None:
-        raise UsageError("spotkit archive: choose an action: info, coverage or compare")
+        raise UsageError("spotkit archive: choose an action: info, coverage, compare or repair")
     if action == "info":
+        from spotkit.io import manifest
+
         man = store.dataset_manifest(args.dataset)
-        if not man["batches"]:
-            raise InputError(f"{args.dataset}: not a spotkit archive (no manifest)")
-        rows = sum(int(b.get("rows") or 0) for b in man["batches"])
-        files = sum(len(b.get("files", [])) for b in man["batches"])
-        print(f"archive {args.dataset}: partitioned by {', '.join(man['partition_by'])}; "
-              f"{len(man['batches'])} batch(es), {rows:,} spots in {files:,} files")
+        check = manifest.check_archive(args.dataset)
+        print(f"archive {args.dataset}: partitioned by {', '.join(check.partition_by)}; "
+              f"{check.batches} batch(es), {check.rows:,} spots in {check.files:,} files")
         for b in man["batches"]:
             print(f"  {b.get('written_utc')}  {b.get('rows', 0):>12,} spots  "
                   f"{b.get('rejected') or 0:>9,} rejected  {b.get('source')}")
+        print(check.text())
+        return EXIT_OK
+    if action == "repair":
+        from spotkit.io import manifest
+
+        removed = manifest.repair_archive(args.dataset)
+        print(f"removed {len(removed)} leftover(s) of interrupted appends from {args.dataset}"
+              + "".join(f"\n  {r}" for r in removed))
+        print(manifest.check_archive(args.dataset).text())
         return EXIT_OK
     selection = dict(bands=_archive_bands(args), start=args.start, end=args.end)
     if action == "coverage":
         by = [k for k in args.by.replace(" ", "").split(",") if k]
-        try:
-            table = distributed.coverage_dask(args.dataset, by, side=args.side,
-                                              scheduler=args.scheduler, **selection)
-        except ValueError as exc:
-            if isinstance(exc, SpotkitError):
-                raise
-            raise UsageError(f"--by/--side: {exc}") from None
+        # each library check names its own argument (coverage key, side, scheduler, start)
+        table = distributed.coverage_dask(args.dataset, by, side=args.side,
+                                          scheduler=args.scheduler, **selection)
         if args.output:
             table.to_csv(args.output, index=False)
             print(f"wrote {len(table):,} rows to {args.output}")

@@ -18,7 +18,7 @@ import signal
 import sys
 
 from spotkit.cli._common import EXIT_OK, add_progress_option, key_value, progress
-from spotkit.errors import MostlyRejectedError, SpotkitError, UsageError
+from spotkit.errors import MostlyRejectedError, UsageError
 
 
 def add_ingest(sub) -> None:
@@ -149,16 +149,25 @@ def _ingest_to_archive(args) -> int:
     if args.rejects:
         raise UsageError("--rejects applies to -o; an archive keeps its rejects in "
                          "DIR/_rejects/")
+    from spotkit._validate import check_choice
+    from spotkit.io.store import PARTITION_KEYS
+
     reading = _reading_options(args)
     partition = [k for k in args.partition.replace(" ", "").split(",") if k]
-    try:
-        summary = ingest_to_dataset(
-            args.files, args.dataset, chunk_rows=args.chunk_rows, memory_mb=args.memory_mb,
-            partition_by=partition, progress=progress(args), **reading)
-    except ValueError as exc:
-        if isinstance(exc, SpotkitError):
-            raise
-        raise UsageError(f"--partition: {exc}") from None
+    if not partition:
+        raise UsageError(f"--partition: give at least one key from {', '.join(PARTITION_KEYS)}")
+    for key in partition:  # checked here so that only a bad key is called a --partition error
+        check_choice(key, PARTITION_KEYS, "--partition key")
+    if args.memory_mb is not None:  # the same check ingest_to_dataset makes, named for the CLI
+        from spotkit.io.archive import chunk_rows_for_memory
+
+        try:
+            chunk_rows_for_memory(args.memory_mb)
+        except UsageError as exc:
+            raise UsageError(f"--memory-mb: {exc}") from None
+    summary = ingest_to_dataset(
+        args.files, args.dataset, chunk_rows=args.chunk_rows, memory_mb=args.memory_mb,
+        partition_by=partition, progress=progress(args), **reading)
     print(summary.text())
     print(f"appended {summary.accepted:,} spots to the archive {args.dataset} "
           f"({summary.rejected:,} rejects kept in {args.dataset}/_rejects/)")

@@ -1,6 +1,6 @@
 """Spot files in and out: a file's layout, its cells chunk by chunk, the per-field checks,
 duplicates, path geometry per locator pair, the ingest that ties them together, the
-Parquet store and the partitioned archive.
+Parquet store and the partitioned archive with its manifest (the commit protocol).
 """
 
 from spotkit.io.archive import (
@@ -10,7 +10,6 @@ from spotkit.io.archive import (
     DEDUPE_WINDOW_DAYS,
     MIN_CHUNK_ROWS,
     SEEN_BYTES_PER_ROW,
-    WINDOW_RESERVE_MB,
     chunk_rows_for_memory,
     ingest_to_dataset,
 )
@@ -37,6 +36,22 @@ from spotkit.io.ingest import (
     reject_hint,
     write_rejects,
 )
+from spotkit.io.manifest import (
+    FAULT_POINTS,
+    LOCK_NAME,
+    LOCK_TIMEOUT_S,
+    MANIFEST_NAME,
+    REJECTS_DIR,
+    ArchiveCheck,
+    archive_lock,
+    check_archive,
+    check_not_taken,
+    content_sha256,
+    dataset_manifest,
+    file_hashes,
+    file_sha256,
+    repair_archive,
+)
 from spotkit.io.sniff import (
     DELIMITERS,
     MAX_WATTS,
@@ -50,15 +65,11 @@ from spotkit.io.sniff import (
 )
 from spotkit.io.store import (
     DAY,
-    MANIFEST_NAME,
     PARTITION_KEYS,
-    REJECTS_DIR,
     ROW_GROUP_ROWS,
     append_to_dataset,
     archive_files,
     dataset_filter,
-    dataset_manifest,
-    file_sha256,
     normalise_categories,
     read_archive_file,
     read_dataset,
@@ -76,7 +87,9 @@ __all__ = [
     "read_dataset", "dataset_manifest", "dataset_filter", "file_sha256", "table_to_spots",
     "archive_files", "read_archive_file", "normalise_categories", "BASE_MEMORY_MB",
     "CHUNK_BYTES_PER_ROW", "SEEN_BYTES_PER_ROW", "CSV_BYTES_PER_ROW", "MIN_CHUNK_ROWS",
-    "WINDOW_RESERVE_MB", "DEDUPE_WINDOW_DAYS", "chunk_rows_for_memory", "ingest_to_dataset",
+    "DEDUPE_WINDOW_DAYS", "chunk_rows_for_memory", "ingest_to_dataset",
+    "LOCK_NAME", "LOCK_TIMEOUT_S", "FAULT_POINTS", "ArchiveCheck", "content_sha256",
+    "file_hashes", "check_not_taken", "archive_lock", "check_archive", "repair_archive",
 ]
 # outputs as transactions (atomic) and the refusal of mostly rejected runs (ingest)
 __all__ += [

@@ -8,9 +8,12 @@ Two layouts:
   ``<root>/band=<band>/day=<YYYY-MM-DD>/part-<token>-<i>.parquet``, where ``day`` is the
   UTC date of the slot start (:data:`spotkit.columns.SLOT`). New exports are appended as new
   files; old files are never rewritten. A small JSON manifest (:data:`MANIFEST_NAME`) in the
-  root records every appended batch with the SHA-256 of the input file's bytes, so the same
-  export cannot be appended twice. Files and directories whose names start with ``_`` or
-  ``.`` (the manifest, the rejects, the staging area) are not part of the data.
+  root lists every appended batch and its files, with the SHA-256 of the input file's
+  bytes and of its content (decompressed), so the same export cannot be appended twice,
+  not even gzipped or renamed. **The manifest is the archive**: every reader opens exactly
+  the files it lists, and an append becomes visible in one atomic manifest update under an
+  exclusive lock (the commit protocol of :mod:`spotkit.io.manifest`), so a killed or
+  concurrent append never shows half its rows or doubles them.
 
 Reads push filters down to Parquet (pyarrow.dataset): a band or time-range query opens only
 the matching ``band=``/``day=`` directories and, inside the files, skips row groups whose
@@ -25,17 +28,15 @@ Known limits: partitioning by slot day keeps every spot of one slot in one parti
 run of slots that crosses midnight UTC is split over two partitions (see
 :mod:`spotkit.distributed` for what that means for alternating designs). Duplicate reports
 *across* two different exports that overlap in time are not removed on append; use
-:func:`read_dataset` with ``dedupe=True`` to drop them on read. One writer at a time: two
-processes appending to the same archive at once can lose a manifest entry.
+:func:`read_dataset` with ``dedupe=True`` to drop them on read. Appends may run at the same
+time: each stages its files on its own, and their commits take turns under the archive's
+lock (see :mod:`spotkit.io.manifest` for what that needs of the file system).
 """
 from __future__ import annotations
 
+import contextlib
 import datetime as _dt
-import hashlib
-import json
 import os
-import shutil
-import uuid
 from collections.abc import Sequence
 from pathlib import Path
 from typing import Any
@@ -51,18 +52,29 @@ from spotkit import columns as C
 from spotkit._validate import check_choice, check_time
 from spotkit.bands import BAND_ORDER
 from spotkit.errors import InputError, UsageError
+from spotkit.io.manifest import (
+    MANIFEST_NAME,
+    REJECTS_DIR,
+    StagingArea,
+    archive_lock,
+    check_not_taken,
+    committed_files,
+    dataset_manifest,
+    empty_manifest,
+    fault_point,
+    file_sha256,  # noqa: F401 - kept importable from here, as before
+    fsync_dir,
+    fsync_file,
+    new_token,
+    roll_back_leftovers,
+    write_manifest,
+)
 
 #: Name of the partition key holding the UTC date of the slot start (not a glossary column:
 #: it exists only as a directory level of an archive).
 DAY = "day"
 #: Partition keys an archive may use.
 PARTITION_KEYS = (C.BAND, DAY)
-#: The manifest file in an archive's root.
-MANIFEST_NAME = "_spotkit_manifest.json"
-#: Folder (inside the root) where rejects of appended files are kept as CSV.
-REJECTS_DIR = "_rejects"
-_STAGING_PREFIX = "_staging-"
-_FORMAT_VERSION = 1
 #: Rows per Parquet row group written by spotkit.
 ROW_GROUP_ROWS = 256_000
 
@@ -155,7 +167,7 @@ def read_spots_parquet(path, *, columns: Sequence[str] | None = None,
     if not path.exists():
         raise FileNotFoundError(f"{path}: no such file or directory")
     if path.is_dir():
-        dataset = _open_dataset(path)
+        dataset, _ = _open_dataset(path)
     else:
         try:
             dataset = ds.dataset(path, format="parquet")
@@ -178,98 +190,22 @@ def _partitioning(partition_by: Sequence[str]) -> ds.Partitioning:
     return ds.partitioning(pa.schema(fields), flavor="hive")
 
 
-def _open_dataset(root: Path) -> ds.Dataset:
+def _open_dataset(root: Path) -> tuple[ds.Dataset | None, list[str]]:
+    """The archive's committed files as a pyarrow dataset (None when there are none) and its
+    partition keys, both from one reading of the manifest: files the manifest does not list
+    (left by an interrupted append) are never opened."""
     manifest = dataset_manifest(root)
-    partition_by = manifest.get("partition_by", list(PARTITION_KEYS))
-    files = [str(p) for p in sorted(root.rglob("*.parquet"))
-             if not any(part.startswith(("_", ".")) for part in p.relative_to(root).parts)]
+    partition_by = list(manifest["partition_by"])
+    files = committed_files(manifest)
     if not files:
-        return None
-    return ds.dataset(files, format="parquet", partitioning=_partitioning(partition_by),
-                      partition_base_dir=str(root))
-
-
-def dataset_manifest(root) -> dict:
-    """The manifest of an archive: partition keys and one entry per appended batch.
-
-    Parameters
-    ----------
-    root : str or path-like
-        Archive directory.
-
-    Returns
-    -------
-    dict
-        ``{"format": 1, "partition_by": [...], "batches": [{"token", "sha256", "source",
-        "rows", "rejected", "written_utc", "files"}, ...]}``; an empty skeleton when the
-        directory has no manifest yet.
-
-    Examples
-    --------
-    >>> import pathlib, tempfile
-    >>> spots = pd.DataFrame({
-    ...     "slot_utc": pd.to_datetime(["2024-03-01 23:58", "2024-03-02 00:00",
-    ...                                 "2024-03-02 00:02"], utc=True),
-    ...     "tx_call": ["Q1ABC"] * 3, "rx_call": ["Q2XY", "Q2XY", "Q3DEF"],
-    ...     "band": ["20m", "20m", "40m"], "snr_db": [-12.0, -15.0, -20.0]})
-    >>> with tempfile.TemporaryDirectory() as d:
-    ...     empty = dataset_manifest(d)
-    ...     _ = append_to_dataset(spots, pathlib.Path(d) / "archive", source="march.csv")
-    ...     manifest = dataset_manifest(pathlib.Path(d) / "archive")
-    >>> empty
-    {'format': 1, 'partition_by': ['band', 'day'], 'batches': []}
-    >>> [(b["source"], b["rows"]) for b in manifest["batches"]]
-    [('march.csv', 3)]
-    """
-    root = Path(root)
-    mpath = root / MANIFEST_NAME
-    if not mpath.exists():
-        return {"format": _FORMAT_VERSION, "partition_by": list(PARTITION_KEYS), "batches": []}
-    try:
-        return json.loads(mpath.read_text())
-    except (json.JSONDecodeError, UnicodeDecodeError) as exc:
-        raise InputError(f"{mpath}: archive manifest is not valid JSON ({exc})") from None
-
-
-def _write_manifest(root: Path, manifest: dict) -> None:
-    tmp = root / (MANIFEST_NAME + ".tmp")
-    tmp.write_text(json.dumps(manifest, indent=1, sort_keys=True))
-    os.replace(tmp, root / MANIFEST_NAME)
-
-
-def file_sha256(path, *, block_bytes: int = 1 << 22) -> str:
-    """SHA-256 of a file's bytes (hex), read in blocks of ``block_bytes`` [bytes].
-
-    Examples
-    --------
-    The SHA-256 of ``abc`` is the first test vector of FIPS 180-2:
-
-    >>> import pathlib, tempfile
-    >>> with tempfile.TemporaryDirectory() as d:
-    ...     path = pathlib.Path(d) / "abc.txt"
-    ...     _ = path.write_bytes(b"abc")
-    ...     print(file_sha256(path, block_bytes=2))
-    ba7816bf8f01cfea414140de5dae2223b00361a396177a9cb410ff61f20015ad
-    """
-    h = hashlib.sha256()
-    with open(path, "rb") as fh:
-        while True:
-            block = fh.read(block_bytes)
-            if not block:
-                break
-            h.update(block)
-    return h.hexdigest()
-
-
-def _check_new_hash(root: Path, manifest: dict, source_hash: str | None, source: str) -> None:
-    if source_hash is None:
-        return
-    for batch in manifest["batches"]:
-        if batch.get("sha256") == source_hash:
-            raise InputError(
-                f"{source}: already in the archive {root} (same SHA-256 {source_hash[:12]}..., "
-                f"appended {batch.get('written_utc')} from {batch.get('source')}); not appended "
-                "again")
+        return None, partition_by
+    missing = [f for f in files if not (root / f).is_file()]
+    if missing:
+        raise InputError(f"{root}: the manifest lists {len(missing)} file(s) that are not on "
+                         f"disk, e.g. {missing[0]} (see 'spotkit archive info {root}')")
+    dataset = ds.dataset([str(root / f) for f in files], format="parquet",
+                         partitioning=_partitioning(partition_by), partition_base_dir=str(root))
+    return dataset, partition_by
 
 
 def _with_day(table: pa.Table) -> pa.Table:
@@ -304,18 +240,20 @@ def _to_arrow(df: pd.DataFrame) -> pa.Table:
 
 
 class _Appender:
-    """Writes spot tables into ``<root>/_staging-<token>/`` split by partition - one row group
-    per written piece - and moves the files into the archive on :meth:`commit`. A partition's
-    file stays open only while the pieces written keep reaching it: a partition that a piece
-    does not reach is closed, and a later piece for it opens a new file (``part-<token>-<n>``).
-    Memory: the table being written plus the writers of the partitions it reaches, however
-    many partitions the input spans."""
+    """Writes spot tables into the staging folder ``<root>/_staging-<token>/`` split by
+    partition - one row group per written piece; :meth:`move_into_place` moves the files to
+    their final names (under the archive lock, just before the manifest commits them). A
+    partition's file stays open only while the pieces written keep reaching it: a partition
+    that a piece does not reach is closed, and a later piece for it opens a new file
+    (``part-<token>-<n>``). Memory: the table being written plus the writers of the
+    partitions it reaches, however many partitions the input spans."""
 
-    def __init__(self, root: Path, partition_by: Sequence[str], token: str):
+    def __init__(self, root: Path, partition_by: Sequence[str], token: str | None = None):
         self.root = root
         self.partition_by = list(partition_by)
-        self.token = token
-        self.staging = root / f"{_STAGING_PREFIX}{token}"
+        self.token = token or new_token()
+        self.stage = StagingArea(root, self.token)
+        self.staging = self.stage.path
         self.rows = 0
         self.writers: dict[tuple, pq.ParquetWriter] = {}
         self.files: list[str] = []
@@ -363,28 +301,87 @@ class _Appender:
         for key in [k for k in self.writers if k not in reached]:
             self.writers.pop(key).close()
         self.rows += table.num_rows
+        fault_point("write")
 
     def close(self) -> None:
+        """Close the open writers and flush every staged file to the disk."""
         for w in self.writers.values():
             w.close()
         self.writers = {}
+        for rel in self.files:
+            fsync_file(self.staging / rel)
 
-    def commit(self) -> list[str]:
-        self.close()
-        moved = []
+    def move_into_place(self) -> list[str]:
+        """Move the staged files to their final names; the caller holds the archive lock
+        and commits them in the manifest next. Returns their relative paths."""
+        moved, folders = [], set()
         for rel in sorted(self.files):
             dst = self.root / rel
             dst.parent.mkdir(parents=True, exist_ok=True)
             os.replace(self.staging / rel, dst)
+            folders.add(dst.parent)
             moved.append(rel)
-        shutil.rmtree(self.staging, ignore_errors=True)
+            fault_point("moved")
+        for folder in sorted(folders):
+            fsync_dir(folder)
         return moved
+
+    def finish(self) -> None:
+        """Remove the (now empty) staging folder and its lock."""
+        self.stage.remove()
 
     def abort(self) -> None:
         try:
-            self.close()
+            for w in self.writers.values():
+                with contextlib.suppress(Exception):
+                    w.close()
+            self.writers = {}
         finally:
-            shutil.rmtree(self.staging, ignore_errors=True)
+            self.stage.remove()
+
+
+def _commit(root: Path, partition_by: Sequence[str], staged: list[tuple[_Appender, dict]],
+            *, lock_timeout: float | None = None) -> list[dict]:
+    """Make staged appends visible: the commit protocol of :mod:`spotkit.io.manifest`.
+
+    ``staged`` pairs each closed appender with its manifest entry (``sha256``,
+    ``content_sha256``, ``source``, ``rejects`` ...; ``files`` and ``rows`` are filled in
+    here). Under the archive lock: leftovers of dead appends are rolled back, the manifest
+    is read again and every entry's hashes checked against it, the files are moved into
+    place and one atomic manifest update commits them all. On any error before that update
+    the moved files are removed again and the archive is as it was. The staging folders
+    are removed in every case.
+    """
+    fault_point("staged")
+    try:
+        with archive_lock(root, timeout=lock_timeout):
+            fault_point("locked")
+            manifest = _manifest_for_append(root, partition_by)
+            for _app, entry in staged:
+                check_not_taken(manifest, entry.get("source") or "input", entry.get("sha256"),
+                                entry.get("content_sha256"), root)
+            new = {**manifest, "batches": list(manifest["batches"])}
+            try:
+                for app, entry in staged:
+                    entry["files"] = app.move_into_place()
+                    entry["rows"] = app.rows
+                    if entry.get("rejects"):
+                        (root / REJECTS_DIR).mkdir(exist_ok=True)
+                        os.replace(app.staging / entry["rejects"], root / entry["rejects"])
+                        fsync_dir(root / REJECTS_DIR)
+                    entry["written_utc"] = _now()
+                    new["batches"].append(entry)
+                write_manifest(root, new)
+            except BaseException:
+                # what is on disk is the truth: remove whatever it does not commit
+                with contextlib.suppress(Exception):
+                    roll_back_leftovers(root, dataset_manifest(root))
+                raise
+            fault_point("committed")
+    finally:
+        for app, _entry in staged:
+            app.finish()
+    return [entry for _app, entry in staged]
 
 
 def _day_of(table: pa.Table) -> pa.ChunkedArray:
@@ -399,7 +396,8 @@ def _format_key(key: str, value) -> str:
 
 
 def append_to_dataset(df: pd.DataFrame, root, *, partition_by: Sequence[str] = PARTITION_KEYS,
-                      source_hash: str | None = None, source: str | None = None) -> dict:
+                      source_hash: str | None = None, source: str | None = None,
+                      lock_timeout: float | None = None) -> dict:
     """Append a spot table to a partitioned archive, without rewriting existing files.
 
     Parameters
@@ -417,6 +415,9 @@ def append_to_dataset(df: pd.DataFrame, root, *, partition_by: Sequence[str] = P
         append is refused with :class:`~spotkit.errors.InputError`.
     source : str, optional
         Name of the input, recorded in the manifest.
+    lock_timeout : float, optional
+        Seconds to wait while another process commits to the archive [s] (default
+        :data:`spotkit.io.manifest.LOCK_TIMEOUT_S`); then :class:`~spotkit.errors.UsageError`.
 
     Returns
     -------
@@ -446,21 +447,18 @@ def append_to_dataset(df: pd.DataFrame, root, *, partition_by: Sequence[str] = P
     (3, ['band=20m/day=2024-03-01', 'band=20m/day=2024-03-02', 'band=40m/day=2024-03-02'])
     """
     root = Path(root)
-    manifest = _prepare_root(root, partition_by)
-    _check_new_hash(root, manifest, source_hash, source or "input")
+    _open_for_append(root, partition_by, lock_timeout=lock_timeout)
+    check_not_taken(dataset_manifest(root), source or "input", source_hash, None, root)
     _check_partition_columns(df.columns, partition_by)
-    token = uuid.uuid4().hex[:12]
-    app = _Appender(root, partition_by, token)
+    app = _Appender(root, partition_by)
+    entry = {"token": app.token, "sha256": source_hash, "source": source, "rejected": None}
     try:
         app.write(_to_arrow(C.apply_dtypes(df)))
-        files = app.commit()
+        app.close()
     except BaseException:
         app.abort()
         raise
-    entry = {"token": token, "sha256": source_hash, "source": source, "rows": app.rows,
-             "rejected": None, "written_utc": _now(), "files": files}
-    manifest["batches"].append(entry)
-    _write_manifest(root, manifest)
+    (entry,) = _commit(root, partition_by, [(app, entry)], lock_timeout=lock_timeout)
     return entry
 
 
@@ -468,22 +466,38 @@ def _now() -> str:
     return _dt.datetime.now(_dt.UTC).isoformat(timespec="seconds")
 
 
-def _prepare_root(root: Path, partition_by: Sequence[str]) -> dict:
+def _manifest_for_append(root: Path, partition_by: Sequence[str]) -> dict:
+    """The manifest, checked for ``partition_by``, after rolling back dead appends' leftovers;
+    a new archive gets an empty manifest. The caller holds the archive lock."""
+    if not (root / MANIFEST_NAME).exists():
+        stray = sorted(p.name for p in root.iterdir() if not p.name.startswith(("_", ".")))
+        if stray:
+            raise UsageError(f"{root}: not empty and not a spotkit archive (found {stray[0]})")
+        manifest = empty_manifest(partition_by)
+        write_manifest(root, manifest)
+    manifest = dataset_manifest(root)
+    if list(manifest["partition_by"]) != list(partition_by):
+        raise UsageError(f"{root}: archive is partitioned by {','.join(manifest['partition_by'])}, "
+                         f"not {','.join(partition_by)}")
+    roll_back_leftovers(root, manifest)
+    return manifest
+
+
+def _open_for_append(root: Path, partition_by: Sequence[str], *,
+                     lock_timeout: float | None = None) -> dict:
+    """Check the partition keys, create the archive if needed (an empty manifest marks it as
+    one from the start) and roll back what dead appends left, under the lock."""
+    if not partition_by:
+        raise UsageError(f"partition_by: give at least one key from {', '.join(PARTITION_KEYS)}")
     for key in partition_by:
         check_choice(key, PARTITION_KEYS, "partition key")
+    if len(set(partition_by)) != len(partition_by):
+        raise UsageError(f"partition keys repeat: {', '.join(partition_by)}")
     if root.exists() and not root.is_dir():
         raise UsageError(f"{root}: exists and is not a directory")
     root.mkdir(parents=True, exist_ok=True)
-    manifest = dataset_manifest(root)
-    if not (root / MANIFEST_NAME).exists():
-        stray = [p for p in root.iterdir() if not p.name.startswith(("_", "."))]
-        if stray:
-            raise UsageError(f"{root}: not empty and not a spotkit archive (found {stray[0].name})")
-        manifest["partition_by"] = list(partition_by)
-    elif list(manifest["partition_by"]) != list(partition_by):
-        raise UsageError(f"{root}: archive is partitioned by {','.join(manifest['partition_by'])}, "
-                         f"not {','.join(partition_by)}")
-    return manifest
+    with archive_lock(root, timeout=lock_timeout):
+        return _manifest_for_append(root, partition_by)
 
 
 def _check_partition_columns(names, partition_by) -> None:
@@ -616,8 +630,7 @@ def read_dataset(root, *, bands=None, start=None, end=None, tx_calls=None, rx_ca
     root = Path(root)
     if not root.is_dir():
         raise FileNotFoundError(f"{root}: no such archive directory")
-    dataset = _open_dataset(root)
-    partition_by = dataset_manifest(root).get("partition_by", list(PARTITION_KEYS))
+    dataset, partition_by = _open_dataset(root)
     expr = dataset_filter(bands=bands, start=start, end=end, tx_calls=tx_calls,
                           rx_calls=rx_calls, locator_prefix=locator_prefix,
                           partition_by=partition_by)
@@ -665,10 +678,9 @@ def archive_files(root, *, bands=None, start=None, end=None, tx_calls=None, rx_c
     root = Path(root)
     if not root.is_dir():
         raise FileNotFoundError(f"{root}: no such archive directory")
-    dataset = _open_dataset(root)
+    dataset, partition_by = _open_dataset(root)
     if dataset is None:
         return []
-    partition_by = dataset_manifest(root).get("partition_by", list(PARTITION_KEYS))
     expr = dataset_filter(bands=bands, start=start, end=end, partition_by=partition_by)
     parts = dataset.get_fragments(filter=expr) if expr is not None else dataset.get_fragments()
     return sorted(Path(f.path).relative_to(root).as_posix() for f in parts)
@@ -813,8 +825,8 @@ def normalise_categories(s: pd.Series, *, band: bool) -> pd.Series:
 
 
 __all__ = [
-    "DAY", "PARTITION_KEYS", "MANIFEST_NAME", "REJECTS_DIR", "ROW_GROUP_ROWS",
+    "DAY", "PARTITION_KEYS", "ROW_GROUP_ROWS",
     "write_spots", "read_spots_parquet", "append_to_dataset", "read_dataset",
-    "dataset_manifest", "dataset_filter", "file_sha256", "table_to_spots", "archive_files",
-    "read_archive_file", "normalise_categories",
+    "dataset_filter", "table_to_spots", "archive_files", "read_archive_file",
+    "normalise_categories",
 ]

@@ -108,13 +108,12 @@ def test_usage_errors(argv, message, to_file, to_archive, capsys):
     assert not to_file and not to_archive
 
 
-def test_archive_branch_names_a_bad_partition(monkeypatch, capsys):
-    def fake(files, dataset, **kw):
-        raise ValueError("no such key 'hour'")  # a plain ValueError from the library
-
-    monkeypatch.setattr("spotkit.io.archive.ingest_to_dataset", fake)
+def test_archive_branch_names_a_bad_partition(to_archive, capsys):
+    # checked before the library is called; other errors of the library keep their own
+    # names (tests/cli/test_archive_command.py)
     assert main(["ingest", "a.csv", "--dataset", "arch", "--partition", "hour"]) == 2
-    assert capsys.readouterr().err == "spotkit: --partition: no such key 'hour'\n"
+    assert capsys.readouterr().err == "spotkit: unknown --partition key 'hour'; valid: band, day\n"
+    assert not to_archive
 
 
 # --- the outputs of -o (real runs) ---------------------------------------------------------------
