@@ -177,12 +177,6 @@ OWNED_ELSEWHERE: dict[tuple[str, str], str] = {
        for o in ("--power-a", "--power-b", "--threshold", "--tx-fraction", "--duplicates")},
     # tracebacks: NaN/inf days
     **{("plan schedule", f"--days={v}"): _PLAN for v in ("nan", "inf")},
-    # messages name the library's argument (effect_db, alpha...), not the option;
-    # --pairs-per-hour inf divides by zero; --seed -1 is a traceback
-    **{("plan duration", f"{o}={v}"): _PLAN for v in ("nan", "inf")
-       for o in ("--effect", "--alpha", "--power", "--sigma", "--pairs-per-hour", "--icc",
-                 "--receivers", "--censored")},
-    ("plan duration", "--seed=-1"): _PLAN,
     **{("plan audit", f"{o}={v}"): _PLAN for v in ("nan", "inf")
        for o in ("--power-a", "--power-b")},
     # --seed -1 is a traceback; the messages name confidence / day_hours, not the options
