@@ -238,10 +238,10 @@ def locators_from_data(applies: bool = True):
         raise InputError(str(exc)) from exc
 
 
-def check_output(path, option: str, suffixes: tuple[str, ...] = ()) -> Path:
+def check_output(path, option: str, suffixes: tuple[str, ...] = (), inputs=()) -> Path:
     """Check an output path before any work is done; a :class:`UsageError` (exit 2) naming
     ``option`` when it cannot be written: a wrong suffix, a folder, a folder that does not
-    exist or that cannot be written in.
+    exist or that cannot be written in, or a file that is one of the run's inputs.
 
     Parameters
     ----------
@@ -250,14 +250,26 @@ def check_output(path, option: str, suffixes: tuple[str, ...] = ()) -> Path:
         The option that gave it (``"-o"``, ``"--json"``), for the message.
     suffixes : tuple of str
         Allowed suffixes in lower case (``(".png", ".svg")``); empty: any.
+    inputs : sequence of str or path-like
+        The run's input files (None entries skipped): an output that is one of them, by any
+        name or link, is refused so that no run can overwrite what it reads.
 
     Returns
     -------
     pathlib.Path
     """
+    from spotkit.io.atomic import check_outputs
+
     out = Path(path)
     if suffixes and out.suffix.lower() not in suffixes:
         raise UsageError(f"{option} must end in {' or '.join(suffixes)}, got {str(path)!r}")
+    existing = [i for i in inputs if i is not None and Path(i).is_file()]
+    try:
+        check_outputs([out], existing)
+    except UsageError as exc:
+        if "also an input" in str(exc):
+            raise UsageError(f"{option} {path}: is also an input file; choose another "
+                             "name") from None
     if out.is_dir():
         raise UsageError(f"{option} {path}: is a folder; give a file name in it")
     folder = out.parent

@@ -75,6 +75,25 @@ def _archive_bands(args):
     return [b.strip() for item in args.band for b in item.split(",") if b.strip()]
 
 
+def _check_outputs(args) -> None:
+    """Refuse, before any work, an output inside the archive (it could replace the manifest
+    or a data file) or one that is the schedule file the run reads."""
+    from pathlib import Path
+
+    from spotkit.cli._common import check_output
+
+    root = Path(args.dataset).resolve()
+    for option in ("output", "json", "csv"):
+        path = getattr(args, option, None)
+        if not path:
+            continue
+        flag = "-o" if option == "output" else f"--{option}"
+        if root in Path(path).resolve().parents:
+            raise UsageError(f"{flag} {path}: is inside the archive {args.dataset}; write it "
+                             "elsewhere")
+        check_output(path, flag, inputs=(getattr(args, "schedule", None),))
+
+
 def cmd_archive(args) -> int:
     from spotkit import distributed
     from spotkit.io import store
@@ -102,6 +121,7 @@ def cmd_archive(args) -> int:
               + "".join(f"\n  {r}" for r in removed))
         print(manifest.check_archive(args.dataset).text())
         return EXIT_OK
+    _check_outputs(args)
     selection = dict(bands=_archive_bands(args), start=args.start, end=args.end)
     if action == "coverage":
         by = [k for k in args.by.replace(" ", "").split(",") if k]

@@ -42,9 +42,14 @@ def cmd_compare(args) -> int:
 
     by = by_keys(args.by)
     kw = compare_kwargs(args)
+    inputs = (args.spots, args.schedule)
     for option, path in (("--json", args.json), ("--csv", args.csv)):
         if path:
-            check_output(path, option)
+            check_output(path, option, inputs=inputs)
+    if args.json and args.csv:
+        from spotkit.io.atomic import check_outputs
+
+        check_outputs([args.json, args.csv])
     spots = load_spots(args.spots)
     result = compare_antennas(spots, args.design, args.a, args.b, by=by,
                               progress=progress(args), **kw)
@@ -75,7 +80,7 @@ def cmd_report(args) -> int:
     from spotkit.report import standard_comparisons, write_report
 
     by = by_keys(args.by)
-    check_output(args.output, "-o")
+    check_output(args.output, "-o", inputs=(args.spots, args.schedule))
     spots = load_spots(args.spots)
     show_progress = progress(args)
     results, map_result = standard_comparisons(

@@ -79,7 +79,7 @@ def cmd_map(args) -> int:
     from spotkit.io.ingest import load_spots
     from spotkit.viz import maps
 
-    check_output(args.output, "-o", (".png", ".svg"))  # before the work, not after
+    check_output(args.output, "-o", (".png", ".svg"), inputs=(args.spots,))  # before work
     spots = load_spots(args.spots)
     bands = _figure_bands(args)
     common = dict(home=args.home, projection=args.projection, resolution=args.resolution,
@@ -119,7 +119,7 @@ def cmd_plot(args) -> int:
     from spotkit.io.ingest import load_spots
     from spotkit.viz import plots
 
-    check_output(args.output, "-o", (".png", ".svg"))  # before the work, not after
+    check_output(args.output, "-o", (".png", ".svg"), inputs=(args.spots,))  # before work
     spots = load_spots(args.spots)
     bands = _figure_bands(args)
     if args.kind in ("bearing", "distance", "elevation", "hour"):

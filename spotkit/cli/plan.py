@@ -9,7 +9,7 @@ import math
 import sys
 from pathlib import Path
 
-from spotkit.cli._common import EXIT_OK, Parser
+from spotkit.cli._common import EXIT_OK, Parser, check_output
 from spotkit.errors import UsageError
 
 #: what each design means, as the planner states it
@@ -195,8 +195,13 @@ def cmd_plan(args) -> int:
               f"number of slots in every hour and band ({text} each per hour)")
         return EXIT_OK
     if action == "audit":
+        from spotkit.io.atomic import check_outputs
         from spotkit.io.ingest import load_spots
 
+        for option, path in (("--csv", args.csv), ("--corrected", args.corrected)):
+            if path:
+                check_output(path, option, inputs=(args.spots, args.schedule))
+        check_outputs([args.csv, args.corrected])
         spots = load_spots(args.spots)
         res = audit.audit_schedule(spots, args.schedule, args.call,
                                    marker="none" if args.no_markers else "power",
@@ -214,6 +219,9 @@ def cmd_plan(args) -> int:
 
     hours = parse_hours(args.hours)
     _check_duration_args(args)
+    for option, path in (("--csv", args.csv), ("--plot", args.plot)):
+        if path:
+            check_output(path, option, inputs=(args.pilot, args.schedule))
     manual = args.sigma is not None or args.pairs_per_hour is not None
     pilot = None
     if manual:
