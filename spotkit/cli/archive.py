@@ -7,7 +7,15 @@ A thin layer over :mod:`spotkit.io.store`, :mod:`spotkit.io.manifest` and
 """
 from __future__ import annotations
 
-from spotkit.cli._common import DESIGNS, EXIT_OK, Parser, write_result
+from spotkit.cli._common import (
+    DESIGNS,
+    EXIT_OK,
+    Parser,
+    confidence_level,
+    int_at_least,
+    positive_float,
+    write_result,
+)
 from spotkit.errors import UsageError
 
 
@@ -56,14 +64,14 @@ def add_archive(sub) -> None:
     cmp.add_argument("--schedule", metavar="even-odd|odd-even|every-N|FILE")
     cmp.add_argument("--change-at", metavar="TIME")
     cmp.add_argument("--by", default="", metavar="KEY,KEY")
-    cmp.add_argument("--window", type=int, default=1, metavar="SLOTS")
-    cmp.add_argument("--boot", type=int, default=1000)
-    cmp.add_argument("--seed", type=int, default=0)
-    cmp.add_argument("--min-pairs", type=int, default=30)
-    cmp.add_argument("--confidence", type=float, default=0.95)
+    cmp.add_argument("--window", type=int_at_least(1), default=1, metavar="SLOTS")
+    cmp.add_argument("--boot", type=int_at_least(2), default=1000)
+    cmp.add_argument("--seed", type=int_at_least(0), default=0)
+    cmp.add_argument("--min-pairs", type=int_at_least(1), default=30)
+    cmp.add_argument("--confidence", type=confidence_level, default=0.95)
     cmp.add_argument("--missed-reports", choices=["fit", "none"], default="fit")
     cmp.add_argument("--threshold-correction", choices=["edge", "none"], default="none")
-    cmp.add_argument("--day-hours", type=float, default=24.0, metavar="HOURS")
+    cmp.add_argument("--day-hours", type=positive_float, default=24.0, metavar="HOURS")
     cmp.add_argument("--json", metavar="OUT.json")
     cmp.add_argument("--csv", metavar="OUT.csv")
     p.set_defaults(func=cmd_archive)

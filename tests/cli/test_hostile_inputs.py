@@ -162,7 +162,6 @@ FINE = {
 #: issue 14 owns; strict, so they fail loudly once fixed
 _SIM = "owned by sim (spotkit/cli/simulate.py, spotkit/sim)"
 _PLAN = "owned by plan (spotkit/cli/plan.py, spotkit/plan)"
-_ARCH = "owned by arch (spotkit/cli/archive.py)"
 _OUT = "owned by out (spotkit/cli/ingest.py)"
 OWNED_ELSEWHERE: dict[tuple[str, str], str] = {
     # a header and no data rows: exit 0 with an empty table (issue 14 item 2)
@@ -179,10 +178,6 @@ OWNED_ELSEWHERE: dict[tuple[str, str], str] = {
     **{("plan schedule", f"--days={v}"): _PLAN for v in ("nan", "inf")},
     **{("plan audit", f"{o}={v}"): _PLAN for v in ("nan", "inf")
        for o in ("--power-a", "--power-b")},
-    # --seed -1 is a traceback; the messages name confidence / day_hours, not the options
-    ("archive compare", "--seed=-1"): _ARCH,
-    **{("archive compare", f"{o}={v}"): _ARCH for v in ("nan", "inf")
-       for o in ("--confidence", "--day-hours")},
 }
 
 
