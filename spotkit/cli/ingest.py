@@ -17,7 +17,7 @@ from __future__ import annotations
 import signal
 import sys
 
-from spotkit.cli._common import EXIT_OK, add_progress_option, key_value, progress
+from spotkit.cli._common import EXIT_OK, add_progress_option, key_value, positive_float, progress
 from spotkit.errors import MostlyRejectedError, UsageError
 
 
@@ -56,7 +56,7 @@ def add_ingest(sub) -> None:
     p.add_argument("--partition", default="band,day", metavar="KEYS",
                    help="archive partition keys, from band and day (default band,day)")
     p.add_argument("--chunk-rows", type=int, metavar="N", help="read N rows at a time")
-    p.add_argument("--memory-mb", type=float, metavar="M",
+    p.add_argument("--memory-mb", type=positive_float, metavar="M",
                    help="keep memory under about M MiB (sets the chunk size)")
     add_progress_option(p)
     p.set_defaults(func=cmd_ingest)

@@ -285,8 +285,8 @@ def check_reject_share(summary: IngestSummary,
     Raises
     ------
     MostlyRejectedError
-        No row accepted from a non-empty input, a file whose every row was set aside, or a
-        reason with more than ``max_share`` of a file's rows; the message names the file,
+        No data row at all, no row accepted from a non-empty input, a file whose every row
+        was set aside, or a reason with more than ``max_share`` of a file's rows; the message names the file,
         the reason, its share and, where known, the likely fix (:func:`reject_hint`).
 
     Examples
@@ -311,6 +311,10 @@ time=COLUMN), its unit (--unit time=epoch or epoch-ms for numbers) or the order 
         raise MostlyRejectedError(text + (f"; {hint}" if hint else ""), summary)
 
     top = max(summary.rejected_by_reason.items(), key=lambda kv: kv[1], default=(None, 0))
+    if not summary.rows_read:
+        where = ", ".join(summary.files) if summary.files else "the input"
+        fail(f"{where}: no data rows to read (a heading at most); check that this is the "
+             "export you meant", None)
     if summary.rows_read and not summary.accepted:
         reasons = ", ".join(f"{k}: {v:,}" for k, v in sorted(
             summary.rejected_by_reason.items(), key=lambda kv: -kv[1]))

@@ -162,12 +162,7 @@ FINE = {
 #: issue 14 owns; strict, so they fail loudly once fixed
 _SIM = "owned by sim (spotkit/cli/simulate.py, spotkit/sim)"
 _PLAN = "owned by plan (spotkit/cli/plan.py, spotkit/plan)"
-_OUT = "owned by out (spotkit/cli/ingest.py)"
 OWNED_ELSEWHERE: dict[tuple[str, str], str] = {
-    # a header and no data rows: exit 0 with an empty table (issue 14 item 2)
-    ("ingest", "header-only csv"): _OUT,
-    # the message names memory_mb, not --memory-mb
-    **{("ingest", f"--memory-mb={v}"): _OUT for v in ("nan", "inf")},
     # tracebacks: NaN/inf days, a negative seed
     **{("simulate", o): _SIM for o in ("--days=nan", "--days=inf", "--seed=-1")},
     # --threshold nan/inf accepted (exit 0); the other messages name the library's argument

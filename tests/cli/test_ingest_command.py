@@ -290,3 +290,13 @@ def test_an_output_under_a_file_is_one_clear_error(export, capsys):
     assert main(["ingest", "export.csv", "-o", "export.csv/o.parquet", "--no-progress"]) == 1
     assert capsys.readouterr().err == (f"spotkit: error: cannot write in folder {export}: it "
                                        "is a file, not a folder\n")
+
+
+def test_a_file_with_a_heading_and_no_rows_fails_and_keeps_the_earlier_output(export, capsys):
+    assert main(["ingest", "export.csv", "-o", "o.parquet", "--no-progress"]) == 0
+    (export.parent / "empty.csv").write_text(HEAD)
+    before = _state(export.parent)
+    capsys.readouterr()
+    assert main(["ingest", "empty.csv", "-o", "o.parquet", "--no-progress"]) == 1
+    assert "empty.csv: no data rows to read" in capsys.readouterr().err
+    assert _state(export.parent) == before
