@@ -286,8 +286,9 @@ def check_reject_share(summary: IngestSummary,
     ------
     MostlyRejectedError
         No data row at all, no row accepted from a non-empty input, a file whose every row
-        was set aside, or a reason with more than ``max_share`` of a file's rows; the message names the file,
-        the reason, its share and, where known, the likely fix (:func:`reject_hint`).
+        was set aside, or a reason with more than ``max_share`` of a file's rows; the message
+        names the file, the reason, its share and, where known, the likely fix
+        (:func:`reject_hint`).
 
     Examples
     --------
