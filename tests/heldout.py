@@ -121,7 +121,8 @@ def generate(*, n_far: int = 600, n_slots: int = 240, bands=("20m", "10m"),
              design: str = "simultaneous", truth: pd.DataFrame | None = None,
              seed: int = 0, start="2026-03-01T00:00Z", report_step_db: float = 1.0,
              threshold_on: str = "rounded", detection_width_db: float = 0.0,
-             fading_df: float | None = None, threshold_sd_db: float = 0.0):
+             fading_df: float | None = None, threshold_sd_db: float = 0.0,
+             truth_only: bool = False):
     """Generate a canonical spot table and its truth.
 
     Parameters
@@ -158,10 +159,13 @@ def generate(*, n_far: int = 600, n_slots: int = 240, bands=("20m", "10m"),
         Student t fast fading with this many (> 2) degrees of freedom, same SD.
     threshold_sd_db : float
         SD of a normal offset added to each far station's threshold [dB].
+    truth_only : bool
+        Skip building the spot table (returned as None): for a large population whose
+        truth is all that is wanted.
 
     Returns
     -------
-    spots : pandas.DataFrame
+    spots : pandas.DataFrame or None
         Canonical enriched spot table.
     truth : pandas.DataFrame
         band, distance_min_km, distance_max_km, b_minus_a_db (mean true difference over
@@ -241,6 +245,13 @@ def generate(*, n_far: int = 600, n_slots: int = 240, bands=("20m", "10m"),
         ha, hb = sa >= t_rx, sb >= t_rx
     any_ = ha | hb
     pairs_truth = pd.DataFrame({BAND: band[any_], "_cell": cell[any_], "_delta": delta[any_]})
+    cells = pairs_truth.groupby([BAND, "_cell"]).agg(
+        **{TRUE: ("_delta", "mean"), "pairs": ("_delta", "size")}).reset_index()
+    cells[D_MIN] = edges[cells["_cell"].to_numpy()]
+    cells[D_MAX] = edges[cells["_cell"].to_numpy() + 1]
+    cells = cells.drop(columns="_cell")
+    if truth_only:
+        return None, cells
     # reports
     rows = []
     for heard, rep, call, pw in ((ha, ra, CALL_A, power_a_dbm),
@@ -269,8 +280,4 @@ def generate(*, n_far: int = 600, n_slots: int = 240, bands=("20m", "10m"),
     spots["source_file"] = "heldout"
     spots["source_row"] = np.arange(1, len(spots) + 1)
     spots = spots[list(CANONICAL_DTYPES)].astype(CANONICAL_DTYPES)
-    cells = pairs_truth.groupby([BAND, "_cell"]).agg(
-        **{TRUE: ("_delta", "mean"), "pairs": ("_delta", "size")}).reset_index()
-    cells[D_MIN] = edges[cells["_cell"].to_numpy()]
-    cells[D_MAX] = edges[cells["_cell"].to_numpy() + 1]
-    return spots, cells.drop(columns="_cell")
+    return spots, cells
