@@ -128,7 +128,8 @@ def generate(*, n_far: int = 600, n_slots: int = 240, bands=("20m", "10m"),
     Parameters
     ----------
     n_far, n_slots : int
-        Far stations and slots (every other 2-minute slot, bands in turn).
+        Far stations (at most 17,000: calls Q7 plus three letters) and slots (every other
+        2-minute slot, bands in turn).
     bands : sequence of str
         Bands (``default_truth`` knows 20m, 10m and 40m).
     power_a_dbm, power_b_dbm : float
@@ -173,6 +174,8 @@ def generate(*, n_far: int = 600, n_slots: int = 240, bands=("20m", "10m"),
     """
     if threshold_on not in ("rounded", "raw"):
         raise ValueError(f"threshold_on must be 'rounded' or 'raw', not {threshold_on!r}")
+    if not 0 < n_far <= 17000:
+        raise ValueError(f"n_far must be 1 to 17,000, not {n_far}")
     if fading_df is not None and not fading_df > 2:
         raise ValueError("fading_df must be above 2")
     rng = np.random.default_rng(seed)
