@@ -37,6 +37,24 @@ def add_simulate(sub) -> None:
     p.add_argument("--threshold", type=float, help="every receiver's decode threshold, dB "
                    "(default: -28 for most, some -30)")
     p.add_argument("--tx-fraction", type=float, help="fraction of slots on the air")
+    g = p.add_argument_group(
+        "decoder and station regimes", "all off by default (hard threshold on the whole-dB "
+        "report, normal fading, one B-A per path from the antenna patterns)")
+    g.add_argument("--detection-width", type=float, default=0.0, metavar="DB",
+                   help="soft detection curve: a report exists with probability "
+                   "Phi((snr - threshold) / DB); 0 = hard threshold (default 0)")
+    g.add_argument("--threshold-on", default="rounded", choices=["rounded", "raw"],
+                   help="decide on the whole-dB report or on the raw SNR before rounding "
+                   "(default rounded)")
+    g.add_argument("--fading-df", type=float, metavar="DF",
+                   help="heavy-tailed fast fading: Student t with DF (> 2) degrees of "
+                   "freedom, same SD (default: normal)")
+    g.add_argument("--threshold-spread", type=float, default=0.0, metavar="DB",
+                   help="SD of a normal offset added to each far receiver's threshold "
+                   "(default 0)")
+    g.add_argument("--difference-spread", type=float, default=0.0, metavar="DB",
+                   help="SD of a random B-A offset per far station, part of the truth "
+                   "(default 0)")
     p.add_argument("--home", default="JN58td", metavar="LOCATOR", help="home locator")
     p.add_argument("--start", default="2026-03-02", help="first day (UTC)")
     p.add_argument("--schedule", default="even-odd",
@@ -78,13 +96,21 @@ def cmd_simulate(args) -> int:
 
         # B = A + diff; A is isotropic unless --antenna-a was given
         antenna_a = make_antenna(args.antenna_a or "isotropic", bands)
+    propagation = None
+    if args.fading_df is not None:
+        from spotkit.sim.simulate import Propagation
+
+        propagation = Propagation(fast_fading_df=args.fading_df)
     sim = simulate_spots(
         args.design, days=args.days, seed=args.seed, start=args.start,
         bands=bands, n_receivers=args.receivers, n_transmitters=args.transmitters,
         home_locator=args.home, antenna_a=antenna_a, antenna_b=args.antenna_b,
         difference_db=diff, power_a_dbm=args.power_a, power_b_dbm=args.power_b,
         tx_fraction=args.tx_fraction, threshold_db=args.threshold, schedule=args.schedule,
-        change_at=args.change_at, progress=progress(args))
+        change_at=args.change_at, propagation=propagation,
+        detection_width_db=args.detection_width, threshold_on=args.threshold_on,
+        threshold_sd_db=args.threshold_spread, difference_sd_db=args.difference_spread,
+        progress=progress(args))
     out = Path(args.output)
     mapping, units = write_foreign_csv(sim.spots, out, args.layout,
                                        duplicates=args.duplicates, corrupt=args.corrupt,

@@ -24,8 +24,10 @@ from spotkit.sim.simulate import (
     DEMO_CALL,
     DEMO_LOCATOR,
     DESIGNS,
+    THRESHOLD_ON,
     Propagation,
     Simulation,
+    decode,
     make_demo_data,
     simulate_spots,
 )
@@ -45,6 +47,7 @@ __all__ = [
     "fresnel_reflection", "quarter_wave_vertical_gain", "horizontal_dipole_gain",
     "GainTable", "Antenna", "isotropic_antenna", "vertical_antenna", "dipole_antenna",
     "constant_difference", "make_antenna", "LAYOUTS", "write_foreign_csv",
-    "DEFAULT_DISTANCE_EDGES", "TRUTH_COLUMNS", "Truth", "DESIGNS", "Propagation",
+    "DEFAULT_DISTANCE_EDGES", "TRUTH_COLUMNS", "Truth", "DESIGNS", "THRESHOLD_ON", "decode",
+    "Propagation",
     "Simulation", "simulate_spots", "DEMO_CALL", "DEMO_LOCATOR", "make_demo_data",
 ]

@@ -19,6 +19,17 @@ Model (each part a parameter; defaults in :class:`Propagation`):
   of a path comes from the mirror hop geometry (:func:`spotkit.geo.geodesic.elevation_angle`).
   ``SNR = P - 30 + G_tx + G_rx + level - noise + fading``; the report is the SNR rounded to
   whole dB, kept only if at or above the receiver's threshold.
+* Decoder and station regimes (all off by default, which keeps the behaviour above):
+  a *soft detection curve* - a report exists with probability ``Phi((s - t50) / w)``
+  (``detection_width_db`` w; the receiver's threshold is its 50 % point t50); the decision
+  taken on the *raw* SNR before rounding to whole dB (``threshold_on="raw"``) instead of on
+  the rounded report; *heavy-tailed fast fading*, Student t with
+  ``Propagation.fast_fading_df`` degrees of freedom scaled to the same standard deviation;
+  receiver thresholds that differ (``threshold_sd_db``, normal, added to each far
+  receiver's threshold); and a *receiver-level spread of B-A* (``difference_sd_db``: a
+  normal random effect per far station, added to B's gain towards it on every band).
+  B-A also depends on the path through the two antennas' patterns (elevation and bearing),
+  so with the default antennas no two receivers share the same true difference.
 * Designs: ``"simultaneous"`` (two calls, same slot), ``"alternating"`` (one call, antenna
   by schedule), ``"receive"`` (two co-located receivers hearing a population of
   transmitters), ``"before-after"`` (one call whose antenna changes at ``change_at``, with
@@ -57,6 +68,7 @@ from typing import Literal
 import numpy as np
 import pandas as pd
 from scipy.signal import lfilter
+from scipy.special import ndtr
 from tqdm.auto import tqdm
 
 from spotkit import columns as C
@@ -79,6 +91,9 @@ from spotkit.units import POWER_LADDER_DBM
 
 Design = Literal["simultaneous", "alternating", "receive", "before-after"]
 DESIGNS = ("simultaneous", "alternating", "receive", "before-after")
+ThresholdOn = Literal["rounded", "raw"]
+#: What the decode decision is taken on: the whole-dB report or the raw SNR.
+THRESHOLD_ON = ("rounded", "raw")
 
 # band -> (SNR at 1 W, 1000 km, isotropic [dB]; open logit at night; open logit by day;
 #          skip distance [km]) - invented, loosely after common practice on each band
@@ -131,6 +146,9 @@ class Propagation:
         Range of the far receivers' uptime (probability of being on in an hour).
     locator4_fraction : float
         Fraction of far stations giving a 4-character locator.
+    fast_fading_df : float, optional
+        Degrees of freedom (> 2) of a Student t fast fading, scaled so that its standard
+        deviation is ``sigma_fast_db``; None (default): normal fast fading.
     """
 
     layer_height_km: float = 300.0
@@ -149,6 +167,7 @@ class Propagation:
     listen_fraction: float = 0.6
     uptime_range: tuple = (0.5, 1.0)
     locator4_fraction: float = 0.15
+    fast_fading_df: float | None = None
 
 
 @dataclass
@@ -232,6 +251,50 @@ def _ar1(shape_cols, n, rho, rng, state):
     return y, y[-1]
 
 
+def _fast_fading(shape, df, rng):
+    """Unit-SD fast fading: standard normal, or Student t with ``df`` (> 2) scaled to SD 1."""
+    if df is None:
+        return rng.standard_normal(shape)
+    return rng.standard_t(df, shape) * math.sqrt((df - 2.0) / df)
+
+
+def decode(snr_db, threshold_db, width_db: float = 0.0, rng=None):
+    """Which reports a decoder delivers: a hard threshold or a soft detection curve.
+
+    Parameters
+    ----------
+    snr_db : array-like
+        SNR the decision is taken on (raw, or the whole-dB report) [dB].
+    threshold_db : array-like
+        Threshold, broadcast against ``snr_db``: the 50 % point t50 of the curve [dB].
+    width_db : float
+        Width w of the curve [dB]: P(decoded | s) = Phi((s - t50) / w); 0: hard threshold,
+        decoded exactly when ``s >= t50``.
+    rng : numpy.random.Generator, optional
+        Generator for the soft curve's draws (needed when ``width_db > 0``).
+
+    Returns
+    -------
+    numpy.ndarray of bool
+
+    Examples
+    --------
+    >>> decode([-29.0, -28.0, -27.0], -28.0).tolist()
+    [False, True, True]
+    >>> ok = decode(np.full(100_000, -27.0), -28.0, 1.0, np.random.default_rng(0))
+    >>> round(float(ok.mean()), 2)  # Phi(1) = 0.841
+    0.84
+    """
+    s = np.asarray(snr_db, float)
+    t = np.asarray(threshold_db, float)
+    if width_db <= 0:
+        return s >= t
+    if rng is None:
+        raise UsageError("a soft detection curve (width_db > 0) needs a random generator")
+    p = ndtr((s - t) / float(width_db))
+    return rng.random(p.shape) < p
+
+
 def _day_weight(local_hour):
     """Smooth day (1) / night (0) weight of local mean solar time [h]."""
     return 0.5 * (1.0 + np.tanh(2.5 * np.cos(2.0 * np.pi * (local_hour - 12.5) / 24.0)))
@@ -248,6 +311,9 @@ def simulate_spots(design: Design = "simultaneous", *, days: float = 3, seed: in
                    control_tx_fraction: float = 0.3, threshold_db: float | None = None,
                    schedule="even-odd", change_at=None,
                    propagation: Propagation | None = None,
+                   detection_width_db: float = 0.0,
+                   threshold_on: ThresholdOn = "rounded",
+                   threshold_sd_db: float = 0.0, difference_sd_db: float = 0.0,
                    progress: bool = False) -> Simulation:
     """Simulate the spot reports of an antenna experiment with a known answer.
 
@@ -299,7 +365,23 @@ def simulate_spots(design: Design = "simultaneous", *, days: float = 3, seed: in
     change_at : str or Timestamp, optional
         Before-after design: moment of the change (UTC); default the middle day's 00:00.
     propagation : Propagation, optional
-        Model parameters.
+        Model parameters (``Propagation(fast_fading_df=3)``: heavy-tailed fast fading).
+    detection_width_db : float
+        Width w of the soft detection curve [dB]: a report exists with probability
+        ``Phi((s - t50) / w)``, s being the SNR the decision is taken on and t50 the
+        receiver's threshold (its 50 % point). 0 (default): a hard threshold, decoded
+        exactly when ``s >= t50``.
+    threshold_on : {"rounded", "raw"}
+        Whether the decision uses the report rounded to whole dB (default) or the raw SNR
+        before rounding (what a decoder does; the report is rounded afterwards).
+    threshold_sd_db : float
+        Spread (SD) of a normal offset added to each far receiver's threshold [dB], so that
+        thresholds differ continuously (transmit designs; the home receivers of the receive
+        design keep one threshold). Default 0.
+    difference_sd_db : float
+        Spread (SD) of a normal random effect per far station added to B's gain towards it
+        (transmit designs) or from it (receive design) on every band [dB]; it is part of
+        the true B-A in :attr:`Simulation.truth`. Default 0.
     progress : bool
         Show a progress bar (per band, over the simulated days).
 
@@ -315,8 +397,20 @@ def simulate_spots(design: Design = "simultaneous", *, days: float = 3, seed: in
         Inconsistent arguments (power not on the ladder, unknown band, ...).
     """
     check_choice(design, DESIGNS, "design")
+    check_choice(threshold_on, THRESHOLD_ON, "threshold_on")
     prop = propagation or Propagation()
+    for value, what in ((detection_width_db, "detection_width_db"),
+                        (threshold_sd_db, "threshold_sd_db"),
+                        (difference_sd_db, "difference_sd_db")):
+        if not (np.isfinite(value) and value >= 0):
+            raise UsageError(f"{what} must be a finite number >= 0 dB, got {value!r}")
+    if prop.fast_fading_df is not None and not prop.fast_fading_df > 2:
+        raise UsageError("fast_fading_df must be above 2 (a finite standard deviation), "
+                         f"got {prop.fast_fading_df!r}")
     rng = np.random.default_rng(seed)
+    # draws of the optional regimes come from a stream of their own, so that the defaults
+    # reproduce earlier runs draw for draw and switching a regime on changes only its part
+    aux = np.random.default_rng(np.random.SeedSequence(seed, spawn_key=(15,)))
     bands = [str(x) for x in ([bands] if isinstance(bands, str) else bands)]
     for band in bands:
         if band not in _BAND_MODEL:
@@ -377,6 +471,10 @@ def simulate_spots(design: Design = "simultaneous", *, days: float = 3, seed: in
     else:
         far_thr = np.full(n_far, float(threshold_db))
         home_thr = float(threshold_db)
+    if threshold_sd_db > 0 and transmit:
+        far_thr = far_thr + aux.normal(0.0, threshold_sd_db, n_far)
+    far_effect = (aux.normal(0.0, difference_sd_db, n_far) if difference_sd_db > 0
+                  else np.zeros(n_far))
     far_noise = rng.normal(0.0, prop.noise_sd_db, n_far)
     far_listen = rng.random((n_far, len(bands))) < prop.listen_fraction
     far_uptime = rng.uniform(*prop.uptime_range, n_far)
@@ -461,6 +559,10 @@ def simulate_spots(design: Design = "simultaneous", *, days: float = 3, seed: in
         for j, ant in enumerate(li["antenna"]):
             if ant is not None:
                 g_rx[:, j] = ant.gain_db(band, el_el[:, j], rev_el[:, j], d_el[:, j])
+        if transmit:  # B's gain towards each far receiver (emission 1 is B)
+            g_tx[1] = g_tx[1] + far_effect
+        else:  # B's gain from each far transmitter (listener 1 is B)
+            g_rx[:n_far, 1] = g_rx[:n_far, 1] + far_effect
         gains[band] = (g_tx, g_rx)
 
     # --- who is on the air ----------------------------------------------------------------------
@@ -527,13 +629,17 @@ def simulate_spots(design: Design = "simultaneous", *, days: float = 3, seed: in
             lvl = (level[None] + cday + prop.sigma_slow_db * slow
                    + prop.sigma_receiver_db * common[:, None, :])
             ix_t, ix_r = e_site[:, None], l_site[None, :]
-            snr = (lvl[:, ix_t, ix_r] + static[None]
-                   + prop.sigma_fast_db * rng.standard_normal((ns, n_e, n_l)))
-            snr = np.round(snr)
+            raw = (lvl[:, ix_t, ix_r] + static[None]
+                   + prop.sigma_fast_db * _fast_fading((ns, n_e, n_l), prop.fast_fading_df,
+                                                       rng))
+            snr = np.round(raw)
             hour_idx = (np.arange(c0, c1) * C.SLOT_MINUTES) // 60
             listening = up_hour[hour_idx] & listen_band[None, :]
+            decoded = decode(raw if threshold_on == "raw" else snr,
+                             np.asarray(li["threshold"], float)[None, None],
+                             detection_width_db, aux)
             heard = (is_open[:, ix_t, ix_r] & on[band][c0:c1][:, :, None]
-                     & listening[:, None, :] & (snr >= np.asarray(li["threshold"])[None, None]))
+                     & listening[:, None, :] & decoded)
             s_i, e_i, l_i = np.nonzero(heard)
             records.append(pd.DataFrame({"slot": s_i + c0, "band": bi, "e": e_i, "l": l_i,
                                          "snr": snr[s_i, e_i, l_i]}))
@@ -550,7 +656,9 @@ def simulate_spots(design: Design = "simultaneous", *, days: float = 3, seed: in
         "antenna_b": ant_b.name, "difference_db": difference_db,
         "difference_edges": None if difference_edges is None else list(difference_edges),
         "power_a_dbm": power_a, "power_b_dbm": power_b, "tx_fraction": tx_fraction,
-        "threshold_db": threshold_db,
+        "threshold_db": threshold_db, "detection_width_db": float(detection_width_db),
+        "threshold_on": threshold_on, "threshold_sd_db": float(threshold_sd_db),
+        "difference_sd_db": float(difference_sd_db),
         "schedule": schedule if isinstance(schedule, str) else "table",
         "change_at": None if change_at is None else change_at.isoformat(),
         "propagation": asdict(prop),
@@ -730,6 +838,6 @@ def make_demo_data(out_dir, *, days: float = 3, n_receivers: int = 250,
     return sims
 
 __all__ = [
-    "DESIGNS", "Propagation", "Simulation", "simulate_spots", "DEMO_CALL", "DEMO_LOCATOR",
-    "make_demo_data",
+    "DESIGNS", "THRESHOLD_ON", "decode", "Propagation", "Simulation", "simulate_spots",
+    "DEMO_CALL", "DEMO_LOCATOR", "make_demo_data",
 ]
