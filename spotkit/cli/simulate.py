@@ -6,7 +6,15 @@ scenario through :func:`spotkit.demo.run_demo`.
 """
 from __future__ import annotations
 
-from spotkit.cli._common import DESIGNS, EXIT_OK, add_progress_option, progress
+from spotkit.cli._common import (
+    DESIGNS,
+    EXIT_OK,
+    add_progress_option,
+    finite_float,
+    int_at_least,
+    positive_float,
+    progress,
+)
 from spotkit.errors import UsageError
 
 
@@ -17,16 +25,17 @@ def add_simulate(sub) -> None:
         "Q-prefix stations, write them as CSV and the true B-minus-A difference as JSON "
         "beside it (OUT.truth.json), and print the matching compare command.")
     p.add_argument("--design", default="simultaneous", choices=DESIGNS)
-    p.add_argument("--days", type=float, default=3.0, help="length of the run (default 3)")
-    p.add_argument("--seed", type=int, default=0, help="random seed (default 0)")
+    p.add_argument("--days", type=positive_float, default=3.0, help="length of the run (default 3)")
+    p.add_argument("--seed", type=int_at_least(0), default=0, help="random seed (default 0)")
     p.add_argument("-o", "--output", required=True, metavar="OUT.csv",
                    help="spot CSV to write (.csv or .csv.gz)")
-    p.add_argument("--receivers", type=int, default=300, help="far receivers (default 300)")
-    p.add_argument("--transmitters", type=int, default=200,
+    p.add_argument("--receivers", type=int_at_least(1), default=300,
+                   help="far receivers (default 300)")
+    p.add_argument("--transmitters", type=int_at_least(1), default=200,
                    help="far transmitters, receive design (default 200)")
     p.add_argument("--bands", default="20m,10m", help="comma-separated (default 20m,10m)")
-    p.add_argument("--power-a", type=float, default=37.0, help="A's power, dBm (default 37)")
-    p.add_argument("--power-b", type=float, default=37.0, help="B's power, dBm (default 37)")
+    p.add_argument("--power-a", type=finite_float, default=37.0, help="A's power, dBm (default 37)")
+    p.add_argument("--power-b", type=finite_float, default=37.0, help="B's power, dBm (default 37)")
     p.add_argument("--antenna-a", choices=["isotropic", "vertical", "dipole"],
                    help="A's antenna (default vertical; isotropic with --difference-db)")
     p.add_argument("--antenna-b", default="dipole", choices=["isotropic", "vertical", "dipole"],
@@ -34,25 +43,25 @@ def add_simulate(sub) -> None:
     p.add_argument("--difference-db", metavar="DB|BAND=DB,...",
                    help="make B exactly A plus this many dB (A isotropic unless --antenna-a "
                    "is given), e.g. 1.5 or 10m=1.5,20m=0")
-    p.add_argument("--threshold", type=float, help="every receiver's decode threshold, dB "
+    p.add_argument("--threshold", type=finite_float, help="every receiver's decode threshold, dB "
                    "(default: -28 for most, some -30)")
-    p.add_argument("--tx-fraction", type=float, help="fraction of slots on the air")
+    p.add_argument("--tx-fraction", type=finite_float, help="fraction of slots on the air")
     g = p.add_argument_group(
         "decoder and station regimes", "all off by default (hard threshold on the whole-dB "
         "report, normal fading, one B-A per path from the antenna patterns)")
-    g.add_argument("--detection-width", type=float, default=0.0, metavar="DB",
+    g.add_argument("--detection-width", type=finite_float, default=0.0, metavar="DB",
                    help="soft detection curve: a report exists with probability "
                    "Phi((snr - threshold) / DB); 0 = hard threshold (default 0)")
     g.add_argument("--threshold-on", default="rounded", choices=["rounded", "raw"],
                    help="decide on the whole-dB report or on the raw SNR before rounding "
                    "(default rounded)")
-    g.add_argument("--fading-df", type=float, metavar="DF",
+    g.add_argument("--fading-df", type=positive_float, metavar="DF",
                    help="heavy-tailed fast fading: Student t with DF (> 2) degrees of "
                    "freedom, same SD (default: normal)")
-    g.add_argument("--threshold-spread", type=float, default=0.0, metavar="DB",
+    g.add_argument("--threshold-spread", type=finite_float, default=0.0, metavar="DB",
                    help="SD of a normal offset added to each far receiver's threshold "
                    "(default 0)")
-    g.add_argument("--difference-spread", type=float, default=0.0, metavar="DB",
+    g.add_argument("--difference-spread", type=finite_float, default=0.0, metavar="DB",
                    help="SD of a random B-A offset per far station, part of the truth "
                    "(default 0)")
     p.add_argument("--home", default="JN58td", metavar="LOCATOR", help="home locator")
@@ -63,9 +72,9 @@ def add_simulate(sub) -> None:
     p.add_argument("--layout", default="comma",
                    choices=["comma", "semicolon", "tab", "space", "canonical"],
                    help="CSV layout (default comma)")
-    p.add_argument("--duplicates", type=float, default=0.0,
+    p.add_argument("--duplicates", type=finite_float, default=0.0,
                    help="fraction of reports uploaded twice")
-    p.add_argument("--corrupt", type=int, default=0, help="number of corrupted rows")
+    p.add_argument("--corrupt", type=int_at_least(0), default=0, help="number of corrupted rows")
     add_progress_option(p)
     p.set_defaults(func=cmd_simulate)
 
@@ -152,7 +161,8 @@ def add_demo(sub) -> None:
                    help="folder for the results (default out/)")
     p.add_argument("--data", metavar="DIR", help="demo data folder (default: the bundled "
                    "demo_data/)")
-    p.add_argument("--boot", type=int, default=1000, help="bootstrap resamples (default 1000)")
+    p.add_argument("--boot", type=int_at_least(2), default=1000,
+                   help="bootstrap resamples (default 1000)")
     add_progress_option(p)
     p.set_defaults(func=cmd_demo)
 

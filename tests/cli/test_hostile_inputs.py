@@ -160,15 +160,8 @@ FINE = {
 
 #: (command id, input or option=value) that still show a traceback in code another part of
 #: issue 14 owns; strict, so they fail loudly once fixed
-_SIM = "owned by sim (spotkit/cli/simulate.py, spotkit/sim)"
 _PLAN = "owned by plan (spotkit/cli/plan.py, spotkit/plan)"
 OWNED_ELSEWHERE: dict[tuple[str, str], str] = {
-    # tracebacks: NaN/inf days, a negative seed
-    **{("simulate", o): _SIM for o in ("--days=nan", "--days=inf", "--seed=-1")},
-    # --threshold nan/inf accepted (exit 0); the other messages name the library's argument
-    # (power_a_dbm, tx_fraction, duplicates), not the option
-    **{("simulate", f"{o}={v}"): _SIM for v in ("nan", "inf")
-       for o in ("--power-a", "--power-b", "--threshold", "--tx-fraction", "--duplicates")},
     # tracebacks: NaN/inf days
     **{("plan schedule", f"--days={v}"): _PLAN for v in ("nan", "inf")},
     **{("plan audit", f"{o}={v}"): _PLAN for v in ("nan", "inf")
