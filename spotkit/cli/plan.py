@@ -9,7 +9,14 @@ import math
 import sys
 from pathlib import Path
 
-from spotkit.cli._common import EXIT_OK, Parser, check_output
+from spotkit.cli._common import (
+    EXIT_OK,
+    Parser,
+    check_output,
+    finite_float,
+    int_at_least,
+    positive_float,
+)
 from spotkit.errors import UsageError
 
 #: what each design means, as the planner states it
@@ -95,17 +102,19 @@ def add_plan(sub) -> None:
         "reads.")
     s.add_argument("--start", required=True, metavar="TIME",
                    help="first slot, on a whole UTC hour, e.g. 2026-12-01T00:00Z")
-    s.add_argument("--days", type=float, default=1.0, help="run length [days] (default 1)")
+    s.add_argument("--days", type=positive_float, default=1.0, help="run length [days] (default 1)")
     s.add_argument("--bands", default="20m", metavar="BAND,BAND",
                    help="bands, comma-separated (default 20m)")
-    s.add_argument("--slot-minutes", type=int, default=2, help="slot length [min] (default 2)")
-    s.add_argument("--block-slots", type=int, default=2,
+    s.add_argument("--slot-minutes", type=int_at_least(1), default=2,
+                   help="slot length [min] (default 2)")
+    s.add_argument("--block-slots", type=int_at_least(1), default=2,
                    help="slots per randomisation block, even (default 2: A and B neighbours;"
                    " longer blocks need 'spotkit compare --window BLOCK-1')")
     s.add_argument("--band-hop", action="store_true",
                    help="one transmitter visiting the bands block by block (default: every "
                    "band on the air in every slot)")
-    s.add_argument("--seed", type=int, default=0, help="seed of the random order (default 0)")
+    s.add_argument("--seed", type=int_at_least(0), default=0,
+                   help="seed of the random order (default 0)")
     s.add_argument("-o", "--output", required=True, metavar="SCHEDULE.csv")
 
     d = psub.add_parser(
@@ -163,9 +172,9 @@ def add_plan(sub) -> None:
     a.add_argument("spots", metavar="SPOTS", help="spot table (Parquet or CSV)")
     a.add_argument("--schedule", required=True, metavar="FILE", help="the schedule CSV")
     a.add_argument("--call", required=True, help="the transmitting station's call")
-    a.add_argument("--power-a", type=float, metavar="DBM",
+    a.add_argument("--power-a", type=finite_float, metavar="DBM",
                    help="power used with antenna A (default: inferred)")
-    a.add_argument("--power-b", type=float, metavar="DBM",
+    a.add_argument("--power-b", type=finite_float, metavar="DBM",
                    help="power used with antenna B (default: inferred)")
     a.add_argument("--no-markers", action="store_true",
                    help="do not use the reported power to tell the antennas apart")

@@ -160,12 +160,7 @@ FINE = {
 
 #: (command id, input or option=value) that still show a traceback in code another part of
 #: issue 14 owns; strict, so they fail loudly once fixed
-_PLAN = "owned by plan (spotkit/cli/plan.py, spotkit/plan)"
 OWNED_ELSEWHERE: dict[tuple[str, str], str] = {
-    # tracebacks: NaN/inf days
-    **{("plan schedule", f"--days={v}"): _PLAN for v in ("nan", "inf")},
-    **{("plan audit", f"{o}={v}"): _PLAN for v in ("nan", "inf")
-       for o in ("--power-a", "--power-b")},
 }
 
 
