@@ -119,14 +119,21 @@ from spotkit.compare.grouping import (
     parse_by,
     summarise_pairs,
 )
-from spotkit.compare.pairing import Design, pair_spots
+from spotkit.compare.pairing import T50_ERROR_DB, TAU_FACTORS_SET, Design, pair_spots
 from spotkit.errors import NoPairsError, UsageError
+from spotkit.stats.detection import DEFAULT_TAU_DB
 
 _KIND_CODE = {"both": 0, "only_a": 1, "only_b": -1, "edge_a": 2, "edge_b": -2}
 ThresholdCorrection = Literal["edge", "none"]
 THRESHOLD_CORRECTIONS = ("edge", "none")
 MissedReports = Literal["fit", "none"]
 MISSED_REPORTS = ("fit", "none")
+Model = Literal["detection", "tobit"]
+#: "detection": soft detection curve, whole-dB intervals, tails chosen by the data and a
+#: systematic part (default); "tobit": the earlier model (points, hard limits, normal)
+MODELS = ("detection", "tobit")
+#: Student t degrees of freedom the data may choose instead of the normal (inf)
+TAIL_DFS = (np.inf, 10.0, 5.0, 3.0)
 #: weight of a both-heard pair's density in the paired designs' likelihood: it enters both
 #: conditional likelihoods, "B's outcome given A heard" and "A's outcome given B heard"
 PAIRED_EXACT_WEIGHT = 2.0
@@ -135,8 +142,9 @@ _META = (C.CLUSTER, C.KIND, C.VALUE, C.COUNT)
 #: result columns of :func:`estimate_groups` after the group keys
 RESULT_COLUMNS = [C.B_MINUS_A, C.CI_LOW, C.CI_HIGH, C.PAIRS, C.BOTH, C.ONLY_A, C.ONLY_B,
                   C.CLUSTERS, C.P_VALUE, C.P_ADJUSTED, C.BOTH_HEARD, C.HODGES_LEHMANN,
-                  C.P_WILCOXON, C.P_SIGN, C.P_MCNEMAR, C.SIGMA, C.CORRECTION, C.METHOD,
-                  C.NOTE]
+                  C.P_WILCOXON, C.P_SIGN, C.P_MCNEMAR, C.SIGMA, C.CORRECTION,
+                  C.CI_STAT_LOW, C.CI_STAT_HIGH, C.SYSTEMATIC, C.TAIL_DF, C.DETECTION_TAU,
+                  C.METHOD, C.NOTE]
 
 def _nan_if_none(x):
     return float("nan") if x is None else float(x)
@@ -185,6 +193,123 @@ def _fit(v, k, t, use_mix):
     return fit
 
 
+def default_detection(tau_db: float = DEFAULT_TAU_DB, whole_db: bool | None = None) -> dict:
+    """The detection model used when the pairs carry none (see :func:`estimate_groups`).
+
+    ``tau_db`` [dB] is the common-practice width (:data:`spotkit.stats.detection.DEFAULT_TAU_DB`,
+    not fitted); the alternatives are that width times
+    :data:`spotkit.compare.pairing.TAU_FACTORS_SET` and the
+    50 % point moved by -+ :data:`spotkit.compare.pairing.T50_ERROR_DB` (the threshold shifts
+    of a refit are unknown here, so the width alternatives move no threshold).
+
+    Examples
+    --------
+    >>> det = default_detection()
+    >>> det["tau_db"], [a["label"] for a in det["alternatives"]][:2]
+    (1.0, ['detection width x0.5', 'detection width x1.5'])
+    """
+    alts = [dict(label=f"detection width x{f:g}", tau_db=tau_db * f, shift_db=0.0)
+            for f in TAU_FACTORS_SET]
+    alts += [dict(label=f"50 % point {sg * T50_ERROR_DB:+g} dB", tau_db=tau_db,
+                  shift_db=sg * T50_ERROR_DB) for sg in (-1, 1)]
+    return dict(method="t50", tau_db=float(tau_db), rounding="after", whole_db=whole_db,
+                tau_fitted=False, alternatives=alts)
+
+
+def _detection_settings(det, exact_values, exact_counts) -> dict:
+    """The detection model with ``whole_db`` settled (from the values when unknown)."""
+    out = default_detection()
+    if det:
+        out.update(det)
+    if out.get("whole_db") is None:
+        v = np.asarray(exact_values, dtype=float)
+        c = np.asarray(exact_counts, dtype=float)
+        whole = np.abs(v - np.round(v)) < 1e-6
+        out["whole_db"] = bool(c.sum() > 0 and np.sum(c[whole]) >= 0.99 * c.sum())
+    out["half_width_db"] = 0.5 if out["whole_db"] else 0.0
+    return out
+
+
+class _Fitter:
+    """The censored fit of one group, its bootstrap batch and its systematic part."""
+
+    def __init__(self, use_mix: bool, det: dict | None):
+        self.use_mix, self.det, self.df = use_mix, det, np.inf
+
+    def _kw(self, tau=None):
+        return dict(half_width_db=self.det["half_width_db"],
+                    tau_db=self.det["tau_db"] if tau is None else tau,
+                    missed=self.use_mix, exact_weight=PAIRED_EXACT_WEIGHT)
+
+    def point(self, v, k, t):
+        """Fit on the group's pairs; with the detection model the tails (normal or
+        Student t, :data:`TAIL_DFS`) are chosen by the log-likelihood less one for the
+        extra parameter of the t (Akaike's rule)."""
+        self.df = np.inf
+        if self.det is None:
+            return _fit(v, k, t, self.use_mix)
+        best, best_score = None, -np.inf
+        for df in TAIL_DFS:
+            r = stats.interval_censored_mle_batch(v, k, t[None, :], df=df, **self._kw())
+            score = r["loglik"][0] - (0.0 if np.isinf(df) else 1.0)
+            if np.isfinite(r["mu"][0]) and score > best_score:
+                best, best_score, self.df = r, score, df
+        if best is None:
+            return stats.CensoredFit(np.nan, np.nan, False, 0.0, 0.0, 0.0)
+        return stats.CensoredFit(float(best["mu"][0]), float(best["sigma"][0]), True,
+                                 0.0, 0.0, 0.0, missed_a=float(best["missed_a"][0]),
+                                 missed_b=float(best["missed_b"][0]))
+
+    def batch(self, v, k, wb):
+        """Bootstrap fits (rows of ``wb``): mu, sigma, missed_a, missed_b."""
+        if self.det is None:
+            if self.use_mix:
+                return stats.censored_mixture_mle_batch(v, k, wb,
+                                                        exact_weight=PAIRED_EXACT_WEIGHT)
+            mu, sig = stats.censored_normal_mle_batch(
+                v, k, np.where(k == 0, PAIRED_EXACT_WEIGHT, 1.0) * wb)
+            return mu, sig, 0.0, 0.0
+        r = stats.interval_censored_mle_batch(v, k, wb, df=self.df, **self._kw())
+        return r["mu"], r["sigma"], r["missed_a"], r["missed_b"]
+
+    def systematic(self, v, k, t, mu) -> float:
+        """Largest change of ``mu`` [dB] over the plausible detection models (0 without
+        the detection model)."""
+        if self.det is None or not self.det.get("alternatives"):
+            return 0.0
+        alts = self.det["alternatives"]
+        moved = []
+        for alt in alts:
+            sh = float(alt.get("shift_db", 0.0))
+            v2 = v + sh * (k == 1) - sh * (k == -1)  # bounds follow the 50 % point
+            r = stats.interval_censored_mle_batch(v2, k, t[None, :], df=self.df,
+                                                  **self._kw(float(alt["tau_db"])))
+            moved.append(abs(r["mu"][0] - mu))
+        moved = np.asarray(moved)
+        return float(np.max(moved[np.isfinite(moved)])) if np.isfinite(moved).any() else 0.0
+
+
+def _detection_method_text(det, use_mix, use_edge, confidence, cluster_label, n_boot):
+    """The method line of the detection model."""
+    alts = ", ".join(a["label"] for a in det.get("alternatives", []))
+    how = "fitted to the reports" if det.get("tau_fitted") else "set"
+    return (
+        "censored MLE of per-W B-A with a soft detection model (decode probability "
+        f"Phi((s - t50)/tau), t50 per receiver from its reports, tau {det['tau_db']:.2f} dB "
+        f"{how})"
+        + ("; whole-dB reports as 1-dB intervals" if det["whole_db"] else "")
+        + "; both-heard pairs in both conditional likelihoods (given A heard, given B "
+        "heard); tails normal or Student t (3, 5, 10 df) as the data choose (tail_df)"
+        + ("" if not use_mix else "; a fitted share of one-sided pairs may be missing for "
+           "other reasons (path closed, receiver off)")
+        + ("" if not use_edge else "; with a first-order correction for reports at the "
+           "decode threshold")
+        + f"; interval: {confidence:.0%} percentile cluster bootstrap over {cluster_label} "
+        f"({int(n_boot)} resamples) widened on each side by the systematic part, the "
+        f"largest change of the estimate over plausible detection models ({alts}); p from "
+        "the bootstrap SE after moving the estimate towards 0 by the systematic part")
+
+
 def _explained(v, k, w, mu, sigma, missed_a, missed_b):
     """Weights of the only-A and only-B pairs the censored normal explains, per row of ``w``.
 
@@ -211,7 +336,8 @@ def estimate_groups(counts: pd.DataFrame, *, n_boot: int = 1000, seed: int = 0,
                     confidence: float = 0.95, min_pairs: int = 30, clusters=None,
                     cluster_label: str = "receivers", progress: bool = False,
                     threshold_correction: ThresholdCorrection = "none",
-                    missed_reports: MissedReports = "fit") -> pd.DataFrame:
+                    missed_reports: MissedReports = "fit", model: Model = "detection",
+                    detection: dict | None = None) -> pd.DataFrame:
     """B minus A per group from a compressed pair table.
 
     Parameters
@@ -247,6 +373,17 @@ def estimate_groups(counts: pd.DataFrame, *, n_boot: int = 1000, seed: int = 0,
         (:func:`spotkit.stats.censored.censored_mixture_mle`); an edge correction then counts
         only the one-sided pairs the censored normal explains. ``"none"``: the plain
         censored-normal fit.
+    model : {"detection", "tobit"}
+        ``"detection"`` (default): the detection model of the module docstring (soft
+        limits, whole-dB intervals, tails chosen by the data, systematic part);
+        ``"tobit"``: the earlier censored-normal fit of points with hard limits (for
+        comparison; its ``C.SYSTEMATIC`` is 0).
+    detection : dict, optional
+        The detection model: ``tau_db`` [dB], ``whole_db`` (bool) and ``alternatives``
+        (list of dicts with ``label``, ``tau_db``, ``shift_db``), as
+        :func:`spotkit.compare.pairing.receiver_thresholds` puts in ``attrs``. Default:
+        ``counts.attrs["detection"]`` if there, else :func:`default_detection` (whole dB
+        detected from the values).
 
     Returns
     -------
@@ -256,7 +393,10 @@ def estimate_groups(counts: pd.DataFrame, *, n_boot: int = 1000, seed: int = 0,
         ``C.ONLY_A``, ``C.ONLY_B``, ``C.CLUSTERS``, ``C.P_VALUE`` (bootstrap, two-sided),
         ``C.P_ADJUSTED`` (Benjamini-Hochberg), ``C.BOTH_HEARD`` [dB], ``C.HODGES_LEHMANN``
         [dB], ``C.P_WILCOXON``, ``C.P_SIGN``, ``C.P_MCNEMAR``, ``C.SIGMA`` [dB],
-        ``C.METHOD``, ``C.NOTE``.
+        ``C.CI_STAT_LOW``, ``C.CI_STAT_HIGH`` [dB] (the statistical part alone),
+        ``C.SYSTEMATIC`` [dB] (``C.CI_LOW`` / ``C.CI_HIGH`` are the statistical interval
+        widened by it on each side), ``C.TAIL_DF`` (inf: normal), ``C.DETECTION_TAU``
+        [dB], ``C.METHOD``, ``C.NOTE``.
 
     References
     ----------
@@ -284,6 +424,7 @@ def estimate_groups(counts: pd.DataFrame, *, n_boot: int = 1000, seed: int = 0,
     check_confidence(confidence)
     check_choice(threshold_correction, THRESHOLD_CORRECTIONS, "threshold correction")
     check_choice(missed_reports, MISSED_REPORTS, "missed_reports")
+    check_choice(model, MODELS, "model")
     use_mix = missed_reports == "fit"
     if int(n_boot) < 2:
         raise UsageError(f"n_boot must be at least 2, got {n_boot}")
@@ -329,7 +470,15 @@ def estimate_groups(counts: pd.DataFrame, *, n_boot: int = 1000, seed: int = 0,
     WT = np.ascontiguousarray(W.T, dtype=float)
     out = {c: np.full(n_groups, np.nan) for c in
            [C.B_MINUS_A, C.CI_LOW, C.CI_HIGH, C.P_VALUE, C.BOTH_HEARD, C.HODGES_LEHMANN,
-            C.P_WILCOXON, C.P_SIGN, C.P_MCNEMAR, C.SIGMA, C.CORRECTION]}
+            C.P_WILCOXON, C.P_SIGN, C.P_MCNEMAR, C.SIGMA, C.CORRECTION, C.CI_STAT_LOW,
+            C.CI_STAT_HIGH, C.SYSTEMATIC, C.TAIL_DF]}
+    det = None
+    if model == "detection":
+        det = _detection_settings(detection if detection is not None else
+                                  counts.attrs.get("detection"),
+                                  it_v[np.abs(it_k) <= 1][it_k[np.abs(it_k) <= 1] == 0],
+                                  tot[(it_k == 0)])
+    fitter = _Fitter(use_mix, det)
     n_both = np.zeros(n_groups, np.int64)
     n_a = np.zeros(n_groups, np.int64)
     n_b = np.zeros(n_groups, np.int64)
@@ -354,7 +503,7 @@ def estimate_groups(counts: pd.DataFrame, *, n_boot: int = 1000, seed: int = 0,
         if pairs < min_pairs:
             notes[g] = f"too few pairs ({pairs:,} < {min_pairs:,}): no estimate"
             continue
-        fit = _fit(v, k, t, use_mix)
+        fit = fitter.point(v, k, t)
         if not np.isfinite(fit.mu):
             notes[g] = ("no estimate: the pairs do not bound B - A on both sides (e.g. "
                         "only one antenna ever heard)")
@@ -367,6 +516,8 @@ def estimate_groups(counts: pd.DataFrame, *, n_boot: int = 1000, seed: int = 0,
             corr = 0.0
         out[C.B_MINUS_A][g], out[C.SIGMA][g] = fit.mu + corr, fit.sigma
         out[C.CORRECTION][g] = corr
+        out[C.TAIL_DF][g] = fitter.df
+        out[C.SYSTEMATIC][g] = fitter.systematic(v, k, t, fit.mu)
         single = clusters_per_group[g] < 2
         if not single:
             wb_all = np.asarray((S[sl] @ WT).T)  # (n_boot, K)
@@ -379,20 +530,20 @@ def estimate_groups(counts: pd.DataFrame, *, n_boot: int = 1000, seed: int = 0,
             heard_b = wb[:, k == 0].sum(1) + wb[:, k == -1].sum(1)
             ea_b = e_a * heard_a / max(n_both[g] + n_a[g], 1)
             eb_b = e_b * heard_b / max(n_both[g] + n_b[g], 1)
-        if use_mix:
-            mu_b, sig_b, pa_b, pb_b = stats.censored_mixture_mle_batch(
-                v, k, wb, exact_weight=PAIRED_EXACT_WEIGHT)
-        else:
-            (mu_b, sig_b), pa_b, pb_b = stats.censored_normal_mle_batch(
-                v, k, np.where(k == 0, PAIRED_EXACT_WEIGHT, 1.0) * wb), 0.0, 0.0
+        mu_b, sig_b, pa_b, pb_b = fitter.batch(v, k, wb)
         if use_edge:
             na_b, nb_b = _explained(v, k, wb, mu_b, sig_b, pa_b, pb_b)
             mu_b = mu_b + edge_correction(sig_b, wb[:, k == 0].sum(1), na_b, nb_b, ea_b,
                                           eb_b)
         est = out[C.B_MINUS_A][g]
         lo, hi = stats.bootstrap_interval(mu_b, est, confidence)
-        out[C.CI_LOW][g], out[C.CI_HIGH][g] = lo, hi
-        out[C.P_VALUE][g] = _nan_if_none(stats.bootstrap_p_value(mu_b, est))
+        sys_db = out[C.SYSTEMATIC][g]
+        out[C.CI_STAT_LOW][g], out[C.CI_STAT_HIGH][g] = lo, hi
+        out[C.CI_LOW][g], out[C.CI_HIGH][g] = lo - sys_db, hi + sys_db
+        # p for "true B - A = 0": the estimate moved towards 0 by the systematic part
+        shrunk = np.sign(est) * max(abs(est) - sys_db, 0.0)
+        out[C.P_VALUE][g] = _nan_if_none(stats.bootstrap_p_value(mu_b - est + shrunk,
+                                                                 shrunk))
         bad = np.mean(~np.isfinite(mu_b))
         if single:
             notes[g] = (f"a single {cluster_label.rstrip('s')}: interval from resampling its "
@@ -415,8 +566,14 @@ def estimate_groups(counts: pd.DataFrame, *, n_boot: int = 1000, seed: int = 0,
     res[C.P_VALUE] = out[C.P_VALUE]
     res[C.P_ADJUSTED] = stats.benjamini_hochberg(out[C.P_VALUE])
     for c in (C.BOTH_HEARD, C.HODGES_LEHMANN, C.P_WILCOXON, C.P_SIGN, C.P_MCNEMAR,
-              C.SIGMA, C.CORRECTION):
+              C.SIGMA, C.CORRECTION, C.CI_STAT_LOW, C.CI_STAT_HIGH, C.SYSTEMATIC, C.TAIL_DF):
         res[c] = out[c]
+    res[C.DETECTION_TAU] = np.nan if det is None else det["tau_db"]
+    if det is not None:
+        res[C.METHOD] = _detection_method_text(det, use_mix, use_edge, confidence,
+                                               cluster_label, n_boot)
+        res[C.NOTE] = notes
+        return res
     res[C.METHOD] = (
         "censored-normal MLE (Tobit) of per-W B-A using both-heard and one-sided pairs "
         "(both-heard pairs in both conditional likelihoods, given A heard and given B "
@@ -657,7 +814,8 @@ def compare_antennas(spots: pd.DataFrame, design: Design, a: str, b: str | None 
                      threshold_correction: ThresholdCorrection = "none",
                      require_open_path: bool = True,
                      missed_reports: MissedReports = "fit",
-                     day_hours: float = DEFAULT_DAY_HOURS) -> ComparisonResult:
+                     day_hours: float = DEFAULT_DAY_HOURS, model: Model = "detection",
+                     tau_db: float | None = None) -> ComparisonResult:
     """Compare antenna B with antenna A: B minus A [dB] overall and by group.
 
     Parameters
@@ -706,6 +864,13 @@ def compare_antennas(spots: pd.DataFrame, design: Design, a: str, b: str | None 
         Before-after design: the "days" resampled for the day-to-day part of the interval
         are blocks of this many hours from 00:00 UTC [h] (24: UTC dates). A period needs
         two of them for an interval (module docstring).
+    model : {"detection", "tobit"}
+        ``"detection"`` (default): receiver thresholds at the 50 % point of a fitted
+        detection curve and the detection-model fit with its systematic part
+        (:func:`estimate_groups`); ``"tobit"``: the earlier model (lowest report as a hard
+        threshold, censored normal of points), for comparison.
+    tau_db : float, optional
+        Width of the decoders' detection curve [dB]; fitted from the reports when None.
 
     Returns
     -------
@@ -747,8 +912,11 @@ def compare_antennas(spots: pd.DataFrame, design: Design, a: str, b: str | None 
     'no estimate beyond 6,000 km: too few pairs (8 < 10): no estimate'
     """
     keys = parse_by(by)
+    check_choice(model, MODELS, "model")
     pairs = pair_spots(spots, design, a, b, schedule=schedule, change_at=change_at,
-                       window_slots=window_slots, require_open_path=require_open_path)
+                       window_slots=window_slots, require_open_path=require_open_path,
+                       threshold_method="t50" if model == "detection" else "lowest",
+                       tau_db=tau_db)
     set_aside = dict(pairs.attrs.get("set_aside", {}))
     options = dict(distance_edges=[float(x) for x in distance_edges],
                    bearing_width_deg=float(bearing_width_deg), hour=hour,
@@ -758,7 +926,8 @@ def compare_antennas(spots: pd.DataFrame, design: Design, a: str, b: str | None 
                    confidence=float(confidence), threshold_correction=threshold_correction,
                    missed_reports=missed_reports,
                    require_open_path=bool(require_open_path),
-                   day_hours=float(day_hours),
+                   day_hours=float(day_hours), model=model,
+                   tau_db=None if tau_db is None else float(tau_db),
                    schedule=schedule if isinstance(
                        schedule, (str, type(None))) else "table",
                    change_at=None if change_at is None else str(change_at))
@@ -768,7 +937,8 @@ def compare_antennas(spots: pd.DataFrame, design: Design, a: str, b: str | None 
     clusters = sorted(pairs[C.CLUSTER].astype(str).unique())
     est = dict(n_boot=n_boot, seed=seed, confidence=confidence, min_pairs=min_pairs,
                clusters=clusters, cluster_label=label,
-               threshold_correction=threshold_correction, missed_reports=missed_reports)
+               threshold_correction=threshold_correction, missed_reports=missed_reports,
+               model=model, detection=pairs.attrs.get("detection"))
     overall_counts = summarise_pairs(pairs, (), day_hours=day_hours)
     overall = estimate_groups(overall_counts, **est).iloc[0].to_dict()
     overall[C.P_ADJUSTED] = overall[C.P_VALUE]
@@ -795,6 +965,7 @@ def compare_antennas(spots: pd.DataFrame, design: Design, a: str, b: str | None 
 
 
 __all__ = [
-    "RESULT_COLUMNS", "THRESHOLD_CORRECTIONS", "MISSED_REPORTS", "ComparisonResult",
-    "compare_antennas", "edge_correction", "estimate_groups", "group_label", "verdict",
+    "RESULT_COLUMNS", "THRESHOLD_CORRECTIONS", "MISSED_REPORTS", "MODELS", "TAIL_DFS",
+    "ComparisonResult", "compare_antennas", "default_detection", "edge_correction",
+    "estimate_groups", "group_label", "verdict",
 ]

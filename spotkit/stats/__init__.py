@@ -17,6 +17,8 @@ from spotkit.stats.censored import (
     censored_mixture_mle_batch,
     censored_normal_mle,
     censored_normal_mle_batch,
+    interval_censored_mle,
+    interval_censored_mle_batch,
     normal_share,
 )
 from spotkit.stats.paired import (
@@ -35,6 +37,7 @@ __all__ = [
     "sign_test", "mcnemar", "benjamini_hochberg", "wilson_interval", "SIGMA_FLOOR_DB",
     "CensoredFit", "censored_normal_mle", "censored_normal_mle_batch",
     "censored_mixture_mle", "censored_mixture_mle_batch", "normal_share",
+    "interval_censored_mle", "interval_censored_mle_batch",
     "INTERVAL_METHODS", "DRAWS", "cluster_bootstrap_weights",
     "stratified_bootstrap_weights", "bootstrap_interval", "bootstrap_p_value",
 ]
