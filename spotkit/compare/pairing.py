@@ -212,8 +212,9 @@ def receiver_thresholds(spots: pd.DataFrame, min_reports: int = 20, *,
     min_reports : int
         Receivers with fewer reports (in the fit window, for ``t50``) get the smaller of
         the median threshold of the better-observed receivers and their own lowest report
-        plus the median distance between the two of those receivers (``lowest``: the
-        smaller of their own minimum and the median threshold).
+        plus the median distance between the two of those receivers; when no receiver has
+        that many, the same from one fit to all reports together (``lowest``: the smaller
+        of their own minimum and the median threshold).
     method : {"t50", "lowest"}
         See above.
     tau_db : float, optional
@@ -241,11 +242,15 @@ def receiver_thresholds(spots: pd.DataFrame, min_reports: int = 20, *,
     >>> receiver_thresholds(spots, min_reports=3, method="lowest").to_dict()
     {'Q2XY': -27.0, 'Q3DEF': -20.0}
 
-    The 50 % point of Q2XY with a detection width of 1 dB lies above its lowest report:
+    Q2XY's histogram is flat from its lowest report up: a sharp edge, so its 50 % point
+    lies just below -27 dB (a whole-dB report of -27 stands for -27.5 to -26.5 dB); Q3DEF,
+    with too few reports, gets the same:
 
     >>> thr = receiver_thresholds(spots, tau_db=1.0)
-    >>> bool(-27 < thr["Q2XY"] < -25)
-    True
+    >>> thr.round(2).to_dict()
+    {'Q2XY': -27.15, 'Q3DEF': -27.15}
+    >>> thr.attrs["detection"]["tau_db"], thr.attrs["detection"]["whole_db"]
+    (1.0, True)
     """
     check_choice(method, THRESHOLD_METHODS, "threshold method")
     if method == "lowest":
@@ -262,21 +267,34 @@ def receiver_thresholds(spots: pd.DataFrame, min_reports: int = 20, *,
     snr = spots[C.SNR].to_numpy(dtype=float)
     snr = snr[np.isfinite(snr)]
     whole = bool(snr.size) and bool(np.mean(np.abs(snr - np.round(snr)) < 1e-6) >= 0.99)
+    # all reports as one receiver: the fallback when no receiver is well observed
+    v_all = np.floor(snr + 0.5)
+    low_all = float(v_all.min()) if v_all.size else 0.0
+    j_all = (v_all - low_all).astype(np.int64) + _BELOW
+    pooled = np.bincount(j_all[j_all < hist.shape[1]], minlength=hist.shape[1])[None, :]
     well = hist.sum(axis=1) >= min_reports
-    fit_rows = well if well.any() else np.ones(len(calls), bool)
+    kw = dict(below_db=_BELOW, window_db=_WINDOW)
 
     def fit(tau, rnd):
         t50 = np.full(len(calls), np.nan)
-        t50[fit_rows] = fit_thresholds(hist[fit_rows], lowest[fit_rows], tau_db=tau,
-                                       rounding=rnd, below_db=_BELOW, window_db=_WINDOW)[0]
-        if (~fit_rows).any():
-            typical = float(np.median(t50[fit_rows]))
-            offset = float(np.median(t50[fit_rows] - lowest[fit_rows]))
-            t50[~fit_rows] = np.minimum(typical, lowest[~fit_rows] + offset)
+        if well.any():
+            t50[well] = fit_thresholds(hist[well], lowest[well], tau_db=tau, rounding=rnd,
+                                       **kw)[0]
+            typical = float(np.median(t50[well]))
+            offset = float(np.median(t50[well] - lowest[well]))
+        else:
+            typical = float(fit_thresholds(pooled, [low_all], tau_db=tau, rounding=rnd,
+                                           **kw)[0][0])
+            offset = typical - low_all
+        t50[~well] = np.minimum(typical, lowest[~well] + offset)
         return t50
 
-    tau = (fit_tau(hist[fit_rows], lowest[fit_rows], rounding=rounding, below_db=_BELOW,
-                   window_db=_WINDOW) if tau_db is None else float(tau_db))
+    if tau_db is not None:
+        tau = float(tau_db)
+    elif well.any():
+        tau = fit_tau(hist[well], lowest[well], rounding=rounding, **kw)
+    else:
+        tau = fit_tau(pooled, [low_all], rounding=rounding, **kw)
     t50 = fit(tau, rounding)
     alternatives = []
     for f in TAU_FACTORS if tau_db is None else TAU_FACTORS_SET:
@@ -902,7 +920,8 @@ def pair_spots(spots: pd.DataFrame, design: Design, a: str, b: str | None = None
     Examples
     --------
     A short simulated run (2.4 hours, one band) with B 3 dB better than A, both at 37 dBm:
-    the limits are each receiver's lowest report minus 7 dB (per-W scale):
+    the limits are each receiver's 50 % decode point minus 7 dB (per-W scale); with so few
+    reports per receiver that point comes from one fit to all reports (-30.46 dB):
 
     >>> from spotkit.sim.simulate import simulate_spots
     >>> sim = simulate_spots(days=0.1, n_receivers=30, bands=("20m",), difference_db=3.0,
@@ -911,10 +930,10 @@ def pair_spots(spots: pd.DataFrame, design: Design, a: str, b: str | None = None
     >>> len(pairs), int(pairs["heard_a"].sum()), int(pairs["heard_b"].sum())
     (42, 41, 42)
     >>> cols = ["cluster", "far_locator", "snr_a_db", "snr_b_db", "limit_a_db", "limit_b_db"]
-    >>> print(pairs[cols].head(2).to_string(index=False))
+    >>> print(pairs[cols].head(2).round(2).to_string(index=False))
     cluster far_locator  snr_a_db  snr_b_db  limit_a_db  limit_b_db
-      Q0JAS        JN05      -5.0      -2.0       -23.0       -23.0
-      Q0JAS        JN05      -7.0      -2.0       -23.0       -23.0
+      Q0JAS        JN05      -5.0      -2.0      -37.46      -37.46
+      Q0JAS        JN05      -7.0      -2.0      -37.46      -37.46
     >>> pair_spots(sim.spots, "simultaneous", "Q1ABC", "Q9ZZZ")
     Traceback (most recent call last):
     ...

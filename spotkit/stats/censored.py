@@ -954,8 +954,17 @@ def interval_censored_mle_batch(values, kinds, weights, *, half_width_db: float 
     items = _detection_items(v, k, half_width_db, tau_db)
     start_w = np.where(k[None, :] == 0, exact_weight * w, w)
     mu0, s0, _c, _ll, _it = _tobit_batch(v, k, start_w, sigma_floor)
-    mu, sigma, pa, pb, conv, ll = _detection_batch(items, w, _family(df), bool(missed),
-                                                   float(exact_weight), sigma_floor, mu0, s0)
+    fam = _family(df)
+    mu, sigma, pa, pb, conv, ll = _detection_batch(items, w, fam, False, float(exact_weight),
+                                                   sigma_floor, mu0, s0)
+    if missed:  # started from the plain fit, which it nests (pa = pb = 0) and keeps where
+        # the mixture does not converge or fit better
+        m2, s2, pa2, pb2, c2, ll2 = _detection_batch(items, w, fam, True, float(exact_weight),
+                                                     sigma_floor, mu, sigma)
+        better = c2 & (np.nan_to_num(ll2, nan=-np.inf) > np.nan_to_num(ll, nan=-np.inf))
+        mu, sigma = np.where(better, m2, mu), np.where(better, s2, sigma)
+        pa, pb = np.where(better, pa2, pa), np.where(better, pb2, pb)
+        ll, conv = np.where(better, ll2, ll), conv | better
     return dict(mu=mu, sigma=sigma, missed_a=pa, missed_b=pb, loglik=ll, converged=conv)
 
 

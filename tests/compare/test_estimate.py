@@ -440,9 +440,23 @@ def test_estimate_groups_without_censoring_is_least_squares():
     cl = np.repeat([f"Q2R{i}" for i in range(20)], 20)
     counts = (pd.DataFrame({C.CLUSTER: cl, C.KIND: "both", C.VALUE: d})
               .groupby([C.CLUSTER, C.KIND, C.VALUE]).size().rename(C.COUNT).reset_index())
-    r = estimate_groups(counts, n_boot=200, seed=1).iloc[0]
+    r = estimate_groups(counts, n_boot=200, seed=1, model="tobit").iloc[0]
     assert r[C.B_MINUS_A] == pytest.approx(d.mean(), abs=1e-9)
     assert r[C.SIGMA] == pytest.approx(d.std(), abs=1e-9)
+    assert r[C.SYSTEMATIC] == 0.0 and r[C.CI_STAT_LOW] == r[C.CI_LOW]
+    # the detection model takes the whole-dB values as 1-dB intervals: its fit is scipy's
+    # interval-censored fit (scipy.stats CensoredData, normal or the t the data chose),
+    # to 1e-4 dB
+    new = estimate_groups(counts, n_boot=200, seed=1).iloc[0]
+    cd = sps.CensoredData(interval=np.c_[d - 0.5, d + 0.5])
+    if np.isinf(new[C.TAIL_DF]):
+        m, sd = sps.norm.fit(cd)
+    else:
+        _df, m, sd = sps.t.fit(cd, fix_df=new[C.TAIL_DF])
+    assert new[C.B_MINUS_A] == pytest.approx(m, abs=1e-4)
+    assert new[C.SIGMA] == pytest.approx(sd, abs=1e-4)
+    assert new[C.CI_LOW] == pytest.approx(new[C.CI_STAT_LOW] - new[C.SYSTEMATIC])
+    assert new[C.CI_HIGH] == pytest.approx(new[C.CI_STAT_HIGH] + new[C.SYSTEMATIC])
     assert r[C.CORRECTION] == 0.0 and r[C.ONLY_A] == 0 and np.isnan(r[C.P_MCNEMAR])
     assert r[C.CI_LOW] < d.mean() < r[C.CI_HIGH]
     # oracle: scipy.stats.wilcoxon (zeros dropped, normal approximation with tie
