@@ -534,3 +534,88 @@ def test_before_after_one_day_per_period_gives_no_interval_and_says_so():
     row = estimate_groups(_ba_counts([0.0, 0.5], [1.0, 1.2]).drop(columns=C.SLOT),
                           n_boot=50).iloc[0]
     assert np.isnan(row[C.CI_LOW]) and row[C.NOTE].startswith("the table has no day blocks")
+
+
+# --- the detection model: systematic part, columns, method line ---------------------------
+def _soft_cell(seed=5, **kw):
+    from detection_cells import cell_counts, make_cell
+
+    from spotkit.compare.pairing import receiver_thresholds
+
+    spots, pairs, _ = make_cell(np.random.default_rng(seed), n_pairs=3000, n_rx=30,
+                                other_reports=150, **kw)
+    thr = receiver_thresholds(spots)
+    return cell_counts(pairs, thr), thr.attrs["detection"]
+
+
+def test_systematic_part_widens_the_interval():
+    # soft threshold (1 dB), whole dB, A 7 dB below B: a third of the pairs are one-sided,
+    # so the estimate depends on the detection model. The interval is the statistical one
+    # widened by the systematic part on each side
+    counts, det = _soft_cell(tau_db=1.0, diff_db=7.0)
+    r = estimate_groups(counts, n_boot=100, seed=1, detection=det).iloc[0]
+    assert det["tau_fitted"] and det["tau_db"] == pytest.approx(1.0, abs=0.3)
+    assert r[C.DETECTION_TAU] == det["tau_db"]
+    assert 0.005 < r[C.SYSTEMATIC] < 0.2
+    assert r[C.CI_LOW] == pytest.approx(r[C.CI_STAT_LOW] - r[C.SYSTEMATIC], abs=1e-12)
+    assert r[C.CI_HIGH] == pytest.approx(r[C.CI_STAT_HIGH] + r[C.SYSTEMATIC], abs=1e-12)
+    assert r[C.B_MINUS_A] == pytest.approx(7.0, abs=0.25)
+    assert "soft detection model" in r[C.METHOD] and "systematic part" in r[C.METHOD]
+    assert "whole-dB reports as 1-dB intervals" in r[C.METHOD]
+    # the same fit without alternatives: no systematic part, the statistical interval
+    bare = estimate_groups(counts, n_boot=100, seed=1,
+                           detection=dict(det, alternatives=[])).iloc[0]
+    assert bare[C.SYSTEMATIC] == 0.0 and bare[C.CI_LOW] == bare[C.CI_STAT_LOW]
+    assert bare[C.B_MINUS_A] == r[C.B_MINUS_A]
+    # the systematic part is the largest change over the alternatives: each one alone
+    # gives at most it, one of them exactly
+    parts = [estimate_groups(counts, n_boot=2, seed=1,
+                             detection=dict(det, alternatives=[a])).iloc[0][C.SYSTEMATIC]
+             for a in det["alternatives"]]
+    assert max(parts) == pytest.approx(r[C.SYSTEMATIC], abs=1e-12)
+
+
+def test_earlier_model_on_request_and_bad_model():
+    counts, det = _soft_cell(tau_db=1.0, diff_db=7.0)
+    old = estimate_groups(counts, n_boot=50, seed=1, model="tobit").iloc[0]
+    assert old[C.SYSTEMATIC] == 0.0 and np.isnan(old[C.DETECTION_TAU])
+    assert old[C.TAIL_DF] == np.inf and "Tobit" in old[C.METHOD]
+    from spotkit.errors import UsageError
+    with pytest.raises(UsageError, match="detection, tobit"):
+        estimate_groups(counts, model="probit")
+
+
+def test_whole_db_is_detected_from_the_values():
+    # without a detection model the values decide: whole-dB differences -> intervals
+    counts, _ = _soft_cell(tau_db=0.0, diff_db=0.0)
+    r = estimate_groups(counts, n_boot=20, seed=1).iloc[0]
+    assert "1-dB intervals" in r[C.METHOD] and "tau 1.00 dB set" in r[C.METHOD]
+    frac = counts.assign(**{C.VALUE: counts[C.VALUE] + 0.37})
+    r2 = estimate_groups(frac, n_boot=20, seed=1).iloc[0]
+    assert "1-dB intervals" not in r2[C.METHOD]
+
+
+def test_compare_antennas_default_and_earlier_model():
+    sim = simulate_spots(days=0.25, n_receivers=40, bands=("20m",), difference_db=2.0,
+                         seed=4)
+    new = compare_antennas(sim.spots, "simultaneous", sim.a, sim.b, n_boot=50)
+    old = compare_antennas(sim.spots, "simultaneous", sim.a, sim.b, n_boot=50, model="tobit")
+    assert new.options["model"] == "detection" and old.options["model"] == "tobit"
+    assert set(RESULT_COLUMNS) <= set(new.overall)
+    assert new.pairs.attrs["detection"]["method"] == "t50"
+    assert old.pairs.attrs["detection"] is None
+    for r in (new, old):
+        assert r.overall[C.CI_LOW] <= 2.0 <= r.overall[C.CI_HIGH]
+    fixed = compare_antennas(sim.spots, "simultaneous", sim.a, sim.b, n_boot=20, tau_db=0.8)
+    assert fixed.overall[C.DETECTION_TAU] == 0.8 and "tau 0.80 dB set" in fixed.overall[
+        C.METHOD]
+
+
+def test_tails_are_chosen_by_the_data():
+    # Student t fading with 3 df: a t with 3 or 5 df is chosen; normal fading: the normal
+    # or the t with 10 df
+    heavy, det = _soft_cell(tau_db=0.0, diff_db=0.0, fade_df=3.0)
+    r = estimate_groups(heavy, n_boot=50, seed=1, detection=det).iloc[0]
+    assert r[C.TAIL_DF] <= 5.0
+    light, det = _soft_cell(tau_db=0.0, diff_db=0.0)
+    assert estimate_groups(light, n_boot=20, seed=1, detection=det).iloc[0][C.TAIL_DF] >= 10
