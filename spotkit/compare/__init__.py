@@ -10,10 +10,13 @@ from spotkit.compare.beforeafter import (
 )
 from spotkit.compare.estimate import (
     MISSED_REPORTS,
+    MODELS,
     RESULT_COLUMNS,
+    TAIL_DFS,
     THRESHOLD_CORRECTIONS,
     ComparisonResult,
     compare_antennas,
+    default_detection,
     edge_correction,
     estimate_groups,
     group_label,
@@ -35,6 +38,10 @@ from spotkit.compare.pairing import (
     DESIGNS,
     PAIR_COLUMNS,
     PERIOD_BOUND_KINDS,
+    T50_ERROR_DB,
+    TAU_FACTORS,
+    TAU_FACTORS_SET,
+    THRESHOLD_METHODS,
     pair_spots,
     read_schedule,
     receiver_thresholds,
@@ -56,5 +63,7 @@ __all__ = [
     "WEAKER_DESIGN", "estimate_before_after", "RESULT_COLUMNS", "THRESHOLD_CORRECTIONS",
     "MISSED_REPORTS", "ComparisonResult", "compare_antennas", "edge_correction",
     "estimate_groups", "group_label", "verdict", "ReachResult", "compare_reach",
-    "reach_summary", "reach_by_bearing", "heard_by_distance",
+    "reach_summary", "reach_by_bearing", "heard_by_distance", "MODELS", "TAIL_DFS",
+    "default_detection", "T50_ERROR_DB", "TAU_FACTORS", "TAU_FACTORS_SET",
+    "THRESHOLD_METHODS",
 ]

@@ -258,7 +258,8 @@ class _Fitter:
                 best, best_score, self.df = r, score, df
         if best is None:
             return stats.CensoredFit(np.nan, np.nan, False, 0.0, 0.0, 0.0)
-        return stats.CensoredFit(float(best["mu"][0]), float(best["sigma"][0]), True,
+        return stats.CensoredFit(float(best["mu"][0]), float(best["sigma"][0]) * self._sd(),
+                                 True,
                                  0.0, 0.0, 0.0, missed_a=float(best["missed_a"][0]),
                                  missed_b=float(best["missed_b"][0]))
 
@@ -272,7 +273,12 @@ class _Fitter:
                 v, k, np.where(k == 0, PAIRED_EXACT_WEIGHT, 1.0) * wb)
             return mu, sig, 0.0, 0.0
         r = stats.interval_censored_mle_batch(v, k, wb, df=self.df, **self._kw())
-        return r["mu"], r["sigma"], r["missed_a"], r["missed_b"]
+        return r["mu"], r["sigma"] * self._sd(), r["missed_a"], r["missed_b"]
+
+    def _sd(self) -> float:
+        """SD of the fitted law per unit scale: ``sqrt(df / (df - 2))`` for the t, so that
+        ``C.SIGMA`` stays the spread (SD) of B - A per pair whatever the tails."""
+        return 1.0 if np.isinf(self.df) else float(np.sqrt(self.df / (self.df - 2.0)))
 
     def systematic(self, v, k, t, mu) -> float:
         """Largest change of ``mu`` [dB] over the plausible detection models (0 without

@@ -571,11 +571,11 @@ def pilot_parameters(spots: pd.DataFrame, design: str, a: str, b: str | None = N
     ...                      seed=1)
     >>> pilot = pilot_parameters(sim.spots, "simultaneous", "Q1ABC", "Q1ABD", n_boot=50)
     >>> print(pilot)
-    pilot: 2.0 h, 42 pairs (20.7/h) from 10 receivers (effective 6.9); B-A +3.23 dB (SE 0.259
-    dB), spread 2.37 dB; 2.4 % one-sided (information x0.996); design effect 0.48 (icc 0.0000)
+    pilot: 2.0 h, 42 pairs (20.7/h) from 10 receivers (effective 6.9); B-A +3.52 dB (SE 0.174
+    dB), spread 2.69 dB; 2.4 % one-sided (information x0.997); design effect 0.21 (icc 0.0000)
     >>> est = duration_closed_form(1.0, **pilot.closed_form_inputs())
     >>> round(float(est.hours), 1)
-    2.1
+    2.8
     """
     from spotkit.compare.estimate import compare_antennas
     from spotkit.stats.censored import censored_normal_mle

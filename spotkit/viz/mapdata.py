@@ -300,8 +300,8 @@ def difference_cells(result, *, level: Level = "auto", pairs: pd.DataFrame | Non
     ...         "significant"]
     >>> print(cells[cols].head(3).round(2).to_string(index=False))
     field_locator  b_minus_a_db  far_lat  far_lon  cell_dlat  significant
-               EM           3.0     35.0    -90.0       10.0         True
-               JN           2.9     45.0     10.0       10.0         True
+               EM          3.00     35.0    -90.0       10.0         True
+               JN          3.71     45.0     10.0       10.0         True
                JO           NaN     55.0     10.0       10.0        False
     >>> cells.attrs["level"]
     'field'

@@ -451,8 +451,10 @@ def test_estimate_groups_without_censoring_is_least_squares():
     cd = sps.CensoredData(interval=np.c_[d - 0.5, d + 0.5])
     if np.isinf(new[C.TAIL_DF]):
         m, sd = sps.norm.fit(cd)
-    else:
-        _df, m, sd = sps.t.fit(cd, fix_df=new[C.TAIL_DF])
+    else:  # the t's scale, reported as the SD of the fitted law
+        nu = new[C.TAIL_DF]
+        _df, m, sd = sps.t.fit(cd, fix_df=nu)
+        sd *= np.sqrt(nu / (nu - 2))
     assert new[C.B_MINUS_A] == pytest.approx(m, abs=1e-4)
     assert new[C.SIGMA] == pytest.approx(sd, abs=1e-4)
     assert new[C.CI_LOW] == pytest.approx(new[C.CI_STAT_LOW] - new[C.SYSTEMATIC])
