@@ -72,7 +72,10 @@ def test_alternating_with_unequal_powers():
     assert len(big) >= 3
     # the target: 0.3 dB in cells with thousands of pairs (measured: 0.02 dB)
     np.testing.assert_allclose(big[C.B_MINUS_A], big["b_minus_a_db_true"], atol=0.3)
-    plain = compare_antennas(sim.spots, **sim.compare_kwargs(), missed_reports="none", **kw)
+    # the earlier model (lowest-report thresholds, points) without the mixture; the new
+    # default needs the mixture less (measured without it: within 0.04 dB)
+    plain = compare_antennas(sim.spots, **sim.compare_kwargs(), missed_reports="none",
+                             model="tobit", **kw)
     old = _cells(sim, plain).query(f"{C.PAIRS} >= 2000")
     err_new = (big[C.B_MINUS_A] - big["b_minus_a_db_true"]).abs()
     err_old = (old[C.B_MINUS_A] - old["b_minus_a_db_true"]).abs()
