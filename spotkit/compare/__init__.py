@@ -13,6 +13,7 @@ from spotkit.compare.estimate import (
     MODELS,
     RESULT_COLUMNS,
     TAIL_DFS,
+    TAILS,
     THRESHOLD_CORRECTIONS,
     ComparisonResult,
     compare_antennas,
@@ -63,7 +64,7 @@ __all__ = [
     "WEAKER_DESIGN", "estimate_before_after", "RESULT_COLUMNS", "THRESHOLD_CORRECTIONS",
     "MISSED_REPORTS", "ComparisonResult", "compare_antennas", "edge_correction",
     "estimate_groups", "group_label", "verdict", "ReachResult", "compare_reach",
-    "reach_summary", "reach_by_bearing", "heard_by_distance", "MODELS", "TAIL_DFS",
+    "reach_summary", "reach_by_bearing", "heard_by_distance", "MODELS", "TAIL_DFS", "TAILS",
     "default_detection", "T50_ERROR_DB", "TAU_FACTORS", "TAU_FACTORS_SET",
     "THRESHOLD_METHODS",
 ]
