@@ -685,7 +685,8 @@ def _family(df):
         def logpdf(z):
             return -0.5 * z * z - _LOG_SQRT_2PI
 
-        return (special.ndtr, logpdf, lambda z: z, lambda z: np.ones_like(z))
+        return (special.ndtr, logpdf, lambda z: z, lambda z: np.ones_like(z),
+                special.log_ndtr)
     nu = float(df)
     const = (special.gammaln((nu + 1) / 2) - special.gammaln(nu / 2)
              - 0.5 * np.log(nu * np.pi))
@@ -702,7 +703,11 @@ def _family(df):
     def gp(z):
         return (nu + 1) * (nu - z * z) / (nu + z * z) ** 2
 
-    return cdf, logpdf, g, gp
+    def logcdf(z):
+        with np.errstate(divide="ignore"):
+            return np.log(special.stdtr(nu, z))
+
+    return cdf, logpdf, g, gp, logcdf
 
 
 def _interval_terms(mu, sigma, lo, hi, point, tau2, fam, need_derivs=True):
@@ -712,16 +717,19 @@ def _interval_terms(mu, sigma, lo, hi, point, tau2, fam, need_derivs=True):
     variable with location ``mu`` and scale ``s = sqrt(sigma^2 + tau2)``, or a point
     (``point``: density at ``lo``). Returns ``l, l_m, l_s, l_mm, l_ms, l_ss``.
     """
-    cdf, logpdf, g, gp = fam
+    _cdf, logpdf, g, gp, logcdf = fam
     s = np.sqrt(sigma[:, None] ** 2 + tau2[None, :])
     m = mu[:, None]
     fin_l, fin_h = np.isfinite(lo)[None, :], np.isfinite(hi)[None, :]
     zl = np.where(fin_l, (np.where(fin_l[0], lo, 0.0)[None, :] - m) / s, -np.inf)
     zh = np.where(fin_h, (np.where(fin_h[0], hi, 0.0)[None, :] - m) / s, np.inf)
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-        upper = zl > 0  # both ends in the upper tail: subtract upper-tail areas
-        prob = np.where(upper, cdf(-zl) - cdf(-zh), cdf(zh) - cdf(zl))
-        log_p = np.log(prob)
+        # log(F(zh) - F(zl)) without underflow far in a tail: in the upper tail as
+        # F(-zl) - F(-zh); then log F(hi) + log1p(-F(lo) / F(hi))
+        upper = zl > 0
+        l_hi = logcdf(np.where(upper, -zl, zh))
+        l_lo = logcdf(np.where(upper, -zh, zl))
+        log_p = l_hi + np.log1p(-np.exp(l_lo - l_hi))
         pt = point[None, :]
         zp = np.where(pt, zl, 0.0)
         log_f = logpdf(zp) - np.log(s)

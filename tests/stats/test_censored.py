@@ -443,3 +443,17 @@ def test_mixture_default_is_the_normalised_paired_likelihood(rng):
     mu_b = CN.censored_mixture_mle_batch(vals[:2000], kinds[:2000], np.ones((1, 2000)))[0]
     assert mu_b[0] == pytest.approx(CN.censored_mixture_mle(vals[:2000], kinds[:2000]).mu,
                                     abs=1e-9)
+
+
+def test_interval_fit_survives_a_far_outlier(rng):
+    # a whole-dB difference some 80 sigma from the rest (a fade of the kind Student t
+    # fading makes): its interval probability underflows a plain Phi difference (the
+    # earlier code gave no estimate; scipy's CensoredData fit drops it). The fit stays
+    # finite and, with 1-dB groups, is the sample mean (0.01 dB) and the SD with
+    # Sheppard's correction sqrt(var - 1/12) (Sheppard 1898; 0.05 dB)
+    x = np.r_[np.round(rng.normal(0.0, 2.0, 2000)), 250.0]
+    u, c = np.unique(x, return_counts=True)
+    fit = CN.interval_censored_mle(u, np.zeros(u.size, int), c, half_width_db=0.5)
+    assert fit.converged and np.isfinite(fit.loglik)
+    assert fit.mu == pytest.approx(x.mean(), abs=0.01)
+    assert fit.sigma == pytest.approx(np.sqrt(x.var() - 1 / 12), abs=0.05)
