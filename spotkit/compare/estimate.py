@@ -332,7 +332,8 @@ class _Fitter:
         return float(np.max(moved[np.isfinite(moved)])) if np.isfinite(moved).any() else 0.0
 
 
-def _detection_method_text(det, use_mix, use_edge, confidence, cluster_label, n_boot):
+def _detection_method_text(det, use_mix, use_edge, confidence, cluster_label, n_boot,
+                           tails="auto"):
     """The method line of the detection model."""
     alts = ", ".join(a["label"] for a in det.get("alternatives", []))
     how = "fitted to the reports" if det.get("tau_fitted") else "set"
@@ -342,7 +343,9 @@ def _detection_method_text(det, use_mix, use_edge, confidence, cluster_label, n_
         f"{how})"
         + ("; whole-dB reports as 1-dB intervals" if det["whole_db"] else "")
         + "; both-heard pairs in both conditional likelihoods (given A heard, given B "
-        "heard); tails normal or Student t (3, 5, 10 df) as the data choose (tail_df)"
+        "heard); "
+        + ("tails normal or Student t (3, 5, 10 df) as the data choose (tail_df)"
+           if tails == "auto" else "normal tails")
         + ("" if not use_mix else "; a fitted share of one-sided pairs may be missing for "
            "other reasons (path closed, receiver off)")
         + ("" if not use_edge else "; with a first-order correction for reports at the "
@@ -618,7 +621,7 @@ def estimate_groups(counts: pd.DataFrame, *, n_boot: int = 1000, seed: int = 0,
     res[C.DETECTION_TAU] = np.nan if det is None else det["tau_db"]
     if det is not None:
         res[C.METHOD] = _detection_method_text(det, use_mix, use_edge, confidence,
-                                               cluster_label, n_boot)
+                                               cluster_label, n_boot, tails)
         res[C.NOTE] = notes
         return res
     res[C.METHOD] = (

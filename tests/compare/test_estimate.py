@@ -624,3 +624,5 @@ def test_tails_are_chosen_by_the_data():
     assert r[C.TAIL_DF] <= 5.0
     light, det = _soft_cell(tau_db=0.0, diff_db=0.0)
     assert estimate_groups(light, n_boot=20, seed=1, detection=det).iloc[0][C.TAIL_DF] >= 10
+    normal = estimate_groups(heavy, n_boot=20, seed=1, detection=det, tails="normal").iloc[0]
+    assert normal[C.TAIL_DF] == np.inf and "normal tails" in normal[C.METHOD]
