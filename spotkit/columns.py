@@ -108,6 +108,14 @@ P_SIGN = "p_sign"  # sign-test p over clusters' median both-heard differences
 P_MCNEMAR = "p_mcnemar"  # McNemar-type sign-test p over clusters of only_b - only_a
 SIGMA = "sigma_db"  # fitted spread of B-A per pair [dB]
 CORRECTION = "threshold_correction_db"  # added to the censored MLE (spotkit.compare.estimate) [dB]
+CI_STAT_LOW = "ci_stat_low_db"  # statistical part of the interval alone (cluster bootstrap) [dB]
+CI_STAT_HIGH = "ci_stat_high_db"
+#: systematic part [dB]: largest change of B minus A over the plausible detection models
+#: (curve width, rounding before/after the threshold, 50 % point); CI_LOW / CI_HIGH are the
+#: statistical interval widened by it on both sides
+SYSTEMATIC = "systematic_db"
+TAIL_DF = "tail_df"  # degrees of freedom of the Student t model chosen by the data (inf: normal)
+DETECTION_TAU = "detection_tau_db"  # width of the decoders' detection curve used [dB]
 CLUSTERS = "clusters"  # number of bootstrap clusters (receivers / transmitters) in the group
 NOTE = "note"  # plain-language remark (too few pairs, no interval...)
 GROUP = "group"  # readable group label

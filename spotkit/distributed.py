@@ -272,32 +272,36 @@ class ComparePartials:
 
 
 def receiver_partials(df: pd.DataFrame) -> pd.DataFrame:
-    """Per receiver call: lowest reported SNR [dB] and number of reports (mergeable)."""
-    g = df.groupby(C.RX_CALL, observed=True)[C.SNR].agg(["min", "count"])
-    g.index = g.index.astype(str)
+    """Per receiver call and whole-dB SNR [dB]: number of reports (mergeable).
+
+    The receiver thresholds (:func:`spotkit.compare.pairing.receiver_thresholds`) need each
+    receiver's report histogram: the 50 % point of its detection curve is fitted to it."""
+    v = np.floor(df[C.SNR].to_numpy(dtype=float) + 0.5)
+    g = (pd.DataFrame({C.RX_CALL: df[C.RX_CALL].astype(str).to_numpy(), C.SNR: v})
+         .dropna().groupby([C.RX_CALL, C.SNR]).size().rename("count").reset_index())
     return g
 
 
 def combine_receivers(parts: Iterable[pd.DataFrame]) -> pd.DataFrame:
-    """Merge :func:`receiver_partials`: minimum of minima, sum of counts."""
-    cat = pd.concat(list(parts))
-    return cat.groupby(level=0).agg({"min": "min", "count": "sum"})
+    """Merge :func:`receiver_partials`: counts summed per receiver and SNR."""
+    cat = pd.concat(list(parts), ignore_index=True)
+    return cat.groupby([C.RX_CALL, C.SNR], as_index=False)["count"].sum()
 
 
 def thresholds_from_partials(partials: pd.DataFrame, min_reports: int = 20) -> pd.Series:
-    """Receiver thresholds exactly as :func:`spotkit.compare.pairing.receiver_thresholds` on
-    the whole table, from merged :func:`receiver_partials`.
+    """Receiver thresholds as :func:`spotkit.compare.pairing.receiver_thresholds` on the
+    whole table, from merged :func:`receiver_partials`.
 
-    The pairing function needs only each receiver's minimum and whether it has at least
-    ``min_reports`` reports, so it is run on a stand-in table of ``min(count, min_reports)``
-    copies of each receiver's minimum.
+    The pairing function is run on a stand-in table with each receiver's whole-dB reports
+    (the same histograms; SNRs that were not whole dB are taken at their whole dB).
+    ``attrs["detection"]`` carries the detection model fitted to all of them.
     """
     from spotkit.compare.pairing import receiver_thresholds
 
-    reps = np.minimum(partials["count"].to_numpy(dtype=np.int64), int(min_reports))
+    reps = partials["count"].to_numpy(dtype=np.int64)
     stand_in = pd.DataFrame({
-        C.RX_CALL: np.repeat(partials.index.to_numpy(dtype=object), reps),
-        C.SNR: np.repeat(partials["min"].to_numpy(dtype=float), reps)})
+        C.RX_CALL: np.repeat(partials[C.RX_CALL].to_numpy(dtype=object), reps),
+        C.SNR: np.repeat(partials[C.SNR].to_numpy(dtype=float), reps)})
     return receiver_thresholds(stand_in, min_reports)
 
 
@@ -335,15 +339,18 @@ def compare_partials(df: pd.DataFrame, design: str, a: str, b: str | None = None
     present = set(df[col].astype(str).unique()) if len(df) else set()
     if not all(c in present for c in need):
         return empty
+    # the partition's thresholds use the width of the detection curve fitted to all data
+    tau = None if thresholds is None else (thresholds.attrs.get("detection") or {}).get(
+        "tau_db")
     try:
         pairs = pair_spots(df, design, a, b, schedule=schedule, change_at=change_at,
                            window_slots=window_slots,
                            min_receiver_reports=min_receiver_reports,
-                           require_open_path=require_open_path)
+                           require_open_path=require_open_path, tau_db=tau)
     except NoPairsError:
         return empty
     if thresholds is not None:  # before/after too: its bounds use the threshold as well
-        local = receiver_thresholds(df, min_receiver_reports)
+        local = receiver_thresholds(df, min_receiver_reports, tau_db=tau)
         shift = thresholds.reindex(local.index).to_numpy(dtype=float) - local.to_numpy()
         shift = pd.Series(shift, index=local.index.astype(str))
         if design == "receive":
@@ -412,7 +419,8 @@ def combine_compare(partials: Iterable[ComparePartials]) -> ComparePartials:
 def finish_compare(merged: ComparePartials, design: str, a: str, b: str | None = None, *,
                    by=(), n_boot: int = 1000, seed: int = 0, min_pairs: int = 30,
                    confidence: float = 0.95, options: dict | None = None,
-                   threshold_correction: str = "none", missed_reports: str = "fit"):
+                   threshold_correction: str = "none", missed_reports: str = "fit",
+                   detection: dict | None = None):
     """Estimate B minus A from merged partials, as
     :func:`spotkit.compare.estimate.compare_antennas`.
 
@@ -433,7 +441,8 @@ def finish_compare(merged: ComparePartials, design: str, a: str, b: str | None =
     label = "transmitters" if design == "receive" else "receivers"
     est = dict(n_boot=n_boot, seed=seed, confidence=confidence, min_pairs=min_pairs,
                clusters=sorted(merged.clusters), cluster_label=label,
-               threshold_correction=threshold_correction, missed_reports=missed_reports)
+               threshold_correction=threshold_correction, missed_reports=missed_reports,
+               detection=detection)
     overall = estimate_groups(merged.overall, **est).iloc[0].to_dict()
     overall[C.P_ADJUSTED] = overall[C.P_VALUE]
     if keys:
@@ -547,7 +556,8 @@ def compare_dask(source, design: str, a: str, b: str | None = None, *, by=(), sc
     return finish_compare(merged, design, a, b, by=keys, n_boot=n_boot, seed=seed,
                           min_pairs=min_pairs, confidence=confidence, options=options,
                           threshold_correction=threshold_correction,
-                          missed_reports=missed_reports)
+                          missed_reports=missed_reports,
+                          detection=thr.attrs.get("detection"))
 
 
 def _distinct_calls(df: pd.DataFrame, col: str) -> set:

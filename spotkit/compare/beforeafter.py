@@ -159,7 +159,10 @@ def estimate_before_after(counts, keys, n_boot, seed, confidence, min_pairs, clu
         d = np.where(both, s_aft / n_aft - s_bef / n_bef, np.nan)
     W = stats.cluster_bootstrap_weights(cl_names.size, int(n_boot),
                                         np.random.default_rng(seed)).astype(float)
-    fit_one = stats.censored_mixture_mle if use_mix else stats.censored_normal_mle
+    def fit_one(v, k, t):  # one report per observation: exact weight 1 is normalised here
+        return (stats.censored_mixture_mle(v, k, t, exact_weight=1.0) if use_mix
+                else stats.censored_normal_mle(v, k, t))
+
     n_groups = len(groups)
     est = np.full(n_groups, np.nan)
     lo = np.full(n_groups, np.nan)
@@ -219,7 +222,8 @@ def estimate_before_after(counts, keys, n_boot, seed, confidence, min_pairs, clu
                         np.random.default_rng([int(seed), g, int(period)]))
                     cw = cw * V[:, dpos]
                 wb = np.asarray(S @ cw.T).T
-                reps.append(stats.censored_mixture_mle_batch(v, k, wb)[0] if use_mix
+                reps.append(stats.censored_mixture_mle_batch(v, k, wb, exact_weight=1.0)[0]
+                            if use_mix
                              else stats.censored_normal_mle_batch(v, k, wb)[0])
         if not (np.isfinite(fits[0].mu) and np.isfinite(fits[1].mu)):
             notes[g] = f"no estimate: the censored fit has no maximum in a period ({base})"
@@ -259,6 +263,11 @@ def estimate_before_after(counts, keys, n_boot, seed, confidence, min_pairs, clu
     res[C.P_MCNEMAR] = np.nan
     res[C.SIGMA] = sig
     res[C.CORRECTION] = np.nan
+    res[C.CI_STAT_LOW] = lo
+    res[C.CI_STAT_HIGH] = hi
+    res[C.SYSTEMATIC] = np.nan  # the detection model's systematic part is not assessed here
+    res[C.TAIL_DF] = np.inf
+    res[C.DETECTION_TAU] = np.nan
     res[C.METHOD] = (
         "after minus before of a censored-normal MLE (Tobit) of the target's per-W SNR "
         "relative to the mean of the control stations heard by the same receiver on the "

@@ -40,12 +40,18 @@ states), so A and B may run at different powers.
 Censoring. A missing report is "not heard" only when that antenna was on the air in that
 slot and band (some receiver heard it there; alternating: the schedule says so too).
 Otherwise the pair is set aside with a reason (counts in ``pairs.attrs["set_aside"]``).
-A receiver's decode threshold is the lowest raw SNR it reported in the whole table (any
-station): its reports never go below its threshold, so the minimum is an upper estimate of
-the true threshold and the bound ``LIMIT = threshold - (power - 30)`` [dB per W] stays
-valid, only looser. For receivers with fewer than ``min_receiver_reports`` reports the
-minimum is a poor estimate; their threshold is the smaller of their own minimum and the
-median threshold of the well-observed receivers (documented approximation).
+A receiver's decode threshold is the 50 % point ``t50`` of its detection curve
+``P(decoded | s) = Phi((s - t50) / tau)``, fitted to the low end of its report histogram
+(:func:`receiver_thresholds`, :mod:`spotkit.stats.detection`); the limit is
+``LIMIT = t50 - (power - 30)`` [dB per W]. A one-sided pair's bound is therefore soft: the
+censored fit widens it by ``tau`` (:func:`spotkit.stats.censored.interval_censored_mle`).
+The detection model (``tau``, whether reports are whole dB, and the plausible
+alternatives that make the systematic part of the interval) travels with the pairs in
+``pairs.attrs["detection"]``. ``threshold_method="lowest"`` gives the earlier model, the
+lowest report of each receiver as a hard threshold (about ``2 tau`` below the 50 %
+point: it favours the antenna more often heard alone). Receivers with fewer than
+``min_receiver_reports`` reports near their threshold take a typical threshold
+(:func:`receiver_thresholds`).
 
 Known error: the model assumes the two antennas see the same propagation within a pair;
 in the alternating design the path changes between neighbouring slots (2-4 minutes), which
@@ -64,6 +70,7 @@ from spotkit import columns as C
 from spotkit._validate import check_choice, check_time
 from spotkit.compare.grouping import _DAY_NS, _SLOT_NS, _ns, _to_utc
 from spotkit.errors import InputError, NoPairsError, SpotkitWarning, UsageError
+from spotkit.stats.detection import ROUNDINGS, Rounding, fit_tau, fit_thresholds
 from spotkit.units import REFERENCE_POWER_DBM, snr_per_watt
 
 Design = Literal["simultaneous", "alternating", "receive", "before-after"]
@@ -152,41 +159,159 @@ def _thr_by_code(thr: pd.Series, cats: dict) -> np.ndarray:
         dtype=float)
 
 
-def receiver_thresholds(spots: pd.DataFrame, min_reports: int = 20) -> pd.Series:
-    """Each receiver's decode threshold, from the lowest SNR it reported.
+ThresholdMethod = Literal["t50", "lowest"]
+THRESHOLD_METHODS = ("t50", "lowest")
+#: plausible detection models around the fitted one, for the systematic part of the
+#: interval: the curve width times these factors (the pooled fit recovers it within
+#: about 15 % by simulation; a width that is set, not fitted, gets TAU_FACTORS_SET) ...
+TAU_FACTORS = (0.75, 1.25)
+TAU_FACTORS_SET = (0.5, 1.5)
+#: ... and the 50 % point moved by this much either way [dB], the known error of its fit
+#: (:mod:`spotkit.stats.detection`, by simulation)
+T50_ERROR_DB = 0.25
+_BELOW, _WINDOW = 3, 7
+
+
+def _report_histograms(spots: pd.DataFrame):
+    """Receiver calls, lowest whole-dB report, window histograms and report counts."""
+    snr = spots[C.SNR].to_numpy(dtype=float)
+    rx = spots[C.RX_CALL]
+    codes, calls = pd.factorize(rx.astype(str) if not isinstance(
+        rx.dtype, pd.CategoricalDtype) else rx.astype(str), sort=True)
+    ok = np.isfinite(snr) & (codes >= 0)
+    codes, v = codes[ok], np.floor(snr[ok] + 0.5)
+    n_rx = len(calls)
+    lowest = np.full(n_rx, np.inf)
+    np.minimum.at(lowest, codes, v)
+    j = (v - lowest[codes]).astype(np.int64) + _BELOW
+    width = _BELOW + _WINDOW + 1
+    inw = j < width
+    hist = np.bincount(codes[inw] * width + j[inw], minlength=n_rx * width).reshape(
+        n_rx, width).astype(float)
+    count = np.bincount(codes, minlength=n_rx)
+    return pd.Index(calls, name=C.RX_CALL), lowest, hist, count
+
+
+def receiver_thresholds(spots: pd.DataFrame, min_reports: int = 20, *,
+                        method: ThresholdMethod = "t50", tau_db: float | None = None,
+                        rounding: Rounding = "after") -> pd.Series:
+    """Each receiver's decode threshold: the 50 % point of its detection curve.
+
+    ``method="t50"`` (default) fits ``P(decoded | s) = Phi((s - t50) / tau)`` to the low
+    end of each receiver's report histogram (:func:`spotkit.stats.detection.fit_thresholds`;
+    ``tau`` common to all receivers, fitted by profile likelihood unless given) - the
+    point where half of the signals at that SNR are decoded, which is what the censored
+    fit needs. ``method="lowest"``: the lowest report (the earlier model; with a soft
+    decoder it is the bottom of the ramp, about ``2 tau`` below the 50 % point, and makes
+    the one-sided bounds too tight).
 
     Parameters
     ----------
     spots : pandas.DataFrame
         Canonical spot table (``C.RX_CALL``, ``C.SNR``).
     min_reports : int
-        Receivers with fewer reports get the smaller of their own minimum and the median
-        threshold of the receivers with at least this many reports.
+        Receivers with fewer reports (in the fit window, for ``t50``) get the smaller of
+        the median threshold of the better-observed receivers and their own lowest report
+        plus the median distance between the two of those receivers; when no receiver has
+        that many, the same from one fit to all reports together (``lowest``: the smaller
+        of their own minimum and the median threshold).
+    method : {"t50", "lowest"}
+        See above.
+    tau_db : float, optional
+        Width of the detection curve [dB]; fitted when None.
+    rounding : {"after", "before"}
+        Whether the decoder decides on the raw SNR and rounds the report afterwards.
 
     Returns
     -------
     pandas.Series
-        Threshold [dB, raw SNR in 2500 Hz] indexed by receiver call.
+        Threshold [dB, raw SNR in 2500 Hz] indexed by receiver call. For ``t50``,
+        ``attrs["detection"]`` holds the detection model: ``tau_db``, ``rounding``,
+        ``whole_db`` (reports in whole dB), ``method`` and ``alternatives`` (the plausible
+        models of the systematic part: label, ``tau_db`` and the median shift of the
+        thresholds ``shift_db``).
 
     Examples
     --------
-    Q2XY sent 25 reports down to -27 dB; Q3DEF only 3, the lowest -20 dB, so it gets the
-    median threshold of the well-observed receivers unless ``min_reports`` is lowered:
+    Q2XY sent 25 reports from -27 to -3 dB; Q3DEF only 3, the lowest -20 dB:
 
     >>> spots = pd.DataFrame({"rx_call": ["Q2XY"] * 25 + ["Q3DEF"] * 3,
     ...                       "snr_db": list(range(-27, -2)) + [-20, -15, -10]})
-    >>> receiver_thresholds(spots).to_dict()
+    >>> receiver_thresholds(spots, method="lowest").to_dict()
     {'Q2XY': -27.0, 'Q3DEF': -27.0}
-    >>> receiver_thresholds(spots, min_reports=3).to_dict()
+    >>> receiver_thresholds(spots, min_reports=3, method="lowest").to_dict()
     {'Q2XY': -27.0, 'Q3DEF': -20.0}
+
+    Q2XY's histogram is flat from its lowest report up: a sharp edge, so its 50 % point
+    lies just below -27 dB (a whole-dB report of -27 stands for -27.5 to -26.5 dB); Q3DEF,
+    with too few reports, gets the same:
+
+    >>> thr = receiver_thresholds(spots, tau_db=1.0)
+    >>> thr.round(2).to_dict()
+    {'Q2XY': -27.15, 'Q3DEF': -27.15}
+    >>> thr.attrs["detection"]["tau_db"], thr.attrs["detection"]["whole_db"]
+    (1.0, True)
     """
-    g = spots.groupby(C.RX_CALL, observed=True)[C.SNR].agg(["min", "count"])
-    thr = g["min"].astype(float)
-    well = g["count"] >= min_reports
-    if well.any() and (~well).any():
-        typical = float(thr[well].median())
-        thr[~well] = np.minimum(thr[~well], typical)
-    thr.name = C.THRESHOLD
+    check_choice(method, THRESHOLD_METHODS, "threshold method")
+    if method == "lowest":
+        g = spots.groupby(C.RX_CALL, observed=True)[C.SNR].agg(["min", "count"])
+        thr = g["min"].astype(float)
+        well = g["count"] >= min_reports
+        if well.any() and (~well).any():
+            typical = float(thr[well].median())
+            thr[~well] = np.minimum(thr[~well], typical)
+        thr.name = C.THRESHOLD
+        return thr
+    check_choice(rounding, ROUNDINGS, "rounding")
+    calls, lowest, hist, _count = _report_histograms(spots)
+    snr = spots[C.SNR].to_numpy(dtype=float)
+    snr = snr[np.isfinite(snr)]
+    whole = bool(snr.size) and bool(np.mean(np.abs(snr - np.round(snr)) < 1e-6) >= 0.99)
+    # all reports as one receiver: the fallback when no receiver is well observed
+    v_all = np.floor(snr + 0.5)
+    low_all = float(v_all.min()) if v_all.size else 0.0
+    j_all = (v_all - low_all).astype(np.int64) + _BELOW
+    pooled = np.bincount(j_all[j_all < hist.shape[1]], minlength=hist.shape[1])[None, :]
+    well = hist.sum(axis=1) >= min_reports
+    kw = dict(below_db=_BELOW, window_db=_WINDOW)
+
+    def fit(tau, rnd):
+        t50 = np.full(len(calls), np.nan)
+        if well.any():
+            t50[well] = fit_thresholds(hist[well], lowest[well], tau_db=tau, rounding=rnd,
+                                       **kw)[0]
+            typical = float(np.median(t50[well]))
+            offset = float(np.median(t50[well] - lowest[well]))
+        else:
+            typical = float(fit_thresholds(pooled, [low_all], tau_db=tau, rounding=rnd,
+                                           **kw)[0][0])
+            offset = typical - low_all
+        t50[~well] = np.minimum(typical, lowest[~well] + offset)
+        return t50
+
+    if tau_db is not None:
+        tau = float(tau_db)
+    elif well.any():
+        tau = fit_tau(hist[well], lowest[well], rounding=rounding, **kw)
+    else:
+        tau = fit_tau(pooled, [low_all], rounding=rounding, **kw)
+    t50 = fit(tau, rounding)
+    alternatives = []
+    for f in TAU_FACTORS if tau_db is None else TAU_FACTORS_SET:
+        alt = fit(tau * f, rounding)
+        alternatives.append(dict(label=f"detection width x{f:g}", tau_db=tau * f,
+                                 shift_db=float(np.median(alt - t50))))
+    other = "before" if rounding == "after" else "after"
+    alt = fit(tau, other)
+    alternatives.append(dict(label=f"rounding {other} the threshold", tau_db=tau,
+                             shift_db=float(np.median(alt - t50))))
+    for sgn in (-1, 1):
+        alternatives.append(dict(label=f"50 % point {sgn * T50_ERROR_DB:+g} dB", tau_db=tau,
+                                 shift_db=sgn * T50_ERROR_DB))
+    thr = pd.Series(t50, index=calls, name=C.THRESHOLD)
+    thr.attrs["detection"] = dict(method="t50", tau_db=tau, rounding=rounding,
+                                  whole_db=whole, tau_fitted=tau_db is None,
+                                  alternatives=alternatives)
     return thr
 
 
@@ -740,7 +865,8 @@ def _pair_before_after(spots, a, b, change_at, set_aside, cats, thr):
 def pair_spots(spots: pd.DataFrame, design: Design, a: str, b: str | None = None, *,
                schedule=None, change_at=None, window_slots: int = 1,
                min_receiver_reports: int = 20,
-               require_open_path: bool = True) -> pd.DataFrame:
+               require_open_path: bool = True, threshold_method: ThresholdMethod = "t50",
+               tau_db: float | None = None) -> pd.DataFrame:
     """Pair the reports of antennas A and B according to an experiment design.
 
     Parameters
@@ -766,6 +892,10 @@ def pair_spots(spots: pd.DataFrame, design: Design, a: str, b: str | None = None
         slot just before and the slot just after the pair (either antenna), as evidence
         that the path stayed open; otherwise a path that closes between the A and the B
         slot looks like a one-sided pair. Pairs without that evidence are set aside.
+    threshold_method : {"t50", "lowest"}
+        How receiver thresholds are found (:func:`receiver_thresholds`).
+    tau_db : float, optional
+        Width of the detection curve [dB]; fitted from the reports when None.
 
     Returns
     -------
@@ -778,7 +908,8 @@ def pair_spots(spots: pd.DataFrame, design: Design, a: str, b: str | None = None
         [dB per W; NaN if not heard], ``C.LIMIT_A``, ``C.LIMIT_B`` [dB per W, censoring
         limits], ``C.HEARD_A``, ``C.HEARD_B``; before-after adds ``C.KIND`` ("before" /
         "after") and its SNR columns hold the target-minus-control SNR [dB]. ``attrs``
-        holds ``set_aside`` ({reason: reports or pairs}) and ``design``.
+        holds ``set_aside`` ({reason: reports or pairs}), ``design`` and ``detection``
+        (the detection model, :func:`receiver_thresholds`; None with ``"lowest"``).
 
     Raises
     ------
@@ -789,7 +920,8 @@ def pair_spots(spots: pd.DataFrame, design: Design, a: str, b: str | None = None
     Examples
     --------
     A short simulated run (2.4 hours, one band) with B 3 dB better than A, both at 37 dBm:
-    the limits are each receiver's lowest report minus 7 dB (per-W scale):
+    the limits are each receiver's 50 % decode point minus 7 dB (per-W scale); with so few
+    reports per receiver that point comes from one fit to all reports (-30.46 dB):
 
     >>> from spotkit.sim.simulate import simulate_spots
     >>> sim = simulate_spots(days=0.1, n_receivers=30, bands=("20m",), difference_db=3.0,
@@ -798,10 +930,10 @@ def pair_spots(spots: pd.DataFrame, design: Design, a: str, b: str | None = None
     >>> len(pairs), int(pairs["heard_a"].sum()), int(pairs["heard_b"].sum())
     (42, 41, 42)
     >>> cols = ["cluster", "far_locator", "snr_a_db", "snr_b_db", "limit_a_db", "limit_b_db"]
-    >>> print(pairs[cols].head(2).to_string(index=False))
+    >>> print(pairs[cols].head(2).round(2).to_string(index=False))
     cluster far_locator  snr_a_db  snr_b_db  limit_a_db  limit_b_db
-      Q0JAS        JN05      -5.0      -2.0       -23.0       -23.0
-      Q0JAS        JN05      -7.0      -2.0       -23.0       -23.0
+      Q0JAS        JN05      -5.0      -2.0      -37.46      -37.46
+      Q0JAS        JN05      -7.0      -2.0      -37.46      -37.46
     >>> pair_spots(sim.spots, "simultaneous", "Q1ABC", "Q9ZZZ")
     Traceback (most recent call last):
     ...
@@ -810,7 +942,8 @@ def pair_spots(spots: pd.DataFrame, design: Design, a: str, b: str | None = None
     _check_design(design)
     spots = _validate(spots)
     set_aside: dict[str, int] = {}
-    thr = receiver_thresholds(spots, min_receiver_reports)
+    thr = receiver_thresholds(spots, min_receiver_reports, method=threshold_method,
+                              tau_db=tau_db)
     work, cats = _encode(spots)
     after = None
     if design == "simultaneous":
@@ -829,9 +962,11 @@ def pair_spots(spots: pd.DataFrame, design: Design, a: str, b: str | None = None
     if after is not None:
         out[C.KIND] = pd.Categorical(np.where(after, "after", "before"),
                                      categories=list(C.PERIOD_KINDS))
+    out.attrs["detection"] = thr.attrs.get("detection")
     return out
 
 
 
-__all__ = ["DESIGNS", "PAIR_COLUMNS", "PERIOD_BOUND_KINDS", "pair_spots",
+__all__ = ["DESIGNS", "PAIR_COLUMNS", "THRESHOLD_METHODS", "TAU_FACTORS",
+           "TAU_FACTORS_SET", "T50_ERROR_DB", "PERIOD_BOUND_KINDS", "pair_spots",
            "receiver_thresholds", "read_schedule", "schedule_antennas"]

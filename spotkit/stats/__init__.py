@@ -1,5 +1,5 @@
-"""The statistics of paired reports: rank and sign tests, the censored-normal fit of
-B minus A, and the cluster bootstrap.
+"""The statistics of paired reports: rank and sign tests, the censored fits of B minus A,
+the decoders' detection curve, and the cluster bootstrap.
 """
 
 from spotkit.stats.bootstrap import (
@@ -11,13 +11,23 @@ from spotkit.stats.bootstrap import (
     stratified_bootstrap_weights,
 )
 from spotkit.stats.censored import (
+    MIXTURE_EXACT_WEIGHT,
     SIGMA_FLOOR_DB,
     CensoredFit,
     censored_mixture_mle,
     censored_mixture_mle_batch,
     censored_normal_mle,
     censored_normal_mle_batch,
+    interval_censored_mle,
+    interval_censored_mle_batch,
     normal_share,
+)
+from spotkit.stats.detection import (
+    DEFAULT_TAU_DB,
+    ROUNDINGS,
+    TAU_GRID_DB,
+    fit_tau,
+    fit_thresholds,
 )
 from spotkit.stats.paired import (
     TestResult,
@@ -37,6 +47,8 @@ __all__ = [
     "SIGMA_FLOOR_DB",
     "CensoredFit", "censored_normal_mle", "censored_normal_mle_batch",
     "censored_mixture_mle", "censored_mixture_mle_batch", "normal_share",
+    "interval_censored_mle", "interval_censored_mle_batch", "MIXTURE_EXACT_WEIGHT",
+    "DEFAULT_TAU_DB", "ROUNDINGS", "TAU_GRID_DB", "fit_thresholds", "fit_tau",
     "INTERVAL_METHODS", "DRAWS", "cluster_bootstrap_weights",
     "stratified_bootstrap_weights", "bootstrap_interval", "bootstrap_p_value",
 ]

@@ -72,7 +72,10 @@ def test_alternating_with_unequal_powers():
     assert len(big) >= 3
     # the target: 0.3 dB in cells with thousands of pairs (measured: 0.02 dB)
     np.testing.assert_allclose(big[C.B_MINUS_A], big["b_minus_a_db_true"], atol=0.3)
-    plain = compare_antennas(sim.spots, **sim.compare_kwargs(), missed_reports="none", **kw)
+    # the earlier model (lowest-report thresholds, points) without the mixture; the new
+    # default needs the mixture less (measured without it: within 0.04 dB)
+    plain = compare_antennas(sim.spots, **sim.compare_kwargs(), missed_reports="none",
+                             model="tobit", **kw)
     old = _cells(sim, plain).query(f"{C.PAIRS} >= 2000")
     err_new = (big[C.B_MINUS_A] - big["b_minus_a_db_true"]).abs()
     err_old = (old[C.B_MINUS_A] - old["b_minus_a_db_true"]).abs()
@@ -440,9 +443,25 @@ def test_estimate_groups_without_censoring_is_least_squares():
     cl = np.repeat([f"Q2R{i}" for i in range(20)], 20)
     counts = (pd.DataFrame({C.CLUSTER: cl, C.KIND: "both", C.VALUE: d})
               .groupby([C.CLUSTER, C.KIND, C.VALUE]).size().rename(C.COUNT).reset_index())
-    r = estimate_groups(counts, n_boot=200, seed=1).iloc[0]
+    r = estimate_groups(counts, n_boot=200, seed=1, model="tobit").iloc[0]
     assert r[C.B_MINUS_A] == pytest.approx(d.mean(), abs=1e-9)
     assert r[C.SIGMA] == pytest.approx(d.std(), abs=1e-9)
+    assert r[C.SYSTEMATIC] == 0.0 and r[C.CI_STAT_LOW] == r[C.CI_LOW]
+    # the detection model takes the whole-dB values as 1-dB intervals: its fit is scipy's
+    # interval-censored fit (scipy.stats CensoredData, normal or the t the data chose),
+    # to 1e-4 dB
+    new = estimate_groups(counts, n_boot=200, seed=1).iloc[0]
+    cd = sps.CensoredData(interval=np.c_[d - 0.5, d + 0.5])
+    if np.isinf(new[C.TAIL_DF]):
+        m, sd = sps.norm.fit(cd)
+    else:  # the t's scale, reported as the SD of the fitted law
+        nu = new[C.TAIL_DF]
+        _df, m, sd = sps.t.fit(cd, fix_df=nu)
+        sd *= np.sqrt(nu / (nu - 2))
+    assert new[C.B_MINUS_A] == pytest.approx(m, abs=1e-4)
+    assert new[C.SIGMA] == pytest.approx(sd, abs=1e-4)
+    assert new[C.CI_LOW] == pytest.approx(new[C.CI_STAT_LOW] - new[C.SYSTEMATIC])
+    assert new[C.CI_HIGH] == pytest.approx(new[C.CI_STAT_HIGH] + new[C.SYSTEMATIC])
     assert r[C.CORRECTION] == 0.0 and r[C.ONLY_A] == 0 and np.isnan(r[C.P_MCNEMAR])
     assert r[C.CI_LOW] < d.mean() < r[C.CI_HIGH]
     # the side tests take receivers as the units: oracle scipy.stats.wilcoxon and
@@ -526,3 +545,90 @@ def test_before_after_one_day_per_period_gives_no_interval_and_says_so():
     row = estimate_groups(_ba_counts([0.0, 0.5], [1.0, 1.2]).drop(columns=C.SLOT),
                           n_boot=50).iloc[0]
     assert np.isnan(row[C.CI_LOW]) and row[C.NOTE].startswith("the table has no day blocks")
+
+
+# --- the detection model: systematic part, columns, method line ---------------------------
+def _soft_cell(seed=5, **kw):
+    from detection_cells import cell_counts, make_cell
+
+    from spotkit.compare.pairing import receiver_thresholds
+
+    spots, pairs, _ = make_cell(np.random.default_rng(seed), n_pairs=3000, n_rx=30,
+                                other_reports=150, **kw)
+    thr = receiver_thresholds(spots)
+    return cell_counts(pairs, thr), thr.attrs["detection"]
+
+
+def test_systematic_part_widens_the_interval():
+    # soft threshold (1 dB), whole dB, A 7 dB below B: a third of the pairs are one-sided,
+    # so the estimate depends on the detection model. The interval is the statistical one
+    # widened by the systematic part on each side
+    counts, det = _soft_cell(tau_db=1.0, diff_db=7.0)
+    r = estimate_groups(counts, n_boot=100, seed=1, detection=det).iloc[0]
+    assert det["tau_fitted"] and det["tau_db"] == pytest.approx(1.0, abs=0.3)
+    assert r[C.DETECTION_TAU] == det["tau_db"]
+    assert 0.005 < r[C.SYSTEMATIC] < 0.2
+    assert r[C.CI_LOW] == pytest.approx(r[C.CI_STAT_LOW] - r[C.SYSTEMATIC], abs=1e-12)
+    assert r[C.CI_HIGH] == pytest.approx(r[C.CI_STAT_HIGH] + r[C.SYSTEMATIC], abs=1e-12)
+    assert r[C.B_MINUS_A] == pytest.approx(7.0, abs=0.25)
+    assert "soft detection model" in r[C.METHOD] and "systematic part" in r[C.METHOD]
+    assert "whole-dB reports as 1-dB intervals" in r[C.METHOD]
+    # the same fit without alternatives: no systematic part, the statistical interval
+    bare = estimate_groups(counts, n_boot=100, seed=1,
+                           detection=dict(det, alternatives=[])).iloc[0]
+    assert bare[C.SYSTEMATIC] == 0.0 and bare[C.CI_LOW] == bare[C.CI_STAT_LOW]
+    assert bare[C.B_MINUS_A] == r[C.B_MINUS_A]
+    # the systematic part is the largest change over the alternatives: each one alone
+    # gives at most it, one of them exactly
+    parts = [estimate_groups(counts, n_boot=2, seed=1,
+                             detection=dict(det, alternatives=[a])).iloc[0][C.SYSTEMATIC]
+             for a in det["alternatives"]]
+    assert max(parts) == pytest.approx(r[C.SYSTEMATIC], abs=1e-12)
+
+
+def test_earlier_model_on_request_and_bad_model():
+    counts, det = _soft_cell(tau_db=1.0, diff_db=7.0)
+    old = estimate_groups(counts, n_boot=50, seed=1, model="tobit").iloc[0]
+    assert old[C.SYSTEMATIC] == 0.0 and np.isnan(old[C.DETECTION_TAU])
+    assert old[C.TAIL_DF] == np.inf and "Tobit" in old[C.METHOD]
+    from spotkit.errors import UsageError
+    with pytest.raises(UsageError, match="detection, tobit"):
+        estimate_groups(counts, model="probit")
+
+
+def test_whole_db_is_detected_from_the_values():
+    # without a detection model the values decide: whole-dB differences -> intervals
+    counts, _ = _soft_cell(tau_db=0.0, diff_db=0.0)
+    r = estimate_groups(counts, n_boot=20, seed=1).iloc[0]
+    assert "1-dB intervals" in r[C.METHOD] and "tau 1.00 dB set" in r[C.METHOD]
+    frac = counts.assign(**{C.VALUE: counts[C.VALUE] + 0.37})
+    r2 = estimate_groups(frac, n_boot=20, seed=1).iloc[0]
+    assert "1-dB intervals" not in r2[C.METHOD]
+
+
+def test_compare_antennas_default_and_earlier_model():
+    sim = simulate_spots(days=0.25, n_receivers=40, bands=("20m",), difference_db=2.0,
+                         seed=4)
+    new = compare_antennas(sim.spots, "simultaneous", sim.a, sim.b, n_boot=50)
+    old = compare_antennas(sim.spots, "simultaneous", sim.a, sim.b, n_boot=50, model="tobit")
+    assert new.options["model"] == "detection" and old.options["model"] == "tobit"
+    assert set(RESULT_COLUMNS) <= set(new.overall)
+    assert new.pairs.attrs["detection"]["method"] == "t50"
+    assert old.pairs.attrs["detection"] is None
+    for r in (new, old):
+        assert r.overall[C.CI_LOW] <= 2.0 <= r.overall[C.CI_HIGH]
+    fixed = compare_antennas(sim.spots, "simultaneous", sim.a, sim.b, n_boot=20, tau_db=0.8)
+    assert fixed.overall[C.DETECTION_TAU] == 0.8 and "tau 0.80 dB set" in fixed.overall[
+        C.METHOD]
+
+
+def test_tails_are_chosen_by_the_data():
+    # Student t fading with 3 df: a t with 3 or 5 df is chosen; normal fading: the normal
+    # or the t with 10 df
+    heavy, det = _soft_cell(tau_db=0.0, diff_db=0.0, fade_df=3.0)
+    r = estimate_groups(heavy, n_boot=50, seed=1, detection=det).iloc[0]
+    assert r[C.TAIL_DF] <= 5.0
+    light, det = _soft_cell(tau_db=0.0, diff_db=0.0)
+    assert estimate_groups(light, n_boot=20, seed=1, detection=det).iloc[0][C.TAIL_DF] >= 10
+    normal = estimate_groups(heavy, n_boot=20, seed=1, detection=det, tails="normal").iloc[0]
+    assert normal[C.TAIL_DF] == np.inf and "normal tails" in normal[C.METHOD]

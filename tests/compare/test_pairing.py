@@ -49,7 +49,8 @@ def simultaneous():
 
 
 def test_simultaneous_pairs_values_and_limits(simultaneous):
-    p = pair_spots(simultaneous, "simultaneous", "Q1AAA", "q1bbb")
+    # the limits' arithmetic with the lowest-report thresholds (a handful of reports)
+    p = pair_spots(simultaneous, "simultaneous", "Q1AAA", "q1bbb", threshold_method="lowest")
     assert len(p) == 4
     assert p.attrs["set_aside"] == {"only B heard and A not on the air in that slot": 1}
     p = p.set_index([C.CLUSTER, C.SLOT]).sort_index()
@@ -76,7 +77,7 @@ def test_receive_design_clusters_are_transmitters():
         (3, "Q6TX", "PM95", "Q1RXB", "JN58", "20m", -27, 23),
         (3, "Q5TX", "FN31", "Q1RXA", "JN58", "20m", -24, 37),
     ])
-    p = pair_spots(s, "receive", "Q1RXA", "Q1RXB")
+    p = pair_spots(s, "receive", "Q1RXA", "Q1RXB", threshold_method="lowest")
     assert set(p[C.CLUSTER]) == {"Q5TX", "Q6TX"}
     assert len(p) == 4
     row = p[(p[C.CLUSTER] == "Q6TX") & p[C.HEARD_A]].iloc[0]
@@ -120,10 +121,47 @@ def test_no_pairs_is_a_clear_error():
 def test_thresholds_and_sparse_receivers():
     rows = [(i, "Q1AAA", "JN58", "Q2RX", "IO91", "20m", -28 + (i % 7), 37) for i in range(30)]
     rows += [(0, "Q1AAA", "JN58", "Q4RX", "KP20", "20m", -5, 37)]  # one strong report
-    thr = receiver_thresholds(make_spots(rows), min_reports=20)
+    thr = receiver_thresholds(make_spots(rows), min_reports=20, method="lowest")
     assert thr["Q2RX"] == -28.0
     # a receiver with one report gets the typical threshold, not its single -5 dB report
     assert thr["Q4RX"] == -28.0
+
+
+def test_t50_thresholds_sit_above_the_lowest_report(rng):
+    # a receiver decoding with a soft curve (50 % at -26 dB, width 1 dB) over 1,500 signals
+    # spread 8 dB: its lowest report is about 2 dB below -26, the fitted 50 % point within
+    # 0.5 dB of it; the detection model travels in attrs with its alternatives
+    from scipy import stats as sps
+
+    s = rng.normal(-22.0, 8.0, 5000)
+    v = np.round(s[rng.random(s.size) < sps.norm.cdf((s + 26.0) / 1.0)])[:1500]
+    spots = pd.DataFrame({"rx_call": "Q2RX", "snr_db": v})
+    thr = receiver_thresholds(spots, tau_db=1.0)
+    assert v.min() <= -27.0
+    assert thr["Q2RX"] == pytest.approx(-26.0, abs=0.5)
+    det = thr.attrs["detection"]
+    assert det["tau_db"] == 1.0 and det["whole_db"] and not det["tau_fitted"]
+    labels = [a["label"] for a in det["alternatives"]]
+    assert "rounding before the threshold" in labels and len(labels) == 5
+    assert receiver_thresholds(spots, method="lowest")["Q2RX"] == v.min()
+    with pytest.raises(UsageError, match="t50, lowest"):
+        receiver_thresholds(spots, method="median")
+
+
+def test_pairs_carry_the_detection_model():
+    rows = [(i, "Q1AAA", "JN58", "Q2RX", "IO91", "20m", -28 + (i % 9), 37) for i in range(40)]
+    rows += [(i, "Q1BBB", "JN58", "Q2RX", "IO91", "20m", -25 + (i % 9), 37) for i in range(40)]
+    pairs = pair_spots(make_spots(rows), "simultaneous", "Q1AAA", "Q1BBB")
+    det = pairs.attrs["detection"]
+    assert det["method"] == "t50" and det["whole_db"]
+    # a flat histogram from -28 dB up: a sharp edge, the 50 % point within 0.5 dB below
+    # the lowest report (-28 dB, per W -35 dB) - the raw threshold lies between -28.5 and
+    # -28 when a whole-dB report of -28 is the lowest
+    assert (pairs["limit_a_db"] != -35.0).all()
+    assert np.allclose(pairs["limit_a_db"], -35.25, atol=0.26)
+    old = pair_spots(make_spots(rows), "simultaneous", "Q1AAA", "Q1BBB",
+                     threshold_method="lowest")
+    assert (old["limit_a_db"] == -35.0).all() and old.attrs["detection"] is None
 
 
 def test_even_odd_schedule_and_every_n():
@@ -227,7 +265,7 @@ def test_before_after_target_on_the_air_but_not_heard_is_a_bound():
         rows.append((i, "Q7CTL", "JN59", "Q2RX", "IO91", "20m", -14, 30))
         rows.append((i, "Q7CTM", "JN57", "Q2RX", "IO91", "20m", -18, 30))
     rows.append((0, "Q7CTL", "JN59", "Q2RX", "IO91", "40m", -25, 30))  # lowest report
-    p = pair_spots(make_spots(rows), "before-after", "Q1AAA",
+    p = pair_spots(make_spots(rows), "before-after", "Q1AAA", threshold_method="lowest",
                    change_at="2026-03-02T00:04Z")
     p = p[p[C.CLUSTER] == "Q2RX"].sort_values(C.SLOT)
     assert list(p[C.KIND]) == ["before", "before", "after", "after"]
@@ -288,7 +326,7 @@ def test_group_keys(simultaneous):
 
 
 def test_summary_kinds_values_and_merge(simultaneous):
-    p = pair_spots(simultaneous, "simultaneous", "Q1AAA", "Q1BBB")
+    p = pair_spots(simultaneous, "simultaneous", "Q1AAA", "Q1BBB", threshold_method="lowest")
     s = summarise_pairs(p, "band")
     assert set(s[C.KIND].astype(str)) == {"both", "only_a", "only_b", "edge_a"}
     # edge rows: Q2RX heard A at -28 dB, its own lowest report (its threshold)
