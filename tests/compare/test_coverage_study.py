@@ -229,7 +229,6 @@ def test_one_quick_run_of_every_regime():
 
 
 # --- the targets (slow) -------------------------------------------------------------------------
-ESTIMATOR_FIX = pytest.mark.xfail(reason="estimator fix in progress", strict=False)
 SMALL_REGIMES = [n for n in study.REGIMES if n != study.LARGE]
 RUNS_PER_REGIME = 17  # 12 regimes x 17 = 204 runs
 
@@ -242,7 +241,6 @@ def small_runs():
 
 
 @pytest.mark.slow
-@ESTIMATOR_FIX
 def test_coverage_at_7000_pairs_over_every_regime(small_runs):
     """Pooled over the 12 regimes (204 runs): coverage >= 0.925, which detects a 5-point
     shortfall of the average (binomial SE 1.5 % at 95 %; a single regime covering 40 %
@@ -262,7 +260,6 @@ def test_coverage_at_7000_pairs_over_every_regime(small_runs):
 
 
 @pytest.mark.slow
-@ESTIMATOR_FIX
 def test_coverage_in_the_large_cell():
     """60 runs of about 70,000 pairs from 150 receivers, every regime at once: coverage
     >= 0.90 (issue 15's target, binomial SE 2.8 % at 95 %) and |bias| <= 0.03 dB (the
