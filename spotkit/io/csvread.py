@@ -16,14 +16,15 @@ Two readers give the same chunks:
   cut at line ends into pieces of about 8 MB, parsed two at a time, each in one thread (so
   the line number of a row with the wrong number of fields is known), and gathered into
   chunks;
-- pandas' C parser for the rest (runs of blanks, decimal commas), which fills a row with
-  too few fields with empty cells.
+- pandas' C parser for the rest (runs of blanks, decimal commas, UTF-16 and UTF-32 files),
+  which fills a row with too few fields with empty cells.
 
-Rows with the wrong number of fields are reported as skipped lines ``(line number,
-message)``; :func:`prefetch` runs a reader one chunk ahead in a second thread.
+Rows with the wrong number of fields are reported as skipped lines ``(line number, raw
+text of the line)``; :func:`prefetch` runs a reader one chunk ahead in a second thread.
 """
 from __future__ import annotations
 
+import gzip
 import re
 import warnings
 from collections import deque
@@ -85,18 +86,23 @@ def pandas_chunks(layout: _Layout, chunk_rows: int | None,
     """Chunks read by pandas' C parser; yields (chunk, skipped lines). Every column is read
     as text (``numbers`` is accepted for the signature of :func:`arrow_chunks`)."""
     kw = _csv_kwargs(layout)
-    with warnings.catch_warnings(record=True) as caught:
-        warnings.simplefilter("always")
-        frames = pd.read_csv(layout.path, chunksize=chunk_rows, **kw) if chunk_rows \
-            else [pd.read_csv(layout.path, **kw)]
-        try:
-            for frame in frames:
-                cols = [TextColumn.from_text(frame.iloc[:, i]) for i in range(frame.shape[1])]
-                yield TextChunk(len(frame), cols), _skipped_lines(caught)
-        finally:
-            close = getattr(frames, "close", None)
-            if close is not None:
-                close()
+    lines = _LineTexts(layout)
+    try:
+        with warnings.catch_warnings(record=True) as caught:
+            warnings.simplefilter("always")
+            frames = pd.read_csv(layout.path, chunksize=chunk_rows, **kw) if chunk_rows \
+                else [pd.read_csv(layout.path, **kw)]
+            try:
+                for frame in frames:
+                    cols = [TextColumn.from_text(frame.iloc[:, i])
+                            for i in range(frame.shape[1])]
+                    yield TextChunk(len(frame), cols), lines.texts(_skipped_lines(caught))
+            finally:
+                close = getattr(frames, "close", None)
+                if close is not None:
+                    close()
+    finally:
+        lines.close()
     for w in caught:
         warnings.warn_explicit(w.message, w.category, w.filename, w.lineno)
 
@@ -111,6 +117,36 @@ def _skipped_lines(caught) -> list:
             rest.append(w)
     caught[:] = rest
     return out
+
+
+class _LineTexts:
+    """The raw text of lines of a file by 1-based line number, asked for in increasing
+    order (the file is read once, as far as the last line asked for, only when a line is
+    asked for)."""
+
+    def __init__(self, layout: _Layout):
+        self.layout, self.fh, self.at = layout, None, 0
+
+    def texts(self, skipped: list) -> list:
+        """``[(line, text)]`` for ``[(line, message)]``."""
+        out = []
+        for line, _ in sorted(skipped):
+            if self.fh is None:
+                opener = gzip.open if self.layout.compression == "gzip" else open
+                self.fh = opener(self.layout.path, "rt", encoding=self.layout.encoding,
+                                 errors="replace", newline=None)
+            text = ""
+            while self.at < line:
+                text = self.fh.readline()
+                self.at += 1
+                if not text:
+                    break
+            out.append((line, text.rstrip("\r\n").lstrip("\ufeff")))
+        return out
+
+    def close(self) -> None:
+        if self.fh is not None:
+            self.fh.close()
 
 
 # --- pyarrow ---------------------------------------------------------------------------------
@@ -195,6 +231,9 @@ def arrow_chunks(layout: _Layout, chunk_rows: int | None,
     """
     import pyarrow as pa
 
+    if layout.encoding not in ("utf-8", "utf-8-sig", "latin-1"):  # UTF-16, UTF-32
+        yield from pandas_chunks(layout, chunk_rows)
+        return
     plain = layout.compression is None
     source = pa.OSFile(str(layout.path)) if plain else pa.input_stream(
         str(layout.path), compression=layout.compression)
@@ -298,8 +337,7 @@ def _read_piece(layout: _Layout, piece: bytes, skip: int, numbers: tuple):
     bad: list = []
 
     def handler(row):
-        bad.append((row.number, f"expected {row.expected_columns} fields, "
-                                f"saw {row.actual_columns}"))
+        bad.append((row.number, row.text))  # the raw text of the row
         return "skip"
 
     encoding = {"utf-8": "utf8", "utf-8-sig": "utf8", "latin-1": "latin1"}[layout.encoding]
