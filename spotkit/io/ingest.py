@@ -75,6 +75,7 @@ from spotkit.errors import InputError, UsageError
 from spotkit.io import clean, csvread
 from spotkit.io.dedupe import DayKeys, SeenKeys, report_hashes
 from spotkit.io.pathcache import PathCache
+from spotkit.io.sanity import check_columns
 from spotkit.io.sniff import (
     _CLI_NAME,
     Delimiter,
@@ -308,6 +309,8 @@ def _iter_chunk_columns(paths, *, mapping, units, delimiter, header, slot_minute
     paths = _as_paths(paths)
     summary = summary if summary is not None else IngestSummary()
     layouts = [_prepare_layout(p, mapping, units, delimiter, header) for p in paths]
+    for layout in layouts:
+        check_columns(layout)  # column sanity before rows (spotkit.io.sanity)
     seen = SeenKeys() if dedupe_window_days is None else DayKeys(dedupe_window_days)
     cache = PathCache()
     distinct = clean.new_distinct()
