@@ -199,6 +199,23 @@ def _number_rows(col, decimal: str, lo, hi, convert=None):
     return v, status, (None, v)
 
 
+_NUL_REASON = {5: "NUL byte in the cell"}
+
+
+def _nul_status(col) -> np.ndarray | None:
+    """Status per row: 5 where the cell holds a NUL byte, else 0 (None: no cell does)."""
+    if not isinstance(col, TextColumn) or not col.values.size:
+        return None
+    import pyarrow as pa
+    import pyarrow.compute as pc
+
+    has = pc.match_substring(pa.array(col.values, pa.string()), "\x00")
+    has = np.asarray(has.to_numpy(zero_copy_only=False), dtype=bool)
+    if not has.any():
+        return None
+    return _status_rows(np.where(has, 5, 0), col, 0)
+
+
 def _cell_text(column, idx: np.ndarray, decimal: str, numeric: bool) -> np.ndarray:
     """Text of the cells ``idx`` for the rejects table; numbers in one spelling whichever
     way the reader took them (as text or as numbers), so it does not depend on chunking."""
@@ -289,7 +306,10 @@ def clean_chunk(raw: TextChunk, layout: _Layout, rows: np.ndarray, region: str,
     else:
         drift = np.full(n, np.nan)
 
-    checks = [c for c in checks if c[1] is not None]
+    # a NUL byte costs its row, whatever field it is in (numpy's texts would drop it at
+    # the end of a cell): checked first, so it is the reason given
+    nul = [(f, st, _NUL_REASON) for f, cs in col.items() for st in map(_nul_status, cs)]
+    checks = [c for c in nul + checks if c[1] is not None]
     bad = np.zeros(n, dtype=bool)
     for _, st, _ in checks:
         bad |= st != 0

@@ -35,7 +35,7 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
-from spotkit.io.sniff import _csv_kwargs, _Layout
+from spotkit.io.sniff import _csv_kwargs, _Layout, _split
 
 
 @dataclass
@@ -87,6 +87,11 @@ def pandas_chunks(layout: _Layout, chunk_rows: int | None,
     as text (``numbers`` is accepted for the signature of :func:`arrow_chunks`)."""
     kw = _csv_kwargs(layout)
     lines = _LineTexts(layout)
+    # pandas cuts every row to the number of names, silently, when the first data row has
+    # more fields: that row is skipped here and set aside like the other wide rows
+    first = _wide_first_row(layout)
+    if first is not None:
+        kw["skiprows"] = list(range(layout.header_lines)) + [first[0] - 1]
     try:
         with warnings.catch_warnings(record=True) as caught:
             warnings.simplefilter("always")
@@ -96,7 +101,10 @@ def pandas_chunks(layout: _Layout, chunk_rows: int | None,
                 for frame in frames:
                     cols = [TextColumn.from_text(frame.iloc[:, i])
                             for i in range(frame.shape[1])]
-                    yield TextChunk(len(frame), cols), lines.texts(_skipped_lines(caught))
+                    skipped = lines.texts(_skipped_lines(caught))
+                    if first is not None:
+                        skipped, first = [first] + skipped, None
+                    yield TextChunk(len(frame), cols), skipped
             finally:
                 close = getattr(frames, "close", None)
                 if close is not None:
@@ -119,6 +127,23 @@ def _skipped_lines(caught) -> list:
     return out
 
 
+def _open_text(layout: _Layout):
+    opener = gzip.open if layout.compression == "gzip" else open
+    return opener(layout.path, "rt", encoding=layout.encoding, errors="replace", newline=None)
+
+
+def _wide_first_row(layout: _Layout) -> tuple[int, str] | None:
+    """(1-based line number, raw text) of the first data row when it has more fields than
+    the layout has columns, else None."""
+    with _open_text(layout) as fh:
+        for _ in range(layout.header_lines):
+            fh.readline()
+        line = fh.readline().rstrip("\r\n").lstrip("\ufeff")
+    if not line.strip() or len(_split(line, layout.sep)) <= layout.ncols:
+        return None
+    return layout.header_lines + 1, line
+
+
 class _LineTexts:
     """The raw text of lines of a file by 1-based line number, asked for in increasing
     order (the file is read once, as far as the last line asked for, only when a line is
@@ -132,9 +157,7 @@ class _LineTexts:
         out = []
         for line, _ in sorted(skipped):
             if self.fh is None:
-                opener = gzip.open if self.layout.compression == "gzip" else open
-                self.fh = opener(self.layout.path, "rt", encoding=self.layout.encoding,
-                                 errors="replace", newline=None)
+                self.fh = _open_text(self.layout)
             text = ""
             while self.at < line:
                 text = self.fh.readline()

@@ -206,6 +206,20 @@ def test_nul_byte_costs_its_row_wherever_it_is(tmp_path, where):
     assert res.summary.rejected == 1
     assert res.rejects[C.SOURCE_ROW].tolist() == [where + 1]
     assert res.rejects[C.REJECT_FIELD].tolist() == ["tx_call"]
+    assert res.rejects[C.REJECT_REASON].tolist() == ["NUL byte in the cell"]
+
+
+@pytest.mark.parametrize("at", ["Q1ABC\x00,", "\x002024", ",\x00Q1ABC", "37\x00,", "0\x00\n"])
+def test_nul_byte_at_either_end_of_a_cell(tmp_path, at):
+    # numpy texts drop a NUL at the end of a cell: such a row was accepted on main
+    text = HEAD + _rows(3)
+    plain = at.replace("\x00", "")
+    k = text.index(plain, len(HEAD))
+    text = text[:k] + at + text[k + len(plain):]
+    res = read_spots(_write(tmp_path, "n.csv", text))
+    _balanced(res)
+    assert res.rejects[C.REJECT_REASON].tolist() == ["NUL byte in the cell"]
+    assert res.rejects[C.SOURCE_ROW].tolist() == [1]
 
 
 def test_nul_near_the_top_fixture(data_dir):
@@ -288,3 +302,20 @@ def test_truncated_gzip_on_the_command_line(data_dir, tmp_path, capsys):
     assert main(["ingest", str(src), "-o", str(tmp_path / "o.parquet")]) == 1
     err = capsys.readouterr().err
     assert "truncated or corrupt gzip" in err and "Traceback" not in err
+
+
+@pytest.mark.parametrize("encoding", ["utf-8", "utf-16"])
+def test_wide_first_row_does_not_cut_every_row(tmp_path, encoding):
+    # pandas' parser (blank-delimited and UTF-16 files) cut every row to the number of
+    # headings when the first data row had a field too many: on main the wide rows were
+    # accepted without their extra fields
+    head = "time tx_call tx_loc rx_call rx_loc freq_mhz snr power_dbm\n"
+    rows = [f"2024-03-01T10:{2 * i:02d}:00 Q1ABC JO62qm Q{i + 2}XY JN58td 14.0971 -12 37"
+            for i in range(6)]
+    rows[0] += " extra"
+    rows[4] += " more words"
+    res = read_spots(_write(tmp_path, "b.txt", head + "\n".join(rows) + "\n", encoding))
+    _balanced(res)
+    assert res.summary.accepted == 4
+    assert res.rejects[C.SOURCE_ROW].tolist() == [1, 5]
+    assert res.rejects[C.REJECT_VALUE].tolist() == [rows[0], rows[4]]
