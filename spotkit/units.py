@@ -163,7 +163,7 @@ def infer_epoch_unit(values) -> str:
     Examples
     --------
     2026-03-01 10:00 UTC is 1772359200 s after 1970 (``datetime.datetime(2026, 3, 1, 10,
-    tzinfo=datetime.timezone.utc).timestamp()``):
+    tzinfo=datetime.UTC).timestamp()``):
 
     >>> infer_epoch_unit([1772359200, 1772359320])
     'epoch-s'

@@ -11,7 +11,7 @@ import gzip
 import tempfile
 from pathlib import Path
 
-from hypothesis import HealthCheck, given, settings
+from hypothesis import HealthCheck, assume, given, settings
 from hypothesis import strategies as st
 
 from spotkit.errors import InputError, UsageError
@@ -123,6 +123,10 @@ def _kept(item, sep: str) -> bool:
 def test_good_rows_are_kept_and_bad_rows_rejected(rows, sep, encoding, sep_line, gz):
     # no junk cells: the file is always read; every good row (whatever its minus sign and
     # blanks, quoted or not) is accepted or a duplicate, every other row is rejected
+    # the rows of the right width outnumber the wide ones (else the file is refused: its
+    # heading line and most rows disagree)
+    wide = sum(item[0] == "wide" and item[2] > 0 for item in rows)
+    assume(wide < sum(item[0] not in ("blank", "wide") for item in rows))
     if encoding == "latin-1":  # signs Latin-1 can write
         rows = [(item[0], {**item[1], "minus": "-", "pad": item[1]["pad"][:0]}, *item[2:])
                 if item[0] != "blank" else item for item in rows]
