@@ -23,6 +23,14 @@ from spotkit.io.ingest import (
     read_spots,
     write_rejects,
 )
+from spotkit.io.sanity import (
+    LOOKS_LIKE_SHARE,
+    MIN_SHARE,
+    MIN_VALUES,
+    SNR_PLAUSIBLE_DB,
+    check_columns,
+    column_problems,
+)
 from spotkit.io.sniff import (
     DELIMITERS,
     MAX_WATTS,
@@ -64,3 +72,5 @@ __all__ = [
     "CHUNK_BYTES_PER_ROW", "SEEN_BYTES_PER_ROW", "CSV_BYTES_PER_ROW", "MIN_CHUNK_ROWS",
     "WINDOW_RESERVE_MB", "DEDUPE_WINDOW_DAYS", "chunk_rows_for_memory", "ingest_to_dataset",
 ]
+__all__ += ["check_columns", "column_problems", "MIN_VALUES", "MIN_SHARE", "SNR_PLAUSIBLE_DB",
+            "LOOKS_LIKE_SHARE"]

@@ -313,11 +313,13 @@ def _sniff_sep(lines: list[str], delimiter: str, path: Path | None = None) -> st
     wide = {sep: float(np.mean(c >= 3)) for sep, c in counts.items() if c.size}
     mixed = [sep for sep, share in wide.items() if share >= MIXED_SHARE]
     if len(mixed) > 1:
-        shares = ", ".join(f"{_sep_label(sep)} in {100 * wide[sep]:.0f} %" for sep in mixed)
-        raise InputError(f"{path}: mixed delimiters: of the first {len(lines)} lines, "
-                         f"fields are separated by {shares}; save the file with one "
-                         "delimiter, or give it with --delimiter (lines that do not split "
-                         "into the right number of fields are then rejected)")
+        shares = ", ".join(f"{_sep_label(sep)} in {100 * wide[sep]:.0f} %"
+                           for sep in sorted(mixed, key=lambda x: -wide[x]))
+        raise InputError(f"{path or 'the file'}: mixed delimiters: of the first "
+                         f"{len(lines)} lines, fields are separated by {shares}; save the "
+                         "file with one delimiter, or give it with --delimiter (lines "
+                         "that do not split into the right number of fields are then "
+                         "rejected)")
     for sep, c in counts.items():
         if c.size and c[0] >= 3 and np.mean(c == c[0]) >= SEP_SHARE_LOW:
             return sep
