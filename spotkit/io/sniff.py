@@ -227,8 +227,11 @@ def _detect_encoding(path: Path, compression, head: bytes) -> str:
             while True:
                 k = fh.readinto(buf)
                 if not k:
-                    if utf8:
-                        dec.decode(b"", final=True)
+                    try:
+                        if utf8:
+                            dec.decode(b"", final=True)  # a sequence cut off at the end
+                    except UnicodeDecodeError:
+                        utf8 = False
                     break
                 # all bytes below 128 (ASCII, the usual file) is checked at memory speed;
                 # other blocks go through the decoder
@@ -240,6 +243,8 @@ def _detect_encoding(path: Path, compression, head: bytes) -> str:
                         if compression is None:
                             break
     except (OSError, EOFError, zlib.error) as exc:
+        if compression != "gzip":
+            raise
         raise _gzip_error(path, exc) from None
     if wide is not None:
         return wide
@@ -260,6 +265,8 @@ def _read_head(path: Path) -> tuple[bytes, str | None]:
         with _open_binary(path, compression) as fh:
             head = fh.read(1 << 16)
     except (OSError, EOFError, zlib.error) as exc:
+        if compression != "gzip":
+            raise
         raise _gzip_error(path, exc) from None
     return head, compression
 

@@ -101,3 +101,15 @@ def test_mixed_delimiters_refused_and_one_delimiter_kept():
         _sniff_sep(rows, "auto")
     # one wide row in a small file: the comma is still the delimiter
     assert _sniff_sep(["a,b,c,d", "1,2,3,4", "1,2,3,4,5", "1,2,3,4", "1,2,3,4"], "auto") == ","
+
+
+@pytest.mark.parametrize("gz", [False, True])
+def test_utf8_sequence_cut_off_at_the_very_end_is_latin1(tmp_path, gz):
+    import gzip
+
+    from spotkit.io.sniff import _detect_encoding
+
+    body = b"2026-03-01 10:00,Q1ABC,JN58td,Q2XYZ,IO91lk,14.0971,-12,23,0\n" + "ü".encode()[:1]
+    path = tmp_path / ("s.csv.gz" if gz else "s.csv")
+    path.write_bytes(gzip.compress(body) if gz else body)
+    assert _detect_encoding(path, "gzip" if gz else None, body[:100]) == "latin-1"
