@@ -19,7 +19,8 @@ the other minus and plus signs of :data:`MINUS_SIGNS` and :data:`PLUS_SIGNS`, Un
 (:data:`UNICODE_BLANKS`, removed) and fullwidth digits; each distinct cell is parsed once.
 
 A few NUL bytes make a file neither binary nor unreadable: the rows they are in are
-rejected by their fields' checks, wherever they are in the file.
+rejected ("NUL byte in the cell", :mod:`spotkit.io.clean`), wherever they are in the file;
+a file with more than :data:`MAX_NUL_SHARE` of NUL bytes in its first 64 kB is binary.
 
 Known error: everything is decided from the first rows; a file whose layout or units change
 further down is read with the first rows' choice (later rows that do not fit are rejected
