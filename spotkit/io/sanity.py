@@ -269,6 +269,27 @@ def check_columns(layout: _Layout, sample: pd.DataFrame | None = None) -> _Layou
     ------
     InputError
         Naming the file, each failing column, a sample of its values and the likely fix.
+
+    Examples
+    --------
+    An invented file of 20 spots whose frequencies are in kHz under a heading saying MHz
+    (:func:`spotkit.io.ingest.read_spots` calls this before reading any row):
+
+    >>> import pathlib, tempfile
+    >>> from spotkit.io.ingest import read_spots
+    >>> rows = ["time,tx call,tx locator,rx call,rx locator,frequency MHz,snr,power dBm"]
+    >>> rows += [f"2024-03-01 10:{2 * i:02d}:00,Q1ABC,JO62qm,Q2XY,JN58td,14097.1,-12,37"
+    ...          for i in range(20)]
+    >>> with tempfile.TemporaryDirectory() as d:
+    ...     path = pathlib.Path(d) / "spots.csv"
+    ...     _ = path.write_text("\\n".join(rows) + "\\n")
+    ...     try:
+    ...         read_spots(path)
+    ...     except InputError as exc:
+    ...         print(str(exc).splitlines()[1])
+      column 'frequency MHz' (mapped to frequency) does not hold frequencies: 0 % of its 20
+      non-empty cells in the first rows are plausible, at least 80 % expected; e.g. '14097.1';
+      the values look like kHz, not MHz: use --unit frequency=kHz
     """
     if sample is None:
         sample = _read_sample(layout)
