@@ -35,6 +35,7 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
+from spotkit.errors import InputError
 from spotkit.io.sniff import _csv_kwargs, _Layout, _split
 
 
@@ -96,9 +97,9 @@ def pandas_chunks(layout: _Layout, chunk_rows: int | None,
         with warnings.catch_warnings(record=True) as caught:
             warnings.simplefilter("always")
             frames = pd.read_csv(layout.path, chunksize=chunk_rows, **kw) if chunk_rows \
-                else [pd.read_csv(layout.path, **kw)]
+                else _quotes_checked(lambda: [pd.read_csv(layout.path, **kw)], layout)
             try:
-                for frame in frames:
+                for frame in _quotes_checked(lambda: frames, layout):
                     cols = [TextColumn.from_text(frame.iloc[:, i])
                             for i in range(frame.shape[1])]
                     skipped = lines.texts(_skipped_lines(caught))
@@ -113,6 +114,17 @@ def pandas_chunks(layout: _Layout, chunk_rows: int | None,
         lines.close()
     for w in caught:
         warnings.warn_explicit(w.message, w.category, w.filename, w.lineno)
+
+
+def _quotes_checked(frames, layout: _Layout):
+    """The frames of pandas' reader (``frames()``); its error on a quote mark that is never
+    closed as an :class:`~spotkit.errors.InputError` naming the file and row."""
+    try:
+        yield from frames()
+    except pd.errors.ParserError as exc:
+        raise InputError(f"{layout.name}: cannot read on ({exc}); a quote mark that is "
+                         "never closed makes the rest of the file one field: remove it, "
+                         "or save the file with every quote mark paired") from None
 
 
 def _skipped_lines(caught) -> list:
@@ -364,6 +376,7 @@ def _read_piece(layout: _Layout, piece: bytes, skip: int, numbers: tuple):
         return "skip"
 
     encoding = {"utf-8": "utf8", "utf-8-sig": "utf8", "latin-1": "latin1"}[layout.encoding]
+    piece, unbalanced, kept_lines = _without_unbalanced_quotes(piece, skip, layout.encoding)
 
     def parse(on_bad_row):
         return pacsv.read_csv(
@@ -392,7 +405,35 @@ def _read_piece(layout: _Layout, piece: bytes, skip: int, numbers: tuple):
     if numbers and not all(  # NaN or infinity spelled out
             pc.all(pc.is_finite(table.column(i))).as_py() in (True, None) for i in numbers):
         raise _NotPlainNumbers
+    if unbalanced:  # line numbers of the parsed piece -> of the piece as it was
+        bad = sorted([(int(kept_lines[n - 1]), text) for n, text in bad] + unbalanced)
     return table, bad
+
+
+def _without_unbalanced_quotes(piece, skip: int, encoding: str):
+    """The piece without its lines (after the first ``skip``) that hold an odd number of
+    quote marks, which would make the parser read on across line ends; (piece, [(1-based
+    line number, raw text) of the lines taken out], 1-based numbers of the lines kept)."""
+    b = np.frombuffer(piece, np.uint8)
+    if not b.size or not (b == 34).any():  # no quote mark: the usual piece
+        return piece, [], None
+    ends = np.flatnonzero(b == 10) + 1  # end (exclusive) of each line
+    if not ends.size or ends[-1] != b.size:
+        ends = np.append(ends, b.size)
+    starts = np.concatenate([[0], ends[:-1]])
+    quotes = np.bincount(np.searchsorted(ends, np.flatnonzero(b == 34), side="right"),
+                         minlength=ends.size)
+    odd = np.flatnonzero(quotes[:ends.size] % 2 == 1)
+    odd = odd[odd >= skip]
+    if not odd.size:
+        return piece, [], None
+    data = bytes(b)
+    out = [(int(k) + 1, data[starts[k]:ends[k]].rstrip(b"\r\n").decode(encoding, "replace"))
+           for k in odd]
+    keep = np.ones(ends.size, dtype=bool)
+    keep[odd] = False
+    kept = b"".join(data[s:e] for s, e in zip(starts[keep], ends[keep], strict=True))
+    return kept, out, np.flatnonzero(keep) + 1
 
 
 def _column(col):

@@ -959,7 +959,11 @@ def _csv_kwargs(layout: _Layout) -> dict:
 def _read_sample(layout: _Layout) -> pd.DataFrame:
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
-        return pd.read_csv(layout.path, nrows=SAMPLE_ROWS, **_csv_kwargs(layout))
+        try:
+            return pd.read_csv(layout.path, nrows=SAMPLE_ROWS, **_csv_kwargs(layout))
+        except pd.errors.ParserError:  # a quote mark never closed: quotes as plain text
+            return pd.read_csv(layout.path, nrows=SAMPLE_ROWS, quoting=csv.QUOTE_NONE,
+                               **_csv_kwargs(layout))
 
 
 def _prepare_layout(path: Path, mapping, units, delimiter, header) -> _Layout:

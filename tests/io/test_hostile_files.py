@@ -319,3 +319,28 @@ def test_wide_first_row_does_not_cut_every_row(tmp_path, encoding):
     assert res.summary.accepted == 4
     assert res.rejects[C.SOURCE_ROW].tolist() == [1, 5]
     assert res.rejects[C.REJECT_VALUE].tolist() == [rows[0], rows[4]]
+
+
+# --- quote marks -------------------------------------------------------------------------------
+@pytest.mark.parametrize("row", [3, 8])
+def test_a_quote_mark_never_closed_costs_its_row_only(tmp_path, row):
+    # on main the pandas sample reader stopped with a traceback (ParserError: EOF inside
+    # string); pyarrow alone would have read the rest of the file into one bad row
+    rows = _rows(8).splitlines()
+    rows[row - 1] = rows[row - 1].replace("Q1ABC", '"Q1ABC')
+    rows[1] = rows[1].replace("Q1ABC", '"Q1ABC"')  # a quoted cell: fine
+    res = read_spots(_write(tmp_path, "q.csv", HEAD + "\n".join(rows) + "\n"))
+    _balanced(res)
+    assert res.summary.rows_read == 8 and res.summary.accepted == 7
+    assert res.rejects[C.SOURCE_ROW].tolist() == [row]
+    assert res.rejects[C.REJECT_VALUE].tolist() == [rows[row - 1]]
+
+
+def test_a_quote_mark_never_closed_in_a_blank_delimited_file(tmp_path):
+    head = "time tx_call tx_loc rx_call rx_loc freq_mhz snr power_dbm\n"
+    rows = [f"2024-03-01T10:{2 * i:02d}:00 Q1ABC JO62qm Q{i + 2}XY JN58td 14.0971 -12 37"
+            for i in range(6)]
+    rows[3] = rows[3].replace("Q1ABC", '"Q1ABC')
+    with pytest.raises(InputError, match="quote mark that is never closed") as exc:
+        read_spots(_write(tmp_path, "q.txt", head + "\n".join(rows) + "\n"))
+    assert "q.txt" in str(exc.value)
