@@ -21,6 +21,12 @@ Two readers give the same chunks:
 
 Rows with the wrong number of fields are reported as skipped lines ``(line number, raw
 text of the line)``; :func:`prefetch` runs a reader one chunk ahead in a second thread.
+
+A quote mark that is never closed would make a CSV parser read on across line ends: the
+pyarrow reader sets aside every line with an odd number of quote marks as a skipped line
+(so a literal quote mark inside a cell, as in ``5" dish``, costs its row too); pandas'
+reader stops with :class:`~spotkit.errors.InputError`. Quoted fields spanning lines are
+not supported.
 """
 from __future__ import annotations
 
