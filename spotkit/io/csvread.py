@@ -397,6 +397,9 @@ def _read_piece(layout: _Layout, piece: bytes, skip: int, numbers: tuple):
                                                  quoted_strings_can_be_null=True,
                                                  null_values=[""]))
 
+    if not len(piece):  # nothing left (every line set aside): pyarrow refuses empty input
+        table = pa.table({n: pa.array([], type=t) for n, t in types.items()})
+        return table, sorted(unbalanced)
     try:
         # without a handler first: it makes the parse a sixth slower, and most pieces
         # have no row with the wrong number of fields (those raise and are parsed again)

@@ -344,3 +344,18 @@ def test_a_quote_mark_never_closed_in_a_blank_delimited_file(tmp_path):
     with pytest.raises(InputError, match="quote mark that is never closed") as exc:
         read_spots(_write(tmp_path, "q.txt", head + "\n".join(rows) + "\n"))
     assert "q.txt" in str(exc.value)
+
+
+def test_a_piece_of_nothing_but_unclosed_quotes(tmp_path):
+    # with small chunks the reader parses 4 kB pieces: one of them holds only lines with a
+    # quote mark never closed; the result does not depend on the chunking
+    rows = _rows(300).splitlines()
+    rows[100:200] = [r.replace("Q1ABC", '"Q1ABC') for r in rows[100:200]]
+    p = _write(tmp_path, "q.csv", HEAD + "\n".join(rows) + "\n")
+    whole = read_spots(p)
+    for chunk_rows in (50, 7):
+        res = read_spots(p, chunk_rows=chunk_rows)
+        _balanced(res)
+        assert res.summary.accepted + res.summary.duplicates == 200
+        assert res.rejects[C.SOURCE_ROW].tolist() == list(range(101, 201))
+        pd.testing.assert_frame_equal(res.rejects, whole.rejects)
