@@ -355,6 +355,8 @@ def _sniff_layout(path: Path, delimiter: str, header) -> _Layout:
         delimiter = _delimiter_arg({"\t": "tab", " ": "space"}.get(sep_line.group(1),
                                                                   sep_line.group(1)))
     lines = [ln for ln in raw_lines[preamble:] if ln.strip()][:200]
+    # lines with a quote mark never closed are set aside by the reader: not sniffed either
+    lines = lines[:1] + [ln for ln in lines[1:] if ln.count('"') % 2 == 0]
     if not lines:
         raise NotASpotTableError(f"{path}: not a spot table (no text lines)")
     sep = _sniff_sep(lines, delimiter, path)

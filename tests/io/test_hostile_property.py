@@ -39,6 +39,7 @@ row = st.one_of(
     st.tuples(st.just("nul"), good_row, st.integers(0, 60)),
     st.tuples(st.just("wide"), good_row, st.integers(-4, 3).filter(bool)),
     st.tuples(st.just("quoted"), good_row, st.integers(0, 8), st.booleans()),
+    st.tuples(st.just("stray"), good_row, st.integers(0, 8)),
     st.tuples(st.just("junk"), good_row, st.integers(0, 8),
               st.text(alphabet=st.characters(codec="utf-8", exclude_categories=["Cs", "Cc"],
                                              exclude_characters="\n\r\x85\u2028\u2029\x0b\x0c"
@@ -68,6 +69,8 @@ def _line(item, sep: str) -> str:
         k = item[2]
         inner = cells[k] + (sep if item[3] and sep != " " else "")
         cells[k] = '"' + inner.replace('"', '""') + '"'
+    elif kind == "stray":  # a quote mark opening a cell, never closed
+        cells[item[2]] = '"' + cells[item[2]]
     elif kind == "junk":
         cells[item[2]] = item[3].replace(sep, "") if sep != " " else "".join(
             item[3].split())
@@ -96,7 +99,12 @@ def test_every_row_is_accounted_for(rows, sep, encoding, sep_line, gz, crlf):
     s = res.summary
     assert s.accepted + s.rejected + s.duplicates == s.rows_read
     assert len(res.spots) == s.accepted and len(res.rejects) == s.rejected
-    assert s.rows_read == len(rows)  # one row per line after the heading, blank lines too
+    if any(item[0] == "stray" for item in rows) and (sep == " " or encoding == "utf-16"):
+        # known limit of pandas' parser (blank-delimited and UTF-16 files): two quote marks
+        # never closed, on different lines, join the lines between them into one row
+        assert s.rows_read <= len(rows)
+    else:
+        assert s.rows_read == len(rows)  # one row per line after the heading, blank lines too
 
 
 fair_row = st.one_of(
@@ -105,6 +113,7 @@ fair_row = st.one_of(
     st.tuples(st.just("nul"), good_row, st.integers(0, 60)),
     st.tuples(st.just("wide"), good_row, st.sampled_from([-4, -3, -2, 1, 2, 3])),
     st.tuples(st.just("quoted"), good_row, st.integers(0, 8), st.booleans()),
+    st.tuples(st.just("stray"), good_row, st.integers(0, 8)),
 )
 
 
@@ -121,12 +130,13 @@ def _kept(item, sep: str) -> bool:
        encoding=st.sampled_from(["utf-8", "utf-8-sig", "latin-1", "utf-16"]),
        sep_line=st.booleans(), gz=st.booleans())
 def test_good_rows_are_kept_and_bad_rows_rejected(rows, sep, encoding, sep_line, gz):
-    # no junk cells: the file is always read; every good row (whatever its minus sign and
+    # no junk cells: the file is always read (a quote mark never closed stops a
+    # blank-delimited file, InputError); every good row (whatever its minus sign and
     # blanks, quoted or not) is accepted or a duplicate, every other row is rejected
-    # the rows of the right width outnumber the wide ones (else the file is refused: its
-    # heading line and most rows disagree)
-    wide = sum(item[0] == "wide" and item[2] > 0 for item in rows)
-    assume(wide < sum(item[0] not in ("blank", "wide") for item in rows))
+    # the rows of the right width outnumber the others (else the file may be refused, or
+    # read with another delimiter: its heading line and most rows disagree)
+    malformed = sum(item[0] in ("wide", "stray") for item in rows)
+    assume(malformed < sum(item[0] in ("good", "nul", "quoted") for item in rows))
     if sep == " ":  # blanks cannot delimit an empty cell: no empty drift
         rows = [(item[0], {**item[1], "drift": item[1]["drift"] or "0"}, *item[2:])
                 if item[0] != "blank" else item for item in rows]
@@ -140,6 +150,17 @@ def test_good_rows_are_kept_and_bad_rows_rejected(rows, sep, encoding, sep_line,
     with tempfile.TemporaryDirectory() as d:
         path = Path(d) / ("spots.csv.gz" if gz else "spots.csv")
         path.write_bytes(gzip.compress(data) if gz else data)
+        if any(item[0] == "stray" for item in rows) and (sep == " " or encoding == "utf-16"):
+            # pandas' parser (blank-delimited and UTF-16 files): a quote mark never closed
+            # stops the run; paired with another one, it joins the lines between them into
+            # one row (a known limit); either way every row read is accounted for
+            try:
+                res = read_spots(path)
+            except InputError:
+                return
+            s = res.summary
+            assert s.accepted + s.rejected + s.duplicates == s.rows_read <= len(rows)
+            return
         res = read_spots(path)
     s = res.summary
     kept = sum(_kept(item, sep) for item in rows)
