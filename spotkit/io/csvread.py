@@ -106,6 +106,13 @@ def pandas_chunks(layout: _Layout, chunk_rows: int | None,
                 else _quotes_checked(lambda: [pd.read_csv(layout.path, **kw)], layout)
             try:
                 for frame in _quotes_checked(lambda: frames, layout):
+                    if any("names does not match" in str(w.message) for w in caught):
+                        # the first row pandas parsed is still wider (quote marks pairing
+                        # across lines): every row would be cut to the headings
+                        raise InputError(
+                            f"{layout.name}: the first data row has more fields than the "
+                            "headings, as read with quote marks pairing across lines; "
+                            "check the quote marks near the top of the file")
                     cols = [TextColumn.from_text(frame.iloc[:, i])
                             for i in range(frame.shape[1])]
                     skipped = lines.texts(_skipped_lines(caught))

@@ -295,8 +295,9 @@ def _check_text(path: Path, head: bytes, encoding: str | None = None) -> None:
 
 
 def _split(line: str, sep: str) -> list[str]:
-    if sep == r"\s+":
-        return line.split()
+    if sep == r"\s+":  # runs of ASCII blanks and tabs, quotes honoured (as pandas' parser)
+        line = line.replace("\t", " ").strip(" \r\n")
+        return next(csv.reader([line], delimiter=" ", skipinitialspace=True)) if line else []
     return [t.strip() for t in next(csv.reader([line], delimiter=sep))]
 
 
