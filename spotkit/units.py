@@ -1,8 +1,13 @@
-"""Unit conversions: power (dBm, W, mW) and frequency (Hz, kHz, MHz).
+"""Unit conversions: power (dBm, W, mW), frequency (Hz, kHz, MHz) and epoch times.
 
 Decibels relative to one milliwatt: P[dBm] = 10 log10(P[mW]); 30 dBm = 1 W.
 The weak-signal beacon modes report power on a 1-2-5 ladder ending in 0, 3 or 7
 (common practice): +3 dB is x1.995, +7 dB is x5.012.
+
+Times are ISO 8601 text or a count since 1970-01-01 00:00 UTC (Unix epoch, leap seconds
+not counted) in seconds or milliseconds; which one is told by magnitude
+(:func:`infer_epoch_unit`): the report times spotkit accepts (1990 to 2100) are 6.3e8 to
+4.1e9 in seconds and 6.3e11 to 4.1e12 in milliseconds, three orders of magnitude apart.
 """
 from __future__ import annotations
 
@@ -17,6 +22,13 @@ FrequencyUnit = Literal["Hz", "kHz", "MHz"]
 
 POWER_UNITS = ("dBm", "W", "mW")
 FREQUENCY_UNITS = ("Hz", "kHz", "MHz")
+#: Time units: ISO 8601 text, epoch seconds, epoch milliseconds; ``epoch`` is kept as
+#: another name for ``epoch-s``.
+TIME_UNITS = ("iso", "epoch-s", "epoch-ms", "epoch")
+TimeUnit = Literal["iso", "epoch-s", "epoch-ms", "epoch"]
+_EPOCH_SCALE = {"epoch": 1.0, "epoch-s": 1.0, "epoch-ms": 1e-3}
+#: Epoch seconds of the times accepted in reports, 1990-01-01 to 2100-01-01 UTC.
+EPOCH_RANGE_S = (631_152_000.0, 4_102_444_800.0)
 _FREQ_SCALE = {"Hz": 1.0, "kHz": 1e3, "MHz": 1e6}
 
 #: Reference power for SNR normalisation, dBm (1 W).
@@ -127,3 +139,40 @@ def snr_per_watt(snr_db, power_dbm):
     return np.asarray(snr_db, dtype=float) - (
         np.asarray(power_dbm, dtype=float) - REFERENCE_POWER_DBM
     )
+
+
+def epoch_to_seconds(values, unit: TimeUnit):
+    """Convert epoch counts in ``unit`` (``epoch-s``, ``epoch-ms`` or ``epoch``, which is
+    seconds) to seconds since 1970-01-01 UTC.
+
+    Examples
+    --------
+    >>> epoch_to_seconds([1772359200000], "epoch-ms").tolist()
+    [1772359200.0]
+    >>> epoch_to_seconds([1772359200], "epoch").tolist()
+    [1772359200.0]
+    """
+    scale = _EPOCH_SCALE[check_choice(unit, tuple(_EPOCH_SCALE), "epoch time unit")]
+    return np.asarray(values, dtype=float) * scale
+
+
+def infer_epoch_unit(values) -> str:
+    """``"epoch-s"`` or ``"epoch-ms"``: the unit that puts more of ``values`` between
+    1990 and 2100 (:data:`EPOCH_RANGE_S`); seconds when neither puts any there.
+
+    Examples
+    --------
+    2026-03-01 10:00 UTC is 1772359200 s after 1970 (``datetime.datetime(2026, 3, 1, 10,
+    tzinfo=datetime.UTC).timestamp()``):
+
+    >>> infer_epoch_unit([1772359200, 1772359320])
+    'epoch-s'
+    >>> infer_epoch_unit([1772359200000, 1772359320000])
+    'epoch-ms'
+    """
+    v = np.asarray(values, dtype=float)
+    v = v[np.isfinite(v)]
+    lo, hi = EPOCH_RANGE_S
+    share = {u: float(np.mean((v * k >= lo) & (v * k < hi))) if v.size else 0.0
+             for u, k in (("epoch-s", 1.0), ("epoch-ms", 1e-3))}
+    return "epoch-ms" if share["epoch-ms"] > share["epoch-s"] else "epoch-s"

@@ -48,3 +48,35 @@ def test_snr_per_watt_removes_power():
     norm = units.snr_per_watt(snr, power)
     assert norm[0] == pytest.approx(norm[1])
     assert norm[0] == pytest.approx(-17.0)
+
+
+# --- epoch times -------------------------------------------------------------------------------
+def _epoch(*args) -> float:
+    # reference: Python's datetime (POSIX time, leap seconds not counted)
+    import datetime as dt
+
+    return dt.datetime(*args, tzinfo=dt.UTC).timestamp()
+
+
+def test_epoch_range_is_1990_to_2100():
+    assert units.EPOCH_RANGE_S == (_epoch(1990, 1, 1), _epoch(2100, 1, 1))
+
+
+@pytest.mark.parametrize("values, unit", [
+    ([_epoch(2024, 3, 1, 10)], "epoch-s"),
+    ([_epoch(2024, 3, 1, 10) * 1000, _epoch(2024, 3, 1, 10, 2) * 1000], "epoch-ms"),
+    ([_epoch(1990, 1, 1)], "epoch-s"), ([_epoch(1990, 1, 1) * 1000], "epoch-ms"),
+    ([_epoch(2099, 12, 31) * 1000, 5, np.nan], "epoch-ms"),  # the most in range wins
+    ([1, 2, 3], "epoch-s"),  # neither: seconds (the rows are then rejected as out of range)
+])
+def test_epoch_unit_inferred_by_magnitude(values, unit):
+    assert units.infer_epoch_unit(values) == unit
+
+
+def test_epoch_to_seconds():
+    ms = _epoch(2024, 3, 1, 10) * 1000
+    assert units.epoch_to_seconds([ms], "epoch-ms")[0] == _epoch(2024, 3, 1, 10)
+    assert units.epoch_to_seconds([ms], "epoch-s")[0] == ms
+    assert units.epoch_to_seconds([ms], "epoch")[0] == ms  # "epoch" is seconds
+    with pytest.raises(ValueError, match="epoch-ms"):
+        units.epoch_to_seconds([1], "epoch-us")

@@ -11,7 +11,13 @@ length     characters    cell (lon)      cell (lat)
 4 square   0-9           2 deg           1 deg
 6 subsq.   a-x           5 arc-minutes   2.5 arc-minutes
 8 ext.     0-9           30 arc-seconds  15 arc-seconds
+10         a-x           1.25 arc-sec.   0.625 arc-sec.
 =========  ============  ==============  ================
+
+The IARU definition stops at 8 characters. For the fifth pair this module follows the usual
+extension (common practice, described in the English Wikipedia article "Maidenhead Locator
+System"): the subsquare rule is used again, letters a-x dividing the 8-character cell
+24 x 24, so a 10-character cell is 1.25 by 0.625 arc-seconds (about 39 by 19 m).
 
 A locator names a cell, not a point: this module returns the cell centre, so a 4-character
 locator is uncertain by up to about +-56 km north-south and +-111 km east-west at the
@@ -28,12 +34,14 @@ import pandas as pd
 from spotkit.errors import LocatorError
 
 #: Valid locator lengths.
-LOCATOR_LENGTHS = (2, 4, 6, 8)
+LOCATOR_LENGTHS = (2, 4, 6, 8, 10)
 
 # per-position: base character, number of values, and cell size in degrees (lon, lat)
-_BASES = [("A", 18), ("A", 18), ("0", 10), ("0", 10), ("A", 24), ("A", 24), ("0", 10), ("0", 10)]
-_LON_STEP = np.array([20.0, 2.0, 5.0 / 60.0, 0.5 / 60.0])
-_LAT_STEP = np.array([10.0, 1.0, 2.5 / 60.0, 0.25 / 60.0])
+_BASES = [("A", 18), ("A", 18), ("0", 10), ("0", 10), ("A", 24), ("A", 24), ("0", 10), ("0", 10),
+          ("A", 24), ("A", 24)]
+_LON_STEP = np.array([20.0, 2.0, 5.0 / 60.0, 0.5 / 60.0, 0.5 / 60.0 / 24.0])
+_LAT_STEP = np.array([10.0, 1.0, 2.5 / 60.0, 0.25 / 60.0, 0.25 / 60.0 / 24.0])
+_NCHAR = len(_BASES)
 
 
 def _as_str_array(locators) -> np.ndarray:
@@ -56,7 +64,7 @@ def _distinct(locators):
                                    use_na_sentinel=True)
         codes = np.asarray(codes, dtype=np.int64)
         uniq = np.asarray(uniq, dtype=object)
-    upper = np.append(_as_str_array(uniq) if uniq.size else np.zeros(0, dtype="U8"), "")
+    upper = np.append(_as_str_array(uniq) if uniq.size else np.zeros(0, dtype="U10"), "")
     codes = np.where(codes < 0, upper.size - 1, codes)
     return codes, upper
 
@@ -65,10 +73,10 @@ def _decode_upper(arr: np.ndarray):
     """Decode an array of upper-case strings; returns (lat, lon, valid)."""
     n = arr.size
     lengths = np.char.str_len(arr) if n else np.zeros(0, dtype=int)
-    padded = arr.astype("U8")
-    codes = padded.view(np.uint32).reshape(n, 8) if n else np.zeros((0, 8), np.uint32)
     valid = np.isin(lengths, LOCATOR_LENGTHS)
-    digits = np.zeros((n, 8), dtype=np.int64)
+    padded = np.where(valid, arr, "").astype(f"U{_NCHAR}")  # longer texts are invalid anyway
+    codes = padded.view(np.uint32).reshape(n, _NCHAR) if n else np.zeros((0, _NCHAR), np.uint32)
+    digits = np.zeros((n, _NCHAR), dtype=np.int64)
     for pos, (base, count) in enumerate(_BASES):
         used = lengths > pos
         d = codes[:, pos].astype(np.int64) - ord(base)
@@ -77,10 +85,10 @@ def _decode_upper(arr: np.ndarray):
         digits[:, pos] = np.where(used & ok, d, 0)
     lon = np.full(n, -180.0)
     lat = np.full(n, -90.0)
-    for k in range(4):
+    for k in range(_NCHAR // 2):
         lon += digits[:, 2 * k] * _LON_STEP[k]
         lat += digits[:, 2 * k + 1] * _LAT_STEP[k]
-    pairs = np.clip(lengths // 2, 1, 4) - 1
+    pairs = np.clip(lengths // 2, 1, _NCHAR // 2) - 1
     lon += _LON_STEP[pairs] / 2.0
     lat += _LAT_STEP[pairs] / 2.0
     lon[~valid] = np.nan
@@ -89,7 +97,7 @@ def _decode_upper(arr: np.ndarray):
 
 
 def is_valid_locator(locators) -> np.ndarray:
-    """Whether each value is a well-formed Maidenhead locator of 2, 4, 6 or 8 characters.
+    """Whether each value is a well-formed Maidenhead locator of 2, 4, 6, 8 or 10 characters.
 
     Parameters
     ----------
@@ -104,8 +112,8 @@ def is_valid_locator(locators) -> np.ndarray:
     --------
     ``Z`` is past the last field letter ``R``; three characters is no valid length:
 
-    >>> is_valid_locator(["JN58td", "jn58", "JZ58", "JN58td25", "JN5", None]).tolist()
-    [True, True, False, True, False, False]
+    >>> is_valid_locator(["JN58td", "jn58", "JZ58", "JN58td25", "JN58td25kx", "JN5", None]).tolist()
+    [True, True, False, True, True, False, False]
     """
     codes, upper = _distinct(locators)
     return _decode_upper(upper)[2][codes]
@@ -117,7 +125,7 @@ def locator_to_latlon(locators, errors: Literal["raise", "coerce"] = "raise"):
     Parameters
     ----------
     locators : str or array-like of str
-        Maidenhead locators of 2, 4, 6 or 8 characters, any case.
+        Maidenhead locators of 2, 4, 6, 8 or 10 characters, any case.
     errors : {"raise", "coerce"}
         ``"raise"`` raises :class:`~spotkit.errors.LocatorError` naming the first bad value;
         ``"coerce"`` returns NaN for it.
@@ -149,7 +157,7 @@ def locator_to_latlon(locators, errors: Literal["raise", "coerce"] = "raise"):
     >>> locator_to_latlon("JZ58")
     Traceback (most recent call last):
     ...
-    spotkit.errors.LocatorError: not a Maidenhead locator: 'JZ58' (expected 2, 4, 6 or 8 ...)
+    spotkit.errors.LocatorError: not a Maidenhead locator: 'JZ58' (expected 2, 4, 6, 8 or 10 ...)
     """
     if errors not in ("raise", "coerce"):
         raise ValueError(f"errors must be 'raise' or 'coerce', not {errors!r}")
@@ -160,7 +168,7 @@ def locator_to_latlon(locators, errors: Literal["raise", "coerce"] = "raise"):
     if errors == "raise" and not valid.all():
         bad = str(upper[codes[~valid][0]])
         raise LocatorError(
-            f"not a Maidenhead locator: {bad!r} (expected 2, 4, 6 or 8 characters like "
+            f"not a Maidenhead locator: {bad!r} (expected 2, 4, 6, 8 or 10 characters like "
             "'JN58', 'JN58td' or 'JN58td25')"
         )
     if scalar:
@@ -175,8 +183,9 @@ def latlon_to_locator(lat, lon, precision: int = 6):
     ----------
     lat, lon : float or array-like
         Latitude [-90, 90] and longitude [deg]; longitudes are wrapped into [-180, 180).
-    precision : {2, 4, 6, 8}
-        Number of characters. The subsquare letters are lower case (common practice).
+    precision : {2, 4, 6, 8, 10}
+        Number of characters. The subsquare letters (and those of the fifth pair) are lower
+        case (common practice).
 
     Returns
     -------
@@ -210,7 +219,7 @@ def latlon_to_locator(lat, lon, precision: int = 6):
     # work in units of the finest cell used to avoid floating-point drift at boundaries
     x = np.mod(lo + 180.0, 360.0)
     y = np.clip(la + 90.0, 0.0, 180.0 - 1e-9)
-    out = np.full(la.shape, "", dtype="U8")
+    out = np.full(la.shape, "", dtype=f"U{_NCHAR}")
     rem_x, rem_y = x, y
     for k in range(precision // 2):
         dx = np.minimum(np.floor(rem_x / _LON_STEP[k] + 1e-9), _BASES[2 * k][1] - 1)
@@ -220,7 +229,7 @@ def latlon_to_locator(lat, lon, precision: int = 6):
         rem_x = rem_x - dx * _LON_STEP[k]
         rem_y = rem_y - dy * _LAT_STEP[k]
         base = _BASES[2 * k][0]
-        if k == 2:
+        if k in (2, 4):
             base = "a"
         cx = np.array([chr(ord(base) + v) for v in range(_BASES[2 * k][1])])[dx]
         cy = np.array([chr(ord(base) + v) for v in range(_BASES[2 * k + 1][1])])[dy]
@@ -237,13 +246,13 @@ def normalize_locator(locators):
 
     Examples
     --------
-    >>> normalize_locator([" jn58TD ", "FN31", "bad!"]).tolist()
-    ['JN58td', 'FN31', None]
+    >>> normalize_locator([" jn58TD ", "FN31", "jn58td25KX", "bad!"]).tolist()
+    ['JN58td', 'FN31', 'JN58td25kx', None]
     """
     codes, upper = _distinct(locators)
     valid = _decode_upper(upper)[2]
     res = np.array(
-        [s[:4] + s[4:6].lower() + s[6:] if ok else None
+        [s[:4] + s[4:6].lower() + s[6:8] + s[8:].lower() if ok else None
          for s, ok in zip(upper, valid, strict=True)],
         dtype=object,
     )
@@ -264,7 +273,7 @@ def locator_cell_size(locators):
     """
     arr = _as_str_array(locators)
     lengths = np.char.str_len(arr)
-    pairs = np.clip(lengths // 2, 1, 4) - 1
+    pairs = np.clip(lengths // 2, 1, _NCHAR // 2) - 1
     return _LON_STEP[pairs], _LAT_STEP[pairs]
 
 

@@ -52,6 +52,14 @@ from spotkit.io.manifest import (
     file_sha256,
     repair_archive,
 )
+from spotkit.io.sanity import (
+    LOOKS_LIKE_SHARE,
+    MIN_SHARE,
+    MIN_VALUES,
+    SNR_PLAUSIBLE_DB,
+    check_columns,
+    column_problems,
+)
 from spotkit.io.sniff import (
     DELIMITERS,
     MAX_WATTS,
@@ -97,3 +105,5 @@ __all__ += [
     "recover_folder", "commit", "staged", "DUPLICATE_REASON", "MAX_REJECT_SHARE",
     "check_reject_share", "reject_hint",
 ]
+__all__ += ["check_columns", "column_problems", "MIN_VALUES", "MIN_SHARE", "SNR_PLAUSIBLE_DB",
+            "LOOKS_LIKE_SHARE"]

@@ -12,8 +12,11 @@ slot. The report key of each accepted row is returned dictionary-encoded for
 :mod:`spotkit.io.dedupe`.
 
 Valid values: SNR -60..+60 dB and power 0..60 dBm (inclusive, common practice); times from
-1990 to before 2100 (UTC); frequencies inside an amateur band of the chosen IARU region
-(:mod:`spotkit.bands`, edges inclusive); locators of 2, 4, 6 or 8 characters
+1990 to before 2100 (UTC) and no later than a day after the moment of ingest
+(:data:`FUTURE_SLACK`: clocks and time zones a day off are tolerated, later times are
+rejected as "time in the future"); epoch times in seconds or milliseconds; frequencies
+inside an amateur band of the chosen IARU region (:mod:`spotkit.bands`, edges inclusive);
+locators of 2, 4, 6, 8 or 10 characters
 (:mod:`spotkit.geo.locator`); calls of letters and digits with at most a few "/" parts.
 """
 from __future__ import annotations
@@ -27,13 +30,15 @@ from spotkit.geo.locator import normalize_locator
 from spotkit.io.csvread import TextChunk, TextColumn
 from spotkit.io.dedupe import hash_values
 from spotkit.io.sniff import _CALL_RE, _CLI_NAME, _Layout, _to_number
-from spotkit.units import frequency_to_hz, power_to_dbm
+from spotkit.units import epoch_to_seconds, frequency_to_hz, power_to_dbm
 
 #: Valid ranges (inclusive): SNR [dB] and power [dBm] (common practice).
 SNR_RANGE_DB = (-60.0, 60.0)
 POWER_RANGE_DBM = (0.0, 60.0)
 #: Accepted report times [UTC]; earlier or later times are rejected as out of range.
 TIME_RANGE = (pd.Timestamp("1990-01-01", tz="UTC"), pd.Timestamp("2100-01-01", tz="UTC"))
+#: Times later than the moment of ingest plus this are rejected as in the future.
+FUTURE_SLACK = pd.Timedelta(days=1)
 
 
 def _per_row(table: np.ndarray, codes: np.ndarray, empty) -> np.ndarray:
@@ -129,16 +134,19 @@ def _time_codes(cols: list[TextColumn]) -> tuple[np.ndarray, np.ndarray]:
     return codes, texts
 
 
-def _parse_times(texts: np.ndarray, unit: str) -> tuple[np.ndarray, np.ndarray]:
+def _parse_times(texts: np.ndarray, unit: str, now: pd.Timestamp | None = None
+                 ) -> tuple[np.ndarray, np.ndarray]:
     """Distinct time texts -> (int64 ns since 1970 UTC, status: 0 ok, 2 unparseable,
-    3 out of range)."""
+    3 out of range, 4 later than ``now`` plus :data:`FUTURE_SLACK`)."""
     s = pd.Series(texts, dtype="str").str.strip()
     lo, hi = (t.value // 10**9 for t in TIME_RANGE)
-    if unit == "epoch":
-        secs = _to_number(s, ".")
+    if unit.startswith("epoch"):
+        count = _to_number(s, ".")
+        secs = pd.Series(epoch_to_seconds(count, unit), index=count.index)
         unparsed = secs.isna().to_numpy()
         bad_range = ((secs < lo) | (secs >= hi)).to_numpy()
-        parsed = pd.to_datetime(secs.where(~bad_range), unit="s", utc=True)
+        ok = count.where(~bad_range)
+        parsed = pd.to_datetime(ok, unit="ms" if unit == "epoch-ms" else "s", utc=True)
     else:
         parsed = pd.to_datetime(s, format="ISO8601", utc=True, errors="coerce")
         unparsed = parsed.isna().to_numpy()
@@ -147,6 +155,8 @@ def _parse_times(texts: np.ndarray, unit: str) -> tuple[np.ndarray, np.ndarray]:
         parsed = parsed.where(~bad_range)
     ns = parsed.dt.as_unit("ns").dt.tz_localize(None).to_numpy().view("i8").copy()
     status = np.where(unparsed, 2, np.where(bad_range, 3, 0)).astype(np.int8)
+    if now is not None:
+        status[(status == 0) & (ns > (now + FUTURE_SLACK).value)] = 4
     ns[status != 0] = 0
     return ns, status
 
@@ -189,6 +199,23 @@ def _number_rows(col, decimal: str, lo, hi, convert=None):
     return v, status, (None, v)
 
 
+_NUL_REASON = {5: "NUL byte in the cell"}
+
+
+def _nul_status(col) -> np.ndarray | None:
+    """Status per row: 5 where the cell holds a NUL byte, else 0 (None: no cell does)."""
+    if not isinstance(col, TextColumn) or not col.values.size:
+        return None
+    import pyarrow as pa
+    import pyarrow.compute as pc
+
+    has = pc.match_substring(pa.array(col.values, pa.string()), "\x00")
+    has = np.asarray(has.to_numpy(zero_copy_only=False), dtype=bool)
+    if not has.any():
+        return None
+    return _status_rows(np.where(has, 5, 0), col, 0)
+
+
 def _cell_text(column, idx: np.ndarray, decimal: str, numeric: bool) -> np.ndarray:
     """Text of the cells ``idx`` for the rejects table; numbers in one spelling whichever
     way the reader took them (as text or as numbers), so it does not depend on chunking."""
@@ -208,7 +235,8 @@ def _fmt_number(x: float) -> str:
 
 
 _TIME_REASONS = {1: "empty time", 2: "unparseable time",
-                 3: "time out of range (before 1990 or from 2100)"}
+                 3: "time out of range (before 1990 or from 2100)",
+                 4: "time in the future"}
 
 
 def _number_reasons(label: str, lo, hi, unit_txt: str) -> dict:
@@ -233,7 +261,7 @@ def clean_chunk(raw: TextChunk, layout: _Layout, rows: np.ndarray, region: str,
     keys = {}  # report-key field -> (codes per row or None, values or their hashes)
 
     t_codes, t_texts = _time_codes(col[C.TIME])
-    t_ns, t_status = _parse_times(t_texts, layout.units["time"])
+    t_ns, t_status = _parse_times(t_texts, layout.units["time"], layout.ingest_utc)
     checks.append((C.TIME, _status_rows(t_status, col[C.TIME][0] if len(col[C.TIME]) == 1
                                         else TextColumn(t_codes, t_texts), 1), _TIME_REASONS))
     slot_ns = np.int64(slot_minutes) * 60 * 10**9
@@ -278,7 +306,10 @@ def clean_chunk(raw: TextChunk, layout: _Layout, rows: np.ndarray, region: str,
     else:
         drift = np.full(n, np.nan)
 
-    checks = [c for c in checks if c[1] is not None]
+    # a NUL byte costs its row, whatever field it is in (numpy's texts would drop it at
+    # the end of a cell): checked first, so it is the reason given
+    nul = [(f, st, _NUL_REASON) for f, cs in col.items() for st in map(_nul_status, cs)]
+    checks = [c for c in nul + checks if c[1] is not None]
     bad = np.zeros(n, dtype=bool)
     for _, st, _ in checks:
         bad |= st != 0

@@ -16,14 +16,21 @@ Two readers give the same chunks:
   cut at line ends into pieces of about 8 MB, parsed two at a time, each in one thread (so
   the line number of a row with the wrong number of fields is known), and gathered into
   chunks;
-- pandas' C parser for the rest (runs of blanks, decimal commas), which fills a row with
-  too few fields with empty cells.
+- pandas' C parser for the rest (runs of blanks, decimal commas, UTF-16 and UTF-32 files),
+  which fills a row with too few fields with empty cells.
 
-Rows with the wrong number of fields are reported as skipped lines ``(line number,
-message)``; :func:`prefetch` runs a reader one chunk ahead in a second thread.
+Rows with the wrong number of fields are reported as skipped lines ``(line number, raw
+text of the line)``; :func:`prefetch` runs a reader one chunk ahead in a second thread.
+
+A quote mark that is never closed would make a CSV parser read on across line ends: the
+pyarrow reader sets aside every line with an odd number of quote marks as a skipped line
+(so a literal quote mark inside a cell, as in ``5" dish``, costs its row too); pandas'
+reader stops with :class:`~spotkit.errors.InputError`. Quoted fields spanning lines are
+not supported.
 """
 from __future__ import annotations
 
+import gzip
 import re
 import warnings
 from collections import deque
@@ -34,7 +41,8 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
-from spotkit.io.sniff import _csv_kwargs, _Layout
+from spotkit.errors import InputError
+from spotkit.io.sniff import _csv_kwargs, _Layout, _split
 
 
 @dataclass
@@ -85,20 +93,51 @@ def pandas_chunks(layout: _Layout, chunk_rows: int | None,
     """Chunks read by pandas' C parser; yields (chunk, skipped lines). Every column is read
     as text (``numbers`` is accepted for the signature of :func:`arrow_chunks`)."""
     kw = _csv_kwargs(layout)
-    with warnings.catch_warnings(record=True) as caught:
-        warnings.simplefilter("always")
-        frames = pd.read_csv(layout.path, chunksize=chunk_rows, **kw) if chunk_rows \
-            else [pd.read_csv(layout.path, **kw)]
-        try:
-            for frame in frames:
-                cols = [TextColumn.from_text(frame.iloc[:, i]) for i in range(frame.shape[1])]
-                yield TextChunk(len(frame), cols), _skipped_lines(caught)
-        finally:
-            close = getattr(frames, "close", None)
-            if close is not None:
-                close()
+    lines = _LineTexts(layout)
+    # pandas cuts every row to the number of names, silently, when the first data row has
+    # more fields: that row is skipped here and set aside like the other wide rows
+    first = _wide_first_row(layout)
+    if first is not None:
+        kw["skiprows"] = list(range(layout.header_lines)) + [first[0] - 1]
+    try:
+        with warnings.catch_warnings(record=True) as caught:
+            warnings.simplefilter("always")
+            frames = pd.read_csv(layout.path, chunksize=chunk_rows, **kw) if chunk_rows \
+                else _quotes_checked(lambda: [pd.read_csv(layout.path, **kw)], layout)
+            try:
+                for frame in _quotes_checked(lambda: frames, layout):
+                    if any("names does not match" in str(w.message) for w in caught):
+                        # the first row pandas parsed is still wider (quote marks pairing
+                        # across lines): every row would be cut to the headings
+                        raise InputError(
+                            f"{layout.name}: the first data row has more fields than the "
+                            "headings, as read with quote marks pairing across lines; "
+                            "check the quote marks near the top of the file")
+                    cols = [TextColumn.from_text(frame.iloc[:, i])
+                            for i in range(frame.shape[1])]
+                    skipped = lines.texts(_skipped_lines(caught))
+                    if first is not None:
+                        skipped, first = [first] + skipped, None
+                    yield TextChunk(len(frame), cols), skipped
+            finally:
+                close = getattr(frames, "close", None)
+                if close is not None:
+                    close()
+    finally:
+        lines.close()
     for w in caught:
         warnings.warn_explicit(w.message, w.category, w.filename, w.lineno)
+
+
+def _quotes_checked(frames, layout: _Layout):
+    """The frames of pandas' reader (``frames()``); its error on a quote mark that is never
+    closed as an :class:`~spotkit.errors.InputError` naming the file and row."""
+    try:
+        yield from frames()
+    except pd.errors.ParserError as exc:
+        raise InputError(f"{layout.name}: cannot read on ({exc}); a quote mark that is "
+                         "never closed makes the rest of the file one field: remove it, "
+                         "or save the file with every quote mark paired") from None
 
 
 def _skipped_lines(caught) -> list:
@@ -111,6 +150,51 @@ def _skipped_lines(caught) -> list:
             rest.append(w)
     caught[:] = rest
     return out
+
+
+def _open_text(layout: _Layout):
+    opener = gzip.open if layout.compression == "gzip" else open
+    return opener(layout.path, "rt", encoding=layout.encoding, errors="replace", newline=None)
+
+
+def _wide_first_row(layout: _Layout) -> tuple[int, str] | None:
+    """(1-based line number, raw text) of the first data row when it has more fields than
+    the layout has columns, else None."""
+    with _open_text(layout) as fh:
+        for _ in range(layout.header_lines):
+            fh.readline()
+        line = fh.readline().rstrip("\r\n").lstrip("\ufeff")
+    if not line.strip() or len(_split(line, layout.sep)) <= layout.ncols:
+        return None
+    return layout.header_lines + 1, line
+
+
+class _LineTexts:
+    """The raw text of lines of a file by 1-based line number, asked for in increasing
+    order (the file is read once, as far as the last line asked for, only when a line is
+    asked for)."""
+
+    def __init__(self, layout: _Layout):
+        self.layout, self.fh, self.at = layout, None, 0
+
+    def texts(self, skipped: list) -> list:
+        """``[(line, text)]`` for ``[(line, message)]``."""
+        out = []
+        for line, _ in sorted(skipped):
+            if self.fh is None:
+                self.fh = _open_text(self.layout)
+            text = ""
+            while self.at < line:
+                text = self.fh.readline()
+                self.at += 1
+                if not text:
+                    break
+            out.append((line, text.rstrip("\r\n").lstrip("\ufeff")))
+        return out
+
+    def close(self) -> None:
+        if self.fh is not None:
+            self.fh.close()
 
 
 # --- pyarrow ---------------------------------------------------------------------------------
@@ -195,6 +279,9 @@ def arrow_chunks(layout: _Layout, chunk_rows: int | None,
     """
     import pyarrow as pa
 
+    if layout.encoding not in ("utf-8", "utf-8-sig", "latin-1"):  # UTF-16, UTF-32
+        yield from pandas_chunks(layout, chunk_rows)
+        return
     plain = layout.compression is None
     source = pa.OSFile(str(layout.path)) if plain else pa.input_stream(
         str(layout.path), compression=layout.compression)
@@ -298,11 +385,11 @@ def _read_piece(layout: _Layout, piece: bytes, skip: int, numbers: tuple):
     bad: list = []
 
     def handler(row):
-        bad.append((row.number, f"expected {row.expected_columns} fields, "
-                                f"saw {row.actual_columns}"))
+        bad.append((row.number, row.text))  # the raw text of the row
         return "skip"
 
     encoding = {"utf-8": "utf8", "utf-8-sig": "utf8", "latin-1": "latin1"}[layout.encoding]
+    piece, unbalanced, kept_lines = _without_unbalanced_quotes(piece, skip, layout.encoding)
 
     def parse(on_bad_row):
         return pacsv.read_csv(
@@ -317,6 +404,9 @@ def _read_piece(layout: _Layout, piece: bytes, skip: int, numbers: tuple):
                                                  quoted_strings_can_be_null=True,
                                                  null_values=[""]))
 
+    if not len(piece):  # nothing left (every line set aside): pyarrow refuses empty input
+        table = pa.table({n: pa.array([], type=t) for n, t in types.items()})
+        return table, sorted(unbalanced)
     try:
         # without a handler first: it makes the parse a sixth slower, and most pieces
         # have no row with the wrong number of fields (those raise and are parsed again)
@@ -331,7 +421,35 @@ def _read_piece(layout: _Layout, piece: bytes, skip: int, numbers: tuple):
     if numbers and not all(  # NaN or infinity spelled out
             pc.all(pc.is_finite(table.column(i))).as_py() in (True, None) for i in numbers):
         raise _NotPlainNumbers
+    if unbalanced:  # line numbers of the parsed piece -> of the piece as it was
+        bad = sorted([(int(kept_lines[n - 1]), text) for n, text in bad] + unbalanced)
     return table, bad
+
+
+def _without_unbalanced_quotes(piece, skip: int, encoding: str):
+    """The piece without its lines (after the first ``skip``) that hold an odd number of
+    quote marks, which would make the parser read on across line ends; (piece, [(1-based
+    line number, raw text) of the lines taken out], 1-based numbers of the lines kept)."""
+    b = np.frombuffer(piece, np.uint8)
+    if not b.size or not (b == 34).any():  # no quote mark: the usual piece
+        return piece, [], None
+    ends = np.flatnonzero(b == 10) + 1  # end (exclusive) of each line
+    if not ends.size or ends[-1] != b.size:
+        ends = np.append(ends, b.size)
+    starts = np.concatenate([[0], ends[:-1]])
+    quotes = np.bincount(np.searchsorted(ends, np.flatnonzero(b == 34), side="right"),
+                         minlength=ends.size)
+    odd = np.flatnonzero(quotes[:ends.size] % 2 == 1)
+    odd = odd[odd >= skip]
+    if not odd.size:
+        return piece, [], None
+    data = bytes(b)
+    out = [(int(k) + 1, data[starts[k]:ends[k]].rstrip(b"\r\n").decode(encoding, "replace"))
+           for k in odd]
+    keep = np.ones(ends.size, dtype=bool)
+    keep[odd] = False
+    kept = b"".join(data[s:e] for s, e in zip(starts[keep], ends[keep], strict=True))
+    return kept, out, np.flatnonzero(keep) + 1
 
 
 def _column(col):

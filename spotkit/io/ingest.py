@@ -91,6 +91,7 @@ from spotkit.errors import InputError, MostlyRejectedError, UsageError
 from spotkit.io import clean, csvread
 from spotkit.io.dedupe import DayKeys, SeenKeys, report_hashes
 from spotkit.io.pathcache import PathCache
+from spotkit.io.sanity import check_columns
 from spotkit.io.sniff import (
     _CLI_NAME,
     Delimiter,
@@ -464,6 +465,8 @@ def _iter_chunk_columns(paths, *, mapping, units, delimiter, header, slot_minute
     paths = _as_paths(paths)
     summary = summary if summary is not None else IngestSummary()
     layouts = [_prepare_layout(p, mapping, units, delimiter, header) for p in paths]
+    for layout in layouts:
+        check_columns(layout)  # column sanity before rows (spotkit.io.sanity)
     if trace_duplicates and dedupe_window_days is not None:
         raise UsageError("duplicates are traced only without a dedupe window")
     seen = SeenKeys(track_first=trace_duplicates) if dedupe_window_days is None \

@@ -3,13 +3,24 @@
 Model
 -----
 From the first 64 kB and the first :data:`SAMPLE_ROWS` rows of a file this module finds
-the encoding (UTF-8 with or without byte-order mark, else Latin-1), compression (gzip),
-delimiter (comma, semicolon, tab or runs of blanks), decimal comma, whether the first line
-holds headings, which column holds which glossary field (an explicit mapping wins; headings
-are matched by generic words, :func:`match_headings`; files without headings are classified
-by content, :func:`infer_columns`) and the units not given (:func:`infer_frequency_unit`,
-:func:`infer_power_unit`; times ISO 8601 text or epoch seconds). The result is a layout
-that :mod:`spotkit.io.ingest` reads the whole file with.
+the encoding (UTF-8 with or without byte-order mark, UTF-16 or UTF-32 with a byte-order
+mark, UTF-16 without one when every other byte is zero, else Latin-1), compression (gzip),
+delimiter (comma, semicolon, tab or runs of blanks; a first line ``sep=;`` written by
+spreadsheet programs names it; mixed delimiters are refused), decimal comma, whether the
+first line holds headings, which column holds which glossary field (an explicit mapping
+wins; headings are matched by generic words, :func:`match_headings`; files without headings
+are classified by content, :func:`infer_columns`) and the units not given
+(:func:`infer_frequency_unit`, :func:`infer_power_unit`; times ISO 8601 text or epoch
+seconds or milliseconds, told apart by magnitude). The result is a layout that
+:mod:`spotkit.io.ingest` reads the whole file with.
+
+Numbers: besides plain decimal numbers, cells may use the Unicode minus sign (U+2212) and
+the other minus and plus signs of :data:`MINUS_SIGNS` and :data:`PLUS_SIGNS`, Unicode blanks
+(:data:`UNICODE_BLANKS`, removed) and fullwidth digits; each distinct cell is parsed once.
+
+A few NUL bytes make a file neither binary nor unreadable: the rows they are in are
+rejected ("NUL byte in the cell", :mod:`spotkit.io.clean`), wherever they are in the file;
+a file with more than :data:`MAX_NUL_SHARE` of NUL bytes in its first 64 kB is binary.
 
 Known error: everything is decided from the first rows; a file whose layout or units change
 further down is read with the first rows' choice (later rows that do not fit are rejected
@@ -23,6 +34,7 @@ import gzip
 import re
 import unicodedata
 import warnings
+import zlib
 from collections.abc import Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -35,12 +47,19 @@ from spotkit import columns as C
 from spotkit.bands import freq_to_band
 from spotkit.errors import InputError, MappingError, NotASpotTableError, UsageError
 from spotkit.geo.locator import normalize_locator
-from spotkit.units import FREQUENCY_UNITS, POWER_LADDER_DBM, POWER_UNITS, frequency_to_hz
+from spotkit.units import (
+    EPOCH_RANGE_S,
+    FREQUENCY_UNITS,
+    POWER_LADDER_DBM,
+    POWER_UNITS,
+    TIME_UNITS,
+    frequency_to_hz,
+    infer_epoch_unit,
+)
 
 #: Rows read from the start of each file to infer layout, columns and units.
 SAMPLE_ROWS = 10_000
 #: Units accepted per CLI field.
-TIME_UNITS = ("iso", "epoch")
 UNIT_CHOICES = {"time": TIME_UNITS, "frequency": FREQUENCY_UNITS, "power": POWER_UNITS}
 #: Delimiter keywords.
 DELIMITERS = ("auto", ",", ";", "tab", "space")
@@ -147,11 +166,14 @@ class _Layout:
     encoding: str
     sep: str
     decimal: str
-    header_lines: int
+    header_lines: int  # lines before the first data row (a "sep=" line, the heading line)
     headings: list
+    has_header: bool = False  # whether the headings come from a heading line
     fields: dict = field(default_factory=dict)  # glossary name -> list of positions
     units: dict = field(default_factory=dict)  # CLI field -> unit
     inferred: dict = field(default_factory=dict)  # CLI field -> how the unit was found
+    # the moment of ingest: times later than this plus a day are rejected as in the future
+    ingest_utc: pd.Timestamp = field(default_factory=lambda: pd.Timestamp.now(tz="UTC"))
 
     @property
     def ncols(self) -> int:
@@ -162,29 +184,72 @@ class _Layout:
 
     def label(self, i: int) -> str:
         h = self.headings[i]
-        return f"{h!r}" if self.header_lines else f"column {i + 1}"
+        return f"{h!r}" if self.has_header else f"column {i + 1}"
 
 
 def _open_binary(path: Path, compression):
     return gzip.open(path, "rb") if compression == "gzip" else open(path, "rb")
 
 
+def _gzip_error(path: Path, exc: BaseException) -> InputError:
+    return InputError(f"{path}: truncated or corrupt gzip file ({exc}); nothing was read "
+                      "from it: compress the original again, or unpack what is left and "
+                      "give the plain file")
+
+
+def _wide_encoding(head: bytes) -> str | None:
+    """UTF-16 or UTF-32 from a byte-order mark, or UTF-16 without one from where the zero
+    bytes sit (text of mostly ASCII characters has a zero in every other byte)."""
+    if head.startswith((codecs.BOM_UTF32_LE, codecs.BOM_UTF32_BE)):
+        return "utf-32"
+    if head.startswith((codecs.BOM_UTF16_LE, codecs.BOM_UTF16_BE)):
+        return "utf-16"
+    b = np.frombuffer(head[:len(head) // 2 * 2], np.uint8)
+    if b.size < 16:
+        return None
+    even, odd = (b[0::2] == 0).mean(), (b[1::2] == 0).mean()
+    if odd >= 0.9 and even <= 0.1:
+        return "utf-16-le"
+    if even >= 0.9 and odd <= 0.1:
+        return "utf-16-be"
+    return None
+
+
 def _detect_encoding(path: Path, compression, head: bytes) -> str:
-    """UTF-8 (BOM or not) unless some byte sequence is not UTF-8; then Latin-1."""
+    """UTF-16/32 when :func:`_wide_encoding` says so; else UTF-8 (BOM or not) unless some
+    byte sequence is not UTF-8; then Latin-1. The whole file is read (a truncated or
+    corrupt gzip file raises :class:`InputError` here, before any row is read)."""
+    wide = _wide_encoding(head)
     dec = codecs.getincrementaldecoder("utf-8")()
     buf = bytearray(1 << 23)
+    utf8 = wide is None
     try:
         with _open_binary(path, compression) as fh:
             while True:
                 k = fh.readinto(buf)
                 if not k:
-                    dec.decode(b"", final=True)
+                    try:
+                        if utf8:
+                            dec.decode(b"", final=True)  # a sequence cut off at the end
+                    except UnicodeDecodeError:
+                        utf8 = False
                     break
                 # all bytes below 128 (ASCII, the usual file) is checked at memory speed;
                 # other blocks go through the decoder
-                if np.frombuffer(buf, np.uint8, k).max() >= 128:
-                    dec.decode(bytes(buf[:k]))
-    except UnicodeDecodeError:
+                if utf8 and np.frombuffer(buf, np.uint8, k).max() >= 128:
+                    try:
+                        dec.decode(bytes(buf[:k]))
+                    except UnicodeDecodeError:
+                        utf8 = False
+                        if compression is None:
+                            break
+    except (OSError, EOFError, zlib.error) as exc:
+        if compression != "gzip":
+            raise
+        raise _gzip_error(path, exc) from None
+    if wide is not None:
+        return wide
+    if not utf8:
         return "latin-1"
     return "utf-8-sig" if head.startswith(codecs.BOM_UTF8) else "utf-8"
 
@@ -200,17 +265,28 @@ def _read_head(path: Path) -> tuple[bytes, str | None]:
     try:
         with _open_binary(path, compression) as fh:
             head = fh.read(1 << 16)
-    except (OSError, EOFError) as exc:
-        raise NotASpotTableError(f"{path}: not a spot table (corrupt gzip file: {exc})") from None
+    except (OSError, EOFError, zlib.error) as exc:
+        if compression != "gzip":
+            raise
+        raise _gzip_error(path, exc) from None
     return head, compression
 
 
-def _check_text(path: Path, head: bytes) -> None:
+#: Largest share of control bytes (other than tab, line feed, carriage return and NUL) in
+#: the first 64 kB of a text file, and largest share of NUL bytes; a file with more is
+#: binary. A few NUL bytes cost only the rows they are in, wherever they are in the file.
+MAX_CONTROL_SHARE, MAX_NUL_SHARE = 0.01, 0.05
+
+
+def _check_text(path: Path, head: bytes, encoding: str | None = None) -> None:
+    if encoding is not None:  # UTF-16 or UTF-32: look at the decoded text
+        head = head[:len(head) // 4 * 4].decode(encoding, errors="replace").encode(
+            "utf-8", errors="replace")
     if not head.strip():
         raise NotASpotTableError(f"{path}: not a spot table (the file is empty)")
     body = head.removeprefix(codecs.BOM_UTF8)
-    control = sum(body.count(bytes([b])) for b in range(32) if b not in (9, 10, 13))
-    if b"\x00" in body or control > 0.01 * len(body):
+    control = sum(body.count(bytes([b])) for b in range(1, 32) if b not in (9, 10, 13))
+    if control > MAX_CONTROL_SHARE * len(body) or body.count(b"\x00") > MAX_NUL_SHARE * len(body):
         raise NotASpotTableError(f"{path}: not a spot table (binary content, not text)")
     start = body.lstrip()[:512].lower()
     if start.startswith((b"<!doctype", b"<html", b"<?xml", b"<head", b"<body", b"<table")) or (
@@ -219,18 +295,42 @@ def _check_text(path: Path, head: bytes) -> None:
 
 
 def _split(line: str, sep: str) -> list[str]:
-    if sep == r"\s+":
-        return line.split()
+    if sep == r"\s+":  # runs of ASCII blanks and tabs, quotes honoured (as pandas' parser)
+        line = line.replace("\t", " ").strip(" \r\n")
+        return next(csv.reader([line], delimiter=" ", skipinitialspace=True)) if line else []
     return [t.strip() for t in next(csv.reader([line], delimiter=sep))]
 
 
-def _sniff_sep(lines: list[str], delimiter: str) -> str:
+#: Share of the first lines that must split into as many fields as the first line for a
+#: delimiter to be taken at once; failing that, a delimiter that splits at least
+#: :data:`SEP_SHARE_LOW` of them so is taken (the others are rows with the wrong number of
+#: fields) unless a second delimiter splits :data:`MIXED_SHARE` of the lines into 3 or
+#: more fields (mixed delimiters).
+SEP_SHARE, SEP_SHARE_LOW, MIXED_SHARE = 0.9, 0.5, 0.1
+
+_SEP_LINE = re.compile(r'^\s*"?sep=(.)"?[,;\t]*\s*$', re.IGNORECASE)
+
+
+def _sniff_sep(lines: list[str], delimiter: str, path: Path | None = None) -> str:
     if delimiter != "auto":
         return {"tab": "\t", "space": r"\s+"}.get(delimiter, delimiter)
-    for sep in ("\t", ";", ","):
-        counts = [len(_split(ln, sep)) for ln in lines]
+    counts = {sep: np.array([len(_split(ln, sep)) for ln in lines]) for sep in ("\t", ";", ",")}
+    for sep, c in counts.items():
         # consistent when the first line and most lines split into the same >= 3 fields
-        if counts and counts[0] >= 3 and np.mean(np.array(counts) == counts[0]) >= 0.9:
+        if c.size and c[0] >= 3 and np.mean(c == c[0]) >= SEP_SHARE:
+            return sep
+    wide = {sep: float(np.mean(c >= 3)) for sep, c in counts.items() if c.size}
+    mixed = [sep for sep, share in wide.items() if share >= MIXED_SHARE]
+    if len(mixed) > 1:
+        shares = ", ".join(f"{_sep_label(sep)} in {100 * wide[sep]:.0f} %"
+                           for sep in sorted(mixed, key=lambda x: -wide[x]))
+        raise InputError(f"{path or 'the file'}: mixed delimiters: of the first "
+                         f"{len(lines)} lines, fields are separated by {shares}; save the "
+                         "file with one delimiter, or give it with --delimiter (lines "
+                         "that do not split into the right number of fields are then "
+                         "rejected)")
+    for sep, c in counts.items():
+        if c.size and c[0] >= 3 and np.mean(c == c[0]) >= SEP_SHARE_LOW:
             return sep
     return r"\s+"
 
@@ -241,15 +341,26 @@ def _is_number(tok: str) -> bool:
 
 def _sniff_layout(path: Path, delimiter: str, header) -> _Layout:
     head, compression = _read_head(path)
-    _check_text(path, head)
+    _check_text(path, head, _wide_encoding(head))
     encoding = _detect_encoding(path, compression, head)
-    text = head.decode(encoding if encoding != "utf-8" else "utf-8", errors="replace")
-    if len(head) == 1 << 16:
+    if encoding.startswith(("utf-16", "utf-32")):
+        head = head[:len(head) // 4 * 4]
+    text = head.decode(encoding, errors="replace").replace("\x00", "")
+    if len(head) >= (1 << 16) - 3:
         text = text.rsplit("\n", 1)[0]  # drop the cut-off last line
-    lines = [ln for ln in text.splitlines() if ln.strip()][:200]
+    raw_lines = text.splitlines()
+    # a first line "sep=," (written by spreadsheet programs) names the delimiter
+    sep_line = _SEP_LINE.match(raw_lines[0]) if raw_lines else None
+    preamble = 1 if sep_line else 0
+    if sep_line and delimiter == "auto":
+        delimiter = _delimiter_arg({"\t": "tab", " ": "space"}.get(sep_line.group(1),
+                                                                  sep_line.group(1)))
+    lines = [ln for ln in raw_lines[preamble:] if ln.strip()][:200]
+    # lines with a quote mark never closed are set aside by the reader: not sniffed either
+    lines = lines[:1] + [ln for ln in lines[1:] if ln.count('"') % 2 == 0]
     if not lines:
         raise NotASpotTableError(f"{path}: not a spot table (no text lines)")
-    sep = _sniff_sep(lines, delimiter)
+    sep = _sniff_sep(lines, delimiter, path)
     first = _split(lines[0], sep)
     if header == "auto":
         # no numbers in the first line, and numbers below it or a known heading word in it
@@ -288,7 +399,8 @@ def _sniff_layout(path: Path, delimiter: str, header) -> _Layout:
     else:
         headings = [f"column {i + 1}" for i in range(nfields)]
     return _Layout(path=path, name=str(path), compression=compression, encoding=encoding,
-                   sep=sep, decimal=decimal, header_lines=int(has_header), headings=headings)
+                   sep=sep, decimal=decimal, header_lines=preamble + int(has_header),
+                   headings=headings, has_header=bool(has_header))
 
 
 def _split_date_time_heading(path, headings, row):
@@ -435,7 +547,7 @@ def match_headings(headings: Sequence[str]) -> tuple[dict, dict]:
 def _apply_mapping(layout: _Layout, mapping: dict) -> dict:
     """Resolve explicit mapping values (heading text or 1-based position) to positions."""
     lookup = {h.strip().lower(): i for i, h in enumerate(layout.headings)} \
-        if layout.header_lines else {}
+        if layout.has_header else {}
     out = {}
     for f, cols in mapping.items():
         pos = []
@@ -460,7 +572,7 @@ def _columns_help(layout: _Layout, sample: pd.DataFrame | None = None) -> str:
         if sample is not None and i < sample.shape[1]:
             vals = sample.iloc[:3, i].dropna().astype(str).tolist()
             ex = f" e.g. {', '.join(vals)}" if vals else ""
-        parts.append(f"{i + 1}: {h!r}{ex}" if layout.header_lines else f"column {i + 1}{ex}")
+        parts.append(f"{i + 1}: {h!r}{ex}" if layout.has_header else f"column {i + 1}{ex}")
     return ("columns found: " + "; ".join(parts) + ". Map them with --map FIELD=COLUMN "
             "(heading or 1-based position; in Python mapping={'tx_call': ...}); FIELD is one "
             "of " + ", ".join(C.CLI_FIELDS))
@@ -475,7 +587,7 @@ def _frac(mask, base) -> float:
 def _column_profile(s: pd.Series) -> dict:
     s = s.astype("str").str.strip()
     present = s.notna() & (s != "")
-    num = pd.to_numeric(s.str.replace(",", ".", regex=False), errors="coerce")
+    num = _to_number(s.str.replace(",", ".", regex=False), ".")
     isnum = num.notna().to_numpy()
     p = present.to_numpy()
     up = s.str.upper()
@@ -490,7 +602,9 @@ def _column_profile(s: pd.Series) -> dict:
         "values": num[isnum].to_numpy(dtype=float),
     }
     v = prof["values"]
-    prof["epoch"] = _frac((num >= 6.3e8).to_numpy() & (num <= 4.1e9).to_numpy(), p)
+    lo, hi = EPOCH_RANGE_S  # seconds or milliseconds
+    prof["epoch"] = _frac((((num >= lo) & (num < hi)) | ((num >= lo * 1e3) & (num < hi * 1e3))
+                           ).to_numpy(), p)
     prof["integer"] = float(np.mean(v == np.round(v))) if v.size else 0.0
     return prof
 
@@ -498,7 +612,8 @@ def _column_profile(s: pd.Series) -> dict:
 def infer_columns(sample: pd.DataFrame, known: dict | None = None) -> tuple[dict, dict]:
     """Classify the columns of a file without headings by their content.
 
-    Time: ISO 8601 text (or a date column followed by a clock column) or epoch seconds;
+    Time: ISO 8601 text (or a date column followed by a clock column) or epoch seconds or
+    milliseconds;
     locators: valid Maidenhead locators of 4 or more characters; calls: letters and digits
     with at least one of each; frequency: the one numeric column that lands in amateur bands
     in Hz, kHz or MHz; power: whole numbers 0..60 on the dBm ladder; SNR: whole numbers in
@@ -718,7 +833,7 @@ def _to_number(raw: pd.Series, decimal: str) -> pd.Series:
             pass
         else:
             return _checked_numbers(vals, arr, raw.index)
-    arr = pc.utf8_trim_whitespace(arr)
+    arr = pc.utf8_trim_whitespace(_plain_signs(arr))
     if decimal == ",":
         arr = pc.replace_substring(arr, ",", ".")
     pattern = _NUMBER_PATTERN
@@ -737,6 +852,35 @@ def _to_number(raw: pd.Series, decimal: str) -> pd.Series:
 
 
 _NUMBER_PATTERN = r"^[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?$"
+
+#: Characters written for a minus sign in numeric cells: U+2212 MINUS SIGN, hyphens and
+#: dashes used as minus (U+2010..U+2013), small and fullwidth hyphen-minus (U+FE63, U+FF0D).
+MINUS_SIGNS = "\u2212\u2010\u2011\u2012\u2013\ufe63\uff0d"
+#: Characters written for a plus sign: small and fullwidth plus (U+FE62, U+FF0B).
+PLUS_SIGNS = "\ufe62\uff0b"
+#: Blanks other than the ASCII space that may pad or group the digits of a number:
+#: no-break, en/em, figure, thin, hair, narrow no-break, medium mathematical and
+#: ideographic spaces, zero-width space and no-break (byte-order mark).
+UNICODE_BLANKS = "\u00a0\u2000-\u200b\u202f\u205f\u3000\ufeff"
+
+
+def _plain_signs(arr):
+    """Text cells with Unicode minus and plus signs written as ASCII ``-`` and ``+``,
+    Unicode blanks removed and fullwidth digits made ASCII (NFKC); ASCII cells unchanged.
+
+    Only cells with a character outside ASCII are touched (vectorised over the distinct
+    cells by pyarrow)."""
+    import pyarrow as pa
+    import pyarrow.compute as pc
+
+    ascii_ = pc.string_is_ascii(arr)
+    if pc.all(ascii_).as_py() in (True, None):
+        return arr
+    other = pc.replace_substring_regex(arr, f"[{UNICODE_BLANKS}]", "")
+    other = pc.utf8_normalize(other, "NFKC")
+    other = pc.replace_substring_regex(other, f"[{MINUS_SIGNS}]", "-")
+    other = pc.replace_substring_regex(other, f"[{PLUS_SIGNS}]", "+")
+    return pc.if_else(ascii_, arr, other).cast(pa.string())
 
 
 def _checked_numbers(vals, arr, index) -> pd.Series:
@@ -757,7 +901,7 @@ def _checked_numbers(vals, arr, index) -> pd.Series:
 
 def _infer_units(layout: _Layout, sample: pd.DataFrame, units: dict) -> None:
     hints = {}
-    if layout.header_lines:
+    if layout.has_header:
         for f, pos in layout.fields.items():
             for i in pos:
                 for k, u in _heading_kind(layout.headings[i])[2].items():
@@ -792,6 +936,11 @@ def _infer_units(layout: _Layout, sample: pd.DataFrame, units: dict) -> None:
         except InputError as exc:
             raise InputError(f"{layout.name}: column {layout.label(pos[0])}: {exc}") from None
         layout.inferred[name] = "inferred"
+    if out["time"] == "epoch" and "time" not in units and len(sample):
+        # epoch times not said to be seconds: seconds or milliseconds by magnitude
+        col = sample.iloc[:, layout.fields[C.TIME][0]]
+        out["time"] = infer_epoch_unit(_to_number(col, "."))
+        layout.inferred["time"] = layout.inferred.get("time", "inferred") + ", by magnitude"
     layout.units = out
 
 
@@ -803,7 +952,8 @@ def _csv_kwargs(layout: _Layout) -> dict:
     kw = dict(sep=layout.sep, header=None, names=names, skiprows=layout.header_lines,
               encoding=layout.encoding, compression=layout.compression, dtype=dtype,
               keep_default_na=False, na_values=[""], skip_blank_lines=False,
-              on_bad_lines="warn", index_col=False, decimal=layout.decimal, low_memory=False)
+              on_bad_lines="warn", index_col=False, decimal=layout.decimal, low_memory=False,
+              encoding_errors="replace")
     if layout.sep != r"\s+":
         kw["skipinitialspace"] = True
     return kw
@@ -812,14 +962,18 @@ def _csv_kwargs(layout: _Layout) -> dict:
 def _read_sample(layout: _Layout) -> pd.DataFrame:
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
-        return pd.read_csv(layout.path, nrows=SAMPLE_ROWS, **_csv_kwargs(layout))
+        try:
+            return pd.read_csv(layout.path, nrows=SAMPLE_ROWS, **_csv_kwargs(layout))
+        except pd.errors.ParserError:  # a quote mark never closed: quotes as plain text
+            return pd.read_csv(layout.path, nrows=SAMPLE_ROWS, quoting=csv.QUOTE_NONE,
+                               **_csv_kwargs(layout))
 
 
 def _prepare_layout(path: Path, mapping, units, delimiter, header) -> _Layout:
     layout = _sniff_layout(path, delimiter, header)
     sample = _read_sample(layout)
     known = _apply_mapping(layout, mapping)
-    if layout.header_lines:
+    if layout.has_header:
         guessed, problems = match_headings(layout.headings)
         taken = {i for pos in known.values() for i in pos}
         fields = dict(known)
@@ -836,7 +990,7 @@ def _prepare_layout(path: Path, mapping, units, delimiter, header) -> _Layout:
     missing = [f for f in C.REQUIRED_INPUT if f not in fields]
     if missing or any(f in problems for f in missing):
         lines = [f"  {_CLI_NAME[f]}: {problems.get(f, 'not found')}" for f in missing]
-        how = "headings" if layout.header_lines else "content (no heading line)"
+        how = "headings" if layout.has_header else "content (no heading line)"
         raise MappingError(f"{path}: cannot map the columns from their {how}:\n"
                            + "\n".join(lines) + "\n" + _columns_help(layout, sample))
     layout.fields = {f: fields[f] for f in _FIELD_ORDER if f in fields}

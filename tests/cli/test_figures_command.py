@@ -12,7 +12,7 @@ from spotkit.cli import main
 
 pytest.importorskip("cartopy")
 
-LOCATOR_MESSAGE = ("not a Maidenhead locator: {!r} (expected 2, 4, 6 or 8 characters like "
+LOCATOR_MESSAGE = ("not a Maidenhead locator: {!r} (expected 2, 4, 6, 8 or 10 characters like "
                    "'JN58', 'JN58td' or 'JN58td25')")
 
 

@@ -79,6 +79,8 @@ def test_eight_characters():
     "", "J", "JN5", "JN58t", "SN58",  # S is beyond field letter R
     "JNA8", "JN58yx",  # y is beyond subsquare letter x
     "JN58tdA1", "JN58td2", "JN58td255", "JN58 td", "12AB", None, np.nan,
+    "JN58td25k", "JN58td25ky",  # y is beyond the fifth-pair letter x
+    "JN58td25kx1", "JN58td2512",  # 11 characters; digits where letters belong
 ])
 def test_invalid_locators(bad):
     assert not is_valid_locator([bad])[0]
@@ -86,6 +88,35 @@ def test_invalid_locators(bad):
         locator_to_latlon(bad)
     lat, lon = locator_to_latlon([bad, "JN58"], errors="coerce")
     assert np.isnan(lat[0]) and np.isnan(lon[0]) and lat[1] == 48.5
+
+
+@pytest.mark.parametrize("loc, lat, lon", [
+    # 10-character cells: the fifth pair (a-x) divides the 30" x 15" cell 24 x 24 (the usual
+    # extension, English Wikipedia "Maidenhead Locator System"); worked by hand from the
+    # module table: JN58td25 starts at lon 10 + 95' + 1' = 11.6 deg, lat 48 + 7.5' + 1.25'
+    # = 48.1458333 deg; k (10) and x (23) add 12.5" and 14.375"; the centre is half a cell
+    # (0.625", 0.3125") further. 1e-9 deg.
+    ("JN58td25kx", 48.125 + 1.25 / 60 + 14.375 / 3600 + 0.3125 / 3600,
+     11.6 + 12.5 / 3600 + 0.625 / 3600),
+    ("AA00aa00aa", -90 + 0.3125 / 3600, -180 + 0.625 / 3600),
+    ("RR99xx99xx", 90 - 0.3125 / 3600, 180 - 0.625 / 3600),
+])
+def test_ten_character_cell_centres(loc, lat, lon):
+    assert is_valid_locator(loc)[0]
+    got = locator_to_latlon(loc)
+    assert got[0] == pytest.approx(lat, abs=1e-9)
+    assert got[1] == pytest.approx(lon, abs=1e-9)
+    assert latlon_to_locator(lat, lon, precision=10) == loc
+    dlon, dlat = locator_cell_size(loc)
+    assert dlon[0] * 3600 == pytest.approx(1.25) and dlat[0] * 3600 == pytest.approx(0.625)
+
+
+def test_ten_characters_normalised_and_inside_their_eight_character_cell():
+    assert list(normalize_locator(["jn58TD25KX", "IO91LK45AA"])) == ["JN58td25kx", "IO91lk45aa"]
+    # the 10-character cell lies inside its 8-character cell
+    lat8, lon8 = locator_to_latlon("JN58td25")
+    lat10, lon10 = locator_to_latlon("JN58td25kx")
+    assert abs(lat10 - lat8) < 7.5 / 3600 and abs(lon10 - lon8) < 15 / 3600
 
 
 def test_error_names_first_bad_value():
@@ -126,7 +157,7 @@ lons = st.floats(-180, 180, allow_nan=False, exclude_max=True)
 
 
 @settings(max_examples=150, deadline=None)
-@given(lats, lons, st.sampled_from([2, 4, 6, 8]))
+@given(lats, lons, st.sampled_from([2, 4, 6, 8, 10]))
 def test_property_round_trip_and_centre_inside_cell(lat, lon, precision):
     loc = latlon_to_locator(lat, lon, precision=precision)
     assert len(loc) == precision and is_valid_locator(loc)[0]

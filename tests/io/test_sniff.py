@@ -77,3 +77,39 @@ def test_encoding_found_beyond_the_first_block(tmp_path, gz, tail, expected):
     with (gzip.open(path, "wb") if gz else open(path, "wb")) as fh:
         fh.write(body)
     assert _detect_encoding(path, "gzip" if gz else None, body[:100]) == expected
+
+
+# --- encodings and delimiters from the first bytes ----------------------------------------------
+@pytest.mark.parametrize("data, expected", [
+    ("time,snr\n".encode("utf-16"), "utf-16"),  # with byte-order mark
+    ("time,snr\n".encode("utf-16-le") * 4, "utf-16-le"),  # a zero in every odd byte
+    ("time,snr\n".encode("utf-16-be") * 4, "utf-16-be"),
+    ("time,snr\n".encode("utf-32"), "utf-32"),
+    (b"time,snr\n" * 4, None), (b"time,snr\x00\n" * 4, None),  # a few NULs: 8-bit text
+])
+def test_wide_encodings_found_from_the_zero_bytes(data, expected):
+    from spotkit.io.sniff import _wide_encoding
+
+    assert _wide_encoding(data) == expected
+
+
+def test_mixed_delimiters_refused_and_one_delimiter_kept():
+    from spotkit.io.sniff import _sniff_sep
+
+    rows = ["a,b,c,d", "1,2,3,4", "1;2;3;4", "1,2,3,4", "1;2;3;4"]
+    with pytest.raises(InputError, match="mixed delimiters.*',' in 60 %.*';' in 40 %"):
+        _sniff_sep(rows, "auto")
+    # one wide row in a small file: the comma is still the delimiter
+    assert _sniff_sep(["a,b,c,d", "1,2,3,4", "1,2,3,4,5", "1,2,3,4", "1,2,3,4"], "auto") == ","
+
+
+@pytest.mark.parametrize("gz", [False, True])
+def test_utf8_sequence_cut_off_at_the_very_end_is_latin1(tmp_path, gz):
+    import gzip
+
+    from spotkit.io.sniff import _detect_encoding
+
+    body = b"2026-03-01 10:00,Q1ABC,JN58td,Q2XYZ,IO91lk,14.0971,-12,23,0\n" + "ü".encode()[:1]
+    path = tmp_path / ("s.csv.gz" if gz else "s.csv")
+    path.write_bytes(gzip.compress(body) if gz else body)
+    assert _detect_encoding(path, "gzip" if gz else None, body[:100]) == "latin-1"
