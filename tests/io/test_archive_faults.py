@@ -298,7 +298,7 @@ def test_the_loser_of_the_lock_exits_2_with_a_clear_message(tmp_path, two_export
     a, b, na, nb = two_exports
     root = tmp_path / "arch"
     archive.ingest_to_dataset(a, root)
-    c = write_csv(tmp_path / "c.csv", 800, seed=43, start="2026-12-05 00:00")
+    c = write_csv(tmp_path / "c.csv", 800, seed=43, start="2026-10-05 00:00")
     slow = Child(["ingest", b, "--dataset", root], fault="locked:sleep=4", tmp=tmp_path)
     # wait until the slow writer holds the lock (its staging lock exists by then, too)
     import time
@@ -324,7 +324,7 @@ def test_two_appends_of_different_files_at_once_lose_and_double_nothing(tmp_path
     want, sources = 0, []
     for r in range(10):
         files = [write_csv(tmp_path / f"r{r}-{k}.csv", 300, seed=100 + 2 * r + k,
-                           start=f"2026-12-{1 + (2 * r + k) % 28:02d} 00:00") for k in (0, 1)]
+                           start=f"2026-10-{1 + (2 * r + k) % 28:02d} 00:00") for k in (0, 1)]
         # the lock is held a moment longer than needed, so that the commits meet
         procs = [Child(["ingest", f, "--dataset", root], fault="locked:sleep=0.2", tmp=tmp_path)
                  for f in files]
