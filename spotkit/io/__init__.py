@@ -17,6 +17,8 @@ from spotkit.io.atomic import (
     Interrupted,
     check_outputs,
     commit,
+    fsync_dir,
+    fsync_file,
     recover_folder,
     signals_raise,
     staged,
@@ -102,7 +104,8 @@ __all__ = [
 # outputs as transactions (atomic) and the refusal of mostly rejected runs (ingest)
 __all__ += [
     "Interrupted", "staging_path", "check_outputs", "writer_is_dead", "signals_raise",
-    "recover_folder", "commit", "staged", "DUPLICATE_REASON", "MAX_REJECT_SHARE",
+    "recover_folder", "commit", "staged", "fsync_file", "fsync_dir", "DUPLICATE_REASON",
+    "MAX_REJECT_SHARE",
     "check_reject_share", "reject_hint",
 ]
 __all__ += ["check_columns", "column_problems", "MIN_VALUES", "MIN_SHARE", "SNR_PLAUSIBLE_DB",

@@ -26,6 +26,7 @@ import numpy as np
 
 from spotkit import columns as C
 from spotkit.errors import InputError, UsageError
+from spotkit.io.atomic import fsync_file
 from spotkit.io.ingest import IngestSummary, iter_spot_chunks
 from spotkit.io.manifest import (
     REJECTS_DIR,
@@ -33,7 +34,6 @@ from spotkit.io.manifest import (
     dataset_manifest,
     fault_point,
     file_hashes,
-    fsync_file,
 )
 from spotkit.io.store import (
     PARTITION_KEYS,

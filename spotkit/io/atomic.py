@@ -284,7 +284,9 @@ def signals_raise() -> Iterator[None]:
 
 
 # --- recovery ------------------------------------------------------------------------------
-def _fsync_dir(folder: Path) -> None:
+def fsync_dir(folder) -> None:
+    """Flush a folder's entries (new names, renames) to the disk; a no-op where folders
+    cannot be opened (Windows) or a file system refuses."""
     try:
         fd = os.open(folder, os.O_RDONLY)
     except OSError:  # pragma: no cover - e.g. Windows
@@ -323,7 +325,7 @@ def _finish_record(record: Path) -> list[Path]:
             os.replace(tmp, target)
             done.append(target)
     for folder in {t.parent for _, t in pairs}:
-        _fsync_dir(folder)
+        fsync_dir(folder)
     for c in copies:
         with contextlib.suppress(FileNotFoundError):
             c.unlink()
@@ -374,7 +376,8 @@ def recover_folder(folder) -> list[Path]:
 
 
 # --- the transaction -------------------------------------------------------------------------
-def _fsync_file(path: Path) -> None:
+def fsync_file(path) -> None:
+    """Flush a written file's data to the disk."""
     fd = os.open(path, os.O_RDONLY)
     try:
         os.fsync(fd)
@@ -411,7 +414,7 @@ def commit(pairs: Sequence[tuple]) -> None:
     if not pairs:
         return
     for tmp, _ in pairs:
-        _fsync_file(tmp)
+        fsync_file(tmp)
     folders = sorted({d.parent for _, d in pairs})
     m = _NAME.match(pairs[0][0].name)
     token = f"{m['pid']}-{m['host']}-{m['rand']}" if m else _token()
@@ -429,12 +432,12 @@ def commit(pairs: Sequence[tuple]) -> None:
                 os.fsync(fh.fileno())
             os.replace(part, rec)
         for f in folders:
-            _fsync_dir(f)
+            fsync_dir(f)
         _before_rename_hook()
         for tmp, target in pairs:
             os.replace(tmp, target)
         for f in folders:
-            _fsync_dir(f)
+            fsync_dir(f)
         for rec in records:
             rec.unlink()
 
@@ -550,5 +553,5 @@ def staged(targets: Sequence) -> Iterator[list[Path]]:
 
 __all__ = [
     "Interrupted", "staging_path", "check_outputs", "writer_is_dead", "signals_raise",
-    "recover_folder", "commit", "staged",
+    "recover_folder", "commit", "staged", "fsync_file", "fsync_dir",
 ]

@@ -57,6 +57,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from spotkit.errors import InputError, UsageError
+from spotkit.io.atomic import fsync_dir
 
 #: The manifest file in an archive's root.
 MANIFEST_NAME = "_spotkit_manifest.json"
@@ -96,31 +97,6 @@ def fault_point(name: str) -> None:
         time.sleep(float(action.split("=", 1)[1]))
     else:
         os.kill(os.getpid(), signal.SIGKILL)
-
-
-# --- durable files ---------------------------------------------------------------------------
-def fsync_file(path) -> None:
-    """Flush a written file's data to the disk."""
-    fd = os.open(path, os.O_RDONLY)
-    try:
-        os.fsync(fd)
-    finally:
-        os.close(fd)
-
-
-def fsync_dir(path) -> None:
-    """Flush a folder's entries (new names, renames) to the disk; a no-op where folders
-    cannot be opened (Windows)."""
-    try:
-        fd = os.open(path, os.O_RDONLY)
-    except OSError:
-        return
-    try:
-        os.fsync(fd)
-    except OSError:
-        pass
-    finally:
-        os.close(fd)
 
 
 # --- manifest --------------------------------------------------------------------------------

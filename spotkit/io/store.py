@@ -52,6 +52,7 @@ from spotkit import columns as C
 from spotkit._validate import check_choice, check_time
 from spotkit.bands import BAND_ORDER
 from spotkit.errors import InputError, UsageError
+from spotkit.io.atomic import fsync_dir, fsync_file
 from spotkit.io.manifest import (
     MANIFEST_NAME,
     REJECTS_DIR,
@@ -63,8 +64,6 @@ from spotkit.io.manifest import (
     empty_manifest,
     fault_point,
     file_sha256,  # noqa: F401 - kept importable from here, as before
-    fsync_dir,
-    fsync_file,
     new_token,
     roll_back_leftovers,
     write_manifest,
