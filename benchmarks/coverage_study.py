@@ -40,8 +40,10 @@ Targets (issue 15): |bias| <= 0.03 dB everywhere; coverage >= 93 % over >= 200 r
 baseline (``hard threshold``).
 
 Run: ``.venv/bin/python benchmarks/coverage_study.py [--runs 200] [--large-runs 60]
-[--boot 200] [--regimes "hard threshold;whole dB, A 7 dB below B"]``; a quick look in
-about a minute: ``--runs 10 --large-runs 2``.
+[--boot 200] [--interval percentile] [--regimes "hard threshold;whole dB, A 7 dB below
+B"]``; a quick look in about a minute: ``--runs 10 --large-runs 2``. ``--interval normal
+--boot 50`` is what the slow tests run (``tests/compare/test_coverage_study.py``: a
+percentile interval from 50 resamples is too noisy, a normal one is not).
 """
 from __future__ import annotations
 

@@ -231,21 +231,28 @@ RUNS_PER_REGIME = 17  # 12 regimes x 17 = 204 runs
 #: percentile shape is checked by the benchmark. The point estimates, and so every bias
 #: check, do not depend on the resamples.
 SLOW_BOOT = 50
-#: Measured on the detection-model estimator (issue 15; helper notes "stat2"): the
-#: per-receiver B-A spread regimes are biased low against the study's truth. The truth is
-#: the mean true B-A over the pairs with at least one antenna heard; the estimator's
-#: composite likelihood ("B given A heard" times "A given B heard") targets a blend of the
-#: mean over the pairs with A heard and the mean over the pairs with B heard. When B-A
-#: differs between receivers these differ (population of the "receiver heterogeneity, A 7
-#: dB below B" regime: -0.031 dB over A-heard pairs, +0.161 dB over B-heard or any-heard
-#: pairs, -0.060 dB over all open paths), and the estimate falls in between. With the
-#: receivers' B-A spread alone the bias is -0.048 +- 0.021 dB, with their threshold spread
-#: alone -0.010 +- 0.015 dB (20 runs each): the thresholds per receiver are not the cause.
-HETEROGENEITY_BIAS = pytest.mark.xfail(strict=True, reason=(
-    "open (issue 15): bias -0.043 dB in 'receiver heterogeneity, A 7 dB below B' (17 runs) "
-    "and about -0.05 dB in the large cell: with B-A differing between receivers the "
-    "composite likelihood targets a blend of the mean B-A over A-heard and B-heard pairs, "
-    "not the mean over pairs with either heard (the study's truth); see the comment above"))
+#: Measured on the detection-model estimator (issue 15; helper notes "stat2"). With A 7
+#: dB below B the bias target (0.03 dB) is not met: over 60 runs each (seeds 20000+),
+#: "whole dB" -0.048 +- 0.006 dB, "soft threshold" +0.055 +- 0.007 dB, "heavy tails t3"
+#: -0.023 +- 0.006 dB; 17 runs of "receiver heterogeneity" -0.043 dB (this fixture) and
+#: the large cell -0.042 dB (60 runs, seeds 1000+). At equal powers the bias is within
+#: 0.01 dB (e.g. "receiver heterogeneity" +0.000 +- 0.010 dB over 60 runs). One cause,
+#: measured: the study's truth is the mean true B-A over the pairs with at least one
+#: antenna heard, while the composite likelihood ("B given A heard" times "A given B
+#: heard") targets a blend of the means over the pairs with A heard and with B heard;
+#: where B-A varies (per path cell, per receiver) and A is much weaker these differ
+#: ("receiver heterogeneity, A 7 dB below B": -0.031 dB over A-heard pairs, +0.161 dB over
+#: B-heard or any-heard pairs, -0.060 dB over all open paths). With the receivers' B-A
+#: spread alone that regime's bias is -0.048 +- 0.021 dB, with their threshold spread alone
+#: -0.010 +- 0.015 dB (20 runs each). The soft-threshold sign (+) says the detection
+#: model leaves a second part (not isolated). The 17-run subset here resolves about
+#: 0.05 dB, so only the heterogeneity regime fails in it; the large cell resolves 0.01 dB.
+BIAS_OPEN = pytest.mark.xfail(strict=True, reason=(
+    "open (issue 15): with A 7 dB below B the bias exceeds 0.03 dB (17 runs of 'receiver "
+    "heterogeneity, A 7 dB below B' -0.043 dB; large cell about -0.04 dB; over 60 runs "
+    "whole dB -0.048, soft threshold +0.055 dB): the composite likelihood targets a blend "
+    "of the mean B-A over A-heard and over B-heard pairs, the study's truth is the mean "
+    "over pairs with either heard; see the comment above"))
 
 
 @pytest.fixture(scope="module")
@@ -283,7 +290,7 @@ def test_coverage_at_7000_pairs_over_every_regime(small_runs):
 
 
 @pytest.mark.slow
-@HETEROGENEITY_BIAS
+@BIAS_OPEN
 def test_bias_at_7000_pairs_in_every_regime(small_runs):
     """Per regime the bias must be within 0.03 dB plus 2.5 of its standard errors over 17
     runs (about 0.02 dB: this subset resolves a bias of about 0.08 dB; the benchmark's 200
@@ -312,7 +319,7 @@ def test_coverage_in_the_large_cell(large_runs):
 
 
 @pytest.mark.slow
-@HETEROGENEITY_BIAS
+@BIAS_OPEN
 def test_bias_in_the_large_cell(large_runs):
     """|bias| <= 0.03 dB over the 60 runs (the estimates spread by about 0.07-0.09 dB,
     mostly which 150 receivers a run draws, so the mean error has an SE of about 0.01 dB)."""
