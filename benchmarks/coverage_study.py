@@ -40,8 +40,10 @@ Targets (issue 15): |bias| <= 0.03 dB everywhere; coverage >= 93 % over >= 200 r
 baseline (``hard threshold``).
 
 Run: ``.venv/bin/python benchmarks/coverage_study.py [--runs 200] [--large-runs 60]
-[--boot 200] [--regimes "hard threshold;whole dB, A 7 dB below B"]``; a quick look in
-about a minute: ``--runs 10 --large-runs 2``.
+[--boot 200] [--interval percentile] [--regimes "hard threshold;whole dB, A 7 dB below
+B"]``; a quick look in about a minute: ``--runs 10 --large-runs 2``. ``--interval normal
+--boot 50`` is what the slow tests run (``tests/compare/test_coverage_study.py``: a
+percentile interval from 50 resamples is too noisy, a normal one is not).
 """
 from __future__ import annotations
 
@@ -101,7 +103,8 @@ def population_truth(regime: str, n_far: int = 15000, n_slots: int = 40,
     return heldout.overall_truth(cells)
 
 
-def run_once(regime: str, seed: int, n_boot: int = 200, confidence: float = 0.95) -> dict:
+def run_once(regime: str, seed: int, n_boot: int = 200, confidence: float = 0.95,
+             interval: str = "percentile") -> dict:
     """One run of a regime: generate, compare, check against the truth.
 
     Returns
@@ -115,7 +118,8 @@ def run_once(regime: str, seed: int, n_boot: int = 200, confidence: float = 0.95
     truth = heldout.overall_truth(cells)
     pop = population_truth(regime)
     res = compare_antennas(spots, "simultaneous", heldout.CALL_A, heldout.CALL_B,
-                           n_boot=n_boot, seed=seed, confidence=confidence)
+                           n_boot=n_boot, seed=seed, confidence=confidence,
+                           interval=interval)
     o = res.overall
     lo, hi = float(o["ci_low_db"]), float(o["ci_high_db"])
     return {"regime": regime, "seed": seed, "pairs": int(o["pairs"]), "population_db": pop,
@@ -125,9 +129,11 @@ def run_once(regime: str, seed: int, n_boot: int = 200, confidence: float = 0.95
 
 
 def run_regime(regime: str, runs: int, n_boot: int = 200, first_seed: int = 1000,
-               confidence: float = 0.95) -> pd.DataFrame:
-    """``runs`` independent runs of one regime (seeds ``first_seed`` and up)."""
-    return pd.DataFrame([run_once(regime, first_seed + i, n_boot, confidence)
+               confidence: float = 0.95, interval: str = "percentile") -> pd.DataFrame:
+    """``runs`` independent runs of one regime (seeds ``first_seed`` and up); ``interval``:
+    the bootstrap interval of :func:`spotkit.compare_antennas` ("percentile", its default,
+    or "normal", which needs far fewer resamples)."""
+    return pd.DataFrame([run_once(regime, first_seed + i, n_boot, confidence, interval)
                          for i in range(runs)])
 
 
@@ -189,6 +195,8 @@ def main(argv=None) -> int:
     ap.add_argument("--boot", type=int, default=200, help="bootstrap resamples per run")
     ap.add_argument("--regimes", help="regime names separated by ';' (default: all); "
                     f"known: {'; '.join(REGIMES)}", default=None)
+    ap.add_argument("--interval", choices=("percentile", "normal"), default="percentile",
+                    help="bootstrap interval (normal: estimate -+ z SE, fewer resamples)")
     ap.add_argument("--csv", help="also write every run to this CSV")
     ap.add_argument("--from-csv", help="only summarise the runs saved in this CSV")
     args = ap.parse_args(argv)
@@ -212,7 +220,7 @@ def main(argv=None) -> int:
     for name in names:
         n = args.large_runs if name == LARGE else args.runs
         t1 = time.perf_counter()
-        frames.append(run_regime(name, n, n_boot=args.boot))
+        frames.append(run_regime(name, n, n_boot=args.boot, interval=args.interval))
         s = summarise(frames[-1]).iloc[0]
         print(f"  {name}: {n} runs in {time.perf_counter() - t1:.0f} s, bias "
               f"{s['bias_db']:+.3f} dB, coverage {100 * s['coverage']:.1f} %", file=sys.stderr)
@@ -220,7 +228,7 @@ def main(argv=None) -> int:
             pd.concat(frames, ignore_index=True).to_csv(args.csv, index=False)
     runs = pd.concat(frames, ignore_index=True)
     print(format_table(summarise(runs)))
-    print(f"\n{len(runs)} runs, {args.boot} bootstrap resamples each, "
+    print(f"\n{len(runs)} runs, {args.boot} bootstrap resamples each ({args.interval}), "
           f"{time.perf_counter() - t0:.0f} s")
     return 0
 

@@ -632,3 +632,29 @@ def test_tails_are_chosen_by_the_data():
     assert estimate_groups(light, n_boot=20, seed=1, detection=det).iloc[0][C.TAIL_DF] >= 10
     normal = estimate_groups(heavy, n_boot=20, seed=1, detection=det, tails="normal").iloc[0]
     assert normal[C.TAIL_DF] == np.inf and "normal tails" in normal[C.METHOD]
+
+
+def test_normal_interval_on_request():
+    # interval="normal": estimate -+ z * bootstrap SE (z = scipy.stats.norm.ppf(0.975) =
+    # 1.959964), the same resamples as the percentile interval, widened by the same
+    # systematic part; the estimate itself does not change
+    from scipy.stats import norm
+
+    from spotkit.errors import UsageError
+
+    counts, det = _soft_cell(tau_db=1.0, diff_db=7.0)
+    pct = estimate_groups(counts, n_boot=100, seed=1, detection=det).iloc[0]
+    nrm = estimate_groups(counts, n_boot=100, seed=1, detection=det,
+                          interval="normal").iloc[0]
+    est = nrm[C.B_MINUS_A]
+    assert est == pct[C.B_MINUS_A] and nrm[C.SYSTEMATIC] == pct[C.SYSTEMATIC]
+    half = nrm[C.CI_STAT_HIGH] - est
+    assert est - nrm[C.CI_STAT_LOW] == pytest.approx(half, abs=1e-12)
+    assert nrm[C.CI_LOW] == pytest.approx(nrm[C.CI_STAT_LOW] - nrm[C.SYSTEMATIC], abs=1e-12)
+    # the two intervals estimate the same spread: widths within 25 % at 100 resamples
+    assert half / norm.ppf(0.975) == pytest.approx(
+        (pct[C.CI_STAT_HIGH] - pct[C.CI_STAT_LOW]) / (2 * norm.ppf(0.975)), rel=0.25)
+    assert "normal-approximation (bootstrap SE)" in nrm[C.METHOD]
+    assert "percentile" in pct[C.METHOD]
+    with pytest.raises(UsageError, match="percentile, normal"):
+        estimate_groups(counts, interval="bca")

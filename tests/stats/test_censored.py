@@ -457,3 +457,16 @@ def test_interval_fit_survives_a_far_outlier(rng):
     assert fit.converged and np.isfinite(fit.loglik)
     assert fit.mu == pytest.approx(x.mean(), abs=0.01)
     assert fit.sigma == pytest.approx(np.sqrt(x.var() - 1 / 12), abs=0.05)
+
+
+@pytest.mark.parametrize("df", [3.0, 5.0, 10.0, 4.0])
+def test_student_t_cdf_of_the_fit_agrees_with_scipy(df):
+    # closed forms for 3, 5 and 10 df (Abramowitz and Stegun 26.7.3-4), scipy.special.stdtr
+    # in the far tails and for other df; reference: scipy.stats.t (cdf, logcdf)
+    cdf, _, _, _, logcdf = CN._family(df)
+    z = np.concatenate([np.linspace(-40.0, 40.0, 40001), [-1e6, 1e6]])
+    np.testing.assert_allclose(cdf(z), sps.t.cdf(z, df), rtol=1e-10, atol=1e-15)
+    np.testing.assert_allclose(logcdf(z), sps.t.logcdf(z, df), rtol=1e-9, atol=1e-12)
+    assert cdf(0.7) == pytest.approx(sps.t.cdf(0.7, df), rel=1e-12)
+    assert np.isnan(cdf(np.array([np.nan]))[0])
+    np.testing.assert_array_equal(cdf(np.array([-np.inf, np.inf])), [0.0, 1.0])
