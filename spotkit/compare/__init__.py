@@ -10,6 +10,7 @@ from spotkit.compare.beforeafter import (
 )
 from spotkit.compare.cells import DEFAULT_BLOCK_HOURS, block_clusters, estimate_cells
 from spotkit.compare.estimate import (
+    INTERVALS,
     MAX_FAILED_SHARE,
     MIN_CLUSTERS,
     MISSED_REPORTS,
@@ -74,7 +75,7 @@ __all__ = [
     "reach_summary", "reach_by_bearing", "heard_by_distance", "MIN_CLUSTERS",
     "MAX_FAILED_SHARE", "P_FLOOR", "format_p_value", "too_little_data",
     "DEFAULT_BLOCK_HOURS", "block_clusters", "estimate_cells", "heard_probability",
-    "MODELS", "TAIL_DFS", "TAILS",
+    "MODELS", "TAIL_DFS", "TAILS", "INTERVALS",
     "default_detection", "T50_ERROR_DB", "TAU_FACTORS", "TAU_FACTORS_SET",
     "THRESHOLD_METHODS",
 ]
