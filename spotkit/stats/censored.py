@@ -439,6 +439,23 @@ def _mixture_parts(delta, gamma, pa, pb, v, sgn, exact, w, need_hess=True, ew=1.
     return ll, grad, hess
 
 
+def _newton_step(hf, gf, eye):
+    """Newton steps of a batch of log-likelihoods: ``-H^-1 g`` where the Hessian ``hf`` is
+    negative definite, else gradient ascent scaled by the curvature; rows with non-finite
+    derivatives take no step. ``hf`` and ``gf`` are modified in place."""
+    finite = np.all(np.isfinite(hf), axis=(1, 2)) & np.all(np.isfinite(gf), axis=1)
+    hf[~finite] = -eye
+    gf[~finite] = 0.0
+    ok_h = finite & (np.linalg.eigvalsh(hf).max(axis=1) < 0)
+    step = np.zeros(gf.shape)
+    if ok_h.any():
+        step[ok_h] = -np.linalg.solve(hf[ok_h], gf[ok_h][:, :, None])[:, :, 0]
+    if (~ok_h).any():  # gradient ascent scaled by the curvature
+        diag = np.abs(np.diagonal(hf[~ok_h], axis1=1, axis2=2))
+        step[~ok_h] = gf[~ok_h] / np.maximum(diag, 1.0)
+    return step
+
+
 def _mixture_batch(v, kind, w, sigma_floor, max_iter=200, tol=1e-9, pi_min=1e-6,
                    pi_max=0.95, ew=1.0):
     """Batch fit of the missed-report mixture; returns mu, sigma, pa, pb, converged, loglik."""
@@ -486,16 +503,7 @@ def _mixture_batch(v, kind, w, sigma_floor, max_iter=200, tol=1e-9, pi_min=1e-6,
         gf = np.where(fixed, 0.0, grad)
         hf = np.where(fixed[:, :, None] | fixed[:, None, :], 0.0, hess)
         hf = hf - eye[None] * fixed[:, :, None]
-        finite = np.all(np.isfinite(hf), axis=(1, 2)) & np.all(np.isfinite(gf), axis=1)
-        hf[~finite] = -eye
-        gf[~finite] = 0.0
-        ok_h = finite & (np.linalg.eigvalsh(hf).max(axis=1) < 0)
-        step = np.zeros((idx.size, 4))
-        if ok_h.any():
-            step[ok_h] = -np.linalg.solve(hf[ok_h], gf[ok_h][:, :, None])[:, :, 0]
-        if (~ok_h).any():  # gradient ascent scaled by the curvature
-            diag = np.abs(np.diagonal(hf[~ok_h], axis1=1, axis2=2))
-            step[~ok_h] = gf[~ok_h] / np.maximum(diag, 1.0)
+        step = _newton_step(hf, gf, eye)
         t = np.ones(idx.size)
         with np.errstate(invalid="ignore", divide="ignore"):
             sg = step[:, 1]
@@ -917,16 +925,7 @@ def _detection_batch(items, w, fam, missed, ew, sigma_floor, start_mu, start_sig
                                | (x0[:, j] >= pi_max) & (grad[:, j] >= 0) | no_exact[idx])
         gf = np.where(fixed, 0.0, grad)
         hf = np.where(fixed[:, :, None] | fixed[:, None, :], 0.0, hess) - eye * fixed[:, :, None]
-        finite = np.all(np.isfinite(hf), axis=(1, 2)) & np.all(np.isfinite(gf), axis=1)
-        hf[~finite] = -eye
-        gf[~finite] = 0.0
-        ok_h = finite & (np.linalg.eigvalsh(hf).max(axis=1) < 0)
-        step = np.zeros((idx.size, n_free))
-        if ok_h.any():
-            step[ok_h] = -np.linalg.solve(hf[ok_h], gf[ok_h][:, :, None])[:, :, 0]
-        if (~ok_h).any():  # gradient ascent scaled by the curvature
-            diag = np.abs(np.diagonal(hf[~ok_h], axis1=1, axis2=2))
-            step[~ok_h] = gf[~ok_h] / np.maximum(diag, 1.0)
+        step = _newton_step(hf, gf, eye)
         t = np.ones(idx.size)
         with np.errstate(invalid="ignore", divide="ignore"):
             sg = step[:, 1]
