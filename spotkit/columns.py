@@ -120,6 +120,16 @@ CLUSTERS = "clusters"  # number of bootstrap clusters (receivers / transmitters)
 NOTE = "note"  # plain-language remark (too few pairs, no interval...)
 GROUP = "group"  # readable group label
 
+# --- several antennas and series of changes (spotkit.compare.multi, spotkit.compare.series) --
+FIRST = "first"  # the antenna (call, schedule label or period label) subtracted in a contrast
+SECOND = "second"  # the antenna compared with it: a contrast is SECOND minus FIRST [dB]
+CONTRAST = "contrast"  # "reference" (against the reference) | "pair" | "step" (neighbours)
+CI_SIM_LOW = "ci_sim_low_db"  # interval simultaneous over the family of contrasts [dB]
+CI_SIM_HIGH = "ci_sim_high_db"
+P_FAMILY = "p_family"  # family-wise adjusted p (single-step max-T or Bonferroni)
+SE_BOOT = "se_boot_db"  # bootstrap standard error of a contrast [dB]
+PERIOD_START = "period_start"  # first moment of a period of a series of changes [UTC]
+
 # --- reach (spotkit.compare.reach) ------------------------------------------------------
 STATIONS = "stations"  # distinct far stations reached
 STATIONS_ONLY = "stations_only"  # far stations reached by this antenna and never by the other

@@ -43,6 +43,13 @@ from spotkit.compare.grouping import (
     summarise_pairs,
 )
 from spotkit.compare.heard import heard_probability
+from spotkit.compare.multi import (
+    MULTI_COLUMNS,
+    MULTI_DESIGNS,
+    MultiResult,
+    compare_several,
+    parse_antennas,
+)
 from spotkit.compare.pairing import (
     DESIGNS,
     PAIR_COLUMNS,
@@ -77,5 +84,6 @@ __all__ = [
     "DEFAULT_BLOCK_HOURS", "block_clusters", "estimate_cells", "heard_probability",
     "MODELS", "TAIL_DFS", "TAILS", "INTERVALS",
     "default_detection", "T50_ERROR_DB", "TAU_FACTORS", "TAU_FACTORS_SET",
-    "THRESHOLD_METHODS",
+    "THRESHOLD_METHODS", "MULTI_DESIGNS", "MULTI_COLUMNS", "MultiResult", "compare_several",
+    "parse_antennas",
 ]

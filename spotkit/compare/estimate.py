@@ -425,7 +425,7 @@ def estimate_groups(counts: pd.DataFrame, *, n_boot: int = 1000, seed: int = 0,
                     threshold_correction: ThresholdCorrection = "none",
                     missed_reports: MissedReports = "fit", model: Model = "detection",
                     detection: dict | None = None, tails: Tails = "auto",
-                    interval: Interval = "percentile") -> pd.DataFrame:
+                    interval: Interval = "percentile", return_replicates: bool = False):
     """B minus A per group from a compressed pair table.
 
     Parameters
@@ -483,6 +483,12 @@ def estimate_groups(counts: pd.DataFrame, *, n_boot: int = 1000, seed: int = 0,
         a percentile endpoint from 50 resamples is an extreme order statistic) but
         assumes a symmetric sampling distribution. The before/after design always uses
         the percentile interval.
+    return_replicates : bool
+        Also return the bootstrap replicates of ``C.B_MINUS_A``, shape
+        ``(n_groups, n_boot)`` [dB] (NaN rows for groups without an interval). Two calls
+        with the same ``clusters`` list and ``seed`` draw the same cluster weights, so
+        their replicates are joint draws (one resample of the receivers for every
+        comparison: :mod:`spotkit.compare.multi`). Paired designs only.
 
     Returns
     -------
@@ -495,7 +501,8 @@ def estimate_groups(counts: pd.DataFrame, *, n_boot: int = 1000, seed: int = 0,
         ``C.CI_STAT_LOW``, ``C.CI_STAT_HIGH`` [dB] (the statistical part alone),
         ``C.SYSTEMATIC`` [dB] (``C.CI_LOW`` / ``C.CI_HIGH`` are the statistical interval
         widened by it on each side), ``C.TAIL_DF`` (inf: normal), ``C.DETECTION_TAU``
-        [dB], ``C.METHOD``, ``C.NOTE``.
+        [dB], ``C.METHOD``, ``C.NOTE``. With ``return_replicates``: ``(table,
+        replicates)``.
 
     References
     ----------
@@ -537,6 +544,8 @@ def estimate_groups(counts: pd.DataFrame, *, n_boot: int = 1000, seed: int = 0,
     keys = [c for c in counts.columns if c not in _META]
     kinds = counts[C.KIND].astype(str).to_numpy()
     if np.isin(kinds, C.PERIOD_KINDS + C.PERIOD_BOUND_KINDS).all() and kinds.size:
+        if return_replicates:
+            raise UsageError("return_replicates is for the paired designs, not before-after")
         return estimate_before_after(counts, keys, n_boot, seed, confidence, min_pairs,
                                       clusters, cluster_label,
                                       use_mix=missed_reports == "fit")
@@ -580,6 +589,7 @@ def estimate_groups(counts: pd.DataFrame, *, n_boot: int = 1000, seed: int = 0,
                                   it_v[np.abs(it_k) <= 1][it_k[np.abs(it_k) <= 1] == 0],
                                   tot[(it_k == 0)])
     fitter = _Fitter(use_mix, det, TAIL_DFS if tails == "auto" else (np.inf,))
+    reps = np.full((n_groups, int(n_boot)), np.nan)
     n_both = np.zeros(n_groups, np.int64)
     n_a = np.zeros(n_groups, np.int64)
     n_b = np.zeros(n_groups, np.int64)
@@ -635,6 +645,8 @@ def estimate_groups(counts: pd.DataFrame, *, n_boot: int = 1000, seed: int = 0,
             mu_b = mu_b + edge_correction(sig_b, wb[:, k == 0].sum(1), na_b, nb_b, ea_b,
                                           eb_b)
         est = out[C.B_MINUS_A][g]
+        if not single:
+            reps[g] = mu_b
         lo, hi = stats.bootstrap_interval(mu_b, est, confidence, method=interval)
         sys_db = out[C.SYSTEMATIC][g]
         out[C.CI_STAT_LOW][g], out[C.CI_STAT_HIGH][g] = lo, hi
@@ -672,7 +684,7 @@ def estimate_groups(counts: pd.DataFrame, *, n_boot: int = 1000, seed: int = 0,
         res[C.METHOD] = _detection_method_text(det, use_mix, use_edge, confidence,
                                                cluster_label, n_boot, tails, interval)
         res[C.NOTE] = notes
-        return res
+        return (res, reps) if return_replicates else res
     res[C.METHOD] = (
         "censored-normal MLE (Tobit) of per-W B-A using both-heard and one-sided pairs "
         "(both-heard pairs in both conditional likelihoods, given A heard and given B "
@@ -684,7 +696,7 @@ def estimate_groups(counts: pd.DataFrame, *, n_boot: int = 1000, seed: int = 0,
         "bootstrap over "
         f"{cluster_label} ({int(n_boot)} resamples); p from the bootstrap SE")
     res[C.NOTE] = notes
-    return res
+    return (res, reps) if return_replicates else res
 
 
 # --- labels and verdicts ----------------------------------------------------------------------

@@ -551,7 +551,7 @@ def _single_call(a, b, design) -> str:
     return a
 
 
-def read_schedule(source) -> pd.DataFrame:
+def read_schedule(source, antennas=("A", "B")) -> pd.DataFrame:
     """Read a switching schedule (alternating design).
 
     Parameters
@@ -560,6 +560,9 @@ def read_schedule(source) -> pd.DataFrame:
         CSV file or table with columns ``start``, ``end`` (UTC times; naive times are taken
         as UTC), ``antenna`` (``A`` or ``B``) and optionally ``band`` (e.g. ``20m``). Each
         row covers the slots starting in [start, end).
+    antennas : sequence of str
+        The antenna labels the schedule may use (``A``, ``B``, ``C`` ... for a schedule of
+        several antennas); case is ignored.
 
     Returns
     -------
@@ -602,10 +605,12 @@ def read_schedule(source) -> pd.DataFrame:
             raise InputError(f"{name}: row {bad[0] + 1}, field {col}: not a time "
                              f"({df[col].iloc[bad[0]]!r})")
         out[col] = t
+    labels = [str(x).strip().upper() for x in antennas]
     ant = df[C.ANTENNA].astype(str).str.strip().str.upper()
-    bad = np.flatnonzero(~ant.isin(["A", "B"]).to_numpy())
+    bad = np.flatnonzero(~ant.isin(labels).to_numpy())
     if bad.size:
-        raise InputError(f"{name}: row {bad[0] + 1}, field antenna: expected A or B, got "
+        raise InputError(f"{name}: row {bad[0] + 1}, field antenna: expected "
+                         f"{', '.join(labels[:-1])} or {labels[-1]}, got "
                          f"{df[C.ANTENNA].iloc[bad[0]]!r}")
     out[C.ANTENNA] = ant.to_numpy()
     if C.BAND in df.columns:
@@ -622,7 +627,7 @@ def read_schedule(source) -> pd.DataFrame:
     return out
 
 
-def schedule_antennas(slots, bands, schedule) -> np.ndarray:
+def schedule_antennas(slots, bands, schedule, antennas=("A", "B")) -> np.ndarray:
     """Antenna the schedule assigns to each slot.
 
     Parameters
@@ -634,12 +639,17 @@ def schedule_antennas(slots, bands, schedule) -> np.ndarray:
     schedule : str or pandas.DataFrame
         ``"even-odd"`` (A in the slots whose index since 00:00 UTC is even), ``"odd-even"``,
         ``"every-N"`` (blocks of N slots counted from 00:00 UTC, A in even blocks), a CSV
-        path or a table for :func:`read_schedule`.
+        path or a table for :func:`read_schedule`. With ``k`` antennas, "even-odd" is
+        the round robin ``A, B, C, ...`` slot by slot and "every-N" the same by blocks of
+        N slots.
+    antennas : sequence of str
+        The schedule's antenna labels, in code order (default A, B).
 
     Returns
     -------
     numpy.ndarray of int8
-        0 for A, 1 for B, -1 where the schedule does not cover the slot.
+        The position of the slot's antenna in ``antennas`` (0 for A, 1 for B, ...), -1
+        where the schedule does not cover the slot.
 
     Examples
     --------
@@ -659,6 +669,10 @@ def schedule_antennas(slots, bands, schedule) -> np.ndarray:
     [0, 0, 0, 1, -1]
     """
     ns = _ns(pd.Series(slots))
+    labels = [str(x).strip().upper() for x in antennas]
+    k = len(labels)
+    if k < 2 or len(set(labels)) != k:
+        raise UsageError(f"a schedule needs at least two distinct antenna labels, got {labels}")
     if isinstance(schedule, str) and not Path(schedule).suffix:
         key = schedule.strip().lower()
         n = None
@@ -674,16 +688,18 @@ def schedule_antennas(slots, bands, schedule) -> np.ndarray:
                              "every-N (N slots per block) or a CSV file of start, end, "
                              "antenna [, band]")
         idx = (ns % _DAY_NS) // _SLOT_NS // n
+        if k > 2:
+            return ((idx + (key == "odd-even")) % k).astype(np.int8)
         ant = (idx % 2).astype(np.int8)
         return 1 - ant if key == "odd-even" else ant
-    table = read_schedule(schedule)
+    table = read_schedule(schedule, labels)
     out = np.full(ns.size, -1, dtype=np.int8)
     band_arr = np.asarray(pd.Series(bands).astype(str).str.lower())
     groups = table.groupby(C.BAND, sort=False) if C.BAND in table else [(None, table)]
     for band, g in groups:
         st = _ns(g[C.SCHEDULE_START])
         en = _ns(g[C.SCHEDULE_END])
-        code = (g[C.ANTENNA].to_numpy() == "B").astype(np.int8)
+        code = pd.Index(labels).get_indexer(g[C.ANTENNA].to_numpy()).astype(np.int8)
         sel = np.ones(ns.size, bool) if band is None else band_arr == band
         t = ns[sel]
         i = np.searchsorted(st, t, side="right") - 1
@@ -719,7 +735,7 @@ def _match_slots(a_slots: np.ndarray, b_slots: np.ndarray, window: int):
 
 
 def _pair_alternating(spots, a, b, thr, schedule, window_slots, set_aside, cats,
-                      require_open_path):
+                      require_open_path, antennas=("A", "B"), contrast=None):
     call, code = _check_call(spots, cats, C.TX_CALL, _single_call(a, b, "alternating"),
                              "A/B")
     if schedule is None:
@@ -731,7 +747,12 @@ def _pair_alternating(spots, a, b, thr, schedule, window_slots, set_aside, cats,
     df = df.assign(_slot=_ns(df[C.SLOT]) // _SLOT_NS, _band=df[C.BAND],
                    _cluster=df[C.RX_CALL])
     band_names = np.asarray(cats[C.BAND], dtype=object)[df["_band"].to_numpy()]
-    ant = schedule_antennas(df[C.SLOT], band_names, schedule)
+    ant = schedule_antennas(df[C.SLOT], band_names, schedule, antennas)
+    if contrast is not None:  # the two compared antennas -> 0 and 1, the others -> 2
+        labels = [str(x).strip().upper() for x in antennas]
+        i0, i1 = (labels.index(str(x).strip().upper()) for x in contrast)
+        ant = np.where(ant < 0, -1, np.where(ant == i0, 0, np.where(ant == i1, 1, 2)))
+        ant = ant.astype(np.int8)
     uncovered = int((ant < 0).sum())
     if uncovered == len(df):
         t0, t1 = df[C.SLOT].min(), df[C.SLOT].max()
@@ -764,7 +785,7 @@ def _pair_alternating(spots, a, b, thr, schedule, window_slots, set_aside, cats,
         found = _lookup(rk, mk[order], match["_pair"].to_numpy()[order].astype(float))
         sel = (ant == x) & ~np.isnan(found)
         pair_of[sel] = found[sel].astype(np.int64)
-    unmatched = int((pair_of < 0).sum())
+    unmatched = int(((pair_of < 0) & (ant <= 1)).sum())
     if unmatched:
         set_aside[f"no slot of the other antenna within {int(window_slots)} slot(s)"] = \
             unmatched
@@ -866,7 +887,8 @@ def pair_spots(spots: pd.DataFrame, design: Design, a: str, b: str | None = None
                schedule=None, change_at=None, window_slots: int = 1,
                min_receiver_reports: int = 20,
                require_open_path: bool = True, threshold_method: ThresholdMethod = "t50",
-               tau_db: float | None = None) -> pd.DataFrame:
+               tau_db: float | None = None, antennas=("A", "B"),
+               contrast=None) -> pd.DataFrame:
     """Pair the reports of antennas A and B according to an experiment design.
 
     Parameters
@@ -896,6 +918,12 @@ def pair_spots(spots: pd.DataFrame, design: Design, a: str, b: str | None = None
         How receiver thresholds are found (:func:`receiver_thresholds`).
     tau_db : float, optional
         Width of the detection curve [dB]; fitted from the reports when None.
+    antennas : sequence of str
+        Alternating design: the schedule's antenna labels (default A, B).
+    contrast : (str, str), optional
+        Alternating design with more than two antennas: the two labels compared (as A
+        and B); reports of the schedule's other antennas are not paired but count as
+        evidence of an open path.
 
     Returns
     -------
@@ -952,7 +980,7 @@ def pair_spots(spots: pd.DataFrame, design: Design, a: str, b: str | None = None
         m = _pair_receive(work, a, b, thr, cats)
     elif design == "alternating":
         m = _pair_alternating(work, a, b, thr, schedule, window_slots, set_aside, cats,
-                              require_open_path)
+                              require_open_path, antennas, contrast)
     else:
         m, after = _pair_before_after(work, a, b, change_at, set_aside, cats, thr)
     m = m.drop(columns=[C.BEARING], errors="ignore").rename(columns={"_bearing": C.BEARING})

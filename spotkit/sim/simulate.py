@@ -314,7 +314,7 @@ def simulate_spots(design: Design = "simultaneous", *, days: float = 3, seed: in
                    detection_width_db: float = 0.0,
                    threshold_on: ThresholdOn = "rounded",
                    threshold_sd_db: float = 0.0, difference_sd_db: float = 0.0,
-                   progress: bool = False) -> Simulation:
+                   more_antennas=(), progress: bool = False) -> Simulation:
     """Simulate the spot reports of an antenna experiment with a known answer.
 
     Parameters
@@ -382,6 +382,15 @@ def simulate_spots(design: Design = "simultaneous", *, days: float = 3, seed: in
         Spread (SD) of a normal random effect per far station added to B's gain towards it
         (transmit designs) or from it (receive design) on every band [dB]; it is part of
         the true B-A in :attr:`Simulation.truth`. Default 0.
+    more_antennas : sequence of float
+        Further antennas C, D, ... beyond A and B, each A's antenna plus this many dB on
+        every path [dB] (their true difference from A, exactly). Simultaneous design: more
+        calls (Q1ABE, Q1ABF, ...; ``sim.params["calls"]``); receive design: more home
+        receivers; alternating: the schedule's labels C, D, ... ("even-odd" becomes the
+        round robin A, B, C, ...); before-after: ``change_at`` is then a list of the
+        change times (A before the first, B from the first, C from the second, ...).
+        ``sim.params["truth_vs_a"]`` holds every antenna's true difference from A where
+        it is constant (A: 0, B: ``difference_db``, then these).
     progress : bool
         Show a progress bar (per band, over the simulated days).
 
@@ -442,6 +451,21 @@ def simulate_spots(design: Design = "simultaneous", *, days: float = 3, seed: in
         difference_db is None or isinstance(antenna_a, Antenna)) else isotropic_antenna()
     ant_b = (constant_difference(ant_a, difference_db, difference_edges, name="A + difference")
              if difference_db is not None else _resolve_antenna(antenna_b, bands, "antenna_b"))
+    more = [float(x) for x in more_antennas]
+    if not all(np.isfinite(more)):
+        raise UsageError(f"more_antennas must be finite numbers [dB], got {more_antennas!r}")
+    ant_more = [constant_difference(ant_a, d, name=f"A {d:+g} dB") for d in more]
+    labels = [chr(ord("A") + i) for i in range(2 + len(more))]
+    changes = None
+    if design == "before-after" and more:
+        if change_at is None or isinstance(change_at, (str, pd.Timestamp)) or \
+                len(change_at) != 1 + len(more):
+            raise UsageError(f"before-after with {len(more)} more antenna(s) needs "
+                             f"change_at as a list of {1 + len(more)} change times")
+        changes = np.asarray([check_time(t, "change_at").value for t in change_at])
+        if np.any(np.diff(changes) <= 0):
+            raise UsageError("change_at times must increase")
+        change_at = change_at[0]
     if design == "before-after":
         if change_at is None:
             change_at = t0 + pd.Timedelta(days=max(1, int(days // 2))) if days >= 2 \
@@ -460,8 +484,11 @@ def simulate_spots(design: Design = "simultaneous", *, days: float = 3, seed: in
     if n_far < 1:
         raise UsageError("the simulation needs at least one far station "
                          f"({'n_receivers' if transmit else 'n_transmitters'})")
+    more_calls = ([a] * len(more) if single else
+                  [c for c in (f"Q1AB{chr(x)}" for x in range(ord("E"), ord("Z") + 1))
+                   if c not in (a, b)][:len(more)])
     far_calls = invent_calls(n_far + (n_controls if design == "before-after" else 0), rng,
-                             exclude=(a, b))
+                             exclude=(a, b, *more_calls))
     flat, flon = place_stations(n_far, rng)
     far_loc = _locators(flat, flon, rng, prop.locator4_fraction)
     if threshold_db is None:
@@ -492,6 +519,13 @@ def simulate_spots(design: Design = "simultaneous", *, days: float = 3, seed: in
         offs = rng.integers(1400, 1601, 2 + len(ctrl_calls))
         em = {"call": [a, b], "site": [0, 0], "antenna": [ant_a, ant_b],
               "power": [power_a, power_b], "offset": [offs[0], offs[0] if single else offs[1]]}
+        if more:  # drawn from the auxiliary stream: the default run stays draw for draw
+            more_offs = aux.integers(1400, 1601, len(more))
+            em["call"] += more_calls
+            em["site"] += [0] * len(more)
+            em["antenna"] += ant_more
+            em["power"] += [power_a] * len(more)
+            em["offset"] += [offs[0] if single else int(o) for o in more_offs]
         for i, c in enumerate(ctrl_calls):
             em["call"].append(c)
             em["site"].append(1 + i)
@@ -501,7 +535,7 @@ def simulate_spots(design: Design = "simultaneous", *, days: float = 3, seed: in
         li = {"call": far_calls, "site": np.arange(n_far), "threshold": far_thr,
               "noise": far_noise, "cal": far_cal, "listen": far_listen, "uptime": far_uptime,
               "antenna": [None] * n_far}
-        stations.append(pd.DataFrame({"call": [a] + ([] if single else [b]),
+        stations.append(pd.DataFrame({"call": [a] + ([] if single else [b, *more_calls]),
                                       "locator": home_loc, "role": "home transmitter"}))
         stations.append(pd.DataFrame({"call": ctrl_calls, "locator": ctrl_loc,
                                       "role": "control transmitter"}))
@@ -516,11 +550,12 @@ def simulate_spots(design: Design = "simultaneous", *, days: float = 3, seed: in
         em = {"call": list(far_calls), "site": list(range(n_far)),
               "antenna": [isotropic_antenna(float(g)) for g in rng.normal(0.0, 2.0, n_far)],
               "power": list(far_power), "offset": list(rng.integers(1400, 1601, n_far))}
-        li = {"call": np.array([a, b], dtype=object), "site": np.array([0, 0]),
-              "threshold": np.array([home_thr, home_thr]), "noise": np.zeros(2),
-              "cal": np.zeros(2, dtype=int), "listen": np.ones((2, len(bands)), bool),
-              "uptime": np.ones(2), "antenna": [ant_a, ant_b]}
-        stations.append(pd.DataFrame({"call": [a, b], "locator": home_loc,
+        nh = 2 + len(more)
+        li = {"call": np.array([a, b, *more_calls], dtype=object), "site": np.zeros(nh, int),
+              "threshold": np.full(nh, home_thr), "noise": np.zeros(nh),
+              "cal": np.zeros(nh, dtype=int), "listen": np.ones((nh, len(bands)), bool),
+              "uptime": np.ones(nh), "antenna": [ant_a, ant_b, *ant_more]}
+        stations.append(pd.DataFrame({"call": [a, b, *more_calls], "locator": home_loc,
                                       "role": "home receiver", C.THRESHOLD: home_thr,
                                       C.NOISE: 0.0}))
         stations.append(pd.DataFrame({"call": far_calls, "locator": far_loc,
@@ -570,19 +605,25 @@ def simulate_spots(design: Design = "simultaneous", *, days: float = 3, seed: in
     for band in bands:
         if design == "simultaneous":
             both = rng.random(n_slots) < tx_fraction
-            on_b = np.stack([both, both], axis=1)
+            on_b = np.stack([both] * (2 + len(more)), axis=1)
         elif design == "alternating":
             from spotkit.compare.pairing import schedule_antennas
 
-            ant = schedule_antennas(slots, np.full(n_slots, band, dtype=object), schedule)
+            ant = schedule_antennas(slots, np.full(n_slots, band, dtype=object), schedule,
+                                    labels)
             pair_on = rng.random((n_slots + 1) // 2) < tx_fraction
             live = np.repeat(pair_on, 2)[:n_slots]
-            on_b = np.stack([live & (ant == 0), live & (ant == 1)], axis=1)
+            on_b = np.stack([live & (ant == i) for i in range(len(labels))], axis=1)
         elif design == "before-after":
             live = rng.random(n_slots) < tx_fraction
             after = slot_ns_arr >= change_at.value
             ctrl = rng.random((n_slots, len(ctrl_calls))) < control_tx_fraction
-            on_b = np.column_stack([live & ~after, live & after, ctrl])
+            if changes is None:
+                on_b = np.column_stack([live & ~after, live & after, ctrl])
+            else:
+                period = np.searchsorted(changes, slot_ns_arr, side="right")
+                on_b = np.column_stack([live & (period == i) for i in range(len(labels))]
+                                       + [ctrl])
         else:
             on_b = rng.random((n_slots, n_e)) < tx_fraction
         on[band] = on_b
@@ -662,6 +703,13 @@ def simulate_spots(design: Design = "simultaneous", *, days: float = 3, seed: in
         "schedule": schedule if isinstance(schedule, str) else "table",
         "change_at": None if change_at is None else change_at.isoformat(),
         "propagation": asdict(prop),
+        "more_antennas": more,
+        "calls": ([a] if single else [a, b, *more_calls]),
+        "labels": labels,
+        "truth_vs_a": ([0.0, float(difference_db), *more]
+                       if isinstance(difference_db, (int, float)) else None),
+        "change_times": (None if changes is None else
+                         [pd.Timestamp(int(t), tz="UTC").isoformat() for t in changes]),
     }
     truth = Truth(truth_pairs, design, a, b)
     return Simulation(spots=spots, truth=truth, design=design, a=a, b=b,

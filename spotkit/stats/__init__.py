@@ -40,6 +40,7 @@ from spotkit.stats.paired import (
     wilcoxon_signed_rank,
     wilson_interval,
 )
+from spotkit.stats.simultaneous import max_t
 
 __all__ = [
     "TestResult", "wilcoxon_signed_rank", "hodges_lehmann", "hodges_lehmann_ci",
@@ -50,5 +51,5 @@ __all__ = [
     "interval_censored_mle", "interval_censored_mle_batch", "MIXTURE_EXACT_WEIGHT",
     "DEFAULT_TAU_DB", "ROUNDINGS", "TAU_GRID_DB", "fit_thresholds", "fit_tau",
     "INTERVAL_METHODS", "DRAWS", "cluster_bootstrap_weights",
-    "stratified_bootstrap_weights", "bootstrap_interval", "bootstrap_p_value",
+    "stratified_bootstrap_weights", "bootstrap_interval", "bootstrap_p_value", "max_t",
 ]
