@@ -70,6 +70,12 @@ from spotkit.compare.reach import (
     reach_by_bearing,
     reach_summary,
 )
+from spotkit.compare.series import (
+    SERIES_COLUMNS,
+    SeriesResult,
+    compare_series,
+    parse_periods,
+)
 
 __all__ = [
     "GROUP_KEYS", "DEFAULT_DISTANCE_EDGES", "DEFAULT_ELEVATION_EDGES", "DEFAULT_DAY_HOURS",
@@ -85,5 +91,5 @@ __all__ = [
     "MODELS", "TAIL_DFS", "TAILS", "INTERVALS",
     "default_detection", "T50_ERROR_DB", "TAU_FACTORS", "TAU_FACTORS_SET",
     "THRESHOLD_METHODS", "MULTI_DESIGNS", "MULTI_COLUMNS", "MultiResult", "compare_several",
-    "parse_antennas",
+    "parse_antennas", "SERIES_COLUMNS", "SeriesResult", "compare_series", "parse_periods",
 ]
