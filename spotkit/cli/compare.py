@@ -29,17 +29,98 @@ def add_compare(sub) -> None:
     p.add_argument("--by", default="", metavar="KEY,KEY",
                    help="group by any of band, distance, bearing, hour, elevation, light, "
                    "field, square, receiver")
-    add_ab_options(p)
+    add_ab_options(p, required=False)
+    _add_several_options(p)
     p.add_argument("--json", metavar="OUT.json", help="write the result as JSON")
     p.add_argument("--csv", metavar="OUT.csv", help="write the result table as CSV")
     add_progress_option(p)
     p.set_defaults(func=cmd_compare)
 
 
-def cmd_compare(args) -> int:
-    from spotkit.compare.estimate import compare_antennas
+def _add_several_options(p) -> None:
+    """--antennas / --reference / --all-pairs and --periods (several antennas, a series)."""
+    g = p.add_argument_group(
+        "several antennas or a series of changes",
+        "--antennas compares k antennas (simultaneous: transmitter calls; receive: receiver "
+        "calls; alternating: the schedule's labels, with --a the call and --schedule, "
+        "pairing window k-1 slots unless --window is given) with intervals simultaneous "
+        "over the comparisons and a ranking; --periods compares the periods of one "
+        "call (--a) whose antenna changed several times (before/after with control "
+        "stations). Both print a summary and write JSON/CSV; --by does not apply.")
+    g.add_argument("--antennas", metavar="X,Y,Z", help="the antennas to compare (k >= 2)")
+    g.add_argument("--reference", metavar="X", help="with --antennas: the antenna the "
+                   "others are compared with (default the first)")
+    g.add_argument("--all-pairs", action="store_true",
+                   help="with --antennas: report every pair, not only against the reference")
+    g.add_argument("--periods", metavar="'LABEL:TIME,LABEL:TIME,...'",
+                   help="a series of changes, e.g. '4 radials:2026-03-01,8 radials:"
+                   "2026-03-08': each period against the first and each step")
+
+
+def _cmd_several(args) -> int:
+    """``spotkit compare --antennas ...`` or ``--periods ...``."""
+    from spotkit.compare.multi import compare_several, parse_antennas
+    from spotkit.compare.series import compare_series
+    from spotkit.errors import UsageError
     from spotkit.io.ingest import load_spots
 
+    if args.antennas and args.periods:
+        raise UsageError("give --antennas or --periods, not both")
+    if args.by:
+        raise UsageError("--by does not apply to --antennas or --periods")
+    if args.periods:
+        if args.design not in (None, "before-after"):
+            raise UsageError("--periods is the before-after design with several changes "
+                             f"(got --design {args.design})")
+        if not args.a:
+            raise UsageError("--periods needs --a, the call whose antenna changed")
+        if args.change_at:
+            raise UsageError("give the change times in --periods, not --change-at")
+    else:
+        labels = parse_antennas(args.antennas)
+        if args.design not in ("simultaneous", "receive", "alternating"):
+            raise UsageError("--antennas needs --design simultaneous, receive or alternating"
+                             + (f" (got {args.design})" if args.design else ""))
+        if args.design == "alternating" and not (args.a and args.schedule):
+            raise UsageError("--antennas with the alternating design needs --a (the call) "
+                             "and --schedule (labels as in --antennas)")
+    inputs = (args.spots, args.schedule)
+    for option, path in (("--json", args.json), ("--csv", args.csv)):
+        if path:
+            check_output(path, option, inputs=inputs)
+    if args.json and args.csv:
+        from spotkit.io.atomic import check_outputs
+
+        check_outputs([args.json, args.csv])
+    spots = load_spots(args.spots)
+    common = dict(n_boot=args.boot, seed=args.seed, confidence=args.confidence,
+                  min_pairs=args.min_pairs, missed_reports=args.missed_reports)
+    if args.periods:
+        result = compare_series(spots, args.a, args.periods, day_hours=args.day_hours,
+                                **common)
+    else:
+        result = compare_several(spots, args.design, labels, call=args.a,
+                                 reference=args.reference, all_pairs=args.all_pairs,
+                                 schedule=args.schedule,
+                                 window_slots=None if args.window == 1 else args.window,
+                                 require_open_path=not args.no_open_path_check, **common)
+    write_result(result, args)
+    return EXIT_OK
+
+
+def cmd_compare(args) -> int:
+    from spotkit.compare.estimate import compare_antennas
+    from spotkit.errors import UsageError
+    from spotkit.io.ingest import load_spots
+
+    if args.antennas or args.periods:
+        return _cmd_several(args)
+    if args.reference or args.all_pairs:
+        raise UsageError("--reference and --all-pairs go with --antennas")
+    missing = [o for o, v in (("--design", args.design), ("--a", args.a)) if not v]
+    if missing:
+        raise UsageError("the following arguments are required: " + ", ".join(missing)
+                         + " (or --antennas / --periods)")
     by = by_keys(args.by)
     kw = compare_kwargs(args)
     inputs = (args.spots, args.schedule)

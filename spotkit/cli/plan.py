@@ -107,9 +107,13 @@ def add_plan(sub) -> None:
                    help="bands, comma-separated (default 20m)")
     s.add_argument("--slot-minutes", type=int_at_least(1), default=2,
                    help="slot length [min] (default 2)")
-    s.add_argument("--block-slots", type=int_at_least(1), default=2,
-                   help="slots per randomisation block, even (default 2: A and B neighbours;"
-                   " longer blocks need 'spotkit compare --window BLOCK-1')")
+    s.add_argument("--block-slots", type=int_at_least(1), default=None,
+                   help="slots per randomisation block, a multiple of the antennas (default "
+                   "the number of antennas: 2, A and B neighbours; longer blocks need "
+                   "'spotkit compare --window BLOCK-1')")
+    s.add_argument("--antennas", default="A,B", metavar="A,B,C",
+                   help="antenna labels (default A,B); 'spotkit compare --antennas' with "
+                   "the same labels compares them")
     s.add_argument("--band-hop", action="store_true",
                    help="one transmitter visiting the bands block by block (default: every "
                    "band on the air in every slot)")
@@ -193,7 +197,8 @@ def cmd_plan(args) -> int:
         sched = schedule.make_schedule(args.start, args.days, args.bands,
                                        slot_minutes=args.slot_minutes,
                                        block_slots=args.block_slots,
-                                       band_hop=args.band_hop, seed=args.seed)
+                                       band_hop=args.band_hop, seed=args.seed,
+                                       antennas=args.antennas)
         schedule.write_schedule(sched, args.output)
         bal = schedule.schedule_balance(sched)
         per = bal["A"].groupby(level=schedule.C.BAND).agg(["min", "max"])

@@ -91,8 +91,9 @@ def slots_per_hour(slot_minutes: int) -> int:
 
 
 def _balanced_blocks(n_hours: int, per_hour: int, block_slots: int,
-                     rng: np.random.Generator) -> tuple[np.ndarray, np.ndarray]:
-    """Antenna (0 = A, 1 = B) and block number of every slot, blocks restarting each hour."""
+                     rng: np.random.Generator, k: int = 2) -> tuple[np.ndarray, np.ndarray]:
+    """Antenna (0 = A, 1 = B, ...) and block number of every slot, blocks restarting each
+    hour; ``k`` antennas share each block equally (floor or ceiling in a short block)."""
     j = np.tile(np.arange(per_hour), n_hours)
     hour = np.repeat(np.arange(n_hours), per_hour)
     blocks_per_hour = -(-per_hour // block_slots)
@@ -104,12 +105,16 @@ def _balanced_blocks(n_hours: int, per_hour: int, block_slots: int,
     starts = np.r_[0, np.flatnonzero(np.diff(block[order])) + 1]
     pos = np.arange(j.size) - np.repeat(starts, np.diff(np.r_[starts, j.size]))
     rank[order] = pos
-    antenna = (rank >= length // 2).astype(np.int8)
+    if k == 2:
+        antenna = (rank >= length // 2).astype(np.int8)
+    else:
+        antenna = (rank * k // length).astype(np.int8)
     return antenna, block
 
 
 def make_schedule(start, days: float, bands: Sequence[str] | str, *, slot_minutes: int = 2,
-                  block_slots: int = 2, band_hop: bool = False, seed: int = 0) -> pd.DataFrame:
+                  block_slots: int | None = None, band_hop: bool = False, seed: int = 0,
+                  antennas: Sequence[str] | str = ANTENNAS) -> pd.DataFrame:
     """Write a balanced, randomised antenna-switching schedule for the alternating design.
 
     Parameters
@@ -122,17 +127,23 @@ def make_schedule(start, days: float, bands: Sequence[str] | str, *, slot_minute
         Bands such as ``["20m", "10m"]`` or ``"20m,10m"``.
     slot_minutes : int
         Slot length [min]; the hour must hold an even number of slots (2 is the custom).
-    block_slots : int
-        Slots per randomisation block [slots], even: each block holds half A, half B in a random
-        order. 2 keeps every A slot next to a B slot; with longer blocks give the comparison
-        a pairing window of ``block_slots - 1`` slots (``spotkit compare --window``), or
-        some A and B slots of a block find no partner.
+    block_slots : int, optional
+        Slots per randomisation block [slots], a multiple of the number of antennas (even
+        for two; default: the number of antennas): each block holds every antenna equally
+        often in a random order. 2 keeps every A slot next to a B slot; with longer blocks
+        give the comparison a pairing window of ``block_slots - 1`` slots (``spotkit
+        compare --window``), or some A and B slots of a block find no partner.
     band_hop : bool
         False: every band is on the air in every slot, all with the same antenna sequence.
         True: one transmitter visits the bands block by block; each round of blocks visits
         every band once in a random order.
     seed : int
         Seed of the random order; the same seed gives the same schedule.
+    antennas : sequence of str or str
+        The antenna labels (default A, B; ``"A,B,C"`` for three antennas). With ``k``
+        antennas each block of ``k`` slots holds each once in random order; the balance
+        per clock hour is exact when ``k`` divides the slots per hour (otherwise the
+        hour's last, shorter block gives some antennas one slot more).
 
     Returns
     -------
@@ -167,6 +178,13 @@ def make_schedule(start, days: float, bands: Sequence[str] | str, *, slot_minute
     ...                     band_hop=True, seed=1)
     >>> hop["band"].head(6).tolist(), hop["antenna"].head(6).tolist()
     (['10m', '10m', '20m', '20m', '10m', '10m'], ['A', 'B', 'A', 'B', 'A', 'B'])
+
+    Three antennas, each once in every block of three slots:
+
+    >>> three = make_schedule("2024-03-01 10:00", days=1 / 24, bands="20m", seed=1,
+    ...                       antennas="A,B,C")
+    >>> three["antenna"].value_counts().sort_index().tolist()
+    [10, 10, 10]
     """
     t0 = check_time(start, "start")
     if t0 != t0.floor("h"):
@@ -180,11 +198,21 @@ def make_schedule(start, days: float, bands: Sequence[str] | str, *, slot_minute
         raise UsageError(f"days={days} is not a positive whole number of hours")
     band_list = _check_bands(bands)
     per_hour = slots_per_hour(int(slot_minutes))
-    if int(block_slots) != block_slots or block_slots < 2 or block_slots % 2:
+    labels = [x.strip().upper() for x in (antennas.split(",") if isinstance(antennas, str)
+                                          else antennas) if str(x).strip()]
+    k = len(labels)
+    if k < 2 or len(set(labels)) != k:
+        raise UsageError(f"give at least two distinct antenna labels, got {antennas!r}")
+    if block_slots is None:
+        block_slots = k
+    if k == 2 and (int(block_slots) != block_slots or block_slots < 2 or block_slots % 2):
         raise UsageError(f"block_slots={block_slots} must be an even number of slots >= 2")
+    if k > 2 and (int(block_slots) != block_slots or block_slots < k or block_slots % k):
+        raise UsageError(f"block_slots={block_slots} must be a multiple of the {k} antennas")
     block_slots = int(block_slots)
     rng = np.random.default_rng(seed)
-    antenna, block = _balanced_blocks(n_hours, per_hour, block_slots, rng)
+    antenna, block = _balanced_blocks(n_hours, per_hour, block_slots, rng, k)
+    names = np.asarray(labels, dtype=object)
     n_slots = antenna.size
     step = pd.Timedelta(minutes=int(slot_minutes))
     starts = t0 + step * np.arange(n_slots)
@@ -197,14 +225,14 @@ def make_schedule(start, days: float, bands: Sequence[str] | str, *, slot_minute
         table = pd.DataFrame({
             C.SCHEDULE_START: starts,
             C.BAND: np.asarray(band_list, dtype=object)[band_idx],
-            C.ANTENNA: np.asarray(ANTENNAS, dtype=object)[antenna],
+            C.ANTENNA: names[antenna],
         })
     else:
         nb = len(band_list)
         table = pd.DataFrame({
             C.SCHEDULE_START: np.repeat(starts, nb),
             C.BAND: np.tile(np.asarray(band_list, dtype=object), n_slots),
-            C.ANTENNA: np.repeat(np.asarray(ANTENNAS, dtype=object)[antenna], nb),
+            C.ANTENNA: np.repeat(names[antenna], nb),
         })
     table.insert(1, C.SCHEDULE_END, table[C.SCHEDULE_START] + step)
     order = {b: i for i, b in enumerate(BAND_ORDER)}
@@ -273,7 +301,8 @@ def schedule_balance(schedule: pd.DataFrame) -> pd.DataFrame:
     if C.BAND in schedule.columns:
         keys.append(schedule[C.BAND].astype(str).rename(C.BAND))
     counts = schedule.groupby(keys + [schedule[C.ANTENNA].astype(str)]).size()
-    return counts.unstack(C.ANTENNA, fill_value=0).reindex(columns=list(ANTENNAS), fill_value=0)
+    labels = sorted(set(ANTENNAS) | set(counts.index.get_level_values(-1)))
+    return counts.unstack(C.ANTENNA, fill_value=0).reindex(columns=labels, fill_value=0)
 
 
 def expand_schedule(schedule: pd.DataFrame, slot_minutes: int = C.SLOT_MINUTES) -> pd.DataFrame:
