@@ -97,3 +97,37 @@ def test_schedule_csv_is_read_back_by_compare(tmp_path):
     # a band the schedule does not have in that slot is not covered
     other = np.where(s[C.BAND] == "20m", "10m", "20m")
     assert (schedule_antennas(s[C.SCHEDULE_START], other, str(path)) == -1).all()
+
+
+# --- several antennas -------------------------------------------------------------------------
+def test_schedule_three_antennas_balanced_and_read_back(tmp_path):
+    from spotkit.compare.pairing import read_schedule, schedule_antennas
+    from spotkit.plan.schedule import make_schedule, schedule_balance, write_schedule
+
+    # 30 slots per hour, blocks of 3: each antenna exactly 10 per hour (3 divides 30)
+    sched = make_schedule("2026-03-02", days=2 / 24, bands="20m", antennas="A,B,C", seed=4)
+    bal = schedule_balance(sched)
+    assert list(bal.columns) == ["A", "B", "C"]
+    assert (bal.to_numpy() == 10).all()
+    # every block of three consecutive slots holds each antenna once
+    blocks = sched["antenna"].to_numpy().reshape(-1, 3)
+    assert all(sorted(b) == ["A", "B", "C"] for b in blocks)
+    path = write_schedule(sched, tmp_path / "abc.csv")
+    back = read_schedule(path, antennas="ABC")
+    assert back["antenna"].tolist() == sched["antenna"].tolist()
+    codes = schedule_antennas(sched["start"], sched["band"], path, antennas=["A", "B", "C"])
+    assert codes.tolist() == sched["antenna"].map({"A": 0, "B": 1, "C": 2}).tolist()
+
+
+def test_schedule_labels_checked():
+    import pytest
+
+    from spotkit.compare.pairing import read_schedule
+    from spotkit.errors import InputError, UsageError
+    from spotkit.plan.schedule import make_schedule
+
+    with pytest.raises(UsageError, match="multiple of the 3"):
+        make_schedule("2026-03-02", days=1 / 24, bands="20m", antennas="A,B,C", block_slots=4)
+    table = make_schedule("2026-03-02", days=1 / 24, bands="20m", antennas="A,B,C")
+    with pytest.raises(InputError, match="expected A or B"):
+        read_schedule(table)  # a two-antenna reader refuses label C, naming row and field

@@ -547,3 +547,36 @@ def test_gain_table_frame_is_the_table_gain_db_interpolates():
                                frame.to_numpy(), atol=1e-9)
     with pytest.raises(ValueError, match="no gain table"):
         ant.table_frame("40m")
+
+
+# --- more antennas ------------------------------------------------------------------------------
+def test_more_antennas_in_each_design():
+    import numpy as np
+
+    from spotkit import columns as C
+    from spotkit.compare.pairing import schedule_antennas
+    from spotkit.sim.simulate import simulate_spots
+
+    kw = dict(days=0.1, n_receivers=30, n_transmitters=30, bands=("20m",), difference_db=1.0,
+              more_antennas=[3.0, -1.0], seed=2)
+    sim = simulate_spots("simultaneous", **kw)
+    assert sim.params["calls"] == ["Q1ABC", "Q1ABD", "Q1ABE", "Q1ABF"]
+    assert sim.params["truth_vs_a"] == [0.0, 1.0, 3.0, -1.0]
+    assert set(sim.spots[C.TX_CALL].astype(str)) >= {"Q1ABC", "Q1ABD", "Q1ABE", "Q1ABF"}
+    # same receivers, same slots: C's mean SNR over reports heard by both A and C is about
+    # 3 dB above A's (fast fading 1-2 dB per report, a few hundred reports)
+    s = sim.spots.pivot_table(index=[C.RX_CALL, C.SLOT], columns=C.TX_CALL, values=C.SNR,
+                              observed=True)
+    both = s[["Q1ABC", "Q1ABE"]].dropna()
+    assert (both["Q1ABE"] - both["Q1ABC"]).mean() == pytest.approx(3.0, abs=0.5)
+    rec = simulate_spots("receive", **kw)
+    assert set(rec.spots[C.RX_CALL].astype(str)) == {"Q1ABC", "Q1ABD", "Q1ABE", "Q1ABF"}
+    alt = simulate_spots("alternating", **kw)
+    assert alt.params["labels"] == ["A", "B", "C", "D"]
+    # every report sits in a slot of the round robin A, B, C, D
+    t = alt.spots[C.SLOT]
+    code = schedule_antennas(t, ["20m"] * len(t), "even-odd", alt.params["labels"])
+    idx = ((t - t.dt.normalize()) // np.timedelta64(2, "m")).to_numpy() % 4
+    assert (code == idx).all()
+    with pytest.raises(UsageError, match="finite"):
+        simulate_spots("simultaneous", **{**kw, "more_antennas": [float("nan")]})
