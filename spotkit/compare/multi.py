@@ -59,7 +59,7 @@ from spotkit import stats
 from spotkit._validate import check_choice, check_confidence
 from spotkit.compare.estimate import MissedReports, Model, estimate_groups
 from spotkit.compare.grouping import summarise_pairs
-from spotkit.compare.pairing import pair_spots
+from spotkit.compare.pairing import pair_spots, receiver_thresholds
 from spotkit.errors import NoPairsError, UsageError
 
 MultiDesign = Literal["simultaneous", "alternating", "receive"]
@@ -301,9 +301,11 @@ def compare_several(spots: pd.DataFrame, design: MultiDesign, antennas, *,
         pairs_list.append((u, v))
     pairs_list.sort(key=lambda p: (p[0] != ref, labels.index(p[0]), labels.index(p[1])))
     paired, set_aside = {}, {}
+    method = "t50" if model == "detection" else "lowest"
+    thr = receiver_thresholds(spots, method=method, tau_db=tau_db)  # once for all contrasts
     for u, v in pairs_list:
         kw = dict(require_open_path=require_open_path, tau_db=tau_db,
-                  threshold_method="t50" if model == "detection" else "lowest")
+                  threshold_method=method, thresholds=thr)
         try:
             if design == "alternating":
                 p = pair_spots(spots, "alternating", call, call, schedule=schedule,

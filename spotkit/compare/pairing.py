@@ -888,7 +888,7 @@ def pair_spots(spots: pd.DataFrame, design: Design, a: str, b: str | None = None
                min_receiver_reports: int = 20,
                require_open_path: bool = True, threshold_method: ThresholdMethod = "t50",
                tau_db: float | None = None, antennas=("A", "B"),
-               contrast=None) -> pd.DataFrame:
+               contrast=None, thresholds: pd.Series | None = None) -> pd.DataFrame:
     """Pair the reports of antennas A and B according to an experiment design.
 
     Parameters
@@ -924,6 +924,9 @@ def pair_spots(spots: pd.DataFrame, design: Design, a: str, b: str | None = None
         Alternating design with more than two antennas: the two labels compared (as A
         and B); reports of the schedule's other antennas are not paired but count as
         evidence of an open path.
+    thresholds : pandas.Series, optional
+        The result of :func:`receiver_thresholds` on these spots with these settings, when
+        the caller already has it (several comparisons of one table); computed otherwise.
 
     Returns
     -------
@@ -970,8 +973,8 @@ def pair_spots(spots: pd.DataFrame, design: Design, a: str, b: str | None = None
     _check_design(design)
     spots = _validate(spots)
     set_aside: dict[str, int] = {}
-    thr = receiver_thresholds(spots, min_receiver_reports, method=threshold_method,
-                              tau_db=tau_db)
+    thr = thresholds if thresholds is not None else receiver_thresholds(
+        spots, min_receiver_reports, method=threshold_method, tau_db=tau_db)
     work, cats = _encode(spots)
     after = None
     if design == "simultaneous":

@@ -122,8 +122,8 @@ def test_bad_input():
 
 
 # --- coverage over repeated runs (slow) ---------------------------------------------------
-#: runs per (design, k) cell; 6 cells x 10 runs took about 80 s on the 2-core VM
-RUNS = 10
+#: runs per (design, k) cell
+RUNS = 8
 
 
 @pytest.mark.slow
@@ -131,8 +131,8 @@ def test_simultaneous_coverage_k3_k4_every_design():
     # Simulated truth (exact constant differences: A 0, B +2, C +5, D +1 dB), in a regime
     # the model only approximates: soft decoders (detection width 1 dB) and heavy-tailed
     # fast fading (Student t, 5 df). A run "covers" when every contrast of the family
-    # lies within its simultaneous interval. Over 60 runs a 95 % family coverage gives
-    # about 57 (binomial SD 1.7); we require 51 (85 %). An interval not adjusted for
+    # lies within its simultaneous interval. Over 48 runs a 95 % family coverage gives
+    # about 46 (binomial SD 1.5); we require 41 (85 %). An interval not adjusted for
     # multiplicity is caught by the width check: the simultaneous statistical half-width
     # must exceed the one-at-a-time bootstrap half-width by 8 % on average (the max-T
     # factor for 2-3 correlated contrasts is about 2.2-2.4 against 1.96).
@@ -144,7 +144,7 @@ def test_simultaneous_coverage_k3_k4_every_design():
             for r in range(RUNS):
                 sim = _sim(design, more, seed=1000 + 37 * r + k, days=0.2,
                            detection_width_db=1.0, propagation=prop)
-                res = _run(sim, n_boot=100)
+                res = _run(sim, n_boot=80)
                 c = res.contrasts
                 truth = np.array([_truth(sim, a, b) for a, b in
                                   zip(c[C.FIRST], c[C.SECOND], strict=True)])
