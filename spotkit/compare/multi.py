@@ -57,7 +57,7 @@ import pandas as pd
 from spotkit import columns as C
 from spotkit import stats
 from spotkit._validate import check_choice, check_confidence
-from spotkit.compare.estimate import MissedReports, Model, estimate_groups
+from spotkit.compare.estimate import MissedReports, Model, estimate_groups, format_p_value
 from spotkit.compare.grouping import summarise_pairs
 from spotkit.compare.pairing import pair_spots, receiver_thresholds
 from spotkit.errors import NoPairsError, UsageError
@@ -190,12 +190,20 @@ class MultiResult:
             Path(path).write_text(text + "\n", encoding="utf-8")
         return text
 
+    def _p(self, row) -> str:
+        """The family-wise p; 0 (no resample as extreme) prints as ``< 1 / n_boot``."""
+        p = row[C.P_FAMILY]
+        if np.isfinite(p) and p == 0:
+            return f"< {1 / int(self.options.get('n_boot', 1000)):.2g}"
+        return format_p_value(p)
+
     def __str__(self) -> str:
         conf = float(self.options.get("confidence", 0.95))
         lines = [f"{self.design} comparison of {len(self.antennas)} antennas "
                  f"({', '.join(self.antennas)}), reference {self.reference}",
                  f"intervals: {conf * 100:g} % simultaneous over the {len(self.contrasts)} "
-                 "contrasts (max-T cluster bootstrap, widened by the systematic part)"]
+                 f"contrast{'s' if len(self.contrasts) != 1 else ''} (max-T cluster "
+                 "bootstrap, widened by the systematic part)"]
         for r in self.contrasts.to_dict("records"):
             est = r[C.B_MINUS_A]
             if not np.isfinite(est):
@@ -203,7 +211,7 @@ class MultiResult:
                 continue
             lines.append(f"  {r[C.SECOND]} - {r[C.FIRST]}: {est:+.2f} dB "
                          f"({r[C.CI_SIM_LOW]:+.2f} to {r[C.CI_SIM_HIGH]:+.2f}; "
-                         f"{int(r[C.PAIRS]):,} pairs, p family {r[C.P_FAMILY]:.3g})")
+                         f"{int(r[C.PAIRS]):,} pairs, family-wise p {self._p(r)})")
         lines.append("ranking: " + self.ranking)
         return "\n".join(lines)
 
