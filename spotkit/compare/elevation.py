@@ -1,0 +1,148 @@
+"""B minus A as a smooth curve of the hop-geometry elevation angle, per band.
+
+Besides the elevation bins of :mod:`spotkit.compare.grouping`, a curve: at each angle
+``e0`` of a grid, the censored fit of :mod:`spotkit.compare.estimate` (detection model with
+whole-dB intervals, both-heard pairs in both conditional likelihoods, missed-report
+shares; normal tails) with every pair weighted by a Gaussian kernel ``exp(-(e -
+e0)^2 / (2 h^2))`` of its elevation angle ``e`` - a local-likelihood smoother (local
+constant) [1]_. The pairs are first compressed into 1-degree elevation bins
+(:func:`spotkit.compare.grouping.summarise_pairs`), so the curve costs one batch fit per
+grid point whatever the number of pairs. The band around it is the percentile cluster
+bootstrap (receivers resampled, transmitters in the receive design), pointwise: it holds
+at each angle, not along the whole curve at once.
+
+Known error: a local-constant smoother flattens peaks and troughs narrower than about
+the bandwidth ``h`` (default 3 degrees) and is biased at the ends of the data's range
+(the kernel sees one side only); where the kernel-weighted number of pairs is below
+``min_pairs`` no point is given. The elevation angle itself is a model (one reflection
+height, mirror hops), so the curve is B - A against *that* angle.
+
+References
+----------
+.. [1] R. Tibshirani and T. Hastie, "Local likelihood estimation", JASA 82(398):559-567,
+   1987 (citation from memory).
+.. [2] A. C. Davison and D. V. Hinkley, Bootstrap Methods and their Application, 1997,
+   s. 3.8 (cluster bootstrap).
+"""
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+
+from spotkit import columns as C
+from spotkit import stats
+from spotkit._validate import check_confidence
+from spotkit.compare.estimate import PAIRED_EXACT_WEIGHT, default_detection
+from spotkit.compare.grouping import summarise_pairs
+from spotkit.errors import NoPairsError, UsageError
+
+_CODE = {"both": 0, "only_a": 1, "only_b": -1}
+
+#: columns of :func:`elevation_curve`
+CURVE_COLUMNS = [C.BAND, C.ELEVATION, C.B_MINUS_A, C.CI_LOW, C.CI_HIGH, C.PAIRS, C.CLUSTERS]
+
+
+def elevation_curve(pairs: pd.DataFrame, *, grid_deg=None, bandwidth_deg: float = 3.0,
+                    by_band: bool = True, layer_height_km: float = 300.0,
+                    n_boot: int = 200, seed: int = 0, confidence: float = 0.95,
+                    min_pairs: int = 50) -> pd.DataFrame:
+    """B minus A [dB] against elevation angle [deg], smoothed, with a bootstrap band.
+
+    Parameters
+    ----------
+    pairs : pandas.DataFrame
+        From :func:`spotkit.compare.pairing.pair_spots` (a paired design).
+    grid_deg : sequence of float, optional
+        Angles of the curve [deg]; default every degree over the data's range.
+    bandwidth_deg : float
+        Kernel standard deviation ``h`` [deg].
+    by_band : bool
+        One curve per band (default) or one over all bands.
+    layer_height_km : float
+        Reflection height of the hop geometry [km].
+    n_boot : int
+        Cluster bootstrap resamples.
+    seed : int
+        Seed of the resampling.
+    confidence : float
+        Pointwise coverage of the band.
+    min_pairs : int
+        Fewest kernel-weighted pairs for a point of the curve.
+
+    Returns
+    -------
+    pandas.DataFrame
+        :data:`CURVE_COLUMNS`: ``C.BAND`` ("all" with ``by_band=False``), ``C.ELEVATION``
+        [deg], ``C.B_MINUS_A``, ``C.CI_LOW``, ``C.CI_HIGH`` [dB], ``C.PAIRS`` (kernel-weighted
+        pairs), ``C.CLUSTERS`` (clusters with pairs within 2 h).
+
+    Examples
+    --------
+    A vertical (A) against a dipole (B) on 20 m: the dipole's advantage grows with the
+    elevation angle:
+
+    >>> from spotkit.sim.simulate import simulate_spots
+    >>> from spotkit.compare.pairing import pair_spots
+    >>> sim = simulate_spots(days=0.5, n_receivers=120, bands=("20m",), seed=4)
+    >>> pairs = pair_spots(sim.spots, "simultaneous", "Q1ABC", "Q1ABD")
+    >>> curve = elevation_curve(pairs, grid_deg=[5, 20], n_boot=50)
+    >>> bool(curve["b_minus_a_db"].iloc[1] > curve["b_minus_a_db"].iloc[0])
+    True
+    """
+    check_confidence(confidence)
+    if not (np.isfinite(bandwidth_deg) and bandwidth_deg > 0):
+        raise UsageError(f"bandwidth_deg must be a positive number of degrees, got "
+                         f"{bandwidth_deg!r}")
+    if int(n_boot) < 2:
+        raise UsageError(f"n_boot must be at least 2, got {n_boot}")
+    edges = np.arange(0.0, 91.0, 1.0)
+    keys = ("band", "elevation") if by_band else ("elevation",)
+    counts = summarise_pairs(pairs, keys, elevation_edges=edges,
+                             layer_height_km=layer_height_km)
+    counts = counts[counts[C.KIND].astype(str).isin(list(_CODE))]
+    if not len(counts):
+        raise NoPairsError("no pairs to draw an elevation curve from")
+    det = dict(default_detection())
+    if pairs.attrs.get("detection"):
+        det.update(pairs.attrs["detection"])
+    kind = counts[C.KIND].astype(str).map(_CODE).to_numpy(dtype=np.int64)
+    value = counts[C.VALUE].to_numpy(dtype=float)
+    cnt = counts[C.COUNT].to_numpy(dtype=float)
+    whole = det.get("whole_db")
+    if whole is None:
+        both = kind == 0
+        whole = bool(np.all(np.abs(value[both] - np.round(value[both])) < 1e-6))
+    kw = dict(half_width_db=0.5 if whole else 0.0, tau_db=float(det["tau_db"]), missed=True,
+              exact_weight=PAIRED_EXACT_WEIGHT)
+    centre = ((counts[C.ELEVATION_MIN].to_numpy(dtype=float)
+               + counts[C.ELEVATION_MAX].to_numpy(dtype=float)) / 2)
+    cl_names = np.asarray(sorted(counts[C.CLUSTER].astype(str).unique()))
+    cl = pd.Index(cl_names).get_indexer(counts[C.CLUSTER].astype(str))
+    W = stats.cluster_bootstrap_weights(cl_names.size, int(n_boot),
+                                        np.random.default_rng(seed)).astype(float)
+    band = counts[C.BAND].astype(str).to_numpy() if by_band else np.full(len(counts), "all")
+    rows = []
+    for b in pd.unique(band):
+        sel = band == b
+        v, k, t, e, c = value[sel], kind[sel], cnt[sel], centre[sel], cl[sel]
+        grid = (np.arange(np.floor(e.min()), np.ceil(e.max()) + 1.0) if grid_deg is None
+                else np.asarray(grid_deg, dtype=float))
+        K = np.exp(-0.5 * ((e[None, :] - grid[:, None]) / bandwidth_deg) ** 2)
+        wt = K * t[None, :]
+        n_eff = wt.sum(axis=1)
+        fit = stats.interval_censored_mle_batch(v, k, wt, **kw)
+        for g, e0 in enumerate(grid):
+            near = np.abs(e - e0) <= 2 * bandwidth_deg
+            row = {C.BAND: b, C.ELEVATION: float(e0), C.B_MINUS_A: np.nan, C.CI_LOW: np.nan,
+                   C.CI_HIGH: np.nan, C.PAIRS: float(n_eff[g]),
+                   C.CLUSTERS: int(np.unique(c[near]).size)}
+            if n_eff[g] >= min_pairs and np.isfinite(fit["mu"][g]):
+                mu_b = stats.interval_censored_mle_batch(v, k, W[:, c] * wt[g][None, :],
+                                                         **kw)["mu"]
+                lo, hi = stats.bootstrap_interval(mu_b, fit["mu"][g], confidence)
+                row.update({C.B_MINUS_A: float(fit["mu"][g]), C.CI_LOW: lo, C.CI_HIGH: hi})
+            rows.append(row)
+    return pd.DataFrame(rows, columns=CURVE_COLUMNS)
+
+
+__all__ = ["CURVE_COLUMNS", "elevation_curve"]
