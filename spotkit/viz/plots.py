@@ -37,7 +37,7 @@ from spotkit.units import snr_per_watt
 PlotKind = Literal["bearing", "distance", "elevation", "hour", "heard", "snr-distance",
                    "spots-per-hour"]
 PLOT_KINDS = ("bearing", "distance", "elevation", "hour", "heard", "snr-distance",
-              "spots-per-hour")
+              "spots-per-hour", "elevation-curve")
 #: colour map the band palette is sampled from, and the part of it used
 BAND_CMAP = "plasma"
 _BAND_SPAN = (0.0, 0.88)
@@ -172,6 +172,40 @@ def elevation_plot(result, *, band=None, ax=None):
     ax = _interval_plot(result, C.ELEVATION_MIN, C.ELEVATION_MAX, "elevation",
                         "estimated elevation angle [deg]", band=band, ax=ax)
     ax.set_title("B minus A by elevation angle")
+    return ax
+
+
+def elevation_curve_plot(curve: pd.DataFrame, *, band=None, ax=None):
+    """The smoothed B minus A [dB] against elevation angle [deg] with its pointwise band.
+
+    Parameters
+    ----------
+    curve : pandas.DataFrame
+        From :func:`spotkit.compare.elevation.elevation_curve`.
+    band : str or list of str, optional
+    ax : matplotlib.axes.Axes, optional
+
+    Returns
+    -------
+    matplotlib.axes.Axes
+    """
+    _need(curve, [C.ELEVATION, C.B_MINUS_A, C.CI_LOW, C.CI_HIGH], "an elevation curve")
+    ax = _new_ax(ax)
+    colors = band_colors()
+    for b, sub in _by_band(curve, band):
+        sub = sub.sort_values(C.ELEVATION)
+        x = sub[C.ELEVATION].to_numpy(dtype=float)
+        col = colors.get(b, "#333333") if b else "#333333"
+        ax.fill_between(x, sub[C.CI_LOW].to_numpy(dtype=float),
+                        sub[C.CI_HIGH].to_numpy(dtype=float), color=col, alpha=0.2, lw=0)
+        ax.plot(x, sub[C.B_MINUS_A].to_numpy(dtype=float), color=col, lw=1.6,
+                label=b if b else "B - A", gid=f"curve-{b or 'all'}")
+    ax.axhline(0.0, color="#444444", lw=0.8, zorder=0)
+    ax.set_xlabel("estimated elevation angle [deg]")
+    ax.set_ylabel("B minus A [dB]  (pointwise 95 % band)")
+    ax.set_title("B minus A against elevation angle (smoothed)")
+    ax.grid(alpha=0.3)
+    ax.legend(fontsize=8, title="band", title_fontsize=8)
     return ax
 
 
@@ -513,6 +547,7 @@ def duration_tradeoff_plot(table: pd.DataFrame, ax=None):
     return ax
 
 __all__ = ["PLOT_KINDS", "BAND_CMAP", "band_colors", "distance_plot", "elevation_plot",
+           "elevation_curve_plot",
            "hour_plot", "bearing_plot", "heard_by_distance", "heard_plot", "running_median",
            "snr_distance_plot", "spots_per_hour", "spots_per_hour_plot",
            "duration_tradeoff_plot"]

@@ -46,3 +46,20 @@ def test_curve_options_checked(vertical_dipole):
         elevation_curve(pairs, n_boot=1)
     thin = elevation_curve(pairs, grid_deg=[10.0], n_boot=20, min_pairs=10**9)
     assert np.isnan(thin[C.B_MINUS_A].iloc[0]) and thin[C.PAIRS].iloc[0] > 0
+
+
+@pytest.mark.slow
+def test_plot_elevation_curve_cli(tmp_path, vertical_dipole):
+    # spotkit plot --kind elevation-curve writes a picture; without --design it is a usage
+    # error (exit 2)
+    from spotkit.cli import main
+
+    sim, _ = vertical_dipole
+    spots = tmp_path / "vd.parquet"
+    sim.spots.to_parquet(spots)
+    out = tmp_path / "curve.png"
+    assert main(["plot", str(spots), "--kind", "elevation-curve", "--design", "simultaneous",
+                 "--a", "Q1ABC", "--b", "Q1ABD", "--boot", "20", "-o", str(out)]) == 0
+    assert out.stat().st_size > 1000
+    assert main(["plot", str(spots), "--kind", "elevation-curve", "-o",
+                 str(tmp_path / "x.png")]) == 2
