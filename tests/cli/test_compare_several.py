@@ -90,4 +90,9 @@ def test_compare_periods_json(tmp_path, capsys):
     assert rc == 0
     d = json.loads(out.read_text())
     assert [c["second"] for c in d["comparisons"]] == ["new", "newer", "newer"]
-    assert d["comparisons"][1]["b_minus_a_db"] == pytest.approx(4.0, abs=0.8)
+    # one day in the last period: the estimates are given, but no interval (the before/after
+    # design cannot see day-to-day changes with one day), and the note says so; accuracy is
+    # tested with two days per period in tests/compare/test_series.py
+    step = d["comparisons"][2]
+    assert step["b_minus_a_db"] is not None and step["ci_sim_low_db"] is None
+    assert "one day per period" in step["note"]
