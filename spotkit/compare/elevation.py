@@ -32,14 +32,15 @@ import pandas as pd
 from spotkit import columns as C
 from spotkit import stats
 from spotkit._validate import check_confidence
-from spotkit.compare.estimate import PAIRED_EXACT_WEIGHT, default_detection
+from spotkit.compare.estimate import MIN_CLUSTERS, PAIRED_EXACT_WEIGHT, default_detection
 from spotkit.compare.grouping import summarise_pairs
 from spotkit.errors import NoPairsError, UsageError
 
 _CODE = {"both": 0, "only_a": 1, "only_b": -1}
 
 #: columns of :func:`elevation_curve`
-CURVE_COLUMNS = [C.BAND, C.ELEVATION, C.B_MINUS_A, C.CI_LOW, C.CI_HIGH, C.PAIRS, C.CLUSTERS]
+CURVE_COLUMNS = [C.BAND, C.ELEVATION, C.B_MINUS_A, C.CI_LOW, C.CI_HIGH, C.PAIRS, C.CLUSTERS,
+                 C.NOTE]
 
 
 def elevation_curve(pairs: pd.DataFrame, *, grid_deg=None, bandwidth_deg: float = 3.0,
@@ -74,7 +75,9 @@ def elevation_curve(pairs: pd.DataFrame, *, grid_deg=None, bandwidth_deg: float 
     pandas.DataFrame
         :data:`CURVE_COLUMNS`: ``C.BAND`` ("all" with ``by_band=False``), ``C.ELEVATION``
         [deg], ``C.B_MINUS_A``, ``C.CI_LOW``, ``C.CI_HIGH`` [dB], ``C.PAIRS`` (kernel-weighted
-        pairs), ``C.CLUSTERS`` (clusters with pairs within 2 h).
+        pairs), ``C.CLUSTERS`` (clusters with pairs within 2 h), ``C.NOTE``. A point
+        carried by fewer than :data:`spotkit.compare.estimate.MIN_CLUSTERS` clusters gets
+        its estimate but no band (too few units to resample), and a note.
 
     Examples
     --------
@@ -135,8 +138,13 @@ def elevation_curve(pairs: pd.DataFrame, *, grid_deg=None, bandwidth_deg: float 
             near = np.abs(e - e0) <= 2 * bandwidth_deg
             row = {C.BAND: b, C.ELEVATION: float(e0), C.B_MINUS_A: np.nan, C.CI_LOW: np.nan,
                    C.CI_HIGH: np.nan, C.PAIRS: float(n_eff[g]),
-                   C.CLUSTERS: int(np.unique(c[near]).size)}
-            if n_eff[g] >= min_pairs and np.isfinite(fit["mu"][g]):
+                   C.CLUSTERS: int(np.unique(c[near]).size), C.NOTE: ""}
+            if n_eff[g] < min_pairs or not np.isfinite(fit["mu"][g]):
+                row[C.NOTE] = "too few pairs" if n_eff[g] < min_pairs else "no estimate"
+            elif row[C.CLUSTERS] < MIN_CLUSTERS:
+                row[C.B_MINUS_A] = float(fit["mu"][g])
+                row[C.NOTE] = f"only {row[C.CLUSTERS]} clusters near this angle: no band"
+            else:
                 mu_b = stats.interval_censored_mle_batch(v, k, W[:, c] * wt[g][None, :],
                                                          **kw)["mu"]
                 lo, hi = stats.bootstrap_interval(mu_b, fit["mu"][g], confidence)

@@ -46,6 +46,12 @@ def test_curve_options_checked(vertical_dipole):
         elevation_curve(pairs, n_boot=1)
     thin = elevation_curve(pairs, grid_deg=[10.0], n_boot=20, min_pairs=10**9)
     assert np.isnan(thin[C.B_MINUS_A].iloc[0]) and thin[C.PAIRS].iloc[0] > 0
+    assert thin[C.NOTE].iloc[0] == "too few pairs"
+    # a point carried by fewer than MIN_CLUSTERS receivers gets no band (verdict rules)
+    one = pairs[pairs[C.CLUSTER] == pairs[C.CLUSTER].iloc[0]]
+    lone = elevation_curve(one, n_boot=20, min_pairs=1)
+    assert lone[C.CI_LOW].isna().all() and lone[C.B_MINUS_A].notna().any()
+    assert lone[C.NOTE].str.contains("no band").all()
 
 
 @pytest.mark.slow
