@@ -9,7 +9,7 @@ from spotkit.compare.beforeafter import (
     estimate_before_after,
 )
 from spotkit.compare.cells import DEFAULT_BLOCK_HOURS, block_clusters, estimate_cells
-from spotkit.compare.elevation import CURVE_COLUMNS, elevation_curve
+from spotkit.compare.elevation import CURVE_COLUMNS, bearing_curve, elevation_curve
 from spotkit.compare.estimate import (
     INTERVALS,
     MAX_FAILED_SHARE,
@@ -92,6 +92,7 @@ __all__ = [
     "MODELS", "TAIL_DFS", "TAILS", "INTERVALS",
     "default_detection", "T50_ERROR_DB", "TAU_FACTORS", "TAU_FACTORS_SET",
     "THRESHOLD_METHODS", "MULTI_DESIGNS", "MULTI_COLUMNS", "MultiResult", "compare_several",
-    "parse_antennas", "CURVE_COLUMNS", "elevation_curve", "SERIES_COLUMNS", "SeriesResult",
+    "parse_antennas", "CURVE_COLUMNS", "elevation_curve", "bearing_curve", "SERIES_COLUMNS",
+    "SeriesResult",
     "compare_series", "parse_periods",
 ]

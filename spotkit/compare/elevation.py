@@ -92,19 +92,27 @@ def elevation_curve(pairs: pd.DataFrame, *, grid_deg=None, bandwidth_deg: float 
     >>> bool(curve["b_minus_a_db"].iloc[1] > curve["b_minus_a_db"].iloc[0])
     True
     """
+    edges = np.arange(0.0, 91.0, 1.0)
+    return _kernel_curve(pairs, "elevation", dict(elevation_edges=edges,
+                                                  layer_height_km=layer_height_km),
+                         C.ELEVATION_MIN, C.ELEVATION_MAX, C.ELEVATION, False, grid_deg,
+                         bandwidth_deg, by_band, n_boot, seed, confidence, min_pairs)
+
+
+def _kernel_curve(pairs, key, group_opts, lo_col, hi_col, out_col, circular, grid_deg,
+                  bandwidth_deg, by_band, n_boot, seed, confidence, min_pairs):
+    """The kernel-weighted censored fit over the 1-degree (or 5-degree) bins of ``key``."""
     check_confidence(confidence)
     if not (np.isfinite(bandwidth_deg) and bandwidth_deg > 0):
         raise UsageError(f"bandwidth_deg must be a positive number of degrees, got "
                          f"{bandwidth_deg!r}")
     if int(n_boot) < 2:
         raise UsageError(f"n_boot must be at least 2, got {n_boot}")
-    edges = np.arange(0.0, 91.0, 1.0)
-    keys = ("band", "elevation") if by_band else ("elevation",)
-    counts = summarise_pairs(pairs, keys, elevation_edges=edges,
-                             layer_height_km=layer_height_km)
+    keys = ("band", key) if by_band else (key,)
+    counts = summarise_pairs(pairs, keys, **group_opts)
     counts = counts[counts[C.KIND].astype(str).isin(list(_CODE))]
     if not len(counts):
-        raise NoPairsError("no pairs to draw an elevation curve from")
+        raise NoPairsError(f"no pairs to draw a {key} curve from")
     det = dict(default_detection())
     if pairs.attrs.get("detection"):
         det.update(pairs.attrs["detection"])
@@ -117,8 +125,8 @@ def elevation_curve(pairs: pd.DataFrame, *, grid_deg=None, bandwidth_deg: float 
         whole = bool(np.all(np.abs(value[both] - np.round(value[both])) < 1e-6))
     kw = dict(half_width_db=0.5 if whole else 0.0, tau_db=float(det["tau_db"]), missed=True,
               exact_weight=PAIRED_EXACT_WEIGHT)
-    centre = ((counts[C.ELEVATION_MIN].to_numpy(dtype=float)
-               + counts[C.ELEVATION_MAX].to_numpy(dtype=float)) / 2)
+    centre = ((counts[lo_col].to_numpy(dtype=float)
+               + counts[hi_col].to_numpy(dtype=float)) / 2)
     cl_names = np.asarray(sorted(counts[C.CLUSTER].astype(str).unique()))
     cl = pd.Index(cl_names).get_indexer(counts[C.CLUSTER].astype(str))
     W = stats.cluster_bootstrap_weights(cl_names.size, int(n_boot),
@@ -128,15 +136,22 @@ def elevation_curve(pairs: pd.DataFrame, *, grid_deg=None, bandwidth_deg: float 
     for b in pd.unique(band):
         sel = band == b
         v, k, t, e, c = value[sel], kind[sel], cnt[sel], centre[sel], cl[sel]
-        grid = (np.arange(np.floor(e.min()), np.ceil(e.max()) + 1.0) if grid_deg is None
-                else np.asarray(grid_deg, dtype=float))
-        K = np.exp(-0.5 * ((e[None, :] - grid[:, None]) / bandwidth_deg) ** 2)
+        if grid_deg is not None:
+            grid = np.asarray(grid_deg, dtype=float)
+        elif circular:
+            grid = np.arange(0.0, 360.0, 5.0)
+        else:
+            grid = np.arange(np.floor(e.min()), np.ceil(e.max()) + 1.0)
+        dist = e[None, :] - grid[:, None]
+        if circular:  # shortest way round [deg]
+            dist = (dist + 180.0) % 360.0 - 180.0
+        K = np.exp(-0.5 * (dist / bandwidth_deg) ** 2)
         wt = K * t[None, :]
         n_eff = wt.sum(axis=1)
         fit = stats.interval_censored_mle_batch(v, k, wt, **kw)
         for g, e0 in enumerate(grid):
-            near = np.abs(e - e0) <= 2 * bandwidth_deg
-            row = {C.BAND: b, C.ELEVATION: float(e0), C.B_MINUS_A: np.nan, C.CI_LOW: np.nan,
+            near = np.abs(dist[g]) <= 2 * bandwidth_deg
+            row = {C.BAND: b, out_col: float(e0), C.B_MINUS_A: np.nan, C.CI_LOW: np.nan,
                    C.CI_HIGH: np.nan, C.PAIRS: float(n_eff[g]),
                    C.CLUSTERS: int(np.unique(c[near]).size), C.NOTE: ""}
             if n_eff[g] < min_pairs or not np.isfinite(fit["mu"][g]):
@@ -150,7 +165,48 @@ def elevation_curve(pairs: pd.DataFrame, *, grid_deg=None, bandwidth_deg: float 
                 lo, hi = stats.bootstrap_interval(mu_b, fit["mu"][g], confidence)
                 row.update({C.B_MINUS_A: float(fit["mu"][g]), C.CI_LOW: lo, C.CI_HIGH: hi})
             rows.append(row)
-    return pd.DataFrame(rows, columns=CURVE_COLUMNS)
+    cols = [out_col if x == C.ELEVATION else x for x in CURVE_COLUMNS]
+    return pd.DataFrame(rows, columns=cols)
 
 
-__all__ = ["CURVE_COLUMNS", "elevation_curve"]
+def bearing_curve(pairs: pd.DataFrame, *, grid_deg=None, bandwidth_deg: float = 15.0,
+                  by_band: bool = True, n_boot: int = 200, seed: int = 0,
+                  confidence: float = 0.95, min_pairs: int = 50) -> pd.DataFrame:
+    """B minus A [dB] against the bearing [deg] towards the far station, smoothed round the
+    circle, with a pointwise bootstrap band: the band x bearing polar surface.
+
+    The same fit as :func:`elevation_curve` with the kernel on the shortest angular
+    distance (pairs first compressed into 5-degree bearing sectors).
+
+    Parameters
+    ----------
+    pairs : pandas.DataFrame
+        From :func:`spotkit.compare.pairing.pair_spots` (a paired design).
+    grid_deg : sequence of float, optional
+        Bearings of the curve [deg clockwise from true north]; default every 5 degrees.
+    bandwidth_deg : float
+        Kernel standard deviation [deg].
+    by_band, n_boot, seed, confidence, min_pairs
+        As in :func:`elevation_curve`.
+
+    Returns
+    -------
+    pandas.DataFrame
+        As :func:`elevation_curve` with ``C.BEARING`` [deg] in place of ``C.ELEVATION``.
+
+    Examples
+    --------
+    >>> from spotkit.sim.simulate import simulate_spots
+    >>> from spotkit.compare.pairing import pair_spots
+    >>> sim = simulate_spots(days=0.5, n_receivers=120, bands=("20m",), seed=4)
+    >>> pairs = pair_spots(sim.spots, "simultaneous", "Q1ABC", "Q1ABD")
+    >>> curve = bearing_curve(pairs, grid_deg=[0, 90, 180, 270], n_boot=30)
+    >>> curve["bearing_deg"].tolist()
+    [0.0, 90.0, 180.0, 270.0]
+    """
+    return _kernel_curve(pairs, "bearing", dict(bearing_width_deg=5.0), C.BEARING_MIN,
+                         C.BEARING_MAX, C.BEARING, True, grid_deg, bandwidth_deg, by_band,
+                         n_boot, seed, confidence, min_pairs)
+
+
+__all__ = ["CURVE_COLUMNS", "elevation_curve", "bearing_curve"]
