@@ -111,9 +111,11 @@ def add_plot(sub) -> None:
         "with 95 % CIs (need the A/B options); P(heard) against distance for A and B (needs "
         "the A/B options); SNR per watt against distance; spots per hour by band.")
     _add_figure_options(p, ["bearing", "distance", "elevation", "hour", "heard",
-                            "snr-distance", "spots-per-hour", "elevation-curve"],
-                        "which plot (elevation-curve: B minus A smoothed against the "
-                        "elevation angle, with a pointwise bootstrap band)")
+                            "snr-distance", "spots-per-hour", "elevation-curve",
+                            "bearing-curve"],
+                        "which plot (elevation-curve, bearing-curve: B minus A smoothed "
+                        "against the elevation angle or round the compass, with a pointwise "
+                        "bootstrap band)")
     p.set_defaults(func=cmd_plot)
 
 
@@ -139,22 +141,25 @@ def cmd_plot(args) -> int:
         if bands and len(bands) > 1:
             raise UsageError("--kind heard draws one band at a time")
         ax = plots.heard_plot(pairs, band=bands[0] if bands else None)
-    elif args.kind == "elevation-curve":
-        from spotkit.compare.elevation import elevation_curve
+    elif args.kind in ("elevation-curve", "bearing-curve"):
+        from spotkit.compare.elevation import bearing_curve, elevation_curve
         from spotkit.compare.pairing import pair_spots
 
         if not args.design or not args.a:
-            raise UsageError("--kind elevation-curve compares two antennas: give --design "
+            raise UsageError(f"--kind {args.kind} compares two antennas: give --design "
                              "and --a")
         if args.design == "before-after":
-            raise UsageError("--kind elevation-curve needs a paired design (simultaneous, "
+            raise UsageError(f"--kind {args.kind} needs a paired design (simultaneous, "
                              "alternating or receive)")
         pairs = pair_spots(spots, args.design, args.a, args.b, schedule=args.schedule,
                            window_slots=args.window,
                            require_open_path=not args.no_open_path_check)
-        curve = elevation_curve(pairs, n_boot=min(args.boot, 200), seed=args.seed,
-                                confidence=args.confidence, layer_height_km=args.layer_height)
-        ax = plots.elevation_curve_plot(curve, band=bands)
+        opts = dict(n_boot=min(args.boot, 200), seed=args.seed, confidence=args.confidence)
+        if args.kind == "elevation-curve":
+            curve = elevation_curve(pairs, layer_height_km=args.layer_height, **opts)
+            ax = plots.elevation_curve_plot(curve, band=bands)
+        else:
+            ax = plots.bearing_curve_plot(bearing_curve(pairs, **opts), band=bands)
     elif args.kind == "snr-distance":
         ax = plots.snr_distance_plot(spots, band=bands)
     else:

@@ -37,7 +37,7 @@ from spotkit.units import snr_per_watt
 PlotKind = Literal["bearing", "distance", "elevation", "hour", "heard", "snr-distance",
                    "spots-per-hour"]
 PLOT_KINDS = ("bearing", "distance", "elevation", "hour", "heard", "snr-distance",
-              "spots-per-hour", "elevation-curve")
+              "spots-per-hour", "elevation-curve", "bearing-curve")
 #: colour map the band palette is sampled from, and the part of it used
 BAND_CMAP = "plasma"
 _BAND_SPAN = (0.0, 0.88)
@@ -267,6 +267,55 @@ def bearing_plot(result, *, band=None, ax=None, rlim: float | None = None):
     ax.plot(th, np.zeros_like(th), color="black", lw=1.2, gid="zero-db")
     ax.set_rlabel_position(100)
     ax.set_title("B minus A [dB] by bearing (95 % CI)", pad=18)
+    ax.legend(fontsize=8, loc="lower left", bbox_to_anchor=(-0.12, -0.12))
+    return ax
+
+
+def bearing_curve_plot(curve: pd.DataFrame, *, band=None, ax=None,
+                       rlim: float | None = None):
+    """The smoothed B minus A [dB] against bearing on a polar plot, with its pointwise band.
+
+    North up, bearings clockwise; the radius is B minus A [dB], the bold circle 0 dB. Gaps
+    are bearings with too few pairs (or too few receivers for a band).
+
+    Parameters
+    ----------
+    curve : pandas.DataFrame
+        From :func:`spotkit.compare.elevation.bearing_curve`.
+    band : str or list of str, optional
+    ax : matplotlib polar Axes, optional
+    rlim : float, optional
+        Radial half-range [dB]; default covers the band.
+
+    Returns
+    -------
+    matplotlib.projections.polar.PolarAxes
+    """
+    _need(curve, [C.BEARING, C.B_MINUS_A, C.CI_LOW, C.CI_HIGH], "a bearing curve")
+    ax = _new_ax(ax, polar=True, figsize=(5.6, 5.6))
+    ax.set_theta_zero_location("N")
+    ax.set_theta_direction(-1)
+    colors = band_colors()
+    ext = [1.0]
+    for b, sub in _by_band(curve, band):
+        sub = sub.sort_values(C.BEARING)
+        sub = pd.concat([sub, sub.iloc[:1]])  # close the circle
+        th = np.radians(sub[C.BEARING].to_numpy(dtype=float))
+        th[-1] += 2 * np.pi
+        col = colors.get(b, "#333333") if b else "#333333"
+        lo, hi = sub[C.CI_LOW].to_numpy(dtype=float), sub[C.CI_HIGH].to_numpy(dtype=float)
+        est = sub[C.B_MINUS_A].to_numpy(dtype=float)
+        ax.fill_between(th, lo, hi, color=col, alpha=0.2, lw=0, gid=f"band-{b or 'all'}")
+        ax.plot(th, est, color=col, lw=1.8, label=b if b else "B - A",
+                gid=f"curve-{b or 'all'}")
+        ext += [x for x in np.r_[lo, hi, est] if np.isfinite(x)]
+    if rlim is None:
+        rlim = float(np.ceil(np.max(np.abs(ext)) + 0.5))
+    ax.set_ylim(-rlim, rlim)
+    th = np.linspace(0, 2 * np.pi, 181)
+    ax.plot(th, np.zeros_like(th), color="black", lw=1.2, gid="zero-db")
+    ax.set_rlabel_position(100)
+    ax.set_title("B minus A [dB] against bearing, smoothed (pointwise 95 % band)", pad=18)
     ax.legend(fontsize=8, loc="lower left", bbox_to_anchor=(-0.12, -0.12))
     return ax
 
@@ -547,7 +596,7 @@ def duration_tradeoff_plot(table: pd.DataFrame, ax=None):
     return ax
 
 __all__ = ["PLOT_KINDS", "BAND_CMAP", "band_colors", "distance_plot", "elevation_plot",
-           "elevation_curve_plot",
+           "elevation_curve_plot", "bearing_curve_plot",
            "hour_plot", "bearing_plot", "heard_by_distance", "heard_plot", "running_median",
            "snr_distance_plot", "spots_per_hour", "spots_per_hour_plot",
            "duration_tradeoff_plot"]

@@ -69,6 +69,10 @@ def test_plot_elevation_curve_cli(tmp_path, vertical_dipole):
     assert out.stat().st_size > 1000
     assert main(["plot", str(spots), "--kind", "elevation-curve", "-o",
                  str(tmp_path / "x.png")]) == 2
+    polar = tmp_path / "bearing.svg"
+    assert main(["plot", str(spots), "--kind", "bearing-curve", "--design", "simultaneous",
+                 "--a", "Q1ABC", "--b", "Q1ABD", "--boot", "20", "-o", str(polar)]) == 0
+    assert "curve-20m" in polar.read_text()
 
 
 @pytest.mark.slow
