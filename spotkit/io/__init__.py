@@ -63,12 +63,14 @@ from spotkit.io.sanity import (
     column_problems,
 )
 from spotkit.io.sniff import (
+    DATE_ORDERS,
     DELIMITERS,
     MAX_WATTS,
     SAMPLE_ROWS,
     TIME_UNITS,
     UNIT_CHOICES,
     infer_columns,
+    infer_date_order,
     infer_frequency_unit,
     infer_power_unit,
     match_headings,
@@ -110,3 +112,5 @@ __all__ += [
 ]
 __all__ += ["check_columns", "column_problems", "MIN_VALUES", "MIN_SHARE", "SNR_PLAUSIBLE_DB",
             "LOOKS_LIKE_SHARE"]
+# the files users have: date orders (sniff)
+__all__ += ["infer_date_order", "DATE_ORDERS"]

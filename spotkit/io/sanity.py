@@ -173,7 +173,8 @@ def _drift(cells, layout) -> tuple[np.ndarray, str]:
 
 def _time(cells, layout) -> tuple[np.ndarray, str]:
     unit = layout.units["time"]
-    _, status = _parse_times(cells.to_numpy(dtype=object), unit, layout.ingest_utc)
+    _, status = _parse_times(cells.to_numpy(dtype=object), unit, layout.ingest_utc,
+                             layout.date_order)
     ok = status == 0
     hint = None
     if unit.startswith("epoch"):
@@ -189,8 +190,10 @@ def _time(cells, layout) -> tuple[np.ndarray, str]:
         hint = ("most times are more than a day after now: check the year, the date "
                 "column (--map time=DATE+TIME) or the clock of the station that wrote them")
     if hint is None:
-        hint = ("times must be ISO 8601 text (2024-03-01 10:00) or epoch seconds or "
-                "milliseconds (--unit time=iso|epoch-s|epoch-ms); check --map time=COLUMN")
+        hint = ("times must be ISO 8601 text (2024-03-01 10:00), a date with its order "
+                "given by --date-order dmy|mdy|ymd (02.03.2026 10:00), or epoch seconds or "
+                "milliseconds (--unit time=iso|epoch-s|epoch-ms); a date and a clock in "
+                "two columns: --map time=DATE+TIME; check --map time=COLUMN")
     return ok, hint
 
 
