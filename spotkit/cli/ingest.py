@@ -29,7 +29,8 @@ def add_ingest(sub) -> None:
         "a header, plain or gzip), set aside unusable rows with a reason, add distance, "
         "bearings and band, and write the canonical table as Parquet.",
     )
-    p.add_argument("files", nargs="+", metavar="FILE", help="spot CSV files (.csv, .csv.gz)")
+    p.add_argument("files", nargs="+", metavar="FILE", help="spot CSV files (.csv, .csv.gz) "
+                   "or spreadsheets (.xlsx, .ods: the first sheet; extra sheets)")
     p.add_argument("-o", "--output", metavar="OUT.parquet",
                    help="Parquet file to write (or give --dataset)")
     p.add_argument("--rejects", metavar="REJECTS.csv", help="write set-aside rows here "

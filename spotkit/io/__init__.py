@@ -62,6 +62,7 @@ from spotkit.io.sanity import (
     check_columns,
     column_problems,
 )
+from spotkit.io.sheets import SHEET_ENGINES, is_spreadsheet, sheet_to_text
 from spotkit.io.sniff import (
     DATE_ORDERS,
     DELIMITERS,
@@ -114,3 +115,5 @@ __all__ += ["check_columns", "column_problems", "MIN_VALUES", "MIN_SHARE", "SNR_
             "LOOKS_LIKE_SHARE"]
 # the files users have: date orders (sniff)
 __all__ += ["infer_date_order", "DATE_ORDERS"]
+# spreadsheets (sheets)
+__all__ += ["SHEET_ENGINES", "is_spreadsheet", "sheet_to_text"]

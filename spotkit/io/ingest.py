@@ -87,11 +87,12 @@ import pandas as pd
 
 from spotkit import columns as C
 from spotkit.bands import BAND_ORDER, REGIONS
-from spotkit.errors import InputError, MostlyRejectedError, UsageError
+from spotkit.errors import InputError, MostlyRejectedError, SpotkitError, UsageError
 from spotkit.io import clean, csvread
 from spotkit.io.dedupe import DayKeys, SeenKeys, report_hashes
 from spotkit.io.pathcache import PathCache
 from spotkit.io.sanity import check_columns
+from spotkit.io.sheets import is_spreadsheet, sheet_to_text
 from spotkit.io.sniff import (
     _CLI_NAME,
     DateOrder,
@@ -471,8 +472,40 @@ def _iter_chunk_columns(paths, *, mapping, units, delimiter, header, slot_minute
     delimiter = _delimiter_arg(delimiter)
     paths = _as_paths(paths)
     summary = summary if summary is not None else IngestSummary()
-    layouts = [_prepare_layout(p, mapping, units, delimiter, header, constants, date_order)
-               for p in paths]
+    temp = contextlib.ExitStack()
+    try:
+        layouts = [_prepare_file(p, mapping, units, delimiter, header, constants, date_order,
+                                 temp) for p in paths]
+    except BaseException:
+        temp.close()
+        raise
+    with temp:
+        yield from _read_layouts(layouts, summary, region, slot_minutes, chunk_rows, progress,
+                                 dedupe_window_days, trace_duplicates)
+
+
+def _prepare_file(path: Path, mapping, units, delimiter, header, constants, date_order,
+                  temp: contextlib.ExitStack):
+    """The layout of one file; a spreadsheet is first written as text into a temporary
+    folder kept by ``temp`` (:mod:`spotkit.io.sheets`), its layout named after the
+    spreadsheet."""
+    if not is_spreadsheet(path):
+        return _prepare_layout(path, mapping, units, delimiter, header, constants, date_order)
+    import tempfile
+
+    folder = Path(temp.enter_context(tempfile.TemporaryDirectory(prefix="spotkit-sheet-")))
+    text = sheet_to_text(path, folder / (path.name + ".txt"))
+    try:
+        layout = _prepare_layout(text, mapping, units, "tab" if delimiter == "auto"
+                                 else delimiter, header, constants, date_order)
+    except SpotkitError as exc:  # messages name the spreadsheet, not the temporary file
+        raise type(exc)(str(exc).replace(str(text), str(path))) from None
+    layout.name = str(path)
+    return layout
+
+
+def _read_layouts(layouts, summary, region, slot_minutes, chunk_rows, progress,
+                  dedupe_window_days, trace_duplicates):
     for layout in layouts:
         clean.check_constants(layout)  # --set values checked as cells (usage errors)
         check_columns(layout)  # column sanity before rows (spotkit.io.sanity)
