@@ -159,24 +159,27 @@ def time_formats(date_order: str | None) -> list[str]:
 
 
 def _parse_clock_texts(s: pd.Series, date_order: str | None) -> pd.Series:
-    """Text times -> UTC timestamps (NaT where unparseable): ISO 8601 first, then each
-    explicit format of :func:`time_formats` on the texts still unparsed (vectorised:
-    one :func:`pandas.to_datetime` call per format, on the distinct texts)."""
-    compact = s.str.match(r"^\S+[ T]\d{4}(\d{2})?$")
+    """Text times -> UTC timestamps (NaT where unparseable): ISO 8601 always, then, on the
+    texts still unparsed only, each explicit format of :func:`time_formats` (vectorised:
+    one :func:`pandas.to_datetime` call per format, on the distinct texts; compact HHMMSS /
+    HHMM clocks are first given their colons)."""
+    parsed = pd.to_datetime(s, format="ISO8601", utc=True, errors="coerce").dt.as_unit("ns")
+    todo = parsed.isna() & s.notna()
+    if not todo.any():
+        return parsed
+    rest = s[todo]
+    compact = rest.str.match(r"^\S+[ T]\d{4}(\d{2})?$")
     if compact.any():  # HHMMSS / HHMM after the date: written with colons
-        s = s.where(~compact, s.str.replace(r"(\d{2})(\d{2})(\d{2})$", r"\1:\2:\3", regex=True)
-                    .str.replace(r"([ T])(\d{2})(\d{2})$", r"\1\2:\3", regex=True))
-    parsed = pd.to_datetime(s, format="ISO8601", utc=True, errors="coerce") \
-        if date_order in (None, "ymd") else pd.Series(pd.NaT, index=s.index,
-                                                     dtype="datetime64[ns, UTC]")
+        rest = rest.where(~compact, rest.str.replace(
+            r"(\d{2})(\d{2})(\d{2})$", r"\1:\2:\3", regex=True).str.replace(
+            r"([ T])(\d{2})(\d{2})$", r"\1\2:\3", regex=True))
     for fmt in time_formats(date_order):
-        todo = parsed.isna() & s.notna()
-        if not todo.any():
-            break
-        got = pd.to_datetime(s[todo], format=fmt, utc=True, errors="coerce").dropna()
+        got = pd.to_datetime(rest, format=fmt, utc=True, errors="coerce").dropna()
         if len(got):
-            parsed = parsed.dt.as_unit("ns")
             parsed.loc[got.index] = got.dt.as_unit("ns")
+            rest = rest.drop(got.index)
+            if rest.empty:
+                break
     return parsed
 
 

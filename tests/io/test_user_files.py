@@ -153,3 +153,27 @@ def test_constant_power_without_a_unit_that_shows_is_a_usage_error(tmp_path):
         read_spots(_write(tmp_path, LOG), constants={**RX, "power": "75"},
                    mapping={"snr": "snr", "frequency": "freq", "time": "day+utc",
                             "tx_call": "call", "tx_locator": "grid", "drift": "drift"})
+
+
+def test_iso_dates_are_read_whatever_the_order_given(tmp_path):
+    path = _write(tmp_path, _dated(["2026-03-14"] * 3), "iso.csv")
+    for order in ("dmy", "mdy", "ymd", None):
+        res = read_spots(path, date_order=order)
+        assert res.summary.accepted == 3, order
+
+
+def test_compact_clock_after_an_iso_date(tmp_path):
+    text = LOG.replace("02.03.2026", "2026-03-02").replace("14.03.2026", "2026-03-14")
+    res = read_spots(_write(tmp_path, text), constants=RX)
+    assert res.spots[C.TIME].tolist() == [pd.Timestamp(t, tz="UTC") for t in LOG_TIMES]
+
+
+@pytest.mark.parametrize("extra, message", [
+    (["--map", "date=day"], "--map date=COLUMN needs --map time=COLUMN"),
+    (["--set", "rx_call=Q9ZZ", "--set", "rx_call=Q8ZZ"], "only once in --set"),
+    (["--date-order", "dym"], "invalid choice"),
+])
+def test_cli_usage_errors_of_the_new_options(tmp_path, capsys, extra, message):
+    src = _write(tmp_path, LOG)
+    assert main(["ingest", str(src), "-o", str(tmp_path / "o.parquet"), *extra]) == 2
+    assert message in capsys.readouterr().err
