@@ -3,7 +3,8 @@
 Model
 -----
 A spot file is a delimited text table (comma, semicolon, tab or runs of blanks), with or
-without a heading line, UTF-8 (with or without byte-order mark) or Latin-1, plain or gzip.
+without a heading line, UTF-8 (with or without byte-order mark) or Latin-1, plain or gzip,
+or the first sheet of a spreadsheet (``.xlsx``, ``.ods``; :mod:`spotkit.io.sheets`).
 Each data row is one report. The reader
 
 1. sniffs the layout from the first lines (encoding, delimiter, heading line, decimal comma;
@@ -14,8 +15,11 @@ Each data row is one report. The reader
    by column from its content (see :func:`spotkit.io.sniff.infer_columns`);
 3. infers units not given (time ISO 8601 text or epoch seconds; frequency Hz, kHz or MHz from
    which unit puts the values into amateur bands; power dBm, W or mW, see
-   :func:`spotkit.io.sniff.infer_power_unit`) from the first :data:`SAMPLE_ROWS` rows, and
-   refuses when that is ambiguous;
+   :func:`spotkit.io.sniff.infer_power_unit`; the order of day and month in dates that are
+   not ISO 8601, :func:`spotkit.io.sniff.infer_date_order`) from the first
+   :data:`SAMPLE_ROWS` rows, and refuses when that is ambiguous; fields the file does not
+   carry may be given one value for all rows (``constants``); a date and a clock in two
+   columns are joined (compact ``HHMMSS`` / ``HHMM`` clocks included);
 4. validates every row; a row with any unusable field goes to the rejects table
    (:data:`spotkit.columns.REJECT_COLUMNS`) with the first failing field and a plain reason;
 5. snaps each time to the start of its slot (``slot_minutes``, default 2: slots start at even

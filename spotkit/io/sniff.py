@@ -11,7 +11,10 @@ first line holds headings, which column holds which glossary field (an explicit 
 wins; headings are matched by generic words, :func:`match_headings`; files without headings
 are classified by content, :func:`infer_columns`) and the units not given
 (:func:`infer_frequency_unit`, :func:`infer_power_unit`; times ISO 8601 text or epoch
-seconds or milliseconds, told apart by magnitude). The result is a layout that
+seconds or milliseconds, told apart by magnitude; dates that are not ISO 8601 day-first or
+month-first by :func:`infer_date_order`; a date column next to a clock column joined,
+:func:`_join_date_and_clock`) and the fields set to one value for all rows
+(``constants``), for which no column is sought. The result is a layout that
 :mod:`spotkit.io.ingest` reads the whole file with.
 
 Numbers: besides plain decimal numbers, cells may use the Unicode minus sign (U+2212) and
