@@ -57,10 +57,12 @@ from spotkit.io.manifest import (
 from spotkit.io.sanity import (
     LOOKS_LIKE_SHARE,
     MIN_SHARE,
+    MIN_UNIT_VALUES,
     MIN_VALUES,
     SNR_PLAUSIBLE_DB,
     check_columns,
     column_problems,
+    unit_hint,
 )
 from spotkit.io.sheets import SHEET_ENGINES, is_spreadsheet, sheet_to_text
 from spotkit.io.sniff import (
@@ -117,3 +119,5 @@ __all__ += ["check_columns", "column_problems", "MIN_VALUES", "MIN_SHARE", "SNR_
 __all__ += ["infer_date_order", "DATE_ORDERS"]
 # spreadsheets (sheets)
 __all__ += ["SHEET_ENGINES", "is_spreadsheet", "sheet_to_text"]
+# units that do not fit (sanity)
+__all__ += ["unit_hint", "MIN_UNIT_VALUES"]
