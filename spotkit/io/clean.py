@@ -158,15 +158,23 @@ def time_formats(date_order: str | None) -> list[str]:
             for sep in ((" ", "T") if d == "%Y-%m-%d" else (" ",))]
 
 
-def _parse_clock_texts(s: pd.Series, date_order: str | None) -> pd.Series:
-    """Text times -> UTC timestamps (NaT where unparseable): ISO 8601 always, then, on the
-    texts still unparsed only, each explicit format of :func:`time_formats` (vectorised:
-    one :func:`pandas.to_datetime` call per format, on the distinct texts; compact HHMMSS /
-    HHMM clocks are first given their colons)."""
-    parsed = pd.to_datetime(s, format="ISO8601", utc=True, errors="coerce").dt.as_unit("ns")
-    todo = parsed.isna() & s.notna()
+def _in_range_ns(t: pd.Series) -> tuple[pd.Series, pd.Series]:
+    """(``t`` in ns with the times outside :data:`TIME_RANGE` as NaT, which those were);
+    the range is checked before the cast, which years such as 0001 would overflow."""
+    bad = t.notna() & ((t < TIME_RANGE[0]) | (t >= TIME_RANGE[1]))
+    return t.where(~bad).dt.as_unit("ns"), bad
+
+
+def _parse_clock_texts(s: pd.Series, date_order: str | None) -> tuple[pd.Series, pd.Series]:
+    """Text times -> (UTC timestamps in ns, NaT where unparseable or out of range; which
+    were out of range): ISO 8601 always, then, on the texts still unparsed only, each
+    explicit format of :func:`time_formats` (vectorised: one :func:`pandas.to_datetime`
+    call per format, on the distinct texts; compact HHMMSS / HHMM clocks are first given
+    their colons)."""
+    parsed, bad = _in_range_ns(pd.to_datetime(s, format="ISO8601", utc=True, errors="coerce"))
+    todo = parsed.isna() & ~bad & s.notna()
     if not todo.any():
-        return parsed
+        return parsed, bad
     rest = s[todo]
     compact = rest.str.match(r"^\S+[ T]\d{4}(\d{2})?$")
     if compact.any():  # HHMMSS / HHMM after the date: written with colons
@@ -176,11 +184,13 @@ def _parse_clock_texts(s: pd.Series, date_order: str | None) -> pd.Series:
     for fmt in time_formats(date_order):
         got = pd.to_datetime(rest, format=fmt, utc=True, errors="coerce").dropna()
         if len(got):
-            parsed.loc[got.index] = got.dt.as_unit("ns")
+            ok, out = _in_range_ns(got)
+            parsed.loc[ok.index[ok.notna()]] = ok.dropna()
+            bad.loc[out.index[out]] = True
             rest = rest.drop(got.index)
             if rest.empty:
                 break
-    return parsed
+    return parsed, bad
 
 
 def _parse_times(texts: np.ndarray, unit: str, now: pd.Timestamp | None = None,
@@ -198,11 +208,9 @@ def _parse_times(texts: np.ndarray, unit: str, now: pd.Timestamp | None = None,
         ok = count.where(~bad_range)
         parsed = pd.to_datetime(ok, unit="ms" if unit == "epoch-ms" else "s", utc=True)
     else:
-        parsed = _parse_clock_texts(s, date_order)
-        unparsed = parsed.isna().to_numpy()
-        bad_range = (parsed.notna() & ((parsed < TIME_RANGE[0]) | (parsed >= TIME_RANGE[1]))
-                     ).to_numpy()
-        parsed = parsed.where(~bad_range)
+        parsed, bad = _parse_clock_texts(s, date_order)
+        bad_range = bad.to_numpy()
+        unparsed = parsed.isna().to_numpy() & ~bad_range
     ns = parsed.dt.as_unit("ns").dt.tz_localize(None).to_numpy().view("i8").copy()
     status = np.where(unparsed, 2, np.where(bad_range, 3, 0)).astype(np.int8)
     if now is not None:

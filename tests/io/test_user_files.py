@@ -177,3 +177,11 @@ def test_cli_usage_errors_of_the_new_options(tmp_path, capsys, extra, message):
     src = _write(tmp_path, LOG)
     assert main(["ingest", str(src), "-o", str(tmp_path / "o.parquet"), *extra]) == 2
     assert message in capsys.readouterr().err
+
+
+def test_day_first_dates_out_of_range_are_told_apart_from_unparseable(tmp_path):
+    # 01.01.1980 parses (day-first) but is before 1990; 31.02.2026 is no date
+    path = _write(tmp_path, _dated(["14.03.2026", "01.01.1980", "31.02.2026"]), "r.csv")
+    res = read_spots(path)
+    assert res.rejects[C.REJECT_REASON].tolist() == [
+        "time out of range (before 1990 or from 2100)", "unparseable time"]
