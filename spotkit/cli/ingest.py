@@ -41,7 +41,9 @@ def add_ingest(sub) -> None:
                    "aside more than this share of a file's rows, as 0.5 or 50%% (default "
                    "50%%; 100%% still refuses a run that accepts no row)")
     p.add_argument("--map", action="append", type=key_value, default=[],
-                   metavar="FIELD=COLUMN", help="say which column holds FIELD")
+                   metavar="FIELD=COLUMN", help="say which column holds FIELD (heading or "
+                   "1-based position); a date and a clock in two columns: time=DATE+TIME, "
+                   "or date=COLUMN with time=COLUMN")
     p.add_argument("--unit", action="append", type=key_value, default=[],
                    metavar="FIELD=UNIT", help="say the unit of FIELD (iso, epoch, Hz, kHz, "
                    "MHz, dBm, W, mW)")
