@@ -29,7 +29,8 @@ def add_ingest(sub) -> None:
         "a header, plain or gzip), set aside unusable rows with a reason, add distance, "
         "bearings and band, and write the canonical table as Parquet.",
     )
-    p.add_argument("files", nargs="+", metavar="FILE", help="spot CSV files (.csv, .csv.gz)")
+    p.add_argument("files", nargs="+", metavar="FILE", help="spot CSV files (.csv, .csv.gz) "
+                   "or spreadsheets (.xlsx, .ods: the first sheet; extra sheets)")
     p.add_argument("-o", "--output", metavar="OUT.parquet",
                    help="Parquet file to write (or give --dataset)")
     p.add_argument("--rejects", metavar="REJECTS.csv", help="write set-aside rows here "
@@ -40,10 +41,19 @@ def add_ingest(sub) -> None:
                    "aside more than this share of a file's rows, as 0.5 or 50%% (default "
                    "50%%; 100%% still refuses a run that accepts no row)")
     p.add_argument("--map", action="append", type=key_value, default=[],
-                   metavar="FIELD=COLUMN", help="say which column holds FIELD")
+                   metavar="FIELD=COLUMN", help="say which column holds FIELD (heading or "
+                   "1-based position); a date and a clock in two columns: time=DATE+TIME, "
+                   "or date=COLUMN with time=COLUMN")
     p.add_argument("--unit", action="append", type=key_value, default=[],
                    metavar="FIELD=UNIT", help="say the unit of FIELD (iso, epoch, Hz, kHz, "
                    "MHz, dBm, W, mW)")
+    p.add_argument("--set", action="append", type=key_value, default=[], dest="constants",
+                   metavar="FIELD=VALUE", help="one value of FIELD for every row, for a "
+                   "field the file does not carry (e.g. --set rx_call=Q1ABC --set "
+                   "rx_locator=JO62qm for a receiver's own decode log); checked like a cell")
+    p.add_argument("--date-order", choices=["dmy", "mdy", "ymd"], default=None,
+                   help="order of day, month and year in dates that are not ISO 8601 "
+                   "(default: from the data where a day above 12 shows it)")
     p.add_argument("--delimiter", default="auto", help="auto, ',', ';', tab or space")
     p.add_argument("--region", default="all", choices=["1", "2", "3", "all"],
                    help="IARU region whose band plan applies (default: union of all)")
@@ -93,12 +103,28 @@ def cmd_ingest(args) -> int:
 
 def _reading_options(args) -> dict:
     """The keyword arguments both branches pass on about reading the CSV files."""
-    mapping, units = dict(args.map), dict(args.unit)
-    if len(mapping) != len(args.map) or len(units) != len(args.unit):
+    mapping, units = _time_parts(args.map), dict(args.unit)
+    constants = dict(args.constants)
+    if len(mapping) + ("date" in dict(args.map)) != len(args.map) \
+            or len(units) != len(args.unit):
         raise UsageError("each FIELD may be given only once in --map / --unit")
+    if len(constants) != len(args.constants):
+        raise UsageError("each FIELD may be given only once in --set")
     header = {"auto": "auto", "yes": True, "no": False}[args.header]
     return dict(mapping=mapping, units=units, delimiter=args.delimiter, header=header,
-                slot_minutes=args.slot_minutes, region=args.region)
+                slot_minutes=args.slot_minutes, region=args.region, constants=constants,
+                date_order=args.date_order)
+
+
+def _time_parts(pairs: list) -> dict:
+    """``--map`` pairs as a mapping; ``--map date=D --map time=T`` as ``time=D+T``."""
+    mapping = dict(pairs)
+    if "date" in mapping:
+        if "time" not in mapping:
+            raise UsageError("--map date=COLUMN needs --map time=COLUMN (the clock column) "
+                             "too")
+        mapping["time"] = f"{mapping.pop('date')}+{mapping['time']}"
+    return mapping
 
 
 def _ingest_to_file(args) -> int:

@@ -57,18 +57,23 @@ from spotkit.io.manifest import (
 from spotkit.io.sanity import (
     LOOKS_LIKE_SHARE,
     MIN_SHARE,
+    MIN_UNIT_VALUES,
     MIN_VALUES,
     SNR_PLAUSIBLE_DB,
     check_columns,
     column_problems,
+    unit_hint,
 )
+from spotkit.io.sheets import SHEET_ENGINES, is_spreadsheet, sheet_to_text
 from spotkit.io.sniff import (
+    DATE_ORDERS,
     DELIMITERS,
     MAX_WATTS,
     SAMPLE_ROWS,
     TIME_UNITS,
     UNIT_CHOICES,
     infer_columns,
+    infer_date_order,
     infer_frequency_unit,
     infer_power_unit,
     match_headings,
@@ -110,3 +115,9 @@ __all__ += [
 ]
 __all__ += ["check_columns", "column_problems", "MIN_VALUES", "MIN_SHARE", "SNR_PLAUSIBLE_DB",
             "LOOKS_LIKE_SHARE"]
+# the files users have: date orders (sniff)
+__all__ += ["infer_date_order", "DATE_ORDERS"]
+# spreadsheets (sheets)
+__all__ += ["SHEET_ENGINES", "is_spreadsheet", "sheet_to_text"]
+# units that do not fit (sanity)
+__all__ += ["unit_hint", "MIN_UNIT_VALUES"]

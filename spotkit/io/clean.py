@@ -26,6 +26,7 @@ import pandas as pd
 
 from spotkit import columns as C
 from spotkit.bands import BAND_ORDER, band_plan
+from spotkit.errors import UsageError
 from spotkit.geo.locator import normalize_locator
 from spotkit.io.csvread import TextChunk, TextColumn
 from spotkit.io.dedupe import hash_values
@@ -134,10 +135,69 @@ def _time_codes(cols: list[TextColumn]) -> tuple[np.ndarray, np.ndarray]:
     return codes, texts
 
 
-def _parse_times(texts: np.ndarray, unit: str, now: pd.Timestamp | None = None
-                 ) -> tuple[np.ndarray, np.ndarray]:
+#: Clock formats understood after a date (blank or ``T`` between); the compact HHMMSS and
+#: HHMM of decode logs are given their colons first (exactly 6 or 4 digits).
+CLOCK_FORMATS = ("%H:%M:%S", "%H:%M", "%H:%M:%S.%f")
+_DATE_FORMATS = {"dmy": ("%d.%m.%Y", "%d/%m/%Y", "%d-%m-%Y"),
+                 "mdy": ("%m/%d/%Y", "%m-%d-%Y", "%m.%d.%Y"),
+                 "ymd": ("%Y-%m-%d", "%Y/%m/%d", "%Y.%m.%d")}
+
+
+def time_formats(date_order: str | None) -> list[str]:
+    """The explicit date-and-clock formats tried (after ISO 8601) for a date order.
+
+    Examples
+    --------
+    >>> time_formats("dmy")[:2]
+    ['%d.%m.%Y %H:%M:%S', '%d.%m.%Y %H:%M']
+    >>> len(time_formats(None)), len(time_formats("mdy"))
+    (6, 9)
+    """
+    dates = _DATE_FORMATS[date_order] if date_order else _DATE_FORMATS["ymd"][:1]
+    return [f"{d}{sep}{c}" for d in dates for c in CLOCK_FORMATS
+            for sep in ((" ", "T") if d == "%Y-%m-%d" else (" ",))]
+
+
+def _in_range_ns(t: pd.Series) -> tuple[pd.Series, pd.Series]:
+    """(``t`` in ns with the times outside :data:`TIME_RANGE` as NaT, which those were);
+    the range is checked before the cast, which years such as 0001 would overflow."""
+    bad = t.notna() & ((t < TIME_RANGE[0]) | (t >= TIME_RANGE[1]))
+    return t.where(~bad).dt.as_unit("ns"), bad
+
+
+def _parse_clock_texts(s: pd.Series, date_order: str | None) -> tuple[pd.Series, pd.Series]:
+    """Text times -> (UTC timestamps in ns, NaT where unparseable or out of range; which
+    were out of range): ISO 8601 always, then, on the texts still unparsed only, each
+    explicit format of :func:`time_formats` (vectorised: one :func:`pandas.to_datetime`
+    call per format, on the distinct texts; compact HHMMSS / HHMM clocks are first given
+    their colons)."""
+    parsed, bad = _in_range_ns(pd.to_datetime(s, format="ISO8601", utc=True, errors="coerce"))
+    todo = parsed.isna() & ~bad & s.notna()
+    if not todo.any():
+        return parsed, bad
+    rest = s[todo]
+    compact = rest.str.match(r"^\S+[ T]\d{4}(\d{2})?$")
+    if compact.any():  # HHMMSS / HHMM after the date: written with colons
+        rest = rest.where(~compact, rest.str.replace(
+            r"(\d{2})(\d{2})(\d{2})$", r"\1:\2:\3", regex=True).str.replace(
+            r"([ T])(\d{2})(\d{2})$", r"\1\2:\3", regex=True))
+    for fmt in time_formats(date_order):
+        got = pd.to_datetime(rest, format=fmt, utc=True, errors="coerce").dropna()
+        if len(got):
+            ok, out = _in_range_ns(got)
+            parsed.loc[ok.index[ok.notna()]] = ok.dropna()
+            bad.loc[out.index[out]] = True
+            rest = rest.drop(got.index)
+            if rest.empty:
+                break
+    return parsed, bad
+
+
+def _parse_times(texts: np.ndarray, unit: str, now: pd.Timestamp | None = None,
+                 date_order: str | None = None) -> tuple[np.ndarray, np.ndarray]:
     """Distinct time texts -> (int64 ns since 1970 UTC, status: 0 ok, 2 unparseable,
-    3 out of range, 4 later than ``now`` plus :data:`FUTURE_SLACK`)."""
+    3 out of range, 4 later than ``now`` plus :data:`FUTURE_SLACK`). ``date_order``:
+    None for ISO 8601 dates, else one of :data:`spotkit.io.sniff.DATE_ORDERS`."""
     s = pd.Series(texts, dtype="str").str.strip()
     lo, hi = (t.value // 10**9 for t in TIME_RANGE)
     if unit.startswith("epoch"):
@@ -148,11 +208,9 @@ def _parse_times(texts: np.ndarray, unit: str, now: pd.Timestamp | None = None
         ok = count.where(~bad_range)
         parsed = pd.to_datetime(ok, unit="ms" if unit == "epoch-ms" else "s", utc=True)
     else:
-        parsed = pd.to_datetime(s, format="ISO8601", utc=True, errors="coerce")
-        unparsed = parsed.isna().to_numpy()
-        bad_range = (parsed.notna() & ((parsed < TIME_RANGE[0]) | (parsed >= TIME_RANGE[1]))
-                     ).to_numpy()
-        parsed = parsed.where(~bad_range)
+        parsed, bad = _parse_clock_texts(s, date_order)
+        bad_range = bad.to_numpy()
+        unparsed = parsed.isna().to_numpy() & ~bad_range
     ns = parsed.dt.as_unit("ns").dt.tz_localize(None).to_numpy().view("i8").copy()
     status = np.where(unparsed, 2, np.where(bad_range, 3, 0)).astype(np.int8)
     if now is not None:
@@ -257,11 +315,15 @@ def clean_chunk(raw: TextChunk, layout: _Layout, rows: np.ndarray, region: str,
         distinct = new_distinct()
     n = raw.n
     col = {f: [raw.columns[i] for i in pos] for f, pos in layout.fields.items()}
+    for f, value in layout.constants.items():  # one value for all rows (--set)
+        col[f] = [TextColumn(np.zeros(n, dtype=np.int32), np.array([value], dtype=object),
+                             has_empty=False)]
     checks = []  # (field, status per row (0 ok), reasons by status), in order of checking
     keys = {}  # report-key field -> (codes per row or None, values or their hashes)
 
     t_codes, t_texts = _time_codes(col[C.TIME])
-    t_ns, t_status = _parse_times(t_texts, layout.units["time"], layout.ingest_utc)
+    t_ns, t_status = _parse_times(t_texts, layout.units["time"], layout.ingest_utc,
+                                  layout.date_order)
     checks.append((C.TIME, _status_rows(t_status, col[C.TIME][0] if len(col[C.TIME]) == 1
                                         else TextColumn(t_codes, t_texts), 1), _TIME_REASONS))
     slot_ns = np.int64(slot_minutes) * 60 * 10**9
@@ -371,6 +433,44 @@ def _rejects(raw: TextChunk, layout: _Layout, rows, bad, checks, col) -> pd.Data
         C.REJECT_VALUE: value,
         C.REJECT_REASON: reason,
     }, index=pd.RangeIndex(idx.size))
+
+
+def check_constants(layout: _Layout) -> None:
+    """Check the values given for whole fields (``--set FIELD=VALUE``) as a cell of that
+    field would be checked (units from ``layout.units``).
+
+    Raises
+    ------
+    UsageError
+        Naming the option and why the value is not usable (a bad locator or call, a
+        frequency outside the amateur bands, an SNR or power out of range).
+    """
+    for f, value in layout.constants.items():
+        one = TextColumn(np.zeros(1, dtype=np.int32), np.array([value], dtype=object),
+                         has_empty=False)
+        if f in (C.TX_CALL, C.RX_CALL):
+            ok, what = _norm_calls(np.array([value], dtype=object))[0] is not None, \
+                "not a callsign (letters and digits, e.g. Q1ABC)"
+        elif f in (C.TX_LOCATOR, C.RX_LOCATOR):
+            ok, what = normalize_locator(np.array([value], dtype=object))[0] is not None, \
+                "not a Maidenhead locator (2 to 10 characters, e.g. JO62qm)"
+        elif f == C.FREQ:
+            v, st = _parse_numbers(one, layout.decimal, None, None, lambda x: frequency_to_hz(
+                x, layout.units["frequency"]))
+            ok = st[0] == 0 and _band_codes(v, "all")[0] >= 0
+            what = f"not a frequency in an amateur band (unit {layout.units['frequency']})"
+        elif f == C.SNR:
+            ok = _parse_numbers(one, layout.decimal, *SNR_RANGE_DB)[1][0] == 0
+            what = "not an SNR in -60..+60 dB"
+        elif f == C.POWER:
+            ok = _parse_numbers(one, layout.decimal, *POWER_RANGE_DBM, lambda x: power_to_dbm(
+                x, layout.units["power"]))[1][0] == 0
+            what = f"not a power in 0..60 dBm (unit {layout.units['power']})"
+        else:
+            ok = _parse_numbers(one, layout.decimal, None, None)[1][0] == 0
+            what = "not a number"
+        if not ok:
+            raise UsageError(f"--set {_CLI_NAME[f]}={value}: {what}")
 
 
 # --- drivers -------------------------------------------------------------------------------------

@@ -3,7 +3,8 @@
 Model
 -----
 A spot file is a delimited text table (comma, semicolon, tab or runs of blanks), with or
-without a heading line, UTF-8 (with or without byte-order mark) or Latin-1, plain or gzip.
+without a heading line, UTF-8 (with or without byte-order mark) or Latin-1, plain or gzip,
+or the first sheet of a spreadsheet (``.xlsx``, ``.ods``; :mod:`spotkit.io.sheets`).
 Each data row is one report. The reader
 
 1. sniffs the layout from the first lines (encoding, delimiter, heading line, decimal comma;
@@ -14,8 +15,11 @@ Each data row is one report. The reader
    by column from its content (see :func:`spotkit.io.sniff.infer_columns`);
 3. infers units not given (time ISO 8601 text or epoch seconds; frequency Hz, kHz or MHz from
    which unit puts the values into amateur bands; power dBm, W or mW, see
-   :func:`spotkit.io.sniff.infer_power_unit`) from the first :data:`SAMPLE_ROWS` rows, and
-   refuses when that is ambiguous;
+   :func:`spotkit.io.sniff.infer_power_unit`; the order of day and month in dates that are
+   not ISO 8601, :func:`spotkit.io.sniff.infer_date_order`) from the first
+   :data:`SAMPLE_ROWS` rows, and refuses when that is ambiguous; fields the file does not
+   carry may be given one value for all rows (``constants``); a date and a clock in two
+   columns are joined (compact ``HHMMSS`` / ``HHMM`` clocks included);
 4. validates every row; a row with any unusable field goes to the rejects table
    (:data:`spotkit.columns.REJECT_COLUMNS`) with the first failing field and a plain reason;
 5. snaps each time to the start of its slot (``slot_minutes``, default 2: slots start at even
@@ -87,15 +91,19 @@ import pandas as pd
 
 from spotkit import columns as C
 from spotkit.bands import BAND_ORDER, REGIONS
-from spotkit.errors import InputError, MostlyRejectedError, UsageError
+from spotkit.errors import InputError, MostlyRejectedError, SpotkitError, UsageError
 from spotkit.io import clean, csvread
 from spotkit.io.dedupe import DayKeys, SeenKeys, report_hashes
 from spotkit.io.pathcache import PathCache
 from spotkit.io.sanity import check_columns
+from spotkit.io.sheets import is_spreadsheet, sheet_to_text
 from spotkit.io.sniff import (
     _CLI_NAME,
+    DateOrder,
     Delimiter,
     Header,
+    _check_constants,
+    _check_date_order,
     _check_mapping,
     _check_units,
     _delimiter_arg,
@@ -416,7 +424,8 @@ def iter_spot_chunks(paths, *, mapping=None, units=None, delimiter: Delimiter = 
                      header: Header = "auto", slot_minutes: int = C.SLOT_MINUTES,
                      region="all", chunk_rows: int | None = 500_000, progress: bool = False,
                      summary: IngestSummary | None = None,
-                     dedupe_window_days: int | None = None
+                     dedupe_window_days: int | None = None, constants=None,
+                     date_order: DateOrder | None = None
                      ) -> Iterator[tuple[pd.DataFrame, pd.DataFrame]]:
     """Read spot files chunk by chunk; yield (spots, rejects) per chunk.
 
@@ -447,13 +456,14 @@ def iter_spot_chunks(paths, *, mapping=None, units=None, delimiter: Delimiter = 
     for cols, rejects in _iter_chunk_columns(
             paths, mapping=mapping, units=units, delimiter=delimiter, header=header,
             slot_minutes=slot_minutes, region=region, chunk_rows=chunk_rows,
-            progress=progress, summary=summary, dedupe_window_days=dedupe_window_days):
+            progress=progress, summary=summary, dedupe_window_days=dedupe_window_days,
+            constants=constants, date_order=date_order):
         yield _frame(cols), rejects
 
 
 def _iter_chunk_columns(paths, *, mapping, units, delimiter, header, slot_minutes, region,
                         chunk_rows, progress, summary, dedupe_window_days=None,
-                        trace_duplicates=False):
+                        trace_duplicates=False, constants=None, date_order=None):
     """As :func:`iter_spot_chunks`, yielding the spots as a dict of columns (times as int64
     ns; None for no spots) for :func:`_frame` or :func:`_table`. ``trace_duplicates``: the
     removed duplicates are among the rejects too, reason :data:`DUPLICATE_REASON`, value
@@ -461,11 +471,47 @@ def _iter_chunk_columns(paths, *, mapping, units, delimiter, header, slot_minute
     _check_args(region, slot_minutes, chunk_rows)
     mapping = _check_mapping(mapping)
     units = _check_units(units)
+    constants = _check_constants(constants, mapping)
+    date_order = _check_date_order(date_order)
     delimiter = _delimiter_arg(delimiter)
     paths = _as_paths(paths)
     summary = summary if summary is not None else IngestSummary()
-    layouts = [_prepare_layout(p, mapping, units, delimiter, header) for p in paths]
+    temp = contextlib.ExitStack()
+    try:
+        layouts = [_prepare_file(p, mapping, units, delimiter, header, constants, date_order,
+                                 temp) for p in paths]
+    except BaseException:
+        temp.close()
+        raise
+    with temp:
+        yield from _read_layouts(layouts, summary, region, slot_minutes, chunk_rows, progress,
+                                 dedupe_window_days, trace_duplicates)
+
+
+def _prepare_file(path: Path, mapping, units, delimiter, header, constants, date_order,
+                  temp: contextlib.ExitStack):
+    """The layout of one file; a spreadsheet is first written as text into a temporary
+    folder kept by ``temp`` (:mod:`spotkit.io.sheets`), its layout named after the
+    spreadsheet."""
+    if not is_spreadsheet(path):
+        return _prepare_layout(path, mapping, units, delimiter, header, constants, date_order)
+    import tempfile
+
+    folder = Path(temp.enter_context(tempfile.TemporaryDirectory(prefix="spotkit-sheet-")))
+    text = sheet_to_text(path, folder / (path.name + ".txt"))
+    try:
+        layout = _prepare_layout(text, mapping, units, "tab" if delimiter == "auto"
+                                 else delimiter, header, constants, date_order)
+    except SpotkitError as exc:  # messages name the spreadsheet, not the temporary file
+        raise type(exc)(str(exc).replace(str(text), str(path))) from None
+    layout.name = str(path)
+    return layout
+
+
+def _read_layouts(layouts, summary, region, slot_minutes, chunk_rows, progress,
+                  dedupe_window_days, trace_duplicates):
     for layout in layouts:
+        clean.check_constants(layout)  # --set values checked as cells (usage errors)
         check_columns(layout)  # column sanity before rows (spotkit.io.sanity)
     if trace_duplicates and dedupe_window_days is not None:
         raise UsageError("duplicates are traced only without a dedupe window")
@@ -627,7 +673,8 @@ def _compact_categories(cat: pd.Categorical, band: bool) -> pd.Categorical:
 def read_spots(paths, *, mapping=None, units=None, delimiter: Delimiter = "auto",
                header: Header = "auto", slot_minutes: int = C.SLOT_MINUTES, region="all",
                chunk_rows: int | None = None, progress: bool = False,
-               max_reject_share: float | None = None) -> IngestResult:
+               max_reject_share: float | None = None, constants=None,
+               date_order: DateOrder | None = None) -> IngestResult:
     """Read spot-report CSV files into the canonical table.
 
     Parameters
@@ -661,6 +708,17 @@ def read_spots(paths, *, mapping=None, units=None, delimiter: Delimiter = "auto"
         (see :func:`check_reject_share`; :data:`MAX_REJECT_SHARE` is what
         :func:`ingest_to_parquet` and ``spotkit ingest`` use). Default None: the table and
         its rejects are returned whatever their shares (the caller sees the rejects).
+    constants : dict, optional
+        Field -> one value for every row, for a field the file does not carry (a
+        receiver's own decode log has no receiver call or locator column:
+        ``{"rx_call": "Q1ABC", "rx_locator": "JO62qm"}``). Keys as in ``mapping`` (not
+        ``time``); values are checked as a cell of that field would be (a bad one raises
+        :class:`~spotkit.errors.UsageError`), numbers in the field's unit.
+    date_order : {"dmy", "mdy", "ymd"}, optional
+        Order of day, month and year in dates that are not ISO 8601 (``02.03.2026``).
+        Default: ISO dates as they are, other dates day-first or month-first as the
+        first rows show (a day above 12); when they cannot show it, an
+        :class:`~spotkit.errors.InputError` asks for this.
 
     Returns
     -------
@@ -730,7 +788,8 @@ def read_spots(paths, *, mapping=None, units=None, delimiter: Delimiter = "auto"
     for cols, r in _iter_chunk_columns(
             paths, mapping=mapping, units=units, delimiter=delimiter, header=header,
             slot_minutes=slot_minutes, region=region, chunk_rows=chunk_rows,
-            progress=progress, summary=summary, trace_duplicates=True):
+            progress=progress, summary=summary, trace_duplicates=True,
+            constants=constants, date_order=date_order):
         spots.append(_frame(cols))
         rejects.append(r)
     rej = pd.concat([r for r in rejects if len(r)] or [C.empty_rejects()], ignore_index=True)
@@ -914,7 +973,8 @@ def _write_staged(paths, tmp, rejects_tmp, summary, chunk_rows, kw) -> None:
 def _read_kw(kw: dict) -> dict:
     """Keywords of :func:`read_spots` with their defaults filled in."""
     defaults = dict(mapping=None, units=None, delimiter="auto", header="auto",
-                    slot_minutes=C.SLOT_MINUTES, region="all", progress=False)
+                    slot_minutes=C.SLOT_MINUTES, region="all", progress=False,
+                    constants=None, date_order=None)
     unknown = set(kw) - set(defaults)
     if unknown:
         raise TypeError(f"unexpected keyword(s): {', '.join(sorted(unknown))}")

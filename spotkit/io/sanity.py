@@ -52,6 +52,8 @@ from spotkit.units import (
     EPOCH_RANGE_S,
     FREQUENCY_UNITS,
     POWER_LADDER_DBM,
+    POWER_UNITS,
+    epoch_to_seconds,
     frequency_to_hz,
     power_to_dbm,
 )
@@ -65,6 +67,10 @@ MIN_SHARE = {C.TIME: 0.8, C.FREQ: 0.8, C.SNR: 0.8, C.POWER: 0.8, C.DRIFT: 0.8,
 SNR_PLAUSIBLE_DB = (-40.0, 30.0)
 #: Share of values at which a column is taken to hold another quantity.
 LOOKS_LIKE_SHARE = 0.8
+#: Fewest numbers in a small sample (under :data:`MIN_VALUES` cells) for a unit that does
+#: not fit to stop the run (:func:`unit_hint`); besides, at least half its non-empty cells
+#: must be numbers.
+MIN_UNIT_VALUES = 5
 #: Values shown in a message.
 SHOWN = 6
 
@@ -122,6 +128,61 @@ def _numbers(cells: pd.Series, decimal: str) -> np.ndarray:
     return _to_number(cells, decimal).to_numpy(dtype=float)
 
 
+def _fits(field: str, v: np.ndarray, unit: str) -> np.ndarray:
+    """Whether each number ``v`` is plausible for ``field`` read in ``unit``."""
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        if field == C.FREQ:
+            return _in_band(frequency_to_hz(v, unit))
+        if field == C.POWER:
+            dbm = power_to_dbm(v, unit)
+            return (dbm >= POWER_RANGE_DBM[0]) & (dbm <= POWER_RANGE_DBM[1])
+        secs = epoch_to_seconds(v, unit)
+        return (secs >= EPOCH_RANGE_S[0]) & (secs < EPOCH_RANGE_S[1])
+
+
+_UNIT_OPTIONS = {C.FREQ: ("frequency", FREQUENCY_UNITS), C.POWER: ("power", POWER_UNITS),
+                 C.TIME: ("time", ("epoch-s", "epoch-ms"))}
+
+
+def unit_hint(field: str, cells: pd.Series, layout: _Layout) -> tuple[float, str | None]:
+    """(share of ``cells`` plausible in the unit used, the option that would make them
+    fit): a hint when fewer than half fit and another unit makes at least
+    :data:`LOOKS_LIKE_SHARE` of them fit (kHz vs MHz vs Hz, W vs mW vs dBm, epoch
+    seconds vs milliseconds); else None.
+
+    Examples
+    --------
+    >>> from spotkit.io.sniff import _Layout
+    >>> lay = _Layout(path=None, name="f", compression=None, encoding="utf-8", sep=",",
+    ...               decimal=".", header_lines=1, headings=[],
+    ...               units={"time": "iso", "frequency": "kHz", "power": "dBm"})
+    >>> unit_hint("freq_hz", pd.Series(["14.0971", "7.0401"]), lay)
+    (0.0, 'the values fit MHz, not kHz: use --unit frequency=MHz')
+    >>> unit_hint("power_dbm", pd.Series(["5000", "200"]), lay)
+    (0.0, 'the values fit mW, not dBm: use --unit power=mW')
+    """
+    name, choices = _UNIT_OPTIONS[field]
+    unit = layout.units.get(name, "")
+    if field == C.TIME and not unit.startswith("epoch"):
+        return 1.0, None
+    v = _numbers(cells, layout.decimal if field != C.TIME else ".")
+    v = v[np.isfinite(v)]
+    if not v.size:
+        return 1.0, None
+    here = _share(_fits(field, v, unit))
+    if here >= 0.5:
+        return here, None
+    other = [u for u in choices if u != unit and not (field == C.TIME and u == "epoch")
+             and _share(_fits(field, v, u)) >= LOOKS_LIKE_SHARE]
+    if unit == "epoch":
+        unit = "epoch-s"
+        other = [u for u in other if u != "epoch-s"]
+    if not other:
+        return here, None
+    return here, (f"the values fit {' or '.join(other)}, not {unit}: use "
+                  + " or ".join(f"--unit {name}={u}" for u in other))
+
+
 def _frequency(cells, layout) -> tuple[np.ndarray, str]:
     unit = layout.units["frequency"]
     v = _numbers(cells, layout.decimal)
@@ -160,6 +221,9 @@ def _power(cells, layout) -> tuple[np.ndarray, str]:
     like = _looks_like(v[np.isfinite(v)], C.POWER)
     if like and like.startswith("frequencies"):
         ok = np.zeros(v.size, dtype=bool)
+    hint = unit_hint(C.POWER, cells, layout)[1]
+    if hint and not (like and like.startswith("frequencies")):
+        return ok, hint
     if like:
         return ok, f"this looks like {like}, not powers: check --map power=COLUMN"
     return ok, ("check which column holds the power (--map power=COLUMN) and its unit "
@@ -173,7 +237,8 @@ def _drift(cells, layout) -> tuple[np.ndarray, str]:
 
 def _time(cells, layout) -> tuple[np.ndarray, str]:
     unit = layout.units["time"]
-    _, status = _parse_times(cells.to_numpy(dtype=object), unit, layout.ingest_utc)
+    _, status = _parse_times(cells.to_numpy(dtype=object), unit, layout.ingest_utc,
+                             layout.date_order)
     ok = status == 0
     hint = None
     if unit.startswith("epoch"):
@@ -189,8 +254,10 @@ def _time(cells, layout) -> tuple[np.ndarray, str]:
         hint = ("most times are more than a day after now: check the year, the date "
                 "column (--map time=DATE+TIME) or the clock of the station that wrote them")
     if hint is None:
-        hint = ("times must be ISO 8601 text (2024-03-01 10:00) or epoch seconds or "
-                "milliseconds (--unit time=iso|epoch-s|epoch-ms); check --map time=COLUMN")
+        hint = ("times must be ISO 8601 text (2024-03-01 10:00), a date with its order "
+                "given by --date-order dmy|mdy|ymd (02.03.2026 10:00), or epoch seconds or "
+                "milliseconds (--unit time=iso|epoch-s|epoch-ms); a date and a clock in "
+                "two columns: --map time=DATE+TIME; check --map time=COLUMN")
     return ok, hint
 
 
@@ -235,7 +302,15 @@ def column_problems(layout: _Layout, sample: pd.DataFrame) -> list[str]:
             cells = _present(a[both].astype("str") + " " + b[both].astype("str"))
         else:
             cells = _present(sample.iloc[:, pos[0]])
-        if len(cells) < MIN_VALUES:
+        if len(cells) < MIN_VALUES:  # few cells: judged only for a unit that does not fit
+            nums = np.isfinite(_numbers(cells, layout.decimal if f != C.TIME else "."))
+            if f in _UNIT_OPTIONS and nums.sum() >= max(MIN_UNIT_VALUES, len(cells) / 2):
+                share, hint = unit_hint(f, cells, layout)
+                if hint:
+                    out.append(f"column {'+'.join(layout.label(i) for i in pos)} (mapped to "
+                               f"{_CLI_NAME[f]}): {100 * share:.0f} % of its {len(cells)} "
+                               f"non-empty cells fit the unit {layout.units[_UNIT_OPTIONS[f][0]]}"
+                               f"; {hint}")
             continue
         ok, hint = _CHECKS[f](cells, layout)
         share = _share(ok)
@@ -300,5 +375,5 @@ def check_columns(layout: _Layout, sample: pd.DataFrame | None = None) -> _Layou
     return layout
 
 
-__all__ = ["check_columns", "column_problems", "MIN_VALUES", "MIN_SHARE", "SNR_PLAUSIBLE_DB",
-           "LOOKS_LIKE_SHARE"]
+__all__ = ["check_columns", "column_problems", "unit_hint", "MIN_VALUES", "MIN_SHARE",
+           "SNR_PLAUSIBLE_DB", "LOOKS_LIKE_SHARE", "MIN_UNIT_VALUES"]

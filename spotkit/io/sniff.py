@@ -11,7 +11,10 @@ first line holds headings, which column holds which glossary field (an explicit 
 wins; headings are matched by generic words, :func:`match_headings`; files without headings
 are classified by content, :func:`infer_columns`) and the units not given
 (:func:`infer_frequency_unit`, :func:`infer_power_unit`; times ISO 8601 text or epoch
-seconds or milliseconds, told apart by magnitude). The result is a layout that
+seconds or milliseconds, told apart by magnitude; dates that are not ISO 8601 day-first or
+month-first by :func:`infer_date_order`; a date column next to a clock column joined,
+:func:`_join_date_and_clock`) and the fields set to one value for all rows
+(``constants``), for which no column is sought. The result is a layout that
 :mod:`spotkit.io.ingest` reads the whole file with.
 
 Numbers: besides plain decimal numbers, cells may use the Unicode minus sign (U+2212) and
@@ -72,8 +75,14 @@ Delimiter = Literal["auto", ",", ";", "tab", "space"]
 Header = Literal["auto"] | bool
 
 _CALL_RE = re.compile(r"^(?=.*[A-Z])(?=.*[0-9])[A-Z0-9/]{3,16}$")
-_DATE_RE = r"^\d{4}-\d{2}-\d{2}$"
-_CLOCK_RE = r"^\d{1,2}:\d{2}(:\d{2}(\.\d+)?)?$"
+_DATE_RE = r"^(\d{4}-\d{2}-\d{2}|\d{4}[./]\d{1,2}[./]\d{1,2}|\d{1,2}[./-]\d{1,2}[./-]\d{4})$"
+# a clock time: HH:MM, HH:MM:SS(.fff), or compact HHMM / HHMMSS (decode logs)
+_CLOCK_RE = r"^(\d{1,2}:\d{2}(:\d{2}(\.\d+)?)?|\d{4}|\d{6})$"
+# a date with its parts separated by ".", "/" or "-": (first, second, third) part
+_DATE_PARTS_RE = r"^\s*(\d{1,4})[./-](\d{1,2})[./-](\d{1,4})(?:[ T]|$)"
+#: Orders of the day, month and year in a date: day-first, month-first, year-first.
+DATE_ORDERS = ("dmy", "mdy", "ymd")
+DateOrder = Literal["dmy", "mdy", "ymd"]
 _ISO_RE = r"^\d{4}-\d{2}-\d{2}[T ]\d{1,2}:\d{2}"
 _NUMBER_RE = re.compile(r"^[+-]?(\d+([.,]\d*)?|[.,]\d+)([eE][+-]?\d+)?$")
 
@@ -150,6 +159,34 @@ def _check_mapping(mapping) -> dict[str, list]:
     return out
 
 
+def _check_constants(constants, mapping: dict | None = None) -> dict[str, str]:
+    """Glossary name -> value text of the fields given as constants (``--set``); the
+    values themselves are checked once the units are known
+    (:func:`spotkit.io.clean.check_constants`)."""
+    out = {}
+    for key, value in (constants or {}).items():
+        name = _field_name(key)
+        if name == C.TIME:
+            raise UsageError("the time cannot be set to one value for all rows; map its "
+                             "column with --map time=COLUMN (or DATE+TIME)")
+        if mapping and name in mapping:
+            raise UsageError(f"field {_CLI_NAME[name]!r} is both mapped to a column (--map) "
+                             "and set to a value (--set): give one")
+        text = str(value).strip()
+        if not text:
+            raise UsageError(f"--set {_CLI_NAME[name]}=VALUE: the value is empty")
+        out[name] = text
+    return out
+
+
+def _check_date_order(date_order) -> str | None:
+    if date_order is None:
+        return None
+    from spotkit._validate import check_choice
+
+    return check_choice(str(date_order).strip().lower(), DATE_ORDERS, "date order")
+
+
 def _delimiter_arg(delimiter) -> str:
     d = {"\t": "tab", " ": "space", "whitespace": "space", r"\t": "tab"}.get(delimiter, delimiter)
     if d not in DELIMITERS:
@@ -172,6 +209,8 @@ class _Layout:
     fields: dict = field(default_factory=dict)  # glossary name -> list of positions
     units: dict = field(default_factory=dict)  # CLI field -> unit
     inferred: dict = field(default_factory=dict)  # CLI field -> how the unit was found
+    constants: dict = field(default_factory=dict)  # glossary name -> value (--set)
+    date_order: str | None = None  # None: ISO 8601 dates; else one of DATE_ORDERS
     # the moment of ingest: times later than this plus a day are rejected as in the future
     ingest_utc: pd.Timestamp = field(default_factory=lambda: pd.Timestamp.now(tz="UTC"))
 
@@ -180,7 +219,8 @@ class _Layout:
         return len(self.headings)
 
     def describe_columns(self) -> dict:
-        return {f: "+".join(self.label(i) for i in pos) for f, pos in self.fields.items()}
+        out = {f: "+".join(self.label(i) for i in pos) for f, pos in self.fields.items()}
+        return out | {f: f"set to {v!r}" for f, v in self.constants.items()}
 
     def label(self, i: int) -> str:
         h = self.headings[i]
@@ -453,7 +493,7 @@ def _heading_kind(heading: str) -> tuple[str | None, str | None, dict]:
     return (kinds.pop() if kinds else None), role, hints
 
 
-def match_headings(headings: Sequence[str]) -> tuple[dict, dict]:
+def match_headings(headings: Sequence[str], given: Sequence[str] = ()) -> tuple[dict, dict]:
     """Match column headings onto glossary fields by generic words.
 
     Rules: each heading is split into lower-case words (at blanks, punctuation and camelCase;
@@ -464,8 +504,10 @@ def match_headings(headings: Sequence[str]) -> tuple[dict, dict]:
     word is present. Role words: tx/transmitter/sender/from/source/beacon -> transmitter;
     rx/receiver/reporter/spotter/listener/heard/by/to -> receiver; a role word alone names
     that station's call. A call or locator heading without a role takes the role left
-    over when the other role is named by another heading. Separate date and time headings
-    are joined.
+    over when the other role is named by another heading, or given otherwise (``given``:
+    glossary names of fields set to one value, ``--set``, which no heading is matched
+    to). Separate date and time headings are joined (a date column next to a time
+    column).
 
     Returns
     -------
@@ -514,13 +556,15 @@ def match_headings(headings: Sequence[str]) -> tuple[dict, dict]:
                 roleless[kind].append(i)
         elif kind in cand:
             cand[kind].append(i)
+    given = set(given)
     for kind, idx in roleless.items():
         tx, rx = _ROLE_FIELDS[(kind, "tx")], _ROLE_FIELDS[(kind, "rx")]
-        if len(idx) == 1 and bool(cand[tx]) != bool(cand[rx]):
-            cand[rx if cand[tx] else tx].append(idx[0])
+        has_tx, has_rx = bool(cand[tx]) or tx in given, bool(cand[rx]) or rx in given
+        if len(idx) == 1 and has_tx != has_rx:
+            cand[rx if has_tx else tx].append(idx[0])
         elif idx:
             for f in (tx, rx):
-                if not cand[f]:
+                if not cand[f] and f not in given:
                     problems[f] = ("no heading says transmitter or receiver: "
                                    + ", ".join(repr(headings[i]) for i in idx))
     t = cand[C.TIME]
@@ -532,6 +576,8 @@ def match_headings(headings: Sequence[str]) -> tuple[dict, dict]:
     fields = {}
     for f in _FIELD_ORDER:
         idx = cand[f]
+        if f in given:
+            continue
         if f == C.TIME and len(idx) == 2 and any("date" in _heading_words(headings[i])
                                                  for i in idx[:1]):
             fields[f] = idx
@@ -609,7 +655,8 @@ def _column_profile(s: pd.Series) -> dict:
     return prof
 
 
-def infer_columns(sample: pd.DataFrame, known: dict | None = None) -> tuple[dict, dict]:
+def infer_columns(sample: pd.DataFrame, known: dict | None = None,
+                  given: Sequence[str] = ()) -> tuple[dict, dict]:
     """Classify the columns of a file without headings by their content.
 
     Time: ISO 8601 text (or a date column followed by a clock column) or epoch seconds or
@@ -628,6 +675,8 @@ def infer_columns(sample: pd.DataFrame, known: dict | None = None) -> tuple[dict
         The first rows of the file as text, one column per field position.
     known : dict, optional
         Glossary name -> list of positions already mapped.
+    given : sequence of str, optional
+        Glossary names of fields set to one value (``--set``): no column is sought for them.
 
     Returns
     -------
@@ -680,7 +729,7 @@ def infer_columns(sample: pd.DataFrame, known: dict | None = None) -> tuple[dict
                                  if p["epoch"] >= hit and p["integer"] >= hit])
     locs = [i for i, p in prof.items() if p["locator"] >= hit]
     calls = [i for i, p in prof.items() if p["call"] >= hit and i not in locs]
-    _assign_roles(fields, problems, calls, locs)
+    _assign_roles(fields, problems, calls, locs, set(given))
     for i in set(calls) | set(locs):
         prof.pop(i, None)
     numeric = {i: p for i, p in prof.items() if p["number"] >= hit and p["values"].size}
@@ -703,14 +752,39 @@ def infer_columns(sample: pd.DataFrame, known: dict | None = None) -> tuple[dict
         if len(small) == 1:
             fields[C.DRIFT] = small
     for f in C.REQUIRED_INPUT:
-        if f not in fields and f not in problems:
+        if f not in fields and f not in problems and f not in given:
             problems[f] = "no column looks like it"
     return fields, problems
 
 
-def _assign_roles(fields, problems, calls, locs):
+def _join_date_and_clock(sample: pd.DataFrame, fields: dict) -> list:
+    """The time column, joined with the column next to it when one holds dates only and
+    the other clock times only (by content, at least 90 % of the non-empty cells)."""
+    pos = fields[C.TIME]
+    if len(pos) != 1 or not sample.shape[0]:
+        return pos
+    i = pos[0]
+    used = {j for f, p in fields.items() if f != C.TIME for j in p}
+
+    def share(j, pattern):
+        s = sample.iloc[:, j].astype("str").str.strip()
+        s = s[s.notna() & (s != "")]
+        return float(s.str.match(pattern).mean()) if len(s) else 0.0
+
+    mine_date, mine_clock = share(i, _DATE_RE), share(i, _CLOCK_RE)
+    for j in (i - 1, i + 1):
+        if j < 0 or j >= sample.shape[1] or j in used:
+            continue
+        if mine_clock >= 0.9 and share(j, _DATE_RE) >= 0.9:
+            return [j, i]
+        if mine_date >= 0.9 and share(j, _CLOCK_RE) >= 0.9:
+            return [i, j]
+    return pos
+
+
+def _assign_roles(fields, problems, calls, locs, given=frozenset()):
     want = [C.TX_CALL, C.RX_CALL]
-    have = [f for f in want if f in fields]
+    have = [f for f in want if f in fields or f in given]
     free_calls = [i for i in calls if all(i not in p for p in fields.values())]
     if len(have) == 1 and len(free_calls) == 1:
         other = C.RX_CALL if have[0] == C.TX_CALL else C.TX_CALL
@@ -724,7 +798,7 @@ def _assign_roles(fields, problems, calls, locs):
             problems[f] = "taken from the column right after each call once the calls are mapped"
         return
     for call_f, loc_f in ((C.TX_CALL, C.TX_LOCATOR), (C.RX_CALL, C.RX_LOCATOR)):
-        if loc_f in fields or call_f not in fields:
+        if loc_f in fields or loc_f in given or call_f not in fields:
             continue
         nxt = fields[call_f][0] + 1
         if nxt in locs:
@@ -917,9 +991,12 @@ def _infer_units(layout: _Layout, sample: pd.DataFrame, units: dict) -> None:
             layout.inferred[name] = "from heading"
             continue
         f = C.CLI_FIELDS[name]
-        pos = layout.fields[f]
-        col = sample.iloc[:, pos[0]]
-        if not len(sample):  # no data rows: nothing to infer from, nothing to convert
+        if f in layout.constants:  # one value for all rows (--set): its unit from it
+            pos, col = [], pd.Series([layout.constants[f]], dtype="str")
+        else:
+            pos = layout.fields[f]
+            col = sample.iloc[:, pos[0]]
+        if not len(sample) and pos:  # no data rows: nothing to infer from, nothing to convert
             out[name] = UNIT_CHOICES[name][0]
             layout.inferred[name] = "no rows"
             continue
@@ -934,6 +1011,8 @@ def _infer_units(layout: _Layout, sample: pd.DataFrame, units: dict) -> None:
             else:
                 out[name] = infer_power_unit(_to_number(col, layout.decimal))
         except InputError as exc:
+            if not pos:  # a value given on the command line: a usage error
+                raise UsageError(f"--set {name}={layout.constants[f]}: {exc}") from None
             raise InputError(f"{layout.name}: column {layout.label(pos[0])}: {exc}") from None
         layout.inferred[name] = "inferred"
     if out["time"] == "epoch" and "time" not in units and len(sample):
@@ -942,6 +1021,75 @@ def _infer_units(layout: _Layout, sample: pd.DataFrame, units: dict) -> None:
         out["time"] = infer_epoch_unit(_to_number(col, "."))
         layout.inferred["time"] = layout.inferred.get("time", "inferred") + ", by magnitude"
     layout.units = out
+    if out["time"] == "iso" and layout.date_order is None and len(sample):
+        layout.date_order = infer_date_order(_time_texts(layout, sample),
+                                             f"{layout.name}: column "
+                                             + "+".join(map(layout.label,
+                                                            layout.fields[C.TIME])))
+
+
+def _time_texts(layout: _Layout, sample: pd.DataFrame) -> pd.Series:
+    """The sample's time cells as text, a date and a clock column joined by a blank."""
+    pos = layout.fields[C.TIME]
+    cols = [sample.iloc[:, i].astype("str").str.strip() for i in pos]
+    return cols[0] if len(cols) == 1 else cols[0] + " " + cols[1]
+
+
+def infer_date_order(texts, where: str = "the time column") -> str | None:
+    """Order of day, month and year in dates such as ``02.03.2026`` or ``3/14/2026``.
+
+    ISO dates (year first, ``2026-03-02``) need no order (None). Dates with the year last
+    are day-first when some first part exceeds 12 and no second part does, month-first in
+    the opposite case; when no part exceeds 12 (or both do) the order cannot be told from
+    the data. Texts that are no such date are left out.
+
+    Parameters
+    ----------
+    texts : sequence of str
+        Time cells (a date, optionally followed by a blank or ``T`` and a clock time).
+    where : str
+        What the texts are, for the message.
+
+    Returns
+    -------
+    {"dmy", "mdy", "ymd"} or None
+        ``"ymd"`` for year-first dates not in ISO 8601 spelling (``2026/03/02``, dots),
+        None for ISO dates or when no text is a date with separators.
+
+    Raises
+    ------
+    InputError
+        When the dates are ambiguous; the message names the option ``--date-order``.
+
+    Examples
+    --------
+    >>> infer_date_order(["02.03.2026 00:00", "14.03.2026 12:00"])
+    'dmy'
+    >>> infer_date_order(["3/14/2026 10:00"]), infer_date_order(["2026-03-14 10:00"])
+    ('mdy', None)
+    >>> infer_date_order(["02.03.2026 00:00"])
+    Traceback (most recent call last):
+    ...
+    spotkit.errors.InputError: the time column: cannot tell whether the dates are day-first ...
+    """
+    s = pd.Series(np.asarray(texts, dtype=object), dtype="str")
+    parts = s.str.extract(_DATE_PARTS_RE).dropna()
+    if parts.empty:
+        return None
+    width = parts[0].str.len()
+    if (width == 4).mean() >= 0.5:
+        iso = s.str.match(r"^\s*\d{4}-\d{2}-\d{2}").mean() >= 0.5
+        return None if iso else "ymd"
+    a, b = parts[0].astype(int), parts[1].astype(int)
+    day_first, month_first = bool((a > 12).any()), bool((b > 12).any())
+    if day_first != month_first:
+        return "dmy" if day_first else "mdy"
+    example = s[parts.index[0]]
+    why = ("some dates have a first part above 12 and others a second part above 12"
+           if day_first else "no part of the dates in the first rows is above 12")
+    raise InputError(f"{where}: cannot tell whether the dates are day-first or month-first "
+                     f"(e.g. {example!r}; {why}): give --date-order dmy or --date-order mdy "
+                     "(in Python date_order='dmy' or 'mdy')")
 
 
 # --- preparing a file: layout, columns, units ----------------------------------------------
@@ -969,12 +1117,16 @@ def _read_sample(layout: _Layout) -> pd.DataFrame:
                                **_csv_kwargs(layout))
 
 
-def _prepare_layout(path: Path, mapping, units, delimiter, header) -> _Layout:
+def _prepare_layout(path: Path, mapping, units, delimiter, header, constants=None,
+                    date_order=None) -> _Layout:
     layout = _sniff_layout(path, delimiter, header)
+    layout.constants = dict(constants or {})
+    layout.date_order = date_order
     sample = _read_sample(layout)
     known = _apply_mapping(layout, mapping)
+    given = tuple(layout.constants)
     if layout.has_header:
-        guessed, problems = match_headings(layout.headings)
+        guessed, problems = match_headings(layout.headings, given)
         taken = {i for pos in known.values() for i in pos}
         fields = dict(known)
         for f, pos in guessed.items():
@@ -982,12 +1134,15 @@ def _prepare_layout(path: Path, mapping, units, delimiter, header) -> _Layout:
                 fields[f] = pos
         problems = {f: p for f, p in problems.items() if f not in fields}
     else:
-        fields, problems = infer_columns(sample, known)
+        fields, problems = infer_columns(sample, known, given)
         if not known and not fields:
             raise NotASpotTableError(
                 f"{path}: not a spot table (no heading line and no column looks like times, "
                 "callsigns, locators or numbers; if it is one, map every column with --map)")
-    missing = [f for f in C.REQUIRED_INPUT if f not in fields]
+    fields = {f: pos for f, pos in fields.items() if f not in layout.constants}
+    if C.TIME in fields and C.TIME not in known:
+        fields[C.TIME] = _join_date_and_clock(sample, fields)
+    missing = [f for f in C.REQUIRED_INPUT if f not in fields and f not in layout.constants]
     if missing or any(f in problems for f in missing):
         lines = [f"  {_CLI_NAME[f]}: {problems.get(f, 'not found')}" for f in missing]
         how = "headings" if layout.has_header else "content (no heading line)"
@@ -999,4 +1154,5 @@ def _prepare_layout(path: Path, mapping, units, delimiter, header) -> _Layout:
 
 
 __all__ = ["match_headings", "infer_columns", "infer_frequency_unit", "infer_power_unit",
+           "infer_date_order", "DATE_ORDERS",
            "SAMPLE_ROWS", "TIME_UNITS", "UNIT_CHOICES", "DELIMITERS", "MAX_WATTS"]

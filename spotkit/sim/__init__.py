@@ -18,7 +18,9 @@ from spotkit.sim.antenna import (
 )
 from spotkit.sim.layouts import (
     LAYOUTS,
+    USER_LAYOUTS,
     write_foreign_csv,
+    write_user_file,
 )
 from spotkit.sim.simulate import (
     DEMO_CALL,
@@ -47,6 +49,7 @@ __all__ = [
     "fresnel_reflection", "quarter_wave_vertical_gain", "horizontal_dipole_gain",
     "GainTable", "Antenna", "isotropic_antenna", "vertical_antenna", "dipole_antenna",
     "constant_difference", "make_antenna", "LAYOUTS", "write_foreign_csv",
+    "USER_LAYOUTS", "write_user_file",
     "DEFAULT_DISTANCE_EDGES", "TRUTH_COLUMNS", "Truth", "DESIGNS", "THRESHOLD_ON", "decode",
     "Propagation",
     "Simulation", "simulate_spots", "DEMO_CALL", "DEMO_LOCATOR", "make_demo_data",

@@ -50,7 +50,8 @@ def test_file_branch_passes_the_reading_options(to_file, tmp_path, capsys):
     assert files == [str(src)] and output == out
     assert kw == dict(rejects_path="r.csv", mapping={"snr": "S"}, units={"power": "W"},
                       delimiter=";", header=False, slot_minutes=10, region="2",
-                      progress=False, max_reject_share=0.5)
+                      progress=False, max_reject_share=0.5, constants={},
+                      date_order=None)
     assert capsys.readouterr().out == (f"summary text\nwrote 7 spots to {out} and 2 rejects "
                                        "to r.csv\n")
 
@@ -84,7 +85,7 @@ def test_archive_branch_passes_partition_and_memory(to_archive, to_file, capsys)
     assert files == ["a.csv", "b.csv"] and dataset == "arch"
     assert kw == dict(chunk_rows=30, memory_mb=900.0, partition_by=["band", "day"],
                       mapping={}, units={}, delimiter="auto", header=True, slot_minutes=2,
-                      region="all", progress=False)
+                      region="all", progress=False, constants={}, date_order=None)
     assert capsys.readouterr().out == ("summary text\nappended 7 spots to the archive arch "
                                        "(2 rejects kept in arch/_rejects/)\n")
 

@@ -9,7 +9,7 @@ import pytest
 from spotkit import columns as C
 from spotkit.errors import InputError
 from spotkit.io.ingest import read_spots
-from spotkit.io.sanity import MIN_SHARE, MIN_VALUES
+from spotkit.io.sanity import MIN_SHARE, MIN_UNIT_VALUES, MIN_VALUES
 
 HEAD = "time,tx call,tx locator,rx call,rx locator,frequency MHz,snr,power dBm\n"
 SNRS = [-12, 14, -21, 1, 7, -3, 10, 3, 14, -8, 28, 1, -25, -17, 2, -9, 5, -30, 21, -14]
@@ -135,3 +135,46 @@ def test_plain_good_file_passes_and_times_are_kept(tmp_path):
     res = read_spots(_file(tmp_path, 40))
     assert res.summary.accepted == 40
     assert res.spots[C.TIME].min() == pd.Timestamp("2024-03-01 10:00", tz="UTC")
+
+
+# --- units that do not fit (issue 17): stop and name the option, small files too ----------
+@pytest.mark.parametrize("n", [MIN_UNIT_VALUES, MIN_VALUES + 5])
+@pytest.mark.parametrize("column, units, option", [
+    # MHz values told kHz (the README's --unit copied onto MHz data)
+    (dict(freq="14.0971"), {"frequency": "kHz"}, "--unit frequency=MHz"),
+    # Hz values told MHz: 14 097 100 MHz is no band
+    (dict(freq="14097100"), {"frequency": "MHz"}, "--unit frequency=Hz"),
+    # mW values told dBm (5000 mW = 37 dBm; 5000 dBm is out of range)
+    (dict(power="5000"), {"power": "dBm"}, "--unit power=mW"),
+    # epoch milliseconds told seconds (1.7e12 s is after 2100)
+    (dict(time=lambda i: str(1_709_287_200_000 + 120_000 * i)), {"time": "epoch-s"},
+     "--unit time=epoch-ms"),
+])
+def test_a_unit_that_does_not_fit_stops_naming_the_option(tmp_path, n, column, units, option):
+    head = HEAD.replace("frequency MHz", "frequency").replace("power dBm", "power")
+    with pytest.raises(InputError, match="nothing was read") as exc:
+        read_spots(_file(tmp_path, n, head=head, **column), units=units)
+    assert option in str(exc.value) and "s.csv" in str(exc.value)
+
+
+def test_a_unit_that_fits_is_not_questioned(tmp_path):
+    # dBm values read as W still fit (37 W = 45.7 dBm): nothing to tell them apart
+    res = read_spots(_file(tmp_path, 6), units={"power": "W"})
+    assert res.summary.accepted == 6
+
+
+def test_too_few_numbers_are_left_to_the_row_checks(tmp_path):
+    # MIN_UNIT_VALUES - 1 rows in kHz told MHz: each row rejected, no stop
+    n = MIN_UNIT_VALUES - 1
+    res = read_spots(_file(tmp_path, n, freq="14097.1"), units={"frequency": "MHz"})
+    assert res.summary.rejected == n
+    assert set(res.rejects[C.REJECT_REASON]) == {"frequency not in an amateur band"}
+
+
+def test_cli_unit_hint_exit_1(tmp_path, capsys):
+    from spotkit.cli import main
+
+    src = _file(tmp_path, MIN_UNIT_VALUES)
+    assert main(["ingest", str(src), "-o", str(tmp_path / "o.parquet"), "--unit",
+                 "frequency=kHz"]) == 1
+    assert "use --unit frequency=MHz" in capsys.readouterr().err
