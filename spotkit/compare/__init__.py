@@ -30,6 +30,7 @@ from spotkit.compare.estimate import (
     too_little_data,
     verdict,
 )
+from spotkit.compare.grid import GRID_KEYS, difference_grid, grid_key, grid_table
 from spotkit.compare.grouping import (
     DEFAULT_DAY_HOURS,
     DEFAULT_DISTANCE_EDGES,
@@ -77,5 +78,5 @@ __all__ = [
     "DEFAULT_BLOCK_HOURS", "block_clusters", "estimate_cells", "heard_probability",
     "MODELS", "TAIL_DFS", "TAILS", "INTERVALS",
     "default_detection", "T50_ERROR_DB", "TAU_FACTORS", "TAU_FACTORS_SET",
-    "THRESHOLD_METHODS",
+    "THRESHOLD_METHODS", "GRID_KEYS", "difference_grid", "grid_key", "grid_table",
 ]

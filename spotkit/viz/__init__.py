@@ -48,6 +48,7 @@ from spotkit.viz.plots import (
     distance_plot,
     duration_tradeoff_plot,
     elevation_plot,
+    grid_plot,
     heard_by_distance,
     heard_plot,
     hour_plot,
@@ -67,5 +68,5 @@ __all__ = [
     "coverage_map", "difference_map", "reach_map", "PLOT_KINDS", "BAND_CMAP", "band_colors",
     "distance_plot", "elevation_plot", "hour_plot", "bearing_plot", "heard_by_distance",
     "heard_plot", "running_median", "snr_distance_plot", "spots_per_hour",
-    "spots_per_hour_plot", "duration_tradeoff_plot",
+    "spots_per_hour_plot", "duration_tradeoff_plot", "grid_plot",
 ]

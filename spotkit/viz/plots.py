@@ -34,9 +34,9 @@ from spotkit.bands import BAND_ORDER, sort_bands
 from spotkit.errors import InputError, UsageError
 from spotkit.units import snr_per_watt
 
-PlotKind = Literal["bearing", "distance", "elevation", "hour", "heard", "snr-distance",
-                   "spots-per-hour"]
-PLOT_KINDS = ("bearing", "distance", "elevation", "hour", "heard", "snr-distance",
+PlotKind = Literal["bearing", "distance", "elevation", "hour", "grid", "heard",
+                   "snr-distance", "spots-per-hour"]
+PLOT_KINDS = ("bearing", "distance", "elevation", "hour", "grid", "heard", "snr-distance",
               "spots-per-hour")
 #: colour map the band palette is sampled from, and the part of it used
 BAND_CMAP = "plasma"
@@ -76,6 +76,24 @@ def _new_ax(ax, *, polar=False, figsize=(6.4, 4.2)):
     return fig.add_subplot(1, 1, 1, projection="polar" if polar else None)
 
 
+def _names(result) -> tuple[str, str]:
+    """Names of A and B for titles and legends: the result's labels (the calls unless the
+    user named the antennas), ``("A", "B")`` for a bare table."""
+    return tuple(getattr(result, "labels", ("A", "B")))
+
+
+def _diff_words(result) -> str:
+    """``"dipole minus vertical"``: what B minus A is, in the antennas' names."""
+    la, lb = _names(result)
+    return f"{lb} minus {la}"
+
+
+def _hour_words(result) -> str:
+    """How the hour of a comparison is counted, for the axis label."""
+    basis = getattr(result, "options", {}).get("hour", "utc")
+    return "UTC" if basis == "utc" else "local solar time at the path midpoint"
+
+
 def _groups(result) -> pd.DataFrame:
     g = getattr(result, "groups", result)
     if not isinstance(g, pd.DataFrame):
@@ -113,7 +131,7 @@ def _need(df: pd.DataFrame, cols, key: str):
 
 
 def _interval_plot(result, lo_col, hi_col, key, xlabel, *, band=None, ax=None,
-                   mid=None, offset_frac=0.06):
+                   mid=None, offset_frac=0.06, xpos=None):
     g = _groups(result)
     _need(g, [lo_col] + ([hi_col] if hi_col else []), key)
     ax = _new_ax(ax)
@@ -124,6 +142,8 @@ def _interval_plot(result, lo_col, hi_col, key, xlabel, *, band=None, ax=None,
         lo = sub[lo_col].to_numpy(dtype=float)
         hi = sub[hi_col].to_numpy(dtype=float) if hi_col else lo + 1.0
         x = (lo + hi) / 2.0 if mid is None else mid(lo, hi)
+        if xpos is not None:  # e.g. the median distance of the bin's pairs
+            x = np.where(np.isfinite(xpos(b, lo, hi)), xpos(b, lo, hi), x)
         width = np.nanmin(hi - lo) if len(lo) else 1.0
         x = x + (i - (len(parts) - 1) / 2) * offset_frac * width
         est = sub[C.B_MINUS_A].to_numpy(dtype=float)
@@ -133,13 +153,15 @@ def _interval_plot(result, lo_col, hi_col, key, xlabel, *, band=None, ax=None,
                     color=colors.get(b, "#333333") if b else "#333333",
                     label=b if b else "B - A", gid=f"estimate-{b or 'all'}")
         empty = ~np.isfinite(est)
-        if C.PAIRS in sub:
+        if C.PAIRS in sub:  # at the foot of the axes, clear of the bars
+            foot = ax.get_xaxis_transform()
             for xi, n in zip(x[empty], sub[C.PAIRS].to_numpy()[empty], strict=True):
-                ax.annotate(f"{int(n)} pairs:\nno estimate", (xi, 0), fontsize=6,
-                            ha="center", va="bottom", color="#777777")
+                ax.annotate(f"{int(n)} pairs:\nno estimate", (xi, 0.02 + 0.09 * i),
+                            xycoords=foot, fontsize=6, ha="center", va="bottom",
+                            color="#777777", gid="no-estimate")
     ax.axhline(0.0, color="#444444", lw=0.8, zorder=0)
     ax.set_xlabel(xlabel)
-    ax.set_ylabel("B minus A [dB]  (95 % CI)")
+    ax.set_ylabel(f"{_diff_words(result)} [dB]  (95 % CI)")
     ax.grid(alpha=0.3)
     if len(parts) > 1 or parts[0][0]:
         ax.legend(fontsize=8, title="band", title_fontsize=8)
@@ -160,9 +182,22 @@ def distance_plot(result, *, band=None, ax=None):
     -------
     matplotlib.axes.Axes
     """
-    ax = _interval_plot(result, C.DISTANCE_MIN, C.DISTANCE_MAX, "distance", "distance [km]",
-                        band=band, ax=ax)
-    ax.set_title("B minus A by distance")
+    pairs = getattr(result, "pairs", None)
+    xpos = None
+    if isinstance(pairs, pd.DataFrame) and C.DISTANCE in pairs and len(pairs):
+        d_all = pairs[C.DISTANCE].to_numpy(dtype=float)
+        bands_all = pairs[C.BAND].astype(str).to_numpy() if C.BAND in pairs else None
+
+        def xpos(b, lo, hi):  # the median distance of the bin's pairs, not its middle
+            d = d_all if b is None or bands_all is None else d_all[bands_all == b]
+            idx = np.searchsorted(hi, d, side="right")
+            ok = (idx < len(hi)) & (d >= lo[np.minimum(idx, len(lo) - 1)])
+            med = pd.Series(d[ok]).groupby(idx[ok]).median()
+            return med.reindex(range(len(lo))).to_numpy(dtype=float)
+    ax = _interval_plot(result, C.DISTANCE_MIN, C.DISTANCE_MAX, "distance",
+                        "distance [km]  (points at the median distance of their pairs)",
+                        band=band, ax=ax, xpos=xpos)
+    ax.set_title(f"{_diff_words(result)} by distance")
     return ax
 
 
@@ -171,17 +206,19 @@ def elevation_plot(result, *, band=None, ax=None):
     geometry, see :func:`spotkit.geo.geodesic.elevation_angle`)."""
     ax = _interval_plot(result, C.ELEVATION_MIN, C.ELEVATION_MAX, "elevation",
                         "estimated elevation angle [deg]", band=band, ax=ax)
-    ax.set_title("B minus A by elevation angle")
+    ax.set_title(f"{_diff_words(result)} by elevation angle")
     return ax
 
 
 def hour_plot(result, *, band=None, ax=None):
     """B minus A with its CI per hour of day (x at the middle of the hour)."""
-    ax = _interval_plot(result, C.HOUR, None, "hour", "hour of day", band=band, ax=ax,
-                        offset_frac=0.12)
+    words = _hour_words(result)
+    ax = _interval_plot(result, C.HOUR, None, "hour", f"hour of day [{words}]", band=band,
+                        ax=ax, offset_frac=0.12)
     ax.set_xlim(0, 24)
     ax.set_xticks(range(0, 25, 3))
-    ax.set_title("B minus A by hour of day")
+    ax.set_title(f"{_diff_words(result)} by hour of day "
+                 f"({'UTC' if words == 'UTC' else 'local solar time'})")
     return ax
 
 
@@ -232,9 +269,118 @@ def bearing_plot(result, *, band=None, ax=None, rlim: float | None = None):
     th = np.linspace(0, 2 * np.pi, 181)
     ax.plot(th, np.zeros_like(th), color="black", lw=1.2, gid="zero-db")
     ax.set_rlabel_position(100)
-    ax.set_title("B minus A [dB] by bearing (95 % CI)", pad=18)
+    ax.set_title(f"{_diff_words(result)} [dB] by bearing (95 % CI)", pad=18)
     ax.legend(fontsize=8, loc="lower left", bbox_to_anchor=(-0.12, -0.12))
     return ax
+
+
+def grid_plot(results, *, band=None, vmax: float | None = None):
+    """The "where" answer: B minus A as band x distance, band x bearing and band x hour
+    grids, one panel each, on one symmetric colour scale (blue: B better).
+
+    A cell where the verdict names a better antenna (:func:`spotkit.compare.grid.
+    difference_grid`) has its value in bold with a star and a black outline; a cell whose
+    interval includes 0 dB (or with too little data) is hatched and its value grey, so the
+    two read apart in greyscale too. Cells without an estimate show a dot.
+
+    Parameters
+    ----------
+    results : ComparisonResult or sequence of ComparisonResult
+        Comparisons by band and one of distance, bearing, hour (others are skipped).
+    band : str or list of str, optional
+        Only these bands.
+    vmax : float, optional
+        Half-range of the colour scale [dB]; default the largest estimate, at least 1 dB.
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+    """
+    import matplotlib.pyplot as plt
+    from matplotlib.patches import Rectangle
+
+    from spotkit.compare.grid import GRID_KEYS, difference_grid, grid_key
+
+    results = [results] if hasattr(results, "groups") else list(results)
+    panels = []
+    for res in results:
+        try:
+            key = grid_key(res)
+        except UsageError:
+            continue
+        g = difference_grid(res)
+        if band is not None:
+            keep = [band] if isinstance(band, str) else list(band)
+            missing = [b for b in keep if b not in set(g[C.BAND])]
+            if missing:
+                raise UsageError(f"band(s) {', '.join(missing)} not in the comparison; "
+                                 f"present: {', '.join(dict.fromkeys(g[C.BAND]))}")
+            g = g[g[C.BAND].isin(keep)]
+        if len(g):
+            panels.append((GRID_KEYS.index(key), key, res, g))
+    if not panels:
+        raise UsageError("a grid needs comparisons by band and distance, bearing or hour "
+                         "with at least one group")
+    panels.sort(key=lambda p: p[0])
+    est_all = np.concatenate([p[3][C.B_MINUS_A].to_numpy(dtype=float) for p in panels])
+    if vmax is None:
+        finite = est_all[np.isfinite(est_all)]
+        vmax = float(max(1.0, np.ceil(np.abs(finite).max()))) if finite.size else 1.0
+    heights = [max(1, p[3][C.BAND].nunique()) + 1.4 for p in panels]
+    widths = [p[3][C.CELL].nunique() for p in panels]
+    fig = plt.figure(figsize=(min(11.0, max(6.4, 0.45 * max(widths) + 2.2)),
+                              0.45 * sum(heights) + 1.6), layout="constrained")
+    axes = fig.subplots(len(panels), 1, squeeze=False,
+                        gridspec_kw={"height_ratios": heights})[:, 0]
+    cmap = plt.get_cmap("RdBu")
+    image = None
+    first = panels[0][2]
+    for ax, (_, key, res, g) in zip(axes, panels, strict=True):
+        bands = list(dict.fromkeys(g[C.BAND]))
+        cells = (g[[C.CELL, C.CELL_ORDER]].drop_duplicates(C.CELL)
+                 .sort_values(C.CELL_ORDER)[C.CELL].tolist())
+        rows = g[C.BAND].map({b: i for i, b in enumerate(bands)}).to_numpy()
+        cols = g[C.CELL].map({c: j for j, c in enumerate(cells)}).to_numpy()
+        grid = np.full((len(bands), len(cells)), np.nan)
+        est = g[C.B_MINUS_A].to_numpy(dtype=float)
+        grid[rows, cols] = est
+        image = ax.imshow(np.ma.masked_invalid(grid), cmap=cmap, vmin=-vmax, vmax=vmax,
+                          aspect="auto", interpolation="nearest")
+        sig = g[C.SIGNIFICANT].to_numpy(dtype=bool)
+        for r, c, e, s_ in zip(rows, cols, est, sig, strict=True):
+            if not np.isfinite(e):
+                ax.text(c, r, ".", ha="center", va="center", color="#777777", fontsize=9)
+                continue
+            dark = abs(e) > 0.6 * vmax
+            if s_:
+                ax.add_patch(Rectangle((c - 0.5, r - 0.5), 1, 1, fill=False, lw=1.6,
+                                       ec="black", gid="significant"))
+                ax.text(c, r, f"{e:+.1f}*", ha="center", va="center", fontsize=8,
+                        fontweight="bold", color="white" if dark else "black")
+            else:
+                ax.add_patch(Rectangle((c - 0.5, r - 0.5), 1, 1, fill=False, lw=0,
+                                       hatch="///", ec="#999999", gid="not-significant"))
+                ax.text(c, r, f"{e:+.1f}", ha="center", va="center", fontsize=7.5,
+                        color="#dddddd" if dark else "#555555")
+        ax.set_yticks(range(len(bands)), bands)
+        if key == "hour":
+            cells = [c.replace(" h", "") for c in cells]
+        ax.set_xticks(range(len(cells)), cells, fontsize=7.5,
+                      rotation=30 if key != "hour" and len(cells) > 4 else 0,
+                      ha="right" if key != "hour" and len(cells) > 4 else "center")
+        ax.tick_params(length=0)
+        what = {"distance": "distance", "bearing": "bearing from home",
+                "hour": f"hour of day ({_hour_words(res)})"}[key]
+        ax.set_title(f"by band and {what}", fontsize=9, loc="left")
+    la, lb = _names(first)
+    fig.suptitle(f"Where {lb} beats {la}: {lb} minus {la} [dB]", fontsize=11)
+    bar = fig.colorbar(image, ax=list(axes), shrink=0.9, pad=0.02)
+    bar.set_label(f"{lb} minus {la} [dB], scale +-{vmax:g} dB\n(blue: {lb} better)",
+                  fontsize=8)
+    axes[-1].set_xlabel("bold* outlined: the interval excludes 0 dB with enough receivers; "
+                        "hatched: no difference shown; dot: no estimate", fontsize=7,
+                        color="#444444", loc="left")
+    return fig
 
 
 def heard_by_distance(pairs: pd.DataFrame, *, distance_edges=None, bin_km: float = 1000.0,
@@ -281,7 +427,7 @@ def heard_by_distance(pairs: pd.DataFrame, *, distance_edges=None, bin_km: float
 
 
 def heard_plot(pairs, *, band=None, distance_edges=None, bin_km: float = 1000.0, ax=None,
-               n_boot: int = 1000, seed: int = 0):
+               n_boot: int = 1000, seed: int = 0, labels=None):
     """Probability of being heard against distance, A beside B, with cluster-bootstrap
     intervals.
 
@@ -300,6 +446,9 @@ def heard_plot(pairs, *, band=None, distance_edges=None, bin_km: float = 1000.0,
     ax : matplotlib.axes.Axes, optional
     n_boot, seed : int
         Bootstrap resamples of the far stations and their seed.
+    labels : (str, str), optional
+        Names of A and B for the legend; default the result's labels (the calls), or "A"
+        and "B" for a bare pairs table.
 
     Returns
     -------
@@ -307,6 +456,8 @@ def heard_plot(pairs, *, band=None, distance_edges=None, bin_km: float = 1000.0,
     """
     from spotkit.compare.heard import heard_probability
 
+    if labels is None:
+        labels = _names(pairs)
     pairs = getattr(pairs, "pairs", pairs)
     if band is not None:
         pairs = pairs[pairs[C.BAND].astype(str) == band]
@@ -326,8 +477,10 @@ def heard_plot(pairs, *, band=None, distance_edges=None, bin_km: float = 1000.0,
         yerr = np.vstack([p - t[C.P_HEARD_LOW].to_numpy(dtype=float),
                           t[C.P_HEARD_HIGH].to_numpy(dtype=float) - p])
         yerr = np.clip(np.nan_to_num(yerr, nan=0.0), 0.0, None)
+        name = labels[0] if who == "A" else labels[1]
         ax.errorbar(mid + dx * w, p, yerr=yerr, fmt=marker + "-", ms=5, capsize=3, color=col,
-                    label=who, gid=f"heard-{who.lower()}")
+                    label=name if name == who else f"{name} ({who})",
+                    gid=f"heard-{who.lower()}")
     ax.set_ylim(-0.02, 1.02)
     ax.set_xlabel("distance [km]")
     ax.set_ylabel("P(heard) among pairs  (95 % CI, far stations resampled)")
@@ -513,6 +666,7 @@ def duration_tradeoff_plot(table: pd.DataFrame, ax=None):
     return ax
 
 __all__ = ["PLOT_KINDS", "BAND_CMAP", "band_colors", "distance_plot", "elevation_plot",
-           "hour_plot", "bearing_plot", "heard_by_distance", "heard_plot", "running_median",
+           "hour_plot", "grid_plot", "bearing_plot", "heard_by_distance", "heard_plot",
+           "running_median",
            "snr_distance_plot", "spots_per_hour", "spots_per_hour_plot",
            "duration_tradeoff_plot"]
