@@ -384,7 +384,9 @@ def markdown_summary(result, by_distance=None) -> str:
 
     la, lb = result.labels
     o = result.overall
-    lines = [f"**{lb} (B, {result.b}) against {la} (A, {result.a})**, {result.design} design",
+    head = (f"{lb} (B, {result.b}) against {la} (A, {result.a})" if result.named
+            else f"B = {result.b} against A = {result.a}")
+    lines = [f"**{head}**, {result.design} design",
              "", result.verdicts()[0], ""]
     unit = "transmitters" if result.design == "receive" else "receivers"
 
@@ -464,8 +466,10 @@ def _figures(spots, results, map_result, progress: bool):
         ("Probability of being heard against distance, A beside B, with Wilson intervals "
          "(among slots where the path was open to at least one antenna).",
          lambda: plots.heard_plot(result)),
-        ("SNR normalised to 1 W against distance, with a running median.",
-         lambda: plots.snr_distance_plot(spots)),
+        ("SNR normalised to 1 W against distance, with a running median per band and "
+         "antenna (A solid, B dashed; the line breaks where a bin has fewer than 5 spots).",
+         lambda: plots.snr_distance_plot(spots, calls=(result.a, result.b),
+                                         labels=result.labels)),
         ("Spots per hour by band.", lambda: plots.spots_per_hour_plot(spots)),
     ]
     if result.named:  # captions in the antennas' names

@@ -8,6 +8,7 @@ from __future__ import annotations
 
 from spotkit.cli._common import (
     EXIT_OK,
+    ab_labels,
     add_ab_options,
     add_progress_option,
     by_keys,
@@ -108,6 +109,7 @@ def cmd_report(args) -> int:
     from spotkit.report import standard_comparisons, write_report
 
     by = by_keys(args.by)
+    ab_labels(args)  # a bad --label-a/--label-b before any work
     check_output(args.output, "-o", inputs=(args.spots, args.schedule))
     spots = load_spots(args.spots)
     show_progress = progress(args)

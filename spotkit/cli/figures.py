@@ -122,6 +122,7 @@ def cmd_plot(args) -> int:
     from spotkit.viz import plots
 
     check_output(args.output, "-o", (".png", ".svg"), inputs=(args.spots,))  # before work
+    ab_labels(args)
     spots = load_spots(args.spots)
     bands = _figure_bands(args)
     if args.kind in ("bearing", "distance", "elevation", "hour"):

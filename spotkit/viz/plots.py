@@ -153,7 +153,9 @@ def _interval_plot(result, lo_col, hi_col, key, xlabel, *, band=None, ax=None,
                     color=colors.get(b, "#333333") if b else "#333333",
                     label=b if b else "B - A", gid=f"estimate-{b or 'all'}")
         empty = ~np.isfinite(est)
-        if C.PAIRS in sub:  # at the foot of the axes, clear of the bars
+        if C.PAIRS in sub and empty.any():  # at the foot of the axes, clear of the bars
+            ax.plot(x[empty], np.zeros(int(empty.sum())), ls="none", marker="",
+                    gid="no-estimate-place")  # keeps them inside the x range
             foot = ax.get_xaxis_transform()
             for xi, n in zip(x[empty], sub[C.PAIRS].to_numpy()[empty], strict=True):
                 ax.annotate(f"{int(n)} pairs:\nno estimate", (xi, 0.02 + 0.09 * i),
@@ -268,7 +270,17 @@ def bearing_plot(result, *, band=None, ax=None, rlim: float | None = None):
     ax.set_ylim(-rlim, rlim)
     th = np.linspace(0, 2 * np.pi, 181)
     ax.plot(th, np.zeros_like(th), color="black", lw=1.2, gid="zero-db")
-    ax.set_rlabel_position(100)
+    # few radial labels, small, on a white ground, between two compass directions
+    from matplotlib.ticker import MaxNLocator
+
+    ax.yaxis.set_major_locator(MaxNLocator(nbins=4, symmetric=True))
+    ax.set_rlabel_position(157.5)
+    ax.tick_params(axis="y", labelsize=7)
+    for label in ax.get_yticklabels():
+        label.set_bbox(dict(facecolor="white", edgecolor="none", alpha=0.8, pad=0.5))
+    ax.annotate("0 dB", (np.radians(22.5), 0.0), fontsize=7, fontweight="bold",
+                ha="left", va="bottom", gid="zero-db-label",
+                bbox=dict(facecolor="white", edgecolor="none", alpha=0.8, pad=0.5))
     ax.set_title(f"{_diff_words(result)} [dB] by bearing (95 % CI)", pad=18)
     ax.legend(fontsize=8, loc="lower left", bbox_to_anchor=(-0.12, -0.12))
     return ax
@@ -503,9 +515,26 @@ def running_median(x, y, *, bin_km: float = 250.0, min_count: int = 5) -> pd.Dat
                          "median": s["median"].to_numpy(), "count": s["size"].to_numpy()})
 
 
+def _gapped(x: np.ndarray, y: np.ndarray, step: float):
+    """``x, y`` with a NaN inserted wherever ``x`` jumps by more than one ``step``, so that a
+    line is broken across bins without data instead of joining them."""
+    x = np.asarray(x, dtype=float)
+    y = np.asarray(y, dtype=float)
+    if x.size < 2:
+        return x, y
+    cut = np.flatnonzero(np.diff(x) > step * 1.01) + 1
+    return np.insert(x, cut, np.nan), np.insert(y, cut, np.nan)
+
+
 def snr_distance_plot(spots: pd.DataFrame, *, band=None, bin_km: float = 250.0,
-                      max_points: int = 200_000, seed: int = 0, ax=None):
+                      max_points: int = 200_000, seed: int = 0, ax=None, calls=None,
+                      labels=None):
     """SNR per watt against distance, one dot per spot, with a running median per band.
+
+    The median line is broken where a bin has too few spots (it never joins across a gap).
+    With ``calls=(a, b)`` only the reports of the two antennas' calls are drawn and each
+    gets its own median per band (A solid, B dashed), so A and B are never mixed in one
+    line.
 
     Parameters
     ----------
@@ -518,6 +547,12 @@ def snr_distance_plot(spots: pd.DataFrame, *, band=None, bin_km: float = 250.0,
         At most this many dots are drawn (a seeded random subset); the medians use every
         spot.
     ax : matplotlib.axes.Axes, optional
+    calls : (str, str), optional
+        Calls of A and B: a median per antenna, from the reports sent (or, in the receive
+        design, made) under that call. With the same call twice (alternating, before-after
+        designs) a single median is drawn.
+    labels : (str, str), optional
+        Names of A and B for the legend (default the calls).
 
     Returns
     -------
@@ -527,6 +562,9 @@ def snr_distance_plot(spots: pd.DataFrame, *, band=None, bin_km: float = 250.0,
     ax = _new_ax(ax)
     colors = band_colors()
     rng = np.random.default_rng(seed)
+    if calls is not None and str(calls[0]).upper() != str(calls[1]).upper():
+        return _snr_distance_ab(spots, ax, band, bin_km, max_points, rng, calls,
+                                labels or tuple(calls), colors)
     for b, sub in _by_band(spots, band):
         d = sub[C.DISTANCE].to_numpy(dtype=float)
         v = snr_per_watt(sub[C.SNR].to_numpy(), sub[C.POWER].to_numpy())
@@ -537,13 +575,45 @@ def snr_distance_plot(spots: pd.DataFrame, *, band=None, bin_km: float = 250.0,
         ax.scatter(d[idx], v[idx], s=3, alpha=0.15, color=col, lw=0, rasterized=True,
                    gid=f"spots-{b}")
         m = running_median(d, v, bin_km=bin_km)
-        ax.plot(m["x"], m["median"], color=col, lw=2.2, label=f"{b} median",
-                path_effects=_halo(), gid=f"median-{b}")
+        ax.plot(*_gapped(m["x"], m["median"], bin_km), color=col, lw=2.2,
+                label=f"{b} median", path_effects=_halo(), gid=f"median-{b}")
     ax.set_xlabel("distance [km]")
     ax.set_ylabel("SNR per watt [dB in 2500 Hz]")
     ax.set_title("SNR against distance")
     ax.grid(alpha=0.3)
     ax.legend(fontsize=8)
+    return ax
+
+
+def _snr_distance_ab(spots, ax, band, bin_km, max_points, rng, calls, labels, colors):
+    """:func:`snr_distance_plot` with one median per antenna and band."""
+    wanted = [str(c).upper() for c in calls]
+    tx = spots[C.TX_CALL].astype(str).str.upper().to_numpy()
+    rx = spots[C.RX_CALL].astype(str).str.upper().to_numpy() if C.RX_CALL in spots else tx
+    for b, sub in _by_band(spots, band):
+        col = colors.get(b, "#333333")
+        idx_all = spots.index.get_indexer(sub.index)
+        for who, call, name, style in (("A", wanted[0], labels[0], "-"),
+                                       ("B", wanted[1], labels[1], "--")):
+            mine = (tx[idx_all] == call) | (rx[idx_all] == call)
+            d = sub[C.DISTANCE].to_numpy(dtype=float)[mine]
+            v = snr_per_watt(sub[C.SNR].to_numpy()[mine], sub[C.POWER].to_numpy()[mine])
+            if not d.size:
+                continue
+            pick = np.arange(d.size)
+            if d.size > max_points // 2:
+                pick = rng.choice(d.size, max_points // 2, replace=False)
+            ax.scatter(d[pick], v[pick], s=3, alpha=0.12, color=col, lw=0, rasterized=True,
+                       marker="o" if who == "A" else "s", gid=f"spots-{b}-{who}")
+            m = running_median(d, v, bin_km=bin_km)
+            ax.plot(*_gapped(m["x"], m["median"], bin_km), color=col, lw=2.2, ls=style,
+                    label=f"{b} {name}" + ("" if name == who else f" ({who})"),
+                    path_effects=_halo(), gid=f"median-{b}-{who}")
+    ax.set_xlabel("distance [km]")
+    ax.set_ylabel("SNR per watt [dB in 2500 Hz]")
+    ax.set_title(f"SNR against distance: {labels[0]} and {labels[1]}")
+    ax.grid(alpha=0.3)
+    ax.legend(fontsize=8, title="median per band and antenna", title_fontsize=8)
     return ax
 
 

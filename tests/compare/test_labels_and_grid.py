@@ -105,3 +105,18 @@ def test_plots_name_the_antennas_and_the_hour_basis(sim):
                            n_boot=20)
     ax = plots.hour_plot(utc)
     assert "UTC" in ax.get_xlabel() and ax.get_title().startswith("Q1ABD minus Q1ABC")
+
+
+def test_distance_points_sit_at_the_median_distance_of_their_pairs(by_distance):
+    """The open last bin ("beyond 6,000 km", up to 20,100 km) is drawn where its pairs are,
+    not at its middle near 13,000 km (issue 16)."""
+    from spotkit.viz.plots import distance_plot
+
+    ax = distance_plot(by_distance, band="20m")
+    (bars,) = [c for c in ax.containers if c[0].get_gid() == "estimate-20m"] or [None]
+    xs = np.asarray(bars[0].get_xdata(), dtype=float)
+    pairs = by_distance.pairs[by_distance.pairs[C.BAND].astype(str) == "20m"]
+    far = pairs.loc[pairs[C.DISTANCE] >= 6000, C.DISTANCE]
+    assert xs.max() == pytest.approx(float(np.median(far)), abs=1.0)  # [km]
+    assert xs.max() < 10000
+    assert "dipole minus vertical" in ax.get_ylabel()
