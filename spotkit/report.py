@@ -102,7 +102,8 @@ margin:.6em 0} .who{margin:.2em 0 .4em}
 .tbl{overflow-x:auto;max-width:100%;-webkit-overflow-scrolling:touch;margin:.4em 0}
 table{border-collapse:collapse;font-size:.9em}
 th,td{border:1px solid #ccc;padding:.25em .5em;text-align:right;vertical-align:top}
-th{background:#eef} td.l,th.l{text-align:left} td.verdict{min-width:16em;max-width:34em}
+th{background:#eef} td.l,th.l{text-align:left} td{white-space:nowrap}
+td.l{white-space:normal;min-width:8em} td.verdict{min-width:20em;max-width:40em}
 .grid td,.grid th{padding:.2em .35em;text-align:center;white-space:nowrap;font-size:.92em}
 .grid td.sig{font-weight:700;outline:2px solid #000;outline-offset:-2px}
 .grid td.ns{color:#555;background-image:repeating-linear-gradient(135deg,transparent 0 4px,
@@ -111,11 +112,11 @@ rgba(0,0,0,.13) 4px 5px)} .grid th.band{text-align:left}
 figure{margin:1em 0} figure img{max-width:100%;height:auto;border:1px solid #ddd}
 figcaption{color:#555;font-size:.9em} .caution{background:#fff6e5;border-left:4px solid #e0a000;
 padding:.6em 1em} .small{color:#666;font-size:.85em}
-pre.paste{white-space:pre-wrap;background:#f6f6f6;border:1px solid #ddd;padding:.6em;
-font-size:.85em}
+pre.paste{white-space:pre;overflow-x:auto;background:#f6f6f6;border:1px solid #ddd;
+padding:.6em;font-size:.85em}
 @media (max-width:600px){body{margin:.5em auto;padding:0 .5em} h1{font-size:1.25em}
 h2{font-size:1.2em} .headline{font-size:1.05em}
-table{font-size:.82em} td.verdict{min-width:13em}}
+table{font-size:.82em} td.verdict{min-width:24em}}
 @media print{body{max-width:none;margin:0;font-size:10.5pt} .tbl{overflow:visible}
 details>summary{list-style:none} figure,table,.headline,pre.paste{break-inside:avoid}
 h2,h3{break-after:avoid} a{color:inherit} .grid td{-webkit-print-color-adjust:exact;
@@ -172,7 +173,9 @@ def data_summary(spots: pd.DataFrame, ingest_summary=None) -> pd.DataFrame:
 def verdict_table(result, overall: bool = True) -> pd.DataFrame:
     """The verdict table of a comparison: one row per group with estimate, CI and counts.
 
-    ``overall=False`` leaves out the overall row (shown once per report). p-values below
+    ``overall=False`` leaves out the overall row (shown once per report). When the user
+    named the antennas, the headings use the names ("dipole - vertical (dB)", "only
+    vertical"). p-values below
     the floating-point floor show as ``"< 1e-16"``
     (:func:`spotkit.compare.estimate.format_p_value`); the side tests (rank, sign) are not
     in this table: they are in the CSV/JSON output, counted over receivers.
@@ -188,13 +191,14 @@ def verdict_table(result, overall: bool = True) -> pd.DataFrame:
     def f(x, fmt):
         return "" if pd.isna(x) else format(x, fmt)
 
-    out["B - A (dB)"] = [f(x, "+.2f") for x in frame[C.B_MINUS_A]]
+    la, lb = result.labels if getattr(result, "named", False) else ("A", "B")
+    out[f"{lb} - {la} (dB)"] = [f(x, "+.2f") for x in frame[C.B_MINUS_A]]
     out[f"{result.confidence:.0%} CI (dB)"] = [
         "" if pd.isna(lo) else f"{lo:+.2f} to {hi:+.2f}"
         for lo, hi in zip(frame[C.CI_LOW], frame[C.CI_HIGH], strict=True)]
     out["pairs"] = [f(x, ",.0f") for x in frame[C.PAIRS]]
-    out["only A"] = [f(x, ",.0f") for x in frame[C.ONLY_A]]
-    out["only B"] = [f(x, ",.0f") for x in frame[C.ONLY_B]]
+    out[f"only {la}"] = [f(x, ",.0f") for x in frame[C.ONLY_A]]
+    out[f"only {lb}"] = [f(x, ",.0f") for x in frame[C.ONLY_B]]
     if C.BOTH_HEARD in frame:
         out["both-heard only (dB)"] = [f(x, "+.2f") for x in frame[C.BOTH_HEARD]]
     if C.P_ADJUSTED in frame:
@@ -413,7 +417,12 @@ def markdown_summary(result, by_distance=None) -> str:
             lines += [md(r) for r in rows]
             grid = _with_edges(grid, by_distance)
             lines += ["", " ".join(_where_words(grid, la, lb))]
-    return "\n".join(lines) + "\n"
+    import textwrap
+
+    # prose lines wrapped for e-mail; table lines as they are
+    out = [ln if ln.startswith("|") else textwrap.fill(ln, 88, break_on_hyphens=False)
+           for ln in lines]
+    return "\n".join(out) + "\n"
 
 
 def _with_edges(grid: pd.DataFrame, result) -> pd.DataFrame:
