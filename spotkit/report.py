@@ -301,7 +301,7 @@ def where_html(results) -> str:
              "excludes "
              f"0 dB with enough receivers; hatched grey: no difference shown; dot: no "
              f"estimate. Blue: {html.escape(lb)} better, red: {html.escape(la)} better "
-             f"(scale +-{vmax:g} dB). Hover a cell for its interval.</p>"]
+             f"(scale +-{vmax:g} dB). Each group's interval is in the verdict tables below.</p>"]
     parts += [_grid_html(picked[k], vmax) for k in GRID_KEYS if k in picked]
     return "".join(parts)
 
