@@ -228,3 +228,20 @@ def test_report_fits_phone_and_desktop_screens_in_headless_chromium(labelled_rep
 
     img = imread(shot)
     assert img.shape[1] == width and img[..., :3].std() > 0.05
+
+
+def test_report_is_built_for_small_screens_and_print(small_experiment, report_html):
+    """Viewport, every table in its own scrolling box, the headline before the "where" grids
+    and both before the data, a print stylesheet, and the paste block (issue 16)."""
+    sim, results, _ = small_experiment
+    text = report_html
+    assert "<meta name='viewport' content='width=device-width, initial-scale=1'>" in text
+    assert "@media print" in text and "beforeprint" in text
+    assert text.count("<table") == text.count("<div class='tbl'><table")
+    head = text.index("id='verdict'")
+    where = text.index("id='where'")
+    assert head < where < text.index("<h2>Data</h2>")
+    assert f"Where {sim.b} is better or worse" in text
+    assert text.count("<table class='grid") == 2  # band x distance and band x bearing
+    paste = text[text.index("<pre class='paste'>"):text.index("</pre>")]
+    assert "| band |" in paste and "<button" not in text
