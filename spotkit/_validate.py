@@ -313,5 +313,43 @@ def check_time(value, what: str) -> pd.Timestamp:
     return ts.tz_localize("UTC") if ts.tzinfo is None else ts.tz_convert("UTC")
 
 
+#: longest antenna label [characters]: it has to fit a plot title and a table heading
+MAX_LABEL_CHARS = 32
+
+
+def check_labels(label_a, label_b) -> tuple[str, str]:
+    """Return the two antenna labels stripped, or raise a usage error saying what is wrong.
+
+    A label names an antenna in sentences, tables and figure titles ("vertical", "dipole"):
+    it must be non-empty, at most :data:`MAX_LABEL_CHARS` characters, free of control
+    characters, and the two must differ (ignoring case).
+
+    Examples
+    --------
+    >>> check_labels(" vertical ", "dipole")
+    ('vertical', 'dipole')
+    >>> check_labels("dipole", "Dipole")
+    Traceback (most recent call last):
+    ...
+    spotkit.errors.UsageError: the labels of A and B must differ, got 'dipole' for both
+    """
+    out = []
+    for which, label in (("A", label_a), ("B", label_b)):
+        text = str(label).strip() if label is not None else ""
+        if not text:
+            raise UsageError(f"the label of {which} must not be empty")
+        if len(text) > MAX_LABEL_CHARS:
+            raise UsageError(f"the label of {which} must be at most {MAX_LABEL_CHARS} "
+                             f"characters, got {len(text)} ({text[:MAX_LABEL_CHARS]!r}...)")
+        if any(not ch.isprintable() for ch in text):
+            raise UsageError(f"the label of {which} must not hold control characters, got "
+                             f"{text!r}")
+        out.append(text)
+    if out[0].casefold() == out[1].casefold():
+        raise UsageError(f"the labels of A and B must differ, got {out[0]!r} for both")
+    return out[0], out[1]
+
+
 __all__ = ["check_choice", "check_choices", "check_confidence", "check_positive", "check_finite",
-           "check_at_least", "check_divides", "check_increasing", "check_columns", "check_time"]
+           "check_at_least", "check_divides", "check_increasing", "check_columns", "check_time",
+           "check_labels", "MAX_LABEL_CHARS"]

@@ -119,6 +119,11 @@ DETECTION_TAU = "detection_tau_db"  # width of the decoders' detection curve use
 CLUSTERS = "clusters"  # number of bootstrap clusters (receivers / transmitters) in the group
 NOTE = "note"  # plain-language remark (too few pairs, no interval...)
 GROUP = "group"  # readable group label
+# --- the "where" grid (spotkit.compare.grid) ------------------------------------------
+GRID_KEY = "grid_key"  # what the grid's columns are: distance, bearing or hour
+CELL = "cell"  # short label of a grid column, e.g. "1,000-3,000 km", "45-90 deg", "06 h"
+CELL_ORDER = "cell_order"  # position of the cell along its key (0, 1, ...)
+SIGNIFICANT = "significant"  # the verdict names a better antenna (CI excludes 0, enough data)
 
 # --- several antennas and series of changes (spotkit.compare.multi, spotkit.compare.series) --
 FIRST = "first"  # the antenna (call, schedule label or period label) subtracted in a contrast

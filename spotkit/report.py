@@ -92,16 +92,40 @@ _METHOD_WORDS = [
 ]
 
 _CSS = """
-body{font-family:system-ui,-apple-system,'Segoe UI',sans-serif;max-width:1100px;margin:2em auto;
-padding:0 1em;color:#1b1b1b;line-height:1.45}
-h1{font-size:1.6em;margin-bottom:.2em} h2{border-bottom:1px solid #ccc;padding-bottom:.2em;
-margin-top:2em} .job{font-size:1.05em;color:#333}
-table{border-collapse:collapse;margin:.5em 0;font-size:.92em}
-th,td{border:1px solid #ccc;padding:.25em .6em;text-align:right} th{background:#eef}
-td.l,th.l{text-align:left} figure{margin:1em 0} figure img{max-width:100%;height:auto;
-border:1px solid #ddd} figcaption{color:#555;font-size:.9em} .caution{background:#fff6e5;
-border-left:4px solid #e0a000;padding:.6em 1em} .small{color:#666;font-size:.85em}
+*{box-sizing:border-box}
+body{font-family:system-ui,-apple-system,'Segoe UI',sans-serif;max-width:1100px;margin:1.2em auto;
+padding:0 .8em;color:#1b1b1b;line-height:1.45;overflow-wrap:break-word}
+h1{font-size:1.45em;margin:.2em 0} h2{border-bottom:1px solid #ccc;padding-bottom:.2em;
+margin-top:1.6em} h3{margin:.8em 0 .2em;font-size:1em} .job{color:#333;font-size:.95em}
+.headline{font-size:1.15em;background:#eef4fb;border-left:5px solid #2166ac;padding:.5em .8em;
+margin:.6em 0} .who{margin:.2em 0 .4em}
+.tbl{overflow-x:auto;max-width:100%;-webkit-overflow-scrolling:touch;margin:.4em 0}
+table{border-collapse:collapse;font-size:.9em}
+th,td{border:1px solid #ccc;padding:.25em .5em;text-align:right;vertical-align:top}
+th{background:#eef} td.l,th.l{text-align:left} td{white-space:nowrap}
+td.l{white-space:normal;min-width:8em} td.verdict{min-width:20em;max-width:40em}
+.grid td,.grid th{padding:.2em .35em;text-align:center;white-space:nowrap;font-size:.92em}
+.grid td.sig{font-weight:700;outline:2px solid #000;outline-offset:-2px}
+.grid td.ns{color:#555;background-image:repeating-linear-gradient(135deg,transparent 0 4px,
+rgba(0,0,0,.13) 4px 5px)} .grid th.band{text-align:left}
+.grid.hour td,.grid.hour th{padding:.15em .12em;font-size:.78em}
+figure{margin:1em 0} figure img{max-width:100%;height:auto;border:1px solid #ddd}
+figcaption{color:#555;font-size:.9em} .caution{background:#fff6e5;border-left:4px solid #e0a000;
+padding:.6em 1em} .small{color:#666;font-size:.85em}
+pre.paste{white-space:pre;overflow-x:auto;background:#f6f6f6;border:1px solid #ddd;
+padding:.6em;font-size:.85em}
+@media (max-width:600px){body{margin:.5em auto;padding:0 .5em} h1{font-size:1.25em}
+h2{font-size:1.2em} .headline{font-size:1.05em}
+table{font-size:.82em} td.verdict{min-width:24em}}
+@media print{body{max-width:none;margin:0;font-size:10.5pt} .tbl{overflow:visible}
+details>summary{list-style:none} figure,table,.headline,pre.paste{break-inside:avoid}
+h2,h3{break-after:avoid} a{color:inherit} .grid td{-webkit-print-color-adjust:exact;
+print-color-adjust:exact}}
 """
+
+#: opens the folded tables before printing (the page needs no script otherwise)
+_PRINT_SCRIPT = ("<script>addEventListener('beforeprint',()=>document.querySelectorAll("
+                 "'details').forEach(d=>d.open=true))</script>")
 
 
 def figure_to_data_uri(fig, dpi: int = 96) -> str:
@@ -149,7 +173,9 @@ def data_summary(spots: pd.DataFrame, ingest_summary=None) -> pd.DataFrame:
 def verdict_table(result, overall: bool = True) -> pd.DataFrame:
     """The verdict table of a comparison: one row per group with estimate, CI and counts.
 
-    ``overall=False`` leaves out the overall row (shown once per report). p-values below
+    ``overall=False`` leaves out the overall row (shown once per report). When the user
+    named the antennas, the headings use the names ("dipole - vertical (dB)", "only
+    vertical"). p-values below
     the floating-point floor show as ``"< 1e-16"``
     (:func:`spotkit.compare.estimate.format_p_value`); the side tests (rank, sign) are not
     in this table: they are in the CSV/JSON output, counted over receivers.
@@ -165,13 +191,14 @@ def verdict_table(result, overall: bool = True) -> pd.DataFrame:
     def f(x, fmt):
         return "" if pd.isna(x) else format(x, fmt)
 
-    out["B - A (dB)"] = [f(x, "+.2f") for x in frame[C.B_MINUS_A]]
+    la, lb = result.labels if getattr(result, "named", False) else ("A", "B")
+    out[f"{lb} - {la} (dB)"] = [f(x, "+.2f") for x in frame[C.B_MINUS_A]]
     out[f"{result.confidence:.0%} CI (dB)"] = [
         "" if pd.isna(lo) else f"{lo:+.2f} to {hi:+.2f}"
         for lo, hi in zip(frame[C.CI_LOW], frame[C.CI_HIGH], strict=True)]
     out["pairs"] = [f(x, ",.0f") for x in frame[C.PAIRS]]
-    out["only A"] = [f(x, ",.0f") for x in frame[C.ONLY_A]]
-    out["only B"] = [f(x, ",.0f") for x in frame[C.ONLY_B]]
+    out[f"only {la}"] = [f(x, ",.0f") for x in frame[C.ONLY_A]]
+    out[f"only {lb}"] = [f(x, ",.0f") for x in frame[C.ONLY_B]]
     if C.BOTH_HEARD in frame:
         out["both-heard only (dB)"] = [f(x, "+.2f") for x in frame[C.BOTH_HEARD]]
     if C.P_ADJUSTED in frame:
@@ -181,15 +208,230 @@ def verdict_table(result, overall: bool = True) -> pd.DataFrame:
 
 
 def _table_html(df: pd.DataFrame, left=("group", "item", "value", "verdict")) -> str:
-    head = "".join(f'<th class="{"l" if c in left else ""}">{html.escape(str(c))}</th>'
-                   for c in df.columns)
+    """A table in its own scrolling box, so a wide table never widens the page."""
+    def cls(c):
+        return ("l verdict" if c == "verdict" else "l") if c in left else ""
+
+    head = "".join(f'<th class="{cls(c)}">{html.escape(str(c))}</th>' for c in df.columns)
     body = []
     for row in df.itertuples(index=False):
-        cells = "".join(
-            f'<td class="{"l" if c in left else ""}">{html.escape(str(v))}</td>'
-            for c, v in zip(df.columns, row, strict=True))
+        cells = "".join(f'<td class="{cls(c)}">{html.escape(str(v))}</td>'
+                        for c, v in zip(df.columns, row, strict=True))
         body.append(f"<tr>{cells}</tr>")
-    return f"<table><thead><tr>{head}</tr></thead><tbody>{''.join(body)}</tbody></table>"
+    return (f"<div class='tbl'><table><thead><tr>{head}</tr></thead>"
+            f"<tbody>{''.join(body)}</tbody></table></div>")
+
+
+def _cell_colour(est: float, vmax: float) -> str:
+    """Background of a grid cell: the RdBu scale (blue: B better), as in the plots."""
+    import matplotlib
+
+    if not np.isfinite(est):
+        return "#ffffff"
+    r, g, b, _ = matplotlib.colormaps["RdBu"](0.5 + 0.5 * float(np.clip(est / vmax, -1, 1)))
+    return f"#{int(r * 255):02x}{int(g * 255):02x}{int(b * 255):02x}"
+
+
+def _grid_html(result, vmax: float) -> str:
+    """One "where" grid (band x distance, bearing or hour) as a coloured HTML table."""
+    from spotkit.compare.grid import difference_grid
+
+    grid = difference_grid(result)
+    if grid.empty:
+        return ""
+    cells = (grid[[C.CELL, C.CELL_ORDER]].drop_duplicates(C.CELL)
+             .sort_values(C.CELL_ORDER)[C.CELL].tolist())
+    key = grid[C.GRID_KEY].iloc[0]
+    basis = result.options.get("hour", "utc")
+    what = {"distance": "distance", "bearing": "bearing from home",
+            "hour": "hour of day, " + ("UTC" if basis == "utc"
+                                       else "local solar time at the path midpoint")}[key]
+    shown = [c.replace(" h", "") for c in cells] if key == "hour" else cells
+    head = "<th class='band'>band</th>" + "".join(f"<th>{html.escape(c)}</th>" for c in shown)
+    rows = []
+    for band, sub in grid.groupby(C.BAND, sort=False):
+        by_cell = sub.set_index(C.CELL)
+        tds = []
+        for c in cells:
+            if c not in by_cell.index:
+                tds.append("<td></td>")
+                continue
+            r = by_cell.loc[c]
+            est = float(r[C.B_MINUS_A])
+            if not np.isfinite(est):
+                tds.append("<td class='ns' title='no estimate'>.</td>")
+                continue
+            sig = bool(r[C.SIGNIFICANT])
+            colour = _cell_colour(est, vmax)
+            ink = "#fff" if abs(est) > 0.6 * vmax else "#000"
+            tip = (f"{est:+.1f} dB, CI {float(r[C.CI_LOW]):+.1f} to "
+                   f"{float(r[C.CI_HIGH]):+.1f}, {int(r[C.PAIRS]):,} pairs")
+            tds.append(f"<td class='{'sig' if sig else 'ns'}' title='{tip}' "
+                       f"style='background-color:{colour};color:{ink}'>"
+                       f"{est:+.1f}{'*' if sig else ''}</td>")
+        rows.append(f"<tr><th class='band'>{html.escape(str(band))}</th>{''.join(tds)}</tr>")
+    return (f"<h3>by band and {html.escape(what)}</h3><div class='tbl'>"
+            f"<table class='grid {html.escape(key)}'>"
+            f"<thead><tr>{head}</tr></thead><tbody>{''.join(rows)}</tbody></table></div>")
+
+
+def where_html(results) -> str:
+    """The "where" answer at the top of the report: band x distance, bearing and hour grids
+    of B minus A [dB] on one colour scale, significant cells bold with a star and outlined,
+    the others hatched; ``""`` when no comparison has those groups."""
+    from spotkit.compare.grid import GRID_KEYS, difference_grid, grid_key
+    from spotkit.errors import UsageError as _Usage
+
+    picked = {}
+    for res in results:
+        try:
+            picked.setdefault(grid_key(res), res)
+        except _Usage:
+            continue
+    if not picked:
+        return ""
+    ests = np.concatenate([difference_grid(r)[C.B_MINUS_A].to_numpy(dtype=float)
+                           for r in picked.values()])
+    ests = ests[np.isfinite(ests)]
+    vmax = float(max(1.0, np.ceil(np.abs(ests).max()))) if ests.size else 1.0
+    first = next(iter(picked.values()))
+    la, lb = first.labels
+    parts = [f"<p class='small'>{html.escape(lb)} minus {html.escape(la)} [dB] per group. "
+             f"<strong>Bold*</strong>, outlined: the {first.confidence * 100:g} % interval "
+             "excludes "
+             f"0 dB with enough receivers; hatched grey: no difference shown; dot: no "
+             f"estimate. Blue: {html.escape(lb)} better, red: {html.escape(la)} better "
+             f"(scale +-{vmax:g} dB). Each group's interval is in the verdict tables below.</p>"]
+    parts += [_grid_html(picked[k], vmax) for k in GRID_KEYS if k in picked]
+    return "".join(parts)
+
+
+def _where_words(grid: pd.DataFrame, la: str, lb: str, limit: int = 4) -> list[str]:
+    """Two or three sentences on where B wins and loses, from a band x distance grid."""
+    from spotkit.compare.estimate import group_label
+
+    def place(r):
+        return group_label({C.BAND: r[C.BAND], C.DISTANCE_MIN: r["_lo"],
+                            C.DISTANCE_MAX: r["_hi"]}, sentence=True)
+
+    def listing(rows, sign, unit="dB"):
+        items = [f"{place(r)} ({sign * r[C.B_MINUS_A]:+.1f} {unit})" for r in rows[:limit]]
+        if len(rows) > limit:
+            return ", ".join(items) + f" and {len(rows) - limit} more"
+        return ", ".join(items[:-1]) + " and " + items[-1] if len(items) > 1 else items[0]
+
+    est = grid[C.B_MINUS_A]
+    win = grid[grid[C.SIGNIFICANT] & (est > 0)].sort_values(C.B_MINUS_A, ascending=False)
+    lose = grid[grid[C.SIGNIFICANT] & (est < 0)].sort_values(C.B_MINUS_A)
+    unclear = grid[~grid[C.SIGNIFICANT]]
+    out = []
+    win_rows = win.to_dict("records")
+    lose_rows = lose.to_dict("records")
+    out.append(f"{lb} is better {listing(win_rows, 1)}." if win_rows
+               else f"{lb} is not shown better at any band and distance.")
+    out.append(f"{la} is better {listing(lose_rows, -1)}." if lose_rows
+               else f"{la} is not shown better at any band and distance.")
+    if len(unclear):
+        out.append(f"No difference shown, or too little data ({lb} minus {la}): "
+                   + listing(unclear.to_dict("records"), 1) + ".")
+    return out
+
+
+def markdown_summary(result, by_distance=None) -> str:
+    """A plain-text summary to paste into a forum post or an e-mail (Markdown).
+
+    The headline verdict, the receivers and pairs behind it, a band x distance table of B
+    minus A (``*``: the interval excludes 0 dB with enough receivers) and two or three
+    sentences on where B wins and where it loses.
+
+    Parameters
+    ----------
+    result : ComparisonResult
+        Any comparison of the run (its overall row gives the headline).
+    by_distance : ComparisonResult, optional
+        The comparison by band and distance; without it the table and sentences are left
+        out.
+
+    Returns
+    -------
+    str
+        Markdown text (readable as plain text), ending in a newline.
+
+    Examples
+    --------
+    >>> from spotkit.sim.simulate import simulate_spots
+    >>> from spotkit.compare.estimate import compare_antennas
+    >>> sim = simulate_spots(days=0.2, n_receivers=40, bands=("20m",), difference_db=3.0,
+    ...                      seed=1)
+    >>> res = compare_antennas(sim.spots, "simultaneous", sim.a, sim.b, n_boot=30,
+    ...                        by=("band", "distance"), min_pairs=5,
+    ...                        labels=("vertical", "dipole"))
+    >>> print(markdown_summary(res, res))  # doctest: +NORMALIZE_WHITESPACE
+    **dipole (B, Q1ABD) against vertical (A, Q1ABC)**, simultaneous design
+    <BLANKLINE>
+    dipole (B) is 2.8 dB better than vertical (A) (95 % CI 2.6 to 3.0 dB, 151 pairs)
+    <BLANKLINE>
+    Data: 18 receivers, 151 pairs (150 heard both, 0 only vertical, 1 only dipole).
+    <BLANKLINE>
+    dipole minus vertical [dB] by band and distance (* = 95 % CI excludes 0):
+    <BLANKLINE>
+    | band | < 1,000 km | 1,000-3,000 km | > 6,000 km |
+    |------|------------|----------------|------------|
+    | 20m  | +3.2*      | +2.7           | +2.8*      |
+    <BLANKLINE>
+    dipole is better on 20 m, within 1,000 km (+3.2 dB) and on 20 m, beyond 6,000 km
+    (+2.8 dB). vertical is not shown better at any band and distance. No difference
+    shown, or too little data (dipole minus vertical): on 20 m, at 1,000-3,000 km (+2.7 dB).
+    <BLANKLINE>
+    """
+    from spotkit.compare.grid import difference_grid, grid_table
+
+    la, lb = result.labels
+    o = result.overall
+    head = (f"{lb} (B, {result.b}) against {la} (A, {result.a})" if result.named
+            else f"B = {result.b} against A = {result.a}")
+    lines = [f"**{head}**, {result.design} design",
+             "", result.verdicts()[0], ""]
+    unit = "transmitters" if result.design == "receive" else "receivers"
+
+    def n(k):
+        v = o.get(k)
+        return "?" if v is None or pd.isna(v) else f"{int(v):,}"
+    lines.append(f"Data: {n(C.CLUSTERS)} {unit}, {n(C.PAIRS)} pairs ({n(C.BOTH)} heard "
+                 f"both, {n(C.ONLY_A)} only {la}, {n(C.ONLY_B)} only {lb}).")
+    if by_distance is not None:
+        grid = difference_grid(by_distance)
+        if len(grid):
+            tab = grid_table(grid)
+            head = ["band"] + [str(c) for c in tab.columns]
+            rows = [[str(b)] + [str(v) for v in r] for b, r in zip(tab.index, tab.to_numpy(),
+                                                                    strict=True)]
+            widths = [max(len(x) for x in col) for col in zip(head, *rows, strict=True)]
+
+            def md(cells):
+                return "| " + " | ".join(c.ljust(w) for c, w in zip(cells, widths,
+                                                                   strict=True)) + " |"
+            lines += ["", f"{lb} minus {la} [dB] by band and distance (* = "
+                      f"{by_distance.confidence * 100:g} % CI excludes 0):",
+                      "", md(head), "|" + "|".join("-" * (w + 2) for w in widths) + "|"]
+            lines += [md(r) for r in rows]
+            grid = _with_edges(grid, by_distance)
+            lines += ["", " ".join(_where_words(grid, la, lb))]
+    import textwrap
+
+    # prose lines wrapped for e-mail; table lines as they are
+    out = [ln if ln.startswith("|") else textwrap.fill(ln, 88, break_on_hyphens=False)
+           for ln in lines]
+    return "\n".join(out) + "\n"
+
+
+def _with_edges(grid: pd.DataFrame, result) -> pd.DataFrame:
+    """The grid with each cell's distance edges [km] (``_lo``, ``_hi``) from the result."""
+    g = result.groups[[C.BAND, C.DISTANCE_MIN, C.DISTANCE_MAX]].copy()
+    g[C.BAND] = g[C.BAND].astype(str)
+    g[C.CELL_ORDER] = (g[C.DISTANCE_MIN].rank(method="dense").astype(int) - 1)
+    g = g.rename(columns={C.DISTANCE_MIN: "_lo", C.DISTANCE_MAX: "_hi"})
+    return grid.merge(g, on=[C.BAND, C.CELL_ORDER], how="left")
 
 
 def _figures(spots, results, map_result, progress: bool):
@@ -225,15 +467,25 @@ def _figures(spots, results, map_result, progress: bool):
         jobs.append(("B minus A by estimated elevation angle (hop geometry), with CI bars.",
                      lambda c=C.ELEVATION_MIN, f=plots.elevation_plot: f(having(c))))
     if having(C.HOUR) is not None:
-        jobs.append(("B minus A by hour of day.", lambda c=C.HOUR, f=plots.hour_plot: f(having(c))))
+        basis = result.options.get("hour", "utc")
+        words = "UTC" if basis == "utc" else "local solar time at the path midpoint"
+        jobs.append((f"B minus A by hour of day ({words}).",
+                     lambda c=C.HOUR, f=plots.hour_plot: f(having(c))))
     jobs += [
         ("Probability of being heard against distance, A beside B, with Wilson intervals "
          "(among slots where the path was open to at least one antenna).",
-         lambda: plots.heard_plot(result.pairs)),
-        ("SNR normalised to 1 W against distance, with a running median.",
-         lambda: plots.snr_distance_plot(spots)),
+         lambda: plots.heard_plot(result)),
+        ("SNR normalised to 1 W against distance, with a running median per band and "
+         "antenna (A solid, B dashed; the line breaks where a bin has fewer than 5 spots).",
+         lambda: plots.snr_distance_plot(spots, calls=(result.a, result.b),
+                                         labels=result.labels)),
         ("Spots per hour by band.", lambda: plots.spots_per_hour_plot(spots)),
     ]
+    if result.named:  # captions in the antennas' names
+        la, lb = result.labels
+        jobs = [(c.replace("B minus A", f"{lb} minus {la}").replace("(blue: B better)",
+                                                                   f"(blue: {lb} better)"), m)
+                for c, m in jobs]
     from tqdm.auto import tqdm
 
     out, failed = [], []
@@ -278,13 +530,25 @@ def build_report(spots: pd.DataFrame, results, *, ingest_summary=None, map_resul
     if not results:
         raise UsageError("build_report needs at least one comparison result")
     result = results[0]
-    title = title or f"Antenna comparison: A = {result.a}, B = {result.b}"
+    la, lb = result.labels
+    title = title or (f"{lb} against {la}" if result.named
+                      else f"Antenna comparison: A = {result.a}, B = {result.b}")
     parts = [f"<!DOCTYPE html><html lang='en'><head><meta charset='utf-8'>"
-             f"<title>{html.escape(title)}</title><style>{_CSS}</style></head><body>",
-             f"<h1>{html.escape(title)}</h1>", f"<p class='job'>{html.escape(JOB)}</p>"]
+             "<meta name='viewport' content='width=device-width, initial-scale=1'>"
+             f"<title>{html.escape(title)}</title><style>{_CSS}</style>{_PRINT_SCRIPT}"
+             "</head><body>",
+             f"<h1>{html.escape(title)}</h1>"]
     o = result.overall
     if not pd.isna(o.get(C.B_MINUS_A, np.nan)):
-        parts.append(f"<p><strong>{html.escape(result.verdicts()[0])}</strong></p>")
+        parts.append(f"<p class='headline' id='verdict'><strong>"
+                     f"{html.escape(result.verdicts()[0])}</strong></p>")
+    parts.append(f"<p class='who'>A = {html.escape(result.who('A'))}, B = "
+                 f"{html.escape(result.who('B'))}; {html.escape(result.design)} design.</p>")
+    where = where_html(results)
+    if where:
+        parts.append(f"<h2 id='where'>Where {html.escape(lb)} is better or worse</h2>"
+                     + where)
+    parts.append(f"<p class='job'>{html.escape(JOB)}</p>")
     parts.append("<h2>Data</h2>" + _table_html(data_summary(spots, ingest_summary)))
     parts.append("<h2>Verdict</h2>")
     for res in results:
@@ -295,6 +559,10 @@ def build_report(spots: pd.DataFrame, results, *, ingest_summary=None, map_resul
                          f"click to open)</summary>{_table_html(table)}</details>")
         else:
             parts.append(f"<h3>{html.escape(label)}</h3>{_table_html(table)}")
+    by_distance = next((r for r in results if tuple(r.by) == ("band", "distance")), None)
+    parts.append("<h2 id='summary'>Summary to paste</h2><p class='small'>Plain text (Markdown) "
+                 "for a forum post or an e-mail: select it and copy.</p><pre class='paste'>"
+                 + html.escape(markdown_summary(result, by_distance)) + "</pre>")
     if result.set_aside:
         parts.append("<p class='small'>Set aside before pairing: " + html.escape(
             "; ".join(f"{k}: {v:,}" for k, v in result.set_aside.items())) + "</p>")
@@ -381,4 +649,5 @@ def write_report(path, spots: pd.DataFrame, result, **kwargs) -> Path:
 
 
 __all__ = ["JOB", "CAUTIONS", "STANDARD_BREAKDOWNS", "figure_to_data_uri", "data_summary",
-           "verdict_table", "standard_comparisons", "build_report", "write_report"]
+           "verdict_table", "where_html", "markdown_summary", "standard_comparisons",
+           "build_report", "write_report"]

@@ -151,3 +151,97 @@ def test_verdict_table_prints_p_floor_and_refuses_thin_verdicts():
     assert t["verdict"].iloc[1].startswith("B is 8.0 dB better than A on 20 m")
     assert t["verdict"].iloc[2].startswith("too little data on 10 m")
     assert "only 1 receiver" in t["verdict"].iloc[2]
+
+
+#: measures the report inside a frame of the screen's size and sends the figures to the host
+#: page (headless Chromium will not make a window narrower than 500 px, a frame it will)
+_FIT_PROBE = (
+    "<script>window.addEventListener('load',()=>{const d=document.documentElement,"
+    "v=document.getElementById('verdict').getBoundingClientRect();"
+    "parent.postMessage({'scroll-width':d.scrollWidth,'inner-width':window.innerWidth,"
+    "'inner-height':window.innerHeight,'verdict-bottom':Math.ceil(v.bottom),"
+    "'verdict-right':Math.ceil(v.right)},'*');});</script></body>")
+_FIT_HOST = (
+    "<!DOCTYPE html><html><body style='margin:0'><iframe src='{src}' width='{w}' "
+    "height='{h}' style='border:0;display:block'></iframe><script>"
+    "addEventListener('message',e=>{{for(const[k,v]of Object.entries(e.data))"
+    "document.body.setAttribute('data-'+k,v);}});</script></body></html>")
+
+
+@pytest.fixture(scope="module")
+def labelled_report(small_experiment, tmp_path_factory):
+    """The small experiment's report with the antennas named, as a user would write it."""
+    import dataclasses
+
+    sim, results, map_result = small_experiment
+    named = [dataclasses.replace(r, label_a="vertical", label_b="dipole") for r in results]
+    path = write_report(tmp_path_factory.mktemp("phone") / "r.html", sim.spots, named,
+                        map_result=map_result)
+    return path
+
+
+@pytest.mark.browser
+@pytest.mark.slow
+@pytest.mark.parametrize("width", [400, 1400])
+def test_report_fits_phone_and_desktop_screens_in_headless_chromium(labelled_report,
+                                                                    tmp_path, width):
+    """At 400 px (a phone) and 1400 px (a desktop): no horizontal page overflow (wide tables
+    scroll inside their own box), and the verdict is in the first screen. Screenshots are
+    saved for a person to look at ($SPOTKIT_SCREENSHOTS, else the test's tmp folder)."""
+    import os
+
+    browser = _chromium()
+    if browser is None:
+        pytest.skip("no Chromium on this machine (make browser installs Debian's chromium "
+                    "as root; it could not be installed here)")
+    text = labelled_report.read_text(encoding="utf-8")
+    assert "name='viewport'" in text
+    page = tmp_path / "probe.html"
+    page.write_text(text.replace("</body>", _FIT_PROBE), encoding="utf-8")
+    height = 900
+    host = tmp_path / "host.html"
+    host.write_text(_FIT_HOST.format(src=page.name, w=width, h=height), encoding="utf-8")
+    flags = ["--headless", "--no-sandbox", "--disable-gpu", "--hide-scrollbars",
+             "--no-first-run", "--disable-background-networking",
+             "--disable-component-update", "--disable-sync", "--allow-file-access-from-files",
+             f"--user-data-dir={tempfile.mkdtemp()}", "--virtual-time-budget=10000",
+             f"--window-size={max(width, 500) + 20},{height + 40}"]
+    dom = subprocess.run([browser, *flags, "--dump-dom", host.as_uri()],
+                         capture_output=True, text=True, timeout=120).stdout
+
+    def attr(name):
+        m = re.search(rf'data-{name}="(\d+)"', dom)
+        assert m, f"the probe did not report {name}"
+        return int(m.group(1))
+
+    assert attr("inner-width") == width  # the page really was laid out at this width
+    assert attr("scroll-width") <= width, "the page is wider than the screen"
+    assert attr("verdict-bottom") <= attr("inner-height"), "the verdict is below the fold"
+    assert attr("verdict-right") <= width
+    folder = Path(os.environ.get("SPOTKIT_SCREENSHOTS") or tmp_path)
+    folder.mkdir(parents=True, exist_ok=True)
+    shot = folder / f"report_{width}px.png"
+    flags[-1] = f"--window-size={width},{height}"
+    subprocess.run([browser, *flags, f"--screenshot={shot}", labelled_report.as_uri()],
+                   capture_output=True, timeout=120)
+    from matplotlib.image import imread
+
+    img = imread(shot)
+    assert img.shape[1] == width and img[..., :3].std() > 0.05
+
+
+def test_report_is_built_for_small_screens_and_print(small_experiment, report_html):
+    """Viewport, every table in its own scrolling box, the headline before the "where" grids
+    and both before the data, a print stylesheet, and the paste block (issue 16)."""
+    sim, results, _ = small_experiment
+    text = report_html
+    assert "<meta name='viewport' content='width=device-width, initial-scale=1'>" in text
+    assert "@media print" in text and "beforeprint" in text
+    assert text.count("<table") == text.count("<div class='tbl'><table")
+    head = text.index("id='verdict'")
+    where = text.index("id='where'")
+    assert head < where < text.index("<h2>Data</h2>")
+    assert f"Where {sim.b} is better or worse" in text
+    assert text.count("<table class='grid") == 2  # band x distance and band x bearing
+    paste = text[text.index("<pre class='paste'>"):text.index("</pre>")]
+    assert "| band |" in paste and "<button" not in text

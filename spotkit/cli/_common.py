@@ -134,6 +134,10 @@ def add_ab_options(p, *, required: bool = True, title: str = "A/B comparison") -
                    help="call of A (transmitter; receiver in the receive design)")
     g.add_argument("--b", metavar="CALL", help="call of B (alternating and before-after: "
                    "the same call as --a, may be left out)")
+    g.add_argument("--label-a", metavar="NAME", help="name of A in verdicts, tables, "
+                   "titles and legends, e.g. vertical (default: the call)")
+    g.add_argument("--label-b", metavar="NAME", help="name of B, e.g. dipole (default: the "
+                   "call)")
     g.add_argument("--schedule", metavar="even-odd|odd-even|every-N|FILE",
                    help="alternating design: antenna schedule (CSV: start,end,antenna[,band])")
     g.add_argument("--change-at", metavar="TIME", help="before-after design: when the "
@@ -205,7 +209,27 @@ def compare_kwargs(args) -> dict:
         kw["distance_edges"] = args.distance_edges
     if args.elevation_edges:
         kw["elevation_edges"] = args.elevation_edges
+    labels = ab_labels(args)
+    if labels is not None:
+        kw["labels"] = labels
     return kw
+
+
+def ab_labels(args) -> tuple[str, str] | None:
+    """The names of A and B from ``--label-a`` / ``--label-b`` (a missing one is the call),
+    checked; None when neither is given. A bad label is a :class:`UsageError` naming the
+    option (exit 2)."""
+    from spotkit._validate import check_labels
+
+    la, lb = getattr(args, "label_a", None), getattr(args, "label_b", None)
+    if la is None and lb is None:
+        return None
+    call_a = (getattr(args, "a", None) or "A").upper()
+    call_b = (getattr(args, "b", None) or getattr(args, "a", None) or "B").upper()
+    try:
+        return check_labels(call_a if la is None else la, call_b if lb is None else lb)
+    except UsageError as exc:
+        raise UsageError(f"--label-a/--label-b: {exc}") from None
 
 
 def write_result(result, args) -> None:

@@ -8,6 +8,7 @@ from __future__ import annotations
 
 from spotkit.cli._common import (
     EXIT_OK,
+    ab_labels,
     add_ab_options,
     add_progress_option,
     by_keys,
@@ -33,6 +34,10 @@ def add_compare(sub) -> None:
     _add_several_options(p)
     p.add_argument("--json", metavar="OUT.json", help="write the result as JSON")
     p.add_argument("--csv", metavar="OUT.csv", help="write the result table as CSV")
+    p.add_argument("--markdown", nargs="?", const="-", metavar="OUT.md",
+                   help="also a plain-text summary to paste into a forum post or an e-mail "
+                   "(headline, receivers and pairs, band x distance table, where B wins or "
+                   "loses): printed, or written to OUT.md")
     add_progress_option(p)
     p.set_defaults(func=cmd_compare)
 
@@ -124,18 +129,42 @@ def cmd_compare(args) -> int:
     by = by_keys(args.by)
     kw = compare_kwargs(args)
     inputs = (args.spots, args.schedule)
-    for option, path in (("--json", args.json), ("--csv", args.csv)):
+    markdown = getattr(args, "markdown", None)
+    md_file = markdown if markdown not in (None, "-") else None
+    for option, path in (("--json", args.json), ("--csv", args.csv), ("--markdown", md_file)):
         if path:
             check_output(path, option, inputs=inputs)
-    if args.json and args.csv:
+    outs = [x for x in (args.json, args.csv, md_file) if x]
+    if len(outs) > 1:
         from spotkit.io.atomic import check_outputs
 
-        check_outputs([args.json, args.csv])
+        check_outputs(outs)
     spots = load_spots(args.spots)
     result = compare_antennas(spots, args.design, args.a, args.b, by=by,
                               progress=progress(args), **kw)
     write_result(result, args)
+    if markdown:
+        _write_markdown(spots, result, by, kw, args, md_file)
     return EXIT_OK
+
+
+def _write_markdown(spots, result, by, kw, args, path) -> None:
+    """``--markdown``: the paste-ready summary, from the band x distance comparison (run
+    here unless ``--by`` was exactly that)."""
+    from spotkit.compare.estimate import compare_antennas
+    from spotkit.report import markdown_summary
+
+    by_distance = result if tuple(by) == ("band", "distance") else compare_antennas(
+        spots, args.design, args.a, args.b, by=("band", "distance"), **kw)
+    text = markdown_summary(result, by_distance)
+    if path is None:
+        print("\n" + text, end="")
+        return
+    from spotkit.io.atomic import staged
+
+    with staged([path]) as (tmp,):
+        tmp.write_text(text, encoding="utf-8")
+    print(f"wrote {path}")
 
 
 def add_report(sub) -> None:
@@ -161,6 +190,7 @@ def cmd_report(args) -> int:
     from spotkit.report import standard_comparisons, write_report
 
     by = by_keys(args.by)
+    ab_labels(args)  # a bad --label-a/--label-b before any work
     check_output(args.output, "-o", inputs=(args.spots, args.schedule))
     spots = load_spots(args.spots)
     show_progress = progress(args)

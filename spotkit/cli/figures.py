@@ -7,6 +7,7 @@ that compare two antennas); matplotlib is imported only when a figure is drawn.
 from __future__ import annotations
 
 from spotkit.cli._common import (
+    ab_labels,
     add_ab_options,
     add_progress_option,
     check_output,
@@ -108,9 +109,10 @@ def add_plot(sub) -> None:
     p = sub.add_parser(
         "plot", help="draw comparison and coverage plots",
         description="Draw a plot: B minus A by bearing (polar), distance, elevation or hour "
-        "with 95 % CIs (need the A/B options); P(heard) against distance for A and B (needs "
-        "the A/B options); SNR per watt against distance; spots per hour by band.")
-    _add_figure_options(p, ["bearing", "distance", "elevation", "hour", "heard",
+        "with 95 % CIs, or all at a glance as band x distance, band x bearing and band x "
+        "hour grids (--kind grid) (need the A/B options); P(heard) against distance for A "
+        "and B (needs the A/B options); SNR per watt against distance; spots per hour by band.")
+    _add_figure_options(p, ["bearing", "distance", "elevation", "hour", "grid", "heard",
                             "snr-distance", "spots-per-hour", "elevation-curve",
                             "bearing-curve"],
                         "which plot (elevation-curve, bearing-curve: B minus A smoothed "
@@ -124,6 +126,7 @@ def cmd_plot(args) -> int:
     from spotkit.viz import plots
 
     check_output(args.output, "-o", (".png", ".svg"), inputs=(args.spots,))  # before work
+    ab_labels(args)
     spots = load_spots(args.spots)
     bands = _figure_bands(args)
     if args.kind in ("bearing", "distance", "elevation", "hour"):
@@ -131,6 +134,11 @@ def cmd_plot(args) -> int:
         draw = {"bearing": plots.bearing_plot, "distance": plots.distance_plot,
                 "elevation": plots.elevation_plot, "hour": plots.hour_plot}[args.kind]
         ax = draw(result, band=bands)
+    elif args.kind == "grid":
+        results = [_figure_compare(args, spots, ("band", key))
+                   for key in ("distance", "bearing", "hour")]
+        fig = plots.grid_plot(results, band=bands)
+        return save_figure(fig, args.output, args.dpi)
     elif args.kind == "heard":
         from spotkit.compare.pairing import pair_spots
 
@@ -140,7 +148,9 @@ def cmd_plot(args) -> int:
                            change_at=args.change_at)
         if bands and len(bands) > 1:
             raise UsageError("--kind heard draws one band at a time")
-        ax = plots.heard_plot(pairs, band=bands[0] if bands else None)
+        ax = plots.heard_plot(pairs, band=bands[0] if bands else None,
+                              labels=ab_labels(args) or (args.a.upper(),
+                                                         (args.b or args.a).upper()))
     elif args.kind in ("elevation-curve", "bearing-curve"):
         from spotkit.compare.elevation import bearing_curve, elevation_curve
         from spotkit.compare.pairing import pair_spots

@@ -31,6 +31,7 @@ from spotkit.compare.estimate import (
     too_little_data,
     verdict,
 )
+from spotkit.compare.grid import GRID_KEYS, difference_grid, grid_key, grid_table
 from spotkit.compare.grouping import (
     DEFAULT_DAY_HOURS,
     DEFAULT_DISTANCE_EDGES,
@@ -95,4 +96,5 @@ __all__ = [
     "parse_antennas", "CURVE_COLUMNS", "elevation_curve", "bearing_curve", "SERIES_COLUMNS",
     "SeriesResult",
     "compare_series", "parse_periods",
+    "GRID_KEYS", "difference_grid", "grid_key", "grid_table",
 ]

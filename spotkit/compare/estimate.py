@@ -152,7 +152,7 @@ from scipy import sparse
 
 from spotkit import columns as C
 from spotkit import stats
-from spotkit._validate import check_choice, check_confidence
+from spotkit._validate import check_choice, check_confidence, check_labels
 from spotkit.compare.beforeafter import WEAKER_DESIGN, estimate_before_after
 from spotkit.compare.grouping import (
     DEFAULT_DAY_HOURS,
@@ -838,7 +838,8 @@ def too_little_data(row, cluster_label: str = "receivers") -> str:
 
 
 def verdict(row, confidence: float = 0.95, hour_basis: str = "utc",
-            design: str = "", cluster_label: str | None = None) -> str:
+            design: str = "", cluster_label: str | None = None,
+            labels: tuple[str, str] | None = None) -> str:
     """One plain-language sentence about one result row.
 
     A better antenna is named only when the interval excludes 0, at least
@@ -860,6 +861,9 @@ def verdict(row, confidence: float = 0.95, hour_basis: str = "utc",
     cluster_label : str, optional
         What the clusters are, plural ("receivers"); default "transmitters" in the receive
         design, else "receivers".
+    labels : (str, str), optional
+        Names of A and B ("vertical", "dipole"): the sentence names them, each followed by
+        its letter ("dipole (B) is 2.4 dB better than vertical (A)"). Default: the letters.
 
     Examples
     --------
@@ -874,9 +878,16 @@ def verdict(row, confidence: float = 0.95, hour_basis: str = "utc",
     >>> verdict(dict(row, clusters=1))  # doctest: +NORMALIZE_WHITESPACE
     'too little data on 20 m to name a better antenna: only 1 receiver (at least 5
     needed); B minus A +2.4 dB from 1,234 pairs'
+    >>> verdict(row, labels=("vertical", "dipole"))
+    'dipole (B) is 2.4 dB better than vertical (A) on 20 m (95 % CI 1.1 to 3.6 dB, 1,234 pairs)'
     """
     if cluster_label is None:
         cluster_label = "transmitters" if design == "receive" else "receivers"
+    if labels is None:
+        name_a, name_b, diff = "A", "B", "B minus A"
+    else:
+        name_a, name_b = f"{labels[0]} (A)", f"{labels[1]} (B)"
+        diff = f"{labels[1]} minus {labels[0]}"
     where = group_label(row, hour_basis, sentence=True)
     where = "" if where == "overall" else f" {where}"
     pct = f"{confidence * 100:g} %"
@@ -891,20 +902,20 @@ def verdict(row, confidence: float = 0.95, hour_basis: str = "utc",
     if design == "before-after":  # its note starts with the days and what the interval holds
         note = note.split("; ")[0]
     if pd.isna(lo) or pd.isna(hi):
-        return (f"B minus A is {est:+.1f} dB{where} but without an interval ({note}, "
+        return (f"{diff} is {est:+.1f} dB{where} but without an interval ({note}, "
                 f"{pairs:,} {what}){tail}")
     why = too_little_data(row, cluster_label)
     if why:
-        return (f"too little data{where} to name a better antenna: {why}; B minus A "
+        return (f"too little data{where} to name a better antenna: {why}; {diff} "
                 f"{est:+.1f} dB from {pairs:,} {what}{tail}")
     extra = f"; {note}" if note else ""
     if lo <= 0 <= hi:
         ci = f"{pct} CI {lo:.1f} to {hi:.1f} dB, {pairs:,} {what}"
-        return f"no difference shown{where} (B minus A {est:+.1f} dB, {ci}{extra}){tail}"
+        return f"no difference shown{where} ({diff} {est:+.1f} dB, {ci}{extra}){tail}"
     if est > 0:
-        better, worse, size, ci_lo, ci_hi = "B", "A", est, lo, hi
+        better, worse, size, ci_lo, ci_hi = name_b, name_a, est, lo, hi
     else:  # state A's advantage and its interval as A minus B
-        better, worse, size, ci_lo, ci_hi = "A", "B", -est, -hi, -lo
+        better, worse, size, ci_lo, ci_hi = name_a, name_b, -est, -hi, -lo
     ci = f"{pct} CI {ci_lo:.1f} to {ci_hi:.1f} dB, {pairs:,} {what}"
     return f"{better} is {size:.1f} dB better than {worse}{where} ({ci}{extra}){tail}"
 
@@ -946,6 +957,9 @@ class ComparisonResult:
         Reports or pairs left out, by reason.
     options : dict
         The settings used (edges, widths, n_boot, seed, confidence...).
+    label_a, label_b : str, optional
+        Names the user gave A and B ("vertical", "dipole"); :attr:`labels` falls back to
+        the calls. When given, the verdict sentences name them.
     """
 
     overall: dict
@@ -958,6 +972,24 @@ class ComparisonResult:
     counts: pd.DataFrame | None = None
     set_aside: dict = field(default_factory=dict)
     options: dict = field(default_factory=dict)
+    label_a: str | None = None
+    label_b: str | None = None
+
+    @property
+    def labels(self) -> tuple[str, str]:
+        """Names of A and B for titles, legends and tables: the labels given, else the
+        calls."""
+        return (self.label_a or self.a, self.label_b or self.b)
+
+    @property
+    def named(self) -> bool:
+        """Whether the user named A or B (then the verdict sentences use the names)."""
+        return bool(self.label_a or self.label_b)
+
+    def who(self, letter: str) -> str:
+        """``"vertical (Q1ABC)"`` for ``"A"`` when labelled, else the call."""
+        call, label = (self.a, self.label_a) if letter == "A" else (self.b, self.label_b)
+        return f"{label} ({call})" if label and label != call else call
 
     @property
     def confidence(self) -> float:
@@ -977,14 +1009,16 @@ class ComparisonResult:
         """Plain-language sentences, overall first, then one per group."""
         hb = self.options.get("hour", "utc")
         rows = [self.overall] + self.groups.to_dict("records")
-        return [verdict(r, self.confidence, hb, self.design) for r in rows]
+        labels = self.labels if self.named else None
+        return [verdict(r, self.confidence, hb, self.design, labels=labels) for r in rows]
 
     def to_dict(self) -> dict:
         """The result as plain Python (what :meth:`to_json` writes)."""
         def clean(d):
             return {k: _jsonable(v) for k, v in d.items()}
         return {
-            "design": self.design, "a": self.a, "b": self.b, "by": list(self.by),
+            "design": self.design, "a": self.a, "b": self.b,
+            "label_a": self.labels[0], "label_b": self.labels[1], "by": list(self.by),
             "options": clean({k: (list(v) if isinstance(v, (tuple, list, np.ndarray))
                                   else v) for k, v in self.options.items()}),
             "set_aside": {k: int(v) for k, v in self.set_aside.items()},
@@ -1014,7 +1048,7 @@ class ComparisonResult:
         show["both-heard dB"] = frame[C.BOTH_HEARD].map(fmt)
         show["p adj"] = frame[C.P_ADJUSTED].map(format_p_value)
         show["note"] = frame[C.NOTE].fillna("")
-        head = (f"{self.design} comparison, A = {self.a}, B = {self.b}"
+        head = (f"{self.design} comparison, A = {self.who('A')}, B = {self.who('B')}"
                 f"{'; by ' + ', '.join(self.by) if self.by else ''}\n"
                 f"method: {self.overall.get(C.METHOD, '')}\n")
         aside = ""
@@ -1044,7 +1078,8 @@ def compare_antennas(spots: pd.DataFrame, design: Design, a: str, b: str | None 
                      missed_reports: MissedReports = "fit",
                      day_hours: float = DEFAULT_DAY_HOURS, model: Model = "detection",
                      tau_db: float | None = None,
-                     interval: Interval = "percentile") -> ComparisonResult:
+                     interval: Interval = "percentile",
+                     labels: tuple[str, str] | None = None) -> ComparisonResult:
     """Compare antenna B with antenna A: B minus A [dB] overall and by group.
 
     Parameters
@@ -1103,6 +1138,10 @@ def compare_antennas(spots: pd.DataFrame, design: Design, a: str, b: str | None 
     interval : {"percentile", "normal"}
         The bootstrap interval (:func:`estimate_groups`): percentile (default) or the
         estimate -+ z times the bootstrap SE.
+    labels : (str, str), optional
+        Names of A and B ("vertical", "dipole") for verdicts, tables, figures and the
+        JSON; checked by :func:`spotkit._validate.check_labels` (non-empty, distinct, at
+        most 32 characters). Default: the calls.
 
     Returns
     -------
@@ -1150,6 +1189,8 @@ def compare_antennas(spots: pd.DataFrame, design: Design, a: str, b: str | None 
     """
     keys = parse_by(by)
     check_choice(model, MODELS, "model")
+    if labels is not None:
+        labels = check_labels(*labels)
     pairs = pair_spots(spots, design, a, b, schedule=schedule, change_at=change_at,
                        window_slots=window_slots, require_open_path=require_open_path,
                        threshold_method="t50" if model == "detection" else "lowest",
@@ -1198,7 +1239,9 @@ def compare_antennas(spots: pd.DataFrame, design: Design, a: str, b: str | None 
     return ComparisonResult(overall=overall, groups=groups.reset_index(drop=True),
                             pairs=pairs, design=design, a=str(a).upper(),
                             b=str(b if b else a).upper(), by=keys, counts=counts,
-                            set_aside=set_aside, options=options)
+                            set_aside=set_aside, options=options,
+                            label_a=labels[0] if labels else None,
+                            label_b=labels[1] if labels else None)
 
 
 __all__ = [

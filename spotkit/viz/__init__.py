@@ -50,6 +50,7 @@ from spotkit.viz.plots import (
     duration_tradeoff_plot,
     elevation_curve_plot,
     elevation_plot,
+    grid_plot,
     heard_by_distance,
     heard_plot,
     hour_plot,
@@ -70,5 +71,5 @@ __all__ = [
     "elevation_curve_plot", "bearing_curve_plot",
     "distance_plot", "elevation_plot", "hour_plot", "bearing_plot", "heard_by_distance",
     "heard_plot", "running_median", "snr_distance_plot", "spots_per_hour",
-    "spots_per_hour_plot", "duration_tradeoff_plot",
+    "spots_per_hour_plot", "duration_tradeoff_plot", "grid_plot",
 ]

@@ -34,9 +34,9 @@ from spotkit.bands import BAND_ORDER, sort_bands
 from spotkit.errors import InputError, UsageError
 from spotkit.units import snr_per_watt
 
-PlotKind = Literal["bearing", "distance", "elevation", "hour", "heard", "snr-distance",
-                   "spots-per-hour"]
-PLOT_KINDS = ("bearing", "distance", "elevation", "hour", "heard", "snr-distance",
+PlotKind = Literal["bearing", "distance", "elevation", "hour", "grid", "heard",
+                   "snr-distance", "spots-per-hour"]
+PLOT_KINDS = ("bearing", "distance", "elevation", "hour", "grid", "heard", "snr-distance",
               "spots-per-hour", "elevation-curve", "bearing-curve")
 #: colour map the band palette is sampled from, and the part of it used
 BAND_CMAP = "plasma"
@@ -76,6 +76,24 @@ def _new_ax(ax, *, polar=False, figsize=(6.4, 4.2)):
     return fig.add_subplot(1, 1, 1, projection="polar" if polar else None)
 
 
+def _names(result) -> tuple[str, str]:
+    """Names of A and B for titles and legends: the result's labels (the calls unless the
+    user named the antennas), ``("A", "B")`` for a bare table."""
+    return tuple(getattr(result, "labels", ("A", "B")))
+
+
+def _diff_words(result) -> str:
+    """``"dipole minus vertical"``: what B minus A is, in the antennas' names."""
+    la, lb = _names(result)
+    return f"{lb} minus {la}"
+
+
+def _hour_words(result) -> str:
+    """How the hour of a comparison is counted, for the axis label."""
+    basis = getattr(result, "options", {}).get("hour", "utc")
+    return "UTC" if basis == "utc" else "local solar time at the path midpoint"
+
+
 def _groups(result) -> pd.DataFrame:
     g = getattr(result, "groups", result)
     if not isinstance(g, pd.DataFrame):
@@ -113,7 +131,7 @@ def _need(df: pd.DataFrame, cols, key: str):
 
 
 def _interval_plot(result, lo_col, hi_col, key, xlabel, *, band=None, ax=None,
-                   mid=None, offset_frac=0.06):
+                   mid=None, offset_frac=0.06, xpos=None):
     g = _groups(result)
     _need(g, [lo_col] + ([hi_col] if hi_col else []), key)
     ax = _new_ax(ax)
@@ -124,6 +142,8 @@ def _interval_plot(result, lo_col, hi_col, key, xlabel, *, band=None, ax=None,
         lo = sub[lo_col].to_numpy(dtype=float)
         hi = sub[hi_col].to_numpy(dtype=float) if hi_col else lo + 1.0
         x = (lo + hi) / 2.0 if mid is None else mid(lo, hi)
+        if xpos is not None:  # e.g. the median distance of the bin's pairs
+            x = np.where(np.isfinite(xpos(b, lo, hi)), xpos(b, lo, hi), x)
         width = np.nanmin(hi - lo) if len(lo) else 1.0
         x = x + (i - (len(parts) - 1) / 2) * offset_frac * width
         est = sub[C.B_MINUS_A].to_numpy(dtype=float)
@@ -133,13 +153,17 @@ def _interval_plot(result, lo_col, hi_col, key, xlabel, *, band=None, ax=None,
                     color=colors.get(b, "#333333") if b else "#333333",
                     label=b if b else "B - A", gid=f"estimate-{b or 'all'}")
         empty = ~np.isfinite(est)
-        if C.PAIRS in sub:
+        if C.PAIRS in sub and empty.any():  # at the foot of the axes, clear of the bars
+            ax.plot(x[empty], np.zeros(int(empty.sum())), ls="none", marker="",
+                    gid="no-estimate-place")  # keeps them inside the x range
+            foot = ax.get_xaxis_transform()
             for xi, n in zip(x[empty], sub[C.PAIRS].to_numpy()[empty], strict=True):
-                ax.annotate(f"{int(n)} pairs:\nno estimate", (xi, 0), fontsize=6,
-                            ha="center", va="bottom", color="#777777")
+                ax.annotate(f"{int(n)} pairs:\nno estimate", (xi, 0.02 + 0.09 * i),
+                            xycoords=foot, fontsize=6, ha="center", va="bottom",
+                            color="#777777", gid="no-estimate")
     ax.axhline(0.0, color="#444444", lw=0.8, zorder=0)
     ax.set_xlabel(xlabel)
-    ax.set_ylabel("B minus A [dB]  (95 % CI)")
+    ax.set_ylabel(f"{_diff_words(result)} [dB]  (95 % CI)")
     ax.grid(alpha=0.3)
     if len(parts) > 1 or parts[0][0]:
         ax.legend(fontsize=8, title="band", title_fontsize=8)
@@ -160,9 +184,22 @@ def distance_plot(result, *, band=None, ax=None):
     -------
     matplotlib.axes.Axes
     """
-    ax = _interval_plot(result, C.DISTANCE_MIN, C.DISTANCE_MAX, "distance", "distance [km]",
-                        band=band, ax=ax)
-    ax.set_title("B minus A by distance")
+    pairs = getattr(result, "pairs", None)
+    xpos = None
+    if isinstance(pairs, pd.DataFrame) and C.DISTANCE in pairs and len(pairs):
+        d_all = pairs[C.DISTANCE].to_numpy(dtype=float)
+        bands_all = pairs[C.BAND].astype(str).to_numpy() if C.BAND in pairs else None
+
+        def xpos(b, lo, hi):  # the median distance of the bin's pairs, not its middle
+            d = d_all if b is None or bands_all is None else d_all[bands_all == b]
+            idx = np.searchsorted(hi, d, side="right")
+            ok = (idx < len(hi)) & (d >= lo[np.minimum(idx, len(lo) - 1)])
+            med = pd.Series(d[ok]).groupby(idx[ok]).median()
+            return med.reindex(range(len(lo))).to_numpy(dtype=float)
+    ax = _interval_plot(result, C.DISTANCE_MIN, C.DISTANCE_MAX, "distance",
+                        "distance [km]  (points at the median distance of their pairs)",
+                        band=band, ax=ax, xpos=xpos)
+    ax.set_title(f"{_diff_words(result)} by distance")
     return ax
 
 
@@ -171,7 +208,7 @@ def elevation_plot(result, *, band=None, ax=None):
     geometry, see :func:`spotkit.geo.geodesic.elevation_angle`)."""
     ax = _interval_plot(result, C.ELEVATION_MIN, C.ELEVATION_MAX, "elevation",
                         "estimated elevation angle [deg]", band=band, ax=ax)
-    ax.set_title("B minus A by elevation angle")
+    ax.set_title(f"{_diff_words(result)} by elevation angle")
     return ax
 
 
@@ -211,11 +248,13 @@ def elevation_curve_plot(curve: pd.DataFrame, *, band=None, ax=None):
 
 def hour_plot(result, *, band=None, ax=None):
     """B minus A with its CI per hour of day (x at the middle of the hour)."""
-    ax = _interval_plot(result, C.HOUR, None, "hour", "hour of day", band=band, ax=ax,
-                        offset_frac=0.12)
+    words = _hour_words(result)
+    ax = _interval_plot(result, C.HOUR, None, "hour", f"hour of day [{words}]", band=band,
+                        ax=ax, offset_frac=0.12)
     ax.set_xlim(0, 24)
     ax.set_xticks(range(0, 25, 3))
-    ax.set_title("B minus A by hour of day")
+    ax.set_title(f"{_diff_words(result)} by hour of day "
+                 f"({'UTC' if words == 'UTC' else 'local solar time'})")
     return ax
 
 
@@ -265,8 +304,18 @@ def bearing_plot(result, *, band=None, ax=None, rlim: float | None = None):
     ax.set_ylim(-rlim, rlim)
     th = np.linspace(0, 2 * np.pi, 181)
     ax.plot(th, np.zeros_like(th), color="black", lw=1.2, gid="zero-db")
-    ax.set_rlabel_position(100)
-    ax.set_title("B minus A [dB] by bearing (95 % CI)", pad=18)
+    # few radial labels, small, on a white ground, between two compass directions
+    from matplotlib.ticker import MaxNLocator
+
+    ax.yaxis.set_major_locator(MaxNLocator(nbins=4, symmetric=True))
+    ax.set_rlabel_position(157.5)
+    ax.tick_params(axis="y", labelsize=7)
+    for label in ax.get_yticklabels():
+        label.set_bbox(dict(facecolor="white", edgecolor="none", alpha=0.8, pad=0.5))
+    ax.annotate("0 dB", (np.radians(22.5), 0.0), fontsize=7, fontweight="bold",
+                ha="left", va="bottom", gid="zero-db-label",
+                bbox=dict(facecolor="white", edgecolor="none", alpha=0.8, pad=0.5))
+    ax.set_title(f"{_diff_words(result)} [dB] by bearing (95 % CI)", pad=18)
     ax.legend(fontsize=8, loc="lower left", bbox_to_anchor=(-0.12, -0.12))
     return ax
 
@@ -320,6 +369,115 @@ def bearing_curve_plot(curve: pd.DataFrame, *, band=None, ax=None,
     return ax
 
 
+def grid_plot(results, *, band=None, vmax: float | None = None):
+    """The "where" answer: B minus A as band x distance, band x bearing and band x hour
+    grids, one panel each, on one symmetric colour scale (blue: B better).
+
+    A cell where the verdict names a better antenna (:func:`spotkit.compare.grid.
+    difference_grid`) has its value in bold with a star and a black outline; a cell whose
+    interval includes 0 dB (or with too little data) is hatched and its value grey, so the
+    two read apart in greyscale too. Cells without an estimate show a dot.
+
+    Parameters
+    ----------
+    results : ComparisonResult or sequence of ComparisonResult
+        Comparisons by band and one of distance, bearing, hour (others are skipped).
+    band : str or list of str, optional
+        Only these bands.
+    vmax : float, optional
+        Half-range of the colour scale [dB]; default the largest estimate, at least 1 dB.
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+    """
+    import matplotlib.pyplot as plt
+    from matplotlib.patches import Rectangle
+
+    from spotkit.compare.grid import GRID_KEYS, difference_grid, grid_key
+
+    results = [results] if hasattr(results, "groups") else list(results)
+    panels = []
+    for res in results:
+        try:
+            key = grid_key(res)
+        except UsageError:
+            continue
+        g = difference_grid(res)
+        if band is not None:
+            keep = [band] if isinstance(band, str) else list(band)
+            missing = [b for b in keep if b not in set(g[C.BAND])]
+            if missing:
+                raise UsageError(f"band(s) {', '.join(missing)} not in the comparison; "
+                                 f"present: {', '.join(dict.fromkeys(g[C.BAND]))}")
+            g = g[g[C.BAND].isin(keep)]
+        if len(g):
+            panels.append((GRID_KEYS.index(key), key, res, g))
+    if not panels:
+        raise UsageError("a grid needs comparisons by band and distance, bearing or hour "
+                         "with at least one group")
+    panels.sort(key=lambda p: p[0])
+    est_all = np.concatenate([p[3][C.B_MINUS_A].to_numpy(dtype=float) for p in panels])
+    if vmax is None:
+        finite = est_all[np.isfinite(est_all)]
+        vmax = float(max(1.0, np.ceil(np.abs(finite).max()))) if finite.size else 1.0
+    heights = [max(1, p[3][C.BAND].nunique()) + 1.4 for p in panels]
+    widths = [p[3][C.CELL].nunique() for p in panels]
+    fig = plt.figure(figsize=(min(11.0, max(6.4, 0.45 * max(widths) + 2.2)),
+                              0.45 * sum(heights) + 1.6), layout="constrained")
+    axes = fig.subplots(len(panels), 1, squeeze=False,
+                        gridspec_kw={"height_ratios": heights})[:, 0]
+    cmap = plt.get_cmap("RdBu")
+    image = None
+    first = panels[0][2]
+    for ax, (_, key, res, g) in zip(axes, panels, strict=True):
+        bands = list(dict.fromkeys(g[C.BAND]))
+        cells = (g[[C.CELL, C.CELL_ORDER]].drop_duplicates(C.CELL)
+                 .sort_values(C.CELL_ORDER)[C.CELL].tolist())
+        rows = g[C.BAND].map({b: i for i, b in enumerate(bands)}).to_numpy()
+        cols = g[C.CELL].map({c: j for j, c in enumerate(cells)}).to_numpy()
+        grid = np.full((len(bands), len(cells)), np.nan)
+        est = g[C.B_MINUS_A].to_numpy(dtype=float)
+        grid[rows, cols] = est
+        image = ax.imshow(np.ma.masked_invalid(grid), cmap=cmap, vmin=-vmax, vmax=vmax,
+                          aspect="auto", interpolation="nearest")
+        sig = g[C.SIGNIFICANT].to_numpy(dtype=bool)
+        for r, c, e, s_ in zip(rows, cols, est, sig, strict=True):
+            if not np.isfinite(e):
+                ax.text(c, r, ".", ha="center", va="center", color="#777777", fontsize=9)
+                continue
+            dark = abs(e) > 0.6 * vmax
+            if s_:
+                ax.add_patch(Rectangle((c - 0.5, r - 0.5), 1, 1, fill=False, lw=1.6,
+                                       ec="black", gid="significant"))
+                ax.text(c, r, f"{e:+.1f}*", ha="center", va="center", fontsize=8,
+                        fontweight="bold", color="white" if dark else "black")
+            else:
+                ax.add_patch(Rectangle((c - 0.5, r - 0.5), 1, 1, fill=False, lw=0,
+                                       hatch="///", ec="#999999", gid="not-significant"))
+                ax.text(c, r, f"{e:+.1f}", ha="center", va="center", fontsize=7.5,
+                        color="#dddddd" if dark else "#555555")
+        ax.set_yticks(range(len(bands)), bands)
+        if key == "hour":
+            cells = [c.replace(" h", "") for c in cells]
+        ax.set_xticks(range(len(cells)), cells, fontsize=7.5,
+                      rotation=30 if key != "hour" and len(cells) > 4 else 0,
+                      ha="right" if key != "hour" and len(cells) > 4 else "center")
+        ax.tick_params(length=0)
+        what = {"distance": "distance", "bearing": "bearing from home",
+                "hour": f"hour of day ({_hour_words(res)})"}[key]
+        ax.set_title(f"by band and {what}", fontsize=9, loc="left")
+    la, lb = _names(first)
+    fig.suptitle(f"Where {lb} beats {la}: {lb} minus {la} [dB]", fontsize=11)
+    bar = fig.colorbar(image, ax=list(axes), shrink=0.9, pad=0.02)
+    bar.set_label(f"{lb} minus {la} [dB], scale +-{vmax:g} dB\n(blue: {lb} better)",
+                  fontsize=8)
+    axes[-1].set_xlabel("bold* outlined: the interval excludes 0 dB with enough receivers; "
+                        "hatched: no difference shown; dot: no estimate", fontsize=7,
+                        color="#444444", loc="left")
+    return fig
+
+
 def heard_by_distance(pairs: pd.DataFrame, *, distance_edges=None, bin_km: float = 1000.0,
                       confidence: float = 0.95) -> pd.DataFrame:
     """P(heard) of A and of B per distance bin, with Wilson score intervals, side by side.
@@ -364,7 +522,7 @@ def heard_by_distance(pairs: pd.DataFrame, *, distance_edges=None, bin_km: float
 
 
 def heard_plot(pairs, *, band=None, distance_edges=None, bin_km: float = 1000.0, ax=None,
-               n_boot: int = 1000, seed: int = 0):
+               n_boot: int = 1000, seed: int = 0, labels=None):
     """Probability of being heard against distance, A beside B, with cluster-bootstrap
     intervals.
 
@@ -383,6 +541,9 @@ def heard_plot(pairs, *, band=None, distance_edges=None, bin_km: float = 1000.0,
     ax : matplotlib.axes.Axes, optional
     n_boot, seed : int
         Bootstrap resamples of the far stations and their seed.
+    labels : (str, str), optional
+        Names of A and B for the legend; default the result's labels (the calls), or "A"
+        and "B" for a bare pairs table.
 
     Returns
     -------
@@ -390,6 +551,8 @@ def heard_plot(pairs, *, band=None, distance_edges=None, bin_km: float = 1000.0,
     """
     from spotkit.compare.heard import heard_probability
 
+    if labels is None:
+        labels = _names(pairs)
     pairs = getattr(pairs, "pairs", pairs)
     if band is not None:
         pairs = pairs[pairs[C.BAND].astype(str) == band]
@@ -409,8 +572,10 @@ def heard_plot(pairs, *, band=None, distance_edges=None, bin_km: float = 1000.0,
         yerr = np.vstack([p - t[C.P_HEARD_LOW].to_numpy(dtype=float),
                           t[C.P_HEARD_HIGH].to_numpy(dtype=float) - p])
         yerr = np.clip(np.nan_to_num(yerr, nan=0.0), 0.0, None)
+        name = labels[0] if who == "A" else labels[1]
         ax.errorbar(mid + dx * w, p, yerr=yerr, fmt=marker + "-", ms=5, capsize=3, color=col,
-                    label=who, gid=f"heard-{who.lower()}")
+                    label=name if name == who else f"{name} ({who})",
+                    gid=f"heard-{who.lower()}")
     ax.set_ylim(-0.02, 1.02)
     ax.set_xlabel("distance [km]")
     ax.set_ylabel("P(heard) among pairs  (95 % CI, far stations resampled)")
@@ -433,9 +598,26 @@ def running_median(x, y, *, bin_km: float = 250.0, min_count: int = 5) -> pd.Dat
                          "median": s["median"].to_numpy(), "count": s["size"].to_numpy()})
 
 
+def _gapped(x: np.ndarray, y: np.ndarray, step: float):
+    """``x, y`` with a NaN inserted wherever ``x`` jumps by more than one ``step``, so that a
+    line is broken across bins without data instead of joining them."""
+    x = np.asarray(x, dtype=float)
+    y = np.asarray(y, dtype=float)
+    if x.size < 2:
+        return x, y
+    cut = np.flatnonzero(np.diff(x) > step * 1.01) + 1
+    return np.insert(x, cut, np.nan), np.insert(y, cut, np.nan)
+
+
 def snr_distance_plot(spots: pd.DataFrame, *, band=None, bin_km: float = 250.0,
-                      max_points: int = 200_000, seed: int = 0, ax=None):
+                      max_points: int = 200_000, seed: int = 0, ax=None, calls=None,
+                      labels=None):
     """SNR per watt against distance, one dot per spot, with a running median per band.
+
+    The median line is broken where a bin has too few spots (it never joins across a gap).
+    With ``calls=(a, b)`` only the reports of the two antennas' calls are drawn and each
+    gets its own median per band (A solid, B dashed), so A and B are never mixed in one
+    line.
 
     Parameters
     ----------
@@ -448,6 +630,12 @@ def snr_distance_plot(spots: pd.DataFrame, *, band=None, bin_km: float = 250.0,
         At most this many dots are drawn (a seeded random subset); the medians use every
         spot.
     ax : matplotlib.axes.Axes, optional
+    calls : (str, str), optional
+        Calls of A and B: a median per antenna, from the reports sent (or, in the receive
+        design, made) under that call. With the same call twice (alternating, before-after
+        designs) a single median is drawn.
+    labels : (str, str), optional
+        Names of A and B for the legend (default the calls).
 
     Returns
     -------
@@ -457,6 +645,9 @@ def snr_distance_plot(spots: pd.DataFrame, *, band=None, bin_km: float = 250.0,
     ax = _new_ax(ax)
     colors = band_colors()
     rng = np.random.default_rng(seed)
+    if calls is not None and str(calls[0]).upper() != str(calls[1]).upper():
+        return _snr_distance_ab(spots, ax, band, bin_km, max_points, rng, calls,
+                                labels or tuple(calls), colors)
     for b, sub in _by_band(spots, band):
         d = sub[C.DISTANCE].to_numpy(dtype=float)
         v = snr_per_watt(sub[C.SNR].to_numpy(), sub[C.POWER].to_numpy())
@@ -467,13 +658,45 @@ def snr_distance_plot(spots: pd.DataFrame, *, band=None, bin_km: float = 250.0,
         ax.scatter(d[idx], v[idx], s=3, alpha=0.15, color=col, lw=0, rasterized=True,
                    gid=f"spots-{b}")
         m = running_median(d, v, bin_km=bin_km)
-        ax.plot(m["x"], m["median"], color=col, lw=2.2, label=f"{b} median",
-                path_effects=_halo(), gid=f"median-{b}")
+        ax.plot(*_gapped(m["x"], m["median"], bin_km), color=col, lw=2.2,
+                label=f"{b} median", path_effects=_halo(), gid=f"median-{b}")
     ax.set_xlabel("distance [km]")
     ax.set_ylabel("SNR per watt [dB in 2500 Hz]")
     ax.set_title("SNR against distance")
     ax.grid(alpha=0.3)
     ax.legend(fontsize=8)
+    return ax
+
+
+def _snr_distance_ab(spots, ax, band, bin_km, max_points, rng, calls, labels, colors):
+    """:func:`snr_distance_plot` with one median per antenna and band."""
+    wanted = [str(c).upper() for c in calls]
+    tx = spots[C.TX_CALL].astype(str).str.upper().to_numpy()
+    rx = spots[C.RX_CALL].astype(str).str.upper().to_numpy() if C.RX_CALL in spots else tx
+    for b, sub in _by_band(spots, band):
+        col = colors.get(b, "#333333")
+        idx_all = spots.index.get_indexer(sub.index)
+        for who, call, name, style in (("A", wanted[0], labels[0], "-"),
+                                       ("B", wanted[1], labels[1], "--")):
+            mine = (tx[idx_all] == call) | (rx[idx_all] == call)
+            d = sub[C.DISTANCE].to_numpy(dtype=float)[mine]
+            v = snr_per_watt(sub[C.SNR].to_numpy()[mine], sub[C.POWER].to_numpy()[mine])
+            if not d.size:
+                continue
+            pick = np.arange(d.size)
+            if d.size > max_points // 2:
+                pick = rng.choice(d.size, max_points // 2, replace=False)
+            ax.scatter(d[pick], v[pick], s=3, alpha=0.12, color=col, lw=0, rasterized=True,
+                       marker="o" if who == "A" else "s", gid=f"spots-{b}-{who}")
+            m = running_median(d, v, bin_km=bin_km)
+            ax.plot(*_gapped(m["x"], m["median"], bin_km), color=col, lw=2.2, ls=style,
+                    label=f"{b} {name}" + ("" if name == who else f" ({who})"),
+                    path_effects=_halo(), gid=f"median-{b}-{who}")
+    ax.set_xlabel("distance [km]")
+    ax.set_ylabel("SNR per watt [dB in 2500 Hz]")
+    ax.set_title(f"SNR against distance: {labels[0]} and {labels[1]}")
+    ax.grid(alpha=0.3)
+    ax.legend(fontsize=8, title="median per band and antenna", title_fontsize=8)
     return ax
 
 
@@ -597,6 +820,7 @@ def duration_tradeoff_plot(table: pd.DataFrame, ax=None):
 
 __all__ = ["PLOT_KINDS", "BAND_CMAP", "band_colors", "distance_plot", "elevation_plot",
            "elevation_curve_plot", "bearing_curve_plot",
-           "hour_plot", "bearing_plot", "heard_by_distance", "heard_plot", "running_median",
+           "hour_plot", "grid_plot", "bearing_plot", "heard_by_distance", "heard_plot",
+           "running_median",
            "snr_distance_plot", "spots_per_hour", "spots_per_hour_plot",
            "duration_tradeoff_plot"]

@@ -96,9 +96,38 @@ def test_snr_distance_plot_median_line(sim):
     sub = sim.spots[sim.spots[C.BAND].astype(str) == "10m"]
     (line,) = [ln for ln in ax.lines if ln.get_gid() == "median-10m"]
     m = plots.running_median(sub[C.DISTANCE], sub[C.SNR] - (sub[C.POWER] - 30), bin_km=500)
-    np.testing.assert_allclose(line.get_ydata(), m["median"])
+    y = np.asarray(line.get_ydata(), dtype=float)
+    np.testing.assert_allclose(y[np.isfinite(y)], m["median"])
     (dots,) = [c for c in ax.collections if c.get_gid() == "spots-10m"]
     assert len(dots.get_offsets()) == len(sub)
+
+
+def test_snr_distance_median_breaks_at_gaps_and_keeps_a_apart_from_b(sim):
+    """The median line never joins two bins with an empty bin between them, and with the
+    calls given A and B each get their own line from their own reports (issue 16)."""
+    ax = plots.snr_distance_plot(sim.spots, band="10m", bin_km=500)
+    (line,) = [ln for ln in ax.lines if ln.get_gid() == "median-10m"]
+    x = np.asarray(line.get_xdata(), dtype=float)
+    m = plots.running_median(sim.spots.loc[sim.spots[C.BAND].astype(str) == "10m",
+                                           C.DISTANCE],
+                             np.ones((sim.spots[C.BAND].astype(str) == "10m").sum()),
+                             bin_km=500)
+    gaps = int((np.diff(m["x"]) > 500 * 1.01).sum())
+    assert gaps >= 1  # the demo has distances with no 10 m receivers
+    assert int(np.isnan(x).sum()) == gaps
+    runs = np.split(x, np.flatnonzero(np.isnan(x)))
+    assert all((np.diff(r[np.isfinite(r)]) <= 500 * 1.01).all() for r in runs)
+
+    ax = plots.snr_distance_plot(sim.spots, band="20m", calls=(sim.a, sim.b),
+                                 labels=("vertical", "dipole"))
+    lines = {ln.get_gid(): ln for ln in ax.lines}
+    assert {"median-20m-A", "median-20m-B"} <= set(lines)
+    sub = sim.spots[(sim.spots[C.BAND].astype(str) == "20m")
+                    & (sim.spots[C.TX_CALL].astype(str) == sim.b)]
+    want = plots.running_median(sub[C.DISTANCE], sub[C.SNR] - (sub[C.POWER] - 30))
+    y = np.asarray(lines["median-20m-B"].get_ydata(), dtype=float)
+    np.testing.assert_allclose(y[np.isfinite(y)], want["median"])
+    assert any("dipole (B)" in t.get_text() for t in ax.get_legend().get_texts())
 
 
 def test_spots_per_hour_counts_every_spot(sim):
@@ -123,6 +152,8 @@ def test_bearing_plot_is_a_compass_with_ci_bands():
     assert len([c for c in ax.collections if c.get_gid() == "ci-all"]) == 4
     rmin, rmax = ax.get_ylim()
     assert rmin == -rmax and rmax >= 3.0
+    # the 0 dB circle is named (issue 16)
+    assert [t.get_text() for t in ax.texts if t.get_gid() == "zero-db-label"] == ["0 dB"]
 
 
 @pytest.mark.parametrize("draw, keys", [
