@@ -150,6 +150,7 @@ HOURS_MORE = "hours_more"  # hours more at the current rate until a stop rule ca
 CAN_STOP = "can_stop"  # a stop rule fired (bool)
 VERDICT = "verdict"  # plain-language verdict of the stop rules
 ROWS = "rows"  # spot rows in the archive at an update
+EFFECTIVE_CLUSTERS = "effective_clusters"  # Kish: pairs^2 / sum of pairs per cluster^2
 
 # --- rejects table -----------------------------------------------------------------------
 REJECT_FIELD = "field"

@@ -24,8 +24,10 @@ from spotkit.monitor.track import (
     MIN_CLUSTERS,
     add_sequence,
     data_hours,
+    effective_clusters,
     estimate_now,
     replay_run,
+    small_sample_factor,
 )
 
 __all__ = [
@@ -33,5 +35,6 @@ __all__ = [
     "sequence_multiplier", "tuning_constant",
     "HORIZON_HOURS", "band_text", "hours_to_halfwidth", "needed_halfwidth", "stop_verdict",
     "DEFAULT_TUNING_WIDTH_DB", "HISTORY_COLUMNS", "MIN_CLUSTERS", "add_sequence", "data_hours",
+    "effective_clusters", "small_sample_factor",
     "estimate_now", "replay_run",
 ]

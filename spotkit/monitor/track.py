@@ -19,10 +19,10 @@ from spotkit.monitor.sequence import confidence_sequence, se_for_width
 from spotkit.monitor.stopping import hours_to_halfwidth, needed_halfwidth, stop_verdict
 
 #: columns of a history, in order
-HISTORY_COLUMNS = [C.HOURS, C.BAND, C.ROWS, C.PAIRS, C.CLUSTERS, C.B_MINUS_A, C.SE,
-                   C.SYSTEMATIC, C.CI_LOW, C.CI_HIGH, C.CS_LOW, C.CS_HIGH, C.CS_WIDTH,
-                   C.WIDTH_SHRINK, C.HOURS_MORE, C.CAN_STOP, C.VERDICT]
-#: fewest receivers (clusters) before a band gets a sequence and a verdict
+HISTORY_COLUMNS = [C.HOURS, C.BAND, C.ROWS, C.PAIRS, C.CLUSTERS, C.EFFECTIVE_CLUSTERS,
+                   C.B_MINUS_A, C.SE, C.SYSTEMATIC, C.CI_LOW, C.CI_HIGH, C.CS_LOW, C.CS_HIGH,
+                   C.CS_WIDTH, C.WIDTH_SHRINK, C.HOURS_MORE, C.CAN_STOP, C.VERDICT]
+#: fewest effective receivers (clusters, Kish) before a band gets a sequence and a verdict
 MIN_CLUSTERS = 10
 #: sequence tuned for this width when no target width is given [dB]
 DEFAULT_TUNING_WIDTH_DB = 1.0
@@ -35,6 +35,30 @@ def data_hours(spots: pd.DataFrame) -> float:
     slots = spots[C.SLOT]
     span = (slots.max() - slots.min()) / pd.Timedelta(hours=1)
     return float(span + C.SLOT_MINUTES / 60)
+
+
+def effective_clusters(pairs: pd.DataFrame) -> pd.Series:
+    """Effective number of clusters per band (Kish): ``n^2 / sum(n_c^2)`` with ``n_c`` the
+    pairs of cluster (receiver) ``c``. Equal to the number of receivers when all report
+    alike, far fewer when a few receivers carry most pairs.
+
+    References
+    ----------
+    .. [1] L. Kish, Survey Sampling, Wiley, 1965 (the design-effect effective sample size).
+
+    Examples
+    --------
+    >>> p = pd.DataFrame({"band": ["20m"] * 6 + ["10m"] * 4,
+    ...                   "cluster": list("aaaabc") + list("wxyz")})
+    >>> effective_clusters(p).round(2).to_dict()
+    {'10m': 4.0, '20m': 2.0}
+    """
+    if not len(pairs):
+        return pd.Series(dtype=float)
+    n = pairs.groupby([pairs[C.BAND].astype(str), pairs[C.CLUSTER].astype(str)]).size()
+    n = n[n > 0].astype(float)
+    by = n.groupby(level=0)
+    return (by.sum() ** 2 / (n**2).groupby(level=0).sum()).rename(C.EFFECTIVE_CLUSTERS)
 
 
 def estimate_now(spots: pd.DataFrame, design, a: str, b: str | None = None, *,
@@ -61,9 +85,9 @@ def estimate_now(spots: pd.DataFrame, design, a: str, b: str | None = None, *,
     Returns
     -------
     pandas.DataFrame
-        ``C.HOURS, C.BAND, C.ROWS, C.PAIRS, C.CLUSTERS, C.B_MINUS_A, C.SE, C.SYSTEMATIC,
-        C.CI_LOW, C.CI_HIGH``; SE is half the width of the statistical part of the normal
-        bootstrap interval over ``z``. No row for a band without pairs.
+        ``C.HOURS, C.BAND, C.ROWS, C.PAIRS, C.CLUSTERS, C.EFFECTIVE_CLUSTERS, C.B_MINUS_A,
+        C.SE, C.SYSTEMATIC, C.CI_LOW, C.CI_HIGH``; SE is half the width of the statistical
+        part of the normal bootstrap interval over ``z``. No row for a band without pairs.
     """
     hours = data_hours(spots) if hours is None else float(hours)
     res = compare_antennas(spots, design, a, b, by="band", n_boot=n_boot, seed=seed,
@@ -71,14 +95,40 @@ def estimate_now(spots: pd.DataFrame, design, a: str, b: str | None = None, *,
     f = res.to_frame()
     f = f[f[C.BAND].notna()] if C.BAND in f else f.iloc[:0]
     z = stats.norm.ppf(0.5 + confidence / 2)
+    bands = f[C.BAND].astype(str).to_numpy()
     out = pd.DataFrame({
-        C.HOURS: hours, C.BAND: f[C.BAND].astype(str).to_numpy(), C.ROWS: len(spots),
+        C.HOURS: hours, C.BAND: bands, C.ROWS: len(spots),
         C.PAIRS: f[C.PAIRS].to_numpy(), C.CLUSTERS: f[C.CLUSTERS].to_numpy(),
+        C.EFFECTIVE_CLUSTERS: effective_clusters(res.pairs).reindex(bands).to_numpy(float),
         C.B_MINUS_A: f[C.B_MINUS_A].to_numpy(float),
         C.SE: ((f[C.CI_STAT_HIGH] - f[C.CI_STAT_LOW]) / (2 * z)).to_numpy(float),
         C.SYSTEMATIC: f[C.SYSTEMATIC].fillna(0.0).to_numpy(float),
         C.CI_LOW: f[C.CI_LOW].to_numpy(float), C.CI_HIGH: f[C.CI_HIGH].to_numpy(float)})
     return out[out[C.PAIRS] > 0].reset_index(drop=True)
+
+
+def small_sample_factor(k_eff, confidence: float = 0.95):
+    """``t_{k-1} / z`` quantile ratio that widens a cluster SE from few effective clusters.
+
+    With few clusters a cluster bootstrap (or sandwich) SE is too small; using Student t
+    quantiles with (clusters - 1) degrees of freedom is common practice [1]_. Here the
+    effective number of clusters (:func:`effective_clusters`) stands for the clusters, which
+    the coverage simulation (tests/monitor/test_coverage_sequence.py) needed when a few
+    receivers carry most pairs.
+
+    References
+    ----------
+    .. [1] A. C. Cameron and D. L. Miller, "A practitioner's guide to cluster-robust
+       inference", J. Human Resources 50(2):317-372, 2015.
+
+    Examples
+    --------
+    >>> small_sample_factor([10.0, 1000.0]).round(3).tolist()
+    [1.154, 1.001]
+    """
+    k = np.maximum(np.asarray(k_eff, dtype=float) - 1, 1.0)
+    q = 0.5 + confidence / 2
+    return stats.t.ppf(q, k) / stats.norm.ppf(q)
 
 
 def add_sequence(history: pd.DataFrame, *, confidence: float = 0.95, margin_db: float = 0.5,
@@ -100,7 +150,8 @@ def add_sequence(history: pd.DataFrame, *, confidence: float = 0.95, margin_db: 
     max_hours : float, optional
         The planned longest run [h]: at it, stop without a clear answer.
     min_clusters : int
-        Fewest receivers for a sequence.
+        Fewest effective receivers (:func:`effective_clusters`) for a sequence; the SE is
+        widened by :func:`small_sample_factor` of them.
     tuning_width_db : float, optional
         Width of the fixed-time interval at which the sequence is tightest [dB]
         (default: the target width, else :data:`DEFAULT_TUNING_WIDTH_DB`).
@@ -115,6 +166,7 @@ def add_sequence(history: pd.DataFrame, *, confidence: float = 0.95, margin_db: 
     --------
     >>> h = pd.DataFrame({"hours": [6.0, 12.0], "band": "20m", "rows": [900, 1800],
     ...                   "pairs": [300, 600], "clusters": [40, 55],
+    ...                   "effective_clusters": [400.0, 550.0],
     ...                   "b_minus_a_db": [0.9, 1.0], "se_db": [0.4, 0.28],
     ...                   "systematic_db": 0.0, "ci_low_db": [0.12, 0.45],
     ...                   "ci_high_db": [1.68, 1.55]})
@@ -127,8 +179,10 @@ def add_sequence(history: pd.DataFrame, *, confidence: float = 0.95, margin_db: 
     width = tuning_width_db or target_width_db or DEFAULT_TUNING_WIDTH_DB
     se_tuned = se_for_width(width, confidence)
     h = history.reset_index(drop=True).copy()
-    enough = (h[C.CLUSTERS] >= min_clusters) & np.isfinite(h[C.SE]) & (h[C.SE] > 0)
-    lo, hi = confidence_sequence(h[C.B_MINUS_A], h[C.SE], se_tuned=se_tuned,
+    k_eff = h[C.EFFECTIVE_CLUSTERS].to_numpy(float)
+    enough = (k_eff >= min_clusters) & np.isfinite(h[C.SE]) & (h[C.SE] > 0)
+    se = h[C.SE] * small_sample_factor(k_eff, confidence)
+    lo, hi = confidence_sequence(h[C.B_MINUS_A], se, se_tuned=se_tuned,
                                  confidence=confidence, systematic=h[C.SYSTEMATIC])
     h[C.CS_LOW] = np.where(enough, lo, np.nan)
     h[C.CS_HIGH] = np.where(enough, hi, np.nan)
@@ -139,13 +193,13 @@ def add_sequence(history: pd.DataFrame, *, confidence: float = 0.95, margin_db: 
     need = needed_halfwidth(h[C.B_MINUS_A], margin_db=margin_db,
                             target_width_db=target_width_db)
     h[C.HOURS_MORE] = np.where(enough, hours_to_halfwidth(
-        need, h[C.SE], h[C.HOURS], se_tuned=se_tuned, confidence=confidence,
+        need, se, h[C.HOURS], se_tuned=se_tuned, confidence=confidence,
         systematic_db=h[C.SYSTEMATIC]), np.nan)
     stops, texts = [], []
     for row, ok in zip(h.itertuples(index=False), enough, strict=True):  # one per band+look
         r = row._asdict()
-        too_few = None if ok else (f"too few receivers yet ({int(r[C.CLUSTERS])} < "
-                                   f"{min_clusters})")
+        too_few = None if ok else (f"too few receivers yet ({r[C.EFFECTIVE_CLUSTERS]:.0f} "
+                                   f"effective < {min_clusters})")
         s, t = stop_verdict(r[C.BAND], r[C.B_MINUS_A], r[C.CS_LOW], r[C.CS_HIGH],
                             margin_db=margin_db, target_width_db=target_width_db,
                             hours_more=r[C.HOURS_MORE], too_few=too_few,
@@ -217,4 +271,5 @@ def replay_run(spots: pd.DataFrame, design, a: str, b: str | None = None, *,
 
 
 __all__ = ["HISTORY_COLUMNS", "MIN_CLUSTERS", "DEFAULT_TUNING_WIDTH_DB", "data_hours",
+           "effective_clusters", "small_sample_factor",
            "estimate_now", "add_sequence", "replay_run"]
