@@ -242,7 +242,10 @@ def ingest_new(sources, folder, *, memory_mb: float | None = None,
             state["pending"] = None
             if piece != p:
                 piece.unlink(missing_ok=True)
-            reason = str(exc).replace(str(piece), str(p)).splitlines()[0]
+            reason = " ".join(x.strip() for x in str(exc).splitlines() if x.strip())
+            for name in (str(piece), str(p)):
+                if reason.startswith(name + ": "):
+                    reason = reason[len(name) + 2:]
             set_aside.append(_set_aside(state, key, stat, reason))
             write_state(folder, state)
             continue
