@@ -71,20 +71,23 @@ def terminal_chart(history: pd.DataFrame, band: str, *, width: int = CHART_WIDTH
     ...                   "cs_low_db": [-0.5, 0.2], "cs_high_db": [2.5, 2.2]})
     >>> print("\\n".join(terminal_chart(h, "20m", width=30)))
     20 m, B-A [dB] from -0.5 to +2.5: [ sequence ] ( fixed ) * estimate | 0
-        1.0 h [----(-----*-----)---------]
-        2.0 h      |  [--(--*---)----]
+        1.0 h [------(------*-------)------]
+        2.0 h      | [----(---*----)----]
     """
     h = history[history[C.BAND].astype(str) == band].tail(last)
     cols = [C.B_MINUS_A, C.CI_LOW, C.CI_HIGH, C.CS_LOW, C.CS_HIGH]
     vals = h[cols].to_numpy(float)
-    finite = vals[np.isfinite(vals)]
+    scale = vals[:, [0, 3, 4]]  # estimate and sequence; the fixed interval is clipped
+    finite = scale[np.isfinite(scale)]
+    if not finite.size:
+        finite = vals[np.isfinite(vals)]
     if not finite.size:
         return [f"{band_text(band)}: no estimate yet"]
     lo, hi = min(finite.min(), 0.0), max(finite.max(), 0.0)
     span = hi - lo or 1.0
 
     def pos(x):
-        return int(round((x - lo) / span * (width - 1)))
+        return int(np.clip(round((x - lo) / span * (width - 1)), 0, width - 1))
 
     out = [f"{band_text(band)}, B-A [dB] from {lo:+.1f} to {hi:+.1f}: "
            "[ sequence ] ( fixed ) * estimate | 0"]
@@ -134,11 +137,12 @@ def sequence_plot(history: pd.DataFrame, band: str, ax=None, *, margin_db: float
         _, ax = plt.subplots(figsize=(7, 3.2))
     h = history[history[C.BAND].astype(str) == band]
     x = h[C.HOURS].to_numpy(float)
-    ax.fill_between(x, h[C.CS_LOW], h[C.CS_HIGH], color="#7aa6c2", alpha=0.35, step="post",
+    ax.fill_between(x, h[C.CS_LOW], h[C.CS_HIGH], color="#7aa6c2", alpha=0.35,
                     label="confidence sequence (any number of looks)")
-    ax.fill_between(x, h[C.CI_LOW], h[C.CI_HIGH], color="#d9822b", alpha=0.45, step="post",
+    ax.fill_between(x, h[C.CI_LOW], h[C.CI_HIGH], color="#d9822b", alpha=0.45,
                     label="fixed-time 95 % interval (one look)")
-    ax.step(x, h[C.B_MINUS_A], where="post", color="#222222", lw=1.4, label="B-A estimate")
+    ax.plot(x, h[C.B_MINUS_A], color="#222222", lw=1.4, marker="o", ms=3,
+            label="B-A estimate at each look")
     ax.axhline(0.0, color="#555555", lw=0.8)
     if margin_db > 0:
         for m in (-margin_db, margin_db):
@@ -173,7 +177,7 @@ def page_html(history: pd.DataFrame, *, title: str, refresh_s: int | None = 600,
     """The watch page as a string (self-contained; reloads itself every ``refresh_s`` s)."""
     e = html.escape
     head = (f'<meta http-equiv="refresh" content="{int(refresh_s)}">' if refresh_s else "")
-    rows = []
+    rows, verdicts = [], []
     for r in latest(history).itertuples(index=False):
         r = r._asdict()
         stop = "stop" if r[C.CAN_STOP] else "go"
@@ -182,7 +186,8 @@ def page_html(history: pd.DataFrame, *, title: str, refresh_s: int | None = 600,
             f"<td>{int(r[C.PAIRS]):,}</td><td>{_fmt(r[C.B_MINUS_A])}</td>"
             f"<td>{_fmt(r[C.CI_LOW])} to {_fmt(r[C.CI_HIGH])}</td>"
             f"<td>{_fmt(r[C.CS_LOW])} to {_fmt(r[C.CS_HIGH])}</td>"
-            f"<td>{_fmt(r[C.WIDTH_SHRINK], '{:.0%}')}</td><td>{e(r[C.VERDICT])}</td></tr>")
+            f"<td>{_fmt(r[C.WIDTH_SHRINK], '{:.0%}')}</td></tr>")
+        verdicts.append(f"<li class='{stop}'>{e(r[C.VERDICT])}</li>")
     img = (f'<img alt="B-A over time" src="data:image/png;base64,'
            f'{_figure_png(history, margin_db)}">' if len(history) else
            "<p>No estimate yet.</p>")
@@ -197,19 +202,22 @@ body {{ font-family: system-ui, sans-serif; margin: 1em auto; max-width: 60em;
 table {{ border-collapse: collapse; width: 100%; font-size: 0.92em; }}
 th, td {{ border-bottom: 1px solid #ddd; padding: 0.3em 0.4em; text-align: left;
           vertical-align: top; }}
-tr.stop td:last-child {{ font-weight: bold; color: #1b5e20; }}
-tr.go td:last-child {{ color: #7a4a00; }}
+ul.verdicts {{ padding-left: 1.2em; font-size: 1.05em; }}
+li.stop {{ font-weight: bold; color: #1b5e20; }}
+li.go {{ color: #7a4a00; }}
 .wrap {{ overflow-x: auto; }}
 img {{ max-width: 100%; height: auto; }}
 .small {{ color: #666; font-size: 0.85em; }}
+h1 {{ font-size: 1.5em; }}
 </style></head><body>
 <h1>{e(title)}</h1>
 <p class="small">This page reloads itself every {int(refresh_s or 0)} s. The confidence
 sequence stays right however often you look; the fixed-time interval is right only at one
 look chosen in advance.</p>
+<ul class="verdicts">{''.join(verdicts) or '<li>No estimate yet.</li>'}</ul>
 <div class="wrap"><table>
 <tr><th>band</th><th>hours</th><th>pairs</th><th>B-A [dB]</th><th>fixed 95 % [dB]</th>
-<th>sequence [dB]</th><th>width now / first</th><th>verdict</th></tr>
+<th>sequence [dB]</th><th>width now / first</th></tr>
 {''.join(rows)}
 </table></div>
 {img}

@@ -91,6 +91,12 @@ def hours_to_halfwidth(need_db, se_db, hours, *, se_tuned: float, confidence: fl
     return np.where(bad, np.nan, np.maximum(more, 0.0))
 
 
+def _signed(x: float) -> str:
+    """``+0.3`` / ``-1.2`` with one decimal, never ``-0.0``."""
+    text = f"{x:+.1f}"
+    return "+0.0" if text == "-0.0" else text
+
+
 def stop_verdict(band, estimate, cs_low, cs_high, *, margin_db: float = 0.5,
                  target_width_db: float | None = None, hours_more=np.nan,
                  reached_cap: bool = False, too_few: str | None = None) -> tuple[bool, str]:
@@ -115,7 +121,7 @@ def stop_verdict(band, estimate, cs_low, cs_high, *, margin_db: float = 0.5,
 
     Examples
     --------
-    >>> stop_verdict("10m", 2.1, 1.2, 3.0)
+    >>> stop_verdict("10m", 2.1, 1.2, 3.0)  # doctest: +NORMALIZE_WHITESPACE
     (True, 'B is better on 10 m - you can stop (B-A +2.1 dB, sequence +1.2 to +3.0 dB)')
     >>> print(stop_verdict("20m", 0.1, -0.4, 0.45)[1])  # doctest: +NORMALIZE_WHITESPACE
     no difference larger than 0.5 dB on 20 m - you can stop
@@ -128,7 +134,8 @@ def stop_verdict(band, estimate, cs_low, cs_high, *, margin_db: float = 0.5,
     where = band_text(band)
     if too_few:
         return False, f"keep going on {where}: {too_few}"
-    nums = f"(B-A {estimate:+.1f} dB, sequence {cs_low:+.1f} to {cs_high:+.1f} dB)"
+    nums = (f"(B-A {_signed(estimate)} dB, sequence {_signed(cs_low)} to "
+            f"{_signed(cs_high)} dB)")
     if cs_low > 0:
         return True, f"B is better on {where} - you can stop {nums}"
     if cs_high < 0:
