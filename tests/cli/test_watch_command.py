@@ -69,3 +69,20 @@ def test_a_corrupt_export_is_set_aside_with_exit_1_and_a_reason(tmp_path, capsys
     assert err.startswith("spotkit: set aside") and "blob.csv" in err and err.count("\n") == 1
     state = read_state(tmp_path / "w")
     assert list(state["set_aside"].values())[0]["reason"]
+
+
+def test_without_once_it_follows_until_every_band_may_stop(tmp_path, capsys):
+    """The loop (``--every``, here a fraction of a second) ends with ``--until-stop`` once
+    every band's verdict says stop."""
+    from spotkit.sim.simulate import simulate_spots
+
+    sim = simulate_spots(days=0.5, n_receivers=60, bands=("20m",), seed=5, difference_db=3.0)
+    src = tmp_path / "exports"
+    src.mkdir()
+    _exports(sim, 12.0)[0].to_csv(src / "export.csv", index=False)
+    code = main(["watch", str(src), "-o", str(tmp_path / "w"), "--design", "simultaneous",
+                 "--a", A, "--b", B, "--boot", "30", "--every", "0.001", "--until-stop"])
+    assert code == 0
+    out = capsys.readouterr().out
+    assert "B is better on 20 m - you can stop" in out
+    assert "20 m, B-A [dB]" in out  # the chart of the terminal view
