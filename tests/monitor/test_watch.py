@@ -45,6 +45,7 @@ def _rows(folder) -> int:
     return len(read_dataset(Path(folder) / ARCHIVE_NAME, dedupe=False))
 
 
+@pytest.mark.slow
 def test_new_files_then_a_grown_file_count_each_report_once(run, tmp_path):
     rows, hours = run
     src = tmp_path / "in"
