@@ -35,11 +35,11 @@ shrinking with time (the receivers' own B - A spread), and so does the sequence.
 References
 ----------
 .. [1] I. Waudby-Smith, D. Arbour, R. Sinha, E. H. Kennedy and A. Ramdas, "Time-uniform
-   central limit theory and asymptotic confidence sequences", Annals of Statistics 52(6),
-   2024. arXiv:2103.06476.
+   central limit theory and asymptotic confidence sequences", Annals of Statistics, 2024.
+   arXiv:2103.06476. (Authors, volume and arXiv number from memory, not checked.)
 .. [2] S. R. Howard, A. Ramdas, J. McAuliffe and J. Sekhon, "Time-uniform, nonparametric,
    nonasymptotic confidence sequences", Annals of Statistics 49(2):1055-1080, 2021.
-   doi:10.1214/20-AOS1991
+   doi:10.1214/20-AOS1991 (from memory, not checked)
 """
 from __future__ import annotations
 
