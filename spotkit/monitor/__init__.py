@@ -51,14 +51,23 @@ from spotkit.monitor.track import (
     replay_run,
     small_sample_factor,
 )
-from spotkit.monitor.watch import LOOK_COLUMNS, PAGE_NAME, WatchUpdate, watch, watch_once
+from spotkit.monitor.watch import (
+    LOOK_COLUMNS,
+    PAGE_NAME,
+    WATCH_LOCK_NAME,
+    WATCH_LOCK_TIMEOUT_S,
+    WatchUpdate,
+    watch,
+    watch_once,
+)
 
 __all__ = [
     "ARCHIVE_NAME", "EXPORT_SUFFIXES", "PIECES_NAME", "STATE_NAME", "empty_state",
     "find_exports", "ingest_new", "read_state", "settle_pending", "write_state",
     "CHART_WIDTH", "latest", "page_html", "sequence_plot", "summary_lines", "terminal_chart",
     "terminal_view", "write_page",
-    "LOOK_COLUMNS", "PAGE_NAME", "WatchUpdate", "watch", "watch_once",
+    "LOOK_COLUMNS", "PAGE_NAME", "WATCH_LOCK_NAME", "WATCH_LOCK_TIMEOUT_S", "WatchUpdate",
+    "watch", "watch_once",
     "confidence_sequence", "fixed_interval", "normal_mixture_radius", "se_for_width",
     "sequence_multiplier", "tuning_constant",
     "HORIZON_HOURS", "band_text", "hours_to_halfwidth", "needed_halfwidth", "stop_verdict",

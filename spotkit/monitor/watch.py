@@ -7,7 +7,9 @@ The watch folder holds ``archive/`` (the spot archive, :mod:`spotkit.io.archive`
 An update estimates only when the archive holds more rows than at the last look, so running
 :func:`watch_once` again after a restart (or a kill) continues the same history and gives
 the same answer as a run that was never stopped: the estimate depends only on the archive
-(read with duplicates removed) and the bootstrap seed.
+(read with duplicates removed) and the bootstrap seed. Two watches on one folder take turns:
+an update holds the folder's lock (``_watch.lock``, through the ``filelock`` package; the
+kernel releases it when the process dies).
 """
 from __future__ import annotations
 
@@ -18,7 +20,7 @@ from pathlib import Path
 import pandas as pd
 
 from spotkit import columns as C
-from spotkit.errors import SpotkitError
+from spotkit.errors import SpotkitError, UsageError
 from spotkit.io.store import read_dataset
 from spotkit.monitor.follow import ARCHIVE_NAME, ingest_new, read_state, write_state
 from spotkit.monitor.page import summary_lines, terminal_view, write_page
@@ -31,6 +33,10 @@ from spotkit.monitor.track import (
 
 #: the page in the watch folder
 PAGE_NAME = "watch.html"
+#: the lock an update holds in the watch folder
+WATCH_LOCK_NAME = "_watch.lock"
+#: how long an update waits for another watch's update of the same folder [s]
+WATCH_LOCK_TIMEOUT_S = 600.0
 #: estimate columns kept in the state for each look
 LOOK_COLUMNS = [C.HOURS, C.BAND, C.ROWS, C.PAIRS, C.CLUSTERS, C.EFFECTIVE_CLUSTERS,
                 C.B_MINUS_A, C.SE, C.SYSTEMATIC, C.CI_LOW, C.CI_HIGH]
@@ -121,7 +127,25 @@ def watch_once(sources, folder, design, a: str, b: str | None = None, *,
     -------
     WatchUpdate
     """
+    from filelock import FileLock, Timeout
+
     folder = Path(folder)
+    folder.mkdir(parents=True, exist_ok=True)
+    try:
+        with FileLock(str(folder / WATCH_LOCK_NAME), timeout=WATCH_LOCK_TIMEOUT_S):
+            return _update(sources, folder, design, a, b, target_width_db=target_width_db,
+                           margin_db=margin_db, max_hours=max_hours, confidence=confidence,
+                           n_boot=n_boot, seed=seed, min_clusters=min_clusters,
+                           refresh_s=refresh_s, memory_mb=memory_mb, read_kw=read_kw,
+                           **compare_kw)
+    except Timeout:
+        raise UsageError(f"{folder}: another watch has been updating this folder for "
+                         f"{WATCH_LOCK_TIMEOUT_S:g} s; is it stuck?") from None
+
+
+def _update(sources, folder: Path, design, a, b, *, target_width_db, margin_db, max_hours,
+            confidence, n_boot, seed, min_clusters, refresh_s, memory_mb, read_kw,
+            **compare_kw) -> WatchUpdate:
     appended, set_aside = ingest_new(sources, folder, memory_mb=memory_mb, **(read_kw or {}))
     state = read_state(folder)
     looks = state["looks"]
@@ -177,4 +201,5 @@ def watch(sources, folder, design, a: str, b: str | None = None, *, every_min: f
         time.sleep(every_min * 60)
 
 
-__all__ = ["PAGE_NAME", "LOOK_COLUMNS", "WatchUpdate", "watch_once", "watch"]
+__all__ = ["PAGE_NAME", "WATCH_LOCK_NAME", "WATCH_LOCK_TIMEOUT_S", "LOOK_COLUMNS",
+           "WatchUpdate", "watch_once", "watch"]

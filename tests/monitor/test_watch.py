@@ -8,6 +8,7 @@ import subprocess
 import sys
 from pathlib import Path
 
+import numpy as np
 import pandas as pd
 import pytest
 
@@ -176,3 +177,34 @@ def test_kill_mid_update_then_restart_gives_the_uninterrupted_answer(run, calm, 
     assert read_state(tmp_path / "w")["looks"] == read_state(calm_folder)["looks"]
     assert again.text().splitlines()[-1] == calm_up.text().splitlines()[-1]
     assert read_state(tmp_path / "w")["pending"] is None
+
+
+@pytest.mark.slow
+def test_two_watches_on_one_folder_take_turns(run, tmp_path):
+    """Two processes update the same watch folder at once, four rounds (a new export and a
+    grown one each round; each process is a fresh Python, so about 10 s a round here):
+    every report is in the archive once and nothing is set aside."""
+    rows, hours = run
+    src = tmp_path / "in"
+    src.mkdir()
+    code = ("import sys; from spotkit.monitor.watch import watch_once; "
+            "up = watch_once([sys.argv[1]], sys.argv[2], 'simultaneous', "
+            f"'{A}', '{B}', n_boot=20); print(len(up.set_aside))")
+    env = dict(os.environ, PYTHONPATH=str(ROOT))
+    env.pop("SPOTKIT_TEST_FAULT", None)
+    edges = np.linspace(0, hours.max() + 1, 5)
+    grow = src / "growing.csv"
+    for i in range(4):
+        part = rows[(hours >= edges[i]) & (hours < edges[i + 1])]
+        half = len(part) // 2
+        (src / f"new_{i:02d}.csv").write_bytes(_csv(part.iloc[:half]))
+        with open(grow, "ab") as fh:
+            fh.write(_csv(part.iloc[half:], header=(i == 0)))
+        procs = [subprocess.Popen([sys.executable, "-c", code, str(src), str(tmp_path / "w")],
+                                  env=env, stdout=subprocess.PIPE, stderr=subprocess.PIPE,
+                                  text=True) for _ in range(2)]
+        outs = [p.communicate(timeout=300) for p in procs]
+        assert all(p.returncode == 0 for p in procs), outs
+        assert [o.strip() for o, _ in outs] == ["0", "0"], outs
+    assert _rows(tmp_path / "w") == len(rows)
+    assert read_state(tmp_path / "w")["set_aside"] == {}
