@@ -156,6 +156,17 @@ TRUTH = "truth_db"  # the simulated true B minus A [dB]
 THRESHOLD = "threshold_db"  # a receiver's decode threshold [dB in 2500 Hz]
 NOISE = "noise_db"  # a receiver's noise offset in the simulator [dB]
 
+# --- following a running experiment (spotkit.monitor) ----------------------------------
+CS_LOW = "cs_low_db"  # anytime-valid confidence sequence of B minus A, lower end [dB]
+CS_HIGH = "cs_high_db"  # its upper end [dB]
+CS_WIDTH = "cs_width_db"  # its width [dB]
+WIDTH_SHRINK = "width_shrink"  # sequence width now / at the first update with an estimate
+HOURS_MORE = "hours_more"  # hours more at the current rate until a stop rule can fire [h]
+CAN_STOP = "can_stop"  # a stop rule fired (bool)
+VERDICT = "verdict"  # plain-language verdict of the stop rules
+ROWS = "rows"  # spot rows in the archive at an update
+EFFECTIVE_CLUSTERS = "effective_clusters"  # Kish: pairs^2 / sum of pairs per cluster^2
+
 # --- rejects table -----------------------------------------------------------------------
 REJECT_FIELD = "field"
 REJECT_VALUE = "value"

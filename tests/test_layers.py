@@ -26,7 +26,7 @@ FLOORS = {
     "geo": 2, "stats": 2,
     "io": 3,
     "compare": 4, "coverage": 4,
-    "sim": 5,
+    "sim": 5, "monitor": 5,
     "plan": 6,
     "viz": 7, "distributed": 7,
     "report": 8,

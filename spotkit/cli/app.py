@@ -8,9 +8,10 @@ Layout: one module per group of commands, each with an ``add_<command>(sub)`` th
 subcommand's parser and a ``cmd_<command>(args)`` that runs it --
 :mod:`~spotkit.cli.ingest` (ingest, to a file or an archive),
 :mod:`~spotkit.cli.simulate` (simulate, demo), :mod:`~spotkit.cli.compare` (compare,
-report), :mod:`~spotkit.cli.figures` (map, plot), :mod:`~spotkit.cli.plan` (plan) and
-:mod:`~spotkit.cli.archive` (archive). What they share is in :mod:`spotkit.cli._common`,
-which imports none of them; this module assembles them and imports nothing back.
+report), :mod:`~spotkit.cli.figures` (map, plot), :mod:`~spotkit.cli.plan` (plan),
+:mod:`~spotkit.cli.archive` (archive) and :mod:`~spotkit.cli.watch` (watch). What they
+share is in :mod:`spotkit.cli._common`, which imports none of them; this module assembles
+them and imports nothing back.
 """
 from __future__ import annotations
 
@@ -23,7 +24,7 @@ import warnings
 from collections.abc import Sequence
 
 from spotkit import __version__
-from spotkit.cli import archive, compare, figures, ingest, plan, simulate
+from spotkit.cli import archive, compare, figures, ingest, plan, simulate, watch
 from spotkit.cli._common import EXIT_INPUT, EXIT_OK, EXIT_USAGE, Parser
 from spotkit.errors import LocatorError, SpotkitError, SpotkitWarning, UsageError
 
@@ -82,7 +83,7 @@ and field), 2 usage.""",
     sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=Parser)
     for add in (ingest.add_ingest, simulate.add_simulate, compare.add_compare,
                 figures.add_map, figures.add_plot, plan.add_plan, compare.add_report,
-                simulate.add_demo, archive.add_archive):
+                simulate.add_demo, archive.add_archive, watch.add_watch):
         add(sub)
     return parser
 

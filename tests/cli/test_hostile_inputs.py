@@ -37,7 +37,9 @@ SMALL = {"--boot": "20", "--days": "0.05", "--receivers": "6", "--transmitters":
 #: options that stand in for the input data: left out when a command reads input
 SMALL_MODEL = {"--sigma", "--pairs-per-hour"}
 #: positionals that name the input data
-INPUT_POSITIONALS = {"files", "spots", "dataset"}
+INPUT_POSITIONALS = {"files", "spots", "dataset", "sources"}
+#: switches set on every command that has them (``watch --once``: one update, not a loop)
+ALWAYS_ON = {"--once"}
 #: options that name input data, for commands without an input positional
 INPUT_OPTIONS = {"--pilot", "--data"}
 
@@ -90,7 +92,9 @@ def _argv(path, kind, parser, tmp_path, data, *, skip=(), schedule=None, archive
         flag = opts[-1]
         if flag in skip or flag == "--kind":
             continue
-        if flag in ("--output",):
+        if flag in ALWAYS_ON:
+            argv.append(flag)
+        elif flag in ("--output",):
             argv += [flag, str(tmp_path / f"out{_suffix(action)}")]
         elif flag == "--schedule" and action.required:
             argv += [flag, str(schedule or data)]
