@@ -94,3 +94,37 @@ def test_readme_output_blocks_match_the_program():
     proc = subprocess.run([sys.executable, str(REPO / "scripts" / "readme_tour.py"),
                            "--check"], cwd=REPO, capture_output=True, text=True, timeout=3000)
     assert proc.returncode == 0, proc.stdout[-6000:] + proc.stderr[-3000:]
+
+
+def _tour_module():
+    sys.path.insert(0, str(REPO / "scripts"))
+    try:
+        import readme_tour
+    finally:
+        sys.path.pop(0)
+    return readme_tour
+
+
+def test_tour_script_rewrites_a_stale_block_and_then_checks_clean(tmp_path, capsys):
+    """The tour script finds drift (exit 1 with a diff), rewrites the block from the program's
+    output, and then checks clean; unmarked text is left as it is."""
+    tour = _tour_module()
+    readme = tmp_path / "README.md"
+    readme.write_text("intro `spotkit`\n\n<!-- tour: output -->\n```text\n"
+                      "$ spotkit plan schedule --help\nstale text\n```\n\ntail\n")
+    assert tour.main(["--check", "--readme", str(readme)]) == 1
+    assert "-stale text" in capsys.readouterr().out
+    assert tour.main(["--readme", str(readme)]) == 0
+    text = readme.read_text()
+    assert "usage: spotkit plan schedule" in text and "--start TIME" in text
+    assert text.startswith("intro `spotkit`\n\n<!-- tour: output -->\n```text\n$ spotkit plan")
+    assert text.endswith("```\n\ntail\n") and "stale" not in text
+    assert tour.main(["--check", "--readme", str(readme)]) == 0
+
+
+def test_tour_commands_join_continuations_and_skip_setup_lines():
+    tour = _tour_module()
+    body = [". .venv/bin/activate", "# a comment", "spotkit compare a.parquet \\",
+            "    --by band   # trailing comment", "", "spotkit map x -o m.png"]
+    assert tour.commands(body) == ["spotkit compare a.parquet --by band",
+                                   "spotkit map x -o m.png"]
