@@ -122,3 +122,17 @@ def test_command_parser_finds_nested_commands():
                                                                                "duration"]
     assert command_parser(parser, ["compare", "plan"])[0] == ["compare"]
     assert command_parser(parser, [])[0] == []
+
+
+@pytest.mark.parametrize("home, expected", [
+    ("JO62qz", "'JO62qz': 6th character 'z' is past 'x' (the subsquare is letters a-x)"),
+    ("J062qm", "'J062qm': 2nd character '0' is the digit 0 where the letter O belongs"),
+])
+def test_home_typo_says_what_is_wrong(home, expected, spots_file, tmp_path, capsys):
+    """Issue 16: these had "expected 2, 4, 6, 8 or 10 characters" though they have 6."""
+    pytest.importorskip("cartopy")
+    out = tmp_path / "m.png"
+    assert main(["map", spots_file, "--kind", "coverage", "--home", home, "-o", str(out)]) == 2
+    err = _err(capsys)
+    assert expected in err and "characters like" not in err
+    assert not out.exists()
