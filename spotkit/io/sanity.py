@@ -45,7 +45,7 @@ import pandas as pd
 
 from spotkit import columns as C
 from spotkit.errors import InputError
-from spotkit.geo.locator import normalize_locator
+from spotkit.geo.locator import locator_problem, normalize_locator
 from spotkit.io.clean import POWER_RANGE_DBM, _band_codes, _parse_times
 from spotkit.io.sniff import _CALL_RE, _CLI_NAME, _Layout, _read_sample, _to_number
 from spotkit.units import (
@@ -197,8 +197,15 @@ def _time(cells, layout) -> tuple[np.ndarray, str]:
 def _locator(cells, layout) -> tuple[np.ndarray, str]:
     ok = normalize_locator(cells.to_numpy(dtype=object)) != None  # noqa: E711
     calls = cells.str.upper().str.match(_CALL_RE.pattern).to_numpy(dtype=bool)
-    hint = ("this looks like callsigns, not locators: check --map" if _share(calls & ~ok)
-            >= 0.5 else "locators are 2 to 10 characters like JN58 or JN58td: check --map")
+    bad = cells[~np.asarray(ok, dtype=bool)]  # (cells: non-empty, stripped)
+    problem = locator_problem(bad.iloc[0]) if len(bad) else None
+    # a digit typed for a look-alike letter (J062qm) also looks like a callsign
+    typo = problem is not None and "belongs" in problem
+    if _share(calls & ~ok) >= 0.5 and not typo:
+        hint = "this looks like callsigns, not locators: check --map"
+    else:
+        why = f" ({bad.iloc[0]!r}: {problem})" if problem else ""
+        hint = f"locators are 2 to 10 characters like JN58 or JN58td{why}: check --map"
     return np.asarray(ok, dtype=bool), hint
 
 
