@@ -26,6 +26,7 @@ from collections.abc import Sequence
 from spotkit import __version__
 from spotkit.cli import archive, compare, figures, ingest, plan, simulate, watch
 from spotkit.cli._common import EXIT_INPUT, EXIT_OK, EXIT_USAGE, Parser
+from spotkit.cli._messages import cli_message
 from spotkit.errors import LocatorError, SpotkitError, SpotkitWarning, UsageError
 
 #: distributions whose versions ``spotkit --version`` reports (the PyPI names)
@@ -133,6 +134,12 @@ def main(argv: Sequence[str] | None = None) -> int:
 
 
 def _run(parser, argv) -> int:
+    argv = list(sys.argv[1:] if argv is None else argv)
+
+    def text(exc) -> str:
+        """The message in the words of the command that ran (options, not parameters)."""
+        return cli_message(str(exc), parser, argv)
+
     try:
         args = parser.parse_args(argv)
         if not getattr(args, "func", None):
@@ -142,13 +149,13 @@ def _run(parser, argv) -> int:
     except SystemExit as exc:  # --help / --version
         return int(exc.code or 0)
     except UsageError as exc:
-        print(f"spotkit: {exc}", file=sys.stderr)
+        print(f"spotkit: {text(exc)}", file=sys.stderr)
         return EXIT_USAGE
     except LocatorError as exc:
-        print(f"spotkit: error: {exc}", file=sys.stderr)
+        print(f"spotkit: error: {text(exc)}", file=sys.stderr)
         return EXIT_USAGE
     except SpotkitError as exc:
-        print(f"spotkit: error: {exc}", file=sys.stderr)
+        print(f"spotkit: error: {text(exc)}", file=sys.stderr)
         return EXIT_INPUT
     except BrokenPipeError:
         # the reader of our output went away (``spotkit compare ... | head``): nothing more

@@ -502,6 +502,10 @@ def _same_slot_pairs(spots, a, b, cats, design):
     B's reports (rows ``ia``, ``ib`` of ``df``) outer-joined on (cluster, band, slot) into
     ``m``; ``mk`` and ``rk`` the (band, slot) keys of ``m``'s and ``df``'s rows."""
     call_col, cluster_col, far, what = _SAME_SLOT[design]
+    for role, call in (("A", a), ("B", b)):
+        if call is None or not str(call).strip():
+            raise UsageError(f"the {design} design compares two {what} calls: the call of "
+                             f"{role} is missing ({role.lower()}={call!r})")
     a, code_a = _check_call(spots, cats, call_col, a, "A")
     b, code_b = _check_call(spots, cats, call_col, b, "B")
     if a == b:

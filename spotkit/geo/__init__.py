@@ -24,6 +24,7 @@ from spotkit.geo.locator import (
     is_valid_locator,
     latlon_to_locator,
     locator_cell_size,
+    locator_problem,
     locator_to_latlon,
     normalize_locator,
 )
@@ -42,7 +43,8 @@ from spotkit.geo.sun import (
 )
 
 __all__ = [
-    "LOCATOR_LENGTHS", "is_valid_locator", "locator_to_latlon", "latlon_to_locator",
+    "LOCATOR_LENGTHS", "is_valid_locator", "locator_problem", "locator_to_latlon",
+    "latlon_to_locator",
     "normalize_locator", "locator_cell_size", "WGS84_A", "WGS84_F", "WGS84_B",
     "EARTH_RADIUS_KM", "DEFAULT_LAYER_HEIGHT_KM", "geodesic_inverse", "geodesic_direct",
     "path_midpoint", "geodesic_path", "GeodesicPath", "max_hop_distance", "hop_count",

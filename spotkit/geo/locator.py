@@ -96,6 +96,81 @@ def _decode_upper(arr: np.ndarray):
     return lat, lon, valid
 
 
+#: what each character pair of a locator is called and holds, for messages
+_PAIR_NAMES = ("field", "square", "subsquare", "extended square", "extended subsquare")
+_PAIR_RANGES = ("letters A-R", "digits 0-9", "letters a-x", "digits 0-9", "letters a-x")
+_ORDINALS = ("1st", "2nd", "3rd", "4th", "5th", "6th", "7th", "8th", "9th", "10th")
+#: characters people type for one another: (typed, meant, how to say it)
+_LOOKALIKES = {("0", "letter"): ("O", "the digit 0 where the letter O belongs"),
+               ("1", "letter"): ("I", "the digit 1 where the letter I belongs"),
+               ("O", "digit"): ("0", "the letter O where the digit 0 belongs"),
+               ("I", "digit"): ("1", "the letter I where the digit 1 belongs"),
+               ("L", "digit"): ("1", "the letter l where the digit 1 belongs")}
+
+
+def locator_problem(text) -> str | None:
+    """What is wrong with one locator, in words; ``None`` when it is well formed.
+
+    Names the first character that breaks the Maidenhead rules (its position, the pair it
+    belongs to and the characters allowed there), a digit typed for a look-alike letter
+    (``0`` for ``O``) and the reverse, or a length that is not 2, 4, 6, 8 or 10.
+
+    Parameters
+    ----------
+    text : str
+        One locator as typed (any case; surrounding blanks are ignored).
+
+    Returns
+    -------
+    str or None
+
+    Examples
+    --------
+    >>> locator_problem("JO62qm") is None
+    True
+    >>> locator_problem("J062qm")
+    "2nd character '0' is the digit 0 where the letter O belongs (the field is letters A-R)"
+    >>> locator_problem("JO62qz")
+    "6th character 'z' is past 'x' (the subsquare is letters a-x)"
+    >>> locator_problem("JO62q")
+    'it has 5 characters; a locator has 2, 4, 6, 8 or 10 (pairs: field, square, subsquare, ...)'
+    """
+    if text is None or (isinstance(text, float) and np.isnan(text)):
+        return "it is empty"
+    raw = str(text).strip()
+    if not raw:
+        return "it is empty"
+    up = raw.upper()
+    for pos, ch in enumerate(up[:_NCHAR]):
+        base, count = _BASES[pos]
+        pair = pos // 2
+        where = f"(the {_PAIR_NAMES[pair]} is {_PAIR_RANGES[pair]})"
+        shown = raw[pos]
+        if base == "A":
+            if ch.isascii() and ch.isalpha():
+                if ord(ch) - ord("A") >= count:
+                    last = chr(ord("A") + count - 1)
+                    last = last.lower() if pair in (2, 4) else last
+                    return f"{_ORDINALS[pos]} character {shown!r} is past {last!r} {where}"
+                continue
+            hint = _LOOKALIKES.get((ch, "letter"))
+            if hint:
+                return f"{_ORDINALS[pos]} character {shown!r} is {hint[1]} {where}"
+            kind = "a digit" if ch.isdigit() else "not a letter"
+            return f"{_ORDINALS[pos]} character {shown!r} is {kind} {where}"
+        if ch.isascii() and ch.isdigit():
+            continue
+        hint = _LOOKALIKES.get((ch, "digit"))
+        if hint:
+            return f"{_ORDINALS[pos]} character {shown!r} is {hint[1]} {where}"
+        kind = "a letter" if ch.isalpha() else "not a digit"
+        return f"{_ORDINALS[pos]} character {shown!r} is {kind} {where}"
+    if len(up) not in LOCATOR_LENGTHS:
+        return (f"it has {len(up)} characters; a locator has 2, 4, 6, 8 or 10 (pairs: "
+                "field, square, subsquare, ...)")
+    return None
+
+
 def is_valid_locator(locators) -> np.ndarray:
     """Whether each value is a well-formed Maidenhead locator of 2, 4, 6, 8 or 10 characters.
 
@@ -157,7 +232,7 @@ def locator_to_latlon(locators, errors: Literal["raise", "coerce"] = "raise"):
     >>> locator_to_latlon("JZ58")
     Traceback (most recent call last):
     ...
-    spotkit.errors.LocatorError: not a Maidenhead locator: 'JZ58' (expected 2, 4, 6, 8 or 10 ...)
+    spotkit.errors.LocatorError: not a Maidenhead locator: 'JZ58': 2nd character 'Z' is past 'R' ...
     """
     if errors not in ("raise", "coerce"):
         raise ValueError(f"errors must be 'raise' or 'coerce', not {errors!r}")
@@ -166,11 +241,12 @@ def locator_to_latlon(locators, errors: Literal["raise", "coerce"] = "raise"):
     lat, lon, valid = _decode_upper(upper)
     lat, lon, valid = lat[codes], lon[codes], valid[codes]
     if errors == "raise" and not valid.all():
-        bad = str(upper[codes[~valid][0]])
+        first = int(np.flatnonzero(~valid)[0])
+        raw = locators if scalar else np.atleast_1d(np.asarray(locators, dtype=object))[first]
+        bad = str(raw).strip() if isinstance(raw, str) else str(upper[codes[first]])
         raise LocatorError(
-            f"not a Maidenhead locator: {bad!r} (expected 2, 4, 6, 8 or 10 characters like "
-            "'JN58', 'JN58td' or 'JN58td25')"
-        )
+            f"not a Maidenhead locator: {bad!r}: {locator_problem(raw)}; a locator is like "
+            "'JN58', 'JN58td' or 'JN58td25'")
     if scalar:
         return float(lat[0]), float(lon[0])
     return lat, lon
@@ -278,6 +354,7 @@ def locator_cell_size(locators):
 
 
 __all__ = [
-    "LOCATOR_LENGTHS", "is_valid_locator", "locator_to_latlon", "latlon_to_locator",
+    "LOCATOR_LENGTHS", "is_valid_locator", "locator_problem", "locator_to_latlon",
+    "latlon_to_locator",
     "normalize_locator", "locator_cell_size",
 ]

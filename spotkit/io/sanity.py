@@ -45,7 +45,7 @@ import pandas as pd
 
 from spotkit import columns as C
 from spotkit.errors import InputError
-from spotkit.geo.locator import normalize_locator
+from spotkit.geo.locator import is_valid_locator, locator_problem, normalize_locator
 from spotkit.io.clean import POWER_RANGE_DBM, _band_codes, _parse_times
 from spotkit.io.sniff import _CALL_RE, _CLI_NAME, _Layout, _read_sample, _to_number
 from spotkit.units import (
@@ -261,11 +261,29 @@ def _time(cells, layout) -> tuple[np.ndarray, str]:
     return ok, hint
 
 
+def _swap_lookalikes(text: str) -> str:
+    """``text`` with 0/1 made O/I where a locator has letters and O/I/l made 0/1 where it
+    has digits."""
+    letters = {"0": "O", "1": "I"}
+    digits = {"O": "0", "o": "0", "I": "1", "l": "1"}
+    return "".join((digits if (i // 2) % 2 else letters).get(ch, ch)
+                   for i, ch in enumerate(text.strip()))
+
+
 def _locator(cells, layout) -> tuple[np.ndarray, str]:
     ok = normalize_locator(cells.to_numpy(dtype=object)) != None  # noqa: E711
     calls = cells.str.upper().str.match(_CALL_RE.pattern).to_numpy(dtype=bool)
-    hint = ("this looks like callsigns, not locators: check --map" if _share(calls & ~ok)
-            >= 0.5 else "locators are 2 to 10 characters like JN58 or JN58td: check --map")
+    bad = cells[~np.asarray(ok, dtype=bool)]  # (cells: non-empty, stripped)
+    problem = locator_problem(bad.iloc[0]) if len(bad) else None
+    # a digit typed for a look-alike letter (J062qm) also looks like a callsign: a typo when
+    # swapping the look-alikes makes a locator
+    typo = problem is not None and "belongs" in problem and bool(
+        is_valid_locator(_swap_lookalikes(str(bad.iloc[0]))))
+    if _share(calls & ~ok) >= 0.5 and not typo:
+        hint = "this looks like callsigns, not locators: check --map"
+    else:
+        why = f" ({bad.iloc[0]!r}: {problem})" if problem else ""
+        hint = f"locators are 2 to 10 characters like JN58 or JN58td{why}: check --map"
     return np.asarray(ok, dtype=bool), hint
 
 

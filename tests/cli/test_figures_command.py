@@ -12,8 +12,8 @@ from spotkit.cli import main
 
 pytest.importorskip("cartopy")
 
-LOCATOR_MESSAGE = ("not a Maidenhead locator: {!r} (expected 2, 4, 6, 8 or 10 characters like "
-                   "'JN58', 'JN58td' or 'JN58td25')")
+LOCATOR_MESSAGE = ("not a Maidenhead locator: {!r}: 1st character {!r} is past 'R' (the field is "
+                   "letters A-R); a locator is like 'JN58', 'JN58td' or 'JN58td25'")
 
 
 def _table(tmp_path, home_locator=None):
@@ -31,14 +31,15 @@ def test_bad_home_option_is_usage_error(tmp_path, capsys):
     out = tmp_path / "m.png"
     assert main(["map", _table(tmp_path), "--kind", "coverage", "-o", str(out),
                  "--home", "XX"]) == 2
-    assert capsys.readouterr().err == "spotkit: error: " + LOCATOR_MESSAGE.format("XX") + "\n"
+    assert capsys.readouterr().err == "spotkit: error: " + LOCATOR_MESSAGE.format("XX", "X") + "\n"
     assert not out.exists()
 
 
 def test_bad_home_locator_in_the_data_is_bad_input(tmp_path, capsys):
     out = tmp_path / "m.png"
     assert main(["map", _table(tmp_path, "ZZ99"), "--kind", "coverage", "-o", str(out)]) == 1
-    assert capsys.readouterr().err == "spotkit: error: " + LOCATOR_MESSAGE.format("ZZ99") + "\n"
+    expected = "spotkit: error: " + LOCATOR_MESSAGE.format("ZZ99", "Z") + "\n"
+    assert capsys.readouterr().err == expected
     assert not out.exists()
 
 

@@ -168,3 +168,58 @@ def test_property_round_trip_and_centre_inside_cell(lat, lon, precision):
     # encoder's guard against floating-point drift at cell edges, ~1 cm)
     assert abs(clat - lat) <= dlat[0] / 2 + 1e-7
     assert abs((clon - lon + 180) % 360 - 180) <= dlon[0] / 2 + 1e-7
+
+
+# --- locator_problem: what is wrong with a locator typed by a person ------------------------
+# Allowed characters per pair from the module docstring's table (IARU Region 1 VHF Managers
+# Handbook): field A-R, square 0-9, subsquare a-x.
+@pytest.mark.parametrize("text, expected", [
+    ("JO62qz", "6th character 'z' is past 'x' (the subsquare is letters a-x)"),
+    ("J062qm", "2nd character '0' is the digit 0 where the letter O belongs "
+               "(the field is letters A-R)"),
+    ("0O62", "1st character '0' is the digit 0 where the letter O belongs"),
+    ("JO6Oqm", "4th character 'O' is the letter O where the digit 0 belongs "
+               "(the square is digits 0-9)"),
+    ("JS62", "2nd character 'S' is past 'R' (the field is letters A-R)"),
+    ("JOx2", "3rd character 'x' is a letter (the square is digits 0-9)"),
+    ("JO62q", "it has 5 characters"),
+    ("JO62qm2", "it has 7 characters"),
+    ("  ", "it is empty"),
+    ("JO62qm2a", "8th character 'a' is a letter (the extended square is digits 0-9)"),
+])
+def test_locator_problem_names_the_character(text, expected):
+    from spotkit.geo.locator import locator_problem
+
+    assert expected in locator_problem(text)
+
+
+@pytest.mark.parametrize("text", ["JO62qm", "jo62QM", "JN58", "RR99xx99xx", "AA00aa00aa", "JO"])
+def test_locator_problem_none_for_valid(text):
+    from spotkit.geo.locator import is_valid_locator, locator_problem
+
+    assert locator_problem(text) is None
+    assert is_valid_locator(text).all()
+
+
+def test_locator_problem_agrees_with_validity():
+    """Every string of allowed length from a small alphabet: a problem exactly when invalid."""
+    import itertools
+
+    from spotkit.geo.locator import is_valid_locator, locator_problem
+
+    chars = "AOR0S9xz"
+    texts = ["".join(t) for n in (2, 4) for t in itertools.product(chars, repeat=n)]
+    texts += ["JO62" + a + b for a in "axyOz0" for b in "amx"]
+    valid = is_valid_locator(texts)
+    problems = [locator_problem(t) for t in texts]
+    assert [p is None for p in problems] == valid.tolist()
+
+
+def test_locator_error_message_names_the_problem():
+    from spotkit.errors import LocatorError
+    from spotkit.geo.locator import locator_to_latlon
+
+    with pytest.raises(LocatorError, match=r"'J062qm': 2nd character '0' is the digit 0"):
+        locator_to_latlon("J062qm")
+    with pytest.raises(LocatorError, match=r"'JO62qz': 6th character 'z' is past 'x'"):
+        locator_to_latlon(["JO62qm", "JO62qz"])

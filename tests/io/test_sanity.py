@@ -103,6 +103,13 @@ def test_calls_under_a_locator_heading(tmp_path):
         read_spots(_file(tmp_path, 30, txloc=lambda i: f"Q{i % 9}ABC"))
 
 
+def test_locators_typed_with_digit_zero_say_which_character(tmp_path):
+    """'J062qm' also looks like a callsign; the message names the digit 0 typed for O."""
+    with pytest.raises(InputError, match=r"'tx locator'.*'J062qm': 2nd character '0' is the "
+                       r"digit 0 where the letter O belongs"):
+        read_spots(_file(tmp_path, 30, txloc="J062qm"))
+
+
 def test_numbers_under_a_call_heading(tmp_path):
     with pytest.raises(InputError, match="mapped to tx_call"):
         read_spots(_file(tmp_path, 30, tx=lambda i: str(100 + i)))
