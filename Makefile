@@ -26,9 +26,9 @@ browser:
 	    DEBIAN_FRONTEND=noninteractive apt-get install -y -qq chromium >/dev/null 2>&1) ) || \
 	  echo "note: chromium not installed; the browser test will be skipped"
 
-## ruff over the package, the tests and the benchmarks (settings in pyproject.toml)
+## ruff over the package, the tests, the benchmarks and the scripts (settings in pyproject.toml)
 lint: setup
-	$(PY) -m ruff check spotkit tests benchmarks
+	$(PY) -m ruff check spotkit tests benchmarks scripts
 
 ## Set up, lint, and run the whole test suite (with the docstrings' examples)
 test: setup browser lint
