@@ -14,8 +14,9 @@ Two projections:
     sampled geodesics.
 
 The backdrop is the shipped Natural Earth 1:110m land layer (:mod:`spotkit.viz.basemap`), so no map
-needs a network connection; cartopy's own 1:50m and 1:10m features are used only when asked for
-(``resolution="50m"`` or ``"10m"``; cartopy downloads them once).
+needs a network connection; cartopy's own 1:50m and 1:10m land layers are used only when asked for
+(``resolution="50m"`` or ``"10m"``; cartopy downloads them once). Without a network, a layer
+that is not on the computer yet falls back to the shipped one with a warning.
 
 Station positions are locator cell centres (see :mod:`spotkit.geo.locator`): a 4-character locator
 puts a station up to about 111 km east-west from where it is. Every map function takes
@@ -37,6 +38,8 @@ Information Science 33(3):454-465 (2019), doi:10.1080/13658816.2018.1504949.
 """
 from __future__ import annotations
 
+import contextlib
+from pathlib import Path
 from typing import Literal
 
 import numpy as np
@@ -44,7 +47,7 @@ import pandas as pd
 
 from spotkit import columns as C
 from spotkit._validate import check_choice, check_columns
-from spotkit.errors import InputError, UsageError
+from spotkit.errors import InputError, SpotkitWarning, UsageError
 from spotkit.viz.mapdata import (
     FULL_EXTENT_KM,
     Level,
@@ -110,27 +113,61 @@ def project_points(crs, lat, lon) -> tuple[np.ndarray, np.ndarray]:
 
 
 # --- base map ----------------------------------------------------------------------------
+def _natural_earth_land(resolution: str):
+    """Path of cartopy's Natural Earth land shapefile at ``resolution``, downloaded if it
+    is not on this computer yet; ``None`` (and a :class:`SpotkitWarning`) when it cannot be
+    had, e.g. without a network. Folders made for a download that failed are removed again."""
+    import warnings
+
+    import cartopy
+    from cartopy.io import Downloader, DownloadWarning
+
+    spec = ("shapefiles", "natural_earth", resolution, "physical", "land")
+    fmt = {"config": cartopy.config, "category": "physical", "name": "land",
+           "resolution": resolution}
+    downloader = Downloader.from_config(spec)
+    target = Path(downloader.target_path(fmt))
+    made = [d for d in (target.parent, *target.parent.parents) if not d.exists()]
+    try:
+        with warnings.catch_warnings():  # its "Downloading ..." note; a failure is ours
+            warnings.simplefilter("ignore", DownloadWarning)
+            return Path(downloader.path(fmt))
+    except Exception as exc:  # no network, a proxy, a broken download ...
+        for d in made:  # innermost first: only the empty folders made for this download
+            with contextlib.suppress(OSError):
+                d.rmdir()
+        reason = str(exc).splitlines()[0] if str(exc) else type(exc).__name__
+        warnings.warn(f"the 1:{resolution[:-1]}m land layer (--resolution {resolution}) is "
+                      f"not on this computer and could not be downloaded ({reason}); "
+                      "drawing the shipped 1:110m layer instead", SpotkitWarning, stacklevel=3)
+        return None
+
+
 def draw_land(ax, *, resolution: Resolution = "110m", land_color: str = LAND_COLOR,
               coast_color: str = COAST_COLOR, linewidth: float = 0.4):
     """Draw land and coastlines on a cartopy GeoAxes.
 
     ``"110m"`` uses the shipped layer and never touches the network; ``"50m"`` and ``"10m"``
-    use cartopy's Natural Earth features, which cartopy downloads on first use.
+    use cartopy's Natural Earth land layer, which cartopy downloads on first use. When that
+    layer is not on this computer and cannot be downloaded (no network), the shipped layer is
+    drawn instead, with a :class:`~spotkit.errors.SpotkitWarning`.
     """
     import cartopy.crs as ccrs
 
     check_choice(resolution, RESOLUTIONS, "resolution")
-    if resolution == "110m":
-        from spotkit.viz.basemap import land_geometry
+    style = dict(facecolor=land_color, edgecolor=coast_color, linewidth=linewidth, zorder=0.5)
+    if resolution != "110m":
+        path = _natural_earth_land(resolution)
+        if path is not None:
+            from cartopy.io.shapereader import Reader
 
-        return ax.add_geometries(list(land_geometry().geoms), crs=ccrs.PlateCarree(),
-                                 facecolor=land_color, edgecolor=coast_color,
-                                 linewidth=linewidth, zorder=0.5)
-    import cartopy.feature as cfeature
+            return ax.add_geometries(list(Reader(str(path)).geometries()),
+                                     crs=ccrs.PlateCarree(), gid=f"land-{resolution}",
+                                     **style)
+    from spotkit.viz.basemap import land_geometry
 
-    feature = cfeature.NaturalEarthFeature("physical", "land", resolution,
-                                           facecolor=land_color, edgecolor=coast_color)
-    return ax.add_feature(feature, linewidth=linewidth, zorder=0.5)
+    return ax.add_geometries(list(land_geometry().geoms), crs=ccrs.PlateCarree(),
+                             gid="land-110m", **style)
 
 
 def draw_rings(ax, crs, extent_km: float, step_km: float | None = None, *,

@@ -201,14 +201,37 @@ def test_receive_side_maps_the_transmitters():
 
 
 def test_higher_resolution_only_when_asked():
-    """The default land layer is the shipped one; cartopy's 1:50m feature (downloaded on
-    first draw) is only set up when asked for, and nothing is fetched until drawn."""
-    import cartopy.feature as cfeature
-
+    """The default land layer is the shipped one: nothing of cartopy's Natural Earth data is
+    looked for (the offline fixture refuses the network and checks that no file was left)."""
     ax = maps.base_map(projection="world", home="JN58td", fig=plt.figure())
-    assert not any(isinstance(getattr(a, "_feature", None), cfeature.NaturalEarthFeature)
-                   for a in ax.get_children())
-    art = maps.draw_land(ax, resolution="50m")
-    assert isinstance(art._feature, cfeature.NaturalEarthFeature)
-    assert art._feature.scale == "50m"
-    art.remove()
+    assert _by_gid(ax, "land-110m")
+    assert not _by_gid(ax, "land-50m")
+
+
+@pytest.mark.parametrize("resolution", ["50m", "10m"])
+def test_layer_not_shipped_falls_back_offline_with_a_warning(resolution):
+    """Offline means offline (issue 16 item 7): a land layer that is not shipped and cannot be
+    downloaded is replaced by the shipped one with a warning naming the option, no traceback;
+    the folders cartopy made for the failed download are removed (offline fixture)."""
+    from spotkit.errors import SpotkitWarning
+
+    with pytest.warns(SpotkitWarning, match=rf"--resolution {resolution}.*shipped 1:110m"):
+        ax = maps.base_map(projection="azimuthal", home="JN58td", resolution=resolution,
+                           fig=plt.figure())
+    assert _by_gid(ax, "land-110m")
+    assert not _by_gid(ax, f"land-{resolution}")
+
+
+def test_map_command_offline_with_a_layer_not_shipped(sim, tmp_path, capsys):
+    """The same through the CLI: exit 0, a one-line note, a picture."""
+    from spotkit.cli.app import main
+
+    src = tmp_path / "spots.parquet"
+    sim.spots.to_parquet(src)
+    out = tmp_path / "cov.png"
+    code = main(["map", str(src), "--kind", "coverage", "--band", "10m",
+                 "--resolution", "50m", "-o", str(out)])
+    err = capsys.readouterr().err
+    assert code == 0 and out.stat().st_size > 0
+    assert "Traceback" not in err
+    assert "note: the 1:50m land layer (--resolution 50m)" in err
