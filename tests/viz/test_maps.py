@@ -35,7 +35,7 @@ def _by_gid(ax, gid):
 
 def test_coverage_plots_one_marker_per_distinct_receiver_per_band(sim):
     spots = sim.spots
-    fig = maps.coverage_map(spots, paths=True)
+    fig = maps.coverage_map(spots, paths=True, radius_km=0)  # no zoomed panel
     bands = sorted(spots[C.BAND].astype(str).unique(), key=lambda b: -int(b[:-1]))
     geo_axes = [ax for ax in fig.axes if hasattr(ax, "projection")]
     assert len(geo_axes) == len(bands)
@@ -99,7 +99,8 @@ def test_difference_map_symmetric_scale_solid_only_where_ci_excludes_zero(result
     fig = maps.difference_map(result_by_field)
     # the cells as drawn: few-receiver cells re-estimated over time blocks (mapdata)
     g = maps.difference_cells(result_by_field)
-    geo_axes = [ax for ax in fig.axes if hasattr(ax, "projection")]
+    geo_axes = [ax for ax in fig.axes if hasattr(ax, "projection")
+                and "whole map" in ax.get_title()]
     assert len(geo_axes) == g[C.BAND].nunique()
     n_solid = n_faint = 0
     for ax in geo_axes:
@@ -235,3 +236,116 @@ def test_map_command_offline_with_a_layer_not_shipped(sim, tmp_path, capsys):
     assert code == 0 and out.stat().st_size > 0
     assert "Traceback" not in err
     assert "note: the 1:50m land layer (--resolution 50m)" in err
+
+
+# --- issue 16: the near field, greyscale significance, one stated scale, no blank bands ---
+def _squares_around_home():
+    """Invented per-square results: 24 squares within about 700 km of JO62 (most pairs)
+    and 4 far ones; estimates from -6 to +9 dB, every third one with a CI including 0."""
+    near = [f"JO{x}{y}" for x in range(4, 8) for y in range(0, 6)][:24]
+    far = ["FN31", "PM95", "QF56", "GG66"]
+    sq = near + far
+    k = np.arange(len(sq))
+    est = np.linspace(-6.0, 9.0, len(sq))
+    half = np.where(k % 3 == 0, np.abs(est) + 1.0, 0.5)  # every third: CI includes 0
+    return pd.DataFrame({
+        C.SQUARE: sq, C.B_MINUS_A: est, C.CI_LOW: est - half, C.CI_HIGH: est + half,
+        C.BOTH: np.where(k < 24, 400, 20), C.ONLY_A: 2, C.ONLY_B: 2,
+        "clusters": 12,
+    })
+
+
+def _geo_axes(fig):
+    return [ax for ax in fig.axes if hasattr(ax, "projection")]
+
+
+def test_difference_map_zooms_to_where_most_pairs_are_with_true_cells():
+    groups = _squares_around_home()
+    fig = maps.difference_map(groups, home="JO62qm", labels=("vertical", "dipole"))
+    fig.canvas.draw()
+    whole, near = _geo_axes(fig)
+    assert "whole map" in whole.get_title()
+    # the zoom holds at least half the pairs (geodesic distances from pyproj as the oracle)
+    from pyproj import Geod
+
+    cells = maps.difference_cells(groups)
+    n = len(cells)
+    d_km = Geod(ellps="WGS84").inv(np.full(n, 13.375), np.full(n, 52.5208),
+                                   cells[C.FAR_LON].to_numpy(), cells[C.FAR_LAT].to_numpy())[2]
+    d_km = np.asarray(d_km) / 1e3
+    pairs = (cells[C.BOTH] + cells[C.ONLY_A] + cells[C.ONLY_B]).to_numpy()
+    radius = float(near.get_title().split("within ")[1].split(" km")[0].replace(",", ""))
+    assert pairs[d_km <= radius].sum() >= 0.5 * pairs.sum()
+    assert radius < 0.4 * d_km.max()
+    # squares are true cells in the zoomed panel: polygons, each several pixels across
+    cells = _by_gid(near, "cells-solid") + _by_gid(near, "cells-faint")
+    assert cells and all(hasattr(c, "get_paths") and not hasattr(c, "get_offsets")
+                         or type(c).__name__ == "PolyCollection" for c in cells)
+    widths = [np.ptp(near.transData.transform(p.vertices)[:, 0])
+              for c in cells for p in c.get_paths()]
+    assert min(widths) > 8  # pixels
+    # a radius of one's own; 0 turns the zoom off
+    fig = maps.difference_map(groups, home="JO62qm", radius_km=500)
+    assert "within 500 km" in _geo_axes(fig)[1].get_title()
+    assert len(_geo_axes(maps.difference_map(groups, home="JO62qm", radius_km=0))) == 1
+
+
+def test_difference_map_significance_differs_in_greyscale_at_every_level(sim):
+    """Solid (CI excludes 0) cells are outlined and not hatched; the rest are hatched and
+    not outlined, for fields, squares and receivers, on the whole and the zoomed panel."""
+    from matplotlib.colors import to_rgba
+
+    groups = _squares_around_home()
+    fields = groups.assign(**{C.FIELD: groups[C.SQUARE].str[:2]}).drop(columns=C.SQUARE)
+    fields = fields.drop_duplicates(C.FIELD)
+    receivers = groups.rename(columns={C.SQUARE: C.FAR_CALL}).assign(**{
+        C.FAR_LAT: np.linspace(48, 56, len(groups)), C.FAR_LON: np.linspace(5, 25, len(groups))})
+    for table in (groups, fields, receivers):
+        fig = maps.difference_map(table, home="JO62qm", radius_km=1000)
+        seen = {"solid": 0, "faint": 0}
+        for ax in _geo_axes(fig):
+            for name in seen:
+                for art in _by_gid(ax, f"cells-{name}"):
+                    n = (len(art.get_offsets()) if type(art).__name__ == "PathCollection"
+                         else len(art.get_paths()))
+                    if not n:
+                        continue
+                    seen[name] += n
+                    if name == "solid":
+                        assert not art.get_hatch()
+                        assert np.max(art.get_linewidths()) > 0
+                        assert np.mean(to_rgba(art.get_edgecolor()[0])[:3]) < 0.2  # dark
+                    else:
+                        assert art.get_hatch()
+                        assert np.max(art.get_linewidths()) == 0
+        assert seen["solid"] and seen["faint"], seen
+        plt.close(fig)
+
+
+def test_difference_map_has_one_symmetric_scale_and_says_so():
+    groups = _squares_around_home()
+    fig = maps.difference_map(groups, home="JO62qm")
+    clims = {a.get_clim() for ax in _geo_axes(fig)
+             for a in _by_gid(ax, "cells-solid") + _by_gid(ax, "cells-faint")}
+    assert len(clims) == 1
+    ((lo, hi),) = clims
+    assert lo == -hi and hi > 0
+    (cbar_ax,) = [ax for ax in fig.axes if not hasattr(ax, "projection")]
+    label = cbar_ax.get_xlabel()
+    assert f"-{hi:g} to +{hi:g} dB" in label and "one scale for every panel" in label
+
+
+@pytest.mark.parametrize("projection", ["azimuthal", "world"])
+def test_maps_have_no_blank_band_under_the_title(projection):
+    """The panels start just under the figure's title: the gap between the title's bottom
+    and the top of the highest panel title is small, and the map panels fill the width."""
+    fig = maps.difference_map(_squares_around_home(), home="JO62qm", projection=projection)
+    fig.canvas.draw()
+    r = fig.canvas.get_renderer()
+    title = fig._suptitle.get_window_extent(r)
+    top = max(ax.title.get_window_extent(r).y1 for ax in _geo_axes(fig))
+    gap_in = (title.y0 - top) / fig.dpi
+    assert -0.02 < gap_in < 0.3
+    boxes = [ax.get_window_extent(r) for ax in _geo_axes(fig)]
+    width = (max(b.x1 for b in boxes) - min(b.x0 for b in boxes)) / fig.bbox.width
+    assert width > 0.8
