@@ -482,11 +482,14 @@ def check_home(home, data_home, *, option: str = "--home", what: str = "the stat
     """
     import warnings
 
-    from spotkit.errors import SpotkitWarning
+    from spotkit.errors import LocatorError, SpotkitWarning
     from spotkit.geo.geodesic import geodesic_inverse
 
     h_lat, h_lon = home_latlon(home)
-    d_lat, d_lon = home_latlon(data_home)
+    try:
+        d_lat, d_lon = home_latlon(data_home)
+    except LocatorError:  # the data's own locator is bad: reported where it is read
+        return float("nan")
     dist_km = float(np.asarray(geodesic_inverse(h_lat, h_lon, d_lat, d_lon)[0]) / 1e3)
     dlon = abs((h_lon - d_lon + 180.0) % 360.0 - 180.0)
     if abs(h_lat - d_lat) > 1.5 or dlon > 3.0:  # beyond the neighbouring 2 x 1 deg square

@@ -506,7 +506,7 @@ def coverage_map(spots: pd.DataFrame, *, bands=None, home=None, side: Side = "au
         d = sel[C.DISTANCE] if C.DISTANCE in sel else every[C.DISTANCE]
         near = _resolve_near(radius_km, d, None, extent_km)
     views = _views(extent_km, near)
-    cols = [(name, far, view, r) for name, far in fars for view, r in views]
+    cols = [(name, far, view, r) for view, r in views for name, far in fars]
     if len(cols) == 1:  # one panel per band: bands in a grid
         nrows, ncols = _panel_grid(len(chosen), ncols)
         cells = [(band, cols[0]) for band in chosen]
@@ -771,20 +771,22 @@ def difference_map(result, *, level: Level = "auto", band=None, pairs=None, home
 # --- reach -------------------------------------------------------------------------------
 #: reach classes: label, colour position in viridis, marker
 _REACH_STYLE = {"both": ("heard by both", None, "o"),
-                "only_a": ("A only", 0.08, "v"),
-                "only_b": ("B only", 0.62, "^")}
+                "only_a": ("{a} only", 0.08, "v"),
+                "only_b": ("{b} only", 0.62, "^")}
 
 
 def reach_map(pairs: pd.DataFrame, *, band=None, layout: ReachLayout = "side", home=None,
               projection: Projection = "azimuthal", extent_km: float | None = None,
-              ring_step_km: float | None = None, resolution: Resolution = "110m", fig=None,
-              progress: bool = False):
+              ring_step_km: float | None = None, labels=None,
+              resolution: Resolution = "110m", fig=None, progress: bool = False):
     """What A and what B reached: far stations heard by each antenna, with distance rings.
 
     ``layout="side"``: two panels, A's far stations on the left and B's on the right, each
     marking the stations only that antenna reached; ``"overlay"``: one panel with three
-    classes (both, A only, B only). Counts and the farthest distance are in the titles /
-    legend.
+    classes (both, A only, B only). A station heard on two bands is two markers; titles and
+    legends count the same things (station-bands, and distinct stations beside them when
+    there is more than one band), so the legend's counts add up to the title's. The legend
+    sits under its panel, off the map.
 
     Parameters
     ----------
@@ -793,6 +795,8 @@ def reach_map(pairs: pd.DataFrame, *, band=None, layout: ReachLayout = "side", h
     band : str or list of str, optional
         Restrict to these bands (a station counts once per band).
     layout : {"side", "overlay"}
+    labels : (str, str), optional
+        Names of A and B (default "A" and "B").
     home, projection, extent_km, ring_step_km, resolution, fig, progress
         As in :func:`coverage_map`.
 
@@ -805,6 +809,7 @@ def reach_map(pairs: pd.DataFrame, *, band=None, layout: ReachLayout = "side", h
     check_choice(layout, REACH_LAYOUTS, "layout")
     check_choice(projection, PROJECTIONS, "projection")
     pairs = getattr(pairs, "pairs", pairs)
+    la, lb = tuple(labels) if labels else ("A", "B")
     st = reach_stations(pairs, band)
     if not len(st):
         raise UsageError("no far stations to map")
@@ -816,13 +821,14 @@ def reach_map(pairs: pd.DataFrame, *, band=None, layout: ReachLayout = "side", h
     cls = np.where(st[C.HEARD_A] & st[C.HEARD_B], "both",
                    np.where(st[C.HEARD_A], "only_a", "only_b"))
     cmap = plt.get_cmap("viridis")
-    panels = [("A", ("both", "only_a")), ("B", ("both", "only_b"))] if layout == "side" \
-        else [(None, ("both", "only_a", "only_b"))]
-    if fig is None:
-        w, h = (5.2, 5.8) if projection == "azimuthal" else (7.5, 4.6)
-        fig = plt.figure(figsize=(w * len(panels), h))
+    panels = [(la, "A", ("both", "only_a")), (lb, "B", ("both", "only_b"))] \
+        if layout == "side" else [(None, None, ("both", "only_a", "only_b"))]
+    w, h = (4.8, 4.9) if projection == "azimuthal" else (6.4, 3.6)
+    fig = _new_figure(fig, 1, len(panels), w, h, extra_h=0.5)
+    several = st[C.BAND].nunique() > 1
+    unit = "station-bands" if several else "far stations"
     bands_txt = "" if band is None else f" ({band if isinstance(band, str) else ', '.join(band)})"
-    for i, (who, classes) in enumerate(_panels(panels, progress)):
+    for i, (name, who, classes) in enumerate(_panels(panels, progress)):
         ax = fig.add_subplot(1, len(panels), i + 1, projection=crs)
         base_map(ax, projection=projection, home=home, extent_km=extent_km,
                  ring_step_km=ring_step_km, resolution=resolution)
@@ -831,23 +837,24 @@ def reach_map(pairs: pd.DataFrame, *, band=None, layout: ReachLayout = "side", h
             part = st[cls == c]
             x, y = project_points(crs, part[C.FAR_LAT], part[C.FAR_LON])
             color = "#9a9a9a" if pos is None else cmap(pos)
-            ax.scatter(x, y, s=16 if c == "both" else 24, marker=marker, color=color,
+            ax.scatter(x, y, s=16 if c == "both" else 28, marker=marker, color=color,
                        edgecolors="#202020", linewidths=0.3, transform=crs,
                        zorder=5 if c == "both" else 6,
                        gid={"both": "heard-both", "only_a": "only-a", "only_b": "only-b"}[c]
                        + ("" if who is None else f"-{who.lower()}"),
-                       label=f"{label}: {len(part):,}")
-        if who is None:
-            ax.set_title(f"Reach of A and B{bands_txt}", fontsize=10, pad=16)
-            ax.legend(loc="lower left", fontsize=7, framealpha=0.8)
-        else:
-            heard = st[C.HEARD_A] if who == "A" else st[C.HEARD_B]
-            far = st.loc[heard, C.DISTANCE].max() if heard.any() else float("nan")
-            n_far = st.loc[heard.to_numpy(), C.FAR_CALL].nunique()
-            ax.set_title(f"{who}{bands_txt}: {n_far:,} far stations, farthest "
-                         f"{far:,.0f} km", fontsize=10, pad=16)
-            ax.legend(loc="lower left", fontsize=7, framealpha=0.8)
-    fig.suptitle(f"Reach around {home if isinstance(home, str) else 'home'}", fontsize=12)
+                       label=f"{label.format(a=la, b=lb)}: {len(part):,}")
+        heard = (np.isin(cls, classes) if who is None
+                 else (st[C.HEARD_A] if who == "A" else st[C.HEARD_B]).to_numpy())
+        n_sb = int(heard.sum())
+        n_far = st.loc[heard, C.FAR_CALL].nunique()
+        far = st.loc[heard, C.DISTANCE].max() if heard.any() else float("nan")
+        count = f"{n_sb:,} {unit}" + (f" ({n_far:,} stations)" if several else "")
+        head = f"{la} and {lb}" if who is None else name
+        ax.set_title(f"{head}{bands_txt}: {count}, farthest {far:,.0f} km", fontsize=9,
+                     pad=_TITLE_PAD[projection])
+        ax.legend(loc="upper center", bbox_to_anchor=(0.5, -0.03), ncol=len(classes),
+                  fontsize=7, frameon=False, title=unit, title_fontsize=7)
+    fig.suptitle(f"Reach of {la} and {lb} around {_home_name(home)}", fontsize=11)
     return fig
 
 
