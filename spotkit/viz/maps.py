@@ -852,7 +852,7 @@ def reach_map(pairs: pd.DataFrame, *, band=None, layout: ReachLayout = "side", h
         head = f"{la} and {lb}" if who is None else name
         ax.set_title(f"{head}{bands_txt}: {count}, farthest {far:,.0f} km", fontsize=9,
                      pad=_TITLE_PAD[projection])
-        ax.legend(loc="upper center", bbox_to_anchor=(0.5, -0.03), ncol=len(classes),
+        ax.legend(loc="upper center", bbox_to_anchor=(0.5, -0.075), ncol=len(classes),
                   fontsize=7, frameon=False, title=unit, title_fontsize=7)
     fig.suptitle(f"Reach of {la} and {lb} around {_home_name(home)}", fontsize=11)
     return fig

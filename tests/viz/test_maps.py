@@ -349,3 +349,46 @@ def test_maps_have_no_blank_band_under_the_title(projection):
     boxes = [ax.get_window_extent(r) for ax in _geo_axes(fig)]
     width = (max(b.x1 for b in boxes) - min(b.x0 for b in boxes)) / fig.bbox.width
     assert width > 0.8
+
+
+def _reach_pairs():
+    """Invented pairs: 6 far stations on two bands; one heard by A only, one by B only."""
+    nan = float("nan")
+    calls = ["Q2AA", "Q2BB", "Q2CC", "Q2DD", "Q2EE", "Q2FF"]
+    lat = [48.1, 51.4, 40.4, 59.3, 41.9, 38.9]
+    lon = [11.6, -1.0, -3.7, 18.1, 12.5, -77.0]
+    dist = [500.0, 1000.0, 2300.0, 800.0, 1200.0, 6700.0]
+    rows = []
+    for band in ("20m", "10m"):
+        for k, call in enumerate(calls):
+            a = nan if (band == "10m" and k == 1) else -15.0
+            b = nan if (band == "20m" and k == 2) else -12.0
+            rows.append({C.BAND: band, C.FAR_CALL: call, C.FAR_LAT: lat[k], C.FAR_LON: lon[k],
+                         C.DISTANCE: dist[k], C.SNR_A: a, C.SNR_B: b,
+                         C.FAR_LOCATOR: "JN58td"})
+    return pd.DataFrame(rows)
+
+
+@pytest.mark.parametrize("layout", ["side", "overlay"])
+def test_reach_map_title_and_legend_count_the_same_things(layout):
+    """Issue 16: the title counted stations while the legend counted station-bands; now the
+    legend's counts add up to the title's, and the legend covers no label of the map."""
+    import re
+
+    fig = maps.reach_map(_reach_pairs(), home="JO62qm", layout=layout,
+                         labels=("vertical", "dipole"))
+    fig.canvas.draw()
+    r = fig.canvas.get_renderer()
+    for ax in _geo_axes(fig):
+        title = ax.get_title()
+        n_title = int(re.search(r": ([\d,]+) station-bands", title).group(1))
+        leg = ax.get_legend()
+        n_legend = sum(int(t.get_text().rsplit(": ", 1)[1]) for t in leg.get_texts())
+        assert n_title == n_legend
+        assert "(6 stations)" in title
+        box = leg.get_window_extent(r)
+        for t in ax.texts:
+            if t.get_text() and t.get_visible():
+                assert not box.overlaps(t.get_window_extent(r)), t.get_text()
+    titles = " ".join(ax.get_title() for ax in _geo_axes(fig))
+    assert ("vertical" in titles) and ("dipole" in titles or layout == "side")
