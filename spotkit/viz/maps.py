@@ -410,6 +410,39 @@ def _marker_size(fig, ax_radius_km: float, ncols: int, cell_km: float = 120.0,
 _TITLE_PAD = {"azimuthal": 13.0, "world": 4.0}
 
 
+def _world_window(crs, lat, home=None, margin_deg: float = 8.0):
+    """The latitude band [deg] a world map needs for ``lat`` (and home), with a margin, and
+    its height over width in ``crs`` (Equal Earth: y depends on latitude only)."""
+    lat = np.asarray(lat, dtype=float)
+    lat = lat[np.isfinite(lat)]
+    if home is not None:
+        lat = np.append(lat, home_latlon(home)[0])
+    lo, hi = (-90.0, 90.0) if not lat.size else (
+        max(-90.0, float(lat.min()) - margin_deg), min(90.0, float(lat.max()) + margin_deg))
+    lon0 = crs.proj4_params.get("lon_0", 0.0)
+    _, y = project_points(crs, [lo, hi], [lon0, lon0])
+    x0, x1 = crs.x_limits
+    return (lo, hi), float((y[1] - y[0]) / (x1 - x0))
+
+
+def _crop_world(ax, window):
+    """Show only the latitude band ``window`` [deg] of a world map: less empty sea and ice."""
+    crs = ax.projection
+    lon0 = crs.proj4_params.get("lon_0", 0.0)
+    _, y = project_points(crs, list(window), [lon0, lon0])
+    x0, x1 = crs.x_limits
+    ax.set_extent([x0, x1, float(y[0]), float(y[1])], crs=crs)
+
+
+def _settle_layout(fig):
+    """Lay the figure out once before it is saved: cartopy places panel titles while drawing,
+    so the first pass of the constrained layout puts the figure's title over them."""
+    engine = fig.get_layout_engine()
+    if engine is not None and type(engine).__name__ == "ConstrainedLayoutEngine":
+        fig.draw_without_rendering()
+    return fig
+
+
 def _view_title(view: str, radius_km: float) -> str:
     return "whole map" if view == "whole" else f"within {radius_km:,.0f} km"
 
@@ -513,9 +546,12 @@ def coverage_map(spots: pd.DataFrame, *, bands=None, home=None, side: Side = "au
     else:
         nrows, ncols = len(chosen), len(cols)
         cells = [(band, c) for band in chosen for c in cols]
-    w, h = (4.4, 4.3) if projection == "azimuthal" else (6.4, 3.4)
-    fig = _new_figure(fig, nrows, ncols, w, h, extra_h=0.9)
     crs = make_projection(projection, home)
+    w, h = 4.4, 4.3
+    if projection == "world":
+        window, aspect = _world_window(crs, every[C.FAR_LAT], home)
+        w, h = 6.4, 6.4 * aspect + 0.35
+    fig = _new_figure(fig, nrows, ncols, w, h, extra_h=0.9)
     who = "receivers" if side_name == "transmit" else "transmitters"
     sc = None
     for i, (band, (name, far, view, r)) in enumerate(_panels(cells, progress)):
@@ -523,6 +559,8 @@ def coverage_map(spots: pd.DataFrame, *, bands=None, home=None, side: Side = "au
         base_map(ax, projection=projection, home=home, extent_km=r,
                  ring_step_km=ring_step_km if view == "whole" else None,
                  resolution=resolution)
+        if projection == "world":
+            _crop_world(ax, window)
         sub = far[far[C.BAND] == band].sort_values(C.SNR_PER_W, na_position="first")
         if view == "near":
             sub_in = sub[sub[C.DISTANCE] <= r]
@@ -556,7 +594,7 @@ def coverage_map(spots: pd.DataFrame, *, bands=None, home=None, side: Side = "au
             shown = ", ".join(calls[:4]) + (", ..." if len(calls) > 4 else "")
             title += f" (spots of {len(calls)} home calls pooled: {shown})"
     fig.suptitle(title, fontsize=11)
-    return fig
+    return _settle_layout(fig)
 
 
 # --- A/B difference ----------------------------------------------------------------------
@@ -704,7 +742,10 @@ def difference_map(result, *, level: Level = "auto", band=None, pairs=None, home
         nrows, ncols = len(chosen), len(views)
     else:
         nrows, ncols = _panel_grid(len(chosen), ncols)
-    w, h = (4.6, 4.5) if projection == "azimuthal" else (6.4, 3.4)
+    w, h = 4.6, 4.5
+    if projection == "world":
+        window, aspect = _world_window(crs, cells[C.FAR_LAT], home)
+        w, h = 6.4, 6.4 * aspect + 0.35
     fig = _new_figure(fig, nrows, ncols, w, h, extra_h=1.3)
     what = {"receiver": "receivers", "square": "squares", "field": "fields"}[level]
     for i, (bnd, view, r) in enumerate(_panels(panels, progress)):
@@ -712,6 +753,8 @@ def difference_map(result, *, level: Level = "auto", band=None, pairs=None, home
         base_map(ax, projection=projection, home=home, extent_km=r,
                  ring_step_km=ring_step_km if view == "whole" else None,
                  resolution=resolution)
+        if projection == "world":
+            _crop_world(ax, window)
         sub = cells if bnd is None else cells[cells[C.BAND].astype(str) == bnd]
         sub = sub[np.isfinite(sub[C.FAR_LAT].to_numpy(dtype=float))]
         one = sub["one_sided"].to_numpy()
@@ -765,7 +808,7 @@ def difference_map(result, *, level: Level = "auto", band=None, pairs=None, home
     fig.legend(handles=handles, loc="outside lower center", ncol=5 if ncols > 1 else 2,
                fontsize=8, frameon=False)
     fig.suptitle(f"{lb} minus {la} around {_home_name(home)}, by {level}", fontsize=11)
-    return fig
+    return _settle_layout(fig)
 
 
 # --- reach -------------------------------------------------------------------------------
@@ -823,7 +866,10 @@ def reach_map(pairs: pd.DataFrame, *, band=None, layout: ReachLayout = "side", h
     cmap = plt.get_cmap("viridis")
     panels = [(la, "A", ("both", "only_a")), (lb, "B", ("both", "only_b"))] \
         if layout == "side" else [(None, None, ("both", "only_a", "only_b"))]
-    w, h = (4.8, 4.9) if projection == "azimuthal" else (6.4, 3.6)
+    w, h = 4.8, 4.9
+    if projection == "world":
+        window, aspect = _world_window(crs, st[C.FAR_LAT], home)
+        w, h = 6.4, 6.4 * aspect + 0.6
     fig = _new_figure(fig, 1, len(panels), w, h, extra_h=0.5)
     several = st[C.BAND].nunique() > 1
     unit = "station-bands" if several else "far stations"
@@ -832,6 +878,8 @@ def reach_map(pairs: pd.DataFrame, *, band=None, layout: ReachLayout = "side", h
         ax = fig.add_subplot(1, len(panels), i + 1, projection=crs)
         base_map(ax, projection=projection, home=home, extent_km=extent_km,
                  ring_step_km=ring_step_km, resolution=resolution)
+        if projection == "world":
+            _crop_world(ax, window)
         for c in classes:
             label, pos, marker = _REACH_STYLE[c]
             part = st[cls == c]
@@ -855,7 +903,7 @@ def reach_map(pairs: pd.DataFrame, *, band=None, layout: ReachLayout = "side", h
         ax.legend(loc="upper center", bbox_to_anchor=(0.5, -0.075), ncol=len(classes),
                   fontsize=7, frameon=False, title=unit, title_fontsize=7)
     fig.suptitle(f"Reach of {la} and {lb} around {_home_name(home)}", fontsize=11)
-    return fig
+    return _settle_layout(fig)
 
 
 __all__ = [
