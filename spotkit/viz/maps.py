@@ -351,17 +351,64 @@ def _panels(items, progress: bool):
     return tqdm(items, desc="drawing", unit="panel", disable=not progress)
 
 
-def _new_figure(fig, nrows: int, ncols: int, panel_w: float, panel_h: float,
-                extra_h: float = 1.2):
-    """A figure laid out by matplotlib's constrained layout (no blank bands between title,
-    legend and panels); a figure passed in keeps its own layout."""
-    import matplotlib.pyplot as plt
+class _Layout:
+    """Panels placed at fixed sizes in inches, the figure cut to fit them: a band for the
+    figure's title, per row a band for the panel titles (above the bearing labels), the
+    panels at the projection's aspect (so cartopy shrinks none of them and leaves no blank),
+    room for the bearing labels, and a band at the bottom for a colour bar and a legend.
 
-    if fig is None:
-        fig = plt.figure(figsize=(panel_w * ncols, panel_h * nrows + extra_h),
-                         layout="constrained")
-        fig.get_layout_engine().set(w_pad=0.12, h_pad=0.04, hspace=0.02, wspace=0.04)
-    return fig
+    matplotlib's constrained layout does not settle with cartopy's fixed-aspect panels and
+    their bearing labels drawn outside the map (the figure title lands on the panel titles
+    or a blank band opens), so the arithmetic is done here."""
+
+    def __init__(self, fig, nrows: int, ncols: int, projection: str, *, aspect: float = 1.0,
+                 panel_w: float | None = None, bottom: float = 0.9, below: float | None = None):
+        import matplotlib.pyplot as plt
+
+        az = projection == "azimuthal"
+        self.pw = panel_w or (4.2 if az else 6.2)
+        self.ph = self.pw * aspect
+        self.side, self.gap = (0.34, 0.55) if az else (0.12, 0.25)
+        self.top, self.title = 0.34, (0.42 if az else 0.3)
+        self.below = (0.28 if az else 0.08) if below is None else below
+        self.bottom = bottom
+        self.nrows, self.ncols = nrows, ncols
+        self.w = ncols * self.pw + (ncols - 1) * self.gap + 2 * self.side
+        row = self.title + self.ph + self.below
+        self.h = self.top + nrows * row + bottom
+        if fig is None:
+            fig = plt.figure(figsize=(self.w, self.h))
+        else:
+            fig.set_size_inches(self.w, self.h)
+        self.fig = fig
+
+    def rect(self, i: int) -> list[float]:
+        """[left, bottom, width, height] of panel ``i`` (row by row) in figure fractions."""
+        r, c = divmod(i, self.ncols)
+        x = self.side + c * (self.pw + self.gap)
+        y = self.h - self.top - r * (self.title + self.ph + self.below) - self.title - self.ph
+        return [x / self.w, y / self.h, self.pw / self.w, self.ph / self.h]
+
+    def add(self, i: int, crs):
+        return self.fig.add_axes(self.rect(i), projection=crs)
+
+    def suptitle(self, text: str):
+        return self.fig.suptitle(text, fontsize=11, y=1 - 0.06 / self.h, va="top")
+
+    def colorbar(self, mappable, label: str):
+        """A horizontal colour bar in the bottom band, half the figure wide."""
+        cw = min(7.0, 0.6 * self.w)
+        y = self.bottom - 0.3
+        cax = self.fig.add_axes([(self.w - cw) / 2 / self.w, y / self.h, cw / self.w,
+                                 0.13 / self.h])
+        cb = self.fig.colorbar(mappable, cax=cax, orientation="horizontal", extend="both")
+        cb.set_label(label, fontsize=9)
+        cb.ax.tick_params(labelsize=8)
+        return cb
+
+    def legend(self, handles, ncol: int):
+        return self.fig.legend(handles=handles, loc="lower center", ncol=ncol, fontsize=8,
+                               frameon=False, bbox_to_anchor=(0.5, 0.0))
 
 
 def _views(extent_km, near_km):
@@ -432,15 +479,6 @@ def _crop_world(ax, window):
     _, y = project_points(crs, list(window), [lon0, lon0])
     x0, x1 = crs.x_limits
     ax.set_extent([x0, x1, float(y[0]), float(y[1])], crs=crs)
-
-
-def _settle_layout(fig):
-    """Lay the figure out once before it is saved: cartopy places panel titles while drawing,
-    so the first pass of the constrained layout puts the figure's title over them."""
-    engine = fig.get_layout_engine()
-    if engine is not None and type(engine).__name__ == "ConstrainedLayoutEngine":
-        fig.draw_without_rendering()
-    return fig
 
 
 def _view_title(view: str, radius_km: float) -> str:
@@ -547,15 +585,15 @@ def coverage_map(spots: pd.DataFrame, *, bands=None, home=None, side: Side = "au
         nrows, ncols = len(chosen), len(cols)
         cells = [(band, c) for band in chosen for c in cols]
     crs = make_projection(projection, home)
-    w, h = 4.4, 4.3
+    aspect = 1.0
     if projection == "world":
         window, aspect = _world_window(crs, every[C.FAR_LAT], home)
-        w, h = 6.4, 6.4 * aspect + 0.35
-    fig = _new_figure(fig, nrows, ncols, w, h, extra_h=0.9)
+    lay = _Layout(fig, nrows, ncols, projection, aspect=aspect, bottom=0.8)
+    fig = lay.fig
     who = "receivers" if side_name == "transmit" else "transmitters"
     sc = None
     for i, (band, (name, far, view, r)) in enumerate(_panels(cells, progress)):
-        ax = fig.add_subplot(nrows, ncols, i + 1, projection=crs)
+        ax = lay.add(i, crs)
         base_map(ax, projection=projection, home=home, extent_km=r,
                  ring_step_km=ring_step_km if view == "whole" else None,
                  resolution=resolution)
@@ -580,21 +618,21 @@ def coverage_map(spots: pd.DataFrame, *, bands=None, home=None, side: Side = "au
         ax.set_title(f"{head}: {count}, {_view_title(view, r or 0)}", fontsize=9,
                      pad=_TITLE_PAD[projection])
     if sc is not None:
-        cb = fig.colorbar(sc, ax=fig.axes, orientation="horizontal", fraction=0.04,
-                          shrink=0.6, aspect=40, extend="both")
-        cb.set_label("median SNR per watt [dB in 2500 Hz], one scale for every panel: "
+        lay.colorbar(sc, "median SNR per watt [dB in 2500 Hz], one scale for every panel: "
                      f"{norm.vmin:.0f} to {norm.vmax:.0f} dB")
     title = f"Coverage from {_home_name(home)}"
-    if antennas:
-        title += f": {' and '.join(n for n, _ in fars)} side by side"
+    if antennas and len(fars) > 1:
+        title += f": {' and '.join(n for n, _ in fars)} side by side, one scale"
+    elif antennas:
+        title = f"Coverage of {fars[0][0]} from {_home_name(home)}"
     else:
         col = C.TX_CALL if side_name == "transmit" else C.RX_CALL
         calls = sorted(spots[col].astype(str).unique()) if col in spots else []
         if len(calls) > 1:
             shown = ", ".join(calls[:4]) + (", ..." if len(calls) > 4 else "")
             title += f" (spots of {len(calls)} home calls pooled: {shown})"
-    fig.suptitle(title, fontsize=11)
-    return _settle_layout(fig)
+    lay.suptitle(title)
+    return fig
 
 
 # --- A/B difference ----------------------------------------------------------------------
@@ -742,14 +780,16 @@ def difference_map(result, *, level: Level = "auto", band=None, pairs=None, home
         nrows, ncols = len(chosen), len(views)
     else:
         nrows, ncols = _panel_grid(len(chosen), ncols)
-    w, h = 4.6, 4.5
+    aspect = 1.0
     if projection == "world":
         window, aspect = _world_window(crs, cells[C.FAR_LAT], home)
-        w, h = 6.4, 6.4 * aspect + 0.35
-    fig = _new_figure(fig, nrows, ncols, w, h, extra_h=1.3)
+    legend_rows = 1 if ncols > 1 else 3
+    lay = _Layout(fig, nrows, ncols, projection, aspect=aspect,
+                  bottom=0.82 + 0.2 * legend_rows)
+    fig = lay.fig
     what = {"receiver": "receivers", "square": "squares", "field": "fields"}[level]
     for i, (bnd, view, r) in enumerate(_panels(panels, progress)):
-        ax = fig.add_subplot(nrows, ncols, i + 1, projection=crs)
+        ax = lay.add(i, crs)
         base_map(ax, projection=projection, home=home, extent_km=r,
                  ring_step_km=ring_step_km if view == "whole" else None,
                  resolution=resolution)
@@ -789,10 +829,8 @@ def difference_map(result, *, level: Level = "auto", band=None, pairs=None, home
         ax.set_title(f"{head}{_view_title(view, r or 0)}: {int(drawable.sum())} {what}, "
                      f"{ci_txt}", fontsize=9, pad=_TITLE_PAD[projection])
     mappable = plt.cm.ScalarMappable(norm=norm, cmap=cmap_obj)
-    cb = fig.colorbar(mappable, ax=fig.axes, orientation="horizontal", fraction=0.04,
-                      shrink=0.6, aspect=40, extend="both")
-    cb.set_label(f"{lb} minus {la} [dB], one scale for every panel: -{lim:g} to +{lim:g} dB "
-                 f"(blue: {lb} better, red: {la} better)", fontsize=9)
+    lay.colorbar(mappable, f"{lb} minus {la} [dB], one scale for every panel: -{lim:g} to "
+                 f"+{lim:g} dB (blue: {lb} better, red: {la} better)")
     handles = [
         Patch(facecolor=cmap_obj(0.85), label="CI excludes 0 dB (outlined)", **{
             k: v for k, v in CELL_STYLE["solid"].items() if k in ("alpha", "hatch")},
@@ -805,10 +843,9 @@ def difference_map(result, *, level: Level = "auto", band=None, pairs=None, home
                    label=f"heard by {lb} only"),
         plt.Line2D([], [], marker="o", ls="", mfc="none", mec="#8a8a8a", label="too few pairs"),
     ]
-    fig.legend(handles=handles, loc="outside lower center", ncol=5 if ncols > 1 else 2,
-               fontsize=8, frameon=False)
-    fig.suptitle(f"{lb} minus {la} around {_home_name(home)}, by {level}", fontsize=11)
-    return _settle_layout(fig)
+    lay.legend(handles, ncol=5 if ncols > 1 else 2)
+    lay.suptitle(f"{lb} minus {la} around {_home_name(home)}, by {level}")
+    return fig
 
 
 # --- reach -------------------------------------------------------------------------------
@@ -866,16 +903,17 @@ def reach_map(pairs: pd.DataFrame, *, band=None, layout: ReachLayout = "side", h
     cmap = plt.get_cmap("viridis")
     panels = [(la, "A", ("both", "only_a")), (lb, "B", ("both", "only_b"))] \
         if layout == "side" else [(None, None, ("both", "only_a", "only_b"))]
-    w, h = 4.8, 4.9
+    aspect = 1.0
     if projection == "world":
         window, aspect = _world_window(crs, st[C.FAR_LAT], home)
-        w, h = 6.4, 6.4 * aspect + 0.6
-    fig = _new_figure(fig, 1, len(panels), w, h, extra_h=0.5)
+    lay = _Layout(fig, 1, len(panels), projection, aspect=aspect, bottom=0.05,
+                  below=0.85 if projection == "azimuthal" else 0.6)
+    fig = lay.fig
     several = st[C.BAND].nunique() > 1
     unit = "station-bands" if several else "far stations"
     bands_txt = "" if band is None else f" ({band if isinstance(band, str) else ', '.join(band)})"
     for i, (name, who, classes) in enumerate(_panels(panels, progress)):
-        ax = fig.add_subplot(1, len(panels), i + 1, projection=crs)
+        ax = lay.add(i, crs)
         base_map(ax, projection=projection, home=home, extent_km=extent_km,
                  ring_step_km=ring_step_km, resolution=resolution)
         if projection == "world":
@@ -902,8 +940,8 @@ def reach_map(pairs: pd.DataFrame, *, band=None, layout: ReachLayout = "side", h
                      pad=_TITLE_PAD[projection])
         ax.legend(loc="upper center", bbox_to_anchor=(0.5, -0.075), ncol=len(classes),
                   fontsize=7, frameon=False, title=unit, title_fontsize=7)
-    fig.suptitle(f"Reach of {la} and {lb} around {_home_name(home)}", fontsize=11)
-    return _settle_layout(fig)
+    lay.suptitle(f"Reach of {la} and {lb} around {_home_name(home)}")
+    return fig
 
 
 __all__ = [
