@@ -65,9 +65,9 @@ def add_map(sub) -> None:
     p.add_argument("--projection", choices=["azimuthal", "world"], default="azimuthal",
                    help="azimuthal equidistant on home (default) or an Equal Earth world map")
     p.add_argument("--paths", action="store_true", help="coverage: draw great-circle paths")
-    p.add_argument("--level", choices=["receiver", "square", "field"], default="field",
+    p.add_argument("--level", choices=["receiver", "square", "field"], default="square",
                    help="difference: one estimate per receiver, locator square or field "
-                   "(default field)")
+                   "(default square)")
     p.add_argument("--layout", choices=["side", "overlay"], default="side",
                    help="reach: A and B side by side (default) or overlaid")
     p.add_argument("--radius-km", type=finite_float, metavar="KM",

@@ -700,7 +700,8 @@ def difference_map(result, *, level: Level = "auto", band=None, pairs=None, home
     downward triangle for "only A heard", an upward triangle for "only B heard". One row of
     panels per band when the result is split by band (unless ``band`` picks one); on an
     azimuthal map each row has a second panel zoomed to the distance that holds most pairs
-    (``radius_km`` chooses it, 0 turns it off).
+    (``radius_km`` chooses it, 0 turns it off; by field there is none unless asked for, a
+    field being about as large as the zoom).
 
     Parameters
     ----------
@@ -761,6 +762,8 @@ def difference_map(result, *, level: Level = "auto", band=None, pairs=None, home
     cmap_obj = plt.get_cmap(cmap)
     crs = make_projection(projection, home)
     near = None
+    if projection == "azimuthal" and level == "field" and radius_km is None:
+        radius_km = 0  # a field (20 x 10 deg) is as large as the zoom: no zoomed panel
     if projection == "azimuthal":
         d_cells = _distances_from(home, cells[C.FAR_LAT], cells[C.FAR_LON])
         if extent_km is None:

@@ -429,3 +429,11 @@ def test_coverage_of_one_antenna_title_sits_above_its_panels(sim):
     assert fig._suptitle.get_text().startswith("Coverage of vertical")
     bottom = fig._suptitle.get_window_extent(r).y0
     assert all(ax.title.get_window_extent(r).y1 < bottom for ax in _geo_axes(fig))
+
+
+def test_field_map_has_no_zoom_unless_asked():
+    groups = _squares_around_home()
+    fields = groups.assign(**{C.FIELD: groups[C.SQUARE].str[:2]}).drop(columns=C.SQUARE)
+    fields = fields.drop_duplicates(C.FIELD)
+    assert len(_geo_axes(maps.difference_map(fields, home="JO62qm"))) == 1
+    assert len(_geo_axes(maps.difference_map(fields, home="JO62qm", radius_km=3000))) == 2
