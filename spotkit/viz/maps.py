@@ -158,8 +158,12 @@ def draw_land(ax, *, resolution: Resolution = "110m", land_color: str = LAND_COL
     check_choice(resolution, RESOLUTIONS, "resolution")
     style = dict(facecolor=land_color, edgecolor=coast_color, linewidth=linewidth, zorder=0.5)
     if resolution != "110m":
-        path = _natural_earth_land(resolution)
-        if path is not None:
+        # a layer that could not be had is tried (and reported) once per figure, not per panel
+        missing = ax.figure.__dict__.setdefault("_spotkit_missing_land", set())
+        path = None if resolution in missing else _natural_earth_land(resolution)
+        if path is None:
+            missing.add(resolution)
+        else:
             from cartopy.io.shapereader import Reader
 
             return ax.add_geometries(list(Reader(str(path)).geometries()),

@@ -231,11 +231,11 @@ def test_map_command_offline_with_a_layer_not_shipped(sim, tmp_path, capsys):
     sim.spots.to_parquet(src)
     out = tmp_path / "cov.png"
     code = main(["map", str(src), "--kind", "coverage", "--band", "10m",
-                 "--resolution", "50m", "-o", str(out)])
+                 "--resolution", "50m", "-o", str(out)])  # two panels: whole map and zoom
     err = capsys.readouterr().err
     assert code == 0 and out.stat().st_size > 0
     assert "Traceback" not in err
-    assert "note: the 1:50m land layer (--resolution 50m)" in err
+    assert err.count("note: the 1:50m land layer (--resolution 50m)") == 1  # once, not per panel
 
 
 # --- issue 16: the near field, greyscale significance, one stated scale, no blank bands ---
