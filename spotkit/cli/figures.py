@@ -13,6 +13,7 @@ from spotkit.cli._common import (
     check_output,
     compare_kwargs,
     figure_dpi,
+    finite_float,
     locators_from_data,
     progress,
     save_figure,
@@ -65,35 +66,85 @@ def add_map(sub) -> None:
     p.add_argument("--projection", choices=["azimuthal", "world"], default="azimuthal",
                    help="azimuthal equidistant on home (default) or an Equal Earth world map")
     p.add_argument("--paths", action="store_true", help="coverage: draw great-circle paths")
-    p.add_argument("--level", choices=["receiver", "square", "field"], default="field",
+    p.add_argument("--level", choices=["receiver", "square", "field"], default="square",
                    help="difference: one estimate per receiver, locator square or field "
-                   "(default field)")
+                   "(default square)")
     p.add_argument("--layout", choices=["side", "overlay"], default="side",
                    help="reach: A and B side by side (default) or overlaid")
+    p.add_argument("--radius-km", type=finite_float, metavar="KM",
+                   help="coverage, difference: radius of the zoomed panel beside each whole "
+                   "map [km] (default: the distance that holds half the pairs; 0: none)")
+    p.add_argument("--antenna", choices=["A", "B", "both"],
+                   help="coverage: map the spots of antenna A, of B, or both side by side on "
+                   "one SNR scale (needs --design and --a; default both when --a is given)")
     p.add_argument("--resolution", choices=["110m", "50m", "10m"], default="110m",
-                   help="land layer: 110m is shipped; 50m/10m are downloaded by cartopy once")
+                   help="land layer: 110m is shipped; 50m/10m are downloaded by cartopy once "
+                   "(without a network the shipped layer is drawn, with a note)")
     add_progress_option(p)
     p.set_defaults(func=cmd_map)
+
+
+def _labels(args) -> tuple[str, str]:
+    """Names of A and B for titles and legends: --label-a / --label-b where the command has
+    them, else the calls."""
+    a = getattr(args, "label_a", None) or args.a or "A"
+    b = getattr(args, "label_b", None) or args.b or (args.a if args.design in (
+        "alternating", "before-after") else None) or "B"
+    return a, b
+
+
+def _coverage_sets(args, spots):
+    """The spots of the antennas ``--antenna`` asks for (None: every spot, pooled)."""
+    from spotkit.viz.mapdata import antenna_spots
+
+    which = args.antenna or ("both" if args.a else None)
+    if which is None:
+        return None
+    if not args.design or not args.a:
+        raise UsageError("map --kind coverage --antenna tells A from B by the design: give "
+                         "--design and --a (and --b, --schedule or --change-at as the design "
+                         "needs)")
+    sets = antenna_spots(spots, args.design, args.a, args.b, schedule=args.schedule,
+                         change_at=args.change_at)
+    for key, part in sets.items():
+        if part.empty:
+            call = args.a if key == "A" else (args.b or args.a)
+            raise UsageError(f"map --kind coverage --antenna: no spots of {key} ({call}) in "
+                             f"{args.spots}; check --a / --b and --design")
+    return sets if which == "both" else {which: sets[which]}
 
 
 def cmd_map(args) -> int:
     from spotkit.io.ingest import load_spots
     from spotkit.viz import maps
+    from spotkit.viz.mapdata import check_home, home_from_spots
 
     check_output(args.output, "-o", (".png", ".svg"), inputs=(args.spots,))  # before work
+    if args.radius_km is not None and args.radius_km < 0:
+        raise UsageError(f"--radius-km must be 0 (no zoomed panel) or more, got "
+                         f"{args.radius_km:g}")
+    if args.antenna and args.kind != "coverage":
+        raise UsageError(f"--antenna applies to map --kind coverage, not --kind {args.kind}")
     spots = load_spots(args.spots)
     bands = _figure_bands(args)
     common = dict(home=args.home, projection=args.projection, resolution=args.resolution,
                   progress=progress(args))
+    labels = _labels(args)
     # without --home the map centre is a locator from the data
     with locators_from_data(applies=args.home is None):
+        if args.home is not None and len(spots):
+            check_home(args.home, home_from_spots(spots), option="--home")
         if args.kind == "coverage":
-            fig = maps.coverage_map(spots, bands=bands, paths=args.paths, **common)
+            fig = maps.coverage_map(spots, bands=bands, paths=args.paths,
+                                    radius_km=args.radius_km,
+                                    antennas=_coverage_sets(args, spots), labels=labels,
+                                    **common)
         elif args.kind == "difference":
             result = _figure_compare(args, spots, ("band", args.level))
             if bands and len(bands) == 1:
                 bands = bands[0]
-            fig = maps.difference_map(result, band=bands, **common)
+            fig = maps.difference_map(result, band=bands, radius_km=args.radius_km,
+                                      labels=labels, **common)
         else:
             from spotkit.compare.pairing import pair_spots
 
@@ -101,7 +152,8 @@ def cmd_map(args) -> int:
                 raise UsageError("--kind reach compares two antennas: give --design and --a")
             pairs = pair_spots(spots, args.design, args.a, args.b, schedule=args.schedule,
                                change_at=args.change_at)
-            fig = maps.reach_map(pairs, band=bands, layout=args.layout, **common)
+            fig = maps.reach_map(pairs, band=bands, layout=args.layout, labels=labels,
+                                 **common)
     return save_figure(fig, args.output, args.dpi)
 
 

@@ -111,6 +111,58 @@ def auto_extent_km(distances_km, step_km: float | None = None) -> float:
     return float(min(FULL_EXTENT_KM, step * np.ceil((far * 1.05 + 1e-9) / step)))
 
 
+#: Radii [km] a zoomed panel may have: round numbers for the rings.
+NEAR_RADII_KM = (250.0, 500.0, 750.0, 1000.0, 1500.0, 2000.0, 2500.0, 3000.0, 4000.0, 5000.0)
+
+
+def near_radius_km(distances_km, weights=None, *, share: float = 0.5,
+                   whole_km: float | None = None) -> float | None:
+    """Radius [km] of a zoomed panel that holds ``share`` of the pairs, or ``None`` when a
+    zoom would show little more than the whole map.
+
+    The ``share`` quantile of the distances (weighted, e.g. by pairs per cell) rounded up to
+    the next of :data:`NEAR_RADII_KM`; ``None`` when that radius is more than 40 % of
+    ``whole_km`` (the radius of the whole map, default the farthest distance) or beyond
+    5000 km.
+
+    Parameters
+    ----------
+    distances_km : array-like
+        Distance of each far station, cell or pair from home [km].
+    weights : array-like, optional
+        Pairs behind each distance (default one each).
+    share : float
+        Share of the pairs (0-1] the zoomed panel should hold.
+    whole_km : float, optional
+        Radius of the whole map [km].
+
+    Examples
+    --------
+    Most pairs within 800 km of home, a few at 9000 km:
+
+    >>> near_radius_km([300, 500, 700, 800, 9000])
+    750.0
+    >>> near_radius_km([300, 500, 700, 800, 9000], share=0.8)
+    1000.0
+    >>> near_radius_km([300, 500, 700, 800, 9000], weights=[1, 1, 1, 1, 20]) is None
+    True
+    """
+    d = np.asarray(distances_km, dtype=float)
+    w = np.ones_like(d) if weights is None else np.asarray(weights, dtype=float)
+    ok = np.isfinite(d) & np.isfinite(w) & (w > 0)
+    d, w = d[ok], w[ok]
+    if not d.size:
+        return None
+    order = np.argsort(d)
+    cum = np.cumsum(w[order]) / w.sum()
+    q = float(d[order][np.searchsorted(cum, share - 1e-12)])
+    whole = float(whole_km) if whole_km else float(d.max())
+    for r in NEAR_RADII_KM:
+        if q <= r:
+            return r if r <= 0.4 * whole else None
+    return None
+
+
 # --- coverage ----------------------------------------------------------------------------
 def _mode(series: pd.Series):
     s = series.dropna().astype(str)
@@ -394,6 +446,119 @@ def symmetric_limit(values, *, percentile: float = 95.0, step: float = 0.5) -> f
     return float(max(step, step * np.ceil(np.percentile(v, percentile) / step)))
 
 
+# --- a home given by the user --------------------------------------------------------------
+def check_home(home, data_home, *, option: str = "--home", what: str = "the station under "
+               "test") -> float:
+    """Warn when a home given by the user is more than one locator square away from the
+    station's own locator in the data (a typo such as ``JP62qm`` for ``JO62qm`` moves the map
+    by 1000 km or more).
+
+    Parameters
+    ----------
+    home : str or (float, float)
+        The home the user gave (locator or (lat, lon) [deg]).
+    data_home : str
+        The locator of the station in the data (e.g. :func:`home_from_spots`).
+    option : str
+        The option the user typed, named in the warning.
+    what : str
+        What ``data_home`` is, for the warning.
+
+    Returns
+    -------
+    float
+        Geodesic distance between the two [km].
+
+    Warns
+    -----
+    SpotkitWarning
+        When the two are more than one square apart (1 deg of latitude or 2 deg of
+        longitude beyond the neighbouring square).
+
+    Examples
+    --------
+    >>> round(check_home("JO62qn", "JO62qm"))
+    5
+    """
+    import warnings
+
+    from spotkit.errors import LocatorError, SpotkitWarning
+    from spotkit.geo.geodesic import geodesic_inverse
+
+    h_lat, h_lon = home_latlon(home)
+    try:
+        d_lat, d_lon = home_latlon(data_home)
+    except LocatorError:  # the data's own locator is bad: reported where it is read
+        return float("nan")
+    dist_km = float(np.asarray(geodesic_inverse(h_lat, h_lon, d_lat, d_lon)[0]) / 1e3)
+    dlon = abs((h_lon - d_lon + 180.0) % 360.0 - 180.0)
+    if abs(h_lat - d_lat) > 1.5 or dlon > 3.0:  # beyond the neighbouring 2 x 1 deg square
+        given = home if isinstance(home, str) else f"{h_lat:.3f}, {h_lon:.3f}"
+        warnings.warn(f"{option} {given} is {dist_km:,.0f} km from {data_home}, the locator "
+                      f"of {what} in the data: the map is centred on {given}; check "
+                      f"{option} for a typo, or leave it out to use {data_home}",
+                      SpotkitWarning, stacklevel=2)
+    return dist_km
+
+
+# --- one antenna's spots -------------------------------------------------------------------
+def antenna_spots(spots: pd.DataFrame, design: str, a: str, b: str | None = None, *,
+                  schedule=None, change_at=None) -> dict[str, pd.DataFrame]:
+    """The spots of antenna A and of antenna B, as the design tells them apart.
+
+    ``simultaneous``: the transmitter call is A's or B's; ``receive``: the receiver call;
+    ``alternating``: A's call, in the slots the schedule gives each antenna;
+    ``before-after``: A's call before ``change_at`` (A) and from it on (B).
+
+    Parameters
+    ----------
+    spots : pandas.DataFrame
+        Canonical spot table.
+    design : {"simultaneous", "alternating", "receive", "before-after"}
+    a, b : str
+        Calls of A and B (``b`` defaults to ``a`` where the design has one call).
+    schedule : str or pandas.DataFrame, optional
+        Alternating design: the switching schedule
+        (:func:`spotkit.compare.pairing.schedule_antennas`).
+    change_at : str or pandas.Timestamp, optional
+        Before-after design: when the antenna changed (UTC).
+
+    Returns
+    -------
+    dict
+        ``{"A": spots of A, "B": spots of B}``.
+
+    Examples
+    --------
+    >>> spots = pd.DataFrame({"tx_call": ["Q1ABC", "Q1ABD", "Q1ABC"],
+    ...                       "rx_call": ["Q2XY", "Q2XY", "Q3Z"]})
+    >>> {k: len(v) for k, v in antenna_spots(spots, "simultaneous", "Q1ABC", "Q1ABD").items()}
+    {'A': 2, 'B': 1}
+    """
+    from spotkit._validate import check_time
+    from spotkit.compare.pairing import DESIGNS, schedule_antennas
+
+    check_choice(design, DESIGNS, "design")
+    if design in ("simultaneous", "receive"):
+        if not b:
+            raise UsageError(f"the {design} design has two calls: give --b as well as --a")
+        col = C.TX_CALL if design == "simultaneous" else C.RX_CALL
+        calls = spots[col].astype(str).str.upper()
+        return {"A": spots[(calls == a.upper()).to_numpy()],
+                "B": spots[(calls == b.upper()).to_numpy()]}
+    own = spots[(spots[C.TX_CALL].astype(str).str.upper() == a.upper()).to_numpy()]
+    if design == "alternating":
+        if schedule is None:
+            raise UsageError("the alternating design needs --schedule to tell A from B")
+        which = schedule_antennas(own[C.SLOT], own[C.BAND].astype(str), schedule)
+    else:
+        if change_at is None:
+            raise UsageError("the before-after design needs --change-at to tell A from B")
+        t = check_time(change_at, "--change-at")
+        which = np.where(pd.to_datetime(own[C.SLOT], utc=True) < t, 0, 1)
+    return {"A": own[which == 0], "B": own[which == 1]}
+
+
 # --- reach -------------------------------------------------------------------------------
 def reach_stations(pairs: pd.DataFrame, band=None) -> pd.DataFrame:
     """One row per far station (and band): whether A and B reached it.
@@ -448,6 +613,7 @@ def reach_stations(pairs: pd.DataFrame, band=None) -> pd.DataFrame:
             .reset_index())
 
 
-__all__ = ["SIDES", "LEVELS", "FULL_EXTENT_KM", "home_latlon", "auto_extent_km",
+__all__ = ["SIDES", "LEVELS", "FULL_EXTENT_KM", "NEAR_RADII_KM", "home_latlon", "auto_extent_km",
+           "near_radius_km", "check_home", "antenna_spots",
            "resolve_side", "home_from_spots", "far_station_summary", "home_from_pairs",
            "difference_cells", "symmetric_limit", "reach_stations"]

@@ -162,3 +162,99 @@ def test_failed_write_keeps_the_earlier_picture(failure, code, message, tmp_path
     assert message in err
     assert out.read_bytes() == b"earlier picture"
     assert sorted(p.name for p in tmp_path.iterdir()) == ["p.png", "spots.parquet"]
+
+
+# --- issue 16: --home typos, one antenna's coverage, the zoomed panel -----------------------
+@pytest.fixture(scope="module")
+def demo_parquet(tmp_path_factory, sim):
+    path = tmp_path_factory.mktemp("demo") / "simultaneous.parquet"
+    spots = sim.spots[sim.spots[C.BAND].astype(str) == "10m"]
+    spots.to_parquet(path)
+    return str(path)
+
+
+@pytest.mark.parametrize("home", ["JP62qm", "JO82qm", "IO62qm"])
+def test_home_far_from_the_station_in_the_data_is_named(home, demo_parquet, tmp_path, capsys):
+    """A typo in --home (JP62qm for JO62qm: 1,100 km north) draws the map, with a note naming
+    --home, the locator typed and the station's own locator in the data."""
+    out = tmp_path / "m.png"
+    assert main(["map", demo_parquet, "--kind", "coverage", "--home", home,
+                 "--radius-km", "0", "-o", str(out)]) == 0
+    err = capsys.readouterr().err
+    assert f"note: --home {home} is" in err and "JO62qm" in err and "typo" in err
+    assert out.exists()
+
+
+@pytest.mark.parametrize("home", ["JO62rn", "JO72qm", "JO61qm"])
+def test_home_in_the_neighbouring_square_is_quiet(home, demo_parquet, tmp_path, capsys):
+    out = tmp_path / "m.png"
+    assert main(["map", demo_parquet, "--kind", "coverage", "--home", home,
+                 "--radius-km", "0", "-o", str(out)]) == 0
+    assert "--home" not in capsys.readouterr().err
+
+
+def test_coverage_of_one_antenna_or_both(demo_parquet, tmp_path, monkeypatch, sim):
+    """--antenna A and --antenna B map different spots (the coverage map no longer pools
+    them silently); both puts A and B side by side on one colour scale; leaving --antenna out
+    with --a given means both; without the A/B options the title says the calls are pooled."""
+    import matplotlib.pyplot as plt
+
+    from spotkit.viz import maps
+
+    drawn = {}
+
+    def keep(fig, path, dpi, option="-o"):
+        drawn[os.path.basename(path)] = fig
+        return 0
+
+    monkeypatch.setattr("spotkit.cli.figures.save_figure", keep)
+    ab = ["--design", "simultaneous", "--a", sim.a, "--b", sim.b]
+    for which in ("A", "B", "both", None):
+        extra = ["--antenna", which] if which else []
+        assert main(["map", demo_parquet, "--kind", "coverage", "--radius-km", "0",
+                     "-o", str(tmp_path / f"{which}.png"), *ab, *extra]) == 0
+    assert main(["map", demo_parquet, "--kind", "coverage", "--radius-km", "0",
+                 "-o", str(tmp_path / "pooled.png")]) == 0
+
+    def stations(fig):
+        axes = [ax for ax in fig.axes if hasattr(ax, "projection")]
+        return [next(a for a in ax.get_children() if a.get_gid() == "stations")
+                for ax in axes]
+
+    spots = pd.read_parquet(demo_parquet)
+    n_a = spots.loc[spots[C.TX_CALL] == sim.a, C.RX_CALL].nunique()
+    n_b = spots.loc[spots[C.TX_CALL] == sim.b, C.RX_CALL].nunique()
+    (sa,) = stations(drawn["A.png"])
+    (sb,) = stations(drawn["B.png"])
+    assert len(sa.get_offsets()) == n_a and len(sb.get_offsets()) == n_b
+    assert sorted(sa.get_array()) != sorted(sb.get_array())  # not the same picture
+    for name in ("both.png", "None.png"):
+        pa, pb = stations(drawn[name])
+        assert pa.norm.vmin == pb.norm.vmin and pa.norm.vmax == pb.norm.vmax  # one scale
+        titles = [ax.get_title() for ax in drawn[name].axes if hasattr(ax, "projection")]
+        assert titles[0].startswith(sim.a) and titles[1].startswith(sim.b)
+    assert "pooled" in drawn["pooled.png"]._suptitle.get_text()
+    assert "pooled" not in drawn["both.png"]._suptitle.get_text()
+    plt.close("all")
+    assert maps  # imported for the figures' module
+
+
+@pytest.mark.parametrize("argv, message", [
+    (["--antenna", "A"], "--antenna tells A from B by the design: give --design and --a"),
+    (["--radius-km", "-5"], "--radius-km must be 0"),
+])
+def test_map_option_mistakes_are_usage_errors(argv, message, demo_parquet, tmp_path, capsys):
+    code = main(["map", demo_parquet, "--kind", "coverage", "-o", str(tmp_path / "m.png"),
+                 *argv])
+    err = _one_error_line(capsys, 2, code)
+    assert message in err
+
+
+def test_radius_km_chooses_the_zoomed_panel(demo_parquet, tmp_path, monkeypatch):
+    drawn = {}
+    monkeypatch.setattr("spotkit.cli.figures.save_figure",
+                        lambda fig, path, dpi, option="-o": drawn.setdefault("fig", fig) and 0)
+    assert main(["map", demo_parquet, "--kind", "coverage", "--radius-km", "750",
+                 "-o", str(tmp_path / "m.png")]) == 0
+    titles = [ax.get_title() for ax in drawn["fig"].axes if hasattr(ax, "projection")]
+    assert len(titles) == 2 and "within 750 km" in titles[1]

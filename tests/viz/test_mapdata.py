@@ -127,3 +127,90 @@ def test_single_block_receivers_are_never_significant(drifting_receivers):
     kept = mapdata.difference_cells(res, level="receiver", block_hours=None)
     assert kept.attrs["block_hours"] is None
     assert kept["significant"].mean() == 0  # one cluster each: too little data
+
+
+# --- issue 16 -----------------------------------------------------------------------------
+def test_near_radius_holds_at_least_the_share_of_pairs():
+    """Over random distance sets the chosen radius holds at least half the pairs (weighted),
+    is one of the round radii, and is refused (None) when it would not zoom in."""
+    rng = np.random.default_rng(5)
+    for _ in range(200):
+        d = np.concatenate([rng.gamma(2.0, 300.0, rng.integers(1, 80)),
+                            rng.uniform(3000, 19000, rng.integers(0, 40))])
+        w = rng.integers(1, 500, d.size).astype(float)
+        r = mapdata.near_radius_km(d, w)
+        if r is None:
+            # refused only when the round radius holding half the pairs would not zoom in
+            order = np.argsort(d)
+            q = d[order][np.searchsorted(np.cumsum(w[order]) / w.sum(), 0.5)]
+            fit = [x for x in mapdata.NEAR_RADII_KM if x >= q]
+            assert not fit or fit[0] > 0.4 * d.max()
+            continue
+        assert r in mapdata.NEAR_RADII_KM
+        assert w[d <= r].sum() >= 0.5 * w.sum()
+        assert r <= 0.4 * d.max()
+    assert mapdata.near_radius_km([]) is None
+    assert mapdata.near_radius_km([np.nan, 500.0], [1.0, 1.0], whole_km=20000.0) == 500.0
+
+
+@pytest.mark.parametrize("home, warns", [
+    ("JP62qm", True),    # O -> P: 10 deg of latitude north, the issue's example
+    ("JO82qm", True),    # two squares east
+    ("IO62qm", True),    # a field west
+    ("JO62qn", False),   # the neighbouring subsquare
+    ("JO72qm", False),   # the neighbouring square
+    ("JO61qm", False),
+    ((52.52, 13.37), False),
+])
+def test_check_home_warns_beyond_one_square(home, warns):
+    import warnings
+
+    from spotkit.errors import SpotkitWarning
+
+    with warnings.catch_warnings(record=True) as seen:
+        warnings.simplefilter("always")
+        d = mapdata.check_home(home, "JO62qm")
+    notes = [w for w in seen if issubclass(w.category, SpotkitWarning)]
+    assert bool(notes) == warns
+    if warns:
+        text = str(notes[0].message)
+        assert text.startswith(f"--home {home} is") and "JO62qm" in text
+    # the distance against geographiclib (Karney 2013) between the two cell centres, 1 m
+    from geographiclib.geodesic import Geodesic
+
+    a = mapdata.home_latlon(home)
+    b = mapdata.home_latlon("JO62qm")
+    s12 = Geodesic.WGS84.Inverse(a[0], a[1], b[0], b[1])["s12"] / 1e3
+    assert d == pytest.approx(s12, abs=1e-3)
+
+
+def test_check_home_leaves_a_bad_data_locator_to_the_reader():
+    assert np.isnan(mapdata.check_home("JO62qm", "ZZ99"))
+
+
+def test_antenna_spots_by_design():
+    import pandas as pd
+
+    slots = pd.to_datetime(["2026-03-02 10:00", "2026-03-02 10:02", "2026-03-02 10:04",
+                            "2026-03-03 10:00"], utc=True)
+    spots = pd.DataFrame({C.SLOT: slots, C.BAND: ["20m"] * 4,
+                          C.TX_CALL: ["Q1ABC", "Q1ABC", "Q1ABD", "Q1ABC"],
+                          C.RX_CALL: ["Q2XY", "Q3Z", "Q2XY", "Q2XY"]})
+    sim = mapdata.antenna_spots(spots, "simultaneous", "Q1ABC", "q1abd")
+    assert len(sim["A"]) == 3 and len(sim["B"]) == 1
+    rec = mapdata.antenna_spots(spots, "receive", "Q2XY", "Q3Z")
+    assert len(rec["A"]) == 3 and len(rec["B"]) == 1
+    # even-odd: 10:00 and 10:04 are even slots (A), 10:02 odd (B); Q1ABD is not A's call
+    alt = mapdata.antenna_spots(spots, "alternating", "Q1ABC", schedule="even-odd")
+    assert alt["A"][C.SLOT].tolist() == [slots[0], slots[3]]
+    assert alt["B"][C.SLOT].tolist() == [slots[1]]
+    ba = mapdata.antenna_spots(spots, "before-after", "Q1ABC", change_at="2026-03-03T00:00Z")
+    assert len(ba["A"]) == 2 and len(ba["B"]) == 1
+    from spotkit.errors import UsageError
+
+    with pytest.raises(UsageError, match="--b"):
+        mapdata.antenna_spots(spots, "simultaneous", "Q1ABC")
+    with pytest.raises(UsageError, match="--schedule"):
+        mapdata.antenna_spots(spots, "alternating", "Q1ABC")
+    with pytest.raises(UsageError, match="--change-at"):
+        mapdata.antenna_spots(spots, "before-after", "Q1ABC")
