@@ -110,3 +110,15 @@ __all__ += [
 ]
 __all__ += ["check_columns", "column_problems", "MIN_VALUES", "MIN_SHARE", "SNR_PLAUSIBLE_DB",
             "LOOKS_LIKE_SHARE"]
+# modelled gain patterns (spotkit's own CSV layout)
+from spotkit.io.pattern import (  # noqa: E402
+    GAIN_RANGE_DBI,
+    PATTERN_COLUMNS,
+    PATTERN_VERSION,
+    GainPattern,
+    read_pattern,
+    write_pattern,
+)
+
+__all__ += ["PATTERN_VERSION", "PATTERN_COLUMNS", "GAIN_RANGE_DBI", "read_pattern",
+            "write_pattern", "GainPattern"]
