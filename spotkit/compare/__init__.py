@@ -96,3 +96,15 @@ __all__ = [
     "SeriesResult",
     "compare_series", "parse_periods",
 ]
+# measured against modelled gain patterns
+from spotkit.compare.modelcheck import (
+    CHECK_COLUMNS,
+    DEFAULT_LAYER_HEIGHTS_KM,
+    N_HEIGHTS,
+    PatternCheck,
+    check_patterns,
+    predict_pairs,
+)
+
+__all__ += ["DEFAULT_LAYER_HEIGHTS_KM", "N_HEIGHTS", "CHECK_COLUMNS", "predict_pairs",
+            "PatternCheck", "check_patterns"]
