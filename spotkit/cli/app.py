@@ -23,7 +23,7 @@ import warnings
 from collections.abc import Sequence
 
 from spotkit import __version__
-from spotkit.cli import archive, compare, figures, ingest, plan, simulate
+from spotkit.cli import archive, compare, figures, ingest, patterns, plan, simulate
 from spotkit.cli._common import EXIT_INPUT, EXIT_OK, EXIT_USAGE, Parser
 from spotkit.errors import LocatorError, SpotkitError, SpotkitWarning, UsageError
 
@@ -82,7 +82,7 @@ and field), 2 usage.""",
     sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=Parser)
     for add in (ingest.add_ingest, simulate.add_simulate, compare.add_compare,
                 figures.add_map, figures.add_plot, plan.add_plan, compare.add_report,
-                simulate.add_demo, archive.add_archive):
+                simulate.add_demo, archive.add_archive, patterns.add_pattern):
         add(sub)
     return parser
 

@@ -16,6 +16,11 @@ from spotkit.cli._common import (
     progress,
     write_result,
 )
+from spotkit.cli.patterns import (
+    add_pattern_check_options,
+    cmd_compare_patterns,
+    wants_pattern_check,
+)
 
 
 def add_compare(sub) -> None:
@@ -31,6 +36,7 @@ def add_compare(sub) -> None:
                    "field, square, receiver")
     add_ab_options(p, required=False)
     _add_several_options(p)
+    add_pattern_check_options(p)
     p.add_argument("--json", metavar="OUT.json", help="write the result as JSON")
     p.add_argument("--csv", metavar="OUT.csv", help="write the result table as CSV")
     add_progress_option(p)
@@ -115,6 +121,8 @@ def cmd_compare(args) -> int:
 
     if args.antennas or args.periods:
         return _cmd_several(args)
+    if wants_pattern_check(args):
+        return cmd_compare_patterns(args)
     if args.reference or args.all_pairs:
         raise UsageError("--reference and --all-pairs go with --antennas")
     missing = [o for o, v in (("--design", args.design), ("--a", args.a)) if not v]
