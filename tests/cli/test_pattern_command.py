@@ -75,3 +75,17 @@ def test_usage_errors_exit_2(setup, tmp_path, capsys):
     # an output that is an input is refused before any work
     assert main(_compare(setup, "d.csv", "--csv", str(setup / "v.csv"))) == 2
     assert main(["pattern", "--antenna", "yagi", "-o", str(tmp_path / "y.csv")]) == 2
+
+
+def test_plot_pattern_check(setup, tmp_path):
+    out = tmp_path / "pc.svg"
+    args = ["plot", str(setup / "spots.parquet"), "--kind", "pattern-check", "--design",
+            "simultaneous", "--a", "Q1ABC", "--b", "Q1ABD", "--pattern-a", str(setup / "v.csv"),
+            "--pattern-b", str(setup / "d3.csv"), "--bearing-width", "90", "--boot", "40",
+            "-o", str(out)]
+    assert main(args) == 0
+    svg = out.read_text()
+    assert 'id="measured-0"' in svg and 'id="predicted-0"' in svg
+    assert "disagrees-" in svg  # the shifted pattern's low-angle cells are ringed
+    i = args.index("--pattern-b")
+    assert main(args[:i] + args[i + 2:]) == 2  # needs both patterns
