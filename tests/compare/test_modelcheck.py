@@ -40,6 +40,11 @@ def test_true_pattern_accepted_shifted_one_rejected_at_low_angles():
     bad = check_patterns(res, pa, shifted)
     assert not good.rejected and good.p_value > 0.05
     assert not good.cells[C.DISAGREES].any()
+    # cells carried by fewer than MIN_CLUSTERS receivers are set aside with the reason
+    few = res.groups[res.groups[C.CLUSTERS] < 5]
+    assert len(good.set_aside) == len(few.dropna(subset=[C.CI_LOW])) > 0
+    assert all("clusters" in why for why in good.set_aside.values())
+    assert len(good.cells) + len(good.set_aside) == int(res.groups[C.CI_LOW].notna().sum())
     assert bad.rejected and bad.p_value < 1e-6
     listed = bad.disagreeing
     assert len(listed) >= 1
