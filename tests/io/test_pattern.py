@@ -113,3 +113,34 @@ def test_writer_refuses_a_table_without_the_columns(tmp_path):
         write_pattern(pd.DataFrame({"band": ["20m"], "elevation_deg": [0.0],
                                     "azimuth_deg": [0.0]}), tmp_path / "x.csv")
     assert not (tmp_path / "x.csv").exists()
+
+
+def test_kill_9_while_writing_leaves_a_whole_pattern(tmp_path):
+    """A writer killed (SIGKILL) in the middle of rewriting a pattern leaves the earlier or
+    the new file whole, never a torn one; the next write succeeds."""
+    import os
+    import signal
+    import subprocess
+    import sys
+    import time
+
+    target = tmp_path / "p.csv"
+    small = pattern_table(vertical_antenna(["20m"]), ["20m"])
+    write_pattern(small, target)
+    code = ("from spotkit.io.pattern import write_pattern\n"
+            "from spotkit.sim.antenna import dipole_antenna, pattern_table\n"
+            "t = pattern_table(dipole_antenna(['20m', '40m', '10m']), ['20m', '40m', '10m'],"
+            " elevation_step_deg=0.5, azimuth_step_deg=2)\n"
+            "print('ready', flush=True)\n"
+            f"while True: write_pattern(t, {str(target)!r})\n")
+    env = dict(os.environ, PYTHONPATH=os.pathsep.join(sys.path))
+    with subprocess.Popen([sys.executable, "-c", code], env=env,
+                          stdout=subprocess.PIPE) as proc:
+        assert proc.stdout.readline().strip() == b"ready"
+        time.sleep(1.0)
+        os.kill(proc.pid, signal.SIGKILL)
+        proc.wait()
+    back = read_pattern(target)  # whole: it parses, every band a complete grid
+    assert len(back) in (len(small), 3 * 181 * 180)
+    write_pattern(small, target)
+    assert len(read_pattern(target)) == len(small)
