@@ -61,7 +61,7 @@ from spotkit import columns as C
 from spotkit._validate import check_confidence
 from spotkit.compare.estimate import MIN_CLUSTERS, ComparisonResult, group_label
 from spotkit.compare.grouping import add_group_keys, group_columns
-from spotkit.errors import UsageError
+from spotkit.errors import InputError, UsageError
 from spotkit.geo.geodesic import elevation_angle
 from spotkit.io.pattern import GainPattern
 
@@ -265,6 +265,9 @@ def check_patterns(result: ComparisonResult, pattern_a, pattern_b, *,
     ------
     UsageError
         The comparison has no groups, or a bad height range.
+    InputError
+        The patterns share no band with the spots (cells of a band only one pattern or
+        neither has are set aside, with the reason).
 
     Examples
     --------
@@ -286,9 +289,17 @@ def check_patterns(result: ComparisonResult, pattern_a, pattern_b, *,
                  hour=opts.get("hour", "utc"), elevation_edges=opts.get("elevation_edges"),
                  layer_height_km=nominal)
     gopts = {k: v for k, v in gopts.items() if v is not None}
+    pa, pb = _as_pattern(pattern_a), _as_pattern(pattern_b)
+    modelled = sorted(set(pa.bands) & set(pb.bands))
     keyed = add_group_keys(result.pairs, result.by, **gopts)
+    in_bands = keyed[C.BAND].astype(str).isin(modelled).to_numpy()
+    if not in_bands.any():
+        raise InputError(f"{pa.source} and {pb.source} have no band in common with the "
+                         f"spots (patterns: {', '.join(pa.bands)} / {', '.join(pb.bands)}; "
+                         f"spots: {', '.join(sorted(keyed[C.BAND].astype(str).unique()))})")
+    keyed = keyed[in_bands]
     keys = group_columns(result.by)
-    pred = predict_pairs(keyed, pattern_a, pattern_b, layer_heights_km=heights)
+    pred = predict_pairs(keyed, pa, pb, layer_heights_km=heights)
     pcols = [f"_h{i}" for i in range(len(heights))]
     frame = pd.DataFrame(pred, columns=pcols, index=keyed.index)
     frame[keys] = keyed[keys]
@@ -306,6 +317,12 @@ def check_patterns(result: ComparisonResult, pattern_a, pattern_b, *,
                  f"only {int(r[C.CLUSTERS])} clusters (< {int(min_clusters)}): interval "
                  "too unreliable to test against" for r in groups[few].to_dict("records")}
     groups = groups[~few]
+    if C.BAND in groups:
+        unmodelled = ~groups[C.BAND].astype(str).isin(modelled).to_numpy()
+        set_aside.update({group_label(r, opts.get("hour", "utc")):
+                          f"no modelled pattern for band {r[C.BAND]} in both files"
+                          for r in groups[unmodelled].to_dict("records")})
+        groups = groups[~unmodelled]
     cells = groups[keys + [C.B_MINUS_A, C.CI_LOW, C.CI_HIGH, C.PAIRS]].merge(
         cellpred, on=keys, how="inner")
     z_ci = float(sps.norm.ppf(0.5 + conf / 2.0))
@@ -327,7 +344,6 @@ def check_patterns(result: ComparisonResult, pattern_a, pattern_b, *,
                               for r in cells.to_dict("records")])
     stat = float(np.sum(z * z))
     p = float(sps.chi2.sf(stat, n)) if n else float("nan")
-    pa, pb = _as_pattern(pattern_a), _as_pattern(pattern_b)
     return PatternCheck(cells=cells[keys + CHECK_COLUMNS].reset_index(drop=True),
                         statistic=stat, df=n, p_value=p, confidence=conf, critical_z=crit,
                         a=result.a, b=result.b, pattern_a=pa.source, pattern_b=pb.source,

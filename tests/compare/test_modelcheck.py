@@ -117,3 +117,16 @@ def test_level_and_power_over_runs_with_heavy_fading_and_soft_decoders():
         rejected_shifted += check_patterns(res, pa, shifted).rejected
     assert rejected_true <= 2
     assert rejected_shifted == 10
+
+
+def test_bands_without_a_pattern_are_set_aside():
+    pa, pb, _ = _patterns()
+    sim = simulate_spots(days=0.5, n_receivers=100, bands=("20m", "40m"), seed=7)
+    res = compare_antennas(sim.spots, "simultaneous", "Q1ABC", "Q1ABD", by=BY, n_boot=30,
+                           bearing_width_deg=90.0)
+    chk = check_patterns(res, pa, pb)
+    assert set(chk.cells[C.BAND]) == {"20m"}
+    assert any("no modelled pattern for band 40m" in why for why in chk.set_aside.values())
+    from spotkit.errors import InputError
+    with pytest.raises(InputError, match="no band in common"):
+        check_patterns(res, pa.assign(band="10m"), pb.assign(band="10m"))
