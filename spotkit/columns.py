@@ -135,6 +135,18 @@ P_FAMILY = "p_family"  # family-wise adjusted p (single-step max-T or Bonferroni
 SE_BOOT = "se_boot_db"  # bootstrap standard error of a contrast [dB]
 PERIOD_START = "period_start"  # first moment of a period of a series of changes [UTC]
 
+# --- modelled gain patterns and the measured-against-modelled check --------------------
+# (spotkit.io.pattern, spotkit.compare.modelcheck)
+AZIMUTH = "azimuth_deg"  # direction of a pattern point [deg clockwise from true north]
+GAIN = "gain_dbi"  # modelled antenna gain [dBi]
+FREQ_MHZ = "frequency_mhz"  # a pattern's frequency column [MHz] (instead of a band)
+PREDICTED = "predicted_db"  # modelled B-A at the nominal layer height [dB]
+PREDICTED_LOW = "predicted_low_db"  # lowest modelled B-A over the layer-height range [dB]
+PREDICTED_HIGH = "predicted_high_db"  # highest modelled B-A over the layer-height range [dB]
+MISFIT = "misfit_db"  # measured minus the nearest end of the predicted range (0 inside) [dB]
+MISFIT_Z = "misfit_z"  # MISFIT / the measured estimate's standard error
+DISAGREES = "disagrees"  # the cell's |MISFIT_Z| is beyond the family-wise critical value
+
 # --- reach (spotkit.compare.reach) ------------------------------------------------------
 STATIONS = "stations"  # distinct far stations reached
 STATIONS_ONLY = "stations_only"  # far stations reached by this antenna and never by the other

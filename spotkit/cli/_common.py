@@ -339,3 +339,53 @@ def save_figure(fig, path, dpi, option: str = "-o") -> int:
             os.unlink(tmp)
     print(f"wrote {path}")
     return EXIT_OK
+
+
+# --- measured against modelled (compare --pattern-a/--pattern-b, plot --kind pattern-check) --
+#: Grouping of the pattern check when --by is not given.
+PATTERN_CHECK_BY = "band,elevation,bearing"
+
+
+def layer_heights(text: str) -> tuple[float, float]:
+    """``LOW,HIGH`` reflection heights [km] for --layer-heights."""
+    try:
+        lo, hi = (float(x) for x in str(text).split(","))
+    except ValueError:
+        raise argparse.ArgumentTypeError(
+            f"expected LOW,HIGH in km (e.g. 250,400), got {text!r}") from None
+    if not (0 < lo <= hi < 2000):
+        raise argparse.ArgumentTypeError(f"need 0 < LOW <= HIGH < 2000 km, got {text!r}")
+    return lo, hi
+
+
+def add_pattern_options(p) -> None:
+    """--pattern-a / --pattern-b / --layer-heights (``compare`` and ``plot``)."""
+    g = p.add_argument_group(
+        "measured against modelled",
+        "check B minus A per band, elevation bin and bearing sector (or your --by) against "
+        "two modelled gain patterns in spotkit's CSV layout (band or frequency_mhz, "
+        "elevation_deg, azimuth_deg, gain_dbi; 'spotkit pattern' writes the shipped "
+        "models), with a chi-square test and the cells that disagree")
+    g.add_argument("--pattern-a", metavar="FILE", help="modelled gain pattern of A")
+    g.add_argument("--pattern-b", metavar="FILE", help="modelled gain pattern of B")
+    g.add_argument("--layer-heights", type=layer_heights, default=(250.0, 400.0),
+                   metavar="LOW,HIGH", help="range of reflection heights carried into the "
+                   "prediction [km] (default 250,400)")
+
+
+def pattern_check(args, spots, by_text: str = ""):
+    """Read --pattern-a/-b, compare grouped by ``by_text`` (default
+    :data:`PATTERN_CHECK_BY`) and check (:func:`spotkit.compare.modelcheck.check_patterns`)."""
+    from spotkit.compare.estimate import compare_antennas
+    from spotkit.compare.modelcheck import check_patterns
+    from spotkit.io.pattern import read_pattern
+
+    if bool(args.pattern_a) != bool(args.pattern_b):
+        raise UsageError("give both --pattern-a and --pattern-b")
+    if not args.design or not args.a:
+        raise UsageError("the pattern check compares two antennas: give --design and --a")
+    pa, pb = read_pattern(args.pattern_a), read_pattern(args.pattern_b)
+    result = compare_antennas(spots, args.design, args.a, args.b,
+                              by=by_keys(by_text or PATTERN_CHECK_BY), progress=progress(args),
+                              **compare_kwargs(args))
+    return check_patterns(result, pa, pb, layer_heights_km=args.layer_heights)

@@ -24,7 +24,7 @@ import warnings
 from collections.abc import Sequence
 
 from spotkit import __version__
-from spotkit.cli import archive, compare, figures, ingest, plan, simulate, watch
+from spotkit.cli import archive, compare, figures, ingest, patterns, plan, simulate, watch
 from spotkit.cli._common import EXIT_INPUT, EXIT_OK, EXIT_USAGE, Parser
 from spotkit.cli._messages import cli_message
 from spotkit.errors import LocatorError, SpotkitError, SpotkitWarning, UsageError
@@ -84,7 +84,8 @@ and field), 2 usage.""",
     sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=Parser)
     for add in (ingest.add_ingest, simulate.add_simulate, compare.add_compare,
                 figures.add_map, figures.add_plot, plan.add_plan, compare.add_report,
-                simulate.add_demo, archive.add_archive, watch.add_watch):
+                simulate.add_demo, archive.add_archive, watch.add_watch,
+                patterns.add_pattern):
         add(sub)
     return parser
 

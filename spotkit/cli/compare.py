@@ -10,10 +10,12 @@ from spotkit.cli._common import (
     EXIT_OK,
     ab_labels,
     add_ab_options,
+    add_pattern_options,
     add_progress_option,
     by_keys,
     check_output,
     compare_kwargs,
+    pattern_check,
     progress,
     write_result,
 )
@@ -32,6 +34,7 @@ def add_compare(sub) -> None:
                    "field, square, receiver")
     add_ab_options(p, required=False)
     _add_several_options(p)
+    add_pattern_options(p)
     p.add_argument("--json", metavar="OUT.json", help="write the result as JSON")
     p.add_argument("--csv", metavar="OUT.csv", help="write the result table as CSV")
     p.add_argument("--markdown", nargs="?", const="-", metavar="OUT.md",
@@ -113,6 +116,30 @@ def _cmd_several(args) -> int:
     return EXIT_OK
 
 
+def _cmd_patterns(args) -> int:
+    """``spotkit compare ... --pattern-a FILE --pattern-b FILE``: text, --json, --csv."""
+    from spotkit.io.atomic import check_outputs, staged
+    from spotkit.io.ingest import load_spots
+
+    inputs = (args.spots, args.schedule, args.pattern_a, args.pattern_b)
+    outs = [(check_output(path, option, inputs=inputs), option)
+            for option, path in (("--json", args.json), ("--csv", args.csv)) if path]
+    if len(outs) > 1:
+        check_outputs([path for path, _ in outs])
+    check = pattern_check(args, load_spots(args.spots), args.by)
+    print(check)
+    if outs:
+        with staged([path for path, _ in outs]) as tmps:
+            for tmp, (_, option) in zip(tmps, outs, strict=True):
+                if option == "--json":
+                    tmp.write_text(check.to_json() + "\n", encoding="utf-8")
+                else:
+                    check.to_frame().to_csv(tmp, index=False)
+        for path, _ in outs:
+            print(f"wrote {path}")
+    return EXIT_OK
+
+
 def cmd_compare(args) -> int:
     from spotkit.compare.estimate import compare_antennas
     from spotkit.errors import UsageError
@@ -120,6 +147,8 @@ def cmd_compare(args) -> int:
 
     if args.antennas or args.periods:
         return _cmd_several(args)
+    if args.pattern_a or args.pattern_b:
+        return _cmd_patterns(args)
     if args.reference or args.all_pairs:
         raise UsageError("--reference and --all-pairs go with --antennas")
     missing = [o for o, v in (("--design", args.design), ("--a", args.a)) if not v]

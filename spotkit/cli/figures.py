@@ -9,12 +9,14 @@ from __future__ import annotations
 from spotkit.cli._common import (
     ab_labels,
     add_ab_options,
+    add_pattern_options,
     add_progress_option,
     check_output,
     compare_kwargs,
     figure_dpi,
     finite_float,
     locators_from_data,
+    pattern_check,
     progress,
     save_figure,
 )
@@ -166,10 +168,12 @@ def add_plot(sub) -> None:
         "and B (needs the A/B options); SNR per watt against distance; spots per hour by band.")
     _add_figure_options(p, ["bearing", "distance", "elevation", "hour", "grid", "heard",
                             "snr-distance", "spots-per-hour", "elevation-curve",
-                            "bearing-curve"],
+                            "bearing-curve", "pattern-check"],
                         "which plot (elevation-curve, bearing-curve: B minus A smoothed "
                         "against the elevation angle or round the compass, with a pointwise "
-                        "bootstrap band)")
+                        "bootstrap band; pattern-check: measured against two modelled "
+                        "patterns, needs --pattern-a and --pattern-b)")
+    add_pattern_options(p)
     p.set_defaults(func=cmd_plot)
 
 
@@ -222,6 +226,10 @@ def cmd_plot(args) -> int:
             ax = plots.elevation_curve_plot(curve, band=bands)
         else:
             ax = plots.bearing_curve_plot(bearing_curve(pairs, **opts), band=bands)
+    elif args.kind == "pattern-check":
+        if not (args.pattern_a and args.pattern_b):
+            raise UsageError("--kind pattern-check needs --pattern-a and --pattern-b")
+        ax = plots.pattern_check_plot(pattern_check(args, spots), band=bands)
     elif args.kind == "snr-distance":
         ax = plots.snr_distance_plot(spots, band=bands)
     else:

@@ -98,3 +98,15 @@ __all__ = [
     "compare_series", "parse_periods",
     "GRID_KEYS", "difference_grid", "grid_key", "grid_table",
 ]
+# measured against modelled gain patterns
+from spotkit.compare.modelcheck import (
+    CHECK_COLUMNS,
+    DEFAULT_LAYER_HEIGHTS_KM,
+    N_HEIGHTS,
+    PatternCheck,
+    check_patterns,
+    predict_pairs,
+)
+
+__all__ += ["DEFAULT_LAYER_HEIGHTS_KM", "N_HEIGHTS", "CHECK_COLUMNS", "predict_pairs",
+            "PatternCheck", "check_patterns"]

@@ -121,3 +121,15 @@ __all__ += ["infer_date_order", "DATE_ORDERS"]
 __all__ += ["SHEET_ENGINES", "is_spreadsheet", "sheet_to_text"]
 # units that do not fit (sanity)
 __all__ += ["unit_hint", "MIN_UNIT_VALUES"]
+# modelled gain patterns (spotkit's own CSV layout)
+from spotkit.io.pattern import (  # noqa: E402
+    GAIN_RANGE_DBI,
+    PATTERN_COLUMNS,
+    PATTERN_VERSION,
+    GainPattern,
+    read_pattern,
+    write_pattern,
+)
+
+__all__ += ["PATTERN_VERSION", "PATTERN_COLUMNS", "GAIN_RANGE_DBI", "read_pattern",
+            "write_pattern", "GainPattern"]

@@ -13,6 +13,7 @@ from spotkit.sim.antenna import (
     horizontal_dipole_gain,
     isotropic_antenna,
     make_antenna,
+    pattern_table,
     quarter_wave_vertical_gain,
     vertical_antenna,
 )
@@ -48,7 +49,7 @@ __all__ = [
     "STATION_REGIONS", "place_stations", "invent_calls", "GROUNDS", "band_frequency_hz",
     "fresnel_reflection", "quarter_wave_vertical_gain", "horizontal_dipole_gain",
     "GainTable", "Antenna", "isotropic_antenna", "vertical_antenna", "dipole_antenna",
-    "constant_difference", "make_antenna", "LAYOUTS", "write_foreign_csv",
+    "constant_difference", "make_antenna", "pattern_table", "LAYOUTS", "write_foreign_csv",
     "USER_LAYOUTS", "write_user_file",
     "DEFAULT_DISTANCE_EDGES", "TRUTH_COLUMNS", "Truth", "DESIGNS", "THRESHOLD_ON", "decode",
     "Propagation",

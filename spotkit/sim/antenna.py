@@ -498,6 +498,59 @@ def constant_difference(base: Antenna, difference_db, distance_edges=None,
                    offset_db=diff, distance_edges=edges, default_db=base.default_db)
 
 
+def pattern_table(antenna: Antenna, bands, *, elevation_step_deg: float = 1.0,
+                  azimuth_step_deg: float = 5.0, distance_km: float = 1000.0):
+    """An antenna's gain as a pattern table in spotkit's CSV layout (:mod:`spotkit.io.pattern`).
+
+    Parameters
+    ----------
+    antenna : Antenna
+        The antenna (e.g. :func:`vertical_antenna`, :func:`dipole_antenna`).
+    bands : sequence of str
+        Bands to tabulate.
+    elevation_step_deg, azimuth_step_deg : float
+        Grid steps [deg]: elevations 0 to 90, azimuths 0 to below 360. A band whose gain
+        does not depend on azimuth (a vertical, an isotropic antenna) gets one azimuth, 0.
+    distance_km : float
+        Path length [km] for antennas with per-distance offsets.
+
+    Returns
+    -------
+    pandas.DataFrame
+        :data:`spotkit.io.pattern.PATTERN_COLUMNS`; write it with
+        :func:`spotkit.io.pattern.write_pattern`.
+
+    Examples
+    --------
+    >>> t = pattern_table(vertical_antenna(["20m"]), ["20m"], elevation_step_deg=30)
+    >>> print(t.round(2).to_string(index=False))
+    band  elevation_deg  azimuth_deg  gain_dbi
+     20m            0.0          0.0    -60.00
+     20m           30.0          0.0     -1.04
+     20m           60.0          0.0     -5.61
+     20m           90.0          0.0    -60.00
+    >>> t = pattern_table(dipole_antenna(["20m"]), ["20m"], azimuth_step_deg=90)
+    >>> len(t), sorted(t["azimuth_deg"].unique().tolist())
+    (364, [0.0, 90.0, 180.0, 270.0])
+    """
+    import pandas as pd
+
+    from spotkit import columns as C
+
+    el = np.arange(0.0, 90.0 + elevation_step_deg / 2, float(elevation_step_deg))
+    el = el[el <= 90.0]
+    az = np.arange(0.0, 360.0 - azimuth_step_deg / 2, float(azimuth_step_deg))
+    frames = []
+    for band in bands:
+        ee, aa = np.meshgrid(el, az, indexing="ij")
+        g = antenna.gain_db(band, ee, aa, distance_km)
+        if np.allclose(g, g[:, :1], atol=1e-9):  # the same in every azimuth
+            ee, aa, g = ee[:, :1], np.zeros((len(el), 1)), g[:, :1]
+        frames.append(pd.DataFrame({C.BAND: str(band), C.ELEVATION: ee.ravel(),
+                                    C.AZIMUTH: aa.ravel(), C.GAIN: g.ravel()}))
+    return pd.concat(frames, ignore_index=True)
+
+
 def make_antenna(kind: Literal["isotropic", "vertical", "dipole"], bands, **kw) -> Antenna:
     """Antenna by keyword: ``"isotropic"``, ``"vertical"`` or ``"dipole"``.
 
@@ -527,5 +580,5 @@ def make_antenna(kind: Literal["isotropic", "vertical", "dipole"], bands, **kw) 
 __all__ = [
     "GROUNDS", "band_frequency_hz", "fresnel_reflection", "quarter_wave_vertical_gain",
     "horizontal_dipole_gain", "GainTable", "Antenna", "isotropic_antenna", "vertical_antenna",
-    "dipole_antenna", "constant_difference", "make_antenna",
+    "dipole_antenna", "constant_difference", "make_antenna", "pattern_table",
 ]

@@ -37,7 +37,7 @@ from spotkit.units import snr_per_watt
 PlotKind = Literal["bearing", "distance", "elevation", "hour", "grid", "heard",
                    "snr-distance", "spots-per-hour"]
 PLOT_KINDS = ("bearing", "distance", "elevation", "hour", "grid", "heard", "snr-distance",
-              "spots-per-hour", "elevation-curve", "bearing-curve")
+              "spots-per-hour", "elevation-curve", "bearing-curve", "pattern-check")
 #: colour map the band palette is sampled from, and the part of it used
 BAND_CMAP = "plasma"
 _BAND_SPAN = (0.0, 0.88)
@@ -818,9 +818,98 @@ def duration_tradeoff_plot(table: pd.DataFrame, ax=None):
     ax.right_ax = right
     return ax
 
+def pattern_check_plot(check, *, band=None, ax=None):
+    """Measured B minus A per elevation bin and bearing sector against the modelled range.
+
+    For each elevation bin (x, in order) and bearing sector (side by side within the bin,
+    one colour each): the measured estimate with its confidence interval (point and
+    whiskers) and, just right of it, the patterns' predicted range over the layer heights
+    (a wide translucent bar; the tick is the nominal-height prediction). Cells listed as
+    disagreeing are drawn with a red ring; the title gives the chi-square test.
+
+    Parameters
+    ----------
+    check : PatternCheck
+        From :func:`spotkit.compare.modelcheck.check_patterns` (grouped by elevation; band
+        and bearing optional).
+    band : str or list of str, optional
+        Only these bands.
+    ax : matplotlib.axes.Axes, optional
+
+    Returns
+    -------
+    matplotlib.axes.Axes
+    """
+    import matplotlib.pyplot as plt
+
+    cells = getattr(check, "cells", check)
+    _need(cells, [C.ELEVATION_MIN, C.ELEVATION_MAX, C.B_MINUS_A, C.CI_LOW, C.CI_HIGH,
+                  C.PREDICTED, C.PREDICTED_LOW, C.PREDICTED_HIGH, C.DISAGREES],
+          "a pattern check grouped by elevation")
+    if band is not None and C.BAND in cells:
+        want = [band] if isinstance(band, str) else list(band)
+        cells = cells[cells[C.BAND].isin(want)]
+    if cells.empty:
+        raise UsageError("no cells to draw (no estimate in the bands asked for)")
+    ax = _new_ax(ax, figsize=(7.2, 4.4))
+    bins = sorted(set(zip(cells[C.ELEVATION_MIN], cells[C.ELEVATION_MAX], strict=True)))
+    if C.BEARING_MIN in cells:
+        sectors = sorted(set(zip(cells[C.BEARING_MIN], cells[C.BEARING_MAX], strict=True)))
+    else:
+        sectors = [None]
+    bands_in = sort_bands(cells[C.BAND].unique()) if C.BAND in cells else [None]
+    series = [(b, s) for b in bands_in for s in sectors]
+    cmap = plt.get_cmap("viridis")
+    width = 0.8 / max(len(series), 1)
+    for k, (b, sec) in enumerate(series):
+        sub = cells
+        if b is not None:
+            sub = sub[sub[C.BAND] == b]
+        if sec is not None:
+            sub = sub[(sub[C.BEARING_MIN] == sec[0]) & (sub[C.BEARING_MAX] == sec[1])]
+        if sub.empty:
+            continue
+        x = np.array([bins.index((lo, hi)) for lo, hi in
+                      zip(sub[C.ELEVATION_MIN], sub[C.ELEVATION_MAX], strict=True)], float)
+        x = x - 0.4 + width * (k + 0.3)
+        col = cmap(0.9 * k / max(len(series) - 1, 1))
+        label = " ".join(t for t in (
+            b, None if sec is None else f"{sec[0]:g}-{sec[1]:g} deg") if t)
+        m = sub[C.B_MINUS_A].to_numpy(dtype=float)
+        ax.errorbar(x, m, yerr=[m - sub[C.CI_LOW].to_numpy(dtype=float),
+                                sub[C.CI_HIGH].to_numpy(dtype=float) - m],
+                    fmt="o", ms=4, color=col, capsize=2, lw=1, label=label or "B - A",
+                    gid=f"measured-{k}")
+        lo = sub[C.PREDICTED_LOW].to_numpy(dtype=float)
+        hi = sub[C.PREDICTED_HIGH].to_numpy(dtype=float)
+        xr = x + width * 0.4
+        ax.bar(xr, hi - lo, bottom=lo, width=width * 0.35, color=col, alpha=0.35, lw=0,
+               gid=f"predicted-{k}")
+        ax.scatter(xr, sub[C.PREDICTED].to_numpy(dtype=float), marker="_", s=60,
+                   color=col)
+        bad = sub[C.DISAGREES].to_numpy(dtype=bool)
+        if bad.any():
+            ax.scatter(x[bad], m[bad], s=90, facecolors="none", edgecolors="#d62728",
+                       linewidths=1.5, zorder=5, gid=f"disagrees-{k}")
+    ax.set_xticks(range(len(bins)))
+    ax.set_xticklabels([f"{lo:g}-{hi:g}" for lo, hi in bins])
+    ax.set_xlim(-0.6, len(bins) - 0.4)
+    ax.axhline(0.0, color="#444444", lw=0.8, zorder=0)
+    ax.set_xlabel("elevation angle bin [deg]")
+    ax.set_ylabel("B minus A [dB]")
+    title = "measured (points, CI) against modelled (bars: layer-height range)"
+    if hasattr(check, "statistic"):
+        title += (f"\nchi-square {check.statistic:.1f} on {check.df} cells, "
+                  f"p = {check.p_value:.3g}; red rings: cells that disagree")
+    ax.set_title(title, fontsize=9)
+    ax.grid(alpha=0.3, axis="y")
+    ax.legend(fontsize=7, title="band, bearing sector", title_fontsize=7, ncol=2)
+    return ax
+
+
 __all__ = ["PLOT_KINDS", "BAND_CMAP", "band_colors", "distance_plot", "elevation_plot",
            "elevation_curve_plot", "bearing_curve_plot",
            "hour_plot", "grid_plot", "bearing_plot", "heard_by_distance", "heard_plot",
            "running_median",
            "snr_distance_plot", "spots_per_hour", "spots_per_hour_plot",
-           "duration_tradeoff_plot"]
+           "duration_tradeoff_plot", "pattern_check_plot"]

@@ -24,6 +24,7 @@ from spotkit.cli.app import build_parser, main
 #: values of required options (and of the A/B options, kept small and fast)
 REQUIRED_VALUES = {
     "--design": "simultaneous",
+    "--antenna": "vertical",
     "--a": "Q1ABC",
     "--b": "Q7XYZ",
     "--start": "2026-03-02",
