@@ -63,6 +63,12 @@ from spotkit.compare.reach import (
     reach_by_bearing,
     reach_summary,
 )
+from spotkit.compare.width import (
+    PAIRED_DESIGNS,
+    WIDTH_FROM,
+    profile_loglik,
+    width_from_pairs,
+)
 
 __all__ = [
     "GROUP_KEYS", "DEFAULT_DISTANCE_EDGES", "DEFAULT_ELEVATION_EDGES", "DEFAULT_DAY_HOURS",
@@ -77,5 +83,6 @@ __all__ = [
     "DEFAULT_BLOCK_HOURS", "block_clusters", "estimate_cells", "heard_probability",
     "MODELS", "TAIL_DFS", "TAILS", "INTERVALS",
     "default_detection", "T50_ERROR_DB", "TAU_FACTORS", "TAU_FACTORS_SET",
-    "THRESHOLD_METHODS",
+    "THRESHOLD_METHODS", "PAIRED_DESIGNS", "WIDTH_FROM", "profile_loglik",
+    "width_from_pairs",
 ]
