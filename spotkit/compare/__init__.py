@@ -66,6 +66,7 @@ from spotkit.compare.reach import (
 from spotkit.compare.width import (
     PAIRED_DESIGNS,
     WIDTH_FROM,
+    WIDTH_GRID_DB,
     profile_loglik,
     width_from_pairs,
 )
@@ -83,6 +84,6 @@ __all__ = [
     "DEFAULT_BLOCK_HOURS", "block_clusters", "estimate_cells", "heard_probability",
     "MODELS", "TAIL_DFS", "TAILS", "INTERVALS",
     "default_detection", "T50_ERROR_DB", "TAU_FACTORS", "TAU_FACTORS_SET",
-    "THRESHOLD_METHODS", "PAIRED_DESIGNS", "WIDTH_FROM", "profile_loglik",
+    "THRESHOLD_METHODS", "PAIRED_DESIGNS", "WIDTH_FROM", "WIDTH_GRID_DB", "profile_loglik",
     "width_from_pairs",
 ]

@@ -20,10 +20,14 @@ fades drop out of the both-heard set), which is why it is not the headline.
 Detection model (the default, ``model="detection"``). Decoders do not cut off sharply: a
 signal of latent SNR ``s`` is decoded with probability ``Phi((s - t50) / tau)``
 (:mod:`spotkit.stats.detection`; ``t50`` per receiver fitted to its report histogram,
-``tau`` common and fitted, or given). In the factor "B's outcome given A heard at ``a``"
-the latent difference ``x = b* - a`` is ``N(mu, sigma^2)`` (the rounding of ``a`` is part
-of ``sigma``); B is missed with probability ``integral phi((x - mu)/sigma)/sigma
-(1 - Phi((a + x - t50_B)/tau)) dx = Phi((LIMIT_B - a - mu) / sqrt(sigma^2 + tau^2))`` -
+``tau`` common and given, or fitted: by default (``tau_from="pairs"``) to the paired
+outcomes by profile likelihood, each receiver's ``t50`` refitted at every width tried,
+:mod:`spotkit.compare.width`, because the fit to the histograms alone comes out too
+narrow when receivers have few reports near threshold). In the factor "B's outcome
+given A heard at ``a``" the latent difference ``x = b* - a`` is ``N(mu, sigma^2)`` (the
+rounding of ``a`` is part of ``sigma``); B is missed with probability
+``integral phi((x - mu)/sigma)/sigma (1 - Phi((a + x - t50_B)/tau)) dx
+= Phi((LIMIT_B - a - mu) / sqrt(sigma^2 + tau^2))`` -
 the one-sided bound at the 50 % point, softened by ``tau``; B heard at a whole-dB report
 ``b`` means ``x`` in ``[b - a - 1/2, b - a + 1/2]`` (the detection probability of the
 heard report, ``Phi((b - t50_B)/tau)``, does not depend on ``mu`` or ``sigma`` and drops
