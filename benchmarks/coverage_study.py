@@ -40,10 +40,11 @@ Targets (issue 15): |bias| <= 0.03 dB everywhere; coverage >= 93 % over >= 200 r
 baseline (``hard threshold``).
 
 Run: ``.venv/bin/python benchmarks/coverage_study.py [--runs 200] [--large-runs 60]
-[--boot 200] [--interval percentile] [--regimes "hard threshold;whole dB, A 7 dB below
-B"]``; a quick look in about a minute: ``--runs 10 --large-runs 2``. ``--interval normal
---boot 50`` is what the slow tests run (``tests/compare/test_coverage_study.py``: a
-percentile interval from 50 resamples is too noisy, a normal one is not).
+[--boot 200] [--interval percentile] [--tau-from pairs|reports] [--first-seed 1000]
+[--regimes "hard threshold;whole dB, A 7 dB below B"]``; a quick look in about a minute:
+``--runs 10 --large-runs 2``. ``--interval normal --boot 50`` is what the slow tests run
+(``tests/compare/test_coverage_study.py``: a percentile interval from 50 resamples is
+too noisy, a normal one is not).
 """
 from __future__ import annotations
 
@@ -104,7 +105,7 @@ def population_truth(regime: str, n_far: int = 15000, n_slots: int = 40,
 
 
 def run_once(regime: str, seed: int, n_boot: int = 200, confidence: float = 0.95,
-             interval: str = "percentile") -> dict:
+             interval: str = "percentile", tau_from: str = "pairs") -> dict:
     """One run of a regime: generate, compare, check against the truth.
 
     Returns
@@ -119,7 +120,7 @@ def run_once(regime: str, seed: int, n_boot: int = 200, confidence: float = 0.95
     pop = population_truth(regime)
     res = compare_antennas(spots, "simultaneous", heldout.CALL_A, heldout.CALL_B,
                            n_boot=n_boot, seed=seed, confidence=confidence,
-                           interval=interval)
+                           interval=interval, tau_from=tau_from)
     o = res.overall
     lo, hi = float(o["ci_low_db"]), float(o["ci_high_db"])
     return {"regime": regime, "seed": seed, "pairs": int(o["pairs"]), "population_db": pop,
@@ -129,12 +130,14 @@ def run_once(regime: str, seed: int, n_boot: int = 200, confidence: float = 0.95
 
 
 def run_regime(regime: str, runs: int, n_boot: int = 200, first_seed: int = 1000,
-               confidence: float = 0.95, interval: str = "percentile") -> pd.DataFrame:
+               confidence: float = 0.95, interval: str = "percentile",
+               tau_from: str = "pairs") -> pd.DataFrame:
     """``runs`` independent runs of one regime (seeds ``first_seed`` and up); ``interval``:
     the bootstrap interval of :func:`spotkit.compare_antennas` ("percentile", its default,
-    or "normal", which needs far fewer resamples)."""
-    return pd.DataFrame([run_once(regime, first_seed + i, n_boot, confidence, interval)
-                         for i in range(runs)])
+    or "normal", which needs far fewer resamples); ``tau_from``: where the detection
+    width comes from ("pairs", the default, or "reports", the earlier fit)."""
+    return pd.DataFrame([run_once(regime, first_seed + i, n_boot, confidence, interval,
+                                  tau_from) for i in range(runs)])
 
 
 def summarise(runs: pd.DataFrame, confidence: float = 0.95) -> pd.DataFrame:
@@ -197,6 +200,10 @@ def main(argv=None) -> int:
                     f"known: {'; '.join(REGIMES)}", default=None)
     ap.add_argument("--interval", choices=("percentile", "normal"), default="percentile",
                     help="bootstrap interval (normal: estimate -+ z SE, fewer resamples)")
+    ap.add_argument("--tau-from", choices=("pairs", "reports"), default="pairs",
+                    help="detection width from the paired reports (default) or from the "
+                    "receivers' report histograms (the earlier estimator: before/after)")
+    ap.add_argument("--first-seed", type=int, default=1000, help="seed of the first run")
     ap.add_argument("--csv", help="also write every run to this CSV")
     ap.add_argument("--from-csv", help="only summarise the runs saved in this CSV")
     args = ap.parse_args(argv)
@@ -220,7 +227,8 @@ def main(argv=None) -> int:
     for name in names:
         n = args.large_runs if name == LARGE else args.runs
         t1 = time.perf_counter()
-        frames.append(run_regime(name, n, n_boot=args.boot, interval=args.interval))
+        frames.append(run_regime(name, n, n_boot=args.boot, first_seed=args.first_seed,
+                                 interval=args.interval, tau_from=args.tau_from))
         s = summarise(frames[-1]).iloc[0]
         print(f"  {name}: {n} runs in {time.perf_counter() - t1:.0f} s, bias "
               f"{s['bias_db']:+.3f} dB, coverage {100 * s['coverage']:.1f} %", file=sys.stderr)
@@ -229,6 +237,7 @@ def main(argv=None) -> int:
     runs = pd.concat(frames, ignore_index=True)
     print(format_table(summarise(runs)))
     print(f"\n{len(runs)} runs, {args.boot} bootstrap resamples each ({args.interval}), "
+          f"detection width from the {args.tau_from}, "
           f"{time.perf_counter() - t0:.0f} s")
     return 0
 

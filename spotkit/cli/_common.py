@@ -163,6 +163,19 @@ def add_ab_options(p, *, required: bool = True, title: str = "A/B comparison") -
     g.add_argument("--missed-reports", choices=["fit", "none"], default="fit",
                    help="allow a fitted share of one-sided pairs to be missing for reasons "
                    "other than the antenna, e.g. a path closing between slots (default fit)")
+    # the model and interval choices of compare_antennas (tests/cli/test_model_options.py
+    # checks these lists against spotkit.compare's MODELS, WIDTH_FROM and INTERVALS)
+    g.add_argument("--model", choices=["detection", "tobit"], default="detection",
+                   help="detection: soft detection curve, whole-dB reports as intervals, "
+                   "systematic part (default); tobit: the earlier hard-limit fit")
+    g.add_argument("--tau", type=positive_float, metavar="DB",
+                   help="width of the decoders' detection curve [dB] (default: fitted)")
+    g.add_argument("--tau-from", choices=["pairs", "reports"], default="pairs",
+                   help="where a fitted detection width comes from: the paired reports "
+                   "(default) or each receiver's report histogram")
+    g.add_argument("--interval", choices=["percentile", "normal"], default="percentile",
+                   help="bootstrap interval: percentile (default) or normal (estimate -+ z "
+                   "bootstrap SE; holds with fewer resamples)")
     g.add_argument("--day-hours", type=positive_float, default=24.0, metavar="HOURS",
                    help="before-after design: length of the blocks of time resampled as "
                    "days for the interval (default 24: UTC dates)")
@@ -204,7 +217,9 @@ def compare_kwargs(args) -> dict:
               n_boot=args.boot, seed=args.seed, min_pairs=args.min_pairs,
               confidence=args.confidence, threshold_correction=args.threshold_correction,
               missed_reports=args.missed_reports, day_hours=args.day_hours,
-              require_open_path=not args.no_open_path_check)
+              require_open_path=not args.no_open_path_check,
+              model=args.model, tau_db=args.tau, tau_from=args.tau_from,
+              interval=args.interval)
     if args.distance_edges:
         kw["distance_edges"] = args.distance_edges
     if args.elevation_edges:

@@ -78,6 +78,13 @@ from spotkit.compare.series import (
     compare_series,
     parse_periods,
 )
+from spotkit.compare.width import (
+    PAIRED_DESIGNS,
+    WIDTH_FROM,
+    WIDTH_GRID_DB,
+    profile_loglik,
+    width_from_pairs,
+)
 
 __all__ = [
     "GROUP_KEYS", "DEFAULT_DISTANCE_EDGES", "DEFAULT_ELEVATION_EDGES", "DEFAULT_DAY_HOURS",
@@ -97,6 +104,8 @@ __all__ = [
     "SeriesResult",
     "compare_series", "parse_periods",
     "GRID_KEYS", "difference_grid", "grid_key", "grid_table",
+        "PAIRED_DESIGNS", "WIDTH_FROM", "WIDTH_GRID_DB", "profile_loglik",
+    "width_from_pairs",
 ]
 # measured against modelled gain patterns
 from spotkit.compare.modelcheck import (

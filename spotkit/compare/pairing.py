@@ -192,6 +192,46 @@ def _report_histograms(spots: pd.DataFrame):
     return pd.Index(calls, name=C.RX_CALL), lowest, hist, count
 
 
+def _t50_fitter(spots: pd.DataFrame, min_reports: int = 20):
+    """What :func:`receiver_thresholds` fits with: the receiver calls, whether reports are
+    whole dB, ``fit(tau, rounding)`` -> the 50 % points [dB] of every receiver for a
+    detection width ``tau`` [dB], and ``fit_width(rounding)`` -> the width fitted to the
+    report histograms. The histograms are made once, so that many widths are cheap
+    (:mod:`spotkit.compare.width`)."""
+    calls, lowest, hist, _count = _report_histograms(spots)
+    snr = spots[C.SNR].to_numpy(dtype=float)
+    snr = snr[np.isfinite(snr)]
+    whole = bool(snr.size) and bool(np.mean(np.abs(snr - np.round(snr)) < 1e-6) >= 0.99)
+    # all reports as one receiver: the fallback when no receiver is well observed
+    v_all = np.floor(snr + 0.5)
+    low_all = float(v_all.min()) if v_all.size else 0.0
+    j_all = (v_all - low_all).astype(np.int64) + _BELOW
+    pooled = np.bincount(j_all[j_all < hist.shape[1]], minlength=hist.shape[1])[None, :]
+    well = hist.sum(axis=1) >= min_reports
+    kw = dict(below_db=_BELOW, window_db=_WINDOW)
+
+    def fit(tau, rnd):
+        t50 = np.full(len(calls), np.nan)
+        if well.any():
+            t50[well] = fit_thresholds(hist[well], lowest[well], tau_db=tau, rounding=rnd,
+                                       **kw)[0]
+            typical = float(np.median(t50[well]))
+            offset = float(np.median(t50[well] - lowest[well]))
+        else:
+            typical = float(fit_thresholds(pooled, [low_all], tau_db=tau, rounding=rnd,
+                                           **kw)[0][0])
+            offset = typical - low_all
+        t50[~well] = np.minimum(typical, lowest[~well] + offset)
+        return t50
+
+    def fit_width(rnd):
+        if well.any():
+            return fit_tau(hist[well], lowest[well], rounding=rnd, **kw)
+        return fit_tau(pooled, [low_all], rounding=rnd, **kw)
+
+    return calls, whole, fit, fit_width
+
+
 def receiver_thresholds(spots: pd.DataFrame, min_reports: int = 20, *,
                         method: ThresholdMethod = "t50", tau_db: float | None = None,
                         rounding: Rounding = "after") -> pd.Series:
@@ -263,38 +303,8 @@ def receiver_thresholds(spots: pd.DataFrame, min_reports: int = 20, *,
         thr.name = C.THRESHOLD
         return thr
     check_choice(rounding, ROUNDINGS, "rounding")
-    calls, lowest, hist, _count = _report_histograms(spots)
-    snr = spots[C.SNR].to_numpy(dtype=float)
-    snr = snr[np.isfinite(snr)]
-    whole = bool(snr.size) and bool(np.mean(np.abs(snr - np.round(snr)) < 1e-6) >= 0.99)
-    # all reports as one receiver: the fallback when no receiver is well observed
-    v_all = np.floor(snr + 0.5)
-    low_all = float(v_all.min()) if v_all.size else 0.0
-    j_all = (v_all - low_all).astype(np.int64) + _BELOW
-    pooled = np.bincount(j_all[j_all < hist.shape[1]], minlength=hist.shape[1])[None, :]
-    well = hist.sum(axis=1) >= min_reports
-    kw = dict(below_db=_BELOW, window_db=_WINDOW)
-
-    def fit(tau, rnd):
-        t50 = np.full(len(calls), np.nan)
-        if well.any():
-            t50[well] = fit_thresholds(hist[well], lowest[well], tau_db=tau, rounding=rnd,
-                                       **kw)[0]
-            typical = float(np.median(t50[well]))
-            offset = float(np.median(t50[well] - lowest[well]))
-        else:
-            typical = float(fit_thresholds(pooled, [low_all], tau_db=tau, rounding=rnd,
-                                           **kw)[0][0])
-            offset = typical - low_all
-        t50[~well] = np.minimum(typical, lowest[~well] + offset)
-        return t50
-
-    if tau_db is not None:
-        tau = float(tau_db)
-    elif well.any():
-        tau = fit_tau(hist[well], lowest[well], rounding=rounding, **kw)
-    else:
-        tau = fit_tau(pooled, [low_all], rounding=rounding, **kw)
+    calls, whole, fit, fit_width = _t50_fitter(spots, min_reports)
+    tau = float(tau_db) if tau_db is not None else fit_width(rounding)
     t50 = fit(tau, rounding)
     alternatives = []
     for f in TAU_FACTORS if tau_db is None else TAU_FACTORS_SET:

@@ -231,28 +231,42 @@ RUNS_PER_REGIME = 17  # 12 regimes x 17 = 204 runs
 #: percentile shape is checked by the benchmark. The point estimates, and so every bias
 #: check, do not depend on the resamples.
 SLOW_BOOT = 50
-#: Measured on the detection-model estimator (issue 15; helper notes "stat2"). With A 7
-#: dB below B the bias target (0.03 dB) is not met: over 60 runs each (seeds 20000+),
-#: "whole dB" -0.048 +- 0.006 dB, "soft threshold" +0.055 +- 0.007 dB, "heavy tails t3"
-#: -0.023 +- 0.006 dB; 17 runs of "receiver heterogeneity" -0.043 dB (this fixture) and
-#: the large cell -0.042 dB (60 runs, seeds 1000+). At equal powers the bias is within
-#: 0.01 dB (e.g. "receiver heterogeneity" +0.000 +- 0.010 dB over 60 runs). One cause,
-#: measured: the study's truth is the mean true B-A over the pairs with at least one
+#: Measured on the detection-model estimator (issue 15; helper notes "stat2" and "stat").
+#: With A 7 dB below B the bias target (0.03 dB) was missed in several regimes. Two causes
+#: were found and removed: the detection width fitted to the receivers' report histograms
+#: came out too narrow (0.25-0.66 dB for a 1 dB curve: a common parameter profiled over a
+#: 50 % point and a level slope per receiver, the Neyman-Scott problem), and is now fitted
+#: to the paired outcomes (``compare_antennas(tau_from="pairs")``,
+#: :mod:`spotkit.compare.width`): "soft threshold, A 7 dB below B" went from +0.055 dB
+#: (60 runs) to +0.008 +- 0.008 dB (40 runs, seeds 20000+); the detection probability of a
+#: whole-dB report is averaged over its 1-dB interval there, "whole dB, A 7 dB below B"
+#: -0.029 -> -0.016 +- 0.012 dB (20 runs, seeds 20000+, same runs). On this file's 17-run
+#: subset (seeds 5000+, error against each run's own truth, as the test computes it)
+#: every regime is within its tolerance except "receiver heterogeneity, A 7 dB below B":
+#: -0.056 dB (SD 0.029, tolerance 0.047; with the earlier width -0.053 dB). Its cause is
+#: the estimand: the study's truth is the mean true B-A over the pairs with either
 #: antenna heard, while the composite likelihood ("B given A heard" times "A given B
-#: heard") targets a blend of the means over the pairs with A heard and with B heard;
-#: where B-A varies (per path cell, per receiver) and A is much weaker these differ
-#: ("receiver heterogeneity, A 7 dB below B": -0.031 dB over A-heard pairs, +0.161 dB over
-#: B-heard or any-heard pairs, -0.060 dB over all open paths). With the receivers' B-A
-#: spread alone that regime's bias is -0.048 +- 0.021 dB, with their threshold spread alone
-#: -0.010 +- 0.015 dB (20 runs each). The soft-threshold sign (+) says the detection
-#: model leaves a second part (not isolated). The 17-run subset here resolves about
-#: 0.05 dB, so only the heterogeneity regime fails in it; the large cell resolves 0.01 dB.
+#: heard", flat level prior) targets a blend of the means over A-heard and over B-heard
+#: pairs; where B-A varies between receivers and A is much weaker these differ (that
+#: regime: -0.031 dB over A-heard pairs, +0.161 dB over B-heard or any-heard pairs, -0.060
+#: dB over all open paths; with the receivers' B-A spread alone its bias is -0.048 +-
+#: 0.021 dB, with their threshold spread alone -0.010 +- 0.015 dB, 20 runs each). The
+#: study's truth is kept: it is the set of pairs the result describes and the bootstrap
+#: resamples. Modelling the level distribution (normal per receiver, Tweedie's
+#: correction of each conditional factor) was tried and moved every regime by about
+#: -0.03 dB, the soft one no nearer (its cause was the width), so it was not adopted.
+#: The large cell combines every regime, heterogeneity included, and still misses (the
+#: strict xfail held with the width from the pairs, 60 runs, seeds 7000+).
+HETERO_APART = "receiver heterogeneity, A 7 dB below B"
 BIAS_OPEN = pytest.mark.xfail(strict=True, reason=(
-    "open (issue 15): with A 7 dB below B the bias exceeds 0.03 dB (17 runs of 'receiver "
-    "heterogeneity, A 7 dB below B' -0.043 dB; large cell about -0.04 dB; over 60 runs "
-    "whole dB -0.048, soft threshold +0.055 dB): the composite likelihood targets a blend "
-    "of the mean B-A over A-heard and over B-heard pairs, the study's truth is the mean "
-    "over pairs with either heard; see the comment above"))
+    "open (issue 15): with B-A varying between receivers and A 7 dB below B the composite "
+    "likelihood targets a blend of the mean B-A over A-heard and over B-heard pairs, the "
+    "study's truth is the mean over pairs with either heard (17 runs: -0.056 dB against "
+    "a tolerance of 0.047 dB); see the comment above"))
+LARGE_BIAS_OPEN = pytest.mark.xfail(strict=True, reason=(
+    "open (issue 15): the large cell combines every regime, receiver heterogeneity with A "
+    "7 dB below B included (about -0.04 dB before the width from the pairs; still above "
+    "0.03 dB with it); see the comment above BIAS_OPEN"))
 
 
 @pytest.fixture(scope="module")
@@ -290,17 +304,17 @@ def test_coverage_at_7000_pairs_over_every_regime(small_runs):
 
 
 @pytest.mark.slow
-@BIAS_OPEN
-def test_bias_at_7000_pairs_in_every_regime(small_runs):
+@pytest.mark.parametrize("regime", [pytest.param(n, marks=BIAS_OPEN) if n == HETERO_APART
+                                    else n for n in SMALL_REGIMES])
+def test_bias_at_7000_pairs_in_every_regime(small_runs, regime):
     """Per regime the bias must be within 0.03 dB plus 2.5 of its standard errors over 17
-    runs (about 0.02 dB: this subset resolves a bias of about 0.08 dB; the benchmark's 200
-    runs per regime resolve 0.01 dB)."""
-    summary = study.summarise(small_runs).set_index("regime")
-    err = (small_runs["estimate_db"] - small_runs["truth_db"]).groupby(
-        small_runs["regime"]).agg(["mean", "std", "size"])
-    tol = study.MAX_BIAS_DB + 2.5 * err["std"] / np.sqrt(err["size"])
-    off = err.index[err["mean"].abs() > tol].tolist()
-    assert not off, summary.loc[off, ["bias_db", "sd_db", "coverage"]].to_string()
+    runs (about 0.02 dB: this subset resolves a bias of about 0.05-0.08 dB; the benchmark's
+    200 runs per regime resolve 0.01 dB)."""
+    runs = small_runs[small_runs["regime"] == regime]
+    err = runs["estimate_db"] - runs["truth_db"]
+    tol = study.MAX_BIAS_DB + 2.5 * err.std() / np.sqrt(err.size)
+    assert err.size == RUNS_PER_REGIME
+    assert abs(err.mean()) <= tol, study.summarise(runs).to_string()
 
 
 @pytest.fixture(scope="module")
@@ -319,7 +333,7 @@ def test_coverage_in_the_large_cell(large_runs):
 
 
 @pytest.mark.slow
-@BIAS_OPEN
+@LARGE_BIAS_OPEN
 def test_bias_in_the_large_cell(large_runs):
     """|bias| <= 0.03 dB over the 60 runs (the estimates spread by about 0.07-0.09 dB,
     mostly which 150 receivers a run draws, so the mean error has an SE of about 0.01 dB)."""
