@@ -111,7 +111,9 @@ def _cmd_several(args) -> int:
                                  reference=args.reference, all_pairs=args.all_pairs,
                                  schedule=args.schedule,
                                  window_slots=None if args.window == 1 else args.window,
-                                 require_open_path=not args.no_open_path_check, **common)
+                                 require_open_path=not args.no_open_path_check,
+                                 model=args.model, tau_db=args.tau, tau_from=args.tau_from,
+                                 **common)
     write_result(result, args)
     return EXIT_OK
 

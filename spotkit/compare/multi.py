@@ -60,6 +60,7 @@ from spotkit._validate import check_choice, check_confidence
 from spotkit.compare.estimate import MissedReports, Model, estimate_groups, format_p_value
 from spotkit.compare.grouping import summarise_pairs
 from spotkit.compare.pairing import pair_spots, receiver_thresholds
+from spotkit.compare.width import WIDTH_FROM, WidthFrom, width_from_pairs
 from spotkit.errors import NoPairsError, UsageError
 
 MultiDesign = Literal["simultaneous", "alternating", "receive"]
@@ -222,7 +223,8 @@ def compare_several(spots: pd.DataFrame, design: MultiDesign, antennas, *,
                     n_boot: int = 400, seed: int = 0, confidence: float = 0.95,
                     min_pairs: int = 30, model: Model = "detection",
                     tau_db: float | None = None, require_open_path: bool = True,
-                    missed_reports: MissedReports = "fit") -> MultiResult:
+                    missed_reports: MissedReports = "fit",
+                    tau_from: WidthFrom = "pairs") -> MultiResult:
     """Compare ``k >= 2`` antennas: each against a reference (or all pairs), simultaneous
     intervals, and a ranking.
 
@@ -256,8 +258,9 @@ def compare_several(spots: pd.DataFrame, design: MultiDesign, antennas, *,
         Simultaneous coverage of the family of intervals.
     min_pairs : int
         Contrasts with fewer pairs get no estimate.
-    model, tau_db, require_open_path, missed_reports
-        As in :func:`spotkit.compare.estimate.compare_antennas`.
+    model, tau_db, require_open_path, missed_reports, tau_from
+        As in :func:`spotkit.compare.estimate.compare_antennas`; the detection width is
+        chosen for each contrast from its own pairs (as in the two-antenna fit).
 
     Returns
     -------
@@ -286,6 +289,7 @@ def compare_several(spots: pd.DataFrame, design: MultiDesign, antennas, *,
     'Q1ABE > Q1ABD > Q1ABC with 95 % simultaneous confidence'
     """
     check_choice(design, MULTI_DESIGNS, "design")
+    check_choice(tau_from, WIDTH_FROM, "tau_from")
     check_confidence(confidence)
     labels = parse_antennas(antennas)
     ref = labels[0] if reference is None else str(reference).strip().upper()
@@ -322,6 +326,10 @@ def compare_several(spots: pd.DataFrame, design: MultiDesign, antennas, *,
                 p = pair_spots(spots, design, u, v, **kw)
         except NoPairsError:
             p = None
+        if (p is not None and len(p) and model == "detection" and tau_db is None
+                and tau_from == "pairs"):
+            owners = (call, call) if design == "alternating" else (u, v)
+            p, _ = width_from_pairs(spots, p, design, *owners)
         paired[(u, v)] = p
         if p is not None:
             set_aside[f"{v} - {u}"] = dict(p.attrs.get("set_aside", {}))
