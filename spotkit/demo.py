@@ -137,8 +137,12 @@ def run_demo(out_dir="out", *, data_dir=None, n_boot: int = 1000, progress: bool
             import matplotlib.pyplot as plt
 
             from spotkit.viz import maps
+            from spotkit.viz.mapdata import result_antenna_spots
 
-            for fname, fig in (("coverage.png", maps.coverage_map(ing.spots)),
+            coverage = maps.coverage_map(ing.spots,
+                                         antennas=result_antenna_spots(ing.spots, map_result),
+                                         labels=map_result.labels)
+            for fname, fig in (("coverage.png", coverage),
                                ("difference.png", maps.difference_map(map_result))):
                 fig.savefig(out / fname, dpi=110, bbox_inches="tight")
                 plt.close(fig)

@@ -437,6 +437,7 @@ def _with_edges(grid: pd.DataFrame, result) -> pd.DataFrame:
 def _figures(spots, results, map_result, progress: bool):
     """(caption, data URI) for every figure of the report; failures are reported, not hidden."""
     from spotkit.viz import maps, plots
+    from spotkit.viz.mapdata import result_antenna_spots
 
     def fig_of(obj):
         return obj if hasattr(obj, "savefig") else obj.figure
@@ -445,9 +446,14 @@ def _figures(spots, results, map_result, progress: bool):
 
     def having(col):
         return next((r for r in results if col in r.groups.columns), None)
+    sets = result_antenna_spots(spots, result)
+    la, lb = result.labels
     jobs = [
-        ("Coverage by band: far stations coloured by their median SNR normalised to 1 W.",
-         lambda: maps.coverage_map(spots)),
+        (f"Coverage by band: far stations coloured by their median SNR normalised to 1 W; "
+         f"{la} (A) and {lb} (B) side by side on one scale." if sets is not None else
+         "Coverage by band: far stations coloured by their median SNR normalised to 1 W "
+         "(A and B pooled: the design's schedule cannot tell them apart here).",
+         lambda: maps.coverage_map(spots, antennas=sets, labels=result.labels)),
     ]
     if map_result is not None:
         jobs.append((

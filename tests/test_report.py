@@ -245,3 +245,9 @@ def test_report_is_built_for_small_screens_and_print(small_experiment, report_ht
     assert text.count("<table class='grid") == 2  # band x distance and band x bearing
     paste = text[text.index("<pre class='paste'>"):text.index("</pre>")]
     assert "| band |" in paste and "<button" not in text
+
+
+def test_report_maps_the_coverage_of_a_and_b_side_by_side(small_experiment, report_html):
+    # the report's coverage map draws each antenna's own spots (not both pooled), and says so
+    assert "(A) and" in report_html and "(B) side by side on one scale" in report_html
+    assert "pooled" not in report_html.split("Coverage by band", 1)[1][:300]

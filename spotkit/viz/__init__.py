@@ -27,6 +27,7 @@ from spotkit.viz.mapdata import (
     near_radius_km,
     reach_stations,
     resolve_side,
+    result_antenna_spots,
     symmetric_limit,
 )
 from spotkit.viz.maps import (
@@ -70,7 +71,7 @@ __all__ = [
     "build_land_layer", "SIDES", "LEVELS", "FULL_EXTENT_KM", "home_latlon",
     "auto_extent_km", "resolve_side", "home_from_spots", "far_station_summary",
     "home_from_pairs", "difference_cells", "symmetric_limit", "reach_stations",
-    "NEAR_RADII_KM", "near_radius_km", "check_home", "antenna_spots",
+    "NEAR_RADII_KM", "near_radius_km", "check_home", "antenna_spots", "result_antenna_spots",
     "PROJECTIONS", "RESOLUTIONS", "REACH_LAYOUTS", "make_projection", "project_points",
     "draw_land", "draw_rings", "draw_geodesic_rings", "base_map", "draw_paths",
     "coverage_map", "difference_map", "reach_map", "PLOT_KINDS", "BAND_CMAP", "band_colors",

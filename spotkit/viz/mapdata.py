@@ -24,7 +24,7 @@ from spotkit._validate import check_choice, check_columns
 from spotkit.bands import sort_bands
 from spotkit.compare.cells import DEFAULT_BLOCK_HOURS, estimate_cells
 from spotkit.compare.estimate import too_little_data
-from spotkit.errors import UsageError
+from spotkit.errors import SpotkitError, UsageError
 from spotkit.geo.locator import locator_cell_size, locator_to_latlon
 from spotkit.units import snr_per_watt
 
@@ -559,6 +559,36 @@ def antenna_spots(spots: pd.DataFrame, design: str, a: str, b: str | None = None
     return {"A": own[which == 0], "B": own[which == 1]}
 
 
+def result_antenna_spots(spots: pd.DataFrame, result) -> dict[str, pd.DataFrame] | None:
+    """The spots of A and of B for a comparison's coverage maps, or None to pool them.
+
+    Uses the design, calls, schedule and change time the comparison ``result`` (a
+    :class:`~spotkit.compare.estimate.ComparisonResult`) was made with; None where they
+    cannot tell A from B again (an alternating schedule given as a table) or one antenna
+    has no spots, so the caller draws the pooled map (whose title says it is pooled).
+
+    Examples
+    --------
+    >>> from types import SimpleNamespace
+    >>> spots = pd.DataFrame({"tx_call": ["Q1ABC", "Q1ABD", "Q1ABC"],
+    ...                       "rx_call": ["Q2XY", "Q2XY", "Q3Z"]})
+    >>> res = SimpleNamespace(design="simultaneous", a="Q1ABC", b="Q1ABD", options={})
+    >>> {k: len(v) for k, v in result_antenna_spots(spots, res).items()}
+    {'A': 2, 'B': 1}
+    """
+    opts = getattr(result, "options", None) or {}
+    schedule = opts.get("schedule")
+    if result.design == "alternating" and (schedule is None or schedule == "table"):
+        return None
+    try:
+        sets = antenna_spots(spots, result.design, result.a, result.b,
+                             schedule=schedule if result.design == "alternating" else None,
+                             change_at=opts.get("change_at"))
+    except SpotkitError:
+        return None
+    return None if any(part.empty for part in sets.values()) else sets
+
+
 # --- reach -------------------------------------------------------------------------------
 def reach_stations(pairs: pd.DataFrame, band=None) -> pd.DataFrame:
     """One row per far station (and band): whether A and B reached it.
@@ -614,6 +644,6 @@ def reach_stations(pairs: pd.DataFrame, band=None) -> pd.DataFrame:
 
 
 __all__ = ["SIDES", "LEVELS", "FULL_EXTENT_KM", "NEAR_RADII_KM", "home_latlon", "auto_extent_km",
-           "near_radius_km", "check_home", "antenna_spots",
+           "near_radius_km", "check_home", "antenna_spots", "result_antenna_spots",
            "resolve_side", "home_from_spots", "far_station_summary", "home_from_pairs",
            "difference_cells", "symmetric_limit", "reach_stations"]

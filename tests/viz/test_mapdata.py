@@ -214,3 +214,29 @@ def test_antenna_spots_by_design():
         mapdata.antenna_spots(spots, "alternating", "Q1ABC")
     with pytest.raises(UsageError, match="--change-at"):
         mapdata.antenna_spots(spots, "before-after", "Q1ABC")
+
+
+def test_result_antenna_spots_follows_the_comparison_or_pools():
+    """The report's coverage sets come from the comparison's design, calls and change time;
+    a schedule given as a table cannot be applied again, so those spots are pooled (None)."""
+    from types import SimpleNamespace
+
+    import pandas as pd
+
+    spots = pd.DataFrame({
+        C.TX_CALL: ["Q1ABC", "Q1ABD", "Q1ABC", "Q1ABC"],
+        C.RX_CALL: ["Q2XY", "Q2XY", "Q3Z", "Q3Z"],
+        C.SLOT: pd.to_datetime(["2026-03-01 00:00", "2026-03-01 00:00", "2026-03-01 00:02",
+                                "2026-03-03 00:00"], utc=True)})
+    sim = SimpleNamespace(design="simultaneous", a="Q1ABC", b="Q1ABD", options={})
+    assert {k: len(v) for k, v in mapdata.result_antenna_spots(spots, sim).items()} == {
+        "A": 3, "B": 1}
+    ba = SimpleNamespace(design="before-after", a="Q1ABC", b=None,
+                         options={"change_at": "2026-03-02 00:00"})
+    assert {k: len(v) for k, v in mapdata.result_antenna_spots(spots, ba).items()} == {
+        "A": 2, "B": 1}
+    table = SimpleNamespace(design="alternating", a="Q1ABC", b=None,
+                            options={"schedule": "table"})
+    assert mapdata.result_antenna_spots(spots, table) is None
+    one_sided = SimpleNamespace(design="simultaneous", a="Q1ABC", b="Q9ZZZ", options={})
+    assert mapdata.result_antenna_spots(spots, one_sided) is None
