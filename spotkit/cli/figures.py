@@ -219,7 +219,14 @@ def cmd_plot(args) -> int:
                              "alternating or receive)")
         pairs = pair_spots(spots, args.design, args.a, args.b, schedule=args.schedule,
                            window_slots=args.window,
-                           require_open_path=not args.no_open_path_check)
+                           require_open_path=not args.no_open_path_check,
+                           threshold_method="t50" if args.model == "detection" else "lowest",
+                           tau_db=args.tau)
+        if args.model == "detection" and args.tau is None and args.tau_from == "pairs":
+            from spotkit.compare.width import width_from_pairs
+
+            # the detection width as the comparison chooses it (compare_antennas)
+            pairs, _ = width_from_pairs(spots, pairs, args.design, args.a, args.b)
         opts = dict(n_boot=min(args.boot, 200), seed=args.seed, confidence=args.confidence)
         if args.kind == "elevation-curve":
             curve = elevation_curve(pairs, layer_height_km=args.layer_height, **opts)
