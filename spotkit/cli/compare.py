@@ -40,7 +40,8 @@ def add_compare(sub) -> None:
     p.add_argument("--markdown", nargs="?", const="-", metavar="OUT.md",
                    help="also a plain-text summary to paste into a forum post or an e-mail "
                    "(headline, receivers and pairs, band x distance table, where B wins or "
-                   "loses): printed, or written to OUT.md")
+                   "loses; with --antennas / --periods: ranking or steps, the table of "
+                   "comparisons and their simultaneous intervals): printed, or written to OUT.md")
     add_progress_option(p)
     p.set_defaults(func=cmd_compare)
 
@@ -71,6 +72,7 @@ def _cmd_several(args) -> int:
     from spotkit.compare.series import compare_series
     from spotkit.errors import UsageError
     from spotkit.io.ingest import load_spots
+    from spotkit.report import several_markdown
 
     if args.antennas and args.periods:
         raise UsageError("give --antennas or --periods, not both")
@@ -93,13 +95,16 @@ def _cmd_several(args) -> int:
             raise UsageError("--antennas with the alternating design needs --a (the call) "
                              "and --schedule (labels as in --antennas)")
     inputs = (args.spots, args.schedule)
-    for option, path in (("--json", args.json), ("--csv", args.csv)):
+    markdown = getattr(args, "markdown", None)
+    md_file = markdown if markdown not in (None, "-") else None
+    for option, path in (("--json", args.json), ("--csv", args.csv), ("--markdown", md_file)):
         if path:
             check_output(path, option, inputs=inputs)
-    if args.json and args.csv:
+    outs = [x for x in (args.json, args.csv, md_file) if x]
+    if len(outs) > 1:
         from spotkit.io.atomic import check_outputs
 
-        check_outputs([args.json, args.csv])
+        check_outputs(outs)
     spots = load_spots(args.spots)
     common = dict(n_boot=args.boot, seed=args.seed, confidence=args.confidence,
                   min_pairs=args.min_pairs, missed_reports=args.missed_reports)
@@ -115,7 +120,21 @@ def _cmd_several(args) -> int:
                                  model=args.model, tau_db=args.tau, tau_from=args.tau_from,
                                  **common)
     write_result(result, args)
+    if markdown:
+        _write_text(several_markdown(result), md_file)
     return EXIT_OK
+
+
+def _write_text(text: str, path) -> None:
+    """Print ``text`` (``path`` None) or write it to ``path`` as one transaction."""
+    if path is None:
+        print("\n" + text, end="")
+        return
+    from spotkit.io.atomic import staged
+
+    with staged([path]) as (tmp,):
+        tmp.write_text(text, encoding="utf-8")
+    print(f"wrote {path}")
 
 
 def _cmd_patterns(args) -> int:
@@ -187,15 +206,7 @@ def _write_markdown(spots, result, by, kw, args, path) -> None:
 
     by_distance = result if tuple(by) == ("band", "distance") else compare_antennas(
         spots, args.design, args.a, args.b, by=("band", "distance"), **kw)
-    text = markdown_summary(result, by_distance)
-    if path is None:
-        print("\n" + text, end="")
-        return
-    from spotkit.io.atomic import staged
-
-    with staged([path]) as (tmp,):
-        tmp.write_text(text, encoding="utf-8")
-    print(f"wrote {path}")
+    _write_text(markdown_summary(result, by_distance), path)
 
 
 def add_report(sub) -> None:
