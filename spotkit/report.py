@@ -594,6 +594,45 @@ def several_markdown(result) -> str:
     return "\n".join(out) + "\n"
 
 
+def several_html(result) -> str:
+    """The report section of several antennas ("Several antennas") or of a series of
+    changes ("Series of changes"): headline, table, sentences and the Markdown to paste.
+
+    Parameters
+    ----------
+    result : MultiResult or SeriesResult
+
+    Returns
+    -------
+    str
+        An HTML fragment beginning with its ``<h2>``.
+    """
+    head, words = several_sentences(result)
+    if _is_series(result):
+        title, anchor = "Series of changes", "series"
+        who = (f"{result.call}: " + ", ".join(f"{lab} from {t:%Y-%m-%d %H:%M} UTC"
+                                              for lab, t in result.periods)
+               + ". Each period against the first and each step between neighbours, "
+               "each by the before/after design with control stations on the two periods' "
+               "reports only.")
+    else:
+        title, anchor = "Several antennas", "several"
+        who = (f"{len(result.antennas)} antennas ({', '.join(result.antennas)}), "
+               f"{result.design} design; "
+               + ("every pair" if result.options.get("all_pairs") else
+                  f"each against {result.reference}") + ".")
+    table = several_table(result)
+    table["note"] = [n.split(";")[0].strip() for n in table["note"]]
+    if not table["note"].str.len().any():
+        table = table.drop(columns="note")
+    return (f"<h2 id='{anchor}'>{title}</h2><p class='who'>{html.escape(who)}</p>"
+            f"<p class='headline'><strong>{html.escape(head)}</strong></p>"
+            + _table_html(table, left=("comparison", "kind", "note"))
+            + "".join(f"<p>{html.escape(w)}</p>" for w in words)
+            + "<details><summary>The same as text to paste</summary><pre class='paste'>"
+            + html.escape(several_markdown(result)) + "</pre></details>")
+
+
 def _with_edges(grid: pd.DataFrame, result) -> pd.DataFrame:
     """The grid with each cell's distance edges [km] (``_lo``, ``_hi``) from the result."""
     g = result.groups[[C.BAND, C.DISTANCE_MIN, C.DISTANCE_MAX]].copy()
@@ -668,7 +707,7 @@ def _figures(spots, results, map_result, progress: bool):
 
 def build_report(spots: pd.DataFrame, results, *, ingest_summary=None, map_result=None,
                  title: str | None = None, figures: bool = True,
-                 progress: bool = False) -> str:
+                 progress: bool = False, several=None) -> str:
     """HTML text of the report.
 
     Parameters
@@ -689,6 +728,10 @@ def build_report(spots: pd.DataFrame, results, *, ingest_summary=None, map_resul
         Draw and embed the maps and plots.
     progress : bool
         Show a progress bar while drawing.
+    several : MultiResult or SeriesResult, optional
+        Adds a section "Several antennas" or "Series of changes" (ranking or steps, the
+        table of comparisons with simultaneous intervals, sentences and a paste block)
+        after the verdict tables; without it the report is the two-antenna one.
 
     Returns
     -------
@@ -728,6 +771,8 @@ def build_report(spots: pd.DataFrame, results, *, ingest_summary=None, map_resul
                          f"click to open)</summary>{_table_html(table)}</details>")
         else:
             parts.append(f"<h3>{html.escape(label)}</h3>{_table_html(table)}")
+    if several is not None:
+        parts.append(several_html(several))
     by_distance = next((r for r in results if tuple(r.by) == ("band", "distance")), None)
     parts.append("<h2 id='summary'>Summary to paste</h2><p class='small'>Plain text (Markdown) "
                  "for a forum post or an e-mail: select it and copy.</p><pre class='paste'>"
@@ -819,5 +864,5 @@ def write_report(path, spots: pd.DataFrame, result, **kwargs) -> Path:
 
 __all__ = ["JOB", "CAUTIONS", "STANDARD_BREAKDOWNS", "figure_to_data_uri", "data_summary",
            "verdict_table", "where_html", "markdown_summary", "several_table",
-           "several_sentences", "several_markdown", "standard_comparisons",
+           "several_sentences", "several_markdown", "several_html", "standard_comparisons",
            "build_report", "write_report"]
