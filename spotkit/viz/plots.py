@@ -213,7 +213,8 @@ def elevation_plot(result, *, band=None, ax=None):
 
 
 def elevation_curve_plot(curve: pd.DataFrame, *, band=None, ax=None):
-    """The smoothed B minus A [dB] against elevation angle [deg] with its pointwise band.
+    """The smoothed B minus A [dB] against elevation angle [deg] with its pointwise band
+    (shaded) and, when the curve has it, the band simultaneous along the curve (dashed).
 
     Parameters
     ----------
@@ -234,12 +235,19 @@ def elevation_curve_plot(curve: pd.DataFrame, *, band=None, ax=None):
         x = sub[C.ELEVATION].to_numpy(dtype=float)
         col = colors.get(b, "#333333") if b else "#333333"
         ax.fill_between(x, sub[C.CI_LOW].to_numpy(dtype=float),
-                        sub[C.CI_HIGH].to_numpy(dtype=float), color=col, alpha=0.2, lw=0)
+                        sub[C.CI_HIGH].to_numpy(dtype=float), color=col, alpha=0.2, lw=0,
+                        gid=f"band-pointwise-{b or 'all'}")
+        if C.CI_SIM_LOW in sub:  # the band simultaneous along the curve: dashed edges
+            for edge, side in ((C.CI_SIM_LOW, "low"), (C.CI_SIM_HIGH, "high")):
+                ax.plot(x, sub[edge].to_numpy(dtype=float), color=col, lw=0.9, ls="--",
+                        gid=f"band-simultaneous-{side}-{b or 'all'}")
         ax.plot(x, sub[C.B_MINUS_A].to_numpy(dtype=float), color=col, lw=1.6,
                 label=b if b else "B - A", gid=f"curve-{b or 'all'}")
     ax.axhline(0.0, color="#444444", lw=0.8, zorder=0)
     ax.set_xlabel("estimated elevation angle [deg]")
-    ax.set_ylabel("B minus A [dB]  (pointwise 95 % band)")
+    ax.set_ylabel("B minus A [dB]\n(shaded: pointwise 95 % band; dashed: 95 % along the "
+                  "whole curve)" if C.CI_SIM_LOW in curve else
+                  "B minus A [dB]  (pointwise 95 % band)", fontsize=9)
     ax.set_title("B minus A against elevation angle (smoothed)")
     ax.grid(alpha=0.3)
     ax.legend(fontsize=8, title="band", title_fontsize=8)
