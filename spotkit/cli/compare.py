@@ -226,7 +226,8 @@ def add_report(sub) -> None:
         "adds a section 'Several antennas' or 'Series of changes' (ranking or steps, "
         "the table with simultaneous intervals); the rest of the report is the A/B one. "
         "With --antennas, --b defaults to the second antenna; with --periods, --change-at "
-        "defaults to the second period's start")
+        "defaults to the second period's start (the A/B part then compares all the data "
+        "before and after that moment)")
     g.add_argument("--antennas", metavar="X,Y,Z", help="the antennas to compare (k >= 2)")
     g.add_argument("--reference", metavar="X", help="with --antennas: the antenna the "
                    "others are compared with (default the first)")
