@@ -85,3 +85,12 @@ def test_simultaneous_band_contains_the_pointwise_one_and_is_drawn():
     import matplotlib.pyplot as plt
 
     plt.close(ax.figure)
+    from spotkit.compare.elevation import bearing_curve
+    from spotkit.viz.plots import bearing_curve_plot
+
+    bc = bearing_curve(pairs, grid_deg=[0, 90, 180, 270], n_boot=40)
+    ax = bearing_curve_plot(bc)
+    hi = next(ln for ln in ax.lines if ln.get_gid() == "band-simultaneous-high-20m")
+    np.testing.assert_allclose(hi.get_ydata()[:-1], bc[C.CI_SIM_HIGH].to_numpy())
+    assert "dashed" in ax.get_title()
+    plt.close(ax.figure)
