@@ -425,6 +425,214 @@ def markdown_summary(result, by_distance=None) -> str:
     return "\n".join(out) + "\n"
 
 
+# --- several antennas and series of changes (issue 18) -------------------------------------
+
+def _is_series(result) -> bool:
+    """A :class:`~spotkit.compare.series.SeriesResult` (else a ``MultiResult``)."""
+    return hasattr(result, "periods")
+
+
+def _signed(x) -> str:
+    return "-" if x is None or not np.isfinite(x) else f"{x:+.1f}"
+
+
+def several_table(result) -> pd.DataFrame:
+    """The comparisons of several antennas or of a series of changes, as shown.
+
+    Parameters
+    ----------
+    result : MultiResult or SeriesResult
+        From :func:`spotkit.compare.multi.compare_several` or
+        :func:`spotkit.compare.series.compare_series`.
+
+    Returns
+    -------
+    pandas.DataFrame
+        One row per comparison, text cells: the comparison ("C minus A"), its kind, the
+        difference [dB], the simultaneous interval [dB], for several antennas the
+        one-at-a-time interval [dB], the family-wise p, pairs (reports in a series) and
+        receivers, and the note.
+    """
+    conf = float(result.options.get("confidence", 0.95)) * 100
+    t = result.table if _is_series(result) else result.contrasts
+    out = pd.DataFrame({"comparison": t[C.SECOND].astype(str) + " minus "
+                        + t[C.FIRST].astype(str)})
+    if _is_series(result):
+        out["kind"] = t[C.CONTRAST].map({"first": "against the first",
+                                         "step": "step",
+                                         "first, step": "step, against the first"})
+    out["difference [dB]"] = [_signed(x) for x in t[C.B_MINUS_A].astype(float)]
+    out[f"{conf:g} % simultaneous [dB]"] = [
+        "none" if not np.isfinite(lo) else f"{lo:+.1f} to {hi:+.1f}"
+        for lo, hi in zip(t[C.CI_SIM_LOW].astype(float), t[C.CI_SIM_HIGH].astype(float),
+                          strict=True)]
+    if not _is_series(result):
+        out["one at a time [dB]"] = [
+            "none" if not np.isfinite(lo) else f"{lo:+.1f} to {hi:+.1f}"
+            for lo, hi in zip(t[C.CI_LOW].astype(float), t[C.CI_HIGH].astype(float),
+                              strict=True)]
+    n_boot = int(result.options.get("n_boot", 1000))
+    out["family-wise p"] = [
+        "-" if not np.isfinite(p) else (f"< {1 / n_boot:.2g}" if p == 0 and not
+                                        _is_series(result) else f"{p:.2g}")
+        for p in t[C.P_FAMILY].astype(float)]
+    out["reports" if _is_series(result) else "pairs"] = [
+        f"{int(x):,}" if np.isfinite(x) else "0" for x in t[C.PAIRS].astype(float)]
+    unit = "transmitters" if getattr(result, "design", "") == "receive" else "receivers"
+    out[unit] = [f"{int(x):,}" if np.isfinite(x) else "-"
+                 for x in t[C.CLUSTERS].astype(float)]
+    out["note"] = t[C.NOTE].fillna("").astype(str).to_numpy()
+    return out
+
+
+def _contrast_words(first, second, est, lo, hi, conf) -> str:
+    """One comparison in words: who is better by how much, or not separated."""
+    if not np.isfinite(est):
+        return f"{second} against {first}: no estimate"
+    if not np.isfinite(lo):
+        return f"{second} minus {first} is {est:+.1f} dB, with no interval"
+    if lo > 0:
+        return (f"{second} is {est:.1f} dB better than {first} ({lo:.1f} to {hi:.1f} dB)")
+    if hi < 0:
+        return (f"{first} is {-est:.1f} dB better than {second} ({-hi:.1f} to {-lo:.1f} dB)")
+    return (f"{second} and {first} are not separated ({second} minus {first} {est:+.1f} dB, "
+            f"{lo:+.1f} to {hi:+.1f} dB)")
+
+
+def several_sentences(result) -> tuple[str, list[str]]:
+    """The headline and the plain sentences of a several-antenna or series result.
+
+    Returns
+    -------
+    headline : str
+        The ranking (several antennas) or the steps (series).
+    sentences : list of str
+        Every comparison in words, and what the intervals mean.
+    """
+    conf = float(result.options.get("confidence", 0.95))
+    if _is_series(result):
+        t = result.table
+        steps = t[t[C.CONTRAST].str.contains("step")]
+        firsts = t[t[C.CONTRAST].str.contains("first")]
+        head = "Steps: " + "; ".join(
+            _contrast_words(r[C.FIRST], r[C.SECOND], r[C.B_MINUS_A], r[C.CI_SIM_LOW],
+                            r[C.CI_SIM_HIGH], conf) for r in steps.to_dict("records")) + "."
+        words = []
+        if len(firsts) > 1:
+            words.append("Against the first period: " + "; ".join(
+                _contrast_words(r[C.FIRST], r[C.SECOND], r[C.B_MINUS_A], r[C.CI_SIM_LOW],
+                                r[C.CI_SIM_HIGH], conf)
+                for r in firsts.to_dict("records")[1:]) + ".")
+        words.append(f"The {len(t)} intervals hold together with {conf * 100:g} % "
+                     "confidence (before/after with control stations; Bonferroni, so they "
+                     "are on the wide side).")
+        return head, words
+    t = result.contrasts
+    head = "Ranking: " + result.ranking + "."
+    words = ["; ".join(_contrast_words(r[C.FIRST], r[C.SECOND], r[C.B_MINUS_A],
+                                       r[C.CI_SIM_LOW], r[C.CI_SIM_HIGH], conf)
+                       for r in t.to_dict("records")) + ".",
+             f"The {len(t)} intervals hold together with {conf * 100:g} % confidence "
+             "(max-T cluster bootstrap, one resample of the receivers for all comparisons)."]
+    return head, words
+
+
+def several_markdown(result) -> str:
+    """A plain-text (Markdown) summary of several antennas or of a series of changes.
+
+    The headline (ranking, or the steps), a table of every comparison with its
+    simultaneous interval, and plain sentences; the style of :func:`markdown_summary`.
+
+    Parameters
+    ----------
+    result : MultiResult or SeriesResult
+
+    Returns
+    -------
+    str
+        Markdown text ending in a newline.
+
+    Examples
+    --------
+    >>> from spotkit.sim.simulate import simulate_spots
+    >>> from spotkit.compare.multi import compare_several
+    >>> sim = simulate_spots(days=0.25, n_receivers=40, bands=("20m",), difference_db=2.0,
+    ...                      more_antennas=[6.0], seed=3)
+    >>> res = compare_several(sim.spots, "simultaneous", sim.params["calls"], n_boot=100)
+    >>> print(several_markdown(res).splitlines()[2])
+    Ranking: Q1ABE > Q1ABD > Q1ABC with 95 % simultaneous confidence.
+    """
+    import textwrap
+
+    full = several_table(result)
+    tab = full.drop(columns="note")
+    if _is_series(result):
+        title = (f"**Series of changes of {result.call}**: " + ", ".join(
+            f"{lab} from {t:%Y-%m-%d %H:%M}" for lab, t in result.periods))
+    else:
+        title = (f"**{len(result.antennas)} antennas ({', '.join(result.antennas)}), "
+                 f"reference {result.reference}**, {result.design} design")
+    head, words = several_sentences(result)
+    cells = [list(tab.columns)] + [[str(v) for v in r] for r in tab.to_numpy()]
+    widths = [max(len(x) for x in col) for col in zip(*cells, strict=True)]
+
+    def md(row):
+        return "| " + " | ".join(c.ljust(w) for c, w in zip(row, widths, strict=True)) + " |"
+    lines = [title, "", head, "", md(cells[0]),
+             "|" + "|".join("-" * (w + 2) for w in widths) + "|"]
+    lines += [md(r) for r in cells[1:]]
+    firsts = {}  # the first clause of each note, said once
+    for c, n in zip(full["comparison"], full["note"], strict=True):
+        if n:
+            firsts.setdefault(n.split(";")[0].strip(), []).append(c)
+    notes = [f"{', '.join(cs)}: {n}" for n, cs in firsts.items()]
+    lines += ["", " ".join(words)]
+    if notes:
+        lines += ["", "Notes: " + "; ".join(notes) + "."]
+    out = [ln if ln.startswith("|") else textwrap.fill(ln, 88, break_on_hyphens=False)
+           for ln in lines]
+    return "\n".join(out) + "\n"
+
+
+def several_html(result) -> str:
+    """The report section of several antennas ("Several antennas") or of a series of
+    changes ("Series of changes"): headline, table, sentences and the Markdown to paste.
+
+    Parameters
+    ----------
+    result : MultiResult or SeriesResult
+
+    Returns
+    -------
+    str
+        An HTML fragment beginning with its ``<h2>``.
+    """
+    head, words = several_sentences(result)
+    if _is_series(result):
+        title, anchor = "Series of changes", "series"
+        who = (f"{result.call}: " + ", ".join(f"{lab} from {t:%Y-%m-%d %H:%M} UTC"
+                                              for lab, t in result.periods)
+               + ". Each period against the first and each step between neighbours, "
+               "each by the before/after design with control stations on the two periods' "
+               "reports only.")
+    else:
+        title, anchor = "Several antennas", "several"
+        who = (f"{len(result.antennas)} antennas ({', '.join(result.antennas)}), "
+               f"{result.design} design; "
+               + ("every pair" if result.options.get("all_pairs") else
+                  f"each against {result.reference}") + ".")
+    table = several_table(result)
+    table["note"] = [n.split(";")[0].strip() for n in table["note"]]
+    if not table["note"].str.len().any():
+        table = table.drop(columns="note")
+    return (f"<h2 id='{anchor}'>{title}</h2><p class='who'>{html.escape(who)}</p>"
+            f"<p class='headline'><strong>{html.escape(head)}</strong></p>"
+            + _table_html(table, left=("comparison", "kind", "note"))
+            + "".join(f"<p>{html.escape(w)}</p>" for w in words)
+            + "<details><summary>The same as text to paste</summary><pre class='paste'>"
+            + html.escape(several_markdown(result)) + "</pre></details>")
+
+
 def _with_edges(grid: pd.DataFrame, result) -> pd.DataFrame:
     """The grid with each cell's distance edges [km] (``_lo``, ``_hi``) from the result."""
     g = result.groups[[C.BAND, C.DISTANCE_MIN, C.DISTANCE_MAX]].copy()
@@ -505,7 +713,7 @@ def _figures(spots, results, map_result, progress: bool):
 
 def build_report(spots: pd.DataFrame, results, *, ingest_summary=None, map_result=None,
                  title: str | None = None, figures: bool = True,
-                 progress: bool = False) -> str:
+                 progress: bool = False, several=None) -> str:
     """HTML text of the report.
 
     Parameters
@@ -526,6 +734,10 @@ def build_report(spots: pd.DataFrame, results, *, ingest_summary=None, map_resul
         Draw and embed the maps and plots.
     progress : bool
         Show a progress bar while drawing.
+    several : MultiResult or SeriesResult, optional
+        Adds a section "Several antennas" or "Series of changes" (ranking or steps, the
+        table of comparisons with simultaneous intervals, sentences and a paste block)
+        after the verdict tables; without it the report is the two-antenna one.
 
     Returns
     -------
@@ -565,6 +777,8 @@ def build_report(spots: pd.DataFrame, results, *, ingest_summary=None, map_resul
                          f"click to open)</summary>{_table_html(table)}</details>")
         else:
             parts.append(f"<h3>{html.escape(label)}</h3>{_table_html(table)}")
+    if several is not None:
+        parts.append(several_html(several))
     by_distance = next((r for r in results if tuple(r.by) == ("band", "distance")), None)
     parts.append("<h2 id='summary'>Summary to paste</h2><p class='small'>Plain text (Markdown) "
                  "for a forum post or an e-mail: select it and copy.</p><pre class='paste'>"
@@ -655,5 +869,6 @@ def write_report(path, spots: pd.DataFrame, result, **kwargs) -> Path:
 
 
 __all__ = ["JOB", "CAUTIONS", "STANDARD_BREAKDOWNS", "figure_to_data_uri", "data_summary",
-           "verdict_table", "where_html", "markdown_summary", "standard_comparisons",
+           "verdict_table", "where_html", "markdown_summary", "several_table",
+           "several_sentences", "several_markdown", "several_html", "standard_comparisons",
            "build_report", "write_report"]

@@ -40,7 +40,8 @@ def add_compare(sub) -> None:
     p.add_argument("--markdown", nargs="?", const="-", metavar="OUT.md",
                    help="also a plain-text summary to paste into a forum post or an e-mail "
                    "(headline, receivers and pairs, band x distance table, where B wins or "
-                   "loses): printed, or written to OUT.md")
+                   "loses; with --antennas / --periods: ranking or steps, the table of "
+                   "comparisons and their simultaneous intervals): printed, or written to OUT.md")
     add_progress_option(p)
     p.set_defaults(func=cmd_compare)
 
@@ -71,6 +72,7 @@ def _cmd_several(args) -> int:
     from spotkit.compare.series import compare_series
     from spotkit.errors import UsageError
     from spotkit.io.ingest import load_spots
+    from spotkit.report import several_markdown
 
     if args.antennas and args.periods:
         raise UsageError("give --antennas or --periods, not both")
@@ -93,13 +95,16 @@ def _cmd_several(args) -> int:
             raise UsageError("--antennas with the alternating design needs --a (the call) "
                              "and --schedule (labels as in --antennas)")
     inputs = (args.spots, args.schedule)
-    for option, path in (("--json", args.json), ("--csv", args.csv)):
+    markdown = getattr(args, "markdown", None)
+    md_file = markdown if markdown not in (None, "-") else None
+    for option, path in (("--json", args.json), ("--csv", args.csv), ("--markdown", md_file)):
         if path:
             check_output(path, option, inputs=inputs)
-    if args.json and args.csv:
+    outs = [x for x in (args.json, args.csv, md_file) if x]
+    if len(outs) > 1:
         from spotkit.io.atomic import check_outputs
 
-        check_outputs([args.json, args.csv])
+        check_outputs(outs)
     spots = load_spots(args.spots)
     common = dict(n_boot=args.boot, seed=args.seed, confidence=args.confidence,
                   min_pairs=args.min_pairs, missed_reports=args.missed_reports)
@@ -115,7 +120,21 @@ def _cmd_several(args) -> int:
                                  model=args.model, tau_db=args.tau, tau_from=args.tau_from,
                                  **common)
     write_result(result, args)
+    if markdown:
+        _write_text(several_markdown(result), md_file)
     return EXIT_OK
+
+
+def _write_text(text: str, path) -> None:
+    """Print ``text`` (``path`` None) or write it to ``path`` as one transaction."""
+    if path is None:
+        print("\n" + text, end="")
+        return
+    from spotkit.io.atomic import staged
+
+    with staged([path]) as (tmp,):
+        tmp.write_text(text, encoding="utf-8")
+    print(f"wrote {path}")
 
 
 def _cmd_patterns(args) -> int:
@@ -187,15 +206,7 @@ def _write_markdown(spots, result, by, kw, args, path) -> None:
 
     by_distance = result if tuple(by) == ("band", "distance") else compare_antennas(
         spots, args.design, args.a, args.b, by=("band", "distance"), **kw)
-    text = markdown_summary(result, by_distance)
-    if path is None:
-        print("\n" + text, end="")
-        return
-    from spotkit.io.atomic import staged
-
-    with staged([path]) as (tmp,):
-        tmp.write_text(text, encoding="utf-8")
-    print(f"wrote {path}")
+    _write_text(markdown_summary(result, by_distance), path)
 
 
 def add_report(sub) -> None:
@@ -210,6 +221,20 @@ def add_report(sub) -> None:
     p.add_argument("--by", default="", metavar="KEY,KEY",
                    help="an extra breakdown shown last, e.g. band,distance,bearing")
     add_ab_options(p)
+    g = p.add_argument_group(
+        "several antennas or a series of changes",
+        "adds a section 'Several antennas' or 'Series of changes' (ranking or steps, "
+        "the table with simultaneous intervals); the rest of the report is the A/B one. "
+        "With --antennas, --b defaults to the second antenna; with --periods, --change-at "
+        "defaults to the second period's start (the A/B part then compares all the data "
+        "before and after that moment)")
+    g.add_argument("--antennas", metavar="X,Y,Z", help="the antennas to compare (k >= 2)")
+    g.add_argument("--reference", metavar="X", help="with --antennas: the antenna the "
+                   "others are compared with (default the first)")
+    g.add_argument("--all-pairs", action="store_true",
+                   help="with --antennas: every pair, not only against the reference")
+    g.add_argument("--periods", metavar="'LABEL:TIME,LABEL:TIME,...'",
+                   help="a series of changes of --a (before-after design)")
     p.add_argument("--title", help="report title")
     p.add_argument("-o", "--output", required=True, metavar="OUT.html")
     add_progress_option(p)
@@ -218,18 +243,68 @@ def add_report(sub) -> None:
 
 def cmd_report(args) -> int:
     from spotkit.io.ingest import load_spots
-    from spotkit.report import standard_comparisons, write_report
+    from spotkit.report import several_sentences, standard_comparisons, write_report
 
     by = by_keys(args.by)
     ab_labels(args)  # a bad --label-a/--label-b before any work
+    _report_several_defaults(args)
     check_output(args.output, "-o", inputs=(args.spots, args.schedule))
     spots = load_spots(args.spots)
     show_progress = progress(args)
     results, map_result = standard_comparisons(
         spots, args.design, args.a, args.b, by=by or None, progress=show_progress,
         **compare_kwargs(args))
+    several = _report_several(args, spots)
     write_report(args.output, spots, results, map_result=map_result, title=args.title,
-                 progress=show_progress)
+                 progress=show_progress, several=several)
     print(results[0].verdicts()[0])
+    if several is not None:
+        print(several_sentences(several)[0])
     print(f"wrote {args.output}")
     return EXIT_OK
+
+
+def _report_several_defaults(args) -> None:
+    """``spotkit report --antennas / --periods``: check them against the A/B options and
+    fill --b (the second antenna) or --change-at (the second period's start)."""
+    from spotkit.compare.multi import parse_antennas
+    from spotkit.compare.series import parse_periods
+    from spotkit.errors import UsageError
+
+    if args.antennas and args.periods:
+        raise UsageError("give --antennas or --periods, not both")
+    if (args.reference or args.all_pairs) and not args.antennas:
+        raise UsageError("--reference and --all-pairs go with --antennas")
+    if args.antennas:
+        labels = parse_antennas(args.antennas)
+        if args.design not in ("simultaneous", "receive"):
+            raise UsageError("report --antennas needs --design simultaneous or receive "
+                             f"(got {args.design}); for the alternating design use "
+                             "'spotkit compare --antennas ... --markdown'")
+        if args.b is None:
+            others = [x for x in labels if x != args.a.upper()]
+            args.b = others[0]
+    if args.periods:
+        periods = parse_periods(args.periods)
+        if args.design != "before-after":
+            raise UsageError(f"--periods goes with --design before-after (got {args.design})")
+        if not args.change_at:
+            args.change_at = periods[1][1].isoformat()
+
+
+def _report_several(args, spots):
+    """The several-antenna or series result for the report's section, or None."""
+    common = dict(n_boot=args.boot, seed=args.seed, confidence=args.confidence,
+                  min_pairs=args.min_pairs, missed_reports=args.missed_reports)
+    if args.antennas:
+        from spotkit.compare.multi import compare_several
+
+        return compare_several(spots, args.design, args.antennas,
+                               reference=args.reference, all_pairs=args.all_pairs,
+                               model=args.model, tau_db=args.tau, tau_from=args.tau_from,
+                               **common)
+    if args.periods:
+        from spotkit.compare.series import compare_series
+
+        return compare_series(spots, args.a, args.periods, day_hours=args.day_hours, **common)
+    return None

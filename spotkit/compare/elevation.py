@@ -9,7 +9,12 @@ constant) [1]_. The pairs are first compressed into 1-degree elevation bins
 (:func:`spotkit.compare.grouping.summarise_pairs`), so the curve costs one batch fit per
 grid point whatever the number of pairs. The band around it is the percentile cluster
 bootstrap (receivers resampled, transmitters in the receive design), pointwise: it holds
-at each angle, not along the whole curve at once.
+at each angle, not along the whole curve at once. Every grid point is refitted on the same
+resamples, so the replicates are joint and a second band, simultaneous along each band's
+curve (over the grid points that have a band), comes from the max-statistic method
+(:func:`spotkit.stats.simultaneous.max_t`): ``C.CI_SIM_LOW`` / ``C.CI_SIM_HIGH``. Its
+width depends on the grid (more, closer points: a little wider; neighbouring points
+within the bandwidth are strongly correlated, so far less than Bonferroni).
 
 Known error: a local-constant smoother flattens peaks and troughs narrower than about
 the bandwidth ``h`` (default 3 degrees) and is biased at the ends of the data's range
@@ -39,8 +44,8 @@ from spotkit.errors import NoPairsError, UsageError
 _CODE = {"both": 0, "only_a": 1, "only_b": -1}
 
 #: columns of :func:`elevation_curve`
-CURVE_COLUMNS = [C.BAND, C.ELEVATION, C.B_MINUS_A, C.CI_LOW, C.CI_HIGH, C.PAIRS, C.CLUSTERS,
-                 C.NOTE]
+CURVE_COLUMNS = [C.BAND, C.ELEVATION, C.B_MINUS_A, C.CI_LOW, C.CI_HIGH, C.CI_SIM_LOW,
+                 C.CI_SIM_HIGH, C.PAIRS, C.CLUSTERS, C.NOTE]
 
 
 def elevation_curve(pairs: pd.DataFrame, *, grid_deg=None, bandwidth_deg: float = 3.0,
@@ -74,7 +79,9 @@ def elevation_curve(pairs: pd.DataFrame, *, grid_deg=None, bandwidth_deg: float 
     -------
     pandas.DataFrame
         :data:`CURVE_COLUMNS`: ``C.BAND`` ("all" with ``by_band=False``), ``C.ELEVATION``
-        [deg], ``C.B_MINUS_A``, ``C.CI_LOW``, ``C.CI_HIGH`` [dB], ``C.PAIRS`` (kernel-weighted
+        [deg], ``C.B_MINUS_A``, ``C.CI_LOW``, ``C.CI_HIGH`` [dB] (pointwise percentile
+        band), ``C.CI_SIM_LOW``, ``C.CI_SIM_HIGH`` [dB] (band simultaneous over the band's
+        grid points, max-T), ``C.PAIRS`` (kernel-weighted
         pairs), ``C.CLUSTERS`` (clusters with pairs within 2 h), ``C.NOTE``. A point
         carried by fewer than :data:`spotkit.compare.estimate.MIN_CLUSTERS` clusters gets
         its estimate but no band (too few units to resample), and a note.
@@ -134,6 +141,7 @@ def _kernel_curve(pairs, key, group_opts, lo_col, hi_col, out_col, circular, gri
     band = counts[C.BAND].astype(str).to_numpy() if by_band else np.full(len(counts), "all")
     rows = []
     for b in pd.unique(band):
+        joint = {}  # row index -> that grid point's replicates
         sel = band == b
         v, k, t, e, c = value[sel], kind[sel], cnt[sel], centre[sel], cl[sel]
         if grid_deg is not None:
@@ -152,7 +160,8 @@ def _kernel_curve(pairs, key, group_opts, lo_col, hi_col, out_col, circular, gri
         for g, e0 in enumerate(grid):
             near = np.abs(dist[g]) <= 2 * bandwidth_deg
             row = {C.BAND: b, out_col: float(e0), C.B_MINUS_A: np.nan, C.CI_LOW: np.nan,
-                   C.CI_HIGH: np.nan, C.PAIRS: float(n_eff[g]),
+                   C.CI_HIGH: np.nan, C.CI_SIM_LOW: np.nan, C.CI_SIM_HIGH: np.nan,
+                   C.PAIRS: float(n_eff[g]),
                    C.CLUSTERS: int(np.unique(c[near]).size), C.NOTE: ""}
             if n_eff[g] < min_pairs or not np.isfinite(fit["mu"][g]):
                 row[C.NOTE] = "too few pairs" if n_eff[g] < min_pairs else "no estimate"
@@ -164,7 +173,15 @@ def _kernel_curve(pairs, key, group_opts, lo_col, hi_col, out_col, circular, gri
                                                          **kw)["mu"]
                 lo, hi = stats.bootstrap_interval(mu_b, fit["mu"][g], confidence)
                 row.update({C.B_MINUS_A: float(fit["mu"][g]), C.CI_LOW: lo, C.CI_HIGH: hi})
+                joint[len(rows)] = mu_b
             rows.append(row)
+        if joint:  # the band simultaneous along this band's curve (max-T, joint resamples)
+            at = list(joint)
+            mt = stats.max_t([rows[i][C.B_MINUS_A] for i in at],
+                             np.column_stack([joint[i] for i in at]), confidence)
+            for j, i in enumerate(at):
+                rows[i][C.CI_SIM_LOW] = float(mt["low"][j])
+                rows[i][C.CI_SIM_HIGH] = float(mt["high"][j])
     cols = [out_col if x == C.ELEVATION else x for x in CURVE_COLUMNS]
     return pd.DataFrame(rows, columns=cols)
 

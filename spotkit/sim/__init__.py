@@ -27,11 +27,13 @@ from spotkit.sim.simulate import (
     DEMO_CALL,
     DEMO_LOCATOR,
     DESIGNS,
+    SERIES_DEMO,
     THRESHOLD_ON,
     Propagation,
     Simulation,
     decode,
     make_demo_data,
+    make_series_demo,
     simulate_spots,
 )
 from spotkit.sim.stations import (
@@ -54,4 +56,5 @@ __all__ = [
     "DEFAULT_DISTANCE_EDGES", "TRUTH_COLUMNS", "Truth", "DESIGNS", "THRESHOLD_ON", "decode",
     "Propagation",
     "Simulation", "simulate_spots", "DEMO_CALL", "DEMO_LOCATOR", "make_demo_data",
+    "SERIES_DEMO", "make_series_demo",
 ]

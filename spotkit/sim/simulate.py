@@ -60,6 +60,7 @@ stations' antennas are isotropic with a random gain folded into the noise offset
 """
 from __future__ import annotations
 
+import json
 import math
 from dataclasses import asdict, dataclass, field
 from pathlib import Path
@@ -885,7 +886,57 @@ def make_demo_data(out_dir, *, days: float = 3, n_receivers: int = 250,
         sims[design] = sim
     return sims
 
+
+
+#: The invented series of changes of the demo (label, start UTC, true gain over the first
+#: configuration [dB]); the gains are invented round numbers, not a model of radials.
+SERIES_DEMO = (("4 radials", "2026-03-02", 0.0), ("8 radials", "2026-03-04", 1.5),
+               ("16 radials", "2026-03-06", 2.5))
+
+
+def make_series_demo(out_dir, *, days_each: float = 2, n_receivers: int = 80,
+                     n_controls: int = 6, seed: int = 2027) -> Simulation:
+    """Write the demo series of changes (see demo_data/README.md) into ``out_dir``.
+
+    One invented station, Q1ABC at JO62qm on 20 m, whose ground-mounted vertical gets 4,
+    then 8, then 16 radials (:data:`SERIES_DEMO`: ``days_each`` days each, true gains
+    +1.5 and +2.5 dB over the 4-radial configuration, the same on every path), heard by
+    ``n_receivers`` far receivers together with ``n_controls`` control stations. Files:
+    ``series.csv.gz`` (the ``comma`` layout, 0.2 % duplicate uploads; gzip without a time
+    stamp, so byte-for-byte reproducible) and ``series.truth.json`` (the periods, each
+    period's true difference from the first and each step [dB], the simulation's
+    parameters).
+
+    Returns
+    -------
+    Simulation
+    """
+    out = Path(out_dir)
+    out.mkdir(parents=True, exist_ok=True)
+    (l0, t0, _), (l1, t1, g1), (l2, t2, g2) = SERIES_DEMO
+    sim = simulate_spots("before-after", days=3 * days_each, seed=seed, start=t0,
+                         bands=("20m",), n_receivers=n_receivers, n_controls=n_controls,
+                         home_locator=DEMO_LOCATOR, a=DEMO_CALL,
+                         antenna_a=make_antenna("vertical", ("20m",), loss_ohm=10.0),
+                         difference_db=g1,
+                         more_antennas=[g2], change_at=[t1, t2])
+    write_foreign_csv(sim.spots, out / "series.csv.gz", "comma", duplicates=0.002, seed=seed)
+    vs_first = dict(zip((l0, l1, l2), sim.params["truth_vs_a"], strict=True))
+    truth = {"call": DEMO_CALL, "locator": DEMO_LOCATOR, "band": "20m",
+             "periods": [{"label": lab, "start": pd.Timestamp(t, tz="UTC").isoformat()}
+                         for lab, t, _ in SERIES_DEMO],
+             "periods_option": ",".join(f"{lab}:{t}" for lab, t, _ in SERIES_DEMO),
+             "true_vs_first_db": vs_first,
+             "true_steps_db": {f"{l1} minus {l0}": vs_first[l1] - vs_first[l0],
+                               f"{l2} minus {l1}": vs_first[l2] - vs_first[l1]},
+             "params": {k: v for k, v in sim.params.items()
+                        if isinstance(v, (str, int, float, list, type(None)))}}
+    (out / "series.truth.json").write_text(json.dumps(truth, indent=2, sort_keys=True)
+                                           + "\n", encoding="utf-8")
+    return sim
+
+
 __all__ = [
     "DESIGNS", "THRESHOLD_ON", "decode", "Propagation", "Simulation", "simulate_spots",
-    "DEMO_CALL", "DEMO_LOCATOR", "make_demo_data",
+    "DEMO_CALL", "DEMO_LOCATOR", "make_demo_data", "SERIES_DEMO", "make_series_demo",
 ]

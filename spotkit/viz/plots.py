@@ -213,7 +213,8 @@ def elevation_plot(result, *, band=None, ax=None):
 
 
 def elevation_curve_plot(curve: pd.DataFrame, *, band=None, ax=None):
-    """The smoothed B minus A [dB] against elevation angle [deg] with its pointwise band.
+    """The smoothed B minus A [dB] against elevation angle [deg] with its pointwise band
+    (shaded) and, when the curve has it, the band simultaneous along the curve (dashed).
 
     Parameters
     ----------
@@ -234,12 +235,19 @@ def elevation_curve_plot(curve: pd.DataFrame, *, band=None, ax=None):
         x = sub[C.ELEVATION].to_numpy(dtype=float)
         col = colors.get(b, "#333333") if b else "#333333"
         ax.fill_between(x, sub[C.CI_LOW].to_numpy(dtype=float),
-                        sub[C.CI_HIGH].to_numpy(dtype=float), color=col, alpha=0.2, lw=0)
+                        sub[C.CI_HIGH].to_numpy(dtype=float), color=col, alpha=0.2, lw=0,
+                        gid=f"band-pointwise-{b or 'all'}")
+        if C.CI_SIM_LOW in sub:  # the band simultaneous along the curve: dashed edges
+            for edge, side in ((C.CI_SIM_LOW, "low"), (C.CI_SIM_HIGH, "high")):
+                ax.plot(x, sub[edge].to_numpy(dtype=float), color=col, lw=0.9, ls="--",
+                        gid=f"band-simultaneous-{side}-{b or 'all'}")
         ax.plot(x, sub[C.B_MINUS_A].to_numpy(dtype=float), color=col, lw=1.6,
                 label=b if b else "B - A", gid=f"curve-{b or 'all'}")
     ax.axhline(0.0, color="#444444", lw=0.8, zorder=0)
     ax.set_xlabel("estimated elevation angle [deg]")
-    ax.set_ylabel("B minus A [dB]  (pointwise 95 % band)")
+    ax.set_ylabel("B minus A [dB]\n(shaded: pointwise 95 % band; dashed: 95 % along the "
+                  "whole curve)" if C.CI_SIM_LOW in curve else
+                  "B minus A [dB]  (pointwise 95 % band)", fontsize=9)
     ax.set_title("B minus A against elevation angle (smoothed)")
     ax.grid(alpha=0.3)
     ax.legend(fontsize=8, title="band", title_fontsize=8)
@@ -322,7 +330,8 @@ def bearing_plot(result, *, band=None, ax=None, rlim: float | None = None):
 
 def bearing_curve_plot(curve: pd.DataFrame, *, band=None, ax=None,
                        rlim: float | None = None):
-    """The smoothed B minus A [dB] against bearing on a polar plot, with its pointwise band.
+    """The smoothed B minus A [dB] against bearing on a polar plot, with its pointwise band
+    (shaded) and, when the curve has it, the band simultaneous round the circle (dashed).
 
     North up, bearings clockwise; the radius is B minus A [dB], the bold circle 0 dB. Gaps
     are bearings with too few pairs (or too few receivers for a band).
@@ -355,6 +364,12 @@ def bearing_curve_plot(curve: pd.DataFrame, *, band=None, ax=None,
         lo, hi = sub[C.CI_LOW].to_numpy(dtype=float), sub[C.CI_HIGH].to_numpy(dtype=float)
         est = sub[C.B_MINUS_A].to_numpy(dtype=float)
         ax.fill_between(th, lo, hi, color=col, alpha=0.2, lw=0, gid=f"band-{b or 'all'}")
+        if C.CI_SIM_LOW in sub:  # simultaneous round the whole circle: dashed edges
+            for edge, side in ((C.CI_SIM_LOW, "low"), (C.CI_SIM_HIGH, "high")):
+                y = sub[edge].to_numpy(dtype=float)
+                ax.plot(th, y, color=col, lw=0.9, ls="--",
+                        gid=f"band-simultaneous-{side}-{b or 'all'}")
+                ext += [x for x in y if np.isfinite(x)]
         ax.plot(th, est, color=col, lw=1.8, label=b if b else "B - A",
                 gid=f"curve-{b or 'all'}")
         ext += [x for x in np.r_[lo, hi, est] if np.isfinite(x)]
@@ -364,7 +379,9 @@ def bearing_curve_plot(curve: pd.DataFrame, *, band=None, ax=None,
     th = np.linspace(0, 2 * np.pi, 181)
     ax.plot(th, np.zeros_like(th), color="black", lw=1.2, gid="zero-db")
     ax.set_rlabel_position(100)
-    ax.set_title("B minus A [dB] against bearing, smoothed (pointwise 95 % band)", pad=18)
+    ax.set_title("B minus A [dB] against bearing, smoothed\n(shaded: pointwise 95 % band; "
+                 "dashed: 95 % round the whole circle)" if C.CI_SIM_LOW in curve else
+                 "B minus A [dB] against bearing, smoothed (pointwise 95 % band)", pad=18)
     ax.legend(fontsize=8, loc="lower left", bbox_to_anchor=(-0.12, -0.12))
     return ax
 
