@@ -73,7 +73,9 @@ def cmd_watch(args) -> int:
             raise FileNotFoundError(2, "No such file or folder", str(s))
         if Path(s).resolve() == folder.resolve():
             raise UsageError(f"-o {folder}: the watch folder cannot be a source")
-    kw = dict(compare_kwargs(args), target_width_db=args.target_width,
+    ckw = compare_kwargs(args)
+    ckw.pop("interval", None)  # every look uses the normal interval: the sequence needs its SE
+    kw = dict(ckw, target_width_db=args.target_width,
               margin_db=args.margin, max_hours=args.max_hours,
               min_clusters=args.min_receivers, memory_mb=args.memory_mb)
 

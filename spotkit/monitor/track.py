@@ -15,6 +15,7 @@ from scipy import stats
 
 from spotkit import columns as C
 from spotkit.compare.estimate import compare_antennas
+from spotkit.errors import UsageError
 from spotkit.monitor.sequence import confidence_sequence, se_for_width
 from spotkit.monitor.stopping import hours_to_halfwidth, needed_halfwidth, stop_verdict
 
@@ -90,6 +91,10 @@ def estimate_now(spots: pd.DataFrame, design, a: str, b: str | None = None, *,
         part of the normal bootstrap interval over ``z``. No row for a band without pairs.
     """
     hours = data_hours(spots) if hours is None else float(hours)
+    compare_kw = dict(compare_kw)
+    if compare_kw.pop("interval", "normal") != "normal":
+        raise UsageError("each look uses the normal interval (the confidence sequence is "
+                         "built on its SE): leave interval out")
     res = compare_antennas(spots, design, a, b, by="band", n_boot=n_boot, seed=seed,
                            confidence=confidence, interval="normal", **compare_kw)
     f = res.to_frame()
@@ -247,8 +252,6 @@ def replay_run(spots: pd.DataFrame, design, a: str, b: str | None = None, *,
     [[4.0, True], [8.0, True], [11.8, True]]
     """
     if not (np.isfinite(step_hours) and step_hours > 0):
-        from spotkit.errors import UsageError
-
         raise UsageError(f"step_hours must be a positive number of hours, got {step_hours!r}")
     t0 = spots[C.SLOT].min()
     total = data_hours(spots)

@@ -208,3 +208,19 @@ def test_two_watches_on_one_folder_take_turns(run, tmp_path):
         assert [o.strip() for o, _ in outs] == ["0", "0"], outs
     assert _rows(tmp_path / "w") == len(rows)
     assert read_state(tmp_path / "w")["set_aside"] == {}
+
+
+def test_a_look_uses_the_normal_interval_and_refuses_another():
+    """The sequence is built on the normal interval's SE: the shared compare options' default
+    (percentile) must not reach a look (the watch command drops it), and a library call
+    asking for another interval is told so."""
+    from spotkit.errors import UsageError
+    from spotkit.monitor.track import estimate_now
+    from spotkit.sim.simulate import simulate_spots
+
+    sim = simulate_spots(days=0.1, n_receivers=30, bands=("20m",), seed=4)
+    look = estimate_now(sim.spots, "simultaneous", sim.a, sim.b, n_boot=20, interval="normal")
+    assert len(look) == 1
+    with pytest.raises(UsageError, match="normal interval"):
+        estimate_now(sim.spots, "simultaneous", sim.a, sim.b, n_boot=20,
+                     interval="percentile")
