@@ -41,6 +41,14 @@ PARAMETER_OPTIONS = {
     "max_reject_share": "--max-reject-share",
     "chunk_rows": "--chunk-rows",
     "memory_mb": "--memory-mb",
+    "tau_db": "--tau",
+    "tau_from": "--tau-from",
+    "constants": "--set",
+    "date_order": "--date-order",
+    "target_width_db": "--target-width",
+    "margin_db": "--margin",
+    "max_hours": "--max-hours",
+    "radius_km": "--radius-km",
 }
 
 #: phrases of library messages whose parameter is an ordinary word: (pattern, option)

@@ -136,3 +136,14 @@ def test_home_typo_says_what_is_wrong(home, expected, spots_file, tmp_path, caps
     err = _err(capsys)
     assert expected in err and "characters like" not in err
     assert not out.exists()
+
+
+def test_a_detection_width_out_of_range_names_the_tau_option(capsys):
+    # the library says tau_db; the command line user gave --tau
+    from spotkit.demo import demo_data_dir
+
+    code = main(["compare", str(demo_data_dir() / "simultaneous.csv.gz"), "--design",
+                 "simultaneous", "--a", "Q1ABC", "--b", "Q1ABD", "--tau", "20"])
+    err = capsys.readouterr().err
+    assert code == 2
+    assert "--tau must be between 0 and 10 dB" in err and "tau_db" not in err
