@@ -48,7 +48,7 @@ from spotkit.stats.censored import (
 )
 
 #: Gauss-Hermite nodes over the receiver effect (probabilists' Hermite polynomials)
-N_NODES = 21
+N_NODES = 15
 #: rows of the batch evaluated at once (memory: rows x nodes x items doubles, x6)
 _CHUNK = 8
 
@@ -58,64 +58,154 @@ def _nodes(n):
     return x, np.log(w / w.sum())
 
 
-def _per_receiver(x, items, ew, St, fam, xq, logw, need_derivs):
-    """Each receiver's integrated log-likelihood (B, R) at parameters ``x`` (B, 3) =
-    (mu, sigma, s_u); with derivatives also its gradient (B, R, 3) and Hessian
-    (B, R, 3, 3), and the posterior mean of ``u`` (B, R)."""
-    lo, hi, point, tau2, _kind = items
-    b, q = x.shape[0], xq.size
-    m = (x[:, 0:1] + x[:, 2:3] * xq[None, :]).ravel()
-    s = np.repeat(x[:, 1], q)
-    res = _interval_terms(m, s, lo, hi, point, tau2, fam, need_derivs)
-    parts = res if need_derivs else (res,)
+class _Receivers:
+    """The items of each receiver at fixed quadrature points of ``m = mu + u``.
 
-    def agg(a):  # (B*Q, K) item terms -> (B, Q, R) per receiver sums
-        return np.asarray(St @ (a * ew[None, :]).T).T.reshape(b, q, -1)
+    Adaptive quadrature: receiver ``r``'s nodes are ``m_rq = c_r + d_r x_q`` (``c_r``,
+    ``d_r``: an approximation of the posterior mean and SD of ``mu + u_r``), so that
+    ``integral f_r(m) phi((m - mu)/s_u)/s_u dm ~ sum_q w_q f_r(m_rq) phi((m_rq - mu)/s_u)
+    / s_u * d_r / phi(x_q)``. The item terms ``f_r(m_rq)`` depend on ``sigma`` alone; ``mu``
+    and ``s_u`` enter through the normal factor (analytic derivatives)."""
 
-    with np.errstate(invalid="ignore"):
-        a = agg(parts[0]) + logw[None, :, None]
-        parts = parts[:1] + tuple(np.nan_to_num(d) for d in parts[1:])
-    a = np.where(np.isnan(a), -np.inf, a)
-    lse = special.logsumexp(a, axis=1)  # (B, R)
-    with np.errstate(invalid="ignore"):
-        p = np.exp(a - lse[:, None, :])  # posterior weights of the nodes
-    p = np.nan_to_num(p)
-    eu = x[:, 2:3] * np.einsum("bqr,q->br", p, xq)
-    if not need_derivs:
-        return lse, eu
-    _l, l_m, l_s, l_mm, l_ms, l_ss = parts
-    gm, gs = agg(l_m), agg(l_s)
-    hmm, hms, hss = agg(l_mm), agg(l_ms), agg(l_ss)
-    xqb = xq[None, :, None]
-    g = np.stack([gm, gs, xqb * gm], axis=-1)  # (B, Q, R, 3)
-    h = np.empty(g.shape + (3,))
-    h[..., 0, 0], h[..., 1, 1], h[..., 2, 2] = hmm, hss, xqb ** 2 * hmm
-    h[..., 0, 1] = h[..., 1, 0] = hms
-    h[..., 0, 2] = h[..., 2, 0] = xqb * hmm
-    h[..., 1, 2] = h[..., 2, 1] = xqb * hms
-    gbar = np.einsum("bqr,bqrk->brk", p, g)
-    hr = (np.einsum("bqr,bqrkl->brkl", p, h + g[..., :, None] * g[..., None, :])
-          - gbar[..., :, None] * gbar[..., None, :])
-    return lse, eu, gbar, hr
+    def __init__(self, items, ew, S, fam, xq, logw):
+        self.items, self.fam, self.xq, self.logw = items, fam, xq, logw
+        coo = S.tocoo()
+        self.item, self.rx, self.cnt = coo.row, coo.col, coo.data * ew[coo.row]
+        self.n_rx = S.shape[1]
+        nnz = self.item.size
+        self.M = sparse.csr_matrix((np.ones(nnz), (self.rx, np.arange(nnz))),
+                                   shape=(self.n_rx, nnz))
+
+    def set_nodes(self, c, d):
+        """Receiver centres ``c`` and scales ``d`` (R,) [dB]."""
+        self.m = c[:, None] + d[:, None] * self.xq[None, :]  # (R, Q)
+        # the normal constants of phi(z) and 1/phi(x_q) cancel
+        self.const = self.logw[None, :] + 0.5 * self.xq[None, :] ** 2 + np.log(d)[:, None]
+
+    def grid_posterior(self, mu, sigma, s_u, half_range=12.0, step=0.1):
+        """Posterior mean and SD (R,) of ``mu + u_r`` on a fine grid [dB], at one
+        parameter set: the first centres and scales of the nodes."""
+        grid = mu + np.arange(-half_range, half_range + step / 2, step)
+        saved = self.m, self.xq
+        self.m = np.broadcast_to(grid, (self.n_rx, grid.size))
+        self.xq = grid
+        try:
+            a = self.data_terms(np.array([float(sigma)]), False)[0][0]  # (R, G)
+        finally:
+            self.m, self.xq = saved
+        a = np.where(np.isnan(a), -np.inf, a) - 0.5 * ((grid - mu) / s_u) ** 2
+        p = np.exp(a - special.logsumexp(a, axis=1, keepdims=True))
+        c = p @ grid
+        d = np.sqrt(np.maximum(p @ grid ** 2 - c ** 2, (step / 2) ** 2))
+        return c, d
+
+    def data_terms(self, sigma, need_derivs):
+        """Sum over each receiver's items of the log-probabilities at its nodes, (B, R, Q),
+        and with derivatives their first and second derivative in ``sigma``."""
+        lo, hi, point, tau2, _kind = self.items
+        q = self.xq.size
+        mq = self.m[self.rx]  # (nnz, Q)
+        lo_e = (lo[self.item][:, None] - mq).ravel()
+        hi_e = (hi[self.item][:, None] - mq).ravel()
+        pt = np.repeat(point[self.item], q)
+        t2 = np.repeat(tau2[self.item], q)
+        b = sigma.size
+        res = _interval_terms(np.zeros(b), sigma, lo_e, hi_e, pt, t2, self.fam, need_derivs)
+        parts = (res[0], res[2], res[5]) if need_derivs else (res,)
+        w = np.repeat(self.cnt, q)[None, :]
+        out = []
+        for j, a in enumerate(parts):
+            a = a * w if j == 0 else np.nan_to_num(a * w)
+            a = a.reshape(b, -1, q).transpose(1, 0, 2).reshape(self.item.size, b * q)
+            out.append(np.asarray(self.M @ a).reshape(self.n_rx, b, q).transpose(1, 0, 2))
+        return out
 
 
-def _evaluate(x, items, ew, St, fam, xq, logw, wr, need_derivs):
-    """Total log-likelihood (B,) with receiver weights ``wr`` (B, R); with derivatives
-    its gradient and Hessian; always the pair-weighted mean posterior ``u``."""
-    outs = []
+def _evaluate(x, rec, wr, need_derivs):
+    """Total log-likelihood (B,) at ``x`` (B, 3) = (mu, sigma, s_u) with receiver weights
+    ``wr`` (B, R); the posterior mean of ``mu + u_r`` (B, R) and its SD; with derivatives
+    also the gradient (B, 3) and Hessian (B, 3, 3)."""
+    ll_out, em_out, sd_out, g_out, h_out = [], [], [], [], []
     for i in range(0, x.shape[0], _CHUNK):
-        sl = slice(i, i + _CHUNK)
-        outs.append(_per_receiver(x[sl], items, ew, St, fam, xq, logw, need_derivs))
-    lse = np.concatenate([o[0] for o in outs])
-    eu = np.concatenate([o[1] for o in outs])
-    w = np.where(wr > 0, wr, 0.0)
-    with np.errstate(invalid="ignore"):
-        ll = np.sum(np.where(w > 0, w * lse, 0.0), axis=1)
+        xs, w = x[i:i + _CHUNK], np.where(wr[i:i + _CHUNK] > 0, wr[i:i + _CHUNK], 0.0)
+        parts = rec.data_terms(xs[:, 1], need_derivs)
+        su = np.abs(xs[:, 2])[:, None, None]
+        z = (rec.m[None, :, :] - xs[:, 0][:, None, None]) / su
+        a = parts[0] + rec.const[None] - 0.5 * z * z - np.log(su)
+        a = np.where(np.isnan(a), -np.inf, a)
+        lse = special.logsumexp(a, axis=2)  # (B, R)
+        with np.errstate(invalid="ignore"):
+            p = np.nan_to_num(np.exp(a - lse[..., None]))
+        em = np.einsum("brq,rq->br", p, rec.m)
+        var = np.einsum("brq,rq->br", p, rec.m ** 2) - em ** 2
+        ll_out.append(np.sum(np.where(w > 0, w * lse, 0.0), axis=1))
+        em_out.append(em)
+        sd_out.append(np.sqrt(np.maximum(var, 0.0)))
+        if not need_derivs:
+            continue
+        zero = np.zeros_like(z)
+        g = np.stack([z / su, parts[1], (z * z - 1) / su], axis=-1)  # (B, R, Q, 3)
+        h = np.empty(g.shape + (3,))
+        h[..., 0, 0] = -1.0 / su ** 2 + zero
+        h[..., 1, 1] = parts[2]
+        h[..., 2, 2] = (1 - 3 * z * z) / su ** 2
+        h[..., 0, 1] = h[..., 1, 0] = h[..., 1, 2] = h[..., 2, 1] = 0.0
+        h[..., 0, 2] = h[..., 2, 0] = -2 * z / su ** 2
+        gbar = np.einsum("brq,brqk->brk", p, g)
+        hr = (np.einsum("brq,brqkl->brkl", p, h + g[..., :, None] * g[..., None, :])
+              - gbar[..., :, None] * gbar[..., None, :])
+        g_out.append(np.einsum("br,brk->bk", w, gbar))
+        h_out.append(np.einsum("br,brkl->bkl", w, hr))
+    ll, em, sd = np.concatenate(ll_out), np.concatenate(em_out), np.concatenate(sd_out)
     if not need_derivs:
-        return ll, eu
-    grad = np.einsum("br,brk->bk", w, np.concatenate([o[2] for o in outs]))
-    hess = np.einsum("br,brkl->bkl", w, np.concatenate([o[3] for o in outs]))
-    return ll, eu, grad, hess
+        return ll, em, sd
+    return ll, em, sd, np.concatenate(g_out), np.concatenate(h_out)
+
+
+def _newton(x, rec, w, sigma_floor, max_iter, tol):
+    """Batch Newton ascent from ``x`` (modified); returns (x, loglik, converged)."""
+    b = x.shape[0]
+    active = np.all(np.isfinite(x), axis=1)
+    done = np.zeros(b, bool)
+    ll_cur = np.full(b, np.nan)
+    eye = np.eye(3)
+    for _ in range(max_iter):
+        idx = np.nonzero(active)[0]
+        if idx.size == 0:
+            break
+        x0 = x[idx]
+        ll, _em, _sd, grad, hess = _evaluate(x0, rec, w[idx], True)
+        step = _newton_step(hess, grad, eye)
+        t = np.ones(idx.size)
+        with np.errstate(invalid="ignore", divide="ignore"):
+            for j, floor in ((1, sigma_floor), (2, 1e-3)):
+                sg = step[:, j]
+                t = np.where(sg < 0, np.minimum(t, 0.9 * (x0[:, j] - 0.5 * floor) / -sg), t)
+        t = np.maximum(t, 0.0)
+        accepted = np.zeros(idx.size, bool)
+        xn, ll_new_all = x0.copy(), ll.copy()
+        for _half in range(40):
+            todo = np.nonzero(~accepted)[0]
+            if todo.size == 0:
+                break
+            c = x0[todo] + t[todo, None] * step[todo]
+            c[:, 1] = np.maximum(c[:, 1], sigma_floor)
+            c[:, 2] = np.maximum(c[:, 2], 1e-3)
+            ll_new = _evaluate(c, rec, w[idx[todo]], False)[0]
+            ok = np.isfinite(ll_new) & (ll_new >= ll[todo] - 1e-12 * np.abs(ll[todo]))
+            xn[todo[ok]] = c[ok]
+            ll_new_all[todo[ok]] = ll_new[ok]
+            accepted[todo[ok]] = True
+            t[todo[~ok]] *= 0.5
+        scale = np.c_[1 + np.abs(x0[:, 0]), x0[:, 1], 1 + np.abs(x0[:, 2])]
+        moved = np.max(np.abs(xn - x0) / scale, axis=1)
+        x[idx] = xn
+        ll_cur[idx] = ll_new_all
+        small = (moved < tol) | ~accepted
+        diverged = (np.abs(xn) > 1e6).any(axis=1) | ~np.isfinite(ll_new_all)
+        done[idx[small & ~diverged]] = True
+        active[idx[small | diverged]] = False
+    return x, ll_cur, done & np.isfinite(ll_cur)
 
 
 def receiver_effects_mle_batch(values, kinds, counts, weights, *, start_mu, start_sigma,
@@ -123,7 +213,8 @@ def receiver_effects_mle_batch(values, kinds, counts, weights, *, start_mu, star
                                tau_db: float = 0.0, df: float = np.inf,
                                exact_weight: float = 1.0,
                                sigma_floor: float = SIGMA_FLOOR_DB, n_nodes: int = N_NODES,
-                               max_iter: int = 100, tol: float = 1e-8) -> dict:
+                               max_iter: int = 100, tol: float = 1e-8,
+                               adapt_rounds: int = 4) -> dict:
     """The receiver random-effects fit, one per row of ``weights`` (cluster weights).
 
     Parameters
@@ -144,6 +235,10 @@ def receiver_effects_mle_batch(values, kinds, counts, weights, *, start_mu, star
         Gauss-Hermite nodes over the receiver effect.
     max_iter, tol :
         Newton iterations and the relative change that stops them.
+    adapt_rounds : int
+        Most refits of the unit-weight data used to centre each receiver's nodes on its
+        posterior (adaptive quadrature); the rows of ``weights`` are then fitted with
+        those nodes.
 
     Returns
     -------
@@ -180,62 +275,38 @@ def receiver_effects_mle_batch(values, kinds, counts, weights, *, start_mu, star
     _check_detection(half_width_db, tau_db, df, exact_weight)
     items = _detection_items(v, k, half_width_db, tau_db)
     ew = np.where(k == 0, float(exact_weight), 1.0)
-    St = S.T.tocsr()
-    fam = _family(df)
     xq, logw = _nodes(n_nodes)
+    rec = _Receivers(items, ew, S, _family(df), xq, logw)
     b = w.shape[0]
     x = np.empty((b, 3))
     x[:, 0] = np.broadcast_to(np.asarray(start_mu, float), b)
     x[:, 1] = np.maximum(np.broadcast_to(np.asarray(start_sigma, float), b), sigma_floor)
-    x[:, 2] = np.broadcast_to(np.asarray(start_s_u, float), b)
-    active = np.all(np.isfinite(x), axis=1)
-    done = np.zeros(b, bool)
-    ll_cur = np.full(b, np.nan)
-    eye = np.eye(3)
-    for _ in range(max_iter):
-        idx = np.nonzero(active)[0]
-        if idx.size == 0:
+    x[:, 2] = np.maximum(np.broadcast_to(np.asarray(start_s_u, float), b), 1e-3)
+    n_r = np.asarray(S.sum(axis=0)).ravel()
+    # nodes centred on each receiver's posterior: first from the start (wide, then the
+    # posterior there), refitted until the centres settle (adaptive quadrature)
+    x1 = x[:1].copy()
+    one = np.ones((1, S.shape[1]))
+    rec.set_nodes(np.zeros(S.shape[1]), np.ones(S.shape[1]))
+    c, d = rec.grid_posterior(x1[0, 0], x1[0, 1], x1[0, 2])
+    c, d = c[None, :], d[None, :]
+    for _round in range(adapt_rounds):
+        rec.set_nodes(c[0], np.maximum(d[0], 1e-3))
+        x1, _ll, _ok = _newton(x1, rec, one, sigma_floor, max_iter, tol)
+        _ll, c_new, d_new = _evaluate(x1, rec, one, False)
+        settled = np.max(np.abs(c_new[0] - c[0]) / np.maximum(d[0], 1e-3)) < 0.05
+        c, d = c_new, d_new
+        if settled:
             break
-        x0 = x[idx]
-        ll, _eu, grad, hess = _evaluate(x0, items, ew, St, fam, xq, logw, w[idx], True)
-        step = _newton_step(hess, grad, eye)
-        t = np.ones(idx.size)
-        with np.errstate(invalid="ignore", divide="ignore"):
-            sg = step[:, 1]
-            t = np.where(sg < 0, np.minimum(t, 0.9 * (x0[:, 1] - 0.5 * sigma_floor) / -sg), t)
-        t = np.maximum(t, 0.0)
-        accepted = np.zeros(idx.size, bool)
-        xn, ll_new_all = x0.copy(), ll.copy()
-        for _half in range(40):
-            todo = np.nonzero(~accepted)[0]
-            if todo.size == 0:
-                break
-            c = x0[todo] + t[todo, None] * step[todo]
-            c[:, 1] = np.maximum(c[:, 1], sigma_floor)
-            ll_new, _ = _evaluate(c, items, ew, St, fam, xq, logw, w[idx[todo]], False)
-            ok = np.isfinite(ll_new) & (ll_new >= ll[todo] - 1e-12 * np.abs(ll[todo]))
-            xn[todo[ok]] = c[ok]
-            ll_new_all[todo[ok]] = ll_new[ok]
-            accepted[todo[ok]] = True
-            t[todo[~ok]] *= 0.5
-        scale = np.c_[1 + np.abs(x0[:, 0]), x0[:, 1], 1 + np.abs(x0[:, 2])]
-        moved = np.max(np.abs(xn - x0) / scale, axis=1)
-        x[idx] = xn
-        ll_cur[idx] = ll_new_all
-        small = (moved < tol) | ~accepted
-        diverged = (np.abs(xn) > 1e6).any(axis=1) | ~np.isfinite(ll_new_all)
-        done[idx[small & ~diverged]] = True
-        active[idx[small | diverged]] = False
-    ok = done & np.isfinite(ll_cur)
-    _ll, eu = _evaluate(np.where(ok[:, None], x, 0.0), items, ew, St, fam, xq, logw, w,
-                        False)
-    n_r = np.asarray(S.sum(axis=0)).ravel()[None, :] * np.where(w > 0, w, 0.0)
-    shift = np.sum(n_r * eu, axis=1) / np.maximum(n_r.sum(axis=1), 1e-300)
+    rec.set_nodes(c[0], np.maximum(d[0], 1e-3))
+    x, ll_cur, ok = _newton(x, rec, w, sigma_floor, max_iter, tol)
+    _ll, em, _sd = _evaluate(np.where(ok[:, None], x, 1.0), rec, w, False)
+    wn = n_r[None, :] * np.where(w > 0, w, 0.0)
+    mu_pairs = np.sum(wn * em, axis=1) / np.maximum(wn.sum(axis=1), 1e-300)
     nan = np.full(b, np.nan)
     return dict(mu=np.where(ok, x[:, 0], nan), sigma=np.where(ok, x[:, 1], nan),
-                s_u=np.where(ok, np.abs(x[:, 2]), nan),
-                mu_pairs=np.where(ok, x[:, 0] + shift, nan), loglik=np.where(ok, ll_cur, nan),
-                converged=ok)
+                s_u=np.where(ok, x[:, 2], nan), mu_pairs=np.where(ok, mu_pairs, nan),
+                loglik=np.where(ok, ll_cur, nan), converged=ok)
 
 
 __all__ = ["N_NODES", "receiver_effects_mle_batch"]
