@@ -262,7 +262,9 @@ SLOW_BOOT = 50
 #: the estimate ``mu`` plus the pair-weighted mean of the receivers' posterior effects,
 #: i.e. the mean over the pairs). On this regime it gave -0.023 +- 0.006 dB (15 runs,
 #: seeds 5000+, default -0.055 +- 0.008 on the same runs), whole dB / soft threshold with
-#: A 7 dB below B within 0.01 dB of the default; :func:`test_receiver_effects_bias_where_
+#: A 7 dB below B within 0.01 dB of the default, heavy tails t3 with A 7 dB below B
+#: -0.013 (default -0.018, 10 runs); large cell -0.023 +- 0.003 dB (default -0.061 +-
+#: 0.006, 9 runs, seeds 7000+, point estimates); :func:`test_receiver_effects_bias_where_
 #: receivers_differ` checks it. It is not the default (about 5 times slower, no
 #: missed-report share, not measured over the 200-run study), so the xfails stay.
 HETERO_APART = "receiver heterogeneity, A 7 dB below B"
