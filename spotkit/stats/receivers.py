@@ -52,8 +52,10 @@ from spotkit.stats.censored import (
     _newton_step,
 )
 
-#: Gauss-Hermite nodes over the receiver effect (probabilists' Hermite polynomials)
-N_NODES = 15
+#: Gauss-Hermite nodes over the receiver effect (probabilists' Hermite polynomials; with
+#: the adaptive centring 9 and 15 nodes gave the same estimate and interval to 1e-8 dB on
+#: a 7,000-pair run, 5 nodes to 1e-6 dB)
+N_NODES = 9
 #: rows of the batch evaluated at once (memory: rows x nodes x items doubles, x6)
 _CHUNK = 8
 
