@@ -105,7 +105,8 @@ def population_truth(regime: str, n_far: int = 15000, n_slots: int = 40,
 
 
 def run_once(regime: str, seed: int, n_boot: int = 200, confidence: float = 0.95,
-             interval: str = "percentile", tau_from: str = "pairs") -> dict:
+             interval: str = "percentile", tau_from: str = "pairs",
+             model: str = "detection") -> dict:
     """One run of a regime: generate, compare, check against the truth.
 
     Returns
@@ -120,7 +121,7 @@ def run_once(regime: str, seed: int, n_boot: int = 200, confidence: float = 0.95
     pop = population_truth(regime)
     res = compare_antennas(spots, "simultaneous", heldout.CALL_A, heldout.CALL_B,
                            n_boot=n_boot, seed=seed, confidence=confidence,
-                           interval=interval, tau_from=tau_from)
+                           interval=interval, tau_from=tau_from, model=model)
     o = res.overall
     lo, hi = float(o["ci_low_db"]), float(o["ci_high_db"])
     return {"regime": regime, "seed": seed, "pairs": int(o["pairs"]), "population_db": pop,
@@ -131,13 +132,15 @@ def run_once(regime: str, seed: int, n_boot: int = 200, confidence: float = 0.95
 
 def run_regime(regime: str, runs: int, n_boot: int = 200, first_seed: int = 1000,
                confidence: float = 0.95, interval: str = "percentile",
-               tau_from: str = "pairs") -> pd.DataFrame:
+               tau_from: str = "pairs", model: str = "detection") -> pd.DataFrame:
     """``runs`` independent runs of one regime (seeds ``first_seed`` and up); ``interval``:
     the bootstrap interval of :func:`spotkit.compare_antennas` ("percentile", its default,
     or "normal", which needs far fewer resamples); ``tau_from``: where the detection
-    width comes from ("pairs", the default, or "reports", the earlier fit)."""
+    width comes from ("pairs", the default, or "reports", the earlier fit); ``model``: the
+    estimator ("detection", the default, or "receiver-effects", the random effect per
+    receiver)."""
     return pd.DataFrame([run_once(regime, first_seed + i, n_boot, confidence, interval,
-                                  tau_from) for i in range(runs)])
+                                  tau_from, model) for i in range(runs)])
 
 
 def summarise(runs: pd.DataFrame, confidence: float = 0.95) -> pd.DataFrame:
@@ -203,6 +206,9 @@ def main(argv=None) -> int:
     ap.add_argument("--tau-from", choices=("pairs", "reports"), default="pairs",
                     help="detection width from the paired reports (default) or from the "
                     "receivers' report histograms (the earlier estimator: before/after)")
+    ap.add_argument("--model", choices=("detection", "receiver-effects"),
+                    default="detection", help="estimator: the pooled detection model "
+                    "(default) or the opt-in random effect per receiver (slower)")
     ap.add_argument("--first-seed", type=int, default=1000, help="seed of the first run")
     ap.add_argument("--csv", help="also write every run to this CSV")
     ap.add_argument("--from-csv", help="only summarise the runs saved in this CSV")
@@ -228,7 +234,8 @@ def main(argv=None) -> int:
         n = args.large_runs if name == LARGE else args.runs
         t1 = time.perf_counter()
         frames.append(run_regime(name, n, n_boot=args.boot, first_seed=args.first_seed,
-                                 interval=args.interval, tau_from=args.tau_from))
+                                 interval=args.interval, tau_from=args.tau_from,
+                                 model=args.model))
         s = summarise(frames[-1]).iloc[0]
         print(f"  {name}: {n} runs in {time.perf_counter() - t1:.0f} s, bias "
               f"{s['bias_db']:+.3f} dB, coverage {100 * s['coverage']:.1f} %", file=sys.stderr)
@@ -237,7 +244,7 @@ def main(argv=None) -> int:
     runs = pd.concat(frames, ignore_index=True)
     print(format_table(summarise(runs)))
     print(f"\n{len(runs)} runs, {args.boot} bootstrap resamples each ({args.interval}), "
-          f"detection width from the {args.tau_from}, "
+          f"detection width from the {args.tau_from}, model {args.model}, "
           f"{time.perf_counter() - t0:.0f} s")
     return 0
 

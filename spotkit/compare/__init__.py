@@ -11,6 +11,7 @@ from spotkit.compare.beforeafter import (
 from spotkit.compare.cells import DEFAULT_BLOCK_HOURS, block_clusters, estimate_cells
 from spotkit.compare.elevation import CURVE_COLUMNS, bearing_curve, elevation_curve
 from spotkit.compare.estimate import (
+    DETECTION_MODELS,
     INTERVALS,
     MAX_FAILED_SHARE,
     MIN_CLUSTERS,
@@ -97,7 +98,7 @@ __all__ = [
     "reach_summary", "reach_by_bearing", "heard_by_distance", "MIN_CLUSTERS",
     "MAX_FAILED_SHARE", "P_FLOOR", "format_p_value", "too_little_data",
     "DEFAULT_BLOCK_HOURS", "block_clusters", "estimate_cells", "heard_probability",
-    "MODELS", "TAIL_DFS", "TAILS", "INTERVALS",
+    "MODELS", "DETECTION_MODELS", "TAIL_DFS", "TAILS", "INTERVALS",
     "default_detection", "T50_ERROR_DB", "TAU_FACTORS", "TAU_FACTORS_SET",
     "THRESHOLD_METHODS", "MULTI_DESIGNS", "MULTI_COLUMNS", "MultiResult", "compare_several",
     "parse_antennas", "CURVE_COLUMNS", "elevation_curve", "bearing_curve", "SERIES_COLUMNS",

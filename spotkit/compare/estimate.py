@@ -173,16 +173,21 @@ from spotkit.compare.width import PAIRED_DESIGNS, WIDTH_FROM, WidthFrom, width_f
 from spotkit.errors import NoPairsError, UsageError
 from spotkit.stats.detection import DEFAULT_TAU_DB
 from spotkit.stats.paired import cluster_medians
+from spotkit.stats.receivers import receiver_effects_mle_batch
 
 _KIND_CODE = {"both": 0, "only_a": 1, "only_b": -1, "edge_a": 2, "edge_b": -2}
 ThresholdCorrection = Literal["edge", "none"]
 THRESHOLD_CORRECTIONS = ("edge", "none")
 MissedReports = Literal["fit", "none"]
 MISSED_REPORTS = ("fit", "none")
-Model = Literal["detection", "tobit"]
+Model = Literal["detection", "tobit", "receiver-effects"]
 #: "detection": soft detection curve, whole-dB intervals, tails chosen by the data and a
-#: systematic part (default); "tobit": the earlier model (points, hard limits, normal)
-MODELS = ("detection", "tobit")
+#: systematic part (default); "tobit": the earlier model (points, hard limits, normal);
+#: "receiver-effects" (opt-in): the detection model with a random effect per receiver
+#: (cluster), summarised as the mean over the pairs (:mod:`spotkit.stats.receivers`)
+MODELS = ("detection", "tobit", "receiver-effects")
+#: the models that use the detection curve (50 % points, fitted width)
+DETECTION_MODELS = ("detection", "receiver-effects")
 #: Student t degrees of freedom the data may choose instead of the normal (inf)
 TAIL_DFS = (np.inf, 10.0, 5.0, 3.0)
 Tails = Literal["auto", "normal"]
@@ -380,6 +385,13 @@ def _detection_method_text(det, use_mix, use_edge, confidence, cluster_label, n_
         "the bootstrap SE after moving the estimate towards 0 by the systematic part")
 
 
+_EFFECTS_TEXT = (
+    "; receiver-effects model: B-A = mu + u per {0} (normal, SD fitted, integrated out by "
+    "Gauss-Hermite quadrature) + the pair's term; the estimate is mu plus the pair-weighted "
+    "mean of the {0}s' posterior mean u (the mean B-A over the pairs), refitted in every "
+    "resample, without a missed-report share (groups with one {0}: the pooled fit); the "
+    "systematic part is the pooled fit's")
+
 _INTERVAL_TEXT = {"percentile": "percentile", "normal": "normal-approximation (bootstrap SE)"}
 
 
@@ -467,11 +479,18 @@ def estimate_groups(counts: pd.DataFrame, *, n_boot: int = 1000, seed: int = 0,
         (:func:`spotkit.stats.censored.censored_mixture_mle`); an edge correction then counts
         only the one-sided pairs the censored normal explains. ``"none"``: the plain
         censored-normal fit.
-    model : {"detection", "tobit"}
+    model : {"detection", "tobit", "receiver-effects"}
         ``"detection"`` (default): the detection model of the module docstring (soft
         limits, whole-dB intervals, tails chosen by the data, systematic part);
         ``"tobit"``: the earlier censored-normal fit of points with hard limits (for
-        comparison; its ``C.SYSTEMATIC`` is 0).
+        comparison; its ``C.SYSTEMATIC`` is 0); ``"receiver-effects"`` (opt-in): the
+        detection model with a normal random effect per cluster
+        (:func:`spotkit.stats.receivers.receiver_effects_mle_batch`), the estimate being
+        the mean B-A over the group's pairs (``mu`` plus the pair-weighted mean of the
+        clusters' posterior mean effects), refitted in every bootstrap resample; no
+        missed-report share, no threshold correction; the tails (normal or t) and
+        ``C.SIGMA`` and ``C.SYSTEMATIC`` are the pooled fit's; groups with one cluster
+        get the pooled fit.
     detection : dict, optional
         The detection model: ``tau_db`` [dB], ``whole_db`` (bool) and ``alternatives``
         (list of dicts with ``label``, ``tau_db``, ``shift_db``), as
@@ -540,6 +559,9 @@ def estimate_groups(counts: pd.DataFrame, *, n_boot: int = 1000, seed: int = 0,
     check_choice(tails, TAILS, "tails")
     check_choice(interval, INTERVALS, "interval")
     use_mix = missed_reports == "fit"
+    if model == "receiver-effects" and threshold_correction == "edge":
+        raise UsageError("the receiver-effects model takes no threshold correction: use "
+                         "threshold_correction='none' (the default)")
     if int(n_boot) < 2:
         raise UsageError(f"n_boot must be at least 2, got {n_boot}")
     missing = [c for c in _META if c not in counts.columns]
@@ -589,7 +611,7 @@ def estimate_groups(counts: pd.DataFrame, *, n_boot: int = 1000, seed: int = 0,
             C.P_WILCOXON, C.P_SIGN, C.P_MCNEMAR, C.SIGMA, C.CORRECTION, C.CI_STAT_LOW,
             C.CI_STAT_HIGH, C.SYSTEMATIC, C.TAIL_DF]}
     det = None
-    if model == "detection":
+    if model in DETECTION_MODELS:
         det = _detection_settings(detection if detection is not None else
                                   counts.attrs.get("detection"),
                                   it_v[np.abs(it_k) <= 1][it_k[np.abs(it_k) <= 1] == 0],
@@ -634,6 +656,21 @@ def estimate_groups(counts: pd.DataFrame, *, n_boot: int = 1000, seed: int = 0,
         out[C.TAIL_DF][g] = fitter.df
         out[C.SYSTEMATIC][g] = fitter.systematic(v, k, t, fit.mu)
         single = clusters_per_group[g] < 2
+        effects = model == "receiver-effects" and not single
+        if effects:  # the receiver random-effects fit, summarised over the pairs
+            s_g = S[sl][np.flatnonzero(pm)]
+            cols = np.flatnonzero(np.asarray(s_g.sum(axis=0)).ravel() > 0)
+            s_g = s_g[:, cols]
+            rfx = dict(half_width_db=det["half_width_db"], tau_db=det["tau_db"],
+                       df=fitter.df, exact_weight=PAIRED_EXACT_WEIGHT)
+            scale = fit.sigma / fitter._sd()
+            r0 = receiver_effects_mle_batch(v, k, s_g, np.ones((1, cols.size)),
+                                            start_mu=fit.mu, start_sigma=scale, **rfx)
+            if not np.isfinite(r0["mu_pairs"][0]):
+                notes[g] = "no estimate: the receiver-effects fit did not converge"
+                out[C.B_MINUS_A][g] = np.nan
+                continue
+            out[C.B_MINUS_A][g] = float(r0["mu_pairs"][0])
         if not single:
             wb_all = np.asarray((S[sl] @ WT).T)  # (n_boot, K)
             wb = wb_all[:, pm]
@@ -645,8 +682,14 @@ def estimate_groups(counts: pd.DataFrame, *, n_boot: int = 1000, seed: int = 0,
             heard_b = wb[:, k == 0].sum(1) + wb[:, k == -1].sum(1)
             ea_b = e_a * heard_a / max(n_both[g] + n_a[g], 1)
             eb_b = e_b * heard_b / max(n_both[g] + n_b[g], 1)
-        mu_b, sig_b, pa_b, pb_b = fitter.batch(v, k, wb)
-        if use_edge:
+        if effects:
+            rb = receiver_effects_mle_batch(
+                v, k, s_g, W[:, cols], start_mu=r0["mu"][0], start_sigma=r0["sigma"][0],
+                start_s_u=r0["s_u"][0], **rfx)
+            mu_b = rb["mu_pairs"]
+        else:
+            mu_b, sig_b, pa_b, pb_b = fitter.batch(v, k, wb)
+        if use_edge and not effects:
             na_b, nb_b = _explained(v, k, wb, mu_b, sig_b, pa_b, pb_b)
             mu_b = mu_b + edge_correction(sig_b, wb[:, k == 0].sum(1), na_b, nb_b, ea_b,
                                           eb_b)
@@ -689,6 +732,8 @@ def estimate_groups(counts: pd.DataFrame, *, n_boot: int = 1000, seed: int = 0,
     if det is not None:
         res[C.METHOD] = _detection_method_text(det, use_mix, use_edge, confidence,
                                                cluster_label, n_boot, tails, interval)
+        if model == "receiver-effects":
+            res[C.METHOD] = res[C.METHOD] + _EFFECTS_TEXT.format(cluster_label.rstrip("s"))
         res[C.NOTE] = notes
         return (res, reps) if return_replicates else res
     res[C.METHOD] = (
@@ -1135,11 +1180,14 @@ def compare_antennas(spots: pd.DataFrame, design: Design, a: str, b: str | None 
         Before-after design: the "days" resampled for the day-to-day part of the interval
         are blocks of this many hours from 00:00 UTC [h] (24: UTC dates). A period needs
         two of them for an interval (module docstring).
-    model : {"detection", "tobit"}
+    model : {"detection", "tobit", "receiver-effects"}
         ``"detection"`` (default): receiver thresholds at the 50 % point of a fitted
         detection curve and the detection-model fit with its systematic part
         (:func:`estimate_groups`); ``"tobit"``: the earlier model (lowest report as a hard
-        threshold, censored normal of points), for comparison.
+        threshold, censored normal of points), for comparison; ``"receiver-effects"``
+        (opt-in): the detection model with a random effect per receiver, estimating the
+        mean B-A over the pairs when B-A varies between receivers
+        (:func:`estimate_groups`).
     tau_db : float, optional
         Width of the decoders' detection curve [dB]; fitted when None (``tau_from``).
     interval : {"percentile", "normal"}
@@ -1209,9 +1257,9 @@ def compare_antennas(spots: pd.DataFrame, design: Design, a: str, b: str | None 
     check_choice(tau_from, WIDTH_FROM, "tau_from")
     pairs = pair_spots(spots, design, a, b, schedule=schedule, change_at=change_at,
                        window_slots=window_slots, require_open_path=require_open_path,
-                       threshold_method="t50" if model == "detection" else "lowest",
+                       threshold_method="t50" if model in DETECTION_MODELS else "lowest",
                        tau_db=tau_db)
-    if (model == "detection" and tau_db is None and tau_from == "pairs"
+    if (model in DETECTION_MODELS and tau_db is None and tau_from == "pairs"
             and design in PAIRED_DESIGNS):
         pairs, _ = width_from_pairs(spots, pairs, design, a, b)
     set_aside = dict(pairs.attrs.get("set_aside", {}))
@@ -1265,7 +1313,8 @@ def compare_antennas(spots: pd.DataFrame, design: Design, a: str, b: str | None 
 
 
 __all__ = [
-    "RESULT_COLUMNS", "THRESHOLD_CORRECTIONS", "MISSED_REPORTS", "MODELS", "TAIL_DFS", "TAILS",
+    "RESULT_COLUMNS", "THRESHOLD_CORRECTIONS", "MISSED_REPORTS", "MODELS", "DETECTION_MODELS",
+    "TAIL_DFS", "TAILS",
     "INTERVALS",
     "ComparisonResult", "compare_antennas", "default_detection", "edge_correction",
     "estimate_groups", "group_label", "verdict",

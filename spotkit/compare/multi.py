@@ -57,7 +57,13 @@ import pandas as pd
 from spotkit import columns as C
 from spotkit import stats
 from spotkit._validate import check_choice, check_confidence
-from spotkit.compare.estimate import MissedReports, Model, estimate_groups, format_p_value
+from spotkit.compare.estimate import (
+    DETECTION_MODELS,
+    MissedReports,
+    Model,
+    estimate_groups,
+    format_p_value,
+)
 from spotkit.compare.grouping import summarise_pairs
 from spotkit.compare.pairing import pair_spots, receiver_thresholds
 from spotkit.compare.width import WIDTH_FROM, WidthFrom, width_from_pairs
@@ -313,7 +319,7 @@ def compare_several(spots: pd.DataFrame, design: MultiDesign, antennas, *,
         pairs_list.append((u, v))
     pairs_list.sort(key=lambda p: (p[0] != ref, labels.index(p[0]), labels.index(p[1])))
     paired, set_aside = {}, {}
-    method = "t50" if model == "detection" else "lowest"
+    method = "t50" if model in DETECTION_MODELS else "lowest"
     thr = receiver_thresholds(spots, method=method, tau_db=tau_db)  # once for all contrasts
     for u, v in pairs_list:
         kw = dict(require_open_path=require_open_path, tau_db=tau_db,
@@ -326,7 +332,7 @@ def compare_several(spots: pd.DataFrame, design: MultiDesign, antennas, *,
                 p = pair_spots(spots, design, u, v, **kw)
         except NoPairsError:
             p = None
-        if (p is not None and len(p) and model == "detection" and tau_db is None
+        if (p is not None and len(p) and model in DETECTION_MODELS and tau_db is None
                 and tau_from == "pairs"):
             owners = (call, call) if design == "alternating" else (u, v)
             p, _ = width_from_pairs(spots, p, design, *owners)

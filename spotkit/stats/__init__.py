@@ -40,6 +40,7 @@ from spotkit.stats.paired import (
     wilcoxon_signed_rank,
     wilson_interval,
 )
+from spotkit.stats.receivers import N_NODES, receiver_effects_mle_batch
 from spotkit.stats.simultaneous import max_t
 
 __all__ = [
@@ -52,4 +53,5 @@ __all__ = [
     "DEFAULT_TAU_DB", "ROUNDINGS", "TAU_GRID_DB", "fit_thresholds", "fit_tau",
     "INTERVAL_METHODS", "DRAWS", "cluster_bootstrap_weights",
     "stratified_bootstrap_weights", "bootstrap_interval", "bootstrap_p_value", "max_t",
+    "N_NODES", "receiver_effects_mle_batch",
 ]

@@ -1,0 +1,319 @@
+"""The censored paired fit with a random effect per receiver (cluster).
+
+The pooled fit (:func:`spotkit.stats.censored.interval_censored_mle_batch`) treats every
+pair's difference as one law ``N(mu, sigma^2)``. When the difference varies between
+receivers and one antenna is much weaker, which pairs are one-sided depends on the
+receiver's own mean, and the pooled ``mu`` lands on a blend of the means over the pairs
+in which A was heard and those in which B was heard - not on the mean over the pairs in
+the data. Here a pair ``j`` of receiver ``r`` has latent difference
+``x_j = mu + u_r + e_j`` with ``u_r ~ N(0, s_u^2)`` and ``e_j`` under the same item
+likelihood as the pooled fit (whole-dB intervals, the detection curve's softened bounds,
+normal or Student t tails, both-heard items weighted by ``exact_weight``); ``u_r`` is
+integrated out per receiver by adaptive Gauss-Hermite quadrature (:data:`N_NODES` nodes
+centred on each receiver's posterior of ``mu + u_r``: a receiver with dozens of pairs
+has a posterior several times narrower than ``s_u``, which fixed nodes miss; the
+centres come from a 0.1-dB grid at the starting values, then from refits of the data).
+Maximised by Newton's method with analytic derivatives, all bootstrap rows at once
+(the nodes of the unit-weight fit are kept for the rows). The summary that matches "the
+mean B-A over the pairs in the data" is
+
+``mu_pairs = mu + sum_r n_r E[u_r | data] / sum_r n_r``
+
+(``n_r`` the receiver's pairs, ``E[u_r | data]`` its posterior mean under the fitted
+``s_u``): ``mu`` alone is the mean over receivers, each counted once.
+
+With ``exact_weight`` 2 (the paired composite likelihood, see
+:mod:`spotkit.compare.estimate`) a both-heard pair's density counts twice inside each
+receiver's integral, so the posterior of ``u_r`` is somewhat narrower than a full
+likelihood's; the point of the weight is the composite likelihood's balance of "B given
+A heard" and "A given B heard", kept here unchanged. No missed-report share.
+
+References
+----------
+.. [1] J. C. Pinheiro and D. M. Bates, "Approximations to the log-likelihood function in
+   the nonlinear mixed-effects model", J. Comput. Graph. Stat. 4(1):12-35, 1995
+   (Gauss-Hermite quadrature over a random effect; citation from memory).
+.. [2] G. K. Robinson, "That BLUP is a good thing: the estimation of random effects",
+   Statistical Science 6(1):15-32, 1991 (posterior means of random effects; citation
+   from memory).
+"""
+from __future__ import annotations
+
+import numpy as np
+from scipy import sparse, special
+
+from spotkit.errors import UsageError
+from spotkit.stats.censored import (
+    SIGMA_FLOOR_DB,
+    _check_detection,
+    _detection_items,
+    _family,
+    _interval_terms,
+    _newton_step,
+)
+
+#: Gauss-Hermite nodes over the receiver effect (probabilists' Hermite polynomials; with
+#: the adaptive centring 9 and 15 nodes gave the same estimate and interval to 1e-8 dB on
+#: a 7,000-pair run, 5 nodes to 1e-6 dB)
+N_NODES = 9
+#: rows of the batch evaluated at once (memory: rows x nodes x items doubles, x6)
+_CHUNK = 8
+
+
+def _nodes(n):
+    x, w = np.polynomial.hermite_e.hermegauss(int(n))
+    return x, np.log(w / w.sum())
+
+
+class _Receivers:
+    """The items of each receiver at fixed quadrature points of ``m = mu + u``.
+
+    Adaptive quadrature: receiver ``r``'s nodes are ``m_rq = c_r + d_r x_q`` (``c_r``,
+    ``d_r``: an approximation of the posterior mean and SD of ``mu + u_r``), so that
+    ``integral f_r(m) phi((m - mu)/s_u)/s_u dm ~ sum_q w_q f_r(m_rq) phi((m_rq - mu)/s_u)
+    / s_u * d_r / phi(x_q)``. The item terms ``f_r(m_rq)`` depend on ``sigma`` alone; ``mu``
+    and ``s_u`` enter through the normal factor (analytic derivatives)."""
+
+    def __init__(self, items, ew, S, fam, xq, logw):
+        self.items, self.fam, self.xq, self.logw = items, fam, xq, logw
+        coo = S.tocoo()
+        self.item, self.rx, self.cnt = coo.row, coo.col, coo.data * ew[coo.row]
+        self.n_rx = S.shape[1]
+        nnz = self.item.size
+        self.M = sparse.csr_matrix((np.ones(nnz), (self.rx, np.arange(nnz))),
+                                   shape=(self.n_rx, nnz))
+
+    def set_nodes(self, c, d):
+        """Receiver centres ``c`` and scales ``d`` (R,) [dB]."""
+        self.m = c[:, None] + d[:, None] * self.xq[None, :]  # (R, Q)
+        # the normal constants of phi(z) and 1/phi(x_q) cancel
+        self.const = self.logw[None, :] + 0.5 * self.xq[None, :] ** 2 + np.log(d)[:, None]
+
+    def grid_posterior(self, mu, sigma, s_u, half_range=12.0, step=0.1):
+        """Posterior mean and SD (R,) of ``mu + u_r`` on a fine grid [dB], at one
+        parameter set: the first centres and scales of the nodes."""
+        grid = mu + np.arange(-half_range, half_range + step / 2, step)
+        saved = self.m, self.xq
+        self.m = np.broadcast_to(grid, (self.n_rx, grid.size))
+        self.xq = grid
+        try:
+            a = self.data_terms(np.array([float(sigma)]), False)[0][0]  # (R, G)
+        finally:
+            self.m, self.xq = saved
+        a = np.where(np.isnan(a), -np.inf, a) - 0.5 * ((grid - mu) / s_u) ** 2
+        p = np.exp(a - special.logsumexp(a, axis=1, keepdims=True))
+        c = p @ grid
+        d = np.sqrt(np.maximum(p @ grid ** 2 - c ** 2, (step / 2) ** 2))
+        return c, d
+
+    def data_terms(self, sigma, need_derivs):
+        """Sum over each receiver's items of the log-probabilities at its nodes, (B, R, Q),
+        and with derivatives their first and second derivative in ``sigma``."""
+        lo, hi, point, tau2, _kind = self.items
+        q = self.xq.size
+        mq = self.m[self.rx]  # (nnz, Q)
+        lo_e = (lo[self.item][:, None] - mq).ravel()
+        hi_e = (hi[self.item][:, None] - mq).ravel()
+        pt = np.repeat(point[self.item], q)
+        t2 = np.repeat(tau2[self.item], q)
+        b = sigma.size
+        res = _interval_terms(np.zeros(b), sigma, lo_e, hi_e, pt, t2, self.fam, need_derivs)
+        parts = (res[0], res[2], res[5]) if need_derivs else (res,)
+        w = np.repeat(self.cnt, q)[None, :]
+        out = []
+        for j, a in enumerate(parts):
+            a = a * w if j == 0 else np.nan_to_num(a * w)
+            a = a.reshape(b, -1, q).transpose(1, 0, 2).reshape(self.item.size, b * q)
+            out.append(np.asarray(self.M @ a).reshape(self.n_rx, b, q).transpose(1, 0, 2))
+        return out
+
+
+def _evaluate(x, rec, wr, need_derivs):
+    """Total log-likelihood (B,) at ``x`` (B, 3) = (mu, sigma, s_u) with receiver weights
+    ``wr`` (B, R); the posterior mean of ``mu + u_r`` (B, R) and its SD; with derivatives
+    also the gradient (B, 3) and Hessian (B, 3, 3)."""
+    ll_out, em_out, sd_out, g_out, h_out = [], [], [], [], []
+    for i in range(0, x.shape[0], _CHUNK):
+        xs, w = x[i:i + _CHUNK], np.where(wr[i:i + _CHUNK] > 0, wr[i:i + _CHUNK], 0.0)
+        parts = rec.data_terms(xs[:, 1], need_derivs)
+        su = np.abs(xs[:, 2])[:, None, None]
+        z = (rec.m[None, :, :] - xs[:, 0][:, None, None]) / su
+        a = parts[0] + rec.const[None] - 0.5 * z * z - np.log(su)
+        a = np.where(np.isnan(a), -np.inf, a)
+        lse = special.logsumexp(a, axis=2)  # (B, R)
+        with np.errstate(invalid="ignore"):
+            p = np.nan_to_num(np.exp(a - lse[..., None]))
+        em = np.einsum("brq,rq->br", p, rec.m)
+        var = np.einsum("brq,rq->br", p, rec.m ** 2) - em ** 2
+        ll_out.append(np.sum(np.where(w > 0, w * lse, 0.0), axis=1))
+        em_out.append(em)
+        sd_out.append(np.sqrt(np.maximum(var, 0.0)))
+        if not need_derivs:
+            continue
+        zero = np.zeros_like(z)
+        g = np.stack([z / su, parts[1], (z * z - 1) / su], axis=-1)  # (B, R, Q, 3)
+        h = np.empty(g.shape + (3,))
+        h[..., 0, 0] = -1.0 / su ** 2 + zero
+        h[..., 1, 1] = parts[2]
+        h[..., 2, 2] = (1 - 3 * z * z) / su ** 2
+        h[..., 0, 1] = h[..., 1, 0] = h[..., 1, 2] = h[..., 2, 1] = 0.0
+        h[..., 0, 2] = h[..., 2, 0] = -2 * z / su ** 2
+        gbar = np.einsum("brq,brqk->brk", p, g)
+        hr = (np.einsum("brq,brqkl->brkl", p, h + g[..., :, None] * g[..., None, :])
+              - gbar[..., :, None] * gbar[..., None, :])
+        g_out.append(np.einsum("br,brk->bk", w, gbar))
+        h_out.append(np.einsum("br,brkl->bkl", w, hr))
+    ll, em, sd = np.concatenate(ll_out), np.concatenate(em_out), np.concatenate(sd_out)
+    if not need_derivs:
+        return ll, em, sd
+    return ll, em, sd, np.concatenate(g_out), np.concatenate(h_out)
+
+
+def _newton(x, rec, w, sigma_floor, max_iter, tol):
+    """Batch Newton ascent from ``x`` (modified); returns (x, loglik, converged)."""
+    b = x.shape[0]
+    active = np.all(np.isfinite(x), axis=1)
+    done = np.zeros(b, bool)
+    ll_cur = np.full(b, np.nan)
+    eye = np.eye(3)
+    for _ in range(max_iter):
+        idx = np.nonzero(active)[0]
+        if idx.size == 0:
+            break
+        x0 = x[idx]
+        ll, _em, _sd, grad, hess = _evaluate(x0, rec, w[idx], True)
+        step = _newton_step(hess, grad, eye)
+        t = np.ones(idx.size)
+        with np.errstate(invalid="ignore", divide="ignore"):
+            for j, floor in ((1, sigma_floor), (2, 1e-3)):
+                sg = step[:, j]
+                t = np.where(sg < 0, np.minimum(t, 0.9 * (x0[:, j] - 0.5 * floor) / -sg), t)
+        t = np.maximum(t, 0.0)
+        accepted = np.zeros(idx.size, bool)
+        xn, ll_new_all = x0.copy(), ll.copy()
+        for _half in range(40):
+            todo = np.nonzero(~accepted)[0]
+            if todo.size == 0:
+                break
+            c = x0[todo] + t[todo, None] * step[todo]
+            c[:, 1] = np.maximum(c[:, 1], sigma_floor)
+            c[:, 2] = np.maximum(c[:, 2], 1e-3)
+            ll_new = _evaluate(c, rec, w[idx[todo]], False)[0]
+            ok = np.isfinite(ll_new) & (ll_new >= ll[todo] - 1e-12 * np.abs(ll[todo]))
+            xn[todo[ok]] = c[ok]
+            ll_new_all[todo[ok]] = ll_new[ok]
+            accepted[todo[ok]] = True
+            t[todo[~ok]] *= 0.5
+        scale = np.c_[1 + np.abs(x0[:, 0]), x0[:, 1], 1 + np.abs(x0[:, 2])]
+        moved = np.max(np.abs(xn - x0) / scale, axis=1)
+        x[idx] = xn
+        ll_cur[idx] = ll_new_all
+        small = (moved < tol) | ~accepted
+        diverged = (np.abs(xn) > 1e6).any(axis=1) | ~np.isfinite(ll_new_all)
+        done[idx[small & ~diverged]] = True
+        active[idx[small | diverged]] = False
+    return x, ll_cur, done & np.isfinite(ll_cur)
+
+
+def receiver_effects_mle_batch(values, kinds, counts, weights, *, start_mu, start_sigma,
+                               start_s_u=0.5, half_width_db: float = 0.0,
+                               tau_db: float = 0.0, df: float = np.inf,
+                               exact_weight: float = 1.0,
+                               sigma_floor: float = SIGMA_FLOOR_DB, n_nodes: int = N_NODES,
+                               max_iter: int = 100, tol: float = 1e-8,
+                               adapt_rounds: int = 4) -> dict:
+    """The receiver random-effects fit, one per row of ``weights`` (cluster weights).
+
+    Parameters
+    ----------
+    values, kinds : array_like, shape (K,)
+        The distinct items: differences or bounds [dB] and kinds (0 exact, +1 upper
+        bound, -1 lower bound), as :func:`spotkit.stats.censored.interval_censored_mle`.
+    counts : array_like or scipy.sparse matrix, shape (K, R)
+        Count of each item at each of the R receivers (clusters).
+    weights : array_like, shape (B, R)
+        Weight of each receiver per fit (bootstrap: how often it was drawn; ones: the
+        data as they are).
+    start_mu, start_sigma, start_s_u : float or array_like (B,)
+        Starting values [dB] (e.g. the pooled fit's).
+    half_width_db, tau_db, df, exact_weight, sigma_floor :
+        As :func:`spotkit.stats.censored.interval_censored_mle`.
+    n_nodes : int
+        Gauss-Hermite nodes over the receiver effect.
+    max_iter, tol :
+        Newton iterations and the relative change that stops them.
+    adapt_rounds : int
+        Most refits of the unit-weight data used to centre each receiver's nodes on its
+        posterior (adaptive quadrature); the rows of ``weights`` are then fitted with
+        those nodes.
+
+    Returns
+    -------
+    dict of numpy.ndarray, shape (B,)
+        ``mu`` (mean over receivers) [dB], ``sigma`` (SD of a pair's difference about its
+        receiver's mean, scale of the law for the t) [dB], ``s_u`` (SD of the receivers'
+        means) [dB], ``mu_pairs`` (``mu`` plus the pair-weighted mean of the receivers'
+        posterior mean effects: the mean over the pairs) [dB], ``loglik``,
+        ``converged``; NaN where a row has no maximum.
+
+    Examples
+    --------
+    Two receivers whose differences sit 2 dB apart (exact values only, no bounds): the
+    receivers' SD is about sqrt(2) dB less the share of the within spread, and with
+    equal pairs per receiver ``mu_pairs`` is the plain mean (1.0 dB):
+
+    >>> v = [-0.5, 0.0, 0.5, 1.5, 2.0, 2.5]
+    >>> k = [0, 0, 0, 0, 0, 0]
+    >>> cnt = [[5, 0], [10, 0], [5, 0], [0, 5], [0, 10], [0, 5]]
+    >>> fit = receiver_effects_mle_batch(v, k, cnt, [[1.0, 1.0]], start_mu=1.0,
+    ...                                  start_sigma=1.0)
+    >>> round(float(fit["mu_pairs"][0]), 3), bool(fit["converged"][0])
+    (1.0, True)
+    """
+    v = np.asarray(values, dtype=float).ravel()
+    k = np.asarray(kinds).astype(np.int64).ravel()
+    S = sparse.csr_matrix(counts, dtype=float)
+    w = np.atleast_2d(np.asarray(weights, dtype=float))
+    if S.shape[0] != v.size or k.size != v.size:
+        raise UsageError(f"counts has {S.shape[0]} rows, values {v.size}, kinds {k.size}")
+    if w.shape[1] != S.shape[1]:
+        raise UsageError(f"weights has {w.shape[1]} columns but counts {S.shape[1]} "
+                         "receivers")
+    _check_detection(half_width_db, tau_db, df, exact_weight)
+    items = _detection_items(v, k, half_width_db, tau_db)
+    ew = np.where(k == 0, float(exact_weight), 1.0)
+    xq, logw = _nodes(n_nodes)
+    rec = _Receivers(items, ew, S, _family(df), xq, logw)
+    b = w.shape[0]
+    x = np.empty((b, 3))
+    x[:, 0] = np.broadcast_to(np.asarray(start_mu, float), b)
+    x[:, 1] = np.maximum(np.broadcast_to(np.asarray(start_sigma, float), b), sigma_floor)
+    x[:, 2] = np.maximum(np.broadcast_to(np.asarray(start_s_u, float), b), 1e-3)
+    n_r = np.asarray(S.sum(axis=0)).ravel()
+    # nodes centred on each receiver's posterior: first from the start (wide, then the
+    # posterior there), refitted until the centres settle (adaptive quadrature)
+    x1 = x[:1].copy()
+    one = np.ones((1, S.shape[1]))
+    rec.set_nodes(np.zeros(S.shape[1]), np.ones(S.shape[1]))
+    c, d = rec.grid_posterior(x1[0, 0], x1[0, 1], x1[0, 2])
+    c, d = c[None, :], d[None, :]
+    for _round in range(adapt_rounds):
+        rec.set_nodes(c[0], np.maximum(d[0], 1e-3))
+        x1, _ll, _ok = _newton(x1, rec, one, sigma_floor, max_iter, tol)
+        _ll, c_new, d_new = _evaluate(x1, rec, one, False)
+        settled = np.max(np.abs(c_new[0] - c[0]) / np.maximum(d[0], 1e-3)) < 0.05
+        c, d = c_new, d_new
+        if settled:
+            break
+    rec.set_nodes(c[0], np.maximum(d[0], 1e-3))
+    x, ll_cur, ok = _newton(x, rec, w, sigma_floor, max_iter, tol)
+    _ll, em, _sd = _evaluate(np.where(ok[:, None], x, 1.0), rec, w, False)
+    wn = n_r[None, :] * np.where(w > 0, w, 0.0)
+    mu_pairs = np.sum(wn * em, axis=1) / np.maximum(wn.sum(axis=1), 1e-300)
+    nan = np.full(b, np.nan)
+    return dict(mu=np.where(ok, x[:, 0], nan), sigma=np.where(ok, x[:, 1], nan),
+                s_u=np.where(ok, x[:, 2], nan), mu_pairs=np.where(ok, mu_pairs, nan),
+                loglik=np.where(ok, ll_cur, nan), converged=ok)
+
+
+__all__ = ["N_NODES", "receiver_effects_mle_batch"]

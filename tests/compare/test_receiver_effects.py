@@ -1,0 +1,57 @@
+"""The opt-in receiver-effects model of compare_antennas (spotkit.stats.receivers).
+
+Its bias and coverage are measured in the coverage study (``tests/compare/
+test_coverage_study.py``, ``benchmarks/coverage_study.py --model receiver-effects``);
+these checks are fast: the option is wired, refits in every resample, leaves the default
+alone, and refuses what it does not model."""
+from __future__ import annotations
+
+import heldout
+import numpy as np
+import pytest
+
+from spotkit import columns as C
+from spotkit.compare.estimate import compare_antennas
+from spotkit.errors import UsageError
+
+
+@pytest.fixture(scope="module")
+def spots():
+    # receivers whose B-A differs by 1 dB (SD) and A 7 dB below B: the case the model is for
+    return heldout.generate(n_far=60, n_slots=80, power_a_dbm=30.0, power_b_dbm=37.0,
+                            station_sd_db=1.0, report_step_db=0.1, seed=11)
+
+
+def test_receiver_effects_runs_and_says_so(spots):
+    sp, cells = spots
+    kw = dict(n_boot=20, seed=1, interval="normal")
+    pooled = compare_antennas(sp, "simultaneous", heldout.CALL_A, heldout.CALL_B, **kw)
+    mixed = compare_antennas(sp, "simultaneous", heldout.CALL_A, heldout.CALL_B,
+                             model="receiver-effects", **kw)
+    o, p = mixed.overall, pooled.overall
+    assert "receiver-effects model" in o[C.METHOD]
+    assert "receiver-effects" not in p[C.METHOD]
+    assert o[C.PAIRS] == p[C.PAIRS] and o[C.SYSTEMATIC] == p[C.SYSTEMATIC]
+    # a different estimator, near the pooled one and the truth (2,000 pairs: SE ~0.1 dB)
+    assert o[C.B_MINUS_A] != p[C.B_MINUS_A]
+    truth = heldout.overall_truth(cells)
+    assert abs(o[C.B_MINUS_A] - truth) < 0.4
+    assert o[C.CI_LOW] < o[C.B_MINUS_A] < o[C.CI_HIGH]
+    width = o[C.CI_STAT_HIGH] - o[C.CI_STAT_LOW]
+    assert 0.5 < width / (p[C.CI_STAT_HIGH] - p[C.CI_STAT_LOW]) < 2.0
+
+
+def test_receiver_effects_refuses_the_threshold_correction(spots):
+    with pytest.raises(UsageError, match="threshold correction"):
+        compare_antennas(spots[0], "simultaneous", heldout.CALL_A, heldout.CALL_B,
+                         n_boot=5, model="receiver-effects", threshold_correction="edge")
+
+
+def test_receiver_effects_single_receiver_group_falls_back(spots):
+    sp = spots[0]
+    one = sp[sp["rx_call"] == sp["rx_call"].value_counts().index[0]]
+    r = compare_antennas(one, "simultaneous", heldout.CALL_A, heldout.CALL_B, n_boot=10,
+                         model="receiver-effects", min_pairs=5)
+    base = compare_antennas(one, "simultaneous", heldout.CALL_A, heldout.CALL_B, n_boot=10,
+                            min_pairs=5)
+    assert np.isclose(r.overall[C.B_MINUS_A], base.overall[C.B_MINUS_A], equal_nan=True)
