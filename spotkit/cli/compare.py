@@ -66,6 +66,23 @@ def _add_several_options(p) -> None:
                    "2026-03-08': each period against the first and each step")
 
 
+
+def _check_result_outputs(args):
+    """Refuse --json / --csv / --markdown FILE that are inputs or the same file, before any
+    work; returns ``(markdown, md_file)``: the --markdown value and the file it names (None
+    for standard output)."""
+    markdown = getattr(args, "markdown", None)
+    md_file = markdown if markdown not in (None, "-") else None
+    for option, path in (("--json", args.json), ("--csv", args.csv), ("--markdown", md_file)):
+        if path:
+            check_output(path, option, inputs=(args.spots, args.schedule))
+    outs = [x for x in (args.json, args.csv, md_file) if x]
+    if len(outs) > 1:
+        from spotkit.io.atomic import check_outputs
+
+        check_outputs(outs)
+    return markdown, md_file
+
 def _cmd_several(args) -> int:
     """``spotkit compare --antennas ...`` or ``--periods ...``."""
     from spotkit.compare.multi import compare_several, parse_antennas
@@ -94,17 +111,7 @@ def _cmd_several(args) -> int:
         if args.design == "alternating" and not (args.a and args.schedule):
             raise UsageError("--antennas with the alternating design needs --a (the call) "
                              "and --schedule (labels as in --antennas)")
-    inputs = (args.spots, args.schedule)
-    markdown = getattr(args, "markdown", None)
-    md_file = markdown if markdown not in (None, "-") else None
-    for option, path in (("--json", args.json), ("--csv", args.csv), ("--markdown", md_file)):
-        if path:
-            check_output(path, option, inputs=inputs)
-    outs = [x for x in (args.json, args.csv, md_file) if x]
-    if len(outs) > 1:
-        from spotkit.io.atomic import check_outputs
-
-        check_outputs(outs)
+    markdown, md_file = _check_result_outputs(args)
     spots = load_spots(args.spots)
     common = dict(n_boot=args.boot, seed=args.seed, confidence=args.confidence,
                   min_pairs=args.min_pairs, missed_reports=args.missed_reports)
@@ -178,17 +185,7 @@ def cmd_compare(args) -> int:
                          + " (or --antennas / --periods)")
     by = by_keys(args.by)
     kw = compare_kwargs(args)
-    inputs = (args.spots, args.schedule)
-    markdown = getattr(args, "markdown", None)
-    md_file = markdown if markdown not in (None, "-") else None
-    for option, path in (("--json", args.json), ("--csv", args.csv), ("--markdown", md_file)):
-        if path:
-            check_output(path, option, inputs=inputs)
-    outs = [x for x in (args.json, args.csv, md_file) if x]
-    if len(outs) > 1:
-        from spotkit.io.atomic import check_outputs
-
-        check_outputs(outs)
+    markdown, md_file = _check_result_outputs(args)
     spots = load_spots(args.spots)
     result = compare_antennas(spots, args.design, args.a, args.b, by=by,
                               progress=progress(args), **kw)
