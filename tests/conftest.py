@@ -86,3 +86,16 @@ def offline(tmp_path, monkeypatch):
     yield
     assert list(data_dir.iterdir()) == []
     plt.close("all")
+
+
+# Property tests draw their examples from a seed fixed per test, so that a CI run is
+# repeatable; HYPOTHESIS_PROFILE=explore draws fresh ones (run it now and then: a failure
+# it finds becomes an @example).
+try:
+    from hypothesis import settings as _hyp_settings
+except ImportError:  # pragma: no cover - hypothesis is in the test extra
+    pass
+else:
+    _hyp_settings.register_profile("ci", derandomize=True, database=None)
+    _hyp_settings.register_profile("explore", derandomize=False)
+    _hyp_settings.load_profile(os.environ.get("HYPOTHESIS_PROFILE", "ci"))

@@ -221,14 +221,17 @@ def _parse_times(texts: np.ndarray, unit: str, now: pd.Timestamp | None = None,
 
 def _parse_numbers(col: TextColumn, decimal: str, lo, hi, convert=None):
     """Distinct cells of a numeric column -> (values, status: 0 ok, 2 not a number,
-    3 outside lo..hi)."""
-    v = _to_number(pd.Series(col.values, dtype="str"), decimal).to_numpy(dtype=float)
+    3 outside lo..hi, 1 blanks only: empty, like an empty cell)."""
+    texts = pd.Series(col.values, dtype="str")
+    v = _to_number(texts, decimal).to_numpy(dtype=float)
     if convert is not None:
         with np.errstate(divide="ignore", invalid="ignore"):
             v = np.asarray(convert(v), dtype=float)
     status = np.where(np.isnan(v), 2, 0).astype(np.int8)
     if lo is not None:
         status[np.isinf(v) | (np.isfinite(v) & ((v < lo) | (v > hi)))] = 3
+    # a cell of blanks (a quoted tab, non-breaking spaces) is empty, not "not a number"
+    status[(status == 2) & (texts.str.strip() == "").to_numpy()] = 1
     return v, status
 
 
