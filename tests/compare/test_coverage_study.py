@@ -28,6 +28,10 @@ def _load_study():
 
 
 study = _load_study()
+#: the tests that share a module fixture run on one xdist worker (``--dist loadgroup``):
+#: split over two, each worker would compute the fixture's runs again
+SMALL_GROUP = pytest.mark.xdist_group("coverage_study_small")
+LARGE_GROUP = pytest.mark.xdist_group("coverage_study_large")
 
 
 # --- the held-out generator -----------------------------------------------------------------
@@ -288,6 +292,7 @@ def small_runs():
 
 
 @pytest.mark.slow
+@SMALL_GROUP
 def test_every_regime_runs_end_to_end(small_runs):
     # every run of every small regime (the coverage fixture's, so no extra cost) went
     # through the public API with a finite estimate and a proper interval (a percentile
@@ -301,6 +306,7 @@ def test_every_regime_runs_end_to_end(small_runs):
 
 
 @pytest.mark.slow
+@SMALL_GROUP
 def test_coverage_at_7000_pairs_over_every_regime(small_runs):
     """Pooled over the 12 regimes (204 runs): coverage >= 0.925, which detects a 5-point
     shortfall of the average (binomial SE 1.5 % at 95 %; a single regime covering 40 %
@@ -316,6 +322,7 @@ def test_coverage_at_7000_pairs_over_every_regime(small_runs):
 @pytest.mark.slow
 @pytest.mark.parametrize("regime", [pytest.param(n, marks=BIAS_OPEN) if n == HETERO_APART
                                     else n for n in SMALL_REGIMES])
+@SMALL_GROUP
 def test_bias_at_7000_pairs_in_every_regime(small_runs, regime):
     """Per regime the bias must be within 0.03 dB plus 2.5 of its standard errors over 17
     runs (about 0.02 dB: this subset resolves a bias of about 0.05-0.08 dB; the benchmark's
@@ -335,6 +342,7 @@ def large_runs():
 
 
 @pytest.mark.slow
+@LARGE_GROUP
 def test_coverage_in_the_large_cell(large_runs):
     """60 runs (issue 15's count): coverage >= 0.90 (issue 15's target, binomial SE 2.8 %
     at 95 %; a correct interval from :data:`SLOW_BOOT` resamples is expected at 94.4 %)."""
@@ -344,6 +352,7 @@ def test_coverage_in_the_large_cell(large_runs):
 
 @pytest.mark.slow
 @LARGE_BIAS_OPEN
+@LARGE_GROUP
 def test_bias_in_the_large_cell(large_runs):
     """|bias| <= 0.03 dB over the 60 runs (the estimates spread by about 0.07-0.09 dB,
     mostly which 150 receivers a run draws, so the mean error has an SE of about 0.01 dB)."""
