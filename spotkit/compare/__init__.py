@@ -80,10 +80,15 @@ from spotkit.compare.series import (
     parse_periods,
 )
 from spotkit.compare.width import (
+    OUTCOME_COLUMNS,
     PAIRED_DESIGNS,
     WIDTH_FROM,
     WIDTH_GRID_DB,
+    empty_pair_outcomes,
+    merge_pair_outcomes,
+    pair_outcomes,
     profile_loglik,
+    width_from_outcomes,
     width_from_pairs,
 )
 
@@ -106,7 +111,8 @@ __all__ = [
     "compare_series", "parse_periods",
     "GRID_KEYS", "difference_grid", "grid_key", "grid_table",
         "PAIRED_DESIGNS", "WIDTH_FROM", "WIDTH_GRID_DB", "profile_loglik",
-    "width_from_pairs",
+    "width_from_pairs", "OUTCOME_COLUMNS", "pair_outcomes", "merge_pair_outcomes",
+    "empty_pair_outcomes", "width_from_outcomes",
 ]
 # measured against modelled gain patterns
 from spotkit.compare.modelcheck import (
