@@ -163,6 +163,11 @@ def read_archive_dask(root, *, columns: Sequence[str] | None = None, bands=None,
                      locator_prefix=locator_prefix)
     files = store.archive_files(root, bands=bands, start=start, end=end)
     if not files:
+        if not (Path(root) / store.MANIFEST_NAME).exists():
+            raise InputError(
+                f"{root}: not a spotkit archive (no {store.MANIFEST_NAME}); a plain folder of "
+                "Parquet spot files is read whole by spotkit.io.ingest.load_spots ('spotkit "
+                "compare DIR'), or append it to an archive first")
         raise InputError(f"{root}: no spots in the archive match the selection")
     check_choice(group, ("file", "band", "all"), "partition grouping")
     if group == "band":

@@ -409,3 +409,14 @@ def test_dask_path_reads_only_committed_files(tmp_path, spots):
 def test_bad_scheduler_is_a_usage_error_naming_the_scheduler(archive):
     with pytest.raises(UsageError, match=r"scheduler 'bogus': not a scheduler address"):
         D.coverage_dask(archive, ("band",), scheduler="bogus")
+
+
+def test_plain_parquet_folder_is_not_an_archive(tmp_path, spots):
+    """A folder of Parquet files without a manifest: the Dask path says it is not an archive
+    (and where such a folder is read), not that nothing matches the selection."""
+    from spotkit.errors import InputError
+
+    spots.to_parquet(tmp_path / "a.parquet")
+    with pytest.raises(InputError, match=r"not a spotkit archive \(no _spotkit_manifest.json\)"
+                                         r".*load_spots"):
+        D.coverage_dask(tmp_path, ("band",), scheduler="sync")

@@ -1013,13 +1013,17 @@ def load_spots(source, **kw) -> pd.DataFrame:
     Parameters
     ----------
     source : pandas.DataFrame, str or path-like
-        ``.parquet`` files (or directories of them) are read with the glossary dtypes; other
+        ``.parquet`` files are read with the glossary dtypes; so are directories: a spotkit
+        archive (its committed files, :mod:`spotkit.io.store`) or a plain folder of
+        ``.parquet`` / ``.pq`` files (all of them, subfolders included, stacked); other
         files go through :func:`read_spots` (``**kw`` passed on).
 
     Raises
     ------
     InputError
-        When a CSV gives no accepted row; when a Parquet file holds no spot column at all
+        When a CSV gives no accepted row; when a folder is neither an archive nor holds a
+        Parquet file (the message lists what it holds); when a Parquet file holds no spot
+        column at all
         (:class:`~spotkit.errors.NotASpotTableError`) or a spot column of the wrong type
         (e.g. SNR as text).
 
@@ -1076,7 +1080,10 @@ def _read_parquet(path: Path) -> pd.DataFrame:
 
     from spotkit.errors import NotASpotTableError, SpotkitError, SpotkitWarning
     from spotkit.io import store
+    from spotkit.io.manifest import MANIFEST_NAME
 
+    if path.is_dir() and not (path / MANIFEST_NAME).exists():
+        return _read_parquet_folder(path)
     if not path.is_file():  # an archive folder, or nothing: the store says which
         return store.read_spots_parquet(path)
     try:
@@ -1123,7 +1130,38 @@ def _read_parquet(path: Path) -> pd.DataFrame:
     return spots[first + [n for n in spots.columns if n not in first]]
 
 
+#: file name endings read as Parquet in a folder that is not an archive
+PARQUET_SUFFIXES = (".parquet", ".pq")
+
+
+def _read_parquet_folder(path: Path) -> pd.DataFrame:
+    """A folder of Parquet spot files that is not a spotkit archive (no manifest): every
+    ``.parquet`` / ``.pq`` file in it and its subfolders, in name order, each read and
+    checked as a single file (:func:`_read_parquet`), stacked.
+
+    An :class:`InputError` says what the folder holds when it has no Parquet file. Rows
+    are taken as they are (no de-duplication across files; an archive, ``spotkit ingest
+    --dataset``, keeps each export once).
+    """
+    from spotkit.io.manifest import MANIFEST_NAME
+
+    files = sorted(p for p in path.rglob("*") if p.is_file()
+                   and p.suffix.lower() in PARQUET_SUFFIXES and not p.name.startswith("."))
+    if not files:
+        found = sorted(p.relative_to(path).as_posix() for p in path.rglob("*") if p.is_file())
+        shown = ", ".join(found[:5]) + (", ..." if len(found) > 5 else "")
+        raise InputError(
+            f"{path}: expected a spotkit archive (a folder with {MANIFEST_NAME}) or a "
+            f"folder of Parquet spot files "
+            f"({'/'.join(PARQUET_SUFFIXES)}); found "
+            + (f"{len(found)} other file(s): {shown}" if found else "no files at all"))
+    parts = [_read_parquet(f) for f in files]
+    spots = pd.concat(parts, ignore_index=True) if len(parts) > 1 else parts[0]
+    return C.apply_dtypes(spots)
+
+
 __all__ = [
+    "PARQUET_SUFFIXES",
     "IngestSummary", "IngestResult", "read_spots", "iter_spot_chunks", "ingest_to_parquet",
     "load_spots", "write_rejects", "DUPLICATE_REASON", "MAX_REJECT_SHARE",
     "check_reject_share", "reject_hint",
