@@ -14,7 +14,15 @@ between neighbours (the first step is both, and counted once): ``m = 2 (n - 1) -
 comparisons for ``n >= 2`` periods. The comparisons are fitted on different subsets of the
 data, so one joint bootstrap is not available here; each interval is taken at confidence
 ``1 - (1 - confidence) / m`` (Bonferroni), which holds for all at once whatever their
-correlation (conservative), and ``C.P_FAMILY`` is ``min(1, m p)``.
+correlation (conservative), and ``C.P_FAMILY`` is ``min(1, m p)``. The p of each
+comparison comes from the same percentile bootstrap as its interval (the level at which
+the interval would just reach 0, :func:`spotkit.stats.bootstrap.percentile_p_value`), so a
+comparison's simultaneous interval leaves out 0 exactly when its ``C.P_FAMILY`` is below
+``1 - confidence`` (when there are more than ``m / (1 - confidence)`` resamples: p cannot go
+below one over their number). Before, p came from a normal approximation with the
+bootstrap SE and could disagree with the percentile interval: 1 of 18 comparisons in six
+simulated series (0.6 dB, then 0.4 dB more, 200 resamples) had an interval from -0.02 to
++1.97 dB with a family p of 0.020.
 
 Known error: that of the before/after design (its module docstring): with two days per
 period its interval covered 95 % of 80 simulated cases; with one day per period no
