@@ -308,18 +308,23 @@ def reports_from_partials(partials: pd.DataFrame) -> pd.DataFrame:
 
 
 def thresholds_from_partials(partials: pd.DataFrame, min_reports: int = 20, *,
-                             tau_db: float | None = None) -> pd.Series:
+                             tau_db: float | None = None,
+                             whole_db: bool | None = None) -> pd.Series:
     """Receiver thresholds as :func:`spotkit.compare.pairing.receiver_thresholds` on the
     whole table, from merged :func:`receiver_partials`.
 
     The pairing function is run on a stand-in table with each receiver's whole-dB reports
     (:func:`reports_from_partials`: the same histograms). ``attrs["detection"]`` carries
     the detection model: of width ``tau_db`` [dB] when given, else fitted to all the
-    reports' histograms.
+    reports' histograms. ``whole_db``: whether the reports are whole dB
+    (:func:`spotkit.compare.pairing.is_whole_db` of the summed
+    :func:`~spotkit.compare.pairing.whole_db_counts` of the partitions); the stand-in
+    table is whole dB whatever the reports were, so None takes it as whole dB.
     """
     from spotkit.compare.pairing import receiver_thresholds
 
-    return receiver_thresholds(reports_from_partials(partials), min_reports, tau_db=tau_db)
+    return receiver_thresholds(reports_from_partials(partials), min_reports, tau_db=tau_db,
+                               whole_db=whole_db)
 
 
 def _calls_needed(design: str, a: str, b: str | None) -> tuple[str, list[str]]:
@@ -566,6 +571,7 @@ def compare_dask(source, design: str, a: str, b: str | None = None, *, by=(), sc
     import dask
 
     from spotkit.compare.grouping import DEFAULT_DISTANCE_EDGES, DEFAULT_ELEVATION_EDGES
+    from spotkit.compare.pairing import is_whole_db
     from spotkit.compare.width import (
         PAIRED_DESIGNS,
         WIDTH_FROM,
@@ -601,17 +607,21 @@ def compare_dask(source, design: str, a: str, b: str | None = None, *, by=(), sc
         parts2 = _partitions(source, None, selection)
     rec_d = dask.delayed(receiver_partials, pure=True)
     calls_d = dask.delayed(_distinct_calls, pure=True)
+    whole_d = dask.delayed(_whole_db_counts, pure=True)
     rec_total = _tree_reduce([rec_d(p) for p in parts1], combine_receivers, split_every)
     calls_total = _tree_reduce([calls_d(p, col) for p in parts1], _union, split_every)
+    whole_total = _tree_reduce([whole_d(p) for p in parts1], _sum_counts, split_every)
     with dask_scheduler(scheduler) as kw:
-        rec, calls = dask.compute(rec_total, calls_total, **kw)
+        rec, calls, whole = dask.compute(rec_total, calls_total, whole_total, **kw)
+        whole = is_whole_db(whole)  # as the in-memory path decides it on all reports
         missing = [c for c in need if c not in calls]
         if missing:
             shown = ", ".join(sorted(calls)[:15]) + (" ..." if len(calls) > 15 else "")
             raise InputError(f"call(s) {', '.join(missing)} not found among the "
                              f"{'receivers' if col == C.RX_CALL else 'transmitters'} of the "
                              f"archive; present: {shown}")
-        thr = thresholds_from_partials(rec, min_receiver_reports, tau_db=tau_db)
+        thr = thresholds_from_partials(rec, min_receiver_reports, tau_db=tau_db,
+                                       whole_db=whole)
         pairing = dict(schedule=schedule, change_at=change_at, window_slots=window_slots,
                        min_receiver_reports=min_receiver_reports,
                        require_open_path=require_open_path)
@@ -623,9 +633,10 @@ def compare_dask(source, design: str, a: str, b: str | None = None, *, by=(), sc
             if len(outcomes):  # no pairs at all: pass 2 says why
                 det = width_from_outcomes(reports_from_partials(rec), outcomes, design, a,
                                           b, detection=thr.attrs["detection"],
-                                          min_receiver_reports=min_receiver_reports)
+                                          min_receiver_reports=min_receiver_reports,
+                                          whole_db=whole)
                 thr = thresholds_from_partials(rec, min_receiver_reports,
-                                               tau_db=det["tau_db"])
+                                               tau_db=det["tau_db"], whole_db=whole)
                 thr.attrs["detection"] = det
         cmp_d = dask.delayed(compare_partials, pure=True)
         partials = [cmp_d(p, design, a, b, by=keys, thresholds=thr,
@@ -645,6 +656,16 @@ def compare_dask(source, design: str, a: str, b: str | None = None, *, by=(), sc
                           threshold_correction=threshold_correction,
                           missed_reports=missed_reports,
                           detection=thr.attrs.get("detection"))
+
+
+def _whole_db_counts(df: pd.DataFrame) -> np.ndarray:
+    from spotkit.compare.pairing import whole_db_counts
+
+    return whole_db_counts(df[C.SNR].to_numpy(dtype=float))
+
+
+def _sum_counts(parts) -> np.ndarray:
+    return np.sum(np.stack(list(parts)), axis=0)
 
 
 def _distinct_calls(df: pd.DataFrame, col: str) -> set:

@@ -359,6 +359,26 @@ def test_compare_dask_width_from_pairs_receive_design(tmp_path):
         assert got.overall[col] == pytest.approx(want.overall[col], rel=0, abs=1e-6), col
 
 
+def test_compare_dask_reports_not_in_whole_db(soft_archive, tmp_path):
+    """SNRs with a decimal (not whole dB): the Dask path's receiver histograms are of
+    whole-dB values, but it decides 'whole dB' on all reports as the in-memory path does
+    (reports as points, not 1-dB intervals), so width and estimate still agree."""
+    from spotkit.compare.estimate import compare_antennas
+
+    sim, _ = soft_archive
+    spots = sim.spots.copy()
+    jitter = np.random.default_rng(0).uniform(-0.5, 0.5, len(spots)).round(1)
+    spots[C.SNR] = spots[C.SNR].to_numpy(float) + jitter
+    store.append_to_dataset(spots, tmp_path / "arch")
+    want = compare_antennas(spots, "simultaneous", sim.a, sim.b, n_boot=50, seed=1)
+    got = D.compare_dask(tmp_path / "arch", "simultaneous", sim.a, sim.b, n_boot=50, seed=1,
+                         scheduler="sync")
+    assert "whole-dB" not in want.overall[C.METHOD]
+    assert got.overall[C.METHOD] == want.overall[C.METHOD]
+    for col in (C.DETECTION_TAU, C.B_MINUS_A):
+        assert got.overall[col] == pytest.approx(want.overall[col], rel=0, abs=1e-6), col
+
+
 def test_pair_outcomes_merge_exactly(soft_archive):
     """Outcome tables of any split of the pairs merge into the table of all pairs."""
     from spotkit.compare.pairing import pair_spots

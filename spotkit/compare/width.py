@@ -243,7 +243,7 @@ def _count(frame: pd.DataFrame) -> pd.DataFrame:
 
 
 def _fit(spots: pd.DataFrame, outcomes: pd.DataFrame, design: str, a: str, b: str | None,
-         det0: dict, min_receiver_reports: int, grid):
+         det0: dict, min_receiver_reports: int, grid, whole_db: bool | None = None):
     """The width fit on a :func:`pair_outcomes` table: the detection model chosen, and
     ``moved(table, t50)`` that moves a table's limits from the reference 50 % points to
     ``t50``."""
@@ -253,7 +253,7 @@ def _fit(spots: pd.DataFrame, outcomes: pd.DataFrame, design: str, a: str, b: st
     if not det0 or "tau_db" not in det0:
         raise UsageError("the pairs carry no detection model (threshold_method='t50')")
     rounding = det0.get("rounding", "after")
-    calls, whole, fit, _ = _t50_fitter(spots, min_receiver_reports)
+    calls, whole, fit, _ = _t50_fitter(spots, min_receiver_reports, whole_db)
     calls = pd.Index(calls.astype(str))
     t50_0 = fit(float(det0["tau_db"]), rounding)
     hw = 0.5 if whole else 0.0
@@ -289,7 +289,8 @@ def _fit(spots: pd.DataFrame, outcomes: pd.DataFrame, design: str, a: str, b: st
 
 def width_from_outcomes(spots: pd.DataFrame, outcomes: pd.DataFrame, design: str, a: str,
                         b: str | None = None, *, detection: dict,
-                        min_receiver_reports: int = 20, grid=WIDTH_GRID_DB) -> dict:
+                        min_receiver_reports: int = 20, grid=WIDTH_GRID_DB,
+                        whole_db: bool | None = None) -> dict:
     """The detection width the pairs support, from their compressed outcomes.
 
     What :func:`width_from_pairs` does, on a (merged) :func:`pair_outcomes` table instead
@@ -313,6 +314,9 @@ def width_from_outcomes(spots: pd.DataFrame, outcomes: pd.DataFrame, design: str
         As given to :func:`~spotkit.compare.pairing.pair_spots`.
     grid : sequence of float
         Widths tried [dB] (default :data:`WIDTH_GRID_DB`).
+    whole_db : bool, optional
+        Whether the reports are whole dB (then each is a 1-dB interval); None: from
+        ``spots``, which a stand-in table of rounded reports cannot show.
 
     Returns
     -------
@@ -332,7 +336,7 @@ def width_from_outcomes(spots: pd.DataFrame, outcomes: pd.DataFrame, design: str
     ('pairs', True)
     """
     det, _ = _fit(spots, outcomes, design, a, b, dict(detection or {}),
-                  min_receiver_reports, grid)
+                  min_receiver_reports, grid, whole_db)
     return det
 
 
