@@ -237,11 +237,15 @@ def compare_series(spots: pd.DataFrame, call: str, periods, *, n_boot: int = 400
         o = res.overall
         results[(per[i][0], per[j][0])] = res
         p = o.get(C.P_VALUE, np.nan)
+        note = o.get(C.NOTE) or ""
+        if np.isfinite(p) and m / int(n_boot) >= 1.0 - confidence:
+            note += (("; " if note else "") + f"too few resamples ({int(n_boot)}) for a "
+                     f"family p below {1.0 - confidence:g}: read the interval")
         row.update({C.B_MINUS_A: o[C.B_MINUS_A], C.CI_SIM_LOW: o[C.CI_LOW],
                     C.CI_SIM_HIGH: o[C.CI_HIGH],
                     C.P_FAMILY: min(1.0, m * p) if np.isfinite(p) else np.nan,
                     C.PAIRS: int(o[C.PAIRS] or 0), C.CLUSTERS: int(o[C.CLUSTERS] or 0),
-                    C.NOTE: o.get(C.NOTE) or ""})
+                    C.NOTE: note})
         rows.append(row)
     table = pd.DataFrame(rows, columns=SERIES_COLUMNS)
     options = dict(n_boot=int(n_boot), seed=int(seed), confidence=float(confidence),

@@ -133,3 +133,14 @@ def test_family_p_agrees_with_the_interval_over_runs(confidence):
             assert excludes == significant, seed
             seen.add(bool(excludes))
     assert seen == {True, False}
+
+
+def test_too_few_resamples_for_the_family_p_say_so():
+    """With 3 comparisons and 40 resamples the family p cannot go below 3/40 = 0.075 (the
+    percentile p is at least 1/40), so it cannot agree with a 95 % interval that leaves out
+    0: the note says so."""
+    sim = _small_steps(4)
+    res = compare_series(sim.spots, "Q1ABC", "old:2026-03-02,new:2026-03-04,"
+                         "newer:2026-03-06", n_boot=40)
+    assert (res.table[C.P_FAMILY] >= 3 / 40 - 1e-12).all()
+    assert res.table[C.NOTE].str.contains("too few resamples \\(40\\) for a family p").all()
