@@ -20,7 +20,10 @@ no second implementation of the maths, so the two paths give the same answers:
 * **comparison** (:func:`compare_dask`): per partition ``pairing.pair_spots`` then
   ``grouping.summarise_pairs`` (the compressed pair table of group x cluster x kind x value
   counts), merged by summing counts, then ``compare.estimate_groups`` once on the merged
-  table.
+  table. The detection width the paired outcomes support (``compare.width``, the default
+  of the in-memory path too) is fitted between the receivers' pass and this one, from
+  per-partition counts of identical pair outcomes (``width.pair_outcomes``), merged by
+  summing counts: exact.
 
 Partitions and the pairing. The archive is partitioned by band and UTC day of the slot, so
 every spot of one slot lands in one partition: simultaneous-transmit and receive pairs
@@ -30,9 +33,10 @@ any band), so a pair at 00:00 UTC or one whose evidence sits on another band wou
 if partitions were cut by band and day: :func:`compare_dask` therefore reads the reports of
 the call under test (a small part of the archive) as one partition. The **before/after**
 design needs both periods and the control stations: one partition per band. The one
-statistic the pairing takes over the whole table - each receiver's decode threshold, its
-lowest reported SNR - is computed over all partitions first, and the censoring limits of
-each partition's pairs are moved from the partition's thresholds to the global ones.
+statistic the pairing takes over the whole table - each receiver's decode threshold, the
+50 % point of its detection curve fitted to its report histogram - is computed over all
+partitions first (the histograms are merged), and the censoring limits of each
+partition's pairs are moved from the partition's thresholds to the global ones.
 
 The Dask path runs on any scheduler: the default threads, a local cluster it starts itself
 (``scheduler="local"``), or a running cluster (``scheduler="tcp://host:8786"`` or a
@@ -159,6 +163,11 @@ def read_archive_dask(root, *, columns: Sequence[str] | None = None, bands=None,
                      locator_prefix=locator_prefix)
     files = store.archive_files(root, bands=bands, start=start, end=end)
     if not files:
+        if not (Path(root) / store.MANIFEST_NAME).exists():
+            raise InputError(
+                f"{root}: not a spotkit archive (no {store.MANIFEST_NAME}); a plain folder of "
+                "Parquet spot files is read whole by spotkit.io.ingest.load_spots ('spotkit "
+                "compare DIR'), or append it to an archive first")
         raise InputError(f"{root}: no spots in the archive match the selection")
     check_choice(group, ("file", "band", "all"), "partition grouping")
     if group == "band":
@@ -288,21 +297,34 @@ def combine_receivers(parts: Iterable[pd.DataFrame]) -> pd.DataFrame:
     return cat.groupby([C.RX_CALL, C.SNR], as_index=False)["count"].sum()
 
 
-def thresholds_from_partials(partials: pd.DataFrame, min_reports: int = 20) -> pd.Series:
+def reports_from_partials(partials: pd.DataFrame) -> pd.DataFrame:
+    """A stand-in report table (``C.RX_CALL``, ``C.SNR`` [dB]) with the histograms of
+    merged :func:`receiver_partials`: each receiver's whole-dB reports, as many as it
+    sent (SNRs that were not whole dB are taken at their whole dB)."""
+    reps = partials["count"].to_numpy(dtype=np.int64)
+    return pd.DataFrame({
+        C.RX_CALL: np.repeat(partials[C.RX_CALL].to_numpy(dtype=object), reps),
+        C.SNR: np.repeat(partials[C.SNR].to_numpy(dtype=float), reps)})
+
+
+def thresholds_from_partials(partials: pd.DataFrame, min_reports: int = 20, *,
+                             tau_db: float | None = None,
+                             whole_db: bool | None = None) -> pd.Series:
     """Receiver thresholds as :func:`spotkit.compare.pairing.receiver_thresholds` on the
     whole table, from merged :func:`receiver_partials`.
 
     The pairing function is run on a stand-in table with each receiver's whole-dB reports
-    (the same histograms; SNRs that were not whole dB are taken at their whole dB).
-    ``attrs["detection"]`` carries the detection model fitted to all of them.
+    (:func:`reports_from_partials`: the same histograms). ``attrs["detection"]`` carries
+    the detection model: of width ``tau_db`` [dB] when given, else fitted to all the
+    reports' histograms. ``whole_db``: whether the reports are whole dB
+    (:func:`spotkit.compare.pairing.is_whole_db` of the summed
+    :func:`~spotkit.compare.pairing.whole_db_counts` of the partitions); the stand-in
+    table is whole dB whatever the reports were, so None takes it as whole dB.
     """
     from spotkit.compare.pairing import receiver_thresholds
 
-    reps = partials["count"].to_numpy(dtype=np.int64)
-    stand_in = pd.DataFrame({
-        C.RX_CALL: np.repeat(partials[C.RX_CALL].to_numpy(dtype=object), reps),
-        C.SNR: np.repeat(partials[C.SNR].to_numpy(dtype=float), reps)})
-    return receiver_thresholds(stand_in, min_reports)
+    return receiver_thresholds(reports_from_partials(partials), min_reports, tau_db=tau_db,
+                               whole_db=whole_db)
 
 
 def _calls_needed(design: str, a: str, b: str | None) -> tuple[str, list[str]]:
@@ -311,6 +333,62 @@ def _calls_needed(design: str, a: str, b: str | None) -> tuple[str, list[str]]:
     col = C.RX_CALL if design == "receive" else C.TX_CALL
     need = [a, b] if design in ("simultaneous", "receive") else [a]
     return col, need
+
+
+def _partition_pairs(df: pd.DataFrame, design: str, a: str, b: str | None, *,
+                     thresholds: pd.Series | None, schedule, change_at, window_slots: int,
+                     min_receiver_reports: int, require_open_path: bool):
+    """The pairs of one partition, their limits at the global ``thresholds``; None when
+    the partition lacks a call the design needs or nothing pairs."""
+    from spotkit.compare.pairing import pair_spots, receiver_thresholds
+    from spotkit.errors import NoPairsError
+
+    col, need = _calls_needed(design, a, b)
+    present = set(df[col].astype(str).unique()) if len(df) else set()
+    if not all(c in present for c in need):
+        return None
+    # the partition's thresholds use the width of the detection curve of the global ones
+    tau = None if thresholds is None else (thresholds.attrs.get("detection") or {}).get(
+        "tau_db")
+    try:
+        pairs = pair_spots(df, design, a, b, schedule=schedule, change_at=change_at,
+                           window_slots=window_slots,
+                           min_receiver_reports=min_receiver_reports,
+                           require_open_path=require_open_path, tau_db=tau)
+    except NoPairsError:
+        return None
+    if thresholds is not None:  # before/after too: its bounds use the threshold as well
+        local = receiver_thresholds(df, min_receiver_reports, tau_db=tau)
+        shift = thresholds.reindex(local.index).to_numpy(dtype=float) - local.to_numpy()
+        shift = pd.Series(shift, index=local.index.astype(str))
+        if design == "receive":
+            pairs[C.LIMIT_A] += float(shift.get(need[0], 0.0))
+            pairs[C.LIMIT_B] += float(shift.get(need[1], 0.0))
+        else:  # receivers are the clusters
+            d = pairs[C.CLUSTER].astype(str).map(shift).to_numpy(dtype=float)
+            pairs[C.LIMIT_A] = pairs[C.LIMIT_A].to_numpy() + d
+            pairs[C.LIMIT_B] = pairs[C.LIMIT_B].to_numpy() + d
+    return pairs
+
+
+def outcome_partials(df: pd.DataFrame, design: str, a: str, b: str | None = None, *,
+                     thresholds: pd.Series | None = None, schedule=None, change_at=None,
+                     window_slots: int = 1, min_receiver_reports: int = 20,
+                     require_open_path: bool = True) -> pd.DataFrame:
+    """Pair one partition and compress its pairs for the fit of the detection width.
+
+    The pairs are those of :func:`compare_partials` (limits at the global
+    ``thresholds``); the result is :func:`spotkit.compare.width.pair_outcomes` of them,
+    mergeable exactly by :func:`spotkit.compare.width.merge_pair_outcomes` (empty when the
+    partition has no pairs).
+    """
+    from spotkit.compare.width import empty_pair_outcomes, pair_outcomes
+
+    pairs = _partition_pairs(df, design, a, b, thresholds=thresholds, schedule=schedule,
+                             change_at=change_at, window_slots=window_slots,
+                             min_receiver_reports=min_receiver_reports,
+                             require_open_path=require_open_path)
+    return empty_pair_outcomes() if pairs is None else pair_outcomes(pairs)
 
 
 def compare_partials(df: pd.DataFrame, design: str, a: str, b: str | None = None, *,
@@ -327,39 +405,18 @@ def compare_partials(df: pd.DataFrame, design: str, a: str, b: str | None = None
     :func:`thresholds_from_partials`) the censoring limits are moved from the partition's
     own thresholds to the global ones - the pairing takes each receiver's threshold from
     the table it is given, and the limit is ``threshold - (power - 30)`` - so the pairs equal
-    those of the whole table.
+    those of the whole table. The partition's thresholds use the detection width of
+    ``thresholds.attrs["detection"]``.
     """
     from spotkit.compare.grouping import summarise_pairs
-    from spotkit.compare.pairing import pair_spots, receiver_thresholds
-    from spotkit.errors import NoPairsError
 
     group_options = group_options or {}
-    empty = _empty_compare(by, group_options)
-    col, need = _calls_needed(design, a, b)
-    present = set(df[col].astype(str).unique()) if len(df) else set()
-    if not all(c in present for c in need):
-        return empty
-    # the partition's thresholds use the width of the detection curve fitted to all data
-    tau = None if thresholds is None else (thresholds.attrs.get("detection") or {}).get(
-        "tau_db")
-    try:
-        pairs = pair_spots(df, design, a, b, schedule=schedule, change_at=change_at,
-                           window_slots=window_slots,
-                           min_receiver_reports=min_receiver_reports,
-                           require_open_path=require_open_path, tau_db=tau)
-    except NoPairsError:
-        return empty
-    if thresholds is not None:  # before/after too: its bounds use the threshold as well
-        local = receiver_thresholds(df, min_receiver_reports, tau_db=tau)
-        shift = thresholds.reindex(local.index).to_numpy(dtype=float) - local.to_numpy()
-        shift = pd.Series(shift, index=local.index.astype(str))
-        if design == "receive":
-            pairs[C.LIMIT_A] += float(shift.get(need[0], 0.0))
-            pairs[C.LIMIT_B] += float(shift.get(need[1], 0.0))
-        else:  # receivers are the clusters
-            d = pairs[C.CLUSTER].astype(str).map(shift).to_numpy(dtype=float)
-            pairs[C.LIMIT_A] = pairs[C.LIMIT_A].to_numpy() + d
-            pairs[C.LIMIT_B] = pairs[C.LIMIT_B].to_numpy() + d
+    pairs = _partition_pairs(df, design, a, b, thresholds=thresholds, schedule=schedule,
+                             change_at=change_at, window_slots=window_slots,
+                             min_receiver_reports=min_receiver_reports,
+                             require_open_path=require_open_path)
+    if pairs is None:
+        return _empty_compare(by, group_options)
     keys = _parse_by(by)
     overall = summarise_pairs(pairs, (), day_hours=day_hours)
     counts = summarise_pairs(pairs, keys, day_hours=day_hours, **group_options) if keys \
@@ -471,16 +528,30 @@ def compare_dask(source, design: str, a: str, b: str | None = None, *, by=(), sc
                  seed: int = 0, min_pairs: int = 30, confidence: float = 0.95,
                  scheduler: Scheduler = None, split_every: int = 16, bands=None, start=None,
                  end=None, threshold_correction: str = "none", missed_reports: str = "fit",
-                 day_hours: float = 24.0, require_open_path: bool = True):
+                 day_hours: float = 24.0, require_open_path: bool = True,
+                 tau_db: float | None = None, tau_from: str = "pairs"):
     """Compare antennas A and B over a partitioned archive on Dask.
 
-    Two passes over the partitions: (1) each receiver's lowest SNR and report count
+    Two passes over the partitions: (1) each receiver's report histogram
     (:func:`receiver_partials`), merged into the receiver thresholds of the whole data;
     (2) :func:`compare_partials` per partition (pairing + compressed pair table), merged by
     summing counts (:func:`combine_compare`), then one
     :func:`spotkit.compare.estimate.estimate_groups` (:func:`finish_compare`). Parameters are those
     of :func:`spotkit.compare.estimate.compare_antennas` plus ``scheduler``, ``split_every`` and a
     selection pushed down to Parquet (``bands``, ``start``, ``end`` [UTC]).
+
+    The detection width, as in :func:`~spotkit.compare.estimate.compare_antennas`: ``tau_db``
+    [dB] when given; else, with ``tau_from="pairs"`` (default) and a paired design, the
+    width the paired outcomes support (:mod:`spotkit.compare.width`): between the two
+    passes, :func:`outcome_partials` pairs every partition at the thresholds of pass 1 and
+    compresses the pairs to counts of identical (receiver, SNRs, limits), merged exactly
+    (:func:`spotkit.compare.width.merge_pair_outcomes`); the width is fitted on the client
+    from the merged table and the histograms of pass 1
+    (:func:`spotkit.compare.width.width_from_outcomes`), and pass 2 pairs at the
+    thresholds of that width. The pairing thus runs twice (the reports of the calls under
+    test are read twice), and the width and estimate equal those of the in-memory path to
+    rounding. With ``tau_from="reports"`` or the before/after design, the width fitted
+    to the receivers' report histograms.
 
     From an archive the result equals :func:`~spotkit.compare.estimate.compare_antennas` on the
     whole table (same seed, same bootstrap) for every design: the second pass reads only
@@ -500,7 +571,15 @@ def compare_dask(source, design: str, a: str, b: str | None = None, *, by=(), sc
     import dask
 
     from spotkit.compare.grouping import DEFAULT_DISTANCE_EDGES, DEFAULT_ELEVATION_EDGES
+    from spotkit.compare.pairing import is_whole_db
+    from spotkit.compare.width import (
+        PAIRED_DESIGNS,
+        WIDTH_FROM,
+        merge_pair_outcomes,
+        width_from_outcomes,
+    )
 
+    check_choice(tau_from, WIDTH_FROM, "tau_from")
     keys = _parse_by(by)
     group_options = dict(
         distance_edges=DEFAULT_DISTANCE_EDGES if distance_edges is None else distance_edges,
@@ -528,25 +607,44 @@ def compare_dask(source, design: str, a: str, b: str | None = None, *, by=(), sc
         parts2 = _partitions(source, None, selection)
     rec_d = dask.delayed(receiver_partials, pure=True)
     calls_d = dask.delayed(_distinct_calls, pure=True)
+    whole_d = dask.delayed(_whole_db_counts, pure=True)
     rec_total = _tree_reduce([rec_d(p) for p in parts1], combine_receivers, split_every)
     calls_total = _tree_reduce([calls_d(p, col) for p in parts1], _union, split_every)
+    whole_total = _tree_reduce([whole_d(p) for p in parts1], _sum_counts, split_every)
     with dask_scheduler(scheduler) as kw:
-        rec, calls = dask.compute(rec_total, calls_total, **kw)
+        rec, calls, whole = dask.compute(rec_total, calls_total, whole_total, **kw)
+        whole = is_whole_db(whole)  # as the in-memory path decides it on all reports
         missing = [c for c in need if c not in calls]
         if missing:
             shown = ", ".join(sorted(calls)[:15]) + (" ..." if len(calls) > 15 else "")
             raise InputError(f"call(s) {', '.join(missing)} not found among the "
                              f"{'receivers' if col == C.RX_CALL else 'transmitters'} of the "
                              f"archive; present: {shown}")
-        thr = thresholds_from_partials(rec, min_receiver_reports)
+        thr = thresholds_from_partials(rec, min_receiver_reports, tau_db=tau_db,
+                                       whole_db=whole)
+        pairing = dict(schedule=schedule, change_at=change_at, window_slots=window_slots,
+                       min_receiver_reports=min_receiver_reports,
+                       require_open_path=require_open_path)
+        if tau_db is None and tau_from == "pairs" and design in PAIRED_DESIGNS:
+            out_d = dask.delayed(outcome_partials, pure=True)
+            (outcomes,) = dask.compute(_tree_reduce(
+                [out_d(p, design, a, b, thresholds=thr, **pairing) for p in parts2],
+                merge_pair_outcomes, split_every), **kw)
+            if len(outcomes):  # no pairs at all: pass 2 says why
+                det = width_from_outcomes(reports_from_partials(rec), outcomes, design, a,
+                                          b, detection=thr.attrs["detection"],
+                                          min_receiver_reports=min_receiver_reports,
+                                          whole_db=whole)
+                thr = thresholds_from_partials(rec, min_receiver_reports,
+                                               tau_db=det["tau_db"], whole_db=whole)
+                thr.attrs["detection"] = det
         cmp_d = dask.delayed(compare_partials, pure=True)
-        partials = [cmp_d(p, design, a, b, by=keys, thresholds=thr, schedule=schedule,
-                          change_at=change_at, window_slots=window_slots,
-                          min_receiver_reports=min_receiver_reports,
-                          group_options=group_options, day_hours=day_hours,
-                          require_open_path=require_open_path) for p in parts2]
+        partials = [cmp_d(p, design, a, b, by=keys, thresholds=thr,
+                          group_options=group_options, day_hours=day_hours, **pairing)
+                    for p in parts2]
         (merged,) = dask.compute(_tree_reduce(partials, combine_compare, split_every), **kw)
     options = dict(group_options, window_slots=int(window_slots),
+                   tau_db=None if tau_db is None else float(tau_db), tau_from=tau_from,
                    threshold_correction=threshold_correction, missed_reports=missed_reports,
                    day_hours=float(day_hours), require_open_path=bool(require_open_path),
                    schedule=schedule if isinstance(schedule, (str, type(None))) else "table",
@@ -558,6 +656,16 @@ def compare_dask(source, design: str, a: str, b: str | None = None, *, by=(), sc
                           threshold_correction=threshold_correction,
                           missed_reports=missed_reports,
                           detection=thr.attrs.get("detection"))
+
+
+def _whole_db_counts(df: pd.DataFrame) -> np.ndarray:
+    from spotkit.compare.pairing import whole_db_counts
+
+    return whole_db_counts(df[C.SNR].to_numpy(dtype=float))
+
+
+def _sum_counts(parts) -> np.ndarray:
+    return np.sum(np.stack(list(parts)), axis=0)
 
 
 def _distinct_calls(df: pd.DataFrame, col: str) -> set:
@@ -584,6 +692,7 @@ def enrich_dask(ddf):
 
 __all__ = [
     "dask_scheduler", "read_archive_dask", "coverage_dask", "enrich_dask",
-    "ComparePartials", "receiver_partials", "combine_receivers", "thresholds_from_partials",
-    "compare_partials", "combine_compare", "finish_compare", "compare_dask",
+    "ComparePartials", "receiver_partials", "combine_receivers", "reports_from_partials",
+    "thresholds_from_partials", "outcome_partials", "compare_partials", "combine_compare",
+    "finish_compare", "compare_dask",
 ]

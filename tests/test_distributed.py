@@ -227,12 +227,12 @@ def test_compare_dask_equals_pandas_simultaneous(sim_archive, client, by):
     from spotkit.compare.estimate import compare_antennas
 
     sim, root = sim_archive
-    # compare_dask fits the detection width to the report histograms (the width from the
-    # pairs, compare_antennas' default, is not on Dask yet): compare like with like
+    # the width fitted to the report histograms on both paths (the width from the pairs,
+    # the default, is checked by test_compare_dask_width_from_pairs_equals_pandas)
     want = compare_antennas(sim.spots, "simultaneous", sim.a, sim.b, by=by, n_boot=200, seed=1,
                             tau_from="reports")
     got = D.compare_dask(root, "simultaneous", sim.a, sim.b, by=by, n_boot=200, seed=1,
-                         scheduler=client, split_every=2)
+                         scheduler=client, split_every=2, tau_from="reports")
     # same pairs -> the same compressed table (counts exact) -> the same bootstrap
     assert_same_counts(got.counts, want.counts)
     for k, v in want.overall.items():
@@ -257,9 +257,9 @@ def test_compare_dask_bootstrap_seeds_agree_within_monte_carlo_error(sim_archive
 
     sim, root = sim_archive
     want = compare_antennas(sim.spots, "simultaneous", sim.a, sim.b, n_boot=200, seed=1,
-                            tau_from="reports")  # as compare_dask (see above)
+                            tau_from="reports")
     got = D.compare_dask(root, "simultaneous", sim.a, sim.b, n_boot=200, seed=2,
-                         scheduler="sync")
+                         scheduler="sync", tau_from="reports")
     assert got.overall[C.B_MINUS_A] == pytest.approx(want.overall[C.B_MINUS_A], abs=1e-9)
     se = (want.overall[C.CI_HIGH] - want.overall[C.CI_LOW]) / (2 * norm.ppf(0.975))
     mc_sd = np.sqrt(0.025 * 0.975 / 200) / norm.pdf(norm.ppf(0.975)) * se * np.sqrt(2)
@@ -295,12 +295,102 @@ def test_compare_dask_equals_pandas_other_designs(tmp_path, design, options):
           "before-after": dict(change_at=sim.change_at)}.get(design, {}) | options
     store.append_to_dataset(sim.spots, tmp_path / "arch")
     want = compare_antennas(sim.spots, design, sim.a, sim.b, by=("band",), n_boot=100, seed=4,
-                            tau_from="reports", **kw)  # as compare_dask (see above)
+                            tau_from="reports", **kw)
     got = D.compare_dask(tmp_path / "arch", design, sim.a, sim.b, by=("band",), n_boot=100,
-                         seed=4, scheduler="sync", **kw)
+                         seed=4, scheduler="sync", tau_from="reports", **kw)
     assert_same_counts(got.counts, want.counts)
     assert_same_groups(got.groups, want.groups, [C.BAND])
     assert got.set_aside == want.set_aside
+
+
+@pytest.fixture(scope="module")
+def soft_archive(tmp_path_factory):
+    """A soft detection curve (1 dB wide) and A 5 dB below B: the width matters."""
+    from spotkit.sim.simulate import simulate_spots
+
+    sim = simulate_spots("simultaneous", days=2, seed=7, n_receivers=60, start="2026-03-02",
+                         detection_width_db=1.0, difference_db=5.0)
+    root = tmp_path_factory.mktemp("soft") / "arch"
+    store.append_to_dataset(sim.spots, root)
+    return sim, root
+
+
+@pytest.mark.parametrize("width", [{}, dict(tau_from="reports"), dict(tau_db=0.8)])
+def test_compare_dask_width_from_pairs_equals_pandas(soft_archive, client, width):
+    """The Dask path chooses the detection width as the in-memory path does - by default
+    from the paired outcomes (issue 15), else from the histograms or as given - and so
+    gives the same width, estimate, interval and method line."""
+    from spotkit.compare.estimate import compare_antennas
+
+    sim, root = soft_archive
+    want = compare_antennas(sim.spots, "simultaneous", sim.a, sim.b, by=("band",),
+                            n_boot=100, seed=1, **width)
+    got = D.compare_dask(root, "simultaneous", sim.a, sim.b, by=("band",), n_boot=100,
+                         seed=1, scheduler=client, split_every=2, **width)
+    how = {"tau_from": "fitted to the paired outcomes", "reports": "fitted to the reports",
+           "set": "dB set"}[("set" if width.get("tau_db") else width.get("tau_from", "tau_from"))]
+    assert how in got.overall[C.METHOD]
+    assert got.overall[C.METHOD] == want.overall[C.METHOD]
+    # tight: the same maths on merged counts; only the order of float sums differs
+    for col in (C.DETECTION_TAU, C.B_MINUS_A, C.CI_LOW, C.CI_HIGH, C.SYSTEMATIC):
+        assert got.overall[col] == pytest.approx(want.overall[col], rel=0, abs=1e-6), col
+    assert_same_counts(got.counts, want.counts)
+    num = [C.B_MINUS_A, C.CI_LOW, C.CI_HIGH, C.DETECTION_TAU]
+    g = _plain_sorted(got.groups, [C.BAND])
+    w = _plain_sorted(want.groups, [C.BAND])
+    np.testing.assert_allclose(g[num].to_numpy(float), w[num].to_numpy(float), rtol=0,
+                               atol=1e-6)  # dB
+    assert got.options["tau_from"] == want.options["tau_from"]
+
+
+def test_compare_dask_width_from_pairs_receive_design(tmp_path):
+    """The receive design's limits belong to the two receivers A and B, not the clusters."""
+    from spotkit.compare.estimate import compare_antennas
+    from spotkit.sim.simulate import simulate_spots
+
+    sim = simulate_spots("receive", days=2, seed=3, n_transmitters=60, start="2026-03-02",
+                         detection_width_db=1.0, difference_db=3.0)
+    store.append_to_dataset(sim.spots, tmp_path / "arch")
+    want = compare_antennas(sim.spots, "receive", sim.a, sim.b, n_boot=50, seed=4)
+    got = D.compare_dask(tmp_path / "arch", "receive", sim.a, sim.b, n_boot=50, seed=4,
+                         scheduler="sync")
+    assert "fitted to the paired outcomes" in got.overall[C.METHOD]
+    for col in (C.DETECTION_TAU, C.B_MINUS_A):
+        assert got.overall[col] == pytest.approx(want.overall[col], rel=0, abs=1e-6), col
+
+
+def test_compare_dask_reports_not_in_whole_db(soft_archive, tmp_path):
+    """SNRs with a decimal (not whole dB): the Dask path's receiver histograms are of
+    whole-dB values, but it decides 'whole dB' on all reports as the in-memory path does
+    (reports as points, not 1-dB intervals), so width and estimate still agree."""
+    from spotkit.compare.estimate import compare_antennas
+
+    sim, _ = soft_archive
+    spots = sim.spots.copy()
+    jitter = np.random.default_rng(0).uniform(-0.5, 0.5, len(spots)).round(1)
+    spots[C.SNR] = spots[C.SNR].to_numpy(float) + jitter
+    store.append_to_dataset(spots, tmp_path / "arch")
+    want = compare_antennas(spots, "simultaneous", sim.a, sim.b, n_boot=50, seed=1)
+    got = D.compare_dask(tmp_path / "arch", "simultaneous", sim.a, sim.b, n_boot=50, seed=1,
+                         scheduler="sync")
+    assert "whole-dB" not in want.overall[C.METHOD]
+    assert got.overall[C.METHOD] == want.overall[C.METHOD]
+    for col in (C.DETECTION_TAU, C.B_MINUS_A):
+        assert got.overall[col] == pytest.approx(want.overall[col], rel=0, abs=1e-6), col
+
+
+def test_pair_outcomes_merge_exactly(soft_archive):
+    """Outcome tables of any split of the pairs merge into the table of all pairs."""
+    from spotkit.compare.pairing import pair_spots
+    from spotkit.compare.width import merge_pair_outcomes, pair_outcomes
+
+    sim, _ = soft_archive
+    pairs = pair_spots(sim.spots, "simultaneous", sim.a, sim.b)
+    want = pair_outcomes(pairs)
+    assert want[C.COUNT].sum() == len(pairs) and len(want) < len(pairs)
+    labels = np.random.default_rng(1).integers(0, 5, len(pairs))
+    got = merge_pair_outcomes([pair_outcomes(p) for _, p in pairs.groupby(labels)])
+    pd.testing.assert_frame_equal(got, want)
 
 
 def test_cli_archive_coverage_and_compare(sim_archive, tmp_path, capsys):
@@ -339,3 +429,14 @@ def test_dask_path_reads_only_committed_files(tmp_path, spots):
 def test_bad_scheduler_is_a_usage_error_naming_the_scheduler(archive):
     with pytest.raises(UsageError, match=r"scheduler 'bogus': not a scheduler address"):
         D.coverage_dask(archive, ("band",), scheduler="bogus")
+
+
+def test_plain_parquet_folder_is_not_an_archive(tmp_path, spots):
+    """A folder of Parquet files without a manifest: the Dask path says it is not an archive
+    (and where such a folder is read), not that nothing matches the selection."""
+    from spotkit.errors import InputError
+
+    spots.to_parquet(tmp_path / "a.parquet")
+    with pytest.raises(InputError, match=r"not a spotkit archive \(no _spotkit_manifest.json\)"
+                                         r".*load_spots"):
+        D.coverage_dask(tmp_path, ("band",), scheduler="sync")

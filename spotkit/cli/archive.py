@@ -72,6 +72,11 @@ def add_archive(sub) -> None:
     cmp.add_argument("--missed-reports", choices=["fit", "none"], default="fit")
     cmp.add_argument("--threshold-correction", choices=["edge", "none"], default="none")
     cmp.add_argument("--day-hours", type=positive_float, default=24.0, metavar="HOURS")
+    cmp.add_argument("--tau", type=positive_float, metavar="DB",
+                     help="width of the decoders' detection curve [dB] (default: fitted)")
+    cmp.add_argument("--tau-from", choices=["pairs", "reports"], default="pairs",
+                     help="where a fitted detection width comes from: the paired reports "
+                     "(default, as 'spotkit compare') or each receiver's report histogram")
     cmp.add_argument("--json", metavar="OUT.json")
     cmp.add_argument("--csv", metavar="OUT.csv")
     p.set_defaults(func=cmd_archive)
@@ -151,6 +156,6 @@ def cmd_archive(args) -> int:
         change_at=args.change_at, window_slots=args.window, n_boot=args.boot, seed=args.seed,
         min_pairs=args.min_pairs, confidence=args.confidence, scheduler=args.scheduler,
         missed_reports=args.missed_reports, threshold_correction=args.threshold_correction,
-        day_hours=args.day_hours, **selection)
+        day_hours=args.day_hours, tau_db=args.tau, tau_from=args.tau_from, **selection)
     write_result(result, args)
     return EXIT_OK

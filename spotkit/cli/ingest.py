@@ -48,9 +48,11 @@ def add_ingest(sub) -> None:
                    metavar="FIELD=UNIT", help="say the unit of FIELD (iso, epoch, Hz, kHz, "
                    "MHz, dBm, W, mW)")
     p.add_argument("--set", action="append", type=key_value, default=[], dest="constants",
-                   metavar="FIELD=VALUE", help="one value of FIELD for every row, for a "
-                   "field the file does not carry (e.g. --set rx_call=Q1ABC --set "
-                   "rx_locator=JO62qm for a receiver's own decode log); checked like a cell")
+                   metavar="[FILE:]FIELD=VALUE", help="one value of FIELD for every row, "
+                   "for a field the file does not carry (e.g. --set rx_call=Q1ABC --set "
+                   "rx_locator=JO62qm for a receiver's own decode log); checked like a cell. "
+                   "With FILE: for that input file's rows only (two receivers' logs: --set "
+                   "rx1.log:rx_call=Q1ABC --set rx2.log:rx_call=Q1ABD)")
     p.add_argument("--date-order", choices=["dmy", "mdy", "ymd"], default=None,
                    help="order of day, month and year in dates that are not ISO 8601 "
                    "(default: from the data where a day above 12 shows it)")
@@ -104,16 +106,33 @@ def cmd_ingest(args) -> int:
 def _reading_options(args) -> dict:
     """The keyword arguments both branches pass on about reading the CSV files."""
     mapping, units = _time_parts(args.map), dict(args.unit)
-    constants = dict(args.constants)
     if len(mapping) + ("date" in dict(args.map)) != len(args.map) \
             or len(units) != len(args.unit):
         raise UsageError("each FIELD may be given only once in --map / --unit")
-    if len(constants) != len(args.constants):
-        raise UsageError("each FIELD may be given only once in --set")
+    constants = _constants(args.constants)
     header = {"auto": "auto", "yes": True, "no": False}[args.header]
     return dict(mapping=mapping, units=units, delimiter=args.delimiter, header=header,
                 slot_minutes=args.slot_minutes, region=args.region, constants=constants,
                 date_order=args.date_order)
+
+
+def _constants(pairs: list) -> dict:
+    """``--set`` pairs as the ``constants`` of :func:`spotkit.io.ingest.read_spots`:
+    ``FIELD=VALUE`` for every file, ``FILE:FIELD=VALUE`` (split at the last ``:`` before
+    the ``=``; field names hold no ``:``) for that file only."""
+    out: dict = {}
+    seen = set()
+    for key, value in pairs:
+        file, _, field = key.rpartition(":")
+        if (file, field) in seen:
+            raise UsageError("each FIELD may be given only once in --set"
+                             + (f" for {file}" if file else "") + f" ({field} twice)")
+        seen.add((file, field))
+        if file:
+            out.setdefault(file, {})[field] = value
+        else:
+            out[field] = value
+    return out
 
 
 def _time_parts(pairs: list) -> dict:

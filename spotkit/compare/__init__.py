@@ -61,10 +61,13 @@ from spotkit.compare.pairing import (
     TAU_FACTORS,
     TAU_FACTORS_SET,
     THRESHOLD_METHODS,
+    WHOLE_DB_SHARE,
+    is_whole_db,
     pair_spots,
     read_schedule,
     receiver_thresholds,
     schedule_antennas,
+    whole_db_counts,
 )
 from spotkit.compare.reach import (
     ReachResult,
@@ -80,10 +83,15 @@ from spotkit.compare.series import (
     parse_periods,
 )
 from spotkit.compare.width import (
+    OUTCOME_COLUMNS,
     PAIRED_DESIGNS,
     WIDTH_FROM,
     WIDTH_GRID_DB,
+    empty_pair_outcomes,
+    merge_pair_outcomes,
+    pair_outcomes,
     profile_loglik,
+    width_from_outcomes,
     width_from_pairs,
 )
 
@@ -106,7 +114,9 @@ __all__ = [
     "compare_series", "parse_periods",
     "GRID_KEYS", "difference_grid", "grid_key", "grid_table",
         "PAIRED_DESIGNS", "WIDTH_FROM", "WIDTH_GRID_DB", "profile_loglik",
-    "width_from_pairs",
+    "width_from_pairs", "OUTCOME_COLUMNS", "pair_outcomes", "merge_pair_outcomes",
+    "empty_pair_outcomes", "width_from_outcomes", "WHOLE_DB_SHARE", "whole_db_counts",
+    "is_whole_db",
 ]
 # measured against modelled gain patterns
 from spotkit.compare.modelcheck import (

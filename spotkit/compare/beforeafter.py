@@ -241,7 +241,9 @@ def estimate_before_after(counts, keys, n_boot, seed, confidence, min_pairs, clu
         if not two_way:
             continue
         lo[g], hi[g] = r_lo, r_hi
-        pv[g] = _nan_if_none(stats.bootstrap_p_value(rep, est[g]))
+        # the p the percentile interval implies: p < 1 - confidence exactly when the
+        # interval leaves out 0 (a normal-approximation p could say otherwise)
+        pv[g] = _nan_if_none(stats.percentile_p_value(rep))
         bad = np.mean(~np.isfinite(rep))
         if bad > 0.05:
             notes[g] += f"; {bad:.0%} of the bootstrap resamples had no estimate"
@@ -277,7 +279,9 @@ def estimate_before_after(counts, keys, n_boot, seed, confidence, min_pairs, clu
         + "), per period, over the receivers that heard the target in both periods; "
         f"{confidence:.0%} percentile two-way bootstrap ({int(n_boot)} resamples): "
         f"{cluster_label} (the same weights in both periods) times days within each period "
-        "(n-1 of n, rescaled), no interval with fewer than two days in a period; 'pairs' "
+        "(n-1 of n, rescaled), no interval with fewer than two days in a period; p from "
+        "the same percentile bootstrap (the level at which its interval would reach 0, at "
+        "least 1/resamples); 'pairs' "
         "counts "
         "reports heard; both/only_a/only_b do not apply; HL, Wilcoxon and sign test on "
         "per-receiver differences of the heard reports; " + WEAKER_DESIGN)

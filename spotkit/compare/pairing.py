@@ -192,16 +192,49 @@ def _report_histograms(spots: pd.DataFrame):
     return pd.Index(calls, name=C.RX_CALL), lowest, hist, count
 
 
-def _t50_fitter(spots: pd.DataFrame, min_reports: int = 20):
+#: reports are taken as whole dB when at least this share of them is (within 1e-6 dB)
+WHOLE_DB_SHARE = 0.99
+
+
+def whole_db_counts(snr) -> np.ndarray:
+    """``[reports within 1e-6 dB of a whole dB, finite reports]`` of SNRs [dB]: mergeable
+    (partitions' counts add up), so that :func:`is_whole_db` of the sum decides for the
+    whole table (the Dask path, :mod:`spotkit.distributed`).
+
+    Examples
+    --------
+    >>> whole_db_counts([-12.0, -20.0, -7.5, float("nan")]).tolist()
+    [2, 3]
+    """
+    snr = np.asarray(snr, dtype=float)
+    snr = snr[np.isfinite(snr)]
+    return np.array([int(np.sum(np.abs(snr - np.round(snr)) < 1e-6)), snr.size],
+                    dtype=np.int64)
+
+
+def is_whole_db(counts) -> bool:
+    """Whether reports are whole dB, from :func:`whole_db_counts`: at least
+    :data:`WHOLE_DB_SHARE` of them.
+
+    Examples
+    --------
+    >>> is_whole_db([99, 100]), is_whole_db([98, 100]), is_whole_db([0, 0])
+    (True, False, False)
+    """
+    n_whole, n = (int(x) for x in counts)
+    return n > 0 and n_whole >= WHOLE_DB_SHARE * n
+
+
+def _t50_fitter(spots: pd.DataFrame, min_reports: int = 20, whole_db: bool | None = None):
     """What :func:`receiver_thresholds` fits with: the receiver calls, whether reports are
-    whole dB, ``fit(tau, rounding)`` -> the 50 % points [dB] of every receiver for a
-    detection width ``tau`` [dB], and ``fit_width(rounding)`` -> the width fitted to the
-    report histograms. The histograms are made once, so that many widths are cheap
-    (:mod:`spotkit.compare.width`)."""
+    whole dB (``whole_db``, or from ``spots`` when None), ``fit(tau, rounding)`` -> the
+    50 % points [dB] of every receiver for a detection width ``tau`` [dB], and
+    ``fit_width(rounding)`` -> the width fitted to the report histograms. The histograms are
+    made once, so that many widths are cheap (:mod:`spotkit.compare.width`)."""
     calls, lowest, hist, _count = _report_histograms(spots)
     snr = spots[C.SNR].to_numpy(dtype=float)
     snr = snr[np.isfinite(snr)]
-    whole = bool(snr.size) and bool(np.mean(np.abs(snr - np.round(snr)) < 1e-6) >= 0.99)
+    whole = is_whole_db(whole_db_counts(snr)) if whole_db is None else bool(whole_db)
     # all reports as one receiver: the fallback when no receiver is well observed
     v_all = np.floor(snr + 0.5)
     low_all = float(v_all.min()) if v_all.size else 0.0
@@ -234,7 +267,8 @@ def _t50_fitter(spots: pd.DataFrame, min_reports: int = 20):
 
 def receiver_thresholds(spots: pd.DataFrame, min_reports: int = 20, *,
                         method: ThresholdMethod = "t50", tau_db: float | None = None,
-                        rounding: Rounding = "after") -> pd.Series:
+                        rounding: Rounding = "after",
+                        whole_db: bool | None = None) -> pd.Series:
     """Each receiver's decode threshold: the 50 % point of its detection curve.
 
     ``method="t50"`` (default) fits ``P(decoded | s) = Phi((s - t50) / tau)`` to the low
@@ -261,6 +295,10 @@ def receiver_thresholds(spots: pd.DataFrame, min_reports: int = 20, *,
         Width of the detection curve [dB]; fitted when None.
     rounding : {"after", "before"}
         Whether the decoder decides on the raw SNR and rounds the report afterwards.
+    whole_db : bool, optional
+        Whether the reports are whole dB (``attrs["detection"]["whole_db"]``); None: from
+        ``spots`` (:func:`is_whole_db`). For a stand-in table of rounded reports (the Dask
+        path) that cannot show it.
 
     Returns
     -------
@@ -303,7 +341,7 @@ def receiver_thresholds(spots: pd.DataFrame, min_reports: int = 20, *,
         thr.name = C.THRESHOLD
         return thr
     check_choice(rounding, ROUNDINGS, "rounding")
-    calls, whole, fit, fit_width = _t50_fitter(spots, min_reports)
+    calls, whole, fit, fit_width = _t50_fitter(spots, min_reports, whole_db)
     tau = float(tau_db) if tau_db is not None else fit_width(rounding)
     t50 = fit(tau, rounding)
     alternatives = []
@@ -1014,4 +1052,5 @@ def pair_spots(spots: pd.DataFrame, design: Design, a: str, b: str | None = None
 
 __all__ = ["DESIGNS", "PAIR_COLUMNS", "THRESHOLD_METHODS", "TAU_FACTORS",
            "TAU_FACTORS_SET", "T50_ERROR_DB", "PERIOD_BOUND_KINDS", "pair_spots",
-           "receiver_thresholds", "read_schedule", "schedule_antennas"]
+           "receiver_thresholds", "read_schedule", "schedule_antennas", "WHOLE_DB_SHARE",
+           "whole_db_counts", "is_whole_db"]

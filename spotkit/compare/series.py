@@ -14,7 +14,15 @@ between neighbours (the first step is both, and counted once): ``m = 2 (n - 1) -
 comparisons for ``n >= 2`` periods. The comparisons are fitted on different subsets of the
 data, so one joint bootstrap is not available here; each interval is taken at confidence
 ``1 - (1 - confidence) / m`` (Bonferroni), which holds for all at once whatever their
-correlation (conservative), and ``C.P_FAMILY`` is ``min(1, m p)``.
+correlation (conservative), and ``C.P_FAMILY`` is ``min(1, m p)``. The p of each
+comparison comes from the same percentile bootstrap as its interval (the level at which
+the interval would just reach 0, :func:`spotkit.stats.bootstrap.percentile_p_value`), so a
+comparison's simultaneous interval leaves out 0 exactly when its ``C.P_FAMILY`` is below
+``1 - confidence`` (when there are more than ``m / (1 - confidence)`` resamples: p cannot go
+below one over their number). Before, p came from a normal approximation with the
+bootstrap SE and could disagree with the percentile interval: 1 of 18 comparisons in six
+simulated series (0.6 dB, then 0.4 dB more, 200 resamples) had an interval from -0.02 to
++1.97 dB with a family p of 0.020.
 
 Known error: that of the before/after design (its module docstring): with two days per
 period its interval covered 95 % of 80 simulated cases; with one day per period no
@@ -229,11 +237,15 @@ def compare_series(spots: pd.DataFrame, call: str, periods, *, n_boot: int = 400
         o = res.overall
         results[(per[i][0], per[j][0])] = res
         p = o.get(C.P_VALUE, np.nan)
+        note = o.get(C.NOTE) or ""
+        if np.isfinite(p) and m / int(n_boot) >= 1.0 - confidence:
+            note += (("; " if note else "") + f"too few resamples ({int(n_boot)}) for a "
+                     f"family p below {1.0 - confidence:g}: read the interval")
         row.update({C.B_MINUS_A: o[C.B_MINUS_A], C.CI_SIM_LOW: o[C.CI_LOW],
                     C.CI_SIM_HIGH: o[C.CI_HIGH],
                     C.P_FAMILY: min(1.0, m * p) if np.isfinite(p) else np.nan,
                     C.PAIRS: int(o[C.PAIRS] or 0), C.CLUSTERS: int(o[C.CLUSTERS] or 0),
-                    C.NOTE: o.get(C.NOTE) or ""})
+                    C.NOTE: note})
         rows.append(row)
     table = pd.DataFrame(rows, columns=SERIES_COLUMNS)
     options = dict(n_boot=int(n_boot), seed=int(seed), confidence=float(confidence),

@@ -365,6 +365,78 @@ def _as_paths(paths) -> list[Path]:
     return out
 
 
+def constants_by_file(constants, paths, mapping=None) -> list[dict[str, str]]:
+    """The constants (``--set``) of each input file: those for all files and its own.
+
+    Parameters
+    ----------
+    constants : dict or None
+        Field -> value for every file's rows; and, per file, an input path (as given, or
+        any path to the same file) -> a dict of field -> value for that file's rows only.
+    paths : sequence of path-like
+        The input files.
+    mapping : dict, optional
+        The ``--map`` fields (a field may not be both mapped and set).
+
+    Returns
+    -------
+    list of dict
+        Per input file, glossary name -> value text.
+
+    Raises
+    ------
+    UsageError
+        A per-file key that is not one of the input files (the message lists them), a
+        field given both for all files and for one, or a bad field or empty value.
+
+    Examples
+    --------
+    Two receivers' own decode logs, at one place, each with its own call:
+
+    >>> constants_by_file({"rx_locator": "JO62qm", "rx1.log": {"rx_call": "Q1ABC"},
+    ...                    "rx2.log": {"rx_call": "Q1ABD"}}, ["rx1.log", "rx2.log"])
+    [{'rx_locator': 'JO62qm', 'rx_call': 'Q1ABC'}, {'rx_locator': 'JO62qm', 'rx_call': 'Q1ABD'}]
+    >>> constants_by_file({"rx3.log": {"rx_call": "Q1ABC"}},
+    ...                   ["rx1.log", "rx2.log"])  # doctest: +ELLIPSIS
+    Traceback (most recent call last):
+    ...
+    spotkit.errors.UsageError: --set rx3.log:FIELD=VALUE: rx3.log is not one of the input ...
+    """
+    from collections.abc import Mapping
+
+    paths = [Path(p) for p in paths]
+    common, own = {}, [{} for _ in paths]
+    for key, value in (constants or {}).items():
+        if not isinstance(value, Mapping):
+            common[key] = value
+            continue
+        i = _input_index(key, paths)
+        own[i] = {**own[i], **_check_constants(value, mapping)}
+    common = _check_constants(common, mapping)
+    for p, mine in zip(paths, own, strict=True):
+        both = sorted(set(mine) & set(common))
+        if both:
+            raise UsageError(f"--set: {', '.join(both)} given both for every file and for "
+                             f"{p}: give one")
+    return [{**common, **mine} for mine in own]
+
+
+def _input_index(key, paths: list[Path]) -> int:
+    """The index of the input file that ``key`` names (as given, or the same file)."""
+    text = str(key)
+    hits = [i for i, p in enumerate(paths) if str(p) == text or p == Path(text)]
+    if not hits:
+        target = Path(text)
+        with contextlib.suppress(OSError):
+            hits = [i for i, p in enumerate(paths)
+                    if target.exists() and p.exists() and p.samefile(target)]
+    if len(hits) != 1:
+        shown = ", ".join(str(p) for p in paths[:8]) + (", ..." if len(paths) > 8 else "")
+        why = "is not one of the input files" if not hits else "names several input files"
+        raise UsageError(f"--set {text}:FIELD=VALUE: {text} {why} ({shown})")
+    return hits[0]
+
+
 def _check_args(region, slot_minutes, chunk_rows):
     if region not in REGIONS:
         raise UsageError(f"unknown IARU region {region!r}; valid: {', '.join(REGIONS)}")
@@ -471,15 +543,15 @@ def _iter_chunk_columns(paths, *, mapping, units, delimiter, header, slot_minute
     _check_args(region, slot_minutes, chunk_rows)
     mapping = _check_mapping(mapping)
     units = _check_units(units)
-    constants = _check_constants(constants, mapping)
     date_order = _check_date_order(date_order)
     delimiter = _delimiter_arg(delimiter)
     paths = _as_paths(paths)
+    per_file = constants_by_file(constants, paths, mapping)
     summary = summary if summary is not None else IngestSummary()
     temp = contextlib.ExitStack()
     try:
-        layouts = [_prepare_file(p, mapping, units, delimiter, header, constants, date_order,
-                                 temp) for p in paths]
+        layouts = [_prepare_file(p, mapping, units, delimiter, header, own, date_order,
+                                 temp) for p, own in zip(paths, per_file, strict=True)]
     except BaseException:
         temp.close()
         raise
@@ -713,7 +785,10 @@ def read_spots(paths, *, mapping=None, units=None, delimiter: Delimiter = "auto"
         receiver's own decode log has no receiver call or locator column:
         ``{"rx_call": "Q1ABC", "rx_locator": "JO62qm"}``). Keys as in ``mapping`` (not
         ``time``); values are checked as a cell of that field would be (a bad one raises
-        :class:`~spotkit.errors.UsageError`), numbers in the field's unit.
+        :class:`~spotkit.errors.UsageError`), numbers in the field's unit. For one file
+        only: the file's path as the key and a dict of fields as the value (two
+        receivers' logs: ``{"rx1.log": {"rx_call": "Q1ABC"}, "rx2.log": {"rx_call":
+        "Q1ABD"}, "rx_locator": "JO62qm"}``; :func:`constants_by_file`).
     date_order : {"dmy", "mdy", "ymd"}, optional
         Order of day, month and year in dates that are not ISO 8601 (``02.03.2026``).
         Default: ISO dates as they are, other dates day-first or month-first as the
@@ -1013,13 +1088,17 @@ def load_spots(source, **kw) -> pd.DataFrame:
     Parameters
     ----------
     source : pandas.DataFrame, str or path-like
-        ``.parquet`` files (or directories of them) are read with the glossary dtypes; other
+        ``.parquet`` files are read with the glossary dtypes; so are directories: a spotkit
+        archive (its committed files, :mod:`spotkit.io.store`) or a plain folder of
+        ``.parquet`` / ``.pq`` files (all of them, subfolders included, stacked); other
         files go through :func:`read_spots` (``**kw`` passed on).
 
     Raises
     ------
     InputError
-        When a CSV gives no accepted row; when a Parquet file holds no spot column at all
+        When a CSV gives no accepted row; when a folder is neither an archive nor holds a
+        Parquet file (the message lists what it holds); when a Parquet file holds no spot
+        column at all
         (:class:`~spotkit.errors.NotASpotTableError`) or a spot column of the wrong type
         (e.g. SNR as text).
 
@@ -1076,7 +1155,10 @@ def _read_parquet(path: Path) -> pd.DataFrame:
 
     from spotkit.errors import NotASpotTableError, SpotkitError, SpotkitWarning
     from spotkit.io import store
+    from spotkit.io.manifest import MANIFEST_NAME
 
+    if path.is_dir() and not (path / MANIFEST_NAME).exists():
+        return _read_parquet_folder(path)
     if not path.is_file():  # an archive folder, or nothing: the store says which
         return store.read_spots_parquet(path)
     try:
@@ -1123,7 +1205,38 @@ def _read_parquet(path: Path) -> pd.DataFrame:
     return spots[first + [n for n in spots.columns if n not in first]]
 
 
+#: file name endings read as Parquet in a folder that is not an archive
+PARQUET_SUFFIXES = (".parquet", ".pq")
+
+
+def _read_parquet_folder(path: Path) -> pd.DataFrame:
+    """A folder of Parquet spot files that is not a spotkit archive (no manifest): every
+    ``.parquet`` / ``.pq`` file in it and its subfolders, in name order, each read and
+    checked as a single file (:func:`_read_parquet`), stacked.
+
+    An :class:`InputError` says what the folder holds when it has no Parquet file. Rows
+    are taken as they are (no de-duplication across files; an archive, ``spotkit ingest
+    --dataset``, keeps each export once).
+    """
+    from spotkit.io.manifest import MANIFEST_NAME
+
+    files = sorted(p for p in path.rglob("*") if p.is_file()
+                   and p.suffix.lower() in PARQUET_SUFFIXES and not p.name.startswith("."))
+    if not files:
+        found = sorted(p.relative_to(path).as_posix() for p in path.rglob("*") if p.is_file())
+        shown = ", ".join(found[:5]) + (", ..." if len(found) > 5 else "")
+        raise InputError(
+            f"{path}: expected a spotkit archive (a folder with {MANIFEST_NAME}) or a "
+            f"folder of Parquet spot files "
+            f"({'/'.join(PARQUET_SUFFIXES)}); found "
+            + (f"{len(found)} other file(s): {shown}" if found else "no files at all"))
+    parts = [_read_parquet(f) for f in files]
+    spots = pd.concat(parts, ignore_index=True) if len(parts) > 1 else parts[0]
+    return C.apply_dtypes(spots)
+
+
 __all__ = [
+    "PARQUET_SUFFIXES", "constants_by_file",
     "IngestSummary", "IngestResult", "read_spots", "iter_spot_chunks", "ingest_to_parquet",
     "load_spots", "write_rejects", "DUPLICATE_REASON", "MAX_REJECT_SHARE",
     "check_reject_share", "reject_hint",

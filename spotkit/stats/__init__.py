@@ -8,6 +8,7 @@ from spotkit.stats.bootstrap import (
     bootstrap_interval,
     bootstrap_p_value,
     cluster_bootstrap_weights,
+    percentile_p_value,
     stratified_bootstrap_weights,
 )
 from spotkit.stats.censored import (
@@ -53,5 +54,6 @@ __all__ = [
     "DEFAULT_TAU_DB", "ROUNDINGS", "TAU_GRID_DB", "fit_thresholds", "fit_tau",
     "INTERVAL_METHODS", "DRAWS", "cluster_bootstrap_weights",
     "stratified_bootstrap_weights", "bootstrap_interval", "bootstrap_p_value", "max_t",
+    "percentile_p_value",
     "N_NODES", "receiver_effects_mle_batch",
 ]

@@ -74,3 +74,29 @@ def test_plot_grid_writes_a_picture(demo_parquet, tmp_path):
                  "20", "--label-a", "vertical", "--label-b", "dipole"]) == 0
     img = imread(out)
     assert img.shape[0] > 300 and img[..., :3].std() > 0.05
+
+
+def test_compare_reads_a_plain_folder_of_parquet_files(sim, demo_parquet, tmp_path, capsys):
+    """A folder of Parquet files written by pandas (no archive manifest) gives the result of
+    the same spots in one file; a folder without Parquet files is bad input (exit 1) saying
+    what was expected and what was found."""
+    import json
+
+    folder = tmp_path / "plain"
+    folder.mkdir()
+    half = len(sim.spots) // 2
+    sim.spots.iloc[:half].to_parquet(folder / "day1.parquet")
+    sim.spots.iloc[half:].to_parquet(folder / "day2.parquet")
+    one, many = tmp_path / "one.json", tmp_path / "many.json"
+    assert main(["compare", demo_parquet, *AB, "--boot", "20", "--json", str(one)]) == 0
+    assert main(["compare", str(folder), *AB, "--boot", "20", "--json", str(many)]) == 0
+    want, got = json.loads(one.read_text()), json.loads(many.read_text())
+    assert got["overall"] == want["overall"]
+    capsys.readouterr()
+    other = tmp_path / "csvs"
+    other.mkdir()
+    (other / "spots.csv").write_text("time,snr\n")
+    assert main(["compare", str(other), *AB]) == 1
+    err = capsys.readouterr().err
+    assert err.startswith("spotkit: error: ") and len(err.splitlines()) == 1
+    assert "csvs: expected a spotkit archive" in err and "found 1 other file(s): spots.csv" in err

@@ -78,3 +78,30 @@ def test_compare_end_to_end_states_the_chosen_model(sim, tmp_path, capsys):
     assert "normal-approximation" in overall["method"]
     assert out["set"]["options"]["interval"] == "normal"
     assert "Tobit" in out["tobit"]["overall"]["method"]
+
+
+@pytest.mark.parametrize("extra, want", [
+    ([], dict(tau_db=None, tau_from="pairs")),
+    (["--tau-from", "reports"], dict(tau_db=None, tau_from="reports")),
+    (["--tau", "0.8"], dict(tau_db=0.8, tau_from="pairs")),
+])
+def test_archive_compare_passes_the_width_options(extra, want, monkeypatch, tmp_path):
+    """``spotkit archive compare`` (the Dask path) takes --tau / --tau-from as 'spotkit
+    compare' does; the defaults are compare_dask's."""
+    import inspect
+
+    from spotkit.distributed import compare_dask
+    from spotkit.errors import InputError
+
+    seen = {}
+
+    def fake(*args, **kwargs):
+        seen.update(kwargs)
+        raise InputError("stop here")
+
+    monkeypatch.setattr("spotkit.distributed.compare_dask", fake)
+    assert main(["archive", "compare", str(tmp_path / "arch"), "--design", "simultaneous",
+                 "--a", "Q1ABC", "--b", "Q1ABD", *extra]) == 1
+    assert {k: seen[k] for k in want} == want
+    sig = inspect.signature(compare_dask).parameters
+    assert sig["tau_from"].default == "pairs" and sig["tau_db"].default is None

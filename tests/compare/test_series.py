@@ -90,3 +90,57 @@ def test_simulator_series_truth_and_errors():
     days = tgt[C.SLOT].dt.floor("D").unique()
     assert len(days) == 3
     assert np.isfinite(tgt[C.SNR]).all()
+
+
+def _small_steps(seed):
+    """Steps of 0.6 dB then 0.4 dB more: estimates near the edge of their intervals."""
+    return simulate_spots("before-after", days=6, n_receivers=50, bands=("20m",),
+                          difference_db=0.6, more_antennas=[1.0],
+                          change_at=["2026-03-04", "2026-03-06"], seed=seed)
+
+
+def _agree(res, confidence):
+    """Per comparison: (interval leaves out 0, family p below 1 - confidence)."""
+    t = res.table
+    out = (t[C.CI_SIM_LOW] > 0) | (t[C.CI_SIM_HIGH] < 0)
+    return list(zip(out, t[C.P_FAMILY] < 1 - confidence, strict=True))
+
+
+def test_family_p_agrees_with_the_simultaneous_interval():
+    """Seed 4 is a case where the normal-approximation p (family p 0.020) said 'below
+    0.05' while the percentile interval, -0.02 to +1.97 dB, held 0: now p comes from the
+    same percentile bootstrap and the two agree."""
+    sim = _small_steps(4)
+    res = compare_series(sim.spots, "Q1ABC", "old:2026-03-02,new:2026-03-04,"
+                         "newer:2026-03-06", n_boot=200)
+    for excludes, significant in _agree(res, 0.95):
+        assert excludes == significant
+    assert "p from the same percentile bootstrap" in next(iter(res.results.values())
+                                                          ).overall[C.METHOD]
+
+
+@pytest.mark.slow
+@pytest.mark.parametrize("confidence", [0.9, 0.95])
+def test_family_p_agrees_with_the_interval_over_runs(confidence):
+    """Over 10 simulated series x 3 comparisons, the interval and the family p never
+    disagree, and both kinds of outcome occur (so the check can fail either way)."""
+    seen = set()
+    for seed in range(10):
+        res = compare_series(_small_steps(seed).spots, "Q1ABC",
+                             "old:2026-03-02,new:2026-03-04,newer:2026-03-06", n_boot=200,
+                             confidence=confidence)
+        for excludes, significant in _agree(res, confidence):
+            assert excludes == significant, seed
+            seen.add(bool(excludes))
+    assert seen == {True, False}
+
+
+def test_too_few_resamples_for_the_family_p_say_so():
+    """With 3 comparisons and 40 resamples the family p cannot go below 3/40 = 0.075 (the
+    percentile p is at least 1/40), so it cannot agree with a 95 % interval that leaves out
+    0: the note says so."""
+    sim = _small_steps(4)
+    res = compare_series(sim.spots, "Q1ABC", "old:2026-03-02,new:2026-03-04,"
+                         "newer:2026-03-06", n_boot=40)
+    assert (res.table[C.P_FAMILY] >= 3 / 40 - 1e-12).all()
+    assert res.table[C.NOTE].str.contains("too few resamples \\(40\\) for a family p").all()

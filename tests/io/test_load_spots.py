@@ -1,6 +1,7 @@
 """load_spots on Parquet tables not written by spotkit (issue 14): times without a time zone
 are read as UTC with a note; a table of other columns or of mistyped spot columns is bad
 input naming the file and the column, never a traceback."""
+import re
 import warnings
 
 import pandas as pd
@@ -65,3 +66,44 @@ def test_zero_row_table_is_read_as_it_is(tmp_path):
     # emptiness is for the caller to judge (a plot refuses it, see tests/viz)
     path = _written(make_spots(5).iloc[:0], tmp_path)
     assert len(load_spots(path)) == 0
+
+
+# --- a plain folder of Parquet files (not a spotkit archive) ------------------------------
+def test_folder_of_parquet_files_is_read_whole(tmp_path):
+    """Files written with pandas into one folder (and a subfolder), no manifest: all rows,
+    in file-name order, with the glossary dtypes - the table of the files stacked."""
+    spots = make_spots(300, seed=4)
+    folder = tmp_path / "exports"
+    (folder / "later").mkdir(parents=True)
+    spots.iloc[:100].to_parquet(folder / "a.parquet")
+    spots.iloc[100:250].to_parquet(folder / "b.pq")
+    spots.iloc[250:].to_parquet(folder / "later" / "c.parquet")
+    (folder / "notes.txt").write_text("not data\n")
+    got = load_spots(folder)
+    want = load_spots(_written(spots, tmp_path))
+    pd.testing.assert_frame_equal(got, want)
+
+
+@pytest.mark.parametrize("files, found", [
+    ({}, "found no files at all"),
+    ({"a.csv": "x\n", "sub/b.txt": "y\n"}, "found 2 other file(s): a.csv, sub/b.txt"),
+])
+def test_folder_without_parquet_files_says_what_it_holds(tmp_path, files, found):
+    folder = tmp_path / "exports"
+    folder.mkdir()
+    for name, text in files.items():
+        (folder / name).parent.mkdir(exist_ok=True)
+        (folder / name).write_text(text)
+    with pytest.raises(InputError, match=r"exports: expected a spotkit archive \(a folder "
+                                         r"with _spotkit_manifest.json\) or a folder of "
+                                         r"Parquet spot files .*; " + re.escape(found)):
+        load_spots(folder)
+
+
+def test_bad_file_in_a_folder_is_named(tmp_path):
+    folder = tmp_path / "exports"
+    folder.mkdir()
+    make_spots(20).to_parquet(folder / "a.parquet")
+    pd.DataFrame({"colour": ["red"]}).to_parquet(folder / "b.parquet")
+    with pytest.raises(NotASpotTableError, match=r"b\.parquet: not a spot table"):
+        load_spots(folder)

@@ -103,3 +103,46 @@ def test_stratified_weights_variance_of_a_stratum_mean(draws, factor):
     means = w @ x / 4
     assert means.mean() == pytest.approx(x.mean(), abs=0.03)
     assert means.var() == pytest.approx(factor * x.var(ddof=1) / 4, rel=0.04)
+
+
+# --- the p-value that agrees with the percentile interval ---------------------------------
+@pytest.mark.parametrize("shape", ["normal", "skewed", "heavy", "with NaN", "ties"])
+def test_percentile_p_agrees_with_the_percentile_interval(shape):
+    """For every level the percentile interval leaves out 0 exactly when p < 1 - level
+    (the defining property, checked on many replicate sets, including skewed ones where the
+    normal-approximation p and the percentile interval disagree)."""
+    from spotkit.stats.bootstrap import bootstrap_interval, percentile_p_value
+
+    rng = np.random.default_rng(11)
+    levels = np.linspace(0.5, 0.995, 100)
+    checked = 0
+    for _ in range(40):
+        n = int(rng.integers(30, 400))
+        r = {"normal": rng.normal(rng.uniform(-0.5, 3), 1, n),
+             "skewed": rng.lognormal(0, 1, n) - rng.uniform(0, 3),
+             "heavy": rng.standard_t(2, n) + rng.uniform(0, 4),
+             "with NaN": np.where(rng.random(n) < 0.1, np.nan, rng.normal(1.5, 1, n)),
+             "ties": np.round(rng.normal(1, 1, n))}[shape]
+        p = percentile_p_value(r)
+        n_fin = int(np.isfinite(r).sum())
+        for level in levels:
+            if 1 - level <= 1 / n_fin:  # below the resolution of n replicates
+                continue
+            lo, hi = bootstrap_interval(r, 0.0, level)
+            excludes = lo > 0 or hi < 0
+            if abs(p - (1 - level)) < 1e-9:
+                continue  # the boundary itself
+            assert excludes == (p < 1 - level), (level, p, lo, hi)
+            checked += 1
+    assert checked > 1000
+
+
+def test_percentile_p_edge_cases():
+    from spotkit.stats.bootstrap import percentile_p_value
+
+    assert percentile_p_value(np.arange(1.0, 101.0)) == pytest.approx(1 / 100)  # all > 0
+    assert percentile_p_value(-np.arange(1.0, 51.0)) == pytest.approx(1 / 50)  # all < 0
+    assert percentile_p_value(np.linspace(-1, 1, 201)) == pytest.approx(1.0)  # median 0
+    assert np.isnan(percentile_p_value(np.array([1.0, np.nan])))
+    got = percentile_p_value(np.column_stack([np.linspace(-1, 1, 201), np.full(201, np.nan)]))
+    assert got[0] == pytest.approx(1.0) and np.isnan(got[1])
