@@ -112,11 +112,15 @@ def dask_scheduler(scheduler: Scheduler = None, *, n_workers: int = 2,
     if scheduler == "local":
         with LocalCluster(n_workers=n_workers, threads_per_worker=threads_per_worker,
                           processes=processes, memory_limit=memory_limit,
-                          dashboard_address=":0") as cluster, Client(cluster) as client:
+                          dashboard_address=":0") as cluster, \
+                Client(cluster, set_as_default=False) as client:
             yield {"scheduler": client}
         return
     try:
-        client = Client(scheduler, timeout="10s")
+        # not the default client: the scheduler goes to every compute explicitly, and a
+        # Client that fails to connect must not leave Dask's global configuration pointing
+        # at it (a later plain compute in the same process would fail)
+        client = Client(scheduler, timeout="10s", set_as_default=False)
     except (OSError, TimeoutError) as exc:
         raise UsageError(f"cannot reach the Dask scheduler at {scheduler}: {exc}") from None
     except ValueError as exc:  # not an address at all, e.g. "bogus" (missing port number)

@@ -440,3 +440,16 @@ def test_plain_parquet_folder_is_not_an_archive(tmp_path, spots):
     with pytest.raises(InputError, match=r"not a spotkit archive \(no _spotkit_manifest.json\)"
                                          r".*load_spots"):
         D.coverage_dask(tmp_path, ("band",), scheduler="sync")
+
+
+def test_a_scheduler_that_fails_leaves_dask_configuration_alone(archive):
+    """A Client that cannot be made (a bad address) must not leave Dask's global scheduler
+    pointing at a client that does not exist: a later plain compute in the same process
+    (e.g. a second command in a notebook) would fail with "no Client active"."""
+    import dask
+
+    before = dask.config.get("scheduler", None)
+    with pytest.raises(UsageError):
+        D.coverage_dask(archive, ("band",), scheduler="bogus")
+    assert dask.config.get("scheduler", None) == before
+    assert len(D.coverage_dask(archive, ("band",))) > 0
