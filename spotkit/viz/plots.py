@@ -245,8 +245,8 @@ def elevation_curve_plot(curve: pd.DataFrame, *, band=None, ax=None):
                 label=b if b else "B - A", gid=f"curve-{b or 'all'}")
     ax.axhline(0.0, color="#444444", lw=0.8, zorder=0)
     ax.set_xlabel("estimated elevation angle [deg]")
-    ax.set_ylabel("B minus A [dB]\n(shaded: pointwise 95 % band; dashed: 95 % along the "
-                  "whole curve)" if C.CI_SIM_LOW in curve else
+    ax.set_ylabel("B minus A [dB]\nshaded: pointwise 95 % band\ndashed: 95 % along the "
+                  "whole curve" if C.CI_SIM_LOW in curve else
                   "B minus A [dB]  (pointwise 95 % band)", fontsize=9)
     ax.set_title("B minus A against elevation angle (smoothed)")
     ax.grid(alpha=0.3)
