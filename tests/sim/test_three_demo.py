@@ -70,3 +70,25 @@ def test_three_demo_regenerates_byte_for_byte(demo_dir, tmp_path):
         assert (tmp_path / name).read_bytes() == (demo_dir / name).read_bytes(), name
     calls = set(sim.spots[C.TX_CALL].astype(str)) | set(sim.spots[C.RX_CALL].astype(str))
     assert all(c.startswith("Q") for c in calls)
+
+
+def test_truths_file_round_trips_and_bad_files_are_named(tmp_path):
+    from spotkit.errors import InputError
+    from spotkit.sim import truths_to_json
+
+    ants = [make_antenna(k, ("20m",), **kw) for _, k, kw, _ in THREE_DEMO]
+    sim = simulate_spots(days=0.1, n_receivers=20, bands=("20m",), seed=1,
+                         antenna_a=ants[0], antenna_b=ants[1], more_antennas=ants[2:])
+    path = tmp_path / "t.json"
+    truths_to_json(sim.truths, path, calls=sim.params["calls"])
+    back = truths_from_json(path)
+    assert set(back) == set(sim.truths)
+    for key, t in sim.truths.items():
+        np.testing.assert_allclose(back[key].pairs[C.B_MINUS_A], t.pairs[C.B_MINUS_A],
+                                   atol=1e-4)  # kept to 4 decimals
+    bad = tmp_path / "bad.json"
+    bad.write_text("{not json", encoding="utf-8")
+    with pytest.raises(InputError, match="bad.json"):
+        truths_from_json(bad)
+    with pytest.raises(InputError, match="contrasts"):
+        truths_from_json('{"calls": []}')
