@@ -168,11 +168,12 @@ def add_plot(sub) -> None:
         "and B (needs the A/B options); SNR per watt against distance; spots per hour by band.")
     _add_figure_options(p, ["bearing", "distance", "elevation", "hour", "grid", "heard",
                             "snr-distance", "spots-per-hour", "elevation-curve",
-                            "bearing-curve", "pattern-check"],
+                            "bearing-curve", "bearing-rings", "pattern-check"],
                         "which plot (elevation-curve, bearing-curve: B minus A smoothed "
                         "against the elevation angle or round the compass, with a pointwise "
-                        "bootstrap band; pattern-check: measured against two modelled "
-                        "patterns, needs --pattern-a and --pattern-b)")
+                        "bootstrap band; bearing-rings: the same round the compass as one "
+                        "coloured ring per band; pattern-check: measured against two "
+                        "modelled patterns, needs --pattern-a and --pattern-b)")
     add_pattern_options(p)
     p.set_defaults(func=cmd_plot)
 
@@ -207,7 +208,7 @@ def cmd_plot(args) -> int:
         ax = plots.heard_plot(pairs, band=bands[0] if bands else None,
                               labels=ab_labels(args) or (args.a.upper(),
                                                          (args.b or args.a).upper()))
-    elif args.kind in ("elevation-curve", "bearing-curve"):
+    elif args.kind in ("elevation-curve", "bearing-curve", "bearing-rings"):
         from spotkit.compare.elevation import bearing_curve, elevation_curve
         from spotkit.compare.pairing import pair_spots
 
@@ -231,8 +232,10 @@ def cmd_plot(args) -> int:
         if args.kind == "elevation-curve":
             curve = elevation_curve(pairs, layer_height_km=args.layer_height, **opts)
             ax = plots.elevation_curve_plot(curve, band=bands)
-        else:
+        elif args.kind == "bearing-curve":
             ax = plots.bearing_curve_plot(bearing_curve(pairs, **opts), band=bands)
+        else:
+            ax = plots.bearing_rings_plot(bearing_curve(pairs, **opts), band=bands)
     elif args.kind == "pattern-check":
         if not (args.pattern_a and args.pattern_b):
             raise UsageError("--kind pattern-check needs --pattern-a and --pattern-b")

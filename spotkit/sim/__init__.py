@@ -28,12 +28,14 @@ from spotkit.sim.simulate import (
     DEMO_LOCATOR,
     DESIGNS,
     SERIES_DEMO,
+    THREE_DEMO,
     THRESHOLD_ON,
     Propagation,
     Simulation,
     decode,
     make_demo_data,
     make_series_demo,
+    make_three_demo,
     simulate_spots,
 )
 from spotkit.sim.stations import (
@@ -45,6 +47,8 @@ from spotkit.sim.truth import (
     DEFAULT_DISTANCE_EDGES,
     TRUTH_COLUMNS,
     Truth,
+    truths_from_json,
+    truths_to_json,
 )
 
 __all__ = [
@@ -56,5 +60,6 @@ __all__ = [
     "DEFAULT_DISTANCE_EDGES", "TRUTH_COLUMNS", "Truth", "DESIGNS", "THRESHOLD_ON", "decode",
     "Propagation",
     "Simulation", "simulate_spots", "DEMO_CALL", "DEMO_LOCATOR", "make_demo_data",
-    "SERIES_DEMO", "make_series_demo",
+    "SERIES_DEMO", "make_series_demo", "THREE_DEMO", "make_three_demo", "truths_to_json",
+    "truths_from_json",
 ]

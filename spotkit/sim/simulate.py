@@ -195,6 +195,10 @@ class Simulation:
         The knobs used (JSON-friendly).
     stations : pandas.DataFrame
         Every simulated station: call, locator, lat, lon, role, threshold_db, noise_db.
+    truths : dict
+        More than two antennas (simultaneous and receive designs): ``(x, y)`` -> the
+        :class:`Truth` of y minus x for every pair of calls, x before y in
+        ``params["calls"]`` (its ``a`` is x, its ``b`` is y; ``truth`` is the pair A, B).
     """
 
     spots: pd.DataFrame
@@ -206,6 +210,7 @@ class Simulation:
     change_at: pd.Timestamp | None = None
     params: dict = field(default_factory=dict)
     stations: pd.DataFrame | None = None
+    truths: dict = field(default_factory=dict)
 
     def compare_kwargs(self) -> dict:
         """Keyword arguments for ``compare_antennas`` besides the spots."""
@@ -383,15 +388,19 @@ def simulate_spots(design: Design = "simultaneous", *, days: float = 3, seed: in
         Spread (SD) of a normal random effect per far station added to B's gain towards it
         (transmit designs) or from it (receive design) on every band [dB]; it is part of
         the true B-A in :attr:`Simulation.truth`. Default 0.
-    more_antennas : sequence of float
-        Further antennas C, D, ... beyond A and B, each A's antenna plus this many dB on
-        every path [dB] (their true difference from A, exactly). Simultaneous design: more
-        calls (Q1ABE, Q1ABF, ...; ``sim.params["calls"]``); receive design: more home
-        receivers; alternating: the schedule's labels C, D, ... ("even-odd" becomes the
-        round robin A, B, C, ...); before-after: ``change_at`` is then a list of the
-        change times (A before the first, B from the first, C from the second, ...).
+    more_antennas : sequence of float or Antenna
+        Further antennas C, D, ... beyond A and B: a number is A's antenna plus this many
+        dB on every path [dB] (its true difference from A, exactly); an
+        :class:`~spotkit.sim.antenna.Antenna` is that antenna (its own pattern).
+        Simultaneous design: more calls (Q1ABE, Q1ABF, ...; ``sim.params["calls"]``);
+        receive design: more home receivers; alternating: the schedule's labels C, D, ...
+        ("even-odd" becomes the round robin A, B, C, ...); before-after: ``change_at`` is
+        then a list of the change times (A before the first, B from the first, C from the
+        second, ...).
         ``sim.params["truth_vs_a"]`` holds every antenna's true difference from A where
-        it is constant (A: 0, B: ``difference_db``, then these).
+        it is constant (A: 0, B: ``difference_db``, then these). In the simultaneous and
+        receive designs, :attr:`Simulation.truths` holds the true difference of every pair
+        of antennas.
     progress : bool
         Show a progress bar (per band, over the simulated days).
 
@@ -452,10 +461,12 @@ def simulate_spots(design: Design = "simultaneous", *, days: float = 3, seed: in
         difference_db is None or isinstance(antenna_a, Antenna)) else isotropic_antenna()
     ant_b = (constant_difference(ant_a, difference_db, difference_edges, name="A + difference")
              if difference_db is not None else _resolve_antenna(antenna_b, bands, "antenna_b"))
-    more = [float(x) for x in more_antennas]
-    if not all(np.isfinite(more)):
-        raise UsageError(f"more_antennas must be finite numbers [dB], got {more_antennas!r}")
-    ant_more = [constant_difference(ant_a, d, name=f"A {d:+g} dB") for d in more]
+    more = [x if isinstance(x, Antenna) else float(x) for x in more_antennas]
+    if not all(isinstance(x, Antenna) or np.isfinite(x) for x in more):
+        raise UsageError("more_antennas must be finite numbers [dB] or antennas, got "
+                         f"{more_antennas!r}")
+    ant_more = [x if isinstance(x, Antenna) else constant_difference(ant_a, x, name=f"A {x:+g} dB")
+                for x in more]
     labels = [chr(ord("A") + i) for i in range(2 + len(more))]
     changes = None
     if design == "before-after" and more:
@@ -704,18 +715,28 @@ def simulate_spots(design: Design = "simultaneous", *, days: float = 3, seed: in
         "schedule": schedule if isinstance(schedule, str) else "table",
         "change_at": None if change_at is None else change_at.isoformat(),
         "propagation": asdict(prop),
-        "more_antennas": more,
+        "more_antennas": [x.name if isinstance(x, Antenna) else x for x in more],
         "calls": ([a] if single else [a, b, *more_calls]),
         "labels": labels,
         "truth_vs_a": ([0.0, float(difference_db), *more]
-                       if isinstance(difference_db, (int, float)) else None),
+                       if isinstance(difference_db, (int, float))
+                       and not any(isinstance(x, Antenna) for x in more) else None),
         "change_times": (None if changes is None else
                          [pd.Timestamp(int(t), tz="UTC").isoformat() for t in changes]),
     }
     truth = Truth(truth_pairs, design, a, b)
+    truths = {}
+    if more and design in ("simultaneous", "receive"):
+        calls = params["calls"]
+        for i in range(len(calls)):
+            for j in range(i + 1, len(calls)):
+                tp = truth_pairs if (i, j) == (0, 1) else _build_truth(
+                    design, rec, on, gains, bands, slots, em, li, dist, az, rev, elev,
+                    e_site, l_site, ia=i, ib=j)
+                truths[(calls[i], calls[j])] = Truth(tp, design, calls[i], calls[j])
     return Simulation(spots=spots, truth=truth, design=design, a=a, b=b,
                       schedule=schedule if design == "alternating" else None,
-                      change_at=change_at, params=params, stations=stations)
+                      change_at=change_at, params=params, stations=stations, truths=truths)
 
 
 def _cat(labels, idx) -> pd.Categorical:
@@ -781,25 +802,29 @@ def _match_neighbours(on_a: np.ndarray, on_b: np.ndarray) -> np.ndarray:
 
 
 def _build_truth(design, rec, on, gains, bands, slots, em, li, dist, az, rev, elev,
-                 e_site, l_site) -> pd.DataFrame:
-    """One row per pair where at least one antenna was heard, with the true B-A gain."""
+                 e_site, l_site, ia: int = 0, ib: int = 1) -> pd.DataFrame:
+    """One row per pair where at least one antenna was heard, with the true B-A gain.
+
+    ``ia``, ``ib``: the emissions (listeners in the receive design) taken as A and B
+    (simultaneous and receive designs; the others use 0 and 1).
+    """
     if design == "receive":
-        # pair = (band, slot, transmitter e); A/B are listeners 0/1
-        ka = rec[rec["l"] == 0][["band", "slot", "e"]]
-        kb = rec[rec["l"] == 1][["band", "slot", "e"]]
+        # pair = (band, slot, transmitter e); A/B are listeners ia/ib
+        ka = rec[rec["l"] == ia][["band", "slot", "e"]]
+        kb = rec[rec["l"] == ib][["band", "slot", "e"]]
         m = ka.assign(_a=True).merge(kb.assign(_b=True), how="outer", on=["band", "slot", "e"])
         far = m["e"].to_numpy()
         diff = np.empty(len(m))
         for bi, band in enumerate(bands):
             sel = m["band"].to_numpy() == bi
             g_rx = gains[band][1]
-            diff[sel] = (g_rx[:, 1] - g_rx[:, 0])[far[sel]]
+            diff[sel] = (g_rx[:, ib] - g_rx[:, ia])[far[sel]]
         t_site, r_site = e_site[far], np.zeros(len(m), dtype=int)
         bearing = rev[t_site, r_site]  # from home (receiver) towards the transmitter
         tx_call = _cat(em["call"], far)
-        rx_call = _cat(li["call"], np.zeros(len(m), dtype=int))
+        rx_call = _cat(li["call"], np.full(len(m), ia, dtype=int))
     else:
-        tgt = rec[rec["e"] <= 1][["band", "slot", "e", "l"]]
+        tgt = rec[rec["e"].isin([ia, ib])][["band", "slot", "e", "l"]]
         if design == "alternating":
             # neighbouring on-air A and B slots matched one to one, first come first
             # matched (window of one slot); the pair's slot is A's
@@ -816,8 +841,8 @@ def _build_truth(design, rec, on, gains, bands, slots, em, li, dist, az, rev, el
             m = ka.assign(_a=True).merge(kb.assign(_b=True), how="outer",
                                          on=["band", "slot", "l"])
         elif design == "simultaneous":
-            ka = tgt[tgt["e"] == 0].drop(columns="e")
-            kb = tgt[tgt["e"] == 1].drop(columns="e")
+            ka = tgt[tgt["e"] == ia].drop(columns="e")
+            kb = tgt[tgt["e"] == ib].drop(columns="e")
             m = ka.assign(_a=True).merge(kb.assign(_b=True), how="outer",
                                          on=["band", "slot", "l"])
         else:  # before-after: every heard report of the target, A before, B after
@@ -827,10 +852,10 @@ def _build_truth(design, rec, on, gains, bands, slots, em, li, dist, az, rev, el
         for bi, band in enumerate(bands):
             sel = m["band"].to_numpy() == bi
             g_tx = gains[band][0]
-            diff[sel] = (g_tx[1] - g_tx[0])[far[sel]]
+            diff[sel] = (g_tx[ib] - g_tx[ia])[far[sel]]
         t_site, r_site = np.zeros(len(m), dtype=int), l_site[far]
         bearing = az[t_site, r_site]
-        tx_call = _cat(em["call"], np.zeros(len(m), dtype=int))
+        tx_call = _cat(em["call"], np.full(len(m), ia, dtype=int))
         rx_call = _cat(li["call"], far)
     out = pd.DataFrame({
         C.BAND: _cat(bands, m["band"].to_numpy()),
@@ -936,7 +961,63 @@ def make_series_demo(out_dir, *, days_each: float = 2, n_receivers: int = 80,
     return sim
 
 
+#: The invented three-antenna demo: (call, kind, keyword arguments of
+#: :func:`spotkit.sim.antenna.make_antenna`, description); the first is the reference.
+THREE_DEMO = (
+    ("Q1ABC", "vertical", {"loss_ohm": 10.0}, "quarter-wave vertical with radials"),
+    ("Q1ABD", "dipole", {"height_m": 10.0, "wire_azimuth_deg": 0.0},
+     "half-wave dipole at 10 m, wire north-south"),
+    ("Q1ABE", "dipole", {"height_m": 20.0, "wire_azimuth_deg": 0.0},
+     "half-wave dipole at 20 m, wire north-south"),
+)
+
+
+def make_three_demo(out_dir, *, days: float = 2, n_receivers: int = 200,
+                    seed: int = 2028) -> Simulation:
+    """Write the invented three-antenna demo (see demo_data/README.md) into ``out_dir``.
+
+    One station at JO62qm with three antennas of different patterns beaconing in the same
+    slots on 20 m under three calls (:data:`THREE_DEMO`: Q1ABC a quarter-wave vertical with
+    radials, Q1ABD a half-wave dipole at 10 m, Q1ABE the same dipole at 20 m), heard by
+    ``n_receivers`` far receivers for ``days`` days from 2026-03-02 00:00 UTC. Files:
+    ``three_antennas.csv.gz`` (the ``comma`` layout, 0.2 % duplicate uploads; gzip without a
+    time stamp, so byte-for-byte reproducible) and ``three_antennas.truth.json``
+    (:func:`spotkit.sim.truth.truths_to_json`: the true difference of every pair of
+    antennas, pair by pair, with the calls, the antennas and the simulation's parameters).
+
+    Returns
+    -------
+    Simulation
+        Its :attr:`Simulation.truths` holds the three contrasts.
+    """
+    from spotkit.sim.truth import truths_to_json
+
+    out = Path(out_dir)
+    out.mkdir(parents=True, exist_ok=True)
+    bands = ("20m",)
+    ants = [make_antenna(kind, bands, **kw) for _, kind, kw, _ in THREE_DEMO]
+    calls = [c for c, *_ in THREE_DEMO]
+    sim = simulate_spots("simultaneous", days=days, seed=seed, start="2026-03-02",
+                         bands=bands, n_receivers=n_receivers, home_locator=DEMO_LOCATOR,
+                         a=calls[0], b=calls[1], antenna_a=ants[0], antenna_b=ants[1],
+                         more_antennas=ants[2:])
+    if sim.params["calls"] != calls:
+        raise AssertionError(f"calls {sim.params['calls']} are not {calls}")
+    write_foreign_csv(sim.spots, out / "three_antennas.csv.gz", "comma", duplicates=0.002,
+                      seed=seed)
+    truths_to_json(
+        sim.truths, out / "three_antennas.truth.json", calls=calls, locator=DEMO_LOCATOR,
+        band="20m", reference=calls[0], antennas_option=",".join(calls),
+        antennas={c: {"model": kind, **kw, "description": d} for c, kind, kw, d in THREE_DEMO},
+        true_db={f"{y} minus {x}": round(float(t.overall[C.B_MINUS_A]), 4)
+                 for (x, y), t in sim.truths.items()},
+        params={k: v for k, v in sim.params.items()
+                if isinstance(v, (str, int, float, list, type(None)))})
+    return sim
+
+
 __all__ = [
     "DESIGNS", "THRESHOLD_ON", "decode", "Propagation", "Simulation", "simulate_spots",
     "DEMO_CALL", "DEMO_LOCATOR", "make_demo_data", "SERIES_DEMO", "make_series_demo",
+    "THREE_DEMO", "make_three_demo",
 ]

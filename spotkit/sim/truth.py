@@ -197,4 +197,62 @@ class Truth:
                    doc.get("b", ""))
 
 
-__all__ = ["DEFAULT_DISTANCE_EDGES", "TRUTH_COLUMNS", "Truth"]
+def truths_to_json(truths: dict, path=None, **extra) -> str:
+    """Several antennas' truths in one JSON document; returns the text.
+
+    Parameters
+    ----------
+    truths : dict
+        ``(x, y)`` -> :class:`Truth` of y minus x (e.g. :attr:`Simulation.truths
+        <spotkit.sim.simulate.Simulation>`).
+    path : str or Path, optional
+        Where to write it.
+    **extra
+        Further JSON-friendly entries of the document (calls, antennas, parameters, ...).
+
+    Returns
+    -------
+    str
+        ``{"contrasts": {"y minus x": <Truth.to_json document>, ...}, **extra}``, keys
+        sorted, compact, one newline at the end.
+    """
+    doc = dict(extra)
+    doc["contrasts"] = {f"{y} minus {x}": json.loads(t.to_json())
+                        for (x, y), t in truths.items()}
+    text = json.dumps(doc, separators=(",", ":"), sort_keys=True, allow_nan=False) + "\n"
+    if path is not None:
+        Path(path).write_text(text, encoding="utf-8")
+    return text
+
+
+def truths_from_json(source) -> dict:
+    """Read what :func:`truths_to_json` wrote: ``(x, y)`` -> :class:`Truth` of y minus x.
+
+    Parameters
+    ----------
+    source : str or Path
+        JSON text or a path.
+
+    Returns
+    -------
+    dict
+    """
+    if isinstance(source, (str, Path)) and not str(source).lstrip().startswith("{"):
+        path = Path(source)
+        try:
+            doc = json.loads(path.read_text(encoding="utf-8"))
+        except (OSError, ValueError) as exc:
+            raise InputError(f"{path}: not a truth file of several antennas ({exc})") from None
+    else:
+        doc = json.loads(source)
+    if "contrasts" not in doc:
+        raise InputError("truth JSON of several antennas: no 'contrasts' entry")
+    out = {}
+    for part in doc["contrasts"].values():
+        t = Truth.from_json(json.dumps(part))
+        out[(t.a, t.b)] = t
+    return out
+
+
+__all__ = ["DEFAULT_DISTANCE_EDGES", "TRUTH_COLUMNS", "Truth", "truths_to_json",
+           "truths_from_json"]

@@ -37,7 +37,8 @@ from spotkit.units import snr_per_watt
 PlotKind = Literal["bearing", "distance", "elevation", "hour", "grid", "heard",
                    "snr-distance", "spots-per-hour"]
 PLOT_KINDS = ("bearing", "distance", "elevation", "hour", "grid", "heard", "snr-distance",
-              "spots-per-hour", "elevation-curve", "bearing-curve", "pattern-check")
+              "spots-per-hour", "elevation-curve", "bearing-curve", "bearing-rings",
+              "pattern-check")
 #: colour map the band palette is sampled from, and the part of it used
 BAND_CMAP = "plasma"
 _BAND_SPAN = (0.0, 0.88)
@@ -245,8 +246,8 @@ def elevation_curve_plot(curve: pd.DataFrame, *, band=None, ax=None):
                 label=b if b else "B - A", gid=f"curve-{b or 'all'}")
     ax.axhline(0.0, color="#444444", lw=0.8, zorder=0)
     ax.set_xlabel("estimated elevation angle [deg]")
-    ax.set_ylabel("B minus A [dB]\n(shaded: pointwise 95 % band; dashed: 95 % along the "
-                  "whole curve)" if C.CI_SIM_LOW in curve else
+    ax.set_ylabel("B minus A [dB]\nshaded: pointwise 95 % band\ndashed: 95 % along the "
+                  "whole curve" if C.CI_SIM_LOW in curve else
                   "B minus A [dB]  (pointwise 95 % band)", fontsize=9)
     ax.set_title("B minus A against elevation angle (smoothed)")
     ax.grid(alpha=0.3)
@@ -383,6 +384,89 @@ def bearing_curve_plot(curve: pd.DataFrame, *, band=None, ax=None,
                  "dashed: 95 % round the whole circle)" if C.CI_SIM_LOW in curve else
                  "B minus A [dB] against bearing, smoothed (pointwise 95 % band)", pad=18)
     ax.legend(fontsize=8, loc="lower left", bbox_to_anchor=(-0.12, -0.12))
+    return ax
+
+
+def bearing_rings_plot(curve: pd.DataFrame, *, band=None, ax=None,
+                       vmax: float | None = None):
+    """The band x bearing surface on one polar plot: one ring per band, each cell of a ring
+    coloured by the smoothed B minus A [dB] at that bearing.
+
+    North up, bearings clockwise; rings from the lowest band (inside) to the highest
+    (outside). A cell is solid where its pointwise band excludes 0 dB, hatched where it
+    includes 0 dB (or the point has an estimate but too few receivers for a band), light
+    grey where there is no estimate (too few pairs). The colour scale is symmetric round
+    0 dB (blue: B better), as in :func:`grid_plot`.
+
+    Parameters
+    ----------
+    curve : pandas.DataFrame
+        From :func:`spotkit.compare.elevation.bearing_curve` (``by_band=True``); its grid
+        should be evenly spaced (each cell spans the smallest step between bearings).
+    band : str or list of str, optional
+        Only these bands.
+    ax : matplotlib polar Axes, optional
+    vmax : float, optional
+        Half-range of the colour scale [dB]; default the largest estimate of the bands
+        drawn, at least 1 dB.
+
+    Returns
+    -------
+    matplotlib.projections.polar.PolarAxes
+        Cells are bars with ``gid`` ``ring-<band>-solid``, ``ring-<band>-hatched`` or
+        ``ring-<band>-empty``.
+    """
+    import matplotlib.pyplot as plt
+    from matplotlib.cm import ScalarMappable
+    from matplotlib.colors import Normalize
+
+    _need(curve, [C.BAND, C.BEARING, C.B_MINUS_A, C.CI_LOW, C.CI_HIGH], "a bearing curve")
+    parts = [(b, sub) for b, sub in _by_band(curve, band)]
+    order = {b: i for i, b in enumerate(sort_bands([b for b, _ in parts]))}
+    parts.sort(key=lambda p: order.get(p[0], len(order)))
+    if not parts:
+        raise InputError("no band of the bearing curve to draw")
+    brg = np.unique(curve[C.BEARING].to_numpy(dtype=float) % 360.0)
+    step = float(np.diff(np.r_[brg, brg[0] + 360.0]).min()) if brg.size > 1 else 360.0
+    est_all = np.concatenate([sub[C.B_MINUS_A].to_numpy(dtype=float) for _, sub in parts])
+    finite = est_all[np.isfinite(est_all)]  # of the bands drawn
+    if vmax is None:
+        vmax = float(max(1.0, np.ceil(np.abs(finite).max()))) if finite.size else 1.0
+    cmap, norm = plt.get_cmap("RdBu"), Normalize(-vmax, vmax)
+    ax = _new_ax(ax, polar=True, figsize=(6.4, 5.6))
+    ax.set_theta_zero_location("N")
+    ax.set_theta_direction(-1)
+    hole = 1.0  # an empty centre, so the inner ring is not a set of slivers
+    width = np.radians(step)
+    for i, (b, sub) in enumerate(parts):
+        th = np.radians(sub[C.BEARING].to_numpy(dtype=float))
+        est = sub[C.B_MINUS_A].to_numpy(dtype=float)
+        lo, hi = sub[C.CI_LOW].to_numpy(dtype=float), sub[C.CI_HIGH].to_numpy(dtype=float)
+        have = np.isfinite(est)
+        solid = have & ((lo > 0) | (hi < 0))
+        for kind, sel, extra in (
+                ("solid", solid, {"edgecolor": "white", "linewidth": 0.3}),
+                ("hatched", have & ~solid, {"edgecolor": "#777777", "hatch": "///",
+                                            "linewidth": 0}),
+                ("empty", ~have, {"edgecolor": "none"})):
+            if not sel.any():
+                continue
+            colors = cmap(norm(est[sel])) if kind != "empty" else "#eeeeee"
+            ax.bar(th[sel], 1.0, width=width, bottom=hole + i, color=colors,
+                   gid=f"ring-{b or 'all'}-{kind}", **extra)
+    n = len(parts)
+    ax.set_ylim(0.0, hole + n)
+    ax.set_yticks(hole + np.arange(n) + 0.5, [b or "all" for b, _ in parts], fontsize=8,
+                  fontweight="bold")
+    for label in ax.get_yticklabels():  # readable on any cell colour
+        label.set_path_effects(_halo())
+    ax.set_rlabel_position(22.5)
+    ax.grid(alpha=0.3)
+    bar = ax.figure.colorbar(ScalarMappable(norm=norm, cmap=cmap), ax=ax, shrink=0.75,
+                             pad=0.1)
+    bar.set_label(f"B minus A [dB], scale +-{vmax:g} dB (blue: B better)", fontsize=8)
+    ax.set_title("B minus A by band and bearing, smoothed\n(solid: 95 % band excludes 0 dB; "
+                 "hatched: it does not; grey: too few pairs)", fontsize=9, pad=14)
     return ax
 
 
@@ -925,7 +1009,7 @@ def pattern_check_plot(check, *, band=None, ax=None):
 
 
 __all__ = ["PLOT_KINDS", "BAND_CMAP", "band_colors", "distance_plot", "elevation_plot",
-           "elevation_curve_plot", "bearing_curve_plot",
+           "elevation_curve_plot", "bearing_curve_plot", "bearing_rings_plot",
            "hour_plot", "grid_plot", "bearing_plot", "heard_by_distance", "heard_plot",
            "running_median",
            "snr_distance_plot", "spots_per_hour", "spots_per_hour_plot",
