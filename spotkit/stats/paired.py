@@ -283,6 +283,13 @@ def wilcoxon_signed_rank(values, counts=None, alternative: Alternative = "two-si
     return TestResult(t_plus, float(p), n, "normal", alternative, float(z))
 
 
+#: above this many distinct Walsh averages (``K (K + 1) / 2`` from ``K`` distinct values,
+#: about 630 of them) their order statistics are found by bisection instead of forming
+#: them all (60,000 distinct differences would need 1.8e9 of them, about 100 GB;
+#: ``benchmarks/bench_paired.py``)
+WALSH_DIRECT_MAX = 200_000
+
+
 def _walsh(values, counts):
     """Distinct Walsh averages and their weights from compressed data (O(K^2))."""
     v, c = _values_counts(values, counts)
@@ -301,14 +308,88 @@ def _weighted_order_stat(sorted_vals, weights, k):
     return sorted_vals[np.minimum(idx, sorted_vals.size - 1)]
 
 
+def _walsh_below(v, c, cumc, x):
+    """Per row ``i`` of the Walsh averages ``(v_i + v_j) / 2`` (``j >= i``, ``v`` sorted):
+    the end ``P_i`` of the run of ``j`` with an average ``<= x`` (as computed in floating
+    point, so consistent with :func:`_walsh`), and the total weight of those averages."""
+    k = v.size
+    p = np.searchsorted(v, 2.0 * x - v, side="right")
+    # 2x - v_i is rounded; step P_i until the averages themselves decide (fl is monotone)
+    rows = np.arange(k)
+    for _ in range(64):
+        last = np.clip(p - 1, 0, k - 1)
+        down = (p > 0) & ((v + v[last]) / 2.0 > x)
+        nxt = np.clip(p, 0, k - 1)
+        up = (p < k) & ((v + v[nxt]) / 2.0 <= x)
+        if not (down.any() or up.any()):
+            break
+        p = p - down + up
+    p = np.maximum(p, rows)  # only j >= i
+    has = p > rows
+    weight = c * (cumc[p] - cumc[rows]) + np.where(has, (c - c * c) / 2.0, 0.0)
+    return p, float(weight.sum())
+
+
+def _walsh_order_stats(values, counts, ks):
+    """The ``ks``-th smallest (1-based) weighted Walsh averages and the number of pairs.
+
+    Equal to ``_weighted_order_stat(*_walsh(values, counts)[:2], ks)`` but in
+    ``O(K log K)`` memory and time per bisection step when the ``K (K + 1) / 2`` distinct
+    averages are too many to form (:data:`WALSH_DIRECT_MAX`): bisection on the value
+    brackets each order statistic until few averages remain in the bracket, which are
+    then formed and ranked.
+    """
+    v, c = _values_counts(values, counts)
+    v, c = _collapse(v, c)
+    keep = c > 0
+    v, c = v[keep], c[keep]
+    n = float(c.sum())
+    ks = np.atleast_1d(np.asarray(ks, dtype=float))
+    if n == 0:
+        return np.full(ks.shape, np.nan), n
+    size = v.size
+    if size * (size + 1) // 2 <= WALSH_DIRECT_MAX:
+        avg, w, _ = _walsh(v, c)
+        return _weighted_order_stat(avg, w, ks), n
+    cumc = np.concatenate([[0.0], np.cumsum(c)])
+    rows = np.arange(size)
+    cap = max(4 * size, 100_000)
+    out = np.empty(ks.shape)
+    for pos, k in enumerate(ks):
+        lo, hi = v[0] - 1.0, v[-1]          # weight below lo is 0, up to hi is all
+        p_lo, w_lo = _walsh_below(v, c, cumc, lo)
+        p_hi, _ = _walsh_below(v, c, cumc, hi)
+        while int((p_hi - p_lo).sum()) > cap:
+            mid = lo + (hi - lo) / 2.0
+            if not lo < mid < hi:
+                break
+            p_mid, w_mid = _walsh_below(v, c, cumc, mid)
+            if w_mid >= k:
+                hi, p_hi = mid, p_mid
+            else:
+                lo, p_lo, w_lo = mid, p_mid, w_mid
+        # the averages in (lo, hi]: row i, columns p_lo[i] .. p_hi[i] - 1
+        span = p_hi - p_lo
+        i = np.repeat(rows, span)
+        j = (np.arange(span.sum()) - np.repeat(np.cumsum(span) - span, span)
+             + np.repeat(p_lo, span))
+        avg = (v[i] + v[j]) / 2.0
+        w = np.where(i == j, c[i] * (c[i] + 1) / 2.0, c[i] * c[j])
+        order = np.argsort(avg, kind="stable")
+        out[pos] = _weighted_order_stat(avg[order], w[order], k - w_lo)
+    return out, n
+
+
 def hodges_lehmann(values, counts=None) -> float:
     """Hodges-Lehmann one-sample shift: the median of the Walsh averages.
 
     The Walsh averages are ``(d_i + d_j) / 2`` for all ``i <= j``, zeros included. From
     ``K`` distinct values with counts ``c`` they are formed once per distinct pair, with
     weight ``c_k c_l`` (``k < l``) or ``c_k (c_k + 1) / 2`` (``k = l``), so the cost is
-    ``O(K^2)`` whatever the number of pairs; the result equals the estimate on the
-    expanded data exactly. On whole-dB data it is a multiple of 0.5 dB.
+    ``O(K^2)`` whatever the number of pairs; above :data:`WALSH_DIRECT_MAX` of them the
+    median is found by bisection on the value in ``O(K log K)`` per step without forming
+    them all. Either way the result equals the estimate on the expanded data exactly. On
+    whole-dB data it is a multiple of 0.5 dB.
 
     Parameters
     ----------
@@ -337,13 +418,14 @@ def hodges_lehmann(values, counts=None) -> float:
     >>> hodges_lehmann([-2, -1, 0, 1, 2, 3, 4], counts=[3, 10, 8, 14, 12, 6, 2])
     1.0
     """
-    avg, w, n = _walsh(values, counts)
+    v, c = _values_counts(values, counts)
+    n = float(c.sum())
     if n == 0:
         return float("nan")
     m = n * (n + 1) / 2.0
     if m % 2 == 1:
-        return float(_weighted_order_stat(avg, w, (m + 1) / 2))
-    lo, hi = _weighted_order_stat(avg, w, [m / 2, m / 2 + 1])
+        return float(_walsh_order_stats(v, c, (m + 1) / 2)[0][0])
+    lo, hi = _walsh_order_stats(v, c, [m / 2, m / 2 + 1])[0]
     return float((lo + hi) / 2.0)
 
 
@@ -388,7 +470,8 @@ def hodges_lehmann_ci(values, counts=None, confidence: float = 0.95) -> tuple[fl
     (-inf, inf)
     """
     check_confidence(confidence)
-    avg, w, n = _walsh(values, counts)
+    v, c = _values_counts(values, counts)
+    n = float(c.sum())
     if n == 0:
         return (float("nan"), float("nan"))
     alpha2 = (1 - confidence) / 2
@@ -408,7 +491,7 @@ def hodges_lehmann_ci(values, counts=None, confidence: float = 0.95) -> tuple[fl
         big_c = int(np.floor(n * (n + 1) / 4.0 + stats.norm.ppf(alpha2) * sd - 0.5)) + 1
         if big_c < 1:
             return (float("-inf"), float("inf"))
-    lo, hi = _weighted_order_stat(avg, w, [big_c, m + 1 - big_c])
+    lo, hi = _walsh_order_stats(v, c, [big_c, m + 1 - big_c])[0]
     return (float(lo), float(hi))
 
 
