@@ -299,7 +299,7 @@ def bootstrap_p_value(replicates, estimate):
     return float(p) if np.ndim(p) == 0 else p
 
 
-def percentile_p_value(replicates):
+def percentile_p_value(replicates, margin=0.0):
     """Two-sided p-value for "true value = 0" that agrees with the percentile interval.
 
     The smallest ``1 - confidence`` at which the percentile interval
@@ -318,6 +318,10 @@ def percentile_p_value(replicates):
     ----------
     replicates : array_like, shape (n_boot,) or (n_boot, G)
         Bootstrap replicates of the estimate (NaN: a fit that failed, left out).
+    margin : float or array_like, shape (G,)
+        A systematic part [same unit, >= 0] added to each end of the interval:
+        the p-value agrees with ``[low - margin, high + margin]`` instead (it leaves
+        out 0 when ``low > margin`` or ``high < -margin``). Default 0.
 
     Returns
     -------
@@ -344,29 +348,41 @@ def percentile_p_value(replicates):
     True
     >>> percentile_p_value(np.column_stack([replicates + 5, -replicates])).round(4).tolist()
     [0.0099, 0.2]
+
+    With a systematic part of 0.1 the interval leaves out 0 only where its bootstrap part
+    clears 0.1: position 15 of 0..100, so ``p = 0.3``:
+
+    >>> round(percentile_p_value(replicates, margin=0.1), 6)
+    0.3
     """
     r = np.asarray(replicates, dtype=float)
     one = r.ndim == 1
     x = np.sort(r.reshape(r.shape[0], -1), axis=0)  # NaN last
     n = np.sum(np.isfinite(x), axis=0)
     cols = np.arange(x.shape[1])
+    m = np.broadcast_to(np.asarray(margin, dtype=float), cols.shape)
+    if np.any(~np.isfinite(m)) or np.any(m < 0):
+        raise UsageError("margin must be finite and >= 0")
 
-    def position(count):
+    def position(count, level):
         """Interpolated position between the ``count``-th and the next sorted replicate
-        where the quantile function crosses 0 (-inf: all above, +inf: all below)."""
+        where the quantile function crosses ``level`` (-inf: all above, +inf: all
+        below)."""
         below = np.clip(count - 1, 0, x.shape[0] - 1)
         above = np.clip(count, 0, x.shape[0] - 1)
         x0, x1 = x[below, cols], x[above, cols]
         with np.errstate(invalid="ignore", divide="ignore"):
-            h = (count - 1) + np.where(x1 > x0, (0.0 - x0) / (x1 - x0), 0.0)
+            h = (count - 1) + np.where(x1 > x0, (level - x0) / (x1 - x0), 0.0)
         return np.where(count <= 0, -np.inf, np.where(count >= n, np.inf, h))
 
     with np.errstate(invalid="ignore", divide="ignore"):
-        # highest position with Q(h) <= 0, lowest with Q(h) >= 0
-        h_hi = position(np.sum(x <= 0, axis=0))
-        h_lo = position(np.sum(x < 0, axis=0))
-        h_lo = np.where(np.sum(x < 0, axis=0) == 0, 0.0, h_lo)
-        h_hi = np.where(np.sum(x <= 0, axis=0) >= n, n - 1.0, h_hi)
+        # highest position with Q(h) <= margin (the low end clears it above that), lowest
+        # with Q(h) >= -margin (the high end stays below -margin under that)
+        n_le, n_lt = np.sum(x <= m, axis=0), np.sum(x < -m, axis=0)
+        h_hi = position(n_le, m)
+        h_lo = position(n_lt, -m)
+        h_lo = np.where(n_lt == 0, 0.0, h_lo)
+        h_hi = np.where(n_le >= n, n - 1.0, h_hi)
         p = 2 * np.minimum(h_hi, (n - 1) - h_lo) / (n - 1)
         p = np.clip(np.nan_to_num(p, nan=0.0, posinf=1.0, neginf=0.0), 0.0, 1.0)
         p = np.maximum(p, 1.0 / n)
