@@ -1191,6 +1191,16 @@ def interval_censored_mle_batch(values, kinds, weights, *, half_width_db: float 
                                 sigma_floor: float = SIGMA_FLOOR_DB) -> dict:
     """Many :func:`interval_censored_mle` fits at once, one per row of ``weights``.
 
+    Parameters as :func:`interval_censored_mle`, except:
+
+    values : array_like, shape (K,) or (B, K)
+        Differences or bounds [dB], shared by the rows or one row per fit (kinds shared;
+        e.g. many groups at once, a group's unused items with weight 0).
+    weights : array_like, shape (B, K)
+        Non-negative weights of each value in each fit.
+    tau_db : float or array_like, shape (B,)
+        Width of the detection curve [dB], shared or one per fit.
+
     Returns
     -------
     dict of numpy.ndarray, shape (B,)
@@ -1208,17 +1218,32 @@ def interval_censored_mle_batch(values, kinds, weights, *, half_width_db: float 
     >>> fit["mu"].round(3).tolist(), fit["sigma"].round(3).tolist()
     ([1.004, 0.917], [1.405, 1.076])
     """
-    v, k, w = _check_batch(values, kinds, weights, sigma_floor)
-    _check_detection(half_width_db, tau_db, df, exact_weight)
+    vals = np.asarray(values, dtype=float)
+    if vals.ndim == 2:  # a row of values per fit
+        v, k, w = _check_batch(vals[0], kinds, weights, sigma_floor)
+        if vals.shape != w.shape or not np.all(np.isfinite(vals)):
+            raise UsageError(f"values must be finite, of shape (K,) or {w.shape}, got "
+                             f"{vals.shape}")
+        v = vals
+    else:
+        v, k, w = _check_batch(values, kinds, weights, sigma_floor)
+    tau = np.asarray(tau_db, dtype=float)
+    if tau.ndim:
+        if tau.shape != (w.shape[0],):
+            raise UsageError(f"tau_db must be a number or of shape ({w.shape[0]},), got "
+                             f"{tau.shape}")
+        for x in np.unique(tau):
+            _check_detection(half_width_db, x, df, exact_weight)
+        tau_db = tau[:, None]
+    else:
+        _check_detection(half_width_db, float(tau), df, exact_weight)
     return _interval_fit(v, k, w, half_width_db, tau_db, df, missed, exact_weight,
                          sigma_floor)
 
 
 def _interval_fit(v, k, w, half_width_db, tau_db, df, missed, exact_weight, sigma_floor):
-    """:func:`interval_censored_mle_batch` on checked input. ``v`` may also be (B, K) and
-    ``tau_db`` (B, 1): one set of values and one detection width per row (many groups, or
-    one group under several detection models, in one batch; unused items of a row have
-    weight 0)."""
+    """:func:`interval_censored_mle_batch` on checked input (``v`` (K,) or (B, K),
+    ``tau_db`` a number or (B, 1))."""
     v, k, w = _by_kind(v, k, w)
     items = _detection_items(v, k, half_width_db, tau_db)
     start_w = np.where(k[None, :] == 0, exact_weight * w, w)
