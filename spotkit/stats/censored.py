@@ -881,7 +881,9 @@ def _block_terms(cat, m, sigma, lo, hi, tau2, fam, need_derivs):
     ``m``, ``sigma``: (B, 1); ``lo``, ``hi``, ``tau2``: (R, Kb), R 1 or B. Each cdf, pdf
     and score is evaluated once per item (a bound needs one cdf, a point none); the
     formulas are those of the general interval ``log(F(zh) - F(zl))`` with the terms of an
-    infinite end dropped. Returns ``l`` or ``(l, l_m, l_s, l_mm, l_ms, l_ss)`` (B, Kb)."""
+    infinite end dropped. Returns ``l`` or ``(l, l_m, l_s, l_mm, l_ms, l_ss)`` (B, Kb);
+    ``need_derivs="sigma"``: the derivatives in ``sigma`` alone (the others None)."""
+    only_s = isinstance(need_derivs, str)
     _cdf, logpdf, g, gp, logcdf = fam
     s = np.sqrt(sigma ** 2 + tau2)
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
@@ -892,11 +894,12 @@ def _block_terms(cat, m, sigma, lo, hi, tau2, fam, need_derivs):
                 return ll
             gz, gpz = g(z), gp(z)
             s2 = s * s
-            l_m = gz / s
             l_s = (z * gz - 1) / s
-            l_mm = -gpz / s2
-            l_ms = -(gz + z * gpz) / s2
             l_ss = (1 - 2 * z * gz - z * z * gpz) / s2
+            if not only_s:
+                l_m = gz / s
+                l_mm = -gpz / s2
+                l_ms = -(gz + z * gpz) / s2
         else:
             if cat == _INTERVAL:
                 # log(F(zh) - F(zl)) without underflow far in a tail: in the upper tail as
@@ -916,7 +919,22 @@ def _block_terms(cat, m, sigma, lo, hi, tau2, fam, need_derivs):
                 ll = np.where(upper, _no_neginf(lz), np.log1p(-np.exp(lz)))
             if not need_derivs:
                 return ll
-            if cat == _INTERVAL:
+            if only_s:  # the terms of l_s and l_ss
+                a = g1 = c = None
+                if cat == _INTERVAL:
+                    fl = np.exp(logpdf(zl) - ll)
+                    fh = np.exp(logpdf(zh) - ll)
+                    bq = zh * fh - zl * fl
+                    d = zh * zh * g(zh) * fh - zl * zl * g(zl) * fl
+                elif cat == _UPPER:
+                    fh = np.exp(logpdf(zh) - ll)
+                    bq = zh * fh
+                    d = zh * zh * g(zh) * fh
+                else:
+                    fl = np.exp(logpdf(zl) - ll)
+                    bq = -(zl * fl)
+                    d = -(zl * zl * g(zl) * fl)
+            elif cat == _INTERVAL:
                 fl = np.exp(logpdf(zl) - ll)  # f(zl) / P
                 fh = np.exp(logpdf(zh) - ll)
                 gl, gh = g(zl), g(zh)
@@ -942,14 +960,17 @@ def _block_terms(cat, m, sigma, lo, hi, tau2, fam, need_derivs):
                 c = -(zl * gl * fl)
                 d = -(zl * zl * gl * fl)
             s2 = s * s
-            l_m = -a / s
             l_s = -bq / s
-            l_mm = -(g1 + a * a) / s2
-            l_ms = (a - c - a * bq) / s2
             l_ss = (2 * bq - d - bq * bq) / s2
+            if not only_s:
+                l_m = -a / s
+                l_mm = -(g1 + a * a) / s2
+                l_ms = (a - c - a * bq) / s2
         # chain rule from s to sigma: s' = sigma / s, s'' = tau2 / s^3
         ds = sigma / s
         d2s = tau2 / (s2 * s)
+        if only_s:
+            return (ll, None, l_s * ds, None, None, l_ss * ds * ds + l_s * d2s)
         return (ll, l_m, l_s * ds, l_mm, l_ms * ds, l_ss * ds * ds + l_s * d2s)
 
 

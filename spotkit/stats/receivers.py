@@ -130,7 +130,7 @@ class _Receivers:
         for cat, sl in self.runs:
             e = slice(sl.start * q, sl.stop * q)
             res = _block_terms(cat, zero, sg, lo_e[None, e], hi_e[None, e], t2[None, e],
-                               self.fam, need_derivs)
+                               self.fam, "sigma" if need_derivs else False)
             for out, r in zip(parts, (res[0], res[2], res[5]) if need_derivs else (res,),
                               strict=True):
                 out[:, e] = r
