@@ -295,11 +295,72 @@ def _detection_settings(det, exact_values, exact_counts) -> dict:
     return out
 
 
+#: largest number of (row x item) cells of one batch of single fits (memory: about 40
+#: doubles per cell while a batch iterates)
+_BATCH_CELLS = 200_000
+
+
 class _Fitter:
-    """The censored fit of one group, its bootstrap batch and its systematic part."""
+    """The censored fit of one group, its bootstrap batch and its systematic part.
+
+    With the detection model the single fits (one group's pairs under one tail and one
+    detection model) are many and small; :meth:`prepare` runs those of all groups
+    beforehand as a few batches (one row per fit, each with its own values:
+    :func:`spotkit.stats.censored.interval_censored_mle_batch`) and keeps their results,
+    which :meth:`point` and :meth:`systematic` then look up (a fit not prepared is run
+    on its own: the same answer, to rounding)."""
 
     def __init__(self, use_mix: bool, det: dict | None, dfs=TAIL_DFS):
         self.use_mix, self.det, self.df, self.dfs = use_mix, det, np.inf, tuple(dfs)
+        self._done = {}
+
+    @staticmethod
+    def _key(v, k, t, df, tau):
+        return (v.tobytes(), k.tobytes(), t.tobytes(), float(df), float(tau))
+
+    def _single(self, v, k, t, df, tau):
+        """The detection-model fit of items ``v``, ``k`` with counts ``t`` (one row)."""
+        hit = self._done.get(self._key(v, k, t, df, tau))
+        if hit is not None:
+            return hit
+        return stats.interval_censored_mle_batch(v, k, t[None, :], df=df, **self._kw(tau))
+
+    def _run(self, jobs):
+        """Fit ``jobs`` (v, k, t, df, tau) in batches, one row per job, and keep them."""
+        by_df = {}
+        for job in jobs:
+            if self._key(*job) not in self._done:
+                by_df.setdefault(job[3], []).append(job)
+        for df, todo in by_df.items():
+            todo.sort(key=lambda j: j[0].size)
+            start = 0
+            while start < len(todo):
+                stop = start + 1
+                while (stop < len(todo)
+                       and (stop + 1 - start) * todo[stop][0].size <= _BATCH_CELLS):
+                    stop += 1
+                chunk = todo[start:stop]
+                v, k, w, tau = _stack_items(chunk)
+                r = stats.interval_censored_mle_batch(v, k, w, df=df, **self._kw(tau))
+                for i, job in enumerate(chunk):
+                    self._done[self._key(*job)] = {c: a[i:i + 1] for c, a in r.items()}
+                start = stop
+
+    def prepare(self, groups):
+        """Run the single fits of :meth:`point` and :meth:`systematic` for ``groups``
+        (a list of the items ``(v, k, t)`` of each group to be estimated) in batches."""
+        if self.det is None or not groups:
+            return
+        tau = self.det["tau_db"]
+        self._run([(v, k, t, df, tau) for v, k, t in groups for df in self.dfs])
+        alts = self.det.get("alternatives") or []
+        jobs = []
+        for v, k, t in groups:
+            if alts and np.isfinite(self.point(v, k, t).mu):
+                jobs += [(_shifted(v, k, alt), k, t, self.df, float(alt["tau_db"]))
+                         for alt in alts]
+        self._run(jobs)
+        self.df = np.inf
 
     def _kw(self, tau=None):
         return dict(half_width_db=self.det["half_width_db"],
@@ -317,7 +378,7 @@ class _Fitter:
             return _fit(v, k, t, self.use_mix)
         best, best_score = None, -np.inf
         for df in self.dfs:
-            r = stats.interval_censored_mle_batch(v, k, t[None, :], df=df, **self._kw())
+            r = self._single(v, k, t, df, self.det["tau_db"])
             score = r["loglik"][0] - (0.0 if np.isinf(df) else PAIRED_EXACT_WEIGHT)
             if np.isfinite(r["mu"][0]) and score > best_score:
                 best, best_score, self.df = r, score, df
@@ -353,13 +414,43 @@ class _Fitter:
         alts = self.det["alternatives"]
         moved = []
         for alt in alts:
-            sh = float(alt.get("shift_db", 0.0))
-            v2 = v + sh * (k == 1) - sh * (k == -1)  # bounds follow the 50 % point
-            r = stats.interval_censored_mle_batch(v2, k, t[None, :], df=self.df,
-                                                  **self._kw(float(alt["tau_db"])))
+            r = self._single(_shifted(v, k, alt), k, t, self.df, float(alt["tau_db"]))
             moved.append(abs(r["mu"][0] - mu))
         moved = np.asarray(moved)
         return float(np.max(moved[np.isfinite(moved)])) if np.isfinite(moved).any() else 0.0
+
+
+def _shifted(v, k, alt):
+    """Values under an alternative detection model: the bounds follow its 50 % point."""
+    sh = float(alt.get("shift_db", 0.0))
+    return v + sh * (k == 1) - sh * (k == -1)
+
+
+def _stack_items(jobs):
+    """Rows of many single fits for one batch: values (R, K), kinds (K,), weights (R, K),
+    widths (R,) [dB].
+
+    Each job's items (sorted by kind: lower bounds, exact values, upper bounds) go into
+    the columns of their kind; a row's unused columns repeat one of its own values (its
+    first exact value, else its first value) with weight 0, so that every term stays
+    finite."""
+    n = np.array([[np.sum(j[1] == c) for c in (-1, 0, 1)] for j in jobs])
+    width = n.max(axis=0)
+    start = np.r_[0, np.cumsum(width)]
+    kinds = np.repeat([-1, 0, 1], width)
+    vals = np.empty((len(jobs), kinds.size))
+    wts = np.zeros((len(jobs), kinds.size))
+    for i, (v, k, t, _df, _tau) in enumerate(jobs):
+        ex = np.flatnonzero(k == 0)
+        vals[i] = v[ex[0]] if ex.size else v[0]
+        pos = 0
+        for j in range(3):
+            m = n[i, j]
+            vals[i, start[j]:start[j] + m] = v[pos:pos + m]
+            wts[i, start[j]:start[j] + m] = t[pos:pos + m]
+            pos += m
+    tau = np.array([j[4] for j in jobs], dtype=float)
+    return vals, kinds, wts, tau
 
 
 def _detection_method_text(det, use_mix, use_edge, confidence, cluster_label, n_boot,
@@ -632,6 +723,13 @@ def estimate_groups(counts: pd.DataFrame, *, n_boot: int = 1000, seed: int = 0,
     n_a = np.zeros(n_groups, np.int64)
     n_b = np.zeros(n_groups, np.int64)
     notes = [""] * n_groups
+    todo = []  # the single fits of the groups to be estimated, run in batches
+    for g in range(n_groups):
+        k_all, v_all, t_all = (a[bounds[g]:bounds[g + 1]] for a in (it_k, it_v, tot))
+        pm = np.abs(k_all) <= 1
+        if t_all[pm].sum() >= min_pairs:
+            todo.append((v_all[pm], k_all[pm], t_all[pm]))
+    fitter.prepare(todo)
     it = range(n_groups)
     if progress:
         from tqdm.auto import tqdm

@@ -128,39 +128,78 @@ def _check_kinds(values, kinds):
     return v, k.astype(int)
 
 
-def _tobit_parts(delta, gamma, v, sgn, exact, w):
+def _tobit_parts(delta, gamma, v, kind, w, need_derivs=True):
     """Log-likelihood, gradient and Hessian in Olsen's (delta, gamma) = (mu/s, 1/s).
 
-    ``w`` is (B, K); ``delta``, ``gamma`` are (B,). Exact values contribute
-    ``log gamma - r^2/2 - log sqrt(2 pi)`` with ``r = gamma v - delta``; bounds contribute
-    ``log Phi(u)`` with ``u = sgn r`` (sgn +1 for an upper bound, -1 for a lower bound).
-    """
-    r = gamma[:, None] * v[None, :] - delta[:, None]
-    u = sgn[None, :] * r
-    log_cdf = special.log_ndtr(u)
-    lam = np.exp(-0.5 * u * u - _LOG_SQRT_2PI - log_cdf)  # inverse Mills ratio phi/Phi
-    h = -lam * (u + lam)
+    ``w`` is (B, K); ``delta``, ``gamma`` are (B,); ``v`` is (K,) or (B, K) and ``kind``
+    (K,). Exact values contribute ``log gamma - r^2/2 - log sqrt(2 pi)`` with
+    ``r = gamma v - delta``; bounds contribute ``log Phi(u)`` with ``u = sgn r`` (sgn +1
+    for an upper bound, -1 for a lower bound). Each run of one kind is evaluated on its
+    own (the normal cdf only for bounds). Returns ``ll`` or ``(ll, g_d, g_g, h_dd, h_dg,
+    h_gg)``."""
+    v = np.atleast_2d(v)
+    b = delta.size
+    ll = np.zeros(b)
+    g_d, g_g, h_dd, h_dg, h_gg = (np.zeros(b) for _ in range(5))
+    gam, dl = gamma[:, None], delta[:, None]
     lg = np.log(gamma)[:, None]
-    ll_e = lg - 0.5 * r * r - _LOG_SQRT_2PI
-    ex = exact[None, :]
-    ll = np.where(ex, ll_e, log_cdf)
-    ll = np.sum(np.where(w > 0, w * ll, 0.0), axis=1)
-    g_d = np.sum(w * np.where(ex, r, -sgn * lam), axis=1)
-    g_g = np.sum(w * np.where(ex, 1.0 / gamma[:, None] - r * v, sgn * v * lam), axis=1)
-    h_dd = np.sum(w * np.where(ex, -1.0, h), axis=1)
-    h_dg = np.sum(w * np.where(ex, v, -h * v), axis=1)
-    h_gg = np.sum(w * np.where(ex, -1.0 / gamma[:, None] ** 2 - v * v, h * v * v), axis=1)
+    for kd, sl in _blocks(kind):
+        vb, wb = v[:, sl], w[:, sl]
+        r = gam * vb - dl
+        if kd == 0:
+            ll += np.sum(np.where(wb > 0, wb * (lg - 0.5 * r * r - _LOG_SQRT_2PI), 0.0), axis=1)
+            if not need_derivs:
+                continue
+            g_d += np.sum(wb * r, axis=1)
+            g_g += np.sum(wb * (1.0 / gam - r * vb), axis=1)
+            h_dd -= np.sum(wb, axis=1)
+            h_dg += np.sum(wb * vb, axis=1)
+            h_gg += np.sum(wb * (-1.0 / gam ** 2 - vb * vb), axis=1)
+            continue
+        sgn = float(kd)
+        u = r if kd == 1 else -r
+        log_cdf = special.log_ndtr(u)
+        ll += np.sum(np.where(wb > 0, wb * log_cdf, 0.0), axis=1)
+        if not need_derivs:
+            continue
+        lam = np.exp(-0.5 * u * u - _LOG_SQRT_2PI - log_cdf)  # inverse Mills ratio phi/Phi
+        h = -lam * (u + lam)
+        g_d += np.sum(wb * (-sgn * lam), axis=1)
+        g_g += np.sum(wb * (sgn * vb * lam), axis=1)
+        h_dd += np.sum(wb * h, axis=1)
+        h_dg += np.sum(wb * (-h * vb), axis=1)
+        h_gg += np.sum(wb * (h * vb * vb), axis=1)
+    if not need_derivs:
+        return ll
     return ll, g_d, g_g, h_dd, h_dg, h_gg
 
 
+def _by_kind(v, kind, w):
+    """``v``, ``kind``, ``w`` with the items sorted by kind (lower bounds, exact values,
+    upper bounds), so that each kind is one run of columns; unchanged when sorted."""
+    kind = np.asarray(kind)
+    if kind.size < 2 or np.all(np.diff(kind) >= 0):
+        return v, kind, w
+    order = np.argsort(kind, kind="stable")
+    return v[..., order], kind[order], w[:, order]
+
+
 def _tobit_batch(v, kind, w, sigma_floor, max_iter=100, tol=1e-10):
-    """Batch Newton fit; returns mu, sigma, converged, loglik, n_iter (arrays over rows)."""
+    """Batch Newton fit; returns mu, sigma, converged, loglik, n_iter (arrays over rows).
+
+    ``v`` is (K,) or (B, K) (each row its own values); the log-likelihood and derivatives
+    are evaluated once per accepted step (the first trial point of the line search carries
+    its derivatives to the next iteration)."""
+    v, kind, w = _by_kind(v, kind, w)
+    v2 = np.atleast_2d(np.asarray(v, dtype=float))
+    shared = v2.shape[0] == 1
+
+    def vrows(r):
+        return v2 if shared else v2[r]
+
     b = w.shape[0]
     exact = kind == 0
-    sgn = kind.astype(float)
-    w_e = w[:, exact].sum(axis=1)
-    w_u = w[:, kind == 1].sum(axis=1)
-    w_l = w[:, kind == -1].sum(axis=1)
+    w_e, w_u, w_l = _kind_sums(w, kind)
     mu = np.full(b, np.nan)
     sigma = np.full(b, np.nan)
     conv = np.zeros(b, dtype=bool)
@@ -172,8 +211,8 @@ def _tobit_batch(v, kind, w, sigma_floor, max_iter=100, tol=1e-10):
         we = np.where(exact[None, :], w, 0.0)
         base_w = np.where((w_e > 0)[:, None], we, w)
         tot = base_w.sum(axis=1)
-        m0 = (base_w * v).sum(axis=1) / tot
-        sd0 = np.sqrt((base_w * (v - m0[:, None]) ** 2).sum(axis=1) / tot)
+        m0 = (base_w * v2).sum(axis=1) / tot
+        sd0 = np.sqrt((base_w * (v2 - m0[:, None]) ** 2).sum(axis=1) / tot)
     closed = (w_e > 0) & (w_u + w_l == 0)
     mu[closed] = m0[closed]
     sigma[closed] = np.maximum(sd0[closed], sigma_floor)
@@ -188,13 +227,22 @@ def _tobit_batch(v, kind, w, sigma_floor, max_iter=100, tol=1e-10):
         active = np.ones(rows.size, dtype=bool)
         done_ok = np.zeros(rows.size, dtype=bool)
         it = np.zeros(rows.size, dtype=int)
+        wr = w[rows]
+        vr = vrows(rows)
+        vsub = (lambda r: vr) if shared else (lambda r: vr[r])
+        known = np.zeros(rows.size, bool)
+        cache = np.zeros((6, rows.size))  # ll and derivatives at (delta, gamma)
         for _ in range(max_iter):
             idx = np.nonzero(active)[0]
             if idx.size == 0:
                 break
-            wa = w[rows[idx]]
+            need = idx[~known[idx]]
+            if need.size:
+                cache[:, need] = _tobit_parts(delta[need], gamma[need], vsub(need), kind,
+                                              wr[need])
+                known[need] = True
             d0, g0 = delta[idx], gamma[idx]
-            ll, gd, gg, hdd, hdg, hgg = _tobit_parts(d0, g0, v, sgn, exact, wa)
+            ll, gd, gg, hdd, hdg, hgg = cache[:, idx]
             det = hdd * hgg - hdg * hdg
             with np.errstate(invalid="ignore", divide="ignore"):
                 step_d = -(hgg * gd - hdg * gg) / det
@@ -214,18 +262,24 @@ def _tobit_batch(v, kind, w, sigma_floor, max_iter=100, tol=1e-10):
                 t = np.where(step_g < 0, np.minimum(t, -0.9 * g0 / step_g), t)
             accepted = np.zeros(idx.size, dtype=bool)
             new_d, new_g = d0.copy(), g0.copy()
-            for _half in range(50):
+            for half in range(50):
                 todo = np.nonzero(~accepted)[0]
                 if todo.size == 0:
                     break
                 cd = d0[todo] + t[todo] * step_d[todo]
                 cg = np.minimum(g0[todo] + t[todo] * step_g[todo], gmax)
-                ll_new = _tobit_parts(cd, cg, v, sgn, exact, wa[todo])[0]
+                sub = idx[todo]
+                res = _tobit_parts(cd, cg, vsub(sub), kind, wr[sub], need_derivs=half == 0)
+                ll_new = res[0] if half == 0 else res
                 ok = np.isfinite(ll_new) & (ll_new >= ll[todo] - 1e-12 * np.abs(ll[todo]))
                 new_d[todo[ok]] = cd[ok]
                 new_g[todo[ok]] = cg[ok]
                 accepted[todo[ok]] = True
                 t[todo[~ok]] *= 0.5
+                if half == 0:
+                    cache[:, sub[ok]] = np.asarray(res)[:, ok]
+                else:
+                    known[sub[ok]] = False
             moved = np.maximum(np.abs(new_d - d0) / (1 + np.abs(d0)), np.abs(new_g - g0) / g0)
             delta[idx], gamma[idx] = new_d, new_g
             it[idx] += 1
@@ -241,8 +295,9 @@ def _tobit_batch(v, kind, w, sigma_floor, max_iter=100, tol=1e-10):
         n_iter[rows] = it
     have = np.isfinite(mu)
     if np.any(have):
-        loglik[have] = _tobit_parts(mu[have] / sigma[have], 1.0 / sigma[have], v, sgn, exact,
-                                    w[have])[0]
+        loglik[have] = _tobit_parts(mu[have] / sigma[have], 1.0 / sigma[have],
+                                    v2 if shared else v2[have], kind, w[have],
+                                    need_derivs=False)
     return mu, sigma, conv, loglik, n_iter
 
 
@@ -329,8 +384,7 @@ def censored_normal_mle(values, kinds, counts=None,
     se_mu = se_sigma = float("nan")
     if np.isfinite(mu[0]):
         gamma = 1.0 / sigma
-        _, _, _, hdd, hdg, hgg = _tobit_parts(mu * gamma, gamma, v, k.astype(float), k == 0,
-                                              c[None, :])
+        _, _, _, hdd, hdg, hgg = _tobit_parts(mu * gamma, gamma, v, k, c[None, :])
         info = -np.array([[hdd[0], hdg[0]], [hdg[0], hgg[0]]])
         if np.all(np.isfinite(info)) and np.linalg.det(info) > 0:
             g = gamma[0]
@@ -778,6 +832,154 @@ def _family(df):
     return cdf, logpdf, g, gp, logcdf
 
 
+#: categories of the detection model's items: a lower bound ``[c, inf)``, an interval
+#: ``[lo, hi]``, a point (density at ``lo``) and an upper bound ``(-inf, c]``
+_LOWER, _INTERVAL, _POINT, _UPPER = 0, 1, 2, 3
+
+
+def _blocks(cat):
+    """Contiguous runs ``(category, slice)`` of a category array (K,)."""
+    cat = np.asarray(cat)
+    if cat.size == 0:
+        return []
+    cut = np.flatnonzero(np.diff(cat)) + 1
+    starts, ends = np.r_[0, cut], np.r_[cut, cat.size]
+    return [(int(cat[s]), slice(int(s), int(e))) for s, e in zip(starts, ends, strict=True)]
+
+
+class _Items:
+    """The items of a detection-model fit, in runs of one category each.
+
+    ``lo``, ``hi``, ``tau2`` have shape (R, K): R is 1 (shared by every row of a batch) or
+    the batch's rows (each row its own values, e.g. one group per row). ``kind`` (K,) is
+    the kind code; the categories (:data:`_LOWER`...) are the same in every row, so each
+    run is evaluated once on a column slice, with only the formulas its category needs."""
+
+    def __init__(self, lo, hi, point, tau2, kind):
+        self.lo, self.hi, self.tau2 = (np.atleast_2d(np.asarray(a, dtype=float))
+                                       for a in (lo, hi, tau2))
+        self.point = np.asarray(point, dtype=bool).ravel()
+        self.kind = np.asarray(kind).ravel()
+        fin_l, fin_h = np.isfinite(self.lo[0]), np.isfinite(self.hi[0])
+        cat = np.where(self.point, _POINT, np.where(fin_l & fin_h, _INTERVAL,
+                                                    np.where(fin_h, _UPPER, _LOWER)))
+        self.blocks = _blocks(cat)
+
+    def take(self, rows):
+        """The items of some rows (all of them when shared)."""
+        if self.lo.shape[0] == 1:
+            return self
+        out = object.__new__(_Items)
+        out.lo, out.hi, out.tau2 = self.lo[rows], self.hi[rows], self.tau2[rows]
+        out.point, out.kind, out.blocks = self.point, self.kind, self.blocks
+        return out
+
+
+def _block_terms(cat, m, sigma, lo, hi, tau2, fam, need_derivs):
+    """Log-probability of the items of one category and its derivatives in (mu, sigma).
+
+    ``m``, ``sigma``: (B, 1); ``lo``, ``hi``, ``tau2``: (R, Kb), R 1 or B. Each cdf, pdf
+    and score is evaluated once per item (a bound needs one cdf, a point none); the
+    formulas are those of the general interval ``log(F(zh) - F(zl))`` with the terms of an
+    infinite end dropped. Returns ``l`` or ``(l, l_m, l_s, l_mm, l_ms, l_ss)`` (B, Kb);
+    ``need_derivs="sigma"``: the derivatives in ``sigma`` alone (the others None)."""
+    only_s = isinstance(need_derivs, str)
+    _cdf, logpdf, g, gp, logcdf = fam
+    s = np.sqrt(sigma ** 2 + tau2)
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        if cat == _POINT:
+            z = (lo - m) / s
+            ll = logpdf(z) - np.log(s)
+            if not need_derivs:
+                return ll
+            gz, gpz = g(z), gp(z)
+            s2 = s * s
+            l_s = (z * gz - 1) / s
+            l_ss = (1 - 2 * z * gz - z * z * gpz) / s2
+            if not only_s:
+                l_m = gz / s
+                l_mm = -gpz / s2
+                l_ms = -(gz + z * gpz) / s2
+        else:
+            if cat == _INTERVAL:
+                # log(F(zh) - F(zl)) without underflow far in a tail: in the upper tail as
+                # F(-zl) - F(-zh); then log F(hi) + log1p(-F(lo) / F(hi))
+                zl, zh = (lo - m) / s, (hi - m) / s
+                upper = zl > 0
+                l_hi = logcdf(np.where(upper, -zl, zh))
+                l_lo = logcdf(np.where(upper, -zh, zl))
+                ll = l_hi + np.log1p(-np.exp(l_lo - l_hi))
+            elif cat == _UPPER:
+                zh = (hi - m) / s
+                ll = _no_neginf(logcdf(zh))
+            else:  # a lower bound: log(1 - F(zl)), as F(-zl) in the upper tail
+                zl = (lo - m) / s
+                upper = zl > 0
+                lz = logcdf(np.where(upper, -zl, zl))
+                ll = np.where(upper, _no_neginf(lz), np.log1p(-np.exp(lz)))
+            if not need_derivs:
+                return ll
+            if only_s:  # the terms of l_s and l_ss
+                a = g1 = c = None
+                if cat == _INTERVAL:
+                    fl = np.exp(logpdf(zl) - ll)
+                    fh = np.exp(logpdf(zh) - ll)
+                    bq = zh * fh - zl * fl
+                    d = zh * zh * g(zh) * fh - zl * zl * g(zl) * fl
+                elif cat == _UPPER:
+                    fh = np.exp(logpdf(zh) - ll)
+                    bq = zh * fh
+                    d = zh * zh * g(zh) * fh
+                else:
+                    fl = np.exp(logpdf(zl) - ll)
+                    bq = -(zl * fl)
+                    d = -(zl * zl * g(zl) * fl)
+            elif cat == _INTERVAL:
+                fl = np.exp(logpdf(zl) - ll)  # f(zl) / P
+                fh = np.exp(logpdf(zh) - ll)
+                gl, gh = g(zl), g(zh)
+                a = fh - fl
+                bq = zh * fh - zl * fl
+                g1 = gh * fh - gl * fl
+                c = zh * gh * fh - zl * gl * fl
+                d = zh * zh * gh * fh - zl * zl * gl * fl
+            elif cat == _UPPER:
+                fh = np.exp(logpdf(zh) - ll)
+                gh = g(zh)
+                a = fh
+                bq = zh * fh
+                g1 = gh * fh
+                c = zh * gh * fh
+                d = zh * zh * gh * fh
+            else:
+                fl = np.exp(logpdf(zl) - ll)
+                gl = g(zl)
+                a = -fl
+                bq = -(zl * fl)
+                g1 = -(gl * fl)
+                c = -(zl * gl * fl)
+                d = -(zl * zl * gl * fl)
+            s2 = s * s
+            l_s = -bq / s
+            l_ss = (2 * bq - d - bq * bq) / s2
+            if not only_s:
+                l_m = -a / s
+                l_mm = -(g1 + a * a) / s2
+                l_ms = (a - c - a * bq) / s2
+        # chain rule from s to sigma: s' = sigma / s, s'' = tau2 / s^3
+        ds = sigma / s
+        d2s = tau2 / (s2 * s)
+        if only_s:
+            return (ll, None, l_s * ds, None, None, l_ss * ds * ds + l_s * d2s)
+        return (ll, l_m, l_s * ds, l_mm, l_ms * ds, l_ss * ds * ds + l_s * d2s)
+
+
+def _no_neginf(x):
+    """``x`` with -inf as NaN (a bound whose probability underflows has no usable log)."""
+    bad = np.isneginf(x)
+    return np.where(bad, np.nan, x) if bad.any() else x
+
+
 def _interval_terms(mu, sigma, lo, hi, point, tau2, fam, need_derivs=True):
     """Per-item log-probability and its derivatives in (mu, sigma), shape (B, K).
 
@@ -785,107 +987,97 @@ def _interval_terms(mu, sigma, lo, hi, point, tau2, fam, need_derivs=True):
     variable with location ``mu`` and scale ``s = sqrt(sigma^2 + tau2)``, or a point
     (``point``: density at ``lo``). Returns ``l, l_m, l_s, l_mm, l_ms, l_ss``.
     """
-    _cdf, logpdf, g, gp, logcdf = fam
-    s = np.sqrt(sigma[:, None] ** 2 + tau2[None, :])
-    m = mu[:, None]
-    fin_l, fin_h = np.isfinite(lo)[None, :], np.isfinite(hi)[None, :]
-    zl = np.where(fin_l, (np.where(fin_l[0], lo, 0.0)[None, :] - m) / s, -np.inf)
-    zh = np.where(fin_h, (np.where(fin_h[0], hi, 0.0)[None, :] - m) / s, np.inf)
-    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-        # log(F(zh) - F(zl)) without underflow far in a tail: in the upper tail as
-        # F(-zl) - F(-zh); then log F(hi) + log1p(-F(lo) / F(hi))
-        upper = zl > 0
-        l_hi = logcdf(np.where(upper, -zl, zh))
-        l_lo = logcdf(np.where(upper, -zh, zl))
-        log_p = l_hi + np.log1p(-np.exp(l_lo - l_hi))
-        pt = point[None, :]
-        zp = np.where(pt, zl, 0.0)
-        log_f = logpdf(zp) - np.log(s)
-        ll = np.where(pt, log_f, log_p)
-        if not need_derivs:
-            return ll
-        zl0, zh0 = np.where(fin_l, zl, 0.0), np.where(fin_h, zh, 0.0)
-        fl = np.where(fin_l & ~pt, np.exp(logpdf(zl0) - log_p), 0.0)  # f(zl) / P
-        fh = np.where(fin_h & ~pt, np.exp(logpdf(zh0) - log_p), 0.0)
-        gl, gh = g(zl0), g(zh0)
-        a = fh - fl
-        bq = zh0 * fh - zl0 * fl
-        g1 = gh * fh - gl * fl
-        c = zh0 * gh * fh - zl0 * gl * fl
-        d = zh0 * zh0 * gh * fh - zl0 * zl0 * gl * fl
-        s2 = s * s
-        l_m = -a / s
-        l_s = -bq / s
-        l_mm = -(g1 + a * a) / s2
-        l_ms = (a - c - a * bq) / s2
-        l_ss = (2 * bq - d - bq * bq) / s2
-        gz, gpz = g(zp), gp(zp)
-        l_m = np.where(pt, gz / s, l_m)
-        l_s = np.where(pt, (zp * gz - 1) / s, l_s)
-        l_mm = np.where(pt, -gpz / s2, l_mm)
-        l_ms = np.where(pt, -(gz + zp * gpz) / s2, l_ms)
-        l_ss = np.where(pt, (1 - 2 * zp * gz - zp * zp * gpz) / s2, l_ss)
-        # chain rule from s to sigma: s' = sigma / s, s'' = tau2 / s^3
-        ds = sigma[:, None] / s
-        d2s = tau2[None, :] / (s2 * s)
-        return (ll, l_m, l_s * ds, l_mm, l_ms * ds, l_ss * ds * ds + l_s * d2s)
+    items = _Items(lo, hi, point, tau2, np.zeros(np.size(point), int))
+    m = np.asarray(mu, dtype=float)[:, None]
+    sg = np.asarray(sigma, dtype=float)[:, None]
+    shape = (m.shape[0], items.point.size)
+    out = [np.empty(shape) for _ in range(6 if need_derivs else 1)]
+    for cat, sl in items.blocks:
+        res = _block_terms(cat, m, sg, items.lo[:, sl], items.hi[:, sl], items.tau2[:, sl],
+                           fam, need_derivs)
+        for o, r in zip(out, res if need_derivs else (res,), strict=True):
+            o[:, sl] = r
+    return tuple(out) if need_derivs else out[0]
 
 
 def _detection_parts(x, items, w, fam, missed, ew, need_derivs=True):
     """Log-likelihood (B,), gradient (B, 4) and Hessian (B, 4, 4) in (mu, sigma, pa, pb).
 
     Exact items contribute ``ew * l + [log(1 - pa) + log(1 - pb)]``, bounds ``l`` or, with
-    the missed-report shares, ``log(p + (1 - p) exp(l))`` with their side's ``p``."""
-    lo, hi, point, tau2, kind = items
+    the missed-report shares, ``log(p + (1 - p) exp(l))`` with their side's ``p``.
+    ``items`` (:class:`_Items`) hold one row or one per row of ``x``."""
     mu, sigma, pa, pb = x[:, 0], x[:, 1], x[:, 2], x[:, 3]
-    exact = (kind == 0)[None, :]
-    up = (kind == 1)[None, :]
-    res = _interval_terms(mu, sigma, lo, hi, point, tau2, fam, need_derivs)
-    ll_i = res[0] if need_derivs else res
-    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-        if missed:
-            own = np.where(up, pa[:, None], pb[:, None])
-            l1o = np.log1p(-own)
-            log_m = np.logaddexp(np.log(own), l1o + ll_i)
-            l1a, l1b = np.log1p(-pa)[:, None], np.log1p(-pb)[:, None]
-            contrib = np.where(exact, ew * ll_i + l1a + l1b, log_m)
-        else:
-            contrib = np.where(exact, ew * ll_i, ll_i)
-        ll = np.sum(np.where(w > 0, w * contrib, 0.0), axis=1)
-        if not need_derivs:
-            return ll
-        _, l_m, l_s, l_mm, l_ms, l_ss = res
-        bsz = x.shape[0]
+    m, sg = mu[:, None], sigma[:, None]
+    bsz = x.shape[0]
+    ll = np.zeros(bsz)
+    if need_derivs:
         grad = np.zeros((bsz, 4))
         hess = np.zeros((bsz, 4, 4))
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         if missed:
-            q = np.where(exact, ew, np.exp(l1o + ll_i - log_m))  # posterior share
-            r = np.where(exact, 0.0, q * (1 - q))
-            e_l = np.exp(ll_i)
-            dp = np.where(exact, 0.0, (1 - e_l) / np.exp(log_m))  # d/dp of a bound
-            dpp = -dp * dp
-            dpt = np.where(exact, 0.0, -e_l / np.exp(2 * log_m))  # d2/dp dtheta / l_theta
-        else:
-            q = np.where(exact, ew, 1.0)
-            r = np.zeros_like(q)
-        ww = np.where(w > 0, w, 0.0)
-        grad[:, 0] = np.sum(ww * q * l_m, axis=1)
-        grad[:, 1] = np.sum(ww * q * l_s, axis=1)
-        hess[:, 0, 0] = np.sum(ww * (q * l_mm + r * l_m * l_m), axis=1)
-        hess[:, 0, 1] = hess[:, 1, 0] = np.sum(ww * (q * l_ms + r * l_m * l_s), axis=1)
-        hess[:, 1, 1] = np.sum(ww * (q * l_ss + r * l_s * l_s), axis=1)
-        if missed:
-            ia, ib = 1.0 / (1.0 - pa)[:, None], 1.0 / (1.0 - pb)[:, None]
-            lo_b = (kind == -1)[None, :]
-            grad[:, 2] = np.sum(ww * np.where(exact, -ia, np.where(up, dp, 0.0)), axis=1)
-            grad[:, 3] = np.sum(ww * np.where(exact, -ib, np.where(lo_b, dp, 0.0)), axis=1)
-            hess[:, 2, 2] = np.sum(ww * np.where(exact, -ia * ia, np.where(up, dpp, 0.0)), 1)
-            hess[:, 3, 3] = np.sum(ww * np.where(exact, -ib * ib, np.where(lo_b, dpp, 0.0)),
-                                   1)
-            for j, side in ((2, up), (3, lo_b)):
-                hess[:, j, 0] = hess[:, 0, j] = np.sum(ww * np.where(side, dpt * l_m, 0.0), 1)
-                hess[:, j, 1] = hess[:, 1, j] = np.sum(ww * np.where(side, dpt * l_s, 0.0), 1)
+            l1a, l1b = np.log1p(-pa)[:, None], np.log1p(-pb)[:, None]
+            ia, ib = 1.0 / (1.0 - pa), 1.0 / (1.0 - pb)
+        for cat, sl in items.blocks:
+            wb = w[:, sl]
+            res = _block_terms(cat, m, sg, items.lo[:, sl], items.hi[:, sl],
+                               items.tau2[:, sl], fam, need_derivs)
+            l_i = res[0] if need_derivs else res
+            exact = cat in (_INTERVAL, _POINT)
+            if missed and not exact:
+                own = (pa if cat == _UPPER else pb)[:, None]
+                l1o = np.log1p(-own)
+                log_m = np.logaddexp(np.log(own), l1o + l_i)
+                contrib = log_m
+            elif missed:
+                contrib = ew * l_i + l1a + l1b
+            else:
+                contrib = ew * l_i if exact else l_i
+            ll += np.sum(np.where(wb > 0, wb * contrib, 0.0), axis=1)
+            if not need_derivs:
+                continue
+            _, l_m, l_s, l_mm, l_ms, l_ss = res
+            ww = np.where(wb > 0, wb, 0.0)
+            if missed and not exact:
+                q = np.exp(l1o + l_i - log_m)  # posterior share
+                r = q * (1 - q)
+                e_l = np.exp(l_i)
+                dp = (1 - e_l) / np.exp(log_m)  # d/dp of a bound
+                dpt = -e_l / np.exp(2 * log_m)  # d2/dp dtheta / l_theta
+                j = 2 if cat == _UPPER else 3
+                grad[:, j] += np.sum(ww * dp, axis=1)
+                hess[:, j, j] += np.sum(ww * (-dp * dp), axis=1)
+                hess[:, j, 0] += np.sum(ww * (dpt * l_m), axis=1)
+                hess[:, j, 1] += np.sum(ww * (dpt * l_s), axis=1)
+                wq = ww * q
+                grad[:, 0] += np.sum(wq * l_m, axis=1)
+                grad[:, 1] += np.sum(wq * l_s, axis=1)
+                hess[:, 0, 0] += np.sum(ww * (q * l_mm + r * l_m * l_m), axis=1)
+                hess[:, 0, 1] += np.sum(ww * (q * l_ms + r * l_m * l_s), axis=1)
+                hess[:, 1, 1] += np.sum(ww * (q * l_ss + r * l_s * l_s), axis=1)
+                continue
+            wq = ww * ew if exact else ww
+            grad[:, 0] += np.sum(wq * l_m, axis=1)
+            grad[:, 1] += np.sum(wq * l_s, axis=1)
+            hess[:, 0, 0] += np.sum(wq * l_mm, axis=1)
+            hess[:, 0, 1] += np.sum(wq * l_ms, axis=1)
+            hess[:, 1, 1] += np.sum(wq * l_ss, axis=1)
+            if missed:  # exact items: log(1 - pa) + log(1 - pb)
+                n_e = np.sum(ww, axis=1)
+                grad[:, 2] -= n_e * ia
+                grad[:, 3] -= n_e * ib
+                hess[:, 2, 2] -= n_e * ia * ia
+                hess[:, 3, 3] -= n_e * ib * ib
+    if not need_derivs:
+        return ll
+    hess[:, 1, 0] = hess[:, 0, 1]
+    for j in (2, 3):
+        hess[:, 0, j], hess[:, 1, j] = hess[:, j, 0], hess[:, j, 1]
     return ll, grad, hess
+
+
+def _kind_sums(w, kind):
+    """Total weight of the exact values, upper and lower bounds per row of ``w``: (3, B)."""
+    return np.stack([w[:, kind == c].sum(axis=1) for c in (0, 1, -1)])
 
 
 def _detection_batch(items, w, fam, missed, ew, sigma_floor, start_mu, start_sigma,
@@ -893,30 +1085,41 @@ def _detection_batch(items, w, fam, missed, ew, sigma_floor, start_mu, start_sig
     """Batch Newton fit of :func:`_detection_parts`; returns mu, sigma, pa, pb, conv, loglik.
 
     Rows whose start is NaN are left NaN. Parameters on a bound (sigma on its floor, a
-    share at ``pi_min`` / ``pi_max``) are held there while the gradient pushes outwards."""
-    kind = items[4]
+    share at ``pi_min`` / ``pi_max``) are held there while the gradient pushes outwards.
+    The log-likelihood and its derivatives are evaluated once per accepted step: the
+    first trial point of the line search is evaluated with derivatives, which the next
+    iteration uses when it is accepted."""
+    kind = items.kind
     b = w.shape[0]
     x = np.zeros((b, 4))
     x[:, 0], x[:, 1] = start_mu, np.maximum(start_sigma, sigma_floor)
     n_free = 4 if missed else 2
+    w_e, w_u, w_l = _kind_sums(w, kind)
+    no_exact = w_e <= 0
     if missed:
         tot = np.maximum(w.sum(axis=1), 1e-300)
-        x[:, 2] = np.clip(0.1 * w[:, kind == 1].sum(axis=1) / tot, 0.001, 0.3)
-        x[:, 3] = np.clip(0.1 * w[:, kind == -1].sum(axis=1) / tot, 0.001, 0.3)
+        x[:, 2] = np.clip(0.1 * w_u / tot, 0.001, 0.3)
+        x[:, 3] = np.clip(0.1 * w_l / tot, 0.001, 0.3)
         # without exact values the shares would explain every bound
-        x[w[:, kind == 0].sum(axis=1) <= 0, 2:] = pi_min
+        x[no_exact, 2:] = pi_min
     active = np.isfinite(x[:, 0]) & np.isfinite(x[:, 1])
     done = np.zeros(b, bool)
     eye = np.eye(n_free)
     ll_cur = np.full(b, np.nan)
-    no_exact = w[:, kind == 0].sum(axis=1) <= 0
+    # the log-likelihood and derivatives at x, where known (``known``)
+    known = np.zeros(b, bool)
+    c_ll, c_g, c_h = np.full(b, np.nan), np.zeros((b, 4)), np.zeros((b, 4, 4))
     for _ in range(max_iter):
         idx = np.nonzero(active)[0]
         if idx.size == 0:
             break
+        need = idx[~known[idx]]
+        if need.size:
+            c_ll[need], c_g[need], c_h[need] = _detection_parts(
+                x[need], items.take(need), w[need], fam, missed, ew)
+            known[need] = True
         x0 = x[idx]
-        ll, grad, hess = _detection_parts(x0, items, w[idx], fam, missed, ew)
-        grad, hess = grad[:, :n_free], hess[:, :n_free, :n_free]
+        ll, grad, hess = c_ll[idx], c_g[idx, :n_free], c_h[idx, :n_free, :n_free]
         fixed = np.zeros((idx.size, n_free), bool)
         fixed[:, 1] = (x0[:, 1] <= sigma_floor * (1 + 1e-12)) & (grad[:, 1] < 0)
         if missed:
@@ -940,7 +1143,7 @@ def _detection_batch(items, w, fam, missed, ew, sigma_floor, start_mu, start_sig
         accepted = np.zeros(idx.size, bool)
         xn = x0.copy()
         ll_new_all = ll.copy()
-        for _half in range(40):
+        for half in range(40):
             todo = np.nonzero(~accepted)[0]
             if todo.size == 0:
                 break
@@ -949,13 +1152,21 @@ def _detection_batch(items, w, fam, missed, ew, sigma_floor, start_mu, start_sig
             c[:, 1] = np.maximum(c[:, 1], sigma_floor)
             if missed:
                 c[:, 2:] = np.clip(c[:, 2:], pi_min, pi_max)
-            ll_new = _detection_parts(c, items, w[idx[todo]], fam, missed, ew,
-                                      need_derivs=False)
+            rows = idx[todo]
+            res = _detection_parts(c, items.take(rows), w[rows], fam, missed, ew,
+                                   need_derivs=half == 0)
+            ll_new = res[0] if half == 0 else res
             okk = np.isfinite(ll_new) & (ll_new >= ll[todo] - 1e-12 * np.abs(ll[todo]))
             xn[todo[okk]] = c[okk]
             ll_new_all[todo[okk]] = ll_new[okk]
             accepted[todo[okk]] = True
             t[todo[~okk]] *= 0.5
+            moved_rows = rows[okk]
+            if half == 0:  # derivatives at the new point, for the next iteration
+                c_ll[moved_rows], c_g[moved_rows], c_h[moved_rows] = (
+                    res[0][okk], res[1][okk], res[2][okk])
+            else:
+                known[moved_rows] = False
         scale = np.c_[1 + np.abs(x0[:, :1]), x0[:, 1:2], np.ones((idx.size, 2))]
         moved = np.max(np.abs(xn - x0) / scale, axis=1)
         x[idx] = xn
@@ -973,14 +1184,16 @@ def _detection_batch(items, w, fam, missed, ew, sigma_floor, start_mu, start_sig
 
 
 def _detection_items(v, k, half_width, tau):
-    """(lo, hi, point, tau2, kind) arrays of the items of :func:`interval_censored_mle`."""
+    """The items (:class:`_Items`) of :func:`interval_censored_mle`: each value's interval
+    ``[lo, hi]``, whether it is a point, and ``tau^2`` of its detection curve. ``v`` is
+    (K,) or (R, K) (a row of values per fit); ``tau`` a number or (R, 1)."""
     h = float(half_width)
     exact = k == 0
     lo = np.where(exact, v - h, np.where(k == 1, -np.inf, v))
     hi = np.where(exact, v + h, np.where(k == 1, v, np.inf))
     point = exact & (h == 0)
-    tau2 = np.where(exact, 0.0, float(tau) ** 2)
-    return lo, hi, point, tau2, k
+    tau2 = np.where(exact, 0.0, np.asarray(tau, dtype=float) ** 2)
+    return _Items(lo, hi, point, tau2, k)
 
 
 def _check_detection(half_width, tau, df, exact_weight):
@@ -999,6 +1212,16 @@ def interval_censored_mle_batch(values, kinds, weights, *, half_width_db: float 
                                 sigma_floor: float = SIGMA_FLOOR_DB) -> dict:
     """Many :func:`interval_censored_mle` fits at once, one per row of ``weights``.
 
+    Parameters as :func:`interval_censored_mle`, except:
+
+    values : array_like, shape (K,) or (B, K)
+        Differences or bounds [dB], shared by the rows or one row per fit (kinds shared;
+        e.g. many groups at once, a group's unused items with weight 0).
+    weights : array_like, shape (B, K)
+        Non-negative weights of each value in each fit.
+    tau_db : float or array_like, shape (B,)
+        Width of the detection curve [dB], shared or one per fit.
+
     Returns
     -------
     dict of numpy.ndarray, shape (B,)
@@ -1016,8 +1239,33 @@ def interval_censored_mle_batch(values, kinds, weights, *, half_width_db: float 
     >>> fit["mu"].round(3).tolist(), fit["sigma"].round(3).tolist()
     ([1.004, 0.917], [1.405, 1.076])
     """
-    v, k, w = _check_batch(values, kinds, weights, sigma_floor)
-    _check_detection(half_width_db, tau_db, df, exact_weight)
+    vals = np.asarray(values, dtype=float)
+    if vals.ndim == 2:  # a row of values per fit
+        v, k, w = _check_batch(vals[0], kinds, weights, sigma_floor)
+        if vals.shape != w.shape or not np.all(np.isfinite(vals)):
+            raise UsageError(f"values must be finite, of shape (K,) or {w.shape}, got "
+                             f"{vals.shape}")
+        v = vals
+    else:
+        v, k, w = _check_batch(values, kinds, weights, sigma_floor)
+    tau = np.asarray(tau_db, dtype=float)
+    if tau.ndim:
+        if tau.shape != (w.shape[0],):
+            raise UsageError(f"tau_db must be a number or of shape ({w.shape[0]},), got "
+                             f"{tau.shape}")
+        for x in np.unique(tau):
+            _check_detection(half_width_db, x, df, exact_weight)
+        tau_db = tau[:, None]
+    else:
+        _check_detection(half_width_db, float(tau), df, exact_weight)
+    return _interval_fit(v, k, w, half_width_db, tau_db, df, missed, exact_weight,
+                         sigma_floor)
+
+
+def _interval_fit(v, k, w, half_width_db, tau_db, df, missed, exact_weight, sigma_floor):
+    """:func:`interval_censored_mle_batch` on checked input (``v`` (K,) or (B, K),
+    ``tau_db`` a number or (B, 1))."""
+    v, k, w = _by_kind(v, k, w)
     items = _detection_items(v, k, half_width_db, tau_db)
     start_w = np.where(k[None, :] == 0, exact_weight * w, w)
     mu0, s0, _c, _ll, _it = _tobit_batch(v, k, start_w, sigma_floor)

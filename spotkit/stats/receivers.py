@@ -45,10 +45,11 @@ from scipy import sparse, special
 from spotkit.errors import UsageError
 from spotkit.stats.censored import (
     SIGMA_FLOOR_DB,
+    _block_terms,
+    _blocks,
     _check_detection,
     _detection_items,
     _family,
-    _interval_terms,
     _newton_step,
 )
 
@@ -77,7 +78,15 @@ class _Receivers:
     def __init__(self, items, ew, S, fam, xq, logw):
         self.items, self.fam, self.xq, self.logw = items, fam, xq, logw
         coo = S.tocoo()
-        self.item, self.rx, self.cnt = coo.row, coo.col, coo.data * ew[coo.row]
+        # entries in runs of one item category (bounds, intervals, points), each run
+        # evaluated with the formulas its category needs (:func:`_block_terms`)
+        cat = np.zeros(items.point.size, np.int64)
+        for c, sl in items.blocks:
+            cat[sl] = c
+        order = np.argsort(cat[coo.row], kind="stable")
+        row, col, data = coo.row[order], coo.col[order], coo.data[order]
+        self.item, self.rx, self.cnt = row, col, data * ew[row]
+        self.runs = _blocks(cat[row])
         self.n_rx = S.shape[1]
         nnz = self.item.size
         self.M = sparse.csr_matrix((np.ones(nnz), (self.rx, np.arange(nnz))),
@@ -109,16 +118,22 @@ class _Receivers:
     def data_terms(self, sigma, need_derivs):
         """Sum over each receiver's items of the log-probabilities at its nodes, (B, R, Q),
         and with derivatives their first and second derivative in ``sigma``."""
-        lo, hi, point, tau2, _kind = self.items
+        lo, hi, tau2 = self.items.lo[0], self.items.hi[0], self.items.tau2[0]
         q = self.xq.size
         mq = self.m[self.rx]  # (nnz, Q)
         lo_e = (lo[self.item][:, None] - mq).ravel()
         hi_e = (hi[self.item][:, None] - mq).ravel()
-        pt = np.repeat(point[self.item], q)
         t2 = np.repeat(tau2[self.item], q)
         b = sigma.size
-        res = _interval_terms(np.zeros(b), sigma, lo_e, hi_e, pt, t2, self.fam, need_derivs)
-        parts = (res[0], res[2], res[5]) if need_derivs else (res,)
+        zero, sg = np.zeros((b, 1)), np.asarray(sigma, dtype=float)[:, None]
+        parts = [np.empty((b, lo_e.size)) for _ in range(3 if need_derivs else 1)]
+        for cat, sl in self.runs:
+            e = slice(sl.start * q, sl.stop * q)
+            res = _block_terms(cat, zero, sg, lo_e[None, e], hi_e[None, e], t2[None, e],
+                               self.fam, "sigma" if need_derivs else False)
+            for out, r in zip(parts, (res[0], res[2], res[5]) if need_derivs else (res,),
+                              strict=True):
+                out[:, e] = r
         w = np.repeat(self.cnt, q)[None, :]
         out = []
         for j, a in enumerate(parts):
@@ -176,12 +191,20 @@ def _newton(x, rec, w, sigma_floor, max_iter, tol):
     done = np.zeros(b, bool)
     ll_cur = np.full(b, np.nan)
     eye = np.eye(3)
+    # log-likelihood and derivatives at x where known: the first trial point of each line
+    # search is evaluated with derivatives, which the next iteration uses if it is accepted
+    known = np.zeros(b, bool)
+    c_ll, c_g, c_h = np.full(b, np.nan), np.zeros((b, 3)), np.zeros((b, 3, 3))
     for _ in range(max_iter):
         idx = np.nonzero(active)[0]
         if idx.size == 0:
             break
+        need = idx[~known[idx]]
+        if need.size:
+            c_ll[need], _em, _sd, c_g[need], c_h[need] = _evaluate(x[need], rec, w[need], True)
+            known[need] = True
         x0 = x[idx]
-        ll, _em, _sd, grad, hess = _evaluate(x0, rec, w[idx], True)
+        ll, grad, hess = c_ll[idx], c_g[idx], c_h[idx]
         step = _newton_step(hess, grad, eye)
         t = np.ones(idx.size)
         with np.errstate(invalid="ignore", divide="ignore"):
@@ -191,19 +214,26 @@ def _newton(x, rec, w, sigma_floor, max_iter, tol):
         t = np.maximum(t, 0.0)
         accepted = np.zeros(idx.size, bool)
         xn, ll_new_all = x0.copy(), ll.copy()
-        for _half in range(40):
+        for half in range(40):
             todo = np.nonzero(~accepted)[0]
             if todo.size == 0:
                 break
             c = x0[todo] + t[todo, None] * step[todo]
             c[:, 1] = np.maximum(c[:, 1], sigma_floor)
             c[:, 2] = np.maximum(c[:, 2], 1e-3)
-            ll_new = _evaluate(c, rec, w[idx[todo]], False)[0]
+            rows = idx[todo]
+            res = _evaluate(c, rec, w[rows], half == 0)
+            ll_new = res[0]
             ok = np.isfinite(ll_new) & (ll_new >= ll[todo] - 1e-12 * np.abs(ll[todo]))
             xn[todo[ok]] = c[ok]
             ll_new_all[todo[ok]] = ll_new[ok]
             accepted[todo[ok]] = True
             t[todo[~ok]] *= 0.5
+            if half == 0:
+                c_ll[rows[ok]], c_g[rows[ok]], c_h[rows[ok]] = (ll_new[ok], res[3][ok],
+                                                                res[4][ok])
+            else:
+                known[rows[ok]] = False
         scale = np.c_[1 + np.abs(x0[:, 0]), x0[:, 1], 1 + np.abs(x0[:, 2])]
         moved = np.max(np.abs(xn - x0) / scale, axis=1)
         x[idx] = xn
