@@ -284,9 +284,9 @@ SLOW_BOOT = 50
 #: pairs; ``model="pooled"`` is the fit without it). Measured on this file's runs
 #: (``benchmarks/coverage_study.py --runs 17 --large-runs 60 --boot 50 --interval normal
 #: --model pooled,detection``, seeds 5000+ and 7000+, error against each run's truth):
-#: receiver heterogeneity with A 7 dB below B -0.056 +- 0.007 -> -0.024 +- 0.005 dB, the
-#: large cell -0.057 +- 0.002 -> -0.022 +- 0.001 dB (against the population truth -0.062
-#: -> -0.027 dB), every other regime moved by at most 0.003 dB; the interval is the pooled
+#: receiver heterogeneity with A 7 dB below B -0.056 +- 0.007 -> -0.022 +- 0.005 dB, the
+#: large cell -0.057 +- 0.002 -> -0.021 +- 0.001 dB (against the population truth -0.062
+#: -> -0.025 dB), every other regime moved by at most 0.003 dB; the interval is the pooled
 #: bootstrap moved by the shift (coverage as before). The xfails of this regime and of the
 #: large cell were removed with it.
 HETERO_APART = "receiver heterogeneity, A 7 dB below B"
