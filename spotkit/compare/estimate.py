@@ -148,7 +148,7 @@ the pairs heard by B alone), the pooled estimate was 0.52 dB above the mean true
 (plain difference-Tobit 0.88 dB; with the edge correction 0.16 dB, which over-corrects
 the groups with one difference); the demo's other cells were within 0.25 dB (measured
 before the receiver shift). Overall (``benchmarks/bench_models.py``) the demo's
-simultaneous test is off by -0.016 dB (pooled +0.016), its receive test by -0.063 dB
+simultaneous test is off by -0.016 dB (pooled +0.016), its receive test by -0.066 dB
 (pooled +0.066). With the three-antenna demo's patterns (difference from +5 dB at low
 angles to -10 dB at 30 degrees, varying along each receiver's paths) the receiver shift
 removes only part of the blend: the step between the dipoles is +0.33 dB off in the demo
