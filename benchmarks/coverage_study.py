@@ -116,18 +116,34 @@ def run_once(regime: str, seed: int, n_boot: int = 200, confidence: float = 0.95
         run's own), estimate_db, ci_low_db, ci_high_db [dB], covered (the population
         truth), covered_run (the run's truth).
     """
+    return run_models(regime, seed, (model,), n_boot, confidence, interval, tau_from)[0]
+
+
+def run_models(regime: str, seed: int, models=("detection",), n_boot: int = 200,
+               confidence: float = 0.95, interval: str = "percentile",
+               tau_from: str = "pairs") -> list[dict]:
+    """One run of a regime compared by each of ``models`` (the same spots): a list of
+    :func:`run_once`'s dicts, each with its ``model``, the compare time ``seconds`` and
+    ``receiver_shift_db``."""
     spots, cells = heldout.generate(seed=seed, **REGIMES[regime])
     truth = heldout.overall_truth(cells)
     pop = population_truth(regime)
-    res = compare_antennas(spots, "simultaneous", heldout.CALL_A, heldout.CALL_B,
-                           n_boot=n_boot, seed=seed, confidence=confidence,
-                           interval=interval, tau_from=tau_from, model=model)
-    o = res.overall
-    lo, hi = float(o["ci_low_db"]), float(o["ci_high_db"])
-    return {"regime": regime, "seed": seed, "pairs": int(o["pairs"]), "population_db": pop,
-            "truth_db": truth, "estimate_db": float(o["b_minus_a_db"]), "ci_low_db": lo,
-            "ci_high_db": hi, "covered": bool(lo <= pop <= hi),
-            "covered_run": bool(lo <= truth <= hi)}
+    rows = []
+    for model in models:
+        t0 = time.perf_counter()
+        res = compare_antennas(spots, "simultaneous", heldout.CALL_A, heldout.CALL_B,
+                               n_boot=n_boot, seed=seed, confidence=confidence,
+                               interval=interval, tau_from=tau_from, model=model)
+        o = res.overall
+        lo, hi = float(o["ci_low_db"]), float(o["ci_high_db"])
+        rows.append({"regime": regime, "model": model, "seed": seed,
+                     "pairs": int(o["pairs"]), "population_db": pop, "truth_db": truth,
+                     "estimate_db": float(o["b_minus_a_db"]), "ci_low_db": lo,
+                     "ci_high_db": hi, "covered": bool(lo <= pop <= hi),
+                     "covered_run": bool(lo <= truth <= hi),
+                     "receiver_shift_db": float(o.get("receiver_shift_db", np.nan)),
+                     "seconds": time.perf_counter() - t0})
+    return rows
 
 
 def run_regime(regime: str, runs: int, n_boot: int = 200, first_seed: int = 1000,
@@ -139,8 +155,10 @@ def run_regime(regime: str, runs: int, n_boot: int = 200, first_seed: int = 1000
     width comes from ("pairs", the default, or "reports", the earlier fit); ``model``: the
     estimator ("detection", the default, or "receiver-effects", the random effect per
     receiver)."""
-    return pd.DataFrame([run_once(regime, first_seed + i, n_boot, confidence, interval,
-                                  tau_from, model) for i in range(runs)])
+    models = (model,) if isinstance(model, str) else tuple(model)
+    return pd.DataFrame([r for i in range(runs)
+                         for r in run_models(regime, first_seed + i, models, n_boot,
+                                             confidence, interval, tau_from)])
 
 
 def summarise(runs: pd.DataFrame, confidence: float = 0.95) -> pd.DataFrame:
@@ -148,24 +166,34 @@ def summarise(runs: pd.DataFrame, confidence: float = 0.95) -> pd.DataFrame:
     population truth, with its binomial SE, and of the run truth), failed runs."""
     z = norm.ppf(0.5 + confidence / 2)
     rows = []
-    for regime, g in runs.groupby("regime", sort=False):
+    if "model" not in runs:
+        runs = runs.assign(model="")
+    for (regime, model), g in runs.groupby(["regime", "model"], sort=False):
         err = g["estimate_db"] - g["population_db"]
+        err_run = g["estimate_db"] - g["truth_db"]
         width = g["ci_high_db"] - g["ci_low_db"]
         sd = float(err.std(ddof=1)) if err.notna().sum() > 1 else np.nan
         cov = float(g["covered"].mean())
-        rows.append({"regime": regime, "runs": len(g), "pairs": int(g["pairs"].mean()),
+        rows.append({"regime": regime, "model": model, "runs": len(g),
+                     "pairs": int(g["pairs"].mean()),
                      "bias_db": float(err.mean()), "sd_db": sd,
+                     "bias_run_db": float(err_run.mean()),
+                     "bias_run_se_db": float(err_run.std(ddof=1) / np.sqrt(err_run.count()))
+                     if err_run.count() > 1 else np.nan,
                      "width_db": float(width.mean()),
                      "width_ratio": float(width.mean() / (2 * z * sd)),
                      "coverage": cov, "coverage_se": float(np.sqrt(cov * (1 - cov) / len(g))),
                      "coverage_run": float(g["covered_run"].mean()),
-                     "failed": int((g["estimate_db"].isna() | width.isna()).sum())})
+                     "failed": int((g["estimate_db"].isna() | width.isna()).sum()),
+                     "seconds": float(g["seconds"].mean()) if "seconds" in g else np.nan})
     return pd.DataFrame(rows)
 
 
 def check_targets(summary: pd.DataFrame) -> pd.Series:
-    """Per regime, "ok" or what missed its target (issue 15)."""
+    """Per regime, "ok" or what missed its target (issue 15); with several models per
+    regime keyed ``"regime [model]"``."""
     out = {}
+    one_model = "model" not in summary or summary["model"].nunique() <= 1
     for r in summary.to_dict("records"):
         miss = []
         if not abs(r["bias_db"]) <= MAX_BIAS_DB:
@@ -175,22 +203,27 @@ def check_targets(summary: pd.DataFrame) -> pd.Series:
             miss.append(f"coverage {100 * r['coverage']:.1f} % < {100 * floor:.0f} %")
         if r["regime"] == BASELINE and not r["width_ratio"] <= MAX_WIDTH_RATIO:
             miss.append(f"width {r['width_ratio']:.2f} x ideal")
-        out[r["regime"]] = "ok" if not miss else "; ".join(miss)
+        key = r["regime"] if one_model else f"{r['regime']} [{r['model']}]"
+        out[key] = "ok" if not miss else "; ".join(miss)
     return pd.Series(out, name="target")
 
 
 def format_table(summary: pd.DataFrame) -> str:
     """The study as a Markdown table."""
-    t = summary.merge(check_targets(summary).rename_axis("regime").reset_index(), on="regime")
-    head = ("| regime | runs | pairs | bias dB | SD dB | interval dB | width / ideal | "
-            "coverage | coverage of the run truth | target |")
-    lines = [head, "|---|---:|---:|---:|---:|---:|---:|---:|---:|---|"]
+    if "model" not in summary:
+        summary = summary.assign(model="")
+    t = summary.assign(target=check_targets(summary).to_numpy())
+    head = ("| regime | model | runs | pairs | bias dB | SD dB | bias vs run truth dB | "
+            "interval dB | width / ideal | coverage | coverage of the run truth | target |")
+    lines = [head, "|---|---|---:|---:|---:|---:|---:|---:|---:|---:|---:|---|"]
     for r in t.to_dict("records"):
         lines.append(
-            f"| {r['regime']} | {r['runs']} | {r['pairs']:,} | {r['bias_db']:+.3f} | "
-            f"{r['sd_db']:.3f} | {r['width_db']:.3f} | {r['width_ratio']:.2f} | "
+            f"| {r['regime']} | {r['model']} | {r['runs']} | {r['pairs']:,} | "
+            f"{r['bias_db']:+.3f} | {r['sd_db']:.3f} | "
+            f"{r['bias_run_db']:+.3f} +- {r['bias_run_se_db']:.3f} | "
+            f"{r['width_db']:.3f} | {r['width_ratio']:.2f} | "
             f"{100 * r['coverage']:.1f} % (+-{100 * r['coverage_se']:.1f}) | "
-            f"{100 * r['coverage_run']:.1f} % | {r['target']} |")
+            f"{100 * r['coverage_run']:.1f} % | {r['seconds']:.1f} | {r['target']} |")
     return "\n".join(lines)
 
 
@@ -206,9 +239,10 @@ def main(argv=None) -> int:
     ap.add_argument("--tau-from", choices=("pairs", "reports"), default="pairs",
                     help="detection width from the paired reports (default) or from the "
                     "receivers' report histograms (the earlier estimator: before/after)")
-    ap.add_argument("--model", choices=("detection", "receiver-effects"),
-                    default="detection", help="estimator: the pooled detection model "
-                    "(default) or the opt-in random effect per receiver (slower)")
+    ap.add_argument("--model", default="detection", help="estimator(s), separated by "
+                    "',', each run compared by every one on the same spots: detection "
+                    "(default: the pooled fit moved by the receiver shift), pooled (without "
+                    "the shift) or receiver-effects (refitted in every resample, slower)")
     ap.add_argument("--first-seed", type=int, default=1000, help="seed of the first run")
     ap.add_argument("--csv", help="also write every run to this CSV")
     ap.add_argument("--from-csv", help="only summarise the runs saved in this CSV")
@@ -222,6 +256,7 @@ def main(argv=None) -> int:
                 runs["population_db"] <= runs["ci_high_db"])
         print(format_table(summarise(runs)))
         return 0
+    models = tuple(m.strip() for m in args.model.split(",") if m.strip())
     names = list(REGIMES)
     if args.regimes is not None:
         names = [n.strip() for n in args.regimes.split(";") if n.strip()]
@@ -235,10 +270,11 @@ def main(argv=None) -> int:
         t1 = time.perf_counter()
         frames.append(run_regime(name, n, n_boot=args.boot, first_seed=args.first_seed,
                                  interval=args.interval, tau_from=args.tau_from,
-                                 model=args.model))
-        s = summarise(frames[-1]).iloc[0]
-        print(f"  {name}: {n} runs in {time.perf_counter() - t1:.0f} s, bias "
-              f"{s['bias_db']:+.3f} dB, coverage {100 * s['coverage']:.1f} %", file=sys.stderr)
+                                 model=models))
+        for s in summarise(frames[-1]).to_dict("records"):
+            print(f"  {name} [{s['model']}]: {n} runs in {time.perf_counter() - t1:.0f} s, "
+                  f"bias {s['bias_db']:+.3f} dB (run truth {s['bias_run_db']:+.3f}), "
+                  f"coverage {100 * s['coverage']:.1f} %", file=sys.stderr)
         if args.csv:  # as it goes, so that a long study keeps what it has done
             pd.concat(frames, ignore_index=True).to_csv(args.csv, index=False)
     runs = pd.concat(frames, ignore_index=True)

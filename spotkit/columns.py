@@ -108,6 +108,10 @@ P_SIGN = "p_sign"  # sign-test p over clusters' median both-heard differences
 P_MCNEMAR = "p_mcnemar"  # McNemar-type sign-test p over clusters of only_b - only_a
 SIGMA = "sigma_db"  # fitted spread of B-A per pair [dB]
 CORRECTION = "threshold_correction_db"  # added to the censored MLE (spotkit.compare.estimate) [dB]
+#: added to the pooled fit's B minus A for B-A varying between receivers (default detection
+#: model: the receiver-effects fit's mean over the pairs less the pooled fit's; NaN where
+#: not applied: one cluster, edge correction, or missed reports fitted) [dB]
+RECEIVER_SHIFT = "receiver_shift_db"
 CI_STAT_LOW = "ci_stat_low_db"  # statistical part of the interval alone (cluster bootstrap) [dB]
 CI_STAT_HIGH = "ci_stat_high_db"
 #: systematic part [dB]: largest change of B minus A over the plausible detection models

@@ -165,12 +165,14 @@ def add_ab_options(p, *, required: bool = True, title: str = "A/B comparison") -
                    "other than the antenna, e.g. a path closing between slots (default fit)")
     # the model and interval choices of compare_antennas (tests/cli/test_model_options.py
     # checks these lists against spotkit.compare's MODELS, WIDTH_FROM and INTERVALS)
-    g.add_argument("--model", choices=["detection", "tobit", "receiver-effects"],
+    g.add_argument("--model", choices=["detection", "pooled", "tobit", "receiver-effects"],
                    default="detection",
                    help="detection: soft detection curve, whole-dB reports as intervals, "
-                   "systematic part (default); tobit: the earlier hard-limit fit; "
-                   "receiver-effects: the detection model with a random effect per "
-                   "receiver, the mean B-A over the pairs when receivers differ (slower)")
+                   "systematic part, moved by the receiver shift (the mean B-A over the "
+                   "pairs when receivers differ; default); pooled: the same without the "
+                   "receiver shift (one law of B-A for every pair); tobit: the earlier "
+                   "hard-limit fit; receiver-effects: the random effect per receiver "
+                   "refitted in every resample (slower)")
     g.add_argument("--tau", type=positive_float, metavar="DB",
                    help="width of the decoders' detection curve [dB] (default: fitted)")
     g.add_argument("--tau-from", choices=["pairs", "reports"], default="pairs",

@@ -221,9 +221,9 @@ def cmd_plot(args) -> int:
         pairs = pair_spots(spots, args.design, args.a, args.b, schedule=args.schedule,
                            window_slots=args.window,
                            require_open_path=not args.no_open_path_check,
-                           threshold_method="t50" if args.model == "detection" else "lowest",
+                           threshold_method="lowest" if args.model == "tobit" else "t50",
                            tau_db=args.tau)
-        if args.model == "detection" and args.tau is None and args.tau_from == "pairs":
+        if args.model != "tobit" and args.tau is None and args.tau_from == "pairs":
             from spotkit.compare.width import width_from_pairs
 
             # the detection width as the comparison chooses it (compare_antennas)

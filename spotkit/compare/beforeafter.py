@@ -265,6 +265,7 @@ def estimate_before_after(counts, keys, n_boot, seed, confidence, min_pairs, clu
     res[C.P_MCNEMAR] = np.nan
     res[C.SIGMA] = sig
     res[C.CORRECTION] = np.nan
+    res[C.RECEIVER_SHIFT] = np.nan  # one estimate per period: no receiver-effects fit
     res[C.CI_STAT_LOW] = lo
     res[C.CI_STAT_HIGH] = hi
     res[C.SYSTEMATIC] = np.nan  # the detection model's systematic part is not assessed here

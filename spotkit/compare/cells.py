@@ -166,13 +166,23 @@ def estimate_cells(result, *, block_hours: float = DEFAULT_BLOCK_HOURS,
         min_pairs=int(opts.get("min_pairs", 30)),
         cluster_label=f"{float(block_hours):g}-h blocks of a {label}",
         threshold_correction=opts.get("threshold_correction", "none"),
-        missed_reports=opts.get("missed_reports", "fit"))
+        missed_reports=opts.get("missed_reports", "fit"), model="pooled")
+    # the blocks are resampling units, not receivers: the cell keeps the receiver shift of
+    # its receivers (NaN with one receiver), the blocks' pooled fit and interval move by it
     gcols = group_columns(keys)
     g_idx = pd.MultiIndex.from_frame(groups[gcols].astype(object))
     e_idx = pd.MultiIndex.from_frame(est[gcols].astype(object))
     pos = e_idx.get_indexer(g_idx)
     rows = np.flatnonzero(pos >= 0)
-    cols = [c for c in RESULT_COLUMNS if c in est.columns]
+    if C.RECEIVER_SHIFT in groups:
+        shift = groups[C.RECEIVER_SHIFT].to_numpy(dtype=float)[rows]
+        shift = np.where(np.isfinite(shift), shift, 0.0)
+        est = est.copy()
+        for c in (C.B_MINUS_A, C.CI_LOW, C.CI_HIGH, C.CI_STAT_LOW, C.CI_STAT_HIGH):
+            v = est[c].to_numpy(dtype=float).copy()
+            v[pos[rows]] += shift
+            est[c] = v
+    cols = [c for c in RESULT_COLUMNS if c in est.columns and c != C.RECEIVER_SHIFT]
     for c in cols:
         vals = groups[c].to_numpy().copy()
         new = est[c].to_numpy()[pos[rows]]

@@ -592,7 +592,7 @@ def test_earlier_model_on_request_and_bad_model():
     assert old[C.SYSTEMATIC] == 0.0 and np.isnan(old[C.DETECTION_TAU])
     assert old[C.TAIL_DF] == np.inf and "Tobit" in old[C.METHOD]
     from spotkit.errors import UsageError
-    with pytest.raises(UsageError, match="detection, tobit"):
+    with pytest.raises(UsageError, match="detection, pooled, tobit"):
         estimate_groups(counts, model="probit")
 
 
