@@ -12,7 +12,8 @@ normal or Student t tails, both-heard items weighted by ``exact_weight``); ``u_r
 integrated out per receiver by adaptive Gauss-Hermite quadrature (:data:`N_NODES` nodes
 centred on each receiver's posterior of ``mu + u_r``: a receiver with dozens of pairs
 has a posterior several times narrower than ``s_u``, which fixed nodes miss; the
-centres come from a 0.1-dB grid at the starting values, then from refits of the data).
+centres come from a 0.1-dB grid over the data's range, recomputed after each refit of
+the data until they settle, from starting values that are the receivers' own means).
 Maximised by Newton's method with analytic derivatives, all bootstrap rows at once
 (the nodes of the unit-weight fit are kept for the rows). The summary that matches "the
 mean B-A over the pairs in the data" is
@@ -67,13 +68,17 @@ def _nodes(n):
 
 
 class _Receivers:
-    """The items of each receiver at fixed quadrature points of ``m = mu + u``.
+    """The items of each receiver at quadrature points of ``m = mu + u``.
 
-    Adaptive quadrature: receiver ``r``'s nodes are ``m_rq = c_r + d_r x_q`` (``c_r``,
-    ``d_r``: an approximation of the posterior mean and SD of ``mu + u_r``), so that
+    Adaptive quadrature: receiver ``r``'s nodes are ``m_rq = lam_r mu + o_rq`` with
+    ``o_rq = c_r - lam_r mu_0 + d_r x_q`` (``c_r``, ``d_r``: the posterior mean and SD of
+    ``mu + u_r`` at the centring parameters, ``mu_0`` the mean there, ``lam_r = d_r^2 /
+    s_u^2`` the prior's share of the posterior, clipped to [0, 1]), so that
     ``integral f_r(m) phi((m - mu)/s_u)/s_u dm ~ sum_q w_q f_r(m_rq) phi((m_rq - mu)/s_u)
-    / s_u * d_r / phi(x_q)``. The item terms ``f_r(m_rq)`` depend on ``sigma`` alone; ``mu``
-    and ``s_u`` enter through the normal factor (analytic derivatives)."""
+    / s_u * d_r / phi(x_q)``. A receiver with many pairs (``lam`` near 0) keeps its nodes
+    where its data put it; one the prior dominates (``lam`` near 1, e.g. receivers that do
+    not differ) moves them with ``mu`` - as the normal posterior mean ``(1 - k) mu + k
+    ybar`` does - so that Newton's steps in ``mu`` are not held to the old nodes."""
 
     def __init__(self, items, ew, S, fam, xq, logw):
         self.items, self.fam, self.xq, self.logw = items, fam, xq, logw
@@ -92,47 +97,62 @@ class _Receivers:
         self.M = sparse.csr_matrix((np.ones(nnz), (self.rx, np.arange(nnz))),
                                    shape=(self.n_rx, nnz))
 
-    def set_nodes(self, c, d):
-        """Receiver centres ``c`` and scales ``d`` (R,) [dB]."""
-        self.m = c[:, None] + d[:, None] * self.xq[None, :]  # (R, Q)
+    def set_nodes(self, c, d, mu0, s_u0):
+        """Receiver centres ``c`` and scales ``d`` (R,) [dB] of the posterior at the mean
+        ``mu0`` and receiver SD ``s_u0`` [dB]."""
+        self.lam = np.clip(d ** 2 / max(float(s_u0), 1e-12) ** 2, 0.0, 1.0)
+        self.off = (c - self.lam * mu0)[:, None] + d[:, None] * self.xq[None, :]  # (R, Q)
         # the normal constants of phi(z) and 1/phi(x_q) cancel
         self.const = self.logw[None, :] + 0.5 * self.xq[None, :] ** 2 + np.log(d)[:, None]
 
-    def grid_posterior(self, mu, sigma, s_u, half_range=12.0, step=0.1):
-        """Posterior mean and SD (R,) of ``mu + u_r`` on a fine grid [dB], at one
-        parameter set: the first centres and scales of the nodes."""
-        grid = mu + np.arange(-half_range, half_range + step / 2, step)
-        saved = self.m, self.xq
-        self.m = np.broadcast_to(grid, (self.n_rx, grid.size))
-        self.xq = grid
+    def grid_posterior(self, mu, sigma, s_u, span, step=0.1):
+        """Posterior mean and SD (R,) of ``mu + u_r`` on a fine grid over ``span`` (low,
+        high) [dB], at one parameter set: the centres and scales of the nodes."""
+        grid = np.arange(span[0], span[1] + step / 2, step)
+        saved = getattr(self, "off", None), getattr(self, "lam", None), self.xq
+        a = np.empty((self.n_rx, grid.size))
+        # in pieces of the grid: items x grid points at once would be large
+        piece = max(16, int(2_000_000 // max(self.item.size, 1)))
         try:
-            a = self.data_terms(np.array([float(sigma)]), False)[0][0]  # (R, G)
+            self.lam = np.zeros(self.n_rx)
+            for i in range(0, grid.size, piece):
+                g = grid[i:i + piece]
+                self.off = np.broadcast_to(g, (self.n_rx, g.size))
+                self.xq = g
+                a[:, i:i + piece] = self.data_terms(np.zeros(1), np.array([float(sigma)]),
+                                                    False)[0][0]
         finally:
-            self.m, self.xq = saved
+            self.off, self.lam, self.xq = saved
         a = np.where(np.isnan(a), -np.inf, a) - 0.5 * ((grid - mu) / s_u) ** 2
         p = np.exp(a - special.logsumexp(a, axis=1, keepdims=True))
         c = p @ grid
         d = np.sqrt(np.maximum(p @ grid ** 2 - c ** 2, (step / 2) ** 2))
         return c, d
 
-    def data_terms(self, sigma, need_derivs):
+    def nodes(self, mu):
+        """The nodes ``m`` (B, R, Q) [dB] at the means ``mu`` (B,)."""
+        return self.lam[None, :, None] * mu[:, None, None] + self.off[None]
+
+    def data_terms(self, mu, sigma, need_derivs):
         """Sum over each receiver's items of the log-probabilities at its nodes, (B, R, Q),
-        and with derivatives their first and second derivative in ``sigma``."""
+        at the means ``mu`` and SDs ``sigma`` (B,); with derivatives also their derivatives
+        in the node ``m`` and ``sigma``: ``l_m, l_s, l_mm, l_ms, l_ss``."""
         lo, hi, tau2 = self.items.lo[0], self.items.hi[0], self.items.tau2[0]
         q = self.xq.size
-        mq = self.m[self.rx]  # (nnz, Q)
-        lo_e = (lo[self.item][:, None] - mq).ravel()
-        hi_e = (hi[self.item][:, None] - mq).ravel()
+        oq = self.off[self.rx]  # (nnz, Q)
+        lo_e = (lo[self.item][:, None] - oq).ravel()
+        hi_e = (hi[self.item][:, None] - oq).ravel()
         t2 = np.repeat(tau2[self.item], q)
+        lam_e = np.repeat(self.lam[self.rx], q)
         b = sigma.size
-        zero, sg = np.zeros((b, 1)), np.asarray(sigma, dtype=float)[:, None]
-        parts = [np.empty((b, lo_e.size)) for _ in range(3 if need_derivs else 1)]
+        sg = np.asarray(sigma, dtype=float)[:, None]
+        m_all = np.asarray(mu, dtype=float)[:, None] * lam_e[None, :]  # (B, nnz Q)
+        parts = [np.empty((b, lo_e.size)) for _ in range(6 if need_derivs else 1)]
         for cat, sl in self.runs:
             e = slice(sl.start * q, sl.stop * q)
-            res = _block_terms(cat, zero, sg, lo_e[None, e], hi_e[None, e], t2[None, e],
-                               self.fam, "sigma" if need_derivs else False)
-            for out, r in zip(parts, (res[0], res[2], res[5]) if need_derivs else (res,),
-                              strict=True):
+            res = _block_terms(cat, m_all[:, e], sg, lo_e[None, e], hi_e[None, e],
+                               t2[None, e], self.fam, bool(need_derivs))
+            for out, r in zip(parts, res if need_derivs else (res,), strict=True):
                 out[:, e] = r
         w = np.repeat(self.cnt, q)[None, :]
         out = []
@@ -148,31 +168,35 @@ def _evaluate(x, rec, wr, need_derivs):
     ``wr`` (B, R); the posterior mean of ``mu + u_r`` (B, R) and its SD; with derivatives
     also the gradient (B, 3) and Hessian (B, 3, 3)."""
     ll_out, em_out, sd_out, g_out, h_out = [], [], [], [], []
+    lam = rec.lam[None, :, None]
     for i in range(0, x.shape[0], _CHUNK):
         xs, w = x[i:i + _CHUNK], np.where(wr[i:i + _CHUNK] > 0, wr[i:i + _CHUNK], 0.0)
-        parts = rec.data_terms(xs[:, 1], need_derivs)
+        parts = rec.data_terms(xs[:, 0], xs[:, 1], need_derivs)
         su = np.abs(xs[:, 2])[:, None, None]
-        z = (rec.m[None, :, :] - xs[:, 0][:, None, None]) / su
+        m = rec.nodes(xs[:, 0])  # (B, R, Q)
+        z = (m - xs[:, 0][:, None, None]) / su
         a = parts[0] + rec.const[None] - 0.5 * z * z - np.log(su)
         a = np.where(np.isnan(a), -np.inf, a)
         lse = special.logsumexp(a, axis=2)  # (B, R)
         with np.errstate(invalid="ignore"):
             p = np.nan_to_num(np.exp(a - lse[..., None]))
-        em = np.einsum("brq,rq->br", p, rec.m)
-        var = np.einsum("brq,rq->br", p, rec.m ** 2) - em ** 2
+        em = np.einsum("brq,brq->br", p, m)
+        var = np.einsum("brq,brq->br", p, m ** 2) - em ** 2
         ll_out.append(np.sum(np.where(w > 0, w * lse, 0.0), axis=1))
         em_out.append(em)
         sd_out.append(np.sqrt(np.maximum(var, 0.0)))
         if not need_derivs:
             continue
-        zero = np.zeros_like(z)
-        g = np.stack([z / su, parts[1], (z * z - 1) / su], axis=-1)  # (B, R, Q, 3)
+        _l, l_m, l_s, l_mm, l_ms, l_ss = parts
+        dz = (lam - 1.0) / su  # dz / dmu
+        g = np.stack([lam * l_m - z * dz, l_s, (z * z - 1) / su + 0 * z], axis=-1)
         h = np.empty(g.shape + (3,))
-        h[..., 0, 0] = -1.0 / su ** 2 + zero
-        h[..., 1, 1] = parts[2]
+        h[..., 0, 0] = lam * lam * l_mm - dz * dz
+        h[..., 1, 1] = l_ss
         h[..., 2, 2] = (1 - 3 * z * z) / su ** 2
-        h[..., 0, 1] = h[..., 1, 0] = h[..., 1, 2] = h[..., 2, 1] = 0.0
-        h[..., 0, 2] = h[..., 2, 0] = -2 * z / su ** 2
+        h[..., 0, 1] = h[..., 1, 0] = lam * l_ms
+        h[..., 1, 2] = h[..., 2, 1] = 0.0
+        h[..., 0, 2] = h[..., 2, 0] = 2 * z * dz / su
         gbar = np.einsum("brq,brqk->brk", p, g)
         hr = (np.einsum("brq,brqkl->brkl", p, h + g[..., :, None] * g[..., None, :])
               - gbar[..., :, None] * gbar[..., None, :])
@@ -182,6 +206,36 @@ def _evaluate(x, rec, wr, need_derivs):
     if not need_derivs:
         return ll, em, sd
     return ll, em, sd, np.concatenate(g_out), np.concatenate(h_out)
+
+
+def _moment_starts(v, k, S):
+    """Starting (mu, sigma, s_u) [dB] from the exact items: the pair-weighted mean of the
+    receivers' means, the pooled SD about them and the SD of the means less the within
+    part (at least 0.1 dB); None where fewer than two receivers have two exact items."""
+    ex = k == 0
+    cnt = S[ex].toarray() if sparse.issparse(S) else np.asarray(S)[ex]
+    val = v[ex]
+    n = cnt.sum(axis=0)
+    use = n >= 2
+    if use.sum() < 2:
+        return None
+    n, cnt = n[use], cnt[:, use]
+    m = (val @ cnt) / n
+    within = np.sum(cnt * (val[:, None] - m[None, :]) ** 2) / max(np.sum(n - 1), 1)
+    mu = np.sum(n * m) / n.sum()
+    between = np.sum(n * (m - mu) ** 2) / n.sum() - within / np.mean(n)
+    return np.array([mu, np.sqrt(max(within, 0.01)), np.sqrt(max(between, 0.01))])
+
+
+def _grid_span(v, x):
+    """Range [dB] of the grid for the receivers' posteriors: the data's values widened
+    by four of the larger of the pair and receiver SDs (at least 12 dB either side of
+    the mean)."""
+    pad = 4.0 * max(float(x[1]), float(x[2])) + 1.0
+    fin = v[np.isfinite(v)]
+    lo = min(float(fin.min()) - pad, float(x[0]) - 12.0)
+    hi = max(float(fin.max()) + pad, float(x[0]) + 12.0)
+    return lo, hi
 
 
 def _newton(x, rec, w, sigma_floor, max_iter, tol):
@@ -246,12 +300,12 @@ def _newton(x, rec, w, sigma_floor, max_iter, tol):
 
 
 def receiver_effects_mle_batch(values, kinds, counts, weights, *, start_mu, start_sigma,
-                               start_s_u=0.5, half_width_db: float = 0.0,
+                               start_s_u=None, half_width_db: float = 0.0,
                                tau_db: float = 0.0, df: float = np.inf,
                                exact_weight: float = 1.0,
                                sigma_floor: float = SIGMA_FLOOR_DB, n_nodes: int = N_NODES,
                                max_iter: int = 100, tol: float = 1e-8,
-                               adapt_rounds: int = 4) -> dict:
+                               adapt_rounds: int = 10) -> dict:
     """The receiver random-effects fit, one per row of ``weights`` (cluster weights).
 
     Parameters
@@ -265,7 +319,11 @@ def receiver_effects_mle_batch(values, kinds, counts, weights, *, start_mu, star
         Weight of each receiver per fit (bootstrap: how often it was drawn; ones: the
         data as they are).
     start_mu, start_sigma, start_s_u : float or array_like (B,)
-        Starting values [dB] (e.g. the pooled fit's).
+        Starting values [dB] (e.g. the pooled fit's). Without ``start_s_u`` the SDs
+        start from the receivers' own means of their exact items (method of moments:
+        the SD of those means, at least 0.5 dB, and the pooled SD about them), where at
+        least two receivers have two or more exact items; ``start_sigma`` is then used
+        only where that fails, and ``start_s_u`` is 0.5 dB.
     half_width_db, tau_db, df, exact_weight, sigma_floor :
         As :func:`spotkit.stats.censored.interval_censored_mle`.
     n_nodes : int
@@ -320,23 +378,37 @@ def receiver_effects_mle_batch(values, kinds, counts, weights, *, start_mu, star
     x[:, 1] = np.maximum(np.broadcast_to(np.asarray(start_sigma, float), b), sigma_floor)
     x[:, 2] = np.maximum(np.broadcast_to(np.asarray(start_s_u, float), b), 1e-3)
     n_r = np.asarray(S.sum(axis=0)).ravel()
-    # nodes centred on each receiver's posterior: first from the start (wide, then the
-    # posterior there), refitted until the centres settle (adaptive quadrature)
+    if start_s_u is None:
+        moments = _moment_starts(v, k, S)
+        # the receivers' SD and the pairs' SD about their receivers from the moments (at
+        # least 0.5 dB for the receivers: a start at the boundary would fix the nodes
+        # there); the mean stays the caller's, which accounts for the bounds
+        x[:, 2] = 0.5 if moments is None else max(moments[2], 0.5)
+        if moments is not None:
+            x[:, 1] = moments[1]
+    # nodes centred on each receiver's posterior: first computed on a fine grid over the
+    # whole range of the data at the starting values, then from the quadrature at each
+    # refit until the centres settle (adaptive quadrature); a fit whose centres do not
+    # settle is reported as not converged
     x1 = x[:1].copy()
     one = np.ones((1, S.shape[1]))
-    rec.set_nodes(np.zeros(S.shape[1]), np.ones(S.shape[1]))
-    c, d = rec.grid_posterior(x1[0, 0], x1[0, 1], x1[0, 2])
-    c, d = c[None, :], d[None, :]
+    span = _grid_span(v, x1[0])
+    c, d = rec.grid_posterior(x1[0, 0], x1[0, 1], x1[0, 2], span=span)
+    settled = False
     for _round in range(adapt_rounds):
-        rec.set_nodes(c[0], np.maximum(d[0], 1e-3))
+        rec.set_nodes(c, np.maximum(d, 1e-3), x1[0, 0], x1[0, 2])
         x1, _ll, _ok = _newton(x1, rec, one, sigma_floor, max_iter, tol)
+        if not np.all(np.isfinite(x1)):
+            break
         _ll, c_new, d_new = _evaluate(x1, rec, one, False)
-        settled = np.max(np.abs(c_new[0] - c[0]) / np.maximum(d[0], 1e-3)) < 0.05
+        c_new, d_new = c_new[0], d_new[0]
+        settled = np.max(np.abs(c_new - c) / np.maximum(d, 1e-3)) < 0.05
         c, d = c_new, d_new
         if settled:
             break
-    rec.set_nodes(c[0], np.maximum(d[0], 1e-3))
+    rec.set_nodes(c, np.maximum(d, 1e-3), x1[0, 0], x1[0, 2])
     x, ll_cur, ok = _newton(x, rec, w, sigma_floor, max_iter, tol)
+    ok = ok & settled
     _ll, em, _sd = _evaluate(np.where(ok[:, None], x, 1.0), rec, w, False)
     wn = n_r[None, :] * np.where(w > 0, w, 0.0)
     mu_pairs = np.sum(wn * em, axis=1) / np.maximum(wn.sum(axis=1), 1e-300)
