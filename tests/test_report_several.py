@@ -62,7 +62,8 @@ def test_two_antenna_report_unchanged_without_the_section(three):
 @pytest.mark.parametrize("argv, message", [
     (["--design", "simultaneous", "--a", "Q1ABC", "--antennas", "Q1ABC,Q1ABD",
       "--periods", "a:2026-03-01,b:2026-03-02"], "not both"),
-    (["--design", "alternating", "--a", "Q1ABC", "--antennas", "A,B,C"], "simultaneous"),
+    (["--design", "alternating", "--a", "Q1ABC", "--antennas", "A,B,C"], "--schedule"),
+    (["--design", "before-after", "--a", "Q1ABC", "--antennas", "A,B,C"], "alternating"),
     (["--design", "simultaneous", "--a", "Q1ABC", "--b", "Q1ABD", "--periods",
       "a:2026-03-01,b:2026-03-02"], "before-after"),
     (["--design", "simultaneous", "--a", "Q1ABC", "--b", "Q1ABD", "--all-pairs"],
@@ -95,6 +96,35 @@ def test_report_command_with_antennas(three, tmp_path, capsys):
 
 
 @pytest.mark.slow
+def test_report_command_with_antennas_alternating(tmp_path, capsys):
+    # one call, three antennas on a schedule with labels A, B, C (B 2 dB and C 5 dB above
+    # A): the A/B part compares A with B (the reference with the next label), the
+    # section all three
+    from spotkit.plan.schedule import make_schedule, write_schedule
+
+    table = make_schedule("2026-03-02", days=0.25, bands="20m", antennas="A,B,C", seed=3)
+    sim = simulate_spots("alternating", days=0.25, n_receivers=40, bands=("20m",),
+                         difference_db=2.0, more_antennas=[5.0], seed=6, schedule=table)
+    spots, sched = tmp_path / "alt.parquet", tmp_path / "schedule.csv"
+    sim.spots.to_parquet(spots)
+    write_schedule(table, sched)
+    out = tmp_path / "r.html"
+    rc = main(["report", str(spots), "--design", "alternating", "--a", "Q1ABC",
+               "--antennas", "A,B,C", "--schedule", str(sched), "--window", "5",
+               "--boot", "40", "-o", str(out)])
+    assert rc == 0
+    printed = capsys.readouterr().out
+    first = printed.splitlines()[0]
+    assert first.startswith("B is ") and " better than A " in first
+    est = float(first.split("B is ")[1].split(" dB")[0])
+    assert est == pytest.approx(2.0, abs=0.7)
+    assert "Ranking: C > B > A" in printed
+    text = out.read_text(encoding="utf-8")
+    sec = text[text.index("id='several'"):text.index("id='summary'")]
+    assert ">C minus A<" in sec and ">B minus A<" in sec
+
+
+@pytest.mark.slow
 def test_report_command_with_periods(tmp_path, capsys):
     sim = simulate_spots("before-after", days=6, n_receivers=40, bands=("20m",),
                          difference_db=2.0, more_antennas=[5.0],
@@ -106,7 +136,14 @@ def test_report_command_with_periods(tmp_path, capsys):
                "--periods", "old:2026-03-02,new:2026-03-04,newer:2026-03-06",
                "--boot", "40", "-o", str(out)])
     assert rc == 0
-    assert "Steps: new is " in capsys.readouterr().out
+    printed = capsys.readouterr().out
+    assert "Steps: new is " in printed
+    # the A/B part is old against new, on the reports before 'newer' began (truth: the
+    # step old -> new is 2 dB; with 'newer' (5 dB) counted as after it was about 3.5)
+    first = printed.splitlines()[0]
+    assert "new (B)" in first and "old (A)" in first
+    est = float(first.split(" is ")[1].split(" dB")[0])
+    assert est == pytest.approx(2.0, abs=0.8)
     text = out.read_text(encoding="utf-8")
     sec = text[text.index("<h2 id='series'>Series of changes</h2>"):text.index("id='summary'")]
     assert "Q1ABC: old from 2026-03-02 00:00 UTC" in sec

@@ -222,9 +222,10 @@ def add_report(sub) -> None:
         "several antennas or a series of changes",
         "adds a section 'Several antennas' or 'Series of changes' (ranking or steps, "
         "the table with simultaneous intervals); the rest of the report is the A/B one. "
-        "With --antennas, --b defaults to the second antenna; with --periods, --change-at "
-        "defaults to the second period's start (the A/B part then compares all the data "
-        "before and after that moment)")
+        "With --antennas, the A/B part is the reference against the next antenna (--b "
+        "defaults to it; alternating design: two of the schedule's labels, one call); with "
+        "--periods, it is the first period against the second, on the reports before the "
+        "third period's start (--change-at defaults to the second period's start)")
     g.add_argument("--antennas", metavar="X,Y,Z", help="the antennas to compare (k >= 2)")
     g.add_argument("--reference", metavar="X", help="with --antennas: the antenna the "
                    "others are compared with (default the first)")
@@ -248,9 +249,10 @@ def cmd_report(args) -> int:
     check_output(args.output, "-o", inputs=(args.spots, args.schedule))
     spots = load_spots(args.spots)
     show_progress = progress(args)
+    ab_spots, ab_kw = _report_ab_part(args, spots)
     results, map_result = standard_comparisons(
-        spots, args.design, args.a, args.b, by=by or None, progress=show_progress,
-        **compare_kwargs(args))
+        ab_spots, args.design, args.a, args.b, by=by or None, progress=show_progress,
+        **ab_kw)
     several = _report_several(args, spots)
     write_report(args.output, spots, results, map_result=map_result, title=args.title,
                  progress=show_progress, several=several)
@@ -274,11 +276,16 @@ def _report_several_defaults(args) -> None:
         raise UsageError("--reference and --all-pairs go with --antennas")
     if args.antennas:
         labels = parse_antennas(args.antennas)
-        if args.design not in ("simultaneous", "receive"):
-            raise UsageError("report --antennas needs --design simultaneous or receive "
-                             f"(got {args.design}); for the alternating design use "
-                             "'spotkit compare --antennas ... --markdown'")
-        if args.b is None:
+        if args.design not in ("simultaneous", "receive", "alternating"):
+            raise UsageError("report --antennas needs --design simultaneous, receive or "
+                             f"alternating (got {args.design})")
+        if args.design == "alternating":
+            if not args.schedule:
+                raise UsageError("report --antennas with the alternating design needs "
+                                 "--schedule (labels as in --antennas)")
+            if args.b is None:
+                args.b = args.a  # one call; the A/B part compares two of the labels
+        elif args.b is None:
             others = [x for x in labels if x != args.a.upper()]
             args.b = others[0]
     if args.periods:
@@ -289,6 +296,37 @@ def _report_several_defaults(args) -> None:
             args.change_at = periods[1][1].isoformat()
 
 
+def _report_ab_part(args, spots):
+    """The spots and compare_antennas keywords of the report's A/B part.
+
+    Several antennas, alternating design: the reference (--reference, else the first
+    label) as A against the next label as B. A series of changes: the first period as A
+    against the second as B, on the reports before the third period's start only, named
+    by their labels unless --label-a/--label-b say otherwise."""
+    import pandas as pd
+
+    from spotkit import columns as C
+    from spotkit.compare.multi import parse_antennas
+    from spotkit.compare.series import parse_periods
+
+    kw = compare_kwargs(args)
+    if args.antennas and args.design == "alternating":
+        labels = parse_antennas(args.antennas)
+        ref = (args.reference or labels[0]).strip().upper()
+        other = next(x for x in labels if x != ref)
+        kw.update(schedule_labels=labels, contrast=(ref, other))
+        kw.setdefault("labels", (ref, other))
+    if args.periods:
+        periods = parse_periods(args.periods)
+        t = pd.to_datetime(spots[C.TIME], utc=True)
+        keep = t >= periods[0][1]
+        if len(periods) > 2:
+            keep &= t < periods[2][1]
+        spots = spots[keep.to_numpy()]
+        kw.setdefault("labels", (periods[0][0], periods[1][0]))
+    return spots, kw
+
+
 def _report_several(args, spots):
     """The several-antenna or series result for the report's section, or None."""
     common = dict(n_boot=args.boot, seed=args.seed, confidence=args.confidence,
@@ -296,8 +334,14 @@ def _report_several(args, spots):
     if args.antennas:
         from spotkit.compare.multi import compare_several
 
+        alt = args.design == "alternating"
         return compare_several(spots, args.design, args.antennas,
                                reference=args.reference, all_pairs=args.all_pairs,
+                               call=args.a if alt else None,
+                               schedule=args.schedule if alt else None,
+                               window_slots=(None if args.window == 1 else args.window)
+                               if alt else None,
+                               require_open_path=not args.no_open_path_check,
                                model=args.model, tau_db=args.tau, tau_from=args.tau_from,
                                **common)
     if args.periods:

@@ -1143,7 +1143,9 @@ def verdict(row, confidence: float = 0.95, hour_basis: str = "utc",
     if labels is None:
         name_a, name_b, diff = "A", "B", "B minus A"
     else:
-        name_a, name_b = f"{labels[0]} (A)", f"{labels[1]} (B)"
+        # a label that is its own letter (schedule labels A, B) is not repeated
+        name_a, name_b = (lab if lab == let else f"{lab} ({let})"
+                          for lab, let in zip(labels, "AB", strict=True))
         diff = f"{labels[1]} minus {labels[0]}"
     where = group_label(row, hour_basis, sentence=True)
     where = "" if where == "overall" else f" {where}"
@@ -1337,7 +1339,8 @@ def compare_antennas(spots: pd.DataFrame, design: Design, a: str, b: str | None 
                      tau_db: float | None = None,
                      interval: Interval = "percentile",
                      labels: tuple[str, str] | None = None,
-                     tau_from: WidthFrom = "pairs") -> ComparisonResult:
+                     tau_from: WidthFrom = "pairs", schedule_labels=None,
+                     contrast: tuple[str, str] | None = None) -> ComparisonResult:
     """Compare antenna B with antenna A: B minus A [dB] overall and by group.
 
     Parameters
@@ -1352,6 +1355,12 @@ def compare_antennas(spots: pd.DataFrame, design: Design, a: str, b: str | None 
         Alternating design's schedule.
     change_at : str or pandas.Timestamp, optional
         Before-after design's change time (UTC).
+    schedule_labels : sequence of str, optional
+        Alternating design: the schedule's antenna labels when it has more than A and B
+        (e.g. ``("A", "B", "C")`` from ``spotkit plan schedule --antennas A,B,C``).
+    contrast : (str, str), optional
+        With ``schedule_labels``: the two labels compared, as A and B (default the first
+        two); the other antennas' reports count as evidence of an open path only.
     by : str or sequence of str
         Group keys (:data:`spotkit.compare.grouping.GROUP_KEYS`).
     distance_edges : sequence of float
@@ -1461,10 +1470,15 @@ def compare_antennas(spots: pd.DataFrame, design: Design, a: str, b: str | None 
     if labels is not None:
         labels = check_labels(*labels)
     check_choice(tau_from, WIDTH_FROM, "tau_from")
+    several = {}
+    if schedule_labels is not None:
+        several = dict(antennas=tuple(str(x).strip().upper() for x in schedule_labels))
+        several["contrast"] = (tuple(str(x).strip().upper() for x in contrast)
+                               if contrast is not None else several["antennas"][:2])
     pairs = pair_spots(spots, design, a, b, schedule=schedule, change_at=change_at,
                        window_slots=window_slots, require_open_path=require_open_path,
                        threshold_method="t50" if model in DETECTION_MODELS else "lowest",
-                       tau_db=tau_db)
+                       tau_db=tau_db, **several)
     if (model in DETECTION_MODELS and tau_db is None and tau_from == "pairs"
             and design in PAIRED_DESIGNS):
         pairs, _ = width_from_pairs(spots, pairs, design, a, b)
@@ -1480,6 +1494,9 @@ def compare_antennas(spots: pd.DataFrame, design: Design, a: str, b: str | None 
                    day_hours=float(day_hours), model=model,
                    tau_db=None if tau_db is None else float(tau_db), interval=interval,
                    tau_from=tau_from,
+                   **({} if not several else dict(
+                       schedule_labels=list(several["antennas"]),
+                       contrast=list(several["contrast"]))),
                    schedule=schedule if isinstance(
                        schedule, (str, type(None))) else "table",
                    change_at=None if change_at is None else str(change_at))
