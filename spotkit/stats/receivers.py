@@ -105,28 +105,42 @@ class _Receivers:
         # the normal constants of phi(z) and 1/phi(x_q) cancel
         self.const = self.logw[None, :] + 0.5 * self.xq[None, :] ** 2 + np.log(d)[:, None]
 
-    def grid_posterior(self, mu, sigma, s_u, span, step=0.1):
-        """Posterior mean and SD (R,) of ``mu + u_r`` on a fine grid over ``span`` (low,
-        high) [dB], at one parameter set: the centres and scales of the nodes."""
+    def grid_posterior(self, mu, sigma, s_u, span, step=0.5, fine=81):
+        """Posterior mean and SD (R,) of ``mu + u_r`` [dB] at one parameter set: the
+        centres and scales of the nodes. First on a coarse grid over ``span`` (low, high)
+        [dB] with ``step`` [dB], then on ``fine`` points per receiver across its coarse
+        posterior (five SDs either side, at least two steps), so that a receiver with
+        thousands of pairs (a posterior SD of a few hundredths of a dB) is placed as well
+        as one with a few."""
         grid = np.arange(span[0], span[1] + step / 2, step)
+        c, d = self._posterior_on(np.broadcast_to(grid, (self.n_rx, grid.size)), mu, sigma,
+                                  s_u, step / 2)
+        half = np.maximum(5.0 * d, 2.0 * step)
+        o = np.linspace(-1.0, 1.0, int(fine))
+        local = c[:, None] + half[:, None] * o[None, :]
+        return self._posterior_on(local, mu, sigma, s_u, half * (o[1] - o[0]) / 2)
+
+    def _posterior_on(self, grid, mu, sigma, s_u, sd_floor):
+        """Posterior mean and SD (R,) of ``mu + u_r`` over the points ``grid`` (R, G)
+        [dB] of each receiver (SD at least ``sd_floor``)."""
         saved = getattr(self, "off", None), getattr(self, "lam", None), self.xq
-        a = np.empty((self.n_rx, grid.size))
+        a = np.empty(grid.shape)
         # in pieces of the grid: items x grid points at once would be large
         piece = max(16, int(2_000_000 // max(self.item.size, 1)))
         try:
             self.lam = np.zeros(self.n_rx)
-            for i in range(0, grid.size, piece):
-                g = grid[i:i + piece]
-                self.off = np.broadcast_to(g, (self.n_rx, g.size))
-                self.xq = g
+            for i in range(0, grid.shape[1], piece):
+                g = grid[:, i:i + piece]
+                self.off = g
+                self.xq = g[0]
                 a[:, i:i + piece] = self.data_terms(np.zeros(1), np.array([float(sigma)]),
                                                     False)[0][0]
         finally:
             self.off, self.lam, self.xq = saved
         a = np.where(np.isnan(a), -np.inf, a) - 0.5 * ((grid - mu) / s_u) ** 2
         p = np.exp(a - special.logsumexp(a, axis=1, keepdims=True))
-        c = p @ grid
-        d = np.sqrt(np.maximum(p @ grid ** 2 - c ** 2, (step / 2) ** 2))
+        c = np.sum(p * grid, axis=1)
+        d = np.sqrt(np.maximum(np.sum(p * grid ** 2, axis=1) - c ** 2, sd_floor ** 2))
         return c, d
 
     def nodes(self, mu):
@@ -407,6 +421,8 @@ def receiver_effects_mle_batch(values, kinds, counts, weights, *, start_mu, star
         if settled:
             break
     rec.set_nodes(c, np.maximum(d, 1e-3), x1[0, 0], x1[0, 2])
+    if start_s_u is None and np.all(np.isfinite(x1)):
+        x[:] = x1[0]  # the rows start from the data's own fit
     x, ll_cur, ok = _newton(x, rec, w, sigma_floor, max_iter, tol)
     ok = ok & settled
     _ll, em, _sd = _evaluate(np.where(ok[:, None], x, 1.0), rec, w, False)

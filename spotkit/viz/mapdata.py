@@ -375,8 +375,8 @@ def difference_cells(result, *, level: Level = "auto", pairs: pd.DataFrame | Non
     >>> print(cells[cols].head(3).round(2).to_string(index=False))
     field_locator  b_minus_a_db  far_lat  far_lon  clusters  significant
                DN          2.90     45.0   -110.0         4        False
-               EM          2.96     35.0    -90.0         8         True
-               JN          3.18     45.0     10.0        15         True
+               EM          2.92     35.0    -90.0         8         True
+               JN          3.26     45.0     10.0        15         True
     >>> cells.attrs["level"]
     'field'
     """

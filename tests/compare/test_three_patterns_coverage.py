@@ -44,19 +44,19 @@ def test_family_of_three_pattern_contrasts_covers_at_about_the_nominal_rate():
     err, low, high = np.array(err), np.array(low), np.array(high)  # runs x contrasts
     inside = (low <= 0) & (0 <= high)
     family = inside.all(axis=1).mean()
-    mid, half = (low + high) / 2, (high - low) / 4  # the same intervals, half as wide
-    family_half = ((mid - half <= 0) & (0 <= mid + half)).all(axis=1).mean()
-    # measured (seeds 500-515, benchmarks/three_patterns_study.py): with the receiver
-    # shift (the default) all three inside in 16 of 16 runs; bias per contrast +0.19
-    # (dipole 10 m - vertical), +0.41 (dipole 20 m - vertical), +0.60 dB (dipole 20 m -
-    # dipole 10 m, the pair whose difference changes sign with the angle; run-to-run SD
-    # 0.12, 0.16, 0.21 dB). Without it (model="pooled") 14 of 16, +0.22, +0.38, +0.79 dB
-    # (SD 0.12, 0.38, 0.51 dB); half-wide intervals then covered 6 (seeds 500-523: 22 of
-    # 24). Nominal 95 %; 0.8 is about 3 binomial SDs below it with 16 runs and fails
-    # half-wide intervals.
+    # measured (seeds 500-515, benchmarks/three_patterns_study.py): all three inside in 16
+    # of 16 runs; bias per contrast against each run's truth +0.041 +- 0.028 (dipole 10 m -
+    # vertical), +0.036 +- 0.019 (dipole 20 m - vertical), -0.011 +- 0.013 dB (dipole 20 m
+    # - dipole 10 m, the pair whose difference changes sign with the angle); run-to-run SD
+    # of the errors 0.11, 0.07, 0.05 dB. Before the receiver-effects fit's false maximum
+    # was fixed: +0.19, +0.41, +0.60 dB; the pooled fit alone (model="pooled") +0.22, +0.38,
+    # +0.79 dB. The intervals (2.1-2.8 dB wide) are for the antennas over the population of
+    # receivers a run draws from - the run truths themselves differ by about 0.5 dB between
+    # seeds - so against a run's own truth they are wide and coverage has little power
+    # here: the bias bound below (more than 3 SE above each measured bias, and well below
+    # the old +0.60 dB) is what would catch a wrong estimate.
     assert family >= 0.8, f"family coverage {family:.2f}; errors {err.mean(0).round(2)}"
-    assert family_half < 0.8, f"half-wide intervals still covered {family_half:.2f}"
-    assert np.abs(err.mean(axis=0)).max() < 1.0, err.mean(axis=0)
+    assert np.abs(err.mean(axis=0)).max() < 0.15, err.mean(axis=0)
     # no separated pair the wrong way round; the full order C > B > A in most runs (the
     # one run without it has a true gap of 0.7 dB between the dipoles and says "not
     # separated")
