@@ -12,8 +12,10 @@ normal or Student t tails, both-heard items weighted by ``exact_weight``); ``u_r
 integrated out per receiver by adaptive Gauss-Hermite quadrature (:data:`N_NODES` nodes
 centred on each receiver's posterior of ``mu + u_r``: a receiver with dozens of pairs
 has a posterior several times narrower than ``s_u``, which fixed nodes miss; the
-centres come from a 0.1-dB grid over the data's range, recomputed after each refit of
-the data until they settle, from starting values that are the receivers' own means).
+first centres come from a coarse grid over the data's range refined per receiver, then
+from the quadrature after each refit of the data until they settle; the starting SDs come
+from the receivers' own means, and the nodes of a receiver that its prior dominates move
+with the mean).
 Maximised by Newton's method with analytic derivatives, all bootstrap rows at once
 (the nodes of the unit-weight fit are kept for the rows). The summary that matches "the
 mean B-A over the pairs in the data" is
@@ -203,7 +205,7 @@ def _evaluate(x, rec, wr, need_derivs):
             continue
         _l, l_m, l_s, l_mm, l_ms, l_ss = parts
         dz = (lam - 1.0) / su  # dz / dmu
-        g = np.stack([lam * l_m - z * dz, l_s, (z * z - 1) / su + 0 * z], axis=-1)
+        g = np.stack([lam * l_m - z * dz, l_s, (z * z - 1) / su], axis=-1)  # (B, R, Q, 3)
         h = np.empty(g.shape + (3,))
         h[..., 0, 0] = lam * lam * l_mm - dz * dz
         h[..., 1, 1] = l_ss
@@ -223,22 +225,25 @@ def _evaluate(x, rec, wr, need_derivs):
 
 
 def _moment_starts(v, k, S):
-    """Starting (mu, sigma, s_u) [dB] from the exact items: the pair-weighted mean of the
-    receivers' means, the pooled SD about them and the SD of the means less the within
-    part (at least 0.1 dB); None where fewer than two receivers have two exact items."""
-    ex = k == 0
-    cnt = S[ex].toarray() if sparse.issparse(S) else np.asarray(S)[ex]
+    """Starting SDs (sigma, s_u) [dB] from the exact items (method of moments): the pooled
+    SD of the pairs about their receivers' means and the SD of those means less the
+    within part (each at least 0.1 dB); None where fewer than two receivers have two
+    exact items. Sparse throughout (items x receivers can be large)."""
+    ex = np.flatnonzero(k == 0)
+    cnt = sparse.csr_matrix(S)[ex]
     val = v[ex]
-    n = cnt.sum(axis=0)
+    n = np.asarray(cnt.sum(axis=0)).ravel()
     use = n >= 2
     if use.sum() < 2:
         return None
-    n, cnt = n[use], cnt[:, use]
-    m = (val @ cnt) / n
-    within = np.sum(cnt * (val[:, None] - m[None, :]) ** 2) / max(np.sum(n - 1), 1)
+    n = n[use]
+    s1 = np.asarray(cnt.T @ val).ravel()[use]
+    s2 = np.asarray(cnt.T @ (val * val)).ravel()[use]
+    m = s1 / n
+    within = np.sum(s2 - n * m * m) / max(np.sum(n - 1), 1)
     mu = np.sum(n * m) / n.sum()
     between = np.sum(n * (m - mu) ** 2) / n.sum() - within / np.mean(n)
-    return np.array([mu, np.sqrt(max(within, 0.01)), np.sqrt(max(between, 0.01))])
+    return np.sqrt(max(within, 0.01)), np.sqrt(max(between, 0.01))
 
 
 def _grid_span(v, x):
@@ -397,9 +402,9 @@ def receiver_effects_mle_batch(values, kinds, counts, weights, *, start_mu, star
         # the receivers' SD and the pairs' SD about their receivers from the moments (at
         # least 0.5 dB for the receivers: a start at the boundary would fix the nodes
         # there); the mean stays the caller's, which accounts for the bounds
-        x[:, 2] = 0.5 if moments is None else max(moments[2], 0.5)
+        x[:, 2] = 0.5 if moments is None else max(moments[1], 0.5)
         if moments is not None:
-            x[:, 1] = moments[1]
+            x[:, 1] = moments[0]
     # nodes centred on each receiver's posterior: first computed on a fine grid over the
     # whole range of the data at the starting values, then from the quadrature at each
     # refit until the centres settle (adaptive quadrature); a fit whose centres do not
